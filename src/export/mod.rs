@@ -1,0 +1,104 @@
+//! Writers: tables (CSV), the recorded history (NPY) and the run summary (JSON).
+//!
+//! Every file is written under a temporary name in the same folder and
+//! renamed into place when complete, so a reader never sees half a file.
+
+mod tables;
+
+use std::fs::File;
+use std::io::{BufWriter, Write};
+use std::path::{Path, PathBuf};
+
+use ndarray::{Array3, Axis};
+use ndarray_npy::WriteNpyExt;
+
+pub use tables::{write_boundaries, write_domains, write_profiles, write_sheet};
+
+/// An output file that could not be written.
+#[derive(Debug, thiserror::Error)]
+pub enum ExportError {
+    /// File-system trouble.
+    #[error("cannot write {}: {source}", path.display())]
+    Io {
+        /// The file.
+        path: PathBuf,
+        /// Cause.
+        source: std::io::Error,
+    },
+    /// NPY encoding trouble.
+    #[error("cannot write {}: {message}", path.display())]
+    Npy {
+        /// The file.
+        path: PathBuf,
+        /// What the NPY writer said.
+        message: String,
+    },
+}
+
+/// Writes `path` atomically: `body` writes into a temporary file beside it,
+/// which is flushed, synced and renamed over `path`; on failure it is removed.
+///
+/// # Errors
+/// [`ExportError::Io`] for any file-system failure.
+pub fn write_atomic(
+    path: &Path,
+    body: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
+) -> Result<(), ExportError> {
+    let io = |source| ExportError::Io {
+        path: path.to_path_buf(),
+        source,
+    };
+    let name = path
+        .file_name()
+        .map_or_else(|| "out".into(), |n| n.to_string_lossy().into_owned());
+    let tmp = path.with_file_name(format!(".{name}.tmp{}", std::process::id()));
+    let result = (|| {
+        let file = File::create(&tmp)?;
+        let mut w = BufWriter::new(file);
+        body(&mut w)?;
+        let file = w.into_inner().map_err(|e| e.into_error())?;
+        file.sync_all()?;
+        std::fs::rename(&tmp, path)
+    })();
+    if result.is_err() {
+        let _ = std::fs::remove_file(&tmp);
+    }
+    result.map_err(io)
+}
+
+/// Writes the whole recording as a NumPy array of f64: `[snapshot, gene, nucleus]`
+/// for a row, `[snapshot, gene, y, x]` for a sheet.
+///
+/// # Errors
+/// [`ExportError`] if the file cannot be written.
+pub fn write_states_npy(rec: &crate::integrate::Recording, path: &Path) -> Result<(), ExportError> {
+    let (g, n) = rec.states[0].dim();
+    let mut all = Array3::<f64>::zeros((rec.states.len(), g, n));
+    for (mut dst, src) in all.axis_iter_mut(Axis(0)).zip(&rec.states) {
+        dst.assign(src);
+    }
+    let npy_err = |e: ndarray_npy::WriteNpyError| std::io::Error::other(e.to_string());
+    if rec.grid.is_sheet() {
+        let shape = (rec.states.len(), g, rec.grid.ny, rec.grid.nx);
+        let all = all
+            .into_shape_with_order(shape)
+            .map_err(|e| ExportError::Npy {
+                path: path.into(),
+                message: e.to_string(),
+            })?;
+        write_atomic(path, |w| all.write_npy(w).map_err(npy_err))
+    } else {
+        write_atomic(path, |w| all.write_npy(w).map_err(npy_err))
+    }
+}
+
+/// Writes a serialisable value as pretty JSON with a final newline.
+///
+/// # Errors
+/// [`ExportError`] if the file cannot be written.
+pub fn write_json<T: serde::Serialize>(value: &T, path: &Path) -> Result<(), ExportError> {
+    write_atomic(path, |w| {
+        serde_json::to_writer_pretty(&mut *w, value).map_err(std::io::Error::other)?;
+        w.write_all(b"\n")
+    })
+}

@@ -1,0 +1,277 @@
+//! One IMEX step at a time, on structure-of-arrays state `u[[gene, nucleus]]`.
+//!
+//! Variable-step SBDF2 (Wang & Ruuth 2008, J. Comput. Math. 26:838, eq. 2.4;
+//! constant-step form: Ruuth 1995, J. Math. Biol. 34:148), with ω = kₙ/kₙ₋₁,
+//! multiplied through by (1 + ω):
+//!
+//! ```text
+//! (1+2ω) u¹ − k(1+ω) D∇²u¹ = (1+ω)² u⁰ − ω² u⁻¹ + k(1+ω) [(1+ω) f(u⁰) − ω f(u⁻¹)]
+//! ```
+//! For ω = 1 this is `3u¹ − 2kD∇²u¹ = 4u⁰ − u⁻¹ + 2k(2f⁰ − f⁻¹)`. The first
+//! step, with no history, is IMEX Euler: `u¹ − kD∇²u¹ = u⁰ + k f(u⁰)`.
+//! Diffusion is implicit (exact solve), reactions explicit.
+
+use ndarray::{Array2, Axis, Zip};
+use rayon::prelude::*;
+
+use super::StepError;
+use crate::kinetics::{CHUNK, Kinetics};
+use crate::tissue::{Diffusion, Tissue};
+
+/// |u| above this counts as a blow-up, a.u.
+const BLOW_UP: f64 = 1e100;
+/// Below this many values, work is done on one thread.
+const PARALLEL_MIN: usize = 8192;
+
+/// The integrator's state and working arrays; nothing is allocated per step.
+pub struct Stepper<'a> {
+    kinetics: &'a dyn Kinetics,
+    tissue: &'a Tissue,
+    diffusion: Diffusion,
+    gene_names: Vec<String>,
+    parallel: bool,
+    /// Time of `u`, min.
+    t: f64,
+    u: Array2<f64>,
+    u1: Array2<f64>,
+    u2: Array2<f64>,
+    f: Array2<f64>,
+    f1: Array2<f64>,
+    trial: Array2<f64>,
+    inputs: Array2<f64>,
+    /// Accepted states held: 1 = u; 2 = u, u1; 3 = u, u1, u2.
+    history: usize,
+    /// t(u) − t(u1), min.
+    k1: f64,
+    /// t(u1) − t(u2), min.
+    k2: f64,
+}
+
+impl<'a> Stepper<'a> {
+    /// Starts from `u0` at `t0` (min); evaluates the first rates.
+    ///
+    /// # Errors
+    /// [`StepError::NonFinite`] if the initial rates are not finite.
+    pub fn new(
+        kinetics: &'a dyn Kinetics,
+        tissue: &'a Tissue,
+        diffusion: &[f64],
+        gene_names: Vec<String>,
+        u0: Array2<f64>,
+        t0: f64,
+        parallel: bool,
+    ) -> Result<Stepper<'a>, StepError> {
+        let dim = u0.dim();
+        let parallel = parallel && dim.0 * dim.1 >= PARALLEL_MIN;
+        let mut s = Stepper {
+            kinetics,
+            tissue,
+            diffusion: Diffusion::new(&tissue.grid, diffusion),
+            gene_names,
+            parallel,
+            t: t0,
+            u: u0,
+            u1: Array2::zeros(dim),
+            u2: Array2::zeros(dim),
+            f: Array2::zeros(dim),
+            f1: Array2::zeros(dim),
+            trial: Array2::zeros(dim),
+            inputs: tissue.inputs_at(t0),
+            history: 1,
+            k1: 0.0,
+            k2: 0.0,
+        };
+        s.evaluate_rates()?;
+        Ok(s)
+    }
+
+    /// Current time, min.
+    pub fn time(&self) -> f64 {
+        self.t
+    }
+
+    /// Current state [gene, nucleus].
+    pub fn state(&self) -> &Array2<f64> {
+        &self.u
+    }
+
+    /// Rates f(u, m(t)) at the current state [gene, nucleus], a.u./min.
+    pub fn rates(&self) -> &Array2<f64> {
+        &self.f
+    }
+
+    /// Last accepted step, min (0 before the first).
+    pub fn last_step(&self) -> f64 {
+        self.k1
+    }
+
+    /// Number of accepted states held (1 before the first step).
+    pub fn history(&self) -> usize {
+        self.history
+    }
+
+    /// Computes a trial state at `t + k` into the trial buffer (history unchanged).
+    pub fn attempt(&mut self, k: f64) {
+        let (a0, coef) = if self.history == 1 {
+            Zip::from(&mut self.trial)
+                .and(&self.u)
+                .and(&self.f)
+                .for_each(|r, &u, &f| *r = u + k * f);
+            (1.0, k)
+        } else {
+            let w = k / self.k1;
+            let (cu, cu1) = ((1.0 + w) * (1.0 + w), w * w);
+            let (kf, cf, cf1) = (k * (1.0 + w), 1.0 + w, w);
+            let z = Zip::from(&mut self.trial)
+                .and(&self.u)
+                .and(&self.u1)
+                .and(&self.f)
+                .and(&self.f1);
+            let rule = |r: &mut f64, &u: &f64, &u1: &f64, &f: &f64, &f1: &f64| {
+                *r = cu * u - cu1 * u1 + kf * (cf * f - cf1 * f1);
+            };
+            if self.parallel {
+                z.par_for_each(rule)
+            } else {
+                z.for_each(rule)
+            }
+            (1.0 + 2.0 * w, k * (1.0 + w))
+        };
+        self.diffusion
+            .solve(&mut self.trial, a0, coef, self.parallel);
+    }
+
+    /// Weighted max-norm of the local error of the trial step of size `k`:
+    /// `max |C·(u_trial − u_pred)| / (atol + rtol·max(|u|, |u_trial|))`, with
+    /// `u_pred` the polynomial extrapolation of the held states (quadratic
+    /// once three are held, C = 2/11, the Milne estimate for BDF2: Hairer,
+    /// Nørsett & Wanner, Solving ODEs I, 2nd ed., §III.7; linear before, C = 1).
+    /// Infinite if the trial is not finite.
+    pub fn error_norm(&self, k: f64, rtol: f64, atol: f64) -> f64 {
+        let (c, wn, wn1, wn2) = if self.history >= 3 {
+            let (k1, k2) = (self.k1, self.k2);
+            let wn = (k + k1) * (k + k1 + k2) / (k1 * (k1 + k2));
+            let wn1 = -k * (k + k1 + k2) / (k1 * k2);
+            let wn2 = k * (k + k1) / ((k1 + k2) * k2);
+            (2.0 / 11.0, wn, wn1, wn2)
+        } else if self.history == 2 {
+            let w = k / self.k1;
+            (1.0, 1.0 + w, -w, 0.0)
+        } else {
+            return 0.0;
+        };
+        let one = |&r: &f64, &u: &f64, &u1: &f64, &u2: &f64| -> f64 {
+            let e = c * (r - (wn * u + wn1 * u1 + wn2 * u2)) / (atol + rtol * u.abs().max(r.abs()));
+            if e.is_finite() {
+                e.abs()
+            } else {
+                f64::INFINITY
+            }
+        };
+        let rows = |(r, (u, (u1, u2))): (_, (_, (_, _)))| -> f64 {
+            Zip::from(r)
+                .and(u)
+                .and(u1)
+                .and(u2)
+                .fold(0.0f64, |m, r, u, u1, u2| m.max(one(r, u, u1, u2)))
+        };
+        let ax = Axis(1);
+        if self.parallel {
+            self.trial
+                .axis_chunks_iter(ax, CHUNK * 8)
+                .into_par_iter()
+                .zip(
+                    self.u.axis_chunks_iter(ax, CHUNK * 8).into_par_iter().zip(
+                        self.u1
+                            .axis_chunks_iter(ax, CHUNK * 8)
+                            .into_par_iter()
+                            .zip(self.u2.axis_chunks_iter(ax, CHUNK * 8)),
+                    ),
+                )
+                .map(rows)
+                .reduce(|| 0.0, f64::max)
+        } else {
+            rows((
+                self.trial.view(),
+                (self.u.view(), (self.u1.view(), self.u2.view())),
+            ))
+        }
+    }
+
+    /// Accepts the trial as the state at `t_new` (min), after a step of `k`;
+    /// evaluates the rates there.
+    ///
+    /// # Errors
+    /// [`StepError::NonFinite`] if the new state or its rates are NaN, infinite or blown up.
+    pub fn accept(&mut self, k: f64, t_new: f64) -> Result<(), StepError> {
+        std::mem::swap(&mut self.u2, &mut self.u1);
+        std::mem::swap(&mut self.u1, &mut self.u);
+        std::mem::swap(&mut self.u, &mut self.trial);
+        std::mem::swap(&mut self.f1, &mut self.f);
+        self.k2 = self.k1;
+        self.k1 = k;
+        self.history = (self.history + 1).min(3);
+        self.t = t_new;
+        self.evaluate_rates()
+    }
+
+    /// `f ← f(u, m(t))`, checking every value.
+    fn evaluate_rates(&mut self) -> Result<(), StepError> {
+        if self.tissue.time_varying() {
+            self.tissue.fill_inputs(self.t, &mut self.inputs);
+        }
+        let kinetics = self.kinetics;
+        let ax = Axis(1);
+        let chunk = |(c, (mut out, (u, m))): (
+            usize,
+            (
+                ndarray::ArrayViewMut2<f64>,
+                (ndarray::ArrayView2<f64>, ndarray::ArrayView2<f64>),
+            ),
+        )| {
+            kinetics.rates(u.view(), m, out.view_mut());
+            let bad = |v: &f64| !(v.abs() <= BLOW_UP);
+            if u.iter().any(bad) || out.iter().any(bad) {
+                Some(c)
+            } else {
+                None
+            }
+        };
+        let outs = self.f.axis_chunks_iter_mut(ax, CHUNK);
+        let us = self.u.axis_chunks_iter(ax, CHUNK);
+        let ms = self.inputs.axis_chunks_iter(ax, CHUNK);
+        let first_bad = if self.parallel {
+            outs.into_par_iter()
+                .zip(us.into_par_iter().zip(ms.into_par_iter()))
+                .enumerate()
+                .filter_map(chunk)
+                .min()
+        } else {
+            outs.zip(us.zip(ms)).enumerate().filter_map(chunk).min()
+        };
+        match first_bad {
+            None => Ok(()),
+            Some(c) => Err(self.locate_bad(c * CHUNK)),
+        }
+    }
+
+    fn locate_bad(&self, from: usize) -> StepError {
+        let n = self.u.ncols();
+        for i in from..n {
+            for (g, name) in self.gene_names.iter().enumerate() {
+                for (value, what) in [(self.u[[g, i]], "level"), (self.f[[g, i]], "rate")] {
+                    if !(value.abs() <= BLOW_UP) {
+                        return StepError::NonFinite {
+                            t_min: self.t,
+                            nucleus: i,
+                            gene: name.clone(),
+                            what: what.into(),
+                            value,
+                        };
+                    }
+                }
+            }
+        }
+        unreachable!("a chunk flagged as bad holds a bad value")
+    }
+}

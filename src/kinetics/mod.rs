@@ -1,0 +1,107 @@
+//! Rate laws: `du/dt = f(u, m)` in every nucleus, with `u` the gene levels and
+//! `m` the local gradient values; and the Jacobian `∂f/∂u`.
+//!
+//! A rate law works on a chunk of nuclei at a time: gene-major views
+//! `u[[g, i]]`, `m[[k, i]]`, `out[[g, i]]`, each gene's row contiguous, so the
+//! inner loops run over contiguous slices. A new family (e.g. free rate
+//! expressions) implements [`Kinetics`] and is chosen in [`build`].
+
+mod hill;
+mod sigmoid;
+
+use ndarray::{ArrayView2, ArrayViewMut2};
+
+pub use hill::HillKinetics;
+pub use sigmoid::SigmoidKinetics;
+
+use crate::model::{KineticsKind, Model, Regulator};
+
+/// Largest chunk of nuclei a rate law is handed at once.
+pub const CHUNK: usize = 256;
+
+/// A circuit's rate law.
+pub trait Kinetics: Send + Sync {
+    /// Writes `f(u, m)` for a chunk of at most [`CHUNK`] nuclei, a.u./min.
+    fn rates(&self, u: ArrayView2<f64>, m: ArrayView2<f64>, out: ArrayViewMut2<f64>);
+
+    /// Writes `∂f_g/∂u_j` for one nucleus into `jac[g·G + j]`, 1/min.
+    fn jacobian(&self, u: &[f64], m: &[f64], jac: &mut [f64]);
+
+    /// Rates of one nucleus (convenience for phase-space work).
+    fn rates_one(&self, u: &[f64], m: &[f64], out: &mut [f64]) {
+        let uv = ArrayView2::from_shape((u.len(), 1), u).expect("column");
+        let mv = ArrayView2::from_shape((m.len(), 1), m).expect("column");
+        let ov = ArrayViewMut2::from_shape((out.len(), 1), out).expect("column");
+        self.rates(uv, mv, ov);
+    }
+}
+
+/// Where a term reads its regulator: a gene row or a gradient row.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Input {
+    Gene(usize),
+    Gradient(usize),
+}
+
+impl From<Regulator> for Input {
+    fn from(r: Regulator) -> Self {
+        match r {
+            Regulator::Gene(g) => Input::Gene(g),
+            Regulator::Gradient(k) => Input::Gradient(k),
+        }
+    }
+}
+
+impl Input {
+    /// The regulator's values over a chunk.
+    pub(crate) fn row<'a>(self, u: &'a ArrayView2<f64>, m: &'a ArrayView2<f64>) -> &'a [f64] {
+        let view = match self {
+            Input::Gene(g) => u.row(g),
+            Input::Gradient(k) => m.row(k),
+        };
+        view.to_slice()
+            .expect("gene-major rows of a chunk are contiguous")
+    }
+
+    /// The regulator's value in one nucleus.
+    pub(crate) fn value(self, u: &[f64], m: &[f64]) -> f64 {
+        match self {
+            Input::Gene(g) => u[g],
+            Input::Gradient(k) => m[k],
+        }
+    }
+}
+
+/// Builds the rate law of a model.
+pub fn build(model: &Model) -> Box<dyn Kinetics> {
+    match model.circuit.kinetics {
+        KineticsKind::Hill => Box::new(HillKinetics::new(model)),
+        KineticsKind::Sigmoid => Box::new(SigmoidKinetics::new(model)),
+    }
+}
+
+#[cfg(test)]
+pub(crate) mod testing {
+    use super::Kinetics;
+    use approx::assert_relative_eq;
+
+    /// Checks the analytic Jacobian against central differences.
+    pub fn jacobian_matches_differences(k: &dyn Kinetics, u: &[f64], m: &[f64]) {
+        let g = u.len();
+        let mut jac = vec![0.0; g * g];
+        k.jacobian(u, m, &mut jac);
+        for j in 0..g {
+            let step = 1e-6 * u[j].abs().max(1e-3);
+            let (mut up, mut dn) = (u.to_vec(), u.to_vec());
+            up[j] += step;
+            dn[j] -= step;
+            let (mut fu, mut fd) = (vec![0.0; g], vec![0.0; g]);
+            k.rates_one(&up, m, &mut fu);
+            k.rates_one(&dn, m, &mut fd);
+            for i in 0..g {
+                let fdiff = (fu[i] - fd[i]) / (2.0 * step);
+                assert_relative_eq!(jac[i * g + j], fdiff, epsilon = 1e-6, max_relative = 1e-5);
+            }
+        }
+    }
+}

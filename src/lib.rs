@@ -1,0 +1,150 @@
+//! anlage: simulate how a gene-regulatory circuit, read out in every nucleus of
+//! a row or sheet coupled by diffusion and fed by gradients, forms domains and
+//! boundaries.
+//!
+//! ```text
+//! model file ──Model::load──▶ Model ──simulate──▶ Run { Recording, stats }
+//!                     Recording ──readout──▶ boundaries, domains
+//!                     Run ──write_run──▶ profiles.csv, states.npy, boundaries.csv, domains.csv, summary.json
+//! ```
+//! Units: µm, min, arbitrary concentration units (a.u.).
+//!
+//! ```
+//! use anlage::{model::Model, simulate, RunOptions};
+//! let text = r#"
+//! [tissue]
+//! nuclei = [20]
+//! spacing_um = 5.0
+//! [clock]
+//! until_min = 10.0
+//! step_min = 0.01
+//! snapshot_every_min = 5.0
+//! [[gene]]
+//! name = "solo"
+//! production = 2.0
+//! decay = 0.5
+//! "#;
+//! let model = Model::from_toml(text, "solo.toml".as_ref()).unwrap();
+//! let run = simulate(&model, &RunOptions::default()).unwrap();
+//! // x(t) = p/d + (x0 − p/d)·e^(−d t) with x0 = 0: 4·(1 − e^(−5)).
+//! let x = run.recording.final_state()[[0, 7]];
+//! approx::assert_relative_eq!(x, 4.0 * (1.0 - (-5.0f64).exp()), max_relative = 1e-5);
+//! ```
+#![warn(missing_docs)]
+
+pub mod export;
+pub mod integrate;
+pub mod kinetics;
+pub mod model;
+pub mod readout;
+pub mod reference;
+mod summary;
+pub mod tissue;
+pub use summary::stepping_text as summary_stepping_text;
+
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+pub use integrate::{Recording, StepError, StepStats};
+pub use summary::Summary;
+
+use model::Model;
+
+/// How to run a simulation.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct RunOptions {
+    /// Use rayon inside the run (results are identical either way).
+    pub parallel: bool,
+    /// Show a progress bar on stderr when it is a terminal.
+    pub progress: bool,
+}
+
+impl Default for RunOptions {
+    fn default() -> Self {
+        RunOptions {
+            parallel: true,
+            progress: false,
+        }
+    }
+}
+
+/// A finished simulation.
+#[derive(Debug, Clone)]
+pub struct Run {
+    /// Snapshots.
+    pub recording: Recording,
+    /// Step counts.
+    pub stats: StepStats,
+    /// Wall time of the integration, s.
+    pub wall_time_s: f64,
+}
+
+/// Simulates a model from its initial state to the end of its clock.
+///
+/// # Errors
+/// [`StepError`] if the state becomes non-finite or error-controlled steps collapse.
+pub fn simulate(model: &Model, options: &RunOptions) -> Result<Run, StepError> {
+    let start = Instant::now();
+    let tissue = tissue::Tissue::new(model);
+    let kinetics = kinetics::build(model);
+    let mut recording = Recording::for_model(model);
+    let bar = if options.progress {
+        let bar = indicatif::ProgressBar::new(model.snapshot_count() as u64);
+        bar.set_style(
+            indicatif::ProgressStyle::with_template(
+                "{bar:40} {pos}/{len} snapshots, t = {msg} min, {elapsed} elapsed, ~{eta} left",
+            )
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+        );
+        Some(bar)
+    } else {
+        None
+    };
+    let stats = integrate::integrate(
+        model,
+        kinetics.as_ref(),
+        &tissue,
+        options.parallel,
+        |t, state| {
+            recording.push(t, state);
+            if let Some(bar) = &bar {
+                bar.set_message(format!("{t:.1}"));
+                bar.inc(1);
+            }
+        },
+    );
+    if let Some(bar) = bar {
+        bar.finish_and_clear();
+    }
+    Ok(Run {
+        recording,
+        stats: stats?,
+        wall_time_s: start.elapsed().as_secs_f64(),
+    })
+}
+
+/// Writes every output of a run into `dir` (created if missing) and returns
+/// the summary; each file appears whole or not at all.
+///
+/// # Errors
+/// [`export::ExportError`] if a file cannot be written.
+pub fn write_run(model: &Model, run: &Run, dir: &Path) -> Result<Summary, export::ExportError> {
+    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io {
+        path: dir.to_path_buf(),
+        source,
+    })?;
+    let rec = &run.recording;
+    let boundaries = readout::find_boundaries(rec);
+    let domains = readout::find_domains(rec);
+    let path = |name: &str| -> PathBuf { dir.join(name) };
+    export::write_profiles(rec, &path("profiles.csv"))?;
+    if rec.grid.is_sheet() {
+        export::write_sheet(rec, &path("final_sheet.csv"))?;
+    }
+    export::write_states_npy(rec, &path("states.npy"))?;
+    export::write_boundaries(&boundaries, &path("boundaries.csv"))?;
+    export::write_domains(&domains, &path("domains.csv"))?;
+    let summary = Summary::new(model, run);
+    export::write_json(&summary, &path("summary.json"))?;
+    Ok(summary)
+}

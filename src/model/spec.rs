@@ -1,0 +1,139 @@
+//! Raw model file: a serde mirror of the TOML, with spans kept so that
+//! validation can point at the line of a bad field.
+//!
+//! Nothing here is checked beyond TOML syntax and types; [`super::validate`]
+//! turns a [`ModelSpec`] into a [`super::Model`] that cannot be invalid.
+
+use serde::Deserialize;
+use toml::Spanned;
+
+/// The whole model file.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ModelSpec {
+    /// Free text shown in summaries and pictures.
+    pub title: Option<String>,
+    /// Seed for initial noise (default 0).
+    pub seed: Option<u64>,
+    /// Geometry of the tissue.
+    pub tissue: Spanned<TissueSpec>,
+    /// Time span, step control and snapshots.
+    pub clock: Spanned<ClockSpec>,
+    /// Morphogen gradients read by the circuit (inputs, not dynamic species).
+    #[serde(default)]
+    pub gradient: Vec<Spanned<GradientSpec>>,
+    /// Dynamic species, one per gene product.
+    #[serde(default)]
+    pub gene: Vec<Spanned<GeneSpec>>,
+    /// Regulatory links and the rate law that reads them.
+    pub circuit: Option<Spanned<CircuitSpec>>,
+}
+
+/// `[tissue]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct TissueSpec {
+    /// `[n]` for a row, `[nx, ny]` for a sheet.
+    pub nuclei: Vec<Spanned<i64>>,
+    /// Distance between neighbouring nuclei, µm.
+    pub spacing_um: f64,
+    /// `"sealed"` (no flux, default) or `"periodic"`.
+    pub edges: Option<String>,
+}
+
+/// `[clock]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ClockSpec {
+    /// End time, min.
+    pub until_min: f64,
+    /// Fixed step, min (give this or `tolerance`).
+    pub step_min: Option<f64>,
+    /// Relative tolerance for error-controlled steps.
+    pub tolerance: Option<f64>,
+    /// Absolute tolerance for error-controlled steps, a.u. (default: `tolerance`).
+    pub abs_tolerance: Option<f64>,
+    /// Largest step the controller may take, min (default: the snapshot interval).
+    pub max_step_min: Option<f64>,
+    /// Interval between recorded snapshots, min.
+    pub snapshot_every_min: f64,
+}
+
+/// `[[gradient]]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct GradientSpec {
+    /// Name used by links.
+    pub name: String,
+    /// `"exponential"`, `"linear"` or `"step"`.
+    pub shape: String,
+    /// Source: `"left"`, `"right"`, `"top"`, `"bottom"` (sheets) or `"centre"`.
+    pub from: String,
+    /// Value at the source, a.u.
+    pub peak: f64,
+    /// Exponential decay length λ, µm.
+    pub decay_length_um: Option<f64>,
+    /// Linear: distance over which the value falls to the baseline, µm.
+    pub length_um: Option<f64>,
+    /// Step: width of the high region next to the source, µm.
+    pub width_um: Option<f64>,
+    /// Value far from the source, a.u. (default 0).
+    pub baseline: Option<f64>,
+    /// Time course of the amplitude: `[[t_min, factor], ...]`, linear in between.
+    pub amplitude: Option<Vec<[f64; 2]>>,
+}
+
+/// `[[gene]]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct GeneSpec {
+    /// Invented gene name, used by links.
+    pub name: String,
+    /// Display colour `#rrggbb`.
+    pub color: Option<String>,
+    /// Maximal production rate, a.u./min.
+    pub production: f64,
+    /// First-order decay rate, 1/min.
+    pub decay: f64,
+    /// Diffusion coefficient, µm²/min (default 0).
+    pub diffusion: Option<f64>,
+    /// Initial level everywhere, a.u. (default 0).
+    pub initial: Option<f64>,
+    /// Initial level per nucleus, a.u. (row-major for sheets).
+    pub initial_profile: Option<Vec<f64>>,
+    /// Half-width of uniform noise added to the initial level, a.u. (default 0).
+    pub initial_noise: Option<f64>,
+    /// Hill kinetics: how activators combine, `"all"` (product, default) or `"any"` (sum).
+    pub combine: Option<String>,
+    /// Sigmoid kinetics: bias h added to the regulatory input (default 0).
+    pub bias: Option<f64>,
+}
+
+/// `[circuit]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CircuitSpec {
+    /// `"hill"` or `"sigmoid"`.
+    pub kinetics: String,
+    /// Regulatory links.
+    #[serde(default)]
+    pub link: Vec<Spanned<LinkSpec>>,
+}
+
+/// `[[circuit.link]]`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LinkSpec {
+    /// Regulator: a gene or a gradient.
+    pub from: String,
+    /// Target gene.
+    pub to: String,
+    /// Hill kinetics: `"+"` activates, `"-"` represses.
+    pub sign: Option<String>,
+    /// Hill kinetics: threshold K (level of half effect), a.u.
+    pub threshold: Option<f64>,
+    /// Hill kinetics: Hill coefficient n.
+    pub hill: Option<f64>,
+    /// Sigmoid kinetics: weight w (positive activates).
+    pub weight: Option<f64>,
+}

@@ -1,0 +1,710 @@
+//! One validation pass: [`ModelSpec`] → [`Model`].
+
+use std::collections::HashMap;
+use std::ops::Range;
+
+use toml::Spanned;
+
+use super::spec::{ClockSpec, GeneSpec, GradientSpec, LinkSpec, ModelSpec, TissueSpec};
+use super::{
+    Circuit, Clock, Combine, Edges, Gene, Gradient, Grid, Initial, KineticsKind, Link, LinkEffect,
+    MEMORY_BUDGET_BYTES, Model, ModelError, Regulator, Shape, Side, Source, Stepping,
+};
+
+/// Default gene colours: the Okabe & Ito (2008) palette, distinguishable with
+/// the common forms of colour blindness ("Color Universal Design", web page).
+pub const PALETTE: [[u8; 3]; 7] = [
+    [230, 159, 0],
+    [86, 180, 233],
+    [0, 158, 115],
+    [204, 121, 167],
+    [240, 228, 66],
+    [0, 114, 178],
+    [213, 94, 0],
+];
+
+/// Checks a parsed model file and builds the [`Model`].
+pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
+    let grid = check_tissue(&spec.tissue, src)?;
+    let clock = check_clock(&spec.clock, src)?;
+
+    let mut names: HashMap<String, (&'static str, Range<usize>)> = HashMap::new();
+    let mut gradients = Vec::with_capacity(spec.gradient.len());
+    for (i, g) in spec.gradient.iter().enumerate() {
+        claim_name(&mut names, &g.get_ref().name, "gradient", g.span(), src)?;
+        gradients.push(check_gradient(i, g, &grid, src)?);
+    }
+    let mut genes = Vec::with_capacity(spec.gene.len());
+    for (i, g) in spec.gene.iter().enumerate() {
+        claim_name(&mut names, &g.get_ref().name, "gene", g.span(), src)?;
+        genes.push(check_gene(i, g, &grid, src)?);
+    }
+    if genes.is_empty() {
+        let (line, column) = src.line_col(0);
+        return Err(ModelError::Invalid {
+            file: src.file(),
+            line,
+            column,
+            field: "gene".into(),
+            problem: "is missing: the model has no genes".into(),
+            fix: "add at least one [[gene]] table with name, production and decay".into(),
+        });
+    }
+    let circuit = match &spec.circuit {
+        Some(c) => check_circuit(c, &spec.gene, &genes, &gradients, src)?,
+        None => Circuit {
+            kinetics: KineticsKind::Hill,
+            links: Vec::new(),
+        },
+    };
+
+    let title = spec.title.clone().unwrap_or_else(|| {
+        src.file().file_stem().map_or_else(
+            || "untitled".to_string(),
+            |s| s.to_string_lossy().into_owned(),
+        )
+    });
+    let model = Model {
+        title,
+        file: src.file(),
+        seed: spec.seed.unwrap_or(0),
+        grid,
+        clock,
+        gradients,
+        genes,
+        circuit,
+    };
+    let needed = model.working_bytes() + model.recording_bytes();
+    if needed > MEMORY_BUDGET_BYTES {
+        let (line, column) = src.locate(&spec.tissue.span(), "nuclei");
+        return Err(ModelError::TooLarge {
+            file: src.file(),
+            line,
+            column,
+            needed_gib: needed as f64 / (1u64 << 30) as f64,
+            budget_gib: MEMORY_BUDGET_BYTES as f64 / (1u64 << 30) as f64,
+        });
+    }
+    Ok(model)
+}
+
+fn claim_name(
+    names: &mut HashMap<String, (&'static str, Range<usize>)>,
+    name: &str,
+    kind: &'static str,
+    span: Range<usize>,
+    src: &Source,
+) -> Result<(), ModelError> {
+    let (line, column) = src.locate(&span, "name");
+    if name.trim().is_empty() || name.contains(|c: char| c.is_whitespace() || c == ',') {
+        return Err(ModelError::Invalid {
+            file: src.file(),
+            line,
+            column,
+            field: format!("{kind}.name"),
+            problem: format!("is `{name}`, not a usable name"),
+            fix: "use a non-empty name without spaces or commas".into(),
+        });
+    }
+    if let Some((_, first)) = names.get(name) {
+        let (first_line, _) = src.locate(first, "name");
+        return Err(ModelError::Duplicate {
+            file: src.file(),
+            line,
+            column,
+            kind: kind.into(),
+            name: name.into(),
+            first_line,
+        });
+    }
+    names.insert(name.to_string(), (kind, span));
+    Ok(())
+}
+
+/// Checks that `value` is finite and satisfies `ok`, else an Invalid error.
+struct Checker<'s, 'a> {
+    src: &'s Source<'a>,
+    span: Range<usize>,
+    prefix: String,
+}
+
+impl Checker<'_, '_> {
+    fn fail(&self, key: &str, problem: String, fix: &str) -> ModelError {
+        self.src.invalid(
+            &self.span,
+            key,
+            format!("{}{key}", self.prefix),
+            problem,
+            fix,
+        )
+    }
+    fn positive(&self, key: &str, v: f64, unit: &str) -> Result<f64, ModelError> {
+        if v.is_finite() && v > 0.0 {
+            Ok(v)
+        } else {
+            Err(self.fail(
+                key,
+                format!("must be a finite number > 0 {unit}, got {v}"),
+                "give a positive value",
+            ))
+        }
+    }
+    fn non_negative(&self, key: &str, v: f64, unit: &str) -> Result<f64, ModelError> {
+        if v.is_finite() && v >= 0.0 {
+            Ok(v)
+        } else {
+            Err(self.fail(
+                key,
+                format!("must be a finite number >= 0 {unit}, got {v}"),
+                "give zero or a positive value",
+            ))
+        }
+    }
+    fn finite(&self, key: &str, v: f64) -> Result<f64, ModelError> {
+        if v.is_finite() {
+            Ok(v)
+        } else {
+            Err(self.fail(
+                key,
+                format!("must be a finite number, got {v}"),
+                "give a real number",
+            ))
+        }
+    }
+    fn required<T: Copy>(&self, key: &str, v: Option<T>, why: &str) -> Result<T, ModelError> {
+        v.ok_or_else(|| {
+            self.fail(
+                key,
+                format!("is missing; it is needed {why}"),
+                &format!("add `{key} = ...`"),
+            )
+        })
+    }
+    fn forbidden<T>(&self, key: &str, v: &Option<T>, why: &str) -> Result<(), ModelError> {
+        match v {
+            Some(_) => Err(self.fail(
+                key,
+                format!("does not apply {why}"),
+                &format!("remove `{key}`"),
+            )),
+            None => Ok(()),
+        }
+    }
+}
+
+fn check_tissue(t: &Spanned<TissueSpec>, src: &Source) -> Result<Grid, ModelError> {
+    let c = Checker {
+        src,
+        span: t.span(),
+        prefix: "tissue.".into(),
+    };
+    let spec = t.get_ref();
+    let dims: Vec<i64> = spec.nuclei.iter().map(|n| *n.get_ref()).collect();
+    if dims.is_empty() || dims.len() > 2 {
+        return Err(c.fail(
+            "nuclei",
+            format!("has {} entries", dims.len()),
+            "write [n] for a row or [nx, ny] for a sheet",
+        ));
+    }
+    for (k, n) in spec.nuclei.iter().enumerate() {
+        let v = *n.get_ref();
+        if !(1..=1 << 26).contains(&v) || (k == 0 && v < 2) {
+            let (line, column) = src.line_col(n.span().start);
+            return Err(ModelError::Invalid {
+                file: src.file(),
+                line,
+                column,
+                field: format!("tissue.nuclei[{k}]"),
+                problem: format!("is {v}"),
+                fix: "give a whole number of nuclei: at least 2 along the axis, at least 1 across"
+                    .into(),
+            });
+        }
+    }
+    let spacing_um = c.positive("spacing_um", spec.spacing_um, "µm")?;
+    let edges = match spec.edges.as_deref() {
+        None | Some("sealed") => Edges::Sealed,
+        Some("periodic") => Edges::Periodic,
+        Some(other) => {
+            return Err(c.fail(
+                "edges",
+                format!("is `{other}`"),
+                "use \"sealed\" (no flux) or \"periodic\"",
+            ));
+        }
+    };
+    let ny = if dims.len() == 2 { dims[1] as usize } else { 1 };
+    Ok(Grid {
+        nx: dims[0] as usize,
+        ny,
+        spacing_um,
+        edges,
+    })
+}
+
+fn check_clock(cl: &Spanned<ClockSpec>, src: &Source) -> Result<Clock, ModelError> {
+    let c = Checker {
+        src,
+        span: cl.span(),
+        prefix: "clock.".into(),
+    };
+    let spec = cl.get_ref();
+    let until_min = c.positive("until_min", spec.until_min, "min")?;
+    let snapshot_every_min = c.positive("snapshot_every_min", spec.snapshot_every_min, "min")?;
+    if snapshot_every_min > until_min {
+        return Err(c.fail(
+            "snapshot_every_min",
+            format!("is {snapshot_every_min} min, longer than the run ({until_min} min)"),
+            "record at least once before the end",
+        ));
+    }
+    if until_min / snapshot_every_min > 1e6 {
+        return Err(c.fail(
+            "snapshot_every_min",
+            "asks for over a million snapshots".into(),
+            "record less often",
+        ));
+    }
+    let stepping = match (spec.step_min, spec.tolerance) {
+        (Some(_), Some(_)) => {
+            return Err(c.fail(
+                "tolerance",
+                "is given together with `step_min`".into(),
+                "choose fixed steps (step_min) or error-controlled steps (tolerance), not both",
+            ));
+        }
+        (None, None) => {
+            return Err(c.fail(
+                "step_min",
+                "is missing, and so is `tolerance`".into(),
+                "add `step_min = 0.05` for fixed steps or `tolerance = 1e-6` for error-controlled steps",
+            ));
+        }
+        (Some(step), None) => {
+            let step_min = c.positive("step_min", step, "min")?;
+            c.forbidden("abs_tolerance", &spec.abs_tolerance, "to fixed steps")?;
+            c.forbidden("max_step_min", &spec.max_step_min, "to fixed steps")?;
+            if step_min > snapshot_every_min {
+                return Err(c.fail(
+                    "step_min",
+                    format!("is {step_min} min, longer than the snapshot interval"),
+                    "take a step no longer than snapshot_every_min",
+                ));
+            }
+            for (key, span) in [
+                ("until_min", until_min),
+                ("snapshot_every_min", snapshot_every_min),
+            ] {
+                let ratio = span / step_min;
+                if (ratio - ratio.round()).abs() > 1e-9 * ratio.max(1.0) {
+                    return Err(c.fail(
+                        "step_min",
+                        format!(
+                            "({step_min} min) does not divide `{key}` ({span} min) into whole steps"
+                        ),
+                        "choose a step that divides both the run and the snapshot interval",
+                    ));
+                }
+            }
+            if until_min / step_min > 1e9 {
+                return Err(c.fail(
+                    "step_min",
+                    "asks for over 10^9 steps".into(),
+                    "take a longer step",
+                ));
+            }
+            Stepping::Fixed { step_min }
+        }
+        (None, Some(tol)) => {
+            let rtol = c.positive("tolerance", tol, "")?;
+            if rtol >= 0.1 || rtol < 1e-12 {
+                return Err(c.fail(
+                    "tolerance",
+                    format!("is {rtol}"),
+                    "use a relative tolerance between 1e-12 and 0.1",
+                ));
+            }
+            let atol = match spec.abs_tolerance {
+                Some(a) => c.positive("abs_tolerance", a, "a.u.")?,
+                None => rtol,
+            };
+            let max_step_min = match spec.max_step_min {
+                Some(m) => c
+                    .positive("max_step_min", m, "min")?
+                    .min(snapshot_every_min),
+                None => snapshot_every_min,
+            };
+            Stepping::Adaptive {
+                rtol,
+                atol,
+                max_step_min,
+            }
+        }
+    };
+    Ok(Clock {
+        until_min,
+        snapshot_every_min,
+        stepping,
+    })
+}
+
+fn check_gradient(
+    i: usize,
+    g: &Spanned<GradientSpec>,
+    grid: &Grid,
+    src: &Source,
+) -> Result<Gradient, ModelError> {
+    let spec = g.get_ref();
+    let c = Checker {
+        src,
+        span: g.span(),
+        prefix: format!("gradient[{i}] `{}`.", spec.name),
+    };
+    let from = match spec.from.as_str() {
+        "left" => Side::Left,
+        "right" => Side::Right,
+        "bottom" => Side::Bottom,
+        "top" => Side::Top,
+        "centre" | "center" => Side::Centre,
+        other => {
+            return Err(c.fail(
+                "from",
+                format!("is `{other}`"),
+                "use left, right, top, bottom or centre",
+            ));
+        }
+    };
+    if matches!(from, Side::Top | Side::Bottom) && !grid.is_sheet() {
+        return Err(c.fail(
+            "from",
+            format!("is `{}` but the tissue is a row", spec.from),
+            "a row has only left, right and centre; make the tissue a sheet [nx, ny] or change the side",
+        ));
+    }
+    let shape_keys = ["decay_length_um", "length_um", "width_um"];
+    let (shape, key) = match spec.shape.as_str() {
+        "exponential" => (
+            Shape::Exponential {
+                decay_length_um: c.positive(
+                    "decay_length_um",
+                    c.required(
+                        "decay_length_um",
+                        spec.decay_length_um,
+                        "by an exponential gradient",
+                    )?,
+                    "µm",
+                )?,
+            },
+            "decay_length_um",
+        ),
+        "linear" => (
+            Shape::Linear {
+                length_um: c.positive(
+                    "length_um",
+                    c.required("length_um", spec.length_um, "by a linear gradient")?,
+                    "µm",
+                )?,
+            },
+            "length_um",
+        ),
+        "step" => (
+            Shape::Step {
+                width_um: c.positive(
+                    "width_um",
+                    c.required("width_um", spec.width_um, "by a step gradient")?,
+                    "µm",
+                )?,
+            },
+            "width_um",
+        ),
+        other => {
+            return Err(c.fail(
+                "shape",
+                format!("is `{other}`"),
+                "use exponential, linear or step",
+            ));
+        }
+    };
+    let values = [spec.decay_length_um, spec.length_um, spec.width_um];
+    for (k, v) in shape_keys.iter().zip(values) {
+        if *k != key {
+            c.forbidden(k, &v, &format!("to a {} gradient", spec.shape))?;
+        }
+    }
+    let peak = c.non_negative("peak", spec.peak, "a.u.")?;
+    let baseline = c.non_negative("baseline", spec.baseline.unwrap_or(0.0), "a.u.")?;
+    let mut amplitude = Vec::new();
+    if let Some(points) = &spec.amplitude {
+        if points.is_empty() {
+            return Err(c.fail(
+                "amplitude",
+                "is empty".into(),
+                "give [[t_min, factor], ...] or remove it",
+            ));
+        }
+        let mut last_t = f64::NEG_INFINITY;
+        for [t, a] in points {
+            if !t.is_finite() || !a.is_finite() || *a < 0.0 || *t <= last_t {
+                return Err(c.fail(
+                    "amplitude",
+                    format!("has the point [{t}, {a}]"),
+                    "give finite [t_min, factor] pairs with factor >= 0 and times strictly increasing",
+                ));
+            }
+            last_t = *t;
+            amplitude.push((*t, *a));
+        }
+    }
+    Ok(Gradient {
+        name: spec.name.clone(),
+        shape,
+        from,
+        peak,
+        baseline,
+        amplitude,
+    })
+}
+
+fn check_gene(
+    i: usize,
+    g: &Spanned<GeneSpec>,
+    grid: &Grid,
+    src: &Source,
+) -> Result<Gene, ModelError> {
+    let spec = g.get_ref();
+    let c = Checker {
+        src,
+        span: g.span(),
+        prefix: format!("gene[{i}] `{}`.", spec.name),
+    };
+    let production = c.non_negative("production", spec.production, "a.u./min")?;
+    let decay = c.non_negative("decay", spec.decay, "1/min")?;
+    let diffusion = c.non_negative("diffusion", spec.diffusion.unwrap_or(0.0), "µm²/min")?;
+    let initial_noise =
+        c.non_negative("initial_noise", spec.initial_noise.unwrap_or(0.0), "a.u.")?;
+    let initial = match (&spec.initial, &spec.initial_profile) {
+        (Some(_), Some(_)) => {
+            return Err(c.fail(
+                "initial_profile",
+                "is given together with `initial`".into(),
+                "keep one of the two",
+            ));
+        }
+        (Some(v), None) => Initial::Uniform(c.non_negative("initial", *v, "a.u.")?),
+        (None, None) => Initial::Uniform(0.0),
+        (None, Some(p)) => {
+            if p.len() != grid.len() {
+                return Err(c.fail(
+                    "initial_profile",
+                    format!(
+                        "has {} values but the tissue has {} nuclei",
+                        p.len(),
+                        grid.len()
+                    ),
+                    "give one value per nucleus (row by row for a sheet)",
+                ));
+            }
+            if let Some((k, v)) = p
+                .iter()
+                .enumerate()
+                .find(|(_, v)| !v.is_finite() || **v < 0.0)
+            {
+                return Err(c.fail(
+                    "initial_profile",
+                    format!("value {k} is {v}"),
+                    "give finite levels >= 0",
+                ));
+            }
+            Initial::Profile(p.clone())
+        }
+    };
+    let color = match &spec.color {
+        Some(text) => parse_color(text).ok_or_else(|| {
+            c.fail(
+                "color",
+                format!("is `{text}`"),
+                "write a colour as \"#rrggbb\"",
+            )
+        })?,
+        None => PALETTE[i % PALETTE.len()],
+    };
+    let combine = match spec.combine.as_deref() {
+        None | Some("all") => Combine::All,
+        Some("any") => Combine::Any,
+        Some(other) => {
+            return Err(c.fail(
+                "combine",
+                format!("is `{other}`"),
+                "use \"all\" (product) or \"any\" (sum)",
+            ));
+        }
+    };
+    let bias = c.finite("bias", spec.bias.unwrap_or(0.0))?;
+    Ok(Gene {
+        name: spec.name.clone(),
+        color,
+        production,
+        decay,
+        diffusion,
+        initial,
+        initial_noise,
+        combine,
+        bias,
+    })
+}
+
+/// Parses `#rrggbb`.
+pub fn parse_color(text: &str) -> Option<[u8; 3]> {
+    let hex = text.strip_prefix('#')?;
+    if hex.len() != 6 || !hex.chars().all(|c| c.is_ascii_hexdigit()) {
+        return None;
+    }
+    let byte = |k: usize| u8::from_str_radix(&hex[k..k + 2], 16).ok();
+    Some([byte(0)?, byte(2)?, byte(4)?])
+}
+
+fn check_circuit(
+    cs: &Spanned<super::spec::CircuitSpec>,
+    gene_specs: &[Spanned<GeneSpec>],
+    genes: &[Gene],
+    gradients: &[Gradient],
+    src: &Source,
+) -> Result<Circuit, ModelError> {
+    let spec = cs.get_ref();
+    let c = Checker {
+        src,
+        span: cs.span(),
+        prefix: "circuit.".into(),
+    };
+    let kinetics = match spec.kinetics.as_str() {
+        "hill" => KineticsKind::Hill,
+        "sigmoid" => KineticsKind::Sigmoid,
+        other => {
+            return Err(c.fail(
+                "kinetics",
+                format!("is `{other}`"),
+                "use \"hill\" or \"sigmoid\"",
+            ));
+        }
+    };
+    for (gs, g) in gene_specs.iter().zip(genes) {
+        let gc = Checker {
+            src,
+            span: gs.span(),
+            prefix: format!("gene `{}`.", g.name),
+        };
+        match kinetics {
+            KineticsKind::Hill => gc.forbidden("bias", &gs.get_ref().bias, "to hill kinetics")?,
+            KineticsKind::Sigmoid => {
+                gc.forbidden("combine", &gs.get_ref().combine, "to sigmoid kinetics")?
+            }
+        }
+    }
+    let known = |kind: &str| -> String {
+        let mut names: Vec<&str> = genes.iter().map(|g| g.name.as_str()).collect();
+        if kind != "gene" {
+            names.extend(gradients.iter().map(|g| g.name.as_str()));
+        }
+        names.join(", ")
+    };
+    let mut links = Vec::with_capacity(spec.link.len());
+    let mut seen: HashMap<(Regulator, usize), Range<usize>> = HashMap::new();
+    for (i, ls) in spec.link.iter().enumerate() {
+        let l: &LinkSpec = ls.get_ref();
+        let lc = Checker {
+            src,
+            span: ls.span(),
+            prefix: format!("circuit.link[{i}]."),
+        };
+        let unknown = |key: &str, name: &str, kind: &str| {
+            let (line, column) = src.locate(&ls.span(), key);
+            ModelError::UnknownName {
+                file: src.file(),
+                line,
+                column,
+                field: format!("circuit.link[{i}].{key}"),
+                kind: kind.into(),
+                name: name.into(),
+                known: known(kind),
+            }
+        };
+        let from = if let Some(k) = genes.iter().position(|g| g.name == l.from) {
+            Regulator::Gene(k)
+        } else if let Some(k) = gradients.iter().position(|g| g.name == l.from) {
+            Regulator::Gradient(k)
+        } else {
+            return Err(unknown("from", &l.from, "gene or gradient"));
+        };
+        let to = genes
+            .iter()
+            .position(|g| g.name == l.to)
+            .ok_or_else(|| unknown("to", &l.to, "gene"))?;
+        if let Some(first) = seen.get(&(from, to)) {
+            let (line, column) = src.locate(&ls.span(), "from");
+            return Err(ModelError::Duplicate {
+                file: src.file(),
+                line,
+                column,
+                kind: "link".into(),
+                name: format!("{} -> {}", l.from, l.to),
+                first_line: src.line_col(first.start).0,
+            });
+        }
+        seen.insert((from, to), ls.span());
+        let effect = match kinetics {
+            KineticsKind::Hill => {
+                lc.forbidden(
+                    "weight",
+                    &l.weight,
+                    "to hill kinetics (use sign, threshold and hill)",
+                )?;
+                let activates = match lc.required("sign", l.sign.as_deref(), "by a hill link")? {
+                    "+" => true,
+                    "-" => false,
+                    other => {
+                        return Err(lc.fail(
+                            "sign",
+                            format!("is `{other}`"),
+                            "use \"+\" to activate or \"-\" to repress",
+                        ));
+                    }
+                };
+                let threshold = lc.positive(
+                    "threshold",
+                    lc.required("threshold", l.threshold, "by a hill link")?,
+                    "a.u.",
+                )?;
+                let hill =
+                    lc.positive("hill", lc.required("hill", l.hill, "by a hill link")?, "")?;
+                if hill > 64.0 {
+                    return Err(lc.fail(
+                        "hill",
+                        format!("is {hill}"),
+                        "use a Hill coefficient up to 64",
+                    ));
+                }
+                LinkEffect::Hill {
+                    activates,
+                    threshold,
+                    hill,
+                }
+            }
+            KineticsKind::Sigmoid => {
+                lc.forbidden(
+                    "sign",
+                    &l.sign,
+                    "to sigmoid kinetics (the weight's sign says it)",
+                )?;
+                lc.forbidden("threshold", &l.threshold, "to sigmoid kinetics")?;
+                lc.forbidden("hill", &l.hill, "to sigmoid kinetics")?;
+                LinkEffect::Weight(lc.finite(
+                    "weight",
+                    lc.required("weight", l.weight, "by a sigmoid link")?,
+                )?)
+            }
+        };
+        links.push(Link { from, to, effect });
+    }
+    Ok(Circuit { kinetics, links })
+}

@@ -1,0 +1,117 @@
+//! Readouts from a [`Recording`]: boundaries and domains along the axis.
+//!
+//! A boundary is where a gene's profile crosses half of its maximum (at that
+//! snapshot), located between nuclei by linear interpolation. On a sheet the
+//! profile is the mean over each column (across y). Positions are reported in
+//! µm from the left edge and in % of the axis length L = nx·h (the trade's
+//! "% egg length").
+
+mod profile;
+
+pub use profile::{Crossing, Span, profile_boundaries, profile_domains};
+
+use serde::Serialize;
+
+use crate::integrate::Recording;
+
+/// A boundary of one gene at one snapshot.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Boundary {
+    /// Snapshot time, min.
+    pub time_min: f64,
+    /// Gene name.
+    pub gene: String,
+    /// `"rising"` (low → high going along the axis) or `"falling"`.
+    pub direction: &'static str,
+    /// Position, µm from the left edge.
+    pub position_um: f64,
+    /// Position, % of the axis length.
+    pub position_pct: f64,
+    /// |slope| at the crossing as a fraction of the gene's maximum, 1/µm.
+    pub steepness_per_um: f64,
+    /// Boundary width: max/|slope| at the crossing, the width of a linear ramp
+    /// from 0 to the maximum with that slope, µm (common practice, no source).
+    pub width_um: f64,
+}
+
+/// A domain (a run of nuclei above half maximum) of one gene at one snapshot.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Domain {
+    /// Snapshot time, min.
+    pub time_min: f64,
+    /// Gene name.
+    pub gene: String,
+    /// Start, µm.
+    pub start_um: f64,
+    /// Start, % of axis length.
+    pub start_pct: f64,
+    /// End, µm (less than the start when a periodic domain wraps around).
+    pub end_um: f64,
+    /// End, % of axis length.
+    pub end_pct: f64,
+    /// Width, µm.
+    pub width_um: f64,
+    /// Width, % of axis length.
+    pub width_pct: f64,
+}
+
+/// Boundaries of every gene at snapshot `s`.
+pub fn boundaries_at(rec: &Recording, s: usize) -> Vec<Boundary> {
+    let grid = &rec.grid;
+    let length = grid.length_um();
+    let periodic = grid.edges == crate::model::Edges::Periodic;
+    let mut out = Vec::new();
+    for (g, name) in rec.genes.iter().enumerate() {
+        let profile = rec.axis_profile(s, g);
+        for c in profile_boundaries(&profile, grid.spacing_um, periodic) {
+            out.push(Boundary {
+                time_min: rec.times[s],
+                gene: name.clone(),
+                direction: if c.rising { "rising" } else { "falling" },
+                position_um: c.position_um,
+                position_pct: 100.0 * c.position_um / length,
+                steepness_per_um: c.steepness_per_um,
+                width_um: c.width_um,
+            });
+        }
+    }
+    out
+}
+
+/// Domains of every gene at snapshot `s`.
+pub fn domains_at(rec: &Recording, s: usize) -> Vec<Domain> {
+    let grid = &rec.grid;
+    let length = grid.length_um();
+    let periodic = grid.edges == crate::model::Edges::Periodic;
+    let mut out = Vec::new();
+    for (g, name) in rec.genes.iter().enumerate() {
+        let profile = rec.axis_profile(s, g);
+        for d in profile_domains(&profile, grid.spacing_um, periodic) {
+            out.push(Domain {
+                time_min: rec.times[s],
+                gene: name.clone(),
+                start_um: d.start_um,
+                start_pct: 100.0 * d.start_um / length,
+                end_um: d.end_um,
+                end_pct: 100.0 * d.end_um / length,
+                width_um: d.width_um,
+                width_pct: 100.0 * d.width_um / length,
+            });
+        }
+    }
+    out
+}
+
+/// Boundaries at every snapshot, in time order.
+pub fn find_boundaries(rec: &Recording) -> Vec<Boundary> {
+    (0..rec.times.len())
+        .flat_map(|s| boundaries_at(rec, s))
+        .collect()
+}
+
+/// Domains at every snapshot, in time order.
+pub fn find_domains(rec: &Recording) -> Vec<Domain> {
+    (0..rec.times.len())
+        .flat_map(|s| domains_at(rec, s))
+        .collect()
+}

@@ -1,0 +1,1 @@
+//! Problems with known answers, shared by tests and benches.

@@ -1,0 +1,162 @@
+//! Text printed to the terminal.
+
+use std::fmt::Write;
+use std::path::Path;
+
+use anlage::Summary;
+use anlage::model::{KineticsKind, LinkEffect, Model, Regulator, Shape, Side, Stepping};
+
+fn gib(bytes: u64) -> String {
+    let b = bytes as f64;
+    if b >= (1u64 << 30) as f64 {
+        format!("{:.2} GiB", b / (1u64 << 30) as f64)
+    } else {
+        format!("{:.1} MiB", b / (1u64 << 20) as f64)
+    }
+}
+
+/// What `anlage check` prints.
+pub fn describe(m: &Model) -> String {
+    let mut s = String::new();
+    let g = &m.grid;
+    let _ = writeln!(s, "{}: \"{}\" is valid", m.file.display(), m.title);
+    let _ = writeln!(
+        s,
+        "tissue    {}, spacing {} µm, axis {} µm, edges {}",
+        g.shape_text(),
+        g.spacing_um,
+        g.length_um(),
+        match g.edges {
+            anlage::model::Edges::Sealed => "sealed",
+            anlage::model::Edges::Periodic => "periodic",
+        }
+    );
+    let _ = writeln!(
+        s,
+        "clock     until {} min, snapshot every {} min ({} snapshots)",
+        m.clock.until_min,
+        m.clock.snapshot_every_min,
+        m.snapshot_count()
+    );
+    let _ = writeln!(s, "stepping  {}", anlage_stepping(&m.clock.stepping));
+    match m.clock.fixed_steps() {
+        Some(n) => {
+            let _ = writeln!(
+                s,
+                "steps     {n} ({:.3e} nucleus·gene·steps)",
+                n as f64 * g.len() as f64 * m.genes.len() as f64
+            );
+        }
+        None => {
+            let _ = writeln!(s, "steps     chosen as the run goes (error-controlled)");
+        }
+    }
+    let _ = writeln!(
+        s,
+        "memory    {} working + {} recording",
+        gib(m.working_bytes()),
+        gib(m.recording_bytes())
+    );
+    let _ = writeln!(s, "genes     {}", m.genes.len());
+    for gene in &m.genes {
+        let [r, gg, b] = gene.color;
+        let _ = writeln!(
+            s,
+            "  {:<12} production {} a.u./min, decay {} /min, diffusion {} µm²/min, colour #{r:02x}{gg:02x}{b:02x}",
+            gene.name, gene.production, gene.decay, gene.diffusion
+        );
+    }
+    let _ = writeln!(s, "gradients {}", m.gradients.len());
+    for gr in &m.gradients {
+        let shape = match gr.shape {
+            Shape::Exponential { decay_length_um } => {
+                format!("exponential, λ = {decay_length_um} µm")
+            }
+            Shape::Linear { length_um } => format!("linear over {length_um} µm"),
+            Shape::Step { width_um } => format!("step {width_um} µm wide"),
+        };
+        let side = match gr.from {
+            Side::Left => "left",
+            Side::Right => "right",
+            Side::Top => "top",
+            Side::Bottom => "bottom",
+            Side::Centre => "centre",
+        };
+        let timed = if gr.amplitude.is_empty() {
+            String::new()
+        } else {
+            format!(", amplitude over time ({} points)", gr.amplitude.len())
+        };
+        let _ = writeln!(
+            s,
+            "  {:<12} {shape} from the {side}, peak {}, baseline {}{timed}",
+            gr.name, gr.peak, gr.baseline
+        );
+    }
+    let kind = match m.circuit.kinetics {
+        KineticsKind::Hill => "hill",
+        KineticsKind::Sigmoid => "sigmoid",
+    };
+    let _ = writeln!(
+        s,
+        "circuit   {kind} kinetics, {} links",
+        m.circuit.links.len()
+    );
+    for l in &m.circuit.links {
+        let from = match l.from {
+            Regulator::Gene(k) => &m.genes[k].name,
+            Regulator::Gradient(k) => &m.gradients[k].name,
+        };
+        let effect = match l.effect {
+            LinkEffect::Hill {
+                activates,
+                threshold,
+                hill,
+            } => {
+                format!(
+                    "{} (K = {threshold}, n = {hill})",
+                    if activates { "activates" } else { "represses" }
+                )
+            }
+            LinkEffect::Weight(w) => format!("weight {w}"),
+        };
+        let _ = writeln!(s, "  {from} -> {}: {effect}", m.genes[l.to].name);
+    }
+    s
+}
+
+fn anlage_stepping(s: &Stepping) -> String {
+    anlage::summary_stepping_text(s)
+}
+
+/// What `anlage run` prints at the end.
+pub fn final_boundaries(summary: &Summary, dir: &Path) -> String {
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "{}: {} steps ({} rejected) to t = {} min in {:.2} s",
+        summary.title,
+        summary.steps,
+        summary.rejected_steps,
+        summary.final_time_min,
+        summary.wall_time_s
+    );
+    if summary.final_boundaries.is_empty() {
+        let _ = writeln!(s, "no boundaries at the final time");
+    } else {
+        let _ = writeln!(
+            s,
+            "boundaries at t = {} min (model prediction):",
+            summary.final_time_min
+        );
+        for b in &summary.final_boundaries {
+            let _ = writeln!(
+                s,
+                "  {:<12} {:<8} {:>8.1} µm  {:>6.2} %  width {:>5.1} µm",
+                b.gene, b.direction, b.position_um, b.position_pct, b.width_um
+            );
+        }
+    }
+    let _ = writeln!(s, "outputs in {}", dir.display());
+    s
+}

@@ -1,0 +1,83 @@
+//! `summary.json`: what was run, how it went, and the final boundaries and domains.
+
+use serde::Serialize;
+
+use crate::Run;
+use crate::model::{Model, Stepping};
+use crate::readout::{Boundary, Domain, boundaries_at, domains_at};
+
+/// The summary of one run.
+#[derive(Debug, Clone, Serialize)]
+pub struct Summary {
+    /// Model title.
+    pub title: String,
+    /// anlage version that made the run.
+    pub anlage_version: &'static str,
+    /// A reminder of what these numbers are.
+    pub note: &'static str,
+    /// Tissue shape, e.g. "row of 96".
+    pub tissue: String,
+    /// Axis length, µm.
+    pub axis_length_um: f64,
+    /// Gene names in state order.
+    pub genes: Vec<String>,
+    /// Step control, e.g. "fixed step 0.05 min".
+    pub stepping: String,
+    /// Accepted steps.
+    pub steps: usize,
+    /// Rejected steps (error control).
+    pub rejected_steps: usize,
+    /// Snapshots recorded.
+    pub snapshots: usize,
+    /// Final time, min.
+    pub final_time_min: f64,
+    /// Wall time of the integration, s (the only field that changes between identical runs).
+    pub wall_time_s: f64,
+    /// Boundaries at the final time.
+    pub final_boundaries: Vec<Boundary>,
+    /// Domains at the final time.
+    pub final_domains: Vec<Domain>,
+}
+
+/// What outputs say about their status.
+pub const PREDICTION_NOTE: &str = "model prediction from a simulated circuit, not a measurement";
+
+impl Summary {
+    /// Summarises a run of a model.
+    pub fn new(model: &Model, run: &Run) -> Summary {
+        let rec = &run.recording;
+        let last = rec.times.len() - 1;
+        Summary {
+            title: model.title.clone(),
+            anlage_version: env!("CARGO_PKG_VERSION"),
+            note: PREDICTION_NOTE,
+            tissue: model.grid.shape_text(),
+            axis_length_um: model.grid.length_um(),
+            genes: rec.genes.clone(),
+            stepping: stepping_text(&model.clock.stepping),
+            steps: run.stats.steps,
+            rejected_steps: run.stats.rejected,
+            snapshots: rec.times.len(),
+            final_time_min: rec.times[last],
+            wall_time_s: run.wall_time_s,
+            final_boundaries: boundaries_at(rec, last),
+            final_domains: domains_at(rec, last),
+        }
+    }
+}
+
+/// Human-readable step control.
+pub fn stepping_text(s: &Stepping) -> String {
+    match s {
+        Stepping::Fixed { step_min } => format!("SBDF2, fixed step {step_min} min"),
+        Stepping::Adaptive {
+            rtol,
+            atol,
+            max_step_min,
+        } => {
+            format!(
+                "SBDF2, error-controlled steps (rtol {rtol:e}, atol {atol:e}, at most {max_step_min} min)"
+            )
+        }
+    }
+}

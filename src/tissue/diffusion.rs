@@ -1,0 +1,491 @@
+//! Implicit diffusion: solves `(a₀ I − c ∇²) u = b` for each gene's field,
+//! with `∇²` the cell-centred five-point (three-point in a row) Laplacian, µm⁻².
+//!
+//! - Sealed row: the system is symmetric tridiagonal; mirror ghost nuclei give
+//!   `(∇²u)₀ = (u₁ − u₀)/h²`. Solved exactly by the Thomas algorithm, O(N),
+//!   with the factorisation kept while `(a₀, c)` stays the same.
+//! - Sheets and periodic rows: the Laplacian is diagonalised exactly by the
+//!   type-II discrete cosine transform (sealed) or the discrete Fourier
+//!   transform (periodic), with eigenvalues of `−∇²` along one axis
+//!   `λ_p = (2 − 2 cos θ_p)/h²`, `θ_p = πp/n` (cosine) or `2πp/n` (Fourier)
+//!   (Strang 1999, SIAM Review 41:135, "The discrete cosine transform").
+
+use std::sync::Arc;
+
+use ndarray::Array2;
+use rayon::prelude::*;
+use rustdct::{DctPlanner, TransformType2And3};
+use rustfft::num_complex::Complex64;
+use rustfft::{Fft, FftPlanner};
+
+use crate::model::{Edges, Grid};
+
+/// Scratch blocks for row transforms; fixed so results never depend on thread count.
+const BLOCKS: usize = 16;
+/// Below this many nuclei per gene, genes are solved one after the other.
+const PARALLEL_MIN: usize = 4096;
+
+/// A kept factorisation of the symmetric tridiagonal matrix `a₀ I − c ∇²` on a sealed row.
+#[derive(Debug, Clone)]
+pub struct TriFactor {
+    a0: f64,
+    c: f64,
+    h: f64,
+    off: f64,
+    inv_w: Vec<f64>,
+    m: Vec<f64>,
+}
+
+impl TriFactor {
+    /// An empty factor for a row of `n` nuclei with spacing `h` µm.
+    pub fn new(n: usize, h: f64) -> TriFactor {
+        TriFactor {
+            a0: f64::NAN,
+            c: f64::NAN,
+            h,
+            off: 0.0,
+            inv_w: vec![0.0; n],
+            m: vec![0.0; n],
+        }
+    }
+
+    /// True if the factor is for `(a0, c)`.
+    pub fn is_for(&self, a0: f64, c: f64) -> bool {
+        self.a0 == a0 && self.c == c
+    }
+
+    /// Factors `a₀ I − c ∇²` (c in µm², so `c/h²` is dimensionless); no allocation.
+    pub fn factor(&mut self, a0: f64, c: f64) {
+        let n = self.inv_w.len();
+        let r = c / (self.h * self.h);
+        self.off = -r;
+        let diag = |i: usize| {
+            a0 + r * if n == 1 {
+                0.0
+            } else if i == 0 || i == n - 1 {
+                1.0
+            } else {
+                2.0
+            }
+        };
+        let mut w = diag(0);
+        self.inv_w[0] = 1.0 / w;
+        self.m[0] = 0.0;
+        for i in 1..n {
+            let m = self.off / w;
+            w = diag(i) - m * self.off;
+            self.m[i] = m;
+            self.inv_w[i] = 1.0 / w;
+        }
+        self.a0 = a0;
+        self.c = c;
+    }
+
+    /// Solves in place: `b ← (a₀ I − c ∇²)⁻¹ b`.
+    ///
+    /// # Panics
+    /// If `b` is not as long as the row.
+    pub fn solve(&self, b: &mut [f64]) {
+        let n = self.inv_w.len();
+        assert_eq!(b.len(), n, "row length");
+        for i in 1..n {
+            b[i] -= self.m[i] * b[i - 1];
+        }
+        b[n - 1] *= self.inv_w[n - 1];
+        for i in (0..n - 1).rev() {
+            b[i] = (b[i] - self.off * b[i + 1]) * self.inv_w[i];
+        }
+    }
+}
+
+/// Exact spectral solve on a sheet (or periodic row) of `nx × ny` nuclei.
+pub struct SpectralSolver {
+    nx: usize,
+    ny: usize,
+    lam_x: Vec<f64>,
+    lam_y: Vec<f64>,
+    plan: Plan,
+    real_t: Vec<f64>,
+    complex: Vec<Complex64>,
+    complex_t: Vec<Complex64>,
+    real_scratch: Vec<Vec<f64>>,
+    complex_scratch: Vec<Vec<Complex64>>,
+}
+
+enum Plan {
+    Cosine {
+        x: Arc<dyn TransformType2And3<f64>>,
+        y: Arc<dyn TransformType2And3<f64>>,
+    },
+    Fourier {
+        x: [Arc<dyn Fft<f64>>; 2],
+        y: [Arc<dyn Fft<f64>>; 2],
+    },
+}
+
+/// Eigenvalues of `−∇²` along one axis of `n` nuclei, µm⁻².
+fn axis_eigenvalues(n: usize, h: f64, edges: Edges) -> Vec<f64> {
+    let period = match edges {
+        Edges::Sealed => std::f64::consts::PI,
+        Edges::Periodic => 2.0 * std::f64::consts::PI,
+    };
+    (0..n)
+        .map(|p| (2.0 - 2.0 * (period * p as f64 / n as f64).cos()) / (h * h))
+        .collect()
+}
+
+/// Runs `f(row_index, row, scratch)` over the rows of `data`, in fixed blocks.
+fn for_rows<T: Send>(
+    data: &mut [T],
+    row_len: usize,
+    scratch: &mut [Vec<T>],
+    parallel: bool,
+    f: impl Fn(usize, &mut [T], &mut [T]) + Sync,
+) {
+    let rows = data.len() / row_len;
+    let per_block = rows.div_ceil(scratch.len()).max(1);
+    let run = |(b, (block, s)): (usize, (&mut [T], &mut Vec<T>))| {
+        for (k, row) in block.chunks_exact_mut(row_len).enumerate() {
+            f(b * per_block + k, row, s);
+        }
+    };
+    if parallel {
+        data.par_chunks_mut(per_block * row_len)
+            .zip(scratch.par_iter_mut())
+            .enumerate()
+            .for_each(run);
+    } else {
+        data.chunks_mut(per_block * row_len)
+            .zip(scratch.iter_mut())
+            .enumerate()
+            .for_each(run);
+    }
+}
+
+/// `dst[c·rows + r] = src[r·cols + c]`.
+fn transpose<T: Copy + Send + Sync>(
+    src: &[T],
+    dst: &mut [T],
+    rows: usize,
+    cols: usize,
+    parallel: bool,
+) {
+    const TILE: usize = 32;
+    let body = |(tile, out): (usize, &mut [T])| {
+        let c0 = tile * TILE;
+        let width = out.len() / rows;
+        for r0 in (0..rows).step_by(TILE) {
+            for r in r0..(r0 + TILE).min(rows) {
+                let src_row = &src[r * cols + c0..r * cols + c0 + width];
+                for (dc, v) in src_row.iter().enumerate() {
+                    out[dc * rows + r] = *v;
+                }
+            }
+        }
+    };
+    if parallel {
+        dst.par_chunks_mut(TILE * rows).enumerate().for_each(body);
+    } else {
+        dst.chunks_mut(TILE * rows).enumerate().for_each(body);
+    }
+}
+
+impl SpectralSolver {
+    /// Plans the transforms for a grid.
+    pub fn new(grid: &Grid) -> SpectralSolver {
+        let (nx, ny) = (grid.nx, grid.ny);
+        let lam_x = axis_eigenvalues(nx, grid.spacing_um, grid.edges);
+        let lam_y = axis_eigenvalues(ny, grid.spacing_um, grid.edges);
+        let (plan, real_len, complex_len) = match grid.edges {
+            Edges::Sealed => {
+                let mut planner = DctPlanner::new();
+                let x = planner.plan_dct2(nx);
+                let y = planner.plan_dct2(ny);
+                let len = x.get_scratch_len().max(y.get_scratch_len());
+                (Plan::Cosine { x, y }, len, 0)
+            }
+            Edges::Periodic => {
+                let mut planner = FftPlanner::new();
+                let x = [planner.plan_fft_forward(nx), planner.plan_fft_inverse(nx)];
+                let y = [planner.plan_fft_forward(ny), planner.plan_fft_inverse(ny)];
+                let len = x
+                    .iter()
+                    .chain(y.iter())
+                    .map(|p| p.get_inplace_scratch_len())
+                    .max()
+                    .unwrap_or(0);
+                (Plan::Fourier { x, y }, 0, len)
+            }
+        };
+        let n = nx * ny;
+        let cosine = matches!(plan, Plan::Cosine { .. });
+        SpectralSolver {
+            nx,
+            ny,
+            lam_x,
+            lam_y,
+            real_t: if cosine { vec![0.0; n] } else { Vec::new() },
+            complex: if cosine {
+                Vec::new()
+            } else {
+                vec![Complex64::default(); n]
+            },
+            complex_t: if cosine || ny == 1 {
+                Vec::new()
+            } else {
+                vec![Complex64::default(); n]
+            },
+            real_scratch: (0..BLOCKS).map(|_| vec![0.0; real_len]).collect(),
+            complex_scratch: (0..BLOCKS)
+                .map(|_| vec![Complex64::default(); complex_len])
+                .collect(),
+            plan,
+        }
+    }
+
+    /// Solves `(a₀ I − c ∇²) u = b` in place on one field (row-major, `iy·nx + ix`).
+    pub fn solve(&mut self, field: &mut [f64], a0: f64, c: f64, parallel: bool) {
+        let (nx, ny) = (self.nx, self.ny);
+        let (lx, ly) = (&self.lam_x, &self.lam_y);
+        match &self.plan {
+            Plan::Cosine { x, y } => {
+                let norm = (2.0 / nx as f64) * if ny > 1 { 2.0 / ny as f64 } else { 1.0 };
+                let scratch = &mut self.real_scratch;
+                for_rows(field, nx, scratch, parallel, |_, row, s| {
+                    x.process_dct2_with_scratch(row, s)
+                });
+                if ny > 1 {
+                    transpose(field, &mut self.real_t, ny, nx, parallel);
+                    for_rows(&mut self.real_t, ny, scratch, parallel, |ix, row, s| {
+                        y.process_dct2_with_scratch(row, s);
+                        for (v, l) in row.iter_mut().zip(ly) {
+                            *v *= norm / (a0 + c * (lx[ix] + l));
+                        }
+                        y.process_dct3_with_scratch(row, s);
+                    });
+                    transpose(&self.real_t, field, nx, ny, parallel);
+                } else {
+                    for (v, l) in field.iter_mut().zip(lx) {
+                        *v *= norm / (a0 + c * l);
+                    }
+                }
+                for_rows(field, nx, scratch, parallel, |_, row, s| {
+                    x.process_dct3_with_scratch(row, s)
+                });
+            }
+            Plan::Fourier { x, y } => {
+                let norm = 1.0 / (nx * ny) as f64;
+                let scratch = &mut self.complex_scratch;
+                for (z, v) in self.complex.iter_mut().zip(field.iter()) {
+                    *z = Complex64::new(*v, 0.0);
+                }
+                for_rows(&mut self.complex, nx, scratch, parallel, |_, row, s| {
+                    x[0].process_with_scratch(row, s)
+                });
+                if ny > 1 {
+                    transpose(&self.complex, &mut self.complex_t, ny, nx, parallel);
+                    for_rows(&mut self.complex_t, ny, scratch, parallel, |ix, row, s| {
+                        y[0].process_with_scratch(row, s);
+                        for (v, l) in row.iter_mut().zip(ly) {
+                            *v *= norm / (a0 + c * (lx[ix] + l));
+                        }
+                        y[1].process_with_scratch(row, s);
+                    });
+                    transpose(&self.complex_t, &mut self.complex, nx, ny, parallel);
+                } else {
+                    for (v, l) in self.complex.iter_mut().zip(lx) {
+                        *v *= norm / (a0 + c * l);
+                    }
+                }
+                for_rows(&mut self.complex, nx, scratch, parallel, |_, row, s| {
+                    x[1].process_with_scratch(row, s)
+                });
+                for (v, z) in field.iter_mut().zip(self.complex.iter()) {
+                    *v = z.re;
+                }
+            }
+        }
+    }
+}
+
+enum Solver {
+    /// One pair of kept factors per gene (a fixed-step run alternates between at most two).
+    Thomas(Vec<[TriFactor; 2]>),
+    Spectral(Box<SpectralSolver>),
+}
+
+/// Implicit diffusion for all genes of a tissue.
+pub struct Diffusion {
+    d: Vec<f64>,
+    solver: Solver,
+}
+
+impl Diffusion {
+    /// Prepares solves on `grid` for genes with diffusion coefficients `d` (µm²/min).
+    pub fn new(grid: &Grid, d: &[f64]) -> Diffusion {
+        let solver = if !grid.is_sheet() && grid.edges == Edges::Sealed {
+            Solver::Thomas(
+                d.iter()
+                    .map(|_| {
+                        [
+                            TriFactor::new(grid.nx, grid.spacing_um),
+                            TriFactor::new(grid.nx, grid.spacing_um),
+                        ]
+                    })
+                    .collect(),
+            )
+        } else {
+            Solver::Spectral(Box::new(SpectralSolver::new(grid)))
+        };
+        Diffusion {
+            d: d.to_vec(),
+            solver,
+        }
+    }
+
+    /// Solves `(a₀ I − k·D_g ∇²) u_g = b_g` in place for every gene g (rows of `b`).
+    pub fn solve(&mut self, b: &mut Array2<f64>, a0: f64, k: f64, parallel: bool) {
+        let d = &self.d;
+        match &mut self.solver {
+            Solver::Thomas(factors) => {
+                let one = |(mut row, (pair, dg)): (
+                    ndarray::ArrayViewMut1<f64>,
+                    (&mut [TriFactor; 2], &f64),
+                )| {
+                    let row = row.as_slice_mut().expect("standard layout");
+                    if *dg == 0.0 {
+                        row.iter_mut().for_each(|v| *v /= a0);
+                        return;
+                    }
+                    let c = k * dg;
+                    let slot = if pair[0].is_for(a0, c) {
+                        0
+                    } else if pair[1].is_for(a0, c) {
+                        1
+                    } else {
+                        pair.swap(0, 1);
+                        pair[0].factor(a0, c);
+                        0
+                    };
+                    pair[slot].solve(row);
+                };
+                if parallel && b.ncols() >= PARALLEL_MIN {
+                    b.outer_iter_mut()
+                        .into_par_iter()
+                        .zip(factors.par_iter_mut().zip(d.par_iter()))
+                        .for_each(one);
+                } else {
+                    b.outer_iter_mut()
+                        .zip(factors.iter_mut().zip(d.iter()))
+                        .for_each(one);
+                }
+            }
+            Solver::Spectral(spectral) => {
+                for (mut row, dg) in b.outer_iter_mut().zip(d) {
+                    let row = row.as_slice_mut().expect("standard layout");
+                    if *dg == 0.0 {
+                        row.iter_mut().for_each(|v| *v /= a0);
+                    } else {
+                        spectral.solve(row, a0, k * dg, parallel);
+                    }
+                }
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    /// Applies `a₀ I − c ∇²` directly (mirror or periodic neighbours).
+    fn apply(grid: &Grid, u: &[f64], a0: f64, c: f64) -> Vec<f64> {
+        let (nx, ny, h2) = (grid.nx, grid.ny, grid.spacing_um * grid.spacing_um);
+        let at = |ix: isize, iy: isize, own: f64| -> f64 {
+            let wrap = |i: isize, n: usize| -> Option<usize> {
+                if i >= 0 && (i as usize) < n {
+                    Some(i as usize)
+                } else if grid.edges == Edges::Periodic {
+                    Some(i.rem_euclid(n as isize) as usize)
+                } else {
+                    None
+                }
+            };
+            match (wrap(ix, nx), wrap(iy, ny)) {
+                (Some(x), Some(y)) => u[y * nx + x],
+                _ => own,
+            }
+        };
+        let mut out = vec![0.0; u.len()];
+        for iy in 0..ny {
+            for ix in 0..nx {
+                let own = u[iy * nx + ix];
+                let (x, y) = (ix as isize, iy as isize);
+                let mut lap = at(x - 1, y, own) + at(x + 1, y, own) - 2.0 * own;
+                if ny > 1 {
+                    lap += at(x, y - 1, own) + at(x, y + 1, own) - 2.0 * own;
+                }
+                out[iy * nx + ix] = a0 * own - c * lap / h2;
+            }
+        }
+        out
+    }
+
+    fn check_inverse(nx: usize, ny: usize, edges: Edges) {
+        let grid = Grid {
+            nx,
+            ny,
+            spacing_um: 1.5,
+            edges,
+        };
+        let u: Vec<f64> = (0..nx * ny)
+            .map(|i| ((i * 7919) % 101) as f64 / 10.0)
+            .collect();
+        let b = apply(&grid, &u, 3.0, 2.5);
+        let mut arr = Array2::from_shape_vec((1, nx * ny), b).unwrap();
+        let mut diffusion = Diffusion::new(&grid, &[1.0]);
+        for parallel in [false, true] {
+            let mut x = arr.clone();
+            diffusion.solve(&mut x, 3.0, 2.5, parallel);
+            for (got, want) in x.iter().zip(&u) {
+                assert_relative_eq!(*got, *want, epsilon = 1e-10, max_relative = 1e-10);
+            }
+        }
+        arr.fill(0.0);
+    }
+
+    #[test]
+    fn thomas_inverts_sealed_row() {
+        check_inverse(2, 1, Edges::Sealed);
+        check_inverse(37, 1, Edges::Sealed);
+    }
+
+    #[test]
+    fn fourier_inverts_periodic_row() {
+        check_inverse(2, 1, Edges::Periodic);
+        check_inverse(30, 1, Edges::Periodic);
+    }
+
+    #[test]
+    fn cosine_inverts_sealed_sheet() {
+        check_inverse(12, 7, Edges::Sealed);
+        check_inverse(64, 33, Edges::Sealed);
+    }
+
+    #[test]
+    fn fourier_inverts_periodic_sheet() {
+        check_inverse(9, 16, Edges::Periodic);
+    }
+
+    #[test]
+    fn transpose_round_trips() {
+        let src: Vec<f64> = (0..70 * 45).map(|i| i as f64).collect();
+        let mut t = vec![0.0; src.len()];
+        let mut back = vec![0.0; src.len()];
+        transpose(&src, &mut t, 70, 45, true);
+        assert_eq!(t[3 * 70 + 5], src[5 * 45 + 3]);
+        transpose(&t, &mut back, 45, 70, false);
+        assert_eq!(src, back);
+    }
+}

@@ -1,0 +1,96 @@
+//! Gradient shapes and time courses.
+
+use crate::model::{Grid, Shape, Side};
+
+/// Distance of nucleus `(ix, iy)` from a gradient's source, µm.
+///
+/// Left/right/bottom/top: distance from that edge of the tissue (nuclei sit at
+/// cell centres, so the first nucleus is h/2 from the edge). Centre: distance
+/// from the middle of the axis (row) or radial distance from the sheet's centre.
+pub fn distance_um(grid: &Grid, side: Side, ix: usize, iy: usize) -> f64 {
+    let x = grid.x_um(ix);
+    let y = grid.y_um(iy);
+    match side {
+        Side::Left => x,
+        Side::Right => grid.length_um() - x,
+        Side::Bottom => y,
+        Side::Top => grid.height_um() - y,
+        Side::Centre => {
+            let dx = x - grid.length_um() / 2.0;
+            if grid.is_sheet() {
+                dx.hypot(y - grid.height_um() / 2.0)
+            } else {
+                dx.abs()
+            }
+        }
+    }
+}
+
+/// Unit shape s(d), 1 at the source:
+/// exponential `exp(−d/λ)`, linear `max(0, 1 − d/ℓ)`, step `1` for `d < w` else `0`.
+pub fn unit_shape(shape: Shape, d_um: f64) -> f64 {
+    match shape {
+        Shape::Exponential { decay_length_um } => (-d_um / decay_length_um).exp(),
+        Shape::Linear { length_um } => (1.0 - d_um / length_um).max(0.0),
+        Shape::Step { width_um } => {
+            if d_um < width_um {
+                1.0
+            } else {
+                0.0
+            }
+        }
+    }
+}
+
+/// Amplitude factor a(t): piecewise linear through `(t_min, factor)` points,
+/// held constant before the first and after the last; 1 when there are none.
+pub fn amplitude_at(points: &[(f64, f64)], t_min: f64) -> f64 {
+    match points {
+        [] => 1.0,
+        [(_, a)] => *a,
+        _ => {
+            let last = points[points.len() - 1];
+            if t_min <= points[0].0 {
+                return points[0].1;
+            }
+            if t_min >= last.0 {
+                return last.1;
+            }
+            let k = points.partition_point(|(t, _)| *t <= t_min);
+            let (t0, a0) = points[k - 1];
+            let (t1, a1) = points[k];
+            a0 + (a1 - a0) * (t_min - t0) / (t1 - t0)
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::Edges;
+    use approx::assert_relative_eq;
+
+    #[test]
+    fn amplitude_interpolates_and_holds_ends() {
+        let p = [(0.0, 0.0), (10.0, 1.0), (30.0, 0.5)];
+        assert_eq!(amplitude_at(&p, -1.0), 0.0);
+        assert_relative_eq!(amplitude_at(&p, 5.0), 0.5);
+        assert_relative_eq!(amplitude_at(&p, 20.0), 0.75);
+        assert_eq!(amplitude_at(&p, 99.0), 0.5);
+        assert_eq!(amplitude_at(&[], 3.0), 1.0);
+    }
+
+    #[test]
+    fn distances_are_from_cell_centres() {
+        let g = Grid {
+            nx: 10,
+            ny: 4,
+            spacing_um: 2.0,
+            edges: Edges::Sealed,
+        };
+        assert_relative_eq!(distance_um(&g, Side::Left, 0, 0), 1.0);
+        assert_relative_eq!(distance_um(&g, Side::Right, 9, 0), 1.0);
+        assert_relative_eq!(distance_um(&g, Side::Top, 0, 3), 1.0);
+        assert_relative_eq!(distance_um(&g, Side::Centre, 5, 2), 1.0f64.hypot(1.0));
+    }
+}

@@ -1,1 +1,8 @@
+//! Integration tests, one binary: `cargo test` (or `cargo nextest run`).
 
+mod analytic;
+mod cli;
+mod common;
+mod convergence;
+mod demos;
+mod validation;

@@ -49,7 +49,8 @@ pub struct ClockSpec {
     pub until_min: f64,
     /// Fixed step, min (give this or `tolerance`).
     pub step_min: Option<f64>,
-    /// Relative tolerance for error-controlled steps.
+    /// Relative tolerance for error-controlled steps: bounds each step's
+    /// estimated local error; the final error is typically 10–1000× larger.
     pub tolerance: Option<f64>,
     /// Absolute tolerance for error-controlled steps, a.u. (default: `tolerance`).
     pub abs_tolerance: Option<f64>,

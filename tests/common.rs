@@ -1,0 +1,44 @@
+//! Helpers shared by the integration tests.
+
+use std::path::{Path, PathBuf};
+
+use anlage::model::{Model, Stepping};
+use anlage::{Run, RunOptions, simulate};
+
+/// Repository root.
+pub fn root() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+}
+
+/// Loads a model relative to the repository root.
+pub fn load(rel: &str) -> Model {
+    Model::load(&root().join(rel)).unwrap_or_else(|e| panic!("{e}"))
+}
+
+/// Parses model text.
+pub fn parse(text: &str) -> Model {
+    Model::from_toml(text, Path::new("test.toml")).unwrap_or_else(|e| panic!("{e}\n{text}"))
+}
+
+/// Runs a model (parallel as a user would).
+pub fn run(model: &Model) -> Run {
+    simulate(model, &RunOptions::default()).unwrap_or_else(|e| panic!("{e}"))
+}
+
+/// The same model with a fixed step.
+pub fn with_step(model: &Model, step_min: f64) -> Model {
+    let mut m = model.clone();
+    m.clock.stepping = Stepping::Fixed { step_min };
+    m
+}
+
+/// The same model with error-controlled steps.
+pub fn with_tolerance(model: &Model, tol: f64) -> Model {
+    let mut m = model.clone();
+    m.clock.stepping = Stepping::Adaptive {
+        rtol: tol,
+        atol: tol,
+        max_step_min: m.clock.snapshot_every_min,
+    };
+    m
+}

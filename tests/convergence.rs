@@ -1,0 +1,78 @@
+//! Measured order of convergence against a SciPy reference.
+
+use approx::assert_relative_eq;
+use serde::Deserialize;
+
+use crate::common::{load, root, run, with_step, with_tolerance};
+
+#[derive(Deserialize)]
+struct Reference {
+    a: Vec<f64>,
+    b: Vec<f64>,
+}
+
+fn reference() -> Vec<f64> {
+    let text = std::fs::read_to_string(root().join("tests/reference/convergence.json")).unwrap();
+    let r: Reference = serde_json::from_str(&text).unwrap();
+    r.a.into_iter().chain(r.b).collect()
+}
+
+fn max_error(state: &ndarray::Array2<f64>, want: &[f64]) -> f64 {
+    state
+        .iter()
+        .zip(want)
+        .map(|(g, w)| (g - w).abs())
+        .fold(0.0, f64::max)
+}
+
+/// Halving Δt divides the error by four: observed order in [1.9, 2.1], with
+/// steps in the asymptotic range (λ_max·Δt ≤ 0.32 for the stiffest diffusion
+/// mode, 4D/h² = 3.2 /min; at Δt = 0.4 the observed order is still 1.8).
+/// Reference: the same semi-discrete system solved by SciPy's solve_ivp
+/// (DOP853, rtol 1e-13), stored by tests/reference/convergence.py.
+/// SBDF2's order 2: Ruuth (1995), J. Math. Biol. 34:148.
+#[test]
+fn sbdf2_is_second_order_against_scipy() {
+    let model = load("tests/reference/convergence.toml");
+    let want = reference();
+    let errors: Vec<f64> = [0.1, 0.05, 0.025, 0.0125]
+        .iter()
+        .map(|dt| max_error(run(&with_step(&model, *dt)).recording.final_state(), &want))
+        .collect();
+    for pair in errors.windows(2) {
+        let order = (pair[0] / pair[1]).log2();
+        assert!(
+            (1.9..=2.1).contains(&order),
+            "observed order {order:.3}, errors {errors:?}"
+        );
+    }
+    assert!(errors[3] < 1e-4, "errors {errors:?}");
+}
+
+/// Error-controlled steps bound each step's local error (O(k³)) by the
+/// tolerance, so the step scales as tol^(1/3) and the final error as
+/// tol^(2/3): a decade of tolerance buys a factor 10^(2/3) ≈ 4.6 in accuracy
+/// (Hairer, Nørsett & Wanner, Solving ODEs I, 2nd ed., §II.4, for local error
+/// control). Checked: exponent in [0.55, 0.8] per decade, errors falling, and
+/// the run ends exactly at the end time.
+#[test]
+fn error_control_scales_as_tolerance_two_thirds_against_scipy() {
+    let model = load("tests/reference/convergence.toml");
+    let want = reference();
+    let errors: Vec<f64> = [1e-4, 1e-5, 1e-6, 1e-7, 1e-8]
+        .iter()
+        .map(|tol| {
+            let r = run(&with_tolerance(&model, *tol));
+            assert_relative_eq!(*r.recording.times.last().unwrap(), 20.0);
+            max_error(r.recording.final_state(), &want)
+        })
+        .collect();
+    for pair in errors.windows(2) {
+        let exponent = (pair[0] / pair[1]).log10();
+        assert!(
+            (0.55..=0.8).contains(&exponent),
+            "exponent {exponent:.3}, errors {errors:?}"
+        );
+    }
+    assert!(errors[4] < 1e-5, "errors {errors:?}");
+}

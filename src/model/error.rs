@@ -60,7 +60,7 @@ pub enum ModelError {
         known: String,
     },
     /// Two things with one name.
-    #[error("{}:{line}:{column}: {kind} `{name}` is defined twice (first at line {first_line}); give each a different name", file.display())]
+    #[error("{}:{line}:{column}: {kind} `{name}` reuses the name of the {first_kind} at line {first_line}; give each a different name", file.display())]
     Duplicate {
         /// File.
         file: PathBuf,
@@ -72,6 +72,8 @@ pub enum ModelError {
         kind: String,
         /// The name.
         name: String,
+        /// What the name was first given to.
+        first_kind: String,
         /// Line of the first definition.
         first_line: usize,
     },

@@ -36,10 +36,27 @@ impl<'a> Source<'a> {
         (line, column)
     }
 
+    /// End of the table whose span (as toml reports it: the header only, for
+    /// `[table]` and `[[array]]`) is `span`: the start of the next header line.
+    fn table_end(&self, span: &Range<usize>) -> usize {
+        let end = span.end.min(self.text.len());
+        if !self.text[span.start.min(end)..end].starts_with('[') {
+            return end;
+        }
+        let mut offset = end;
+        for line in self.text[end..].split_inclusive('\n') {
+            if offset > end && is_header(line) {
+                return offset;
+            }
+            offset += line.len();
+        }
+        self.text.len()
+    }
+
     /// Line and column of `key = …` inside the table spanning `span`, or of the
     /// table itself when the key is not written there (a missing field).
     pub fn locate(&self, span: &Range<usize>, key: &str) -> (usize, usize) {
-        let end = span.end.min(self.text.len());
+        let end = self.table_end(span);
         let start = span.start.min(end);
         let body = &self.text[start..end];
         let mut search = 0;
@@ -59,13 +76,38 @@ impl<'a> Source<'a> {
     }
 
     /// Converts a TOML reader error into a located [`ModelError::Syntax`].
+    /// The key is named where the reader's message does not, and Rust type
+    /// names are put in words.
     pub fn syntax_error(&self, err: &toml::de::Error) -> ModelError {
-        let (line, column) = err.span().map_or((1, 1), |s| self.line_col(s.start));
+        let start = err.span().map_or(0, |s| s.start);
+        let (line, column) = self.line_col(start);
+        let mut message = err
+            .message()
+            .trim()
+            .replace("expected f64", "expected a number")
+            .replace("expected i64", "expected a whole number")
+            .replace("expected u64", "expected a whole number >= 0");
+        let line_text = self.text.lines().nth(line.saturating_sub(1)).unwrap_or("");
+        if let Some((key, _)) = line_text.split_once('=') {
+            let key = key.trim();
+            if column > key.len() && !key.starts_with('[') && !message.contains(&format!("`{key}`"))
+            {
+                message = format!("`{key}`: {message}");
+            }
+        }
+        if message.starts_with("missing field") {
+            let table = line_text.trim();
+            if table.starts_with('[') {
+                message.push_str(&format!(" in `{table}`; add it to that table"));
+            } else {
+                message.push_str("; add it to the file");
+            }
+        }
         ModelError::Syntax {
             file: self.file(),
             line,
             column,
-            message: err.message().trim().to_string(),
+            message,
         }
     }
 
@@ -90,6 +132,20 @@ impl<'a> Source<'a> {
     }
 }
 
+/// True for a `[table]` or `[[array.of.tables]]` header line (not a row of a
+/// multi-line array such as `[0.0, 1.0],`).
+fn is_header(line: &str) -> bool {
+    let code = line.split('#').next().unwrap_or("").trim();
+    let inner = code.trim_start_matches('[').trim_end_matches(']');
+    code.starts_with('[')
+        && code.ends_with(']')
+        && !inner.contains(',')
+        && inner
+            .chars()
+            .next()
+            .is_some_and(|c| c.is_alphabetic() || c == '"' || c == '\'' || c == '_')
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -107,5 +163,17 @@ mod tests {
         let text = "[gene]\nproduction_x = 3\nproduction = 2\n";
         let s = Source::new(Path::new("m.toml"), text);
         assert_eq!(s.locate(&(0..text.len()), "production"), (3, 1));
+    }
+
+    #[test]
+    fn locate_searches_from_header_to_next_header() {
+        let text =
+            "[[gene]]\nname = \"a\"\nv = [\n  [0.0, 1.0],\n]\ndecay = 1\n[[gene]]\ndecay = 2\n";
+        let s = Source::new(Path::new("m.toml"), text);
+        assert_eq!(s.locate(&(0..8), "decay"), (6, 1));
+        // A key missing from the first table is not found in the second.
+        assert_eq!(s.locate(&(0..8), "bias"), (1, 1));
+        let second = text.rfind("[[gene]]").unwrap();
+        assert_eq!(s.locate(&(second..second + 8), "decay"), (8, 1));
     }
 }

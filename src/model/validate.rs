@@ -106,7 +106,7 @@ fn claim_name(
             fix: "use a non-empty name without spaces or commas".into(),
         });
     }
-    if let Some((_, first)) = names.get(name) {
+    if let Some((first_kind, first)) = names.get(name) {
         let (first_line, _) = src.locate(first, "name");
         return Err(ModelError::Duplicate {
             file: src.file(),
@@ -114,6 +114,7 @@ fn claim_name(
             column,
             kind: kind.into(),
             name: name.into(),
+            first_kind: (*first_kind).into(),
             first_line,
         });
     }
@@ -121,7 +122,7 @@ fn claim_name(
     Ok(())
 }
 
-/// Checks that `value` is finite and satisfies `ok`, else an Invalid error.
+/// Field checks for one table: each returns the value or an Invalid error at its key.
 struct Checker<'s, 'a> {
     src: &'s Source<'a>,
     span: Range<usize>,
@@ -144,7 +145,7 @@ impl Checker<'_, '_> {
         } else {
             Err(self.fail(
                 key,
-                format!("must be a finite number > 0 {unit}, got {v}"),
+                format!("must be a finite number > 0{}, got {v}", unit_text(unit)),
                 "give a positive value",
             ))
         }
@@ -155,7 +156,7 @@ impl Checker<'_, '_> {
         } else {
             Err(self.fail(
                 key,
-                format!("must be a finite number >= 0 {unit}, got {v}"),
+                format!("must be a finite number >= 0{}, got {v}", unit_text(unit)),
                 "give zero or a positive value",
             ))
         }
@@ -189,6 +190,14 @@ impl Checker<'_, '_> {
             )),
             None => Ok(()),
         }
+    }
+}
+
+fn unit_text(unit: &str) -> String {
+    if unit.is_empty() {
+        String::new()
+    } else {
+        format!(" ({unit})")
     }
 }
 
@@ -641,15 +650,16 @@ fn check_circuit(
             .position(|g| g.name == l.to)
             .ok_or_else(|| unknown("to", &l.to, "gene"))?;
         if let Some(first) = seen.get(&(from, to)) {
-            let (line, column) = src.locate(&ls.span(), "from");
-            return Err(ModelError::Duplicate {
-                file: src.file(),
-                line,
-                column,
-                kind: "link".into(),
-                name: format!("{} -> {}", l.from, l.to),
-                first_line: src.line_col(first.start).0,
-            });
+            return Err(lc.fail(
+                "from",
+                format!(
+                    "repeats the link {} -> {} at line {}",
+                    l.from,
+                    l.to,
+                    src.line_col(first.start).0
+                ),
+                "keep one link per regulator and target",
+            ));
         }
         seen.insert((from, to), ls.span());
         let effect = match kinetics {

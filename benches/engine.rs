@@ -19,11 +19,7 @@ fn main() {
     let quick = std::env::args().any(|a| a == "quick");
     let scale = if quick { 10 } else { 1 };
     let cases = [
-        Case {
-            name: "P1 row, 100 nuclei x 4 genes, 1000 steps",
-            text: reference::peer_p1(100, 1000),
-            repeats: 20,
-        },
+        Case { name: "P1 row, 100 nuclei x 4 genes, 1000 steps", text: reference::peer_p1(100, 1000), repeats: 20 },
         Case {
             name: "P1 row, 10^5 nuclei x 4 genes, 1000 steps",
             text: reference::peer_p1(100_000, 1000 / scale),
@@ -35,10 +31,7 @@ fn main() {
             repeats: 2,
         },
     ];
-    println!(
-        "{:<46} {:>10} {:>16} {:>10}",
-        "case", "best s", "nuc*gene*steps/s", "threads"
-    );
+    println!("{:<46} {:>10} {:>16} {:>10}", "case", "best s", "nuc*gene*steps/s", "threads");
     for case in cases {
         let model = reference::parse(&case.text, case.name).expect("reference model");
         let steps = model.clock.fixed_steps().expect("fixed steps");
@@ -47,14 +40,7 @@ fn main() {
         let mut checksum = 0.0;
         for _ in 0..case.repeats {
             let start = Instant::now();
-            let run = simulate(
-                &model,
-                &RunOptions {
-                    parallel: true,
-                    progress: false,
-                },
-            )
-            .expect("run");
+            let run = simulate(&model, &RunOptions { parallel: true, progress: false }).expect("run");
             best = best.min(start.elapsed().as_secs_f64());
             checksum = reference::checksum(run.recording.final_state());
         }

@@ -2,7 +2,10 @@
 
 use std::path::PathBuf;
 
-use clap::{Parser, Subcommand};
+use clap::{Args, Parser, Subcommand};
+
+use anlage::PictureKind;
+use anlage::render::StyleOptions;
 
 /// anlage: simulate how gene circuits pattern rows and sheets of nuclei.
 #[derive(Debug, Parser)]
@@ -16,7 +19,7 @@ pub struct Cli {
 /// Verbs.
 #[derive(Debug, Subcommand)]
 pub enum Command {
-    /// Simulate a model and write profiles, states, boundaries, domains and a summary.
+    /// Simulate a model; write tables, states, a summary and pictures.
     Run {
         /// Model file (TOML).
         model: PathBuf,
@@ -29,10 +32,68 @@ pub enum Command {
         /// Print nothing but errors.
         #[arg(short, long)]
         quiet: bool,
+        /// How pictures look.
+        #[command(flatten)]
+        look: Look,
     },
     /// Validate a model and describe what it holds, without simulating.
     Check {
         /// Model file (TOML).
         model: PathBuf,
     },
+    /// Redraw the pictures of a finished run from its folder, without simulating.
+    Render {
+        /// Folder written by `anlage run`.
+        run_dir: PathBuf,
+        /// Which picture.
+        #[arg(long, value_enum, default_value = "all")]
+        kind: PictureKind,
+        /// Output folder (default: the run folder).
+        #[arg(short, long)]
+        out: Option<PathBuf>,
+        /// How pictures look.
+        #[command(flatten)]
+        look: Look,
+    },
+}
+
+/// Picture options shared by `run` and `render`.
+#[derive(Debug, Args, Clone, Default)]
+pub struct Look {
+    /// Genes to show, comma-separated (default: all).
+    #[arg(long, value_delimiter = ',')]
+    pub genes: Option<Vec<String>>,
+    /// Gene colour, GENE=#rrggbb (repeatable).
+    #[arg(long = "color")]
+    pub colors: Vec<String>,
+    /// White background: genes darken like stains instead of adding like fluorescence.
+    #[arg(long)]
+    pub light: bool,
+    /// Picture width, px (320–4096; default 720).
+    #[arg(long)]
+    pub width: Option<u32>,
+    /// Animation frames per second (default 10).
+    #[arg(long)]
+    pub fps: Option<u32>,
+    /// First time shown, min.
+    #[arg(long = "from")]
+    pub from_min: Option<f64>,
+    /// Last time shown, min.
+    #[arg(long = "to")]
+    pub to_min: Option<f64>,
+}
+
+impl Look {
+    /// As library options.
+    pub fn options(&self) -> StyleOptions {
+        StyleOptions {
+            genes: self.genes.clone(),
+            colors: self.colors.clone(),
+            light: self.light,
+            width: self.width,
+            fps: self.fps,
+            from_min: self.from_min,
+            to_min: self.to_min,
+        }
+    }
 }

@@ -21,14 +21,7 @@ fn floats(v: &[f64]) -> String {
 
 /// One non-reacting gene diffusing (D µm²/min) on a grid with spacing 1 µm from
 /// `initial` (one value per nucleus), fixed step `dt`, until `until` min.
-pub fn pure_diffusion(
-    nuclei: &[usize],
-    edges: &str,
-    d: f64,
-    initial: &[f64],
-    dt: f64,
-    until: f64,
-) -> String {
+pub fn pure_diffusion(nuclei: &[usize], edges: &str, d: f64, initial: &[f64], dt: f64, until: f64) -> String {
     let dims: Vec<String> = nuclei.iter().map(|n| n.to_string()).collect();
     format!(
         "[tissue]\nnuclei = [{}]\nspacing_um = 1.0\nedges = \"{edges}\"\n\
@@ -47,12 +40,7 @@ pub fn peer_p1(n: usize, steps: usize) -> String {
     const V: [f64; 4] = [1.0, 0.9, 0.8, 1.1];
     const D: [f64; 4] = [4e-5, 6e-5, 5e-5, 3e-5];
     // K[target][repressor]; 0 on the diagonal.
-    const K: [[f64; 4]; 4] = [
-        [0.0, 0.5, 0.1, 0.1],
-        [0.15, 0.0, 0.3, 0.1],
-        [0.1, 0.3, 0.0, 0.15],
-        [0.1, 0.1, 0.5, 0.0],
-    ];
+    const K: [[f64; 4]; 4] = [[0.0, 0.5, 0.1, 0.1], [0.15, 0.0, 0.3, 0.1], [0.1, 0.3, 0.0, 0.15], [0.1, 0.1, 0.5, 0.0]];
     // Input of each gene: (gradient, threshold).
     const INPUT: [(&str, f64); 4] = [("M1", 0.5), ("M1", 0.15), ("M2", 0.15), ("M2", 0.5)];
     let dt = 0.01;
@@ -65,11 +53,8 @@ pub fn peer_p1(n: usize, steps: usize) -> String {
         h = 1.0 / n as f64
     );
     for (g, name) in GENES.iter().enumerate() {
-        let _ = write!(
-            s,
-            "[[gene]]\nname = \"{name}\"\nproduction = {:?}\ndecay = 1.0\ndiffusion = {:?}\n",
-            V[g], D[g]
-        );
+        let _ =
+            write!(s, "[[gene]]\nname = \"{name}\"\nproduction = {:?}\ndecay = 1.0\ndiffusion = {:?}\n", V[g], D[g]);
     }
     s.push_str("[circuit]\nkinetics = \"hill\"\n");
     for (g, name) in GENES.iter().enumerate() {
@@ -122,10 +107,6 @@ mod tests {
     fn generated_models_are_valid() {
         parse(&peer_p1(50, 10), "p1.toml").unwrap();
         parse(&toggle_sheet(16, 10), "sheet.toml").unwrap();
-        parse(
-            &pure_diffusion(&[4], "sealed", 1.0, &[1.0, 2.0, 3.0, 4.0], 0.1, 1.0),
-            "d.toml",
-        )
-        .unwrap();
+        parse(&pure_diffusion(&[4], "sealed", 1.0, &[1.0, 2.0, 3.0, 4.0], 0.1, 1.0), "d.toml").unwrap();
     }
 }

@@ -51,12 +51,7 @@ pub fn describe(m: &Model) -> String {
             let _ = writeln!(s, "steps     chosen as the run goes (error-controlled)");
         }
     }
-    let _ = writeln!(
-        s,
-        "memory    {} working + {} recording",
-        gib(m.working_bytes()),
-        gib(m.recording_bytes())
-    );
+    let _ = writeln!(s, "memory    {} working + {} recording", gib(m.working_bytes()), gib(m.recording_bytes()));
     let _ = writeln!(s, "genes     {}", m.genes.len());
     for gene in &m.genes {
         let [r, gg, b] = gene.color;
@@ -87,36 +82,22 @@ pub fn describe(m: &Model) -> String {
         } else {
             format!(", amplitude over time ({} points)", gr.amplitude.len())
         };
-        let _ = writeln!(
-            s,
-            "  {:<12} {shape} from the {side}, peak {}, baseline {}{timed}",
-            gr.name, gr.peak, gr.baseline
-        );
+        let _ =
+            writeln!(s, "  {:<12} {shape} from the {side}, peak {}, baseline {}{timed}", gr.name, gr.peak, gr.baseline);
     }
     let kind = match m.circuit.kinetics {
         KineticsKind::Hill => "hill",
         KineticsKind::Sigmoid => "sigmoid",
     };
-    let _ = writeln!(
-        s,
-        "circuit   {kind} kinetics, {} links",
-        m.circuit.links.len()
-    );
+    let _ = writeln!(s, "circuit   {kind} kinetics, {} links", m.circuit.links.len());
     for l in &m.circuit.links {
         let from = match l.from {
             Regulator::Gene(k) => &m.genes[k].name,
             Regulator::Gradient(k) => &m.gradients[k].name,
         };
         let effect = match l.effect {
-            LinkEffect::Hill {
-                activates,
-                threshold,
-                hill,
-            } => {
-                format!(
-                    "{} (K = {threshold}, n = {hill})",
-                    if activates { "activates" } else { "represses" }
-                )
+            LinkEffect::Hill { activates, threshold, hill } => {
+                format!("{} (K = {threshold}, n = {hill})", if activates { "activates" } else { "represses" })
             }
             LinkEffect::Weight(w) => format!("weight {w}"),
         };
@@ -135,20 +116,12 @@ pub fn final_boundaries(summary: &Summary, dir: &Path) -> String {
     let _ = writeln!(
         s,
         "{}: {} steps ({} rejected) to t = {} min in {:.2} s",
-        summary.title,
-        summary.steps,
-        summary.rejected_steps,
-        summary.final_time_min,
-        summary.wall_time_s
+        summary.title, summary.steps, summary.rejected_steps, summary.final_time_min, summary.wall_time_s
     );
     if summary.final_boundaries.is_empty() {
         let _ = writeln!(s, "no boundaries at the final time");
     } else {
-        let _ = writeln!(
-            s,
-            "boundaries at t = {} min (model prediction):",
-            summary.final_time_min
-        );
+        let _ = writeln!(s, "boundaries at t = {} min (model prediction):", summary.final_time_min);
         for b in &summary.final_boundaries {
             let _ = writeln!(
                 s,

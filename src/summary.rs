@@ -3,7 +3,8 @@
 use serde::Serialize;
 
 use crate::Run;
-use crate::model::{Model, Stepping};
+use crate::model::{Edges, Model, Stepping};
+
 use crate::readout::{Boundary, Domain, boundaries_at, domains_at};
 
 /// The summary of one run.
@@ -17,6 +18,12 @@ pub struct Summary {
     pub note: &'static str,
     /// Tissue shape, e.g. "row of 96".
     pub tissue: String,
+    /// The grid, as needed to read states.npy back.
+    pub grid: GridInfo,
+    /// Display colour of each gene, `#rrggbb`, in state order.
+    pub colors: Vec<String>,
+    /// Snapshot times, min (the first axis of states.npy).
+    pub snapshot_times_min: Vec<f64>,
     /// Axis length, µm.
     pub axis_length_um: f64,
     /// Gene names in state order.
@@ -39,6 +46,19 @@ pub struct Summary {
     pub final_domains: Vec<Domain>,
 }
 
+/// The grid of a run, in summary.json.
+#[derive(Debug, Clone, PartialEq, Serialize, serde::Deserialize)]
+pub struct GridInfo {
+    /// Nuclei along the axis.
+    pub nx: usize,
+    /// Nuclei across (1 for a row).
+    pub ny: usize,
+    /// Spacing, µm.
+    pub spacing_um: f64,
+    /// "sealed" or "periodic".
+    pub edges: String,
+}
+
 /// What outputs say about their status.
 pub const PREDICTION_NOTE: &str = "model prediction from a simulated circuit, not a measurement";
 
@@ -52,6 +72,17 @@ impl Summary {
             anlage_version: env!("CARGO_PKG_VERSION"),
             note: PREDICTION_NOTE,
             tissue: model.grid.shape_text(),
+            grid: GridInfo {
+                nx: model.grid.nx,
+                ny: model.grid.ny,
+                spacing_um: model.grid.spacing_um,
+                edges: match model.grid.edges {
+                    Edges::Sealed => "sealed".into(),
+                    Edges::Periodic => "periodic".into(),
+                },
+            },
+            colors: rec.colors.iter().map(|[r, g, b]| format!("#{r:02x}{g:02x}{b:02x}")).collect(),
+            snapshot_times_min: rec.times.clone(),
             axis_length_um: model.grid.length_um(),
             genes: rec.genes.clone(),
             stepping: stepping_text(&model.clock.stepping),
@@ -70,14 +101,8 @@ impl Summary {
 pub fn stepping_text(s: &Stepping) -> String {
     match s {
         Stepping::Fixed { step_min } => format!("SBDF2, fixed step {step_min} min"),
-        Stepping::Adaptive {
-            rtol,
-            atol,
-            max_step_min,
-        } => {
-            format!(
-                "SBDF2, error-controlled steps (rtol {rtol:e}, atol {atol:e}, at most {max_step_min} min)"
-            )
+        Stepping::Adaptive { rtol, atol, max_step_min } => {
+            format!("SBDF2, error-controlled steps (rtol {rtol:e}, atol {atol:e}, at most {max_step_min} min)")
         }
     }
 }

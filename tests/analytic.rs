@@ -7,35 +7,16 @@ use crate::common::{parse, run, with_tolerance};
 
 /// Runs pure diffusion from `1 + ½cos(θx·(ix+½))·cos(θy·(iy+½))` and returns the
 /// measured decay rate of the mode, 1/min.
-fn measured_rate(
-    nx: usize,
-    ny: usize,
-    edges: &str,
-    p: usize,
-    q: usize,
-    d: f64,
-    dt: f64,
-    t: f64,
-) -> f64 {
-    let period = if edges == "sealed" {
-        std::f64::consts::PI
-    } else {
-        2.0 * std::f64::consts::PI
-    };
+fn measured_rate(nx: usize, ny: usize, edges: &str, p: usize, q: usize, d: f64, dt: f64, t: f64) -> f64 {
+    let period = if edges == "sealed" { std::f64::consts::PI } else { 2.0 * std::f64::consts::PI };
     let (tx, ty) = (period * p as f64 / nx as f64, period * q as f64 / ny as f64);
-    let mode =
-        |ix: usize, iy: usize| (tx * (ix as f64 + 0.5)).cos() * (ty * (iy as f64 + 0.5)).cos();
-    let initial: Vec<f64> = (0..nx * ny)
-        .map(|k| 1.0 + 0.5 * mode(k % nx, k / nx))
-        .collect();
+    let mode = |ix: usize, iy: usize| (tx * (ix as f64 + 0.5)).cos() * (ty * (iy as f64 + 0.5)).cos();
+    let initial: Vec<f64> = (0..nx * ny).map(|k| 1.0 + 0.5 * mode(k % nx, k / nx)).collect();
     let dims: Vec<usize> = if ny > 1 { vec![nx, ny] } else { vec![nx] };
     let model = parse(&reference::pure_diffusion(&dims, edges, d, &initial, dt, t));
     let fin = run(&model).recording.final_state().row(0).to_vec();
     let norm: f64 = (0..nx * ny).map(|k| mode(k % nx, k / nx).powi(2)).sum();
-    let amp = (0..nx * ny)
-        .map(|k| (fin[k] - 1.0) * mode(k % nx, k / nx))
-        .sum::<f64>()
-        / norm;
+    let amp = (0..nx * ny).map(|k| (fin[k] - 1.0) * mode(k % nx, k / nx)).sum::<f64>() / norm;
     -(amp / 0.5).ln() / t
 }
 
@@ -52,11 +33,7 @@ fn lam(theta: f64) -> f64 {
 fn heat_mode_decay_row_crank_1975() {
     let (n, p, d) = (32, 3, 1.5);
     let want = d * lam(std::f64::consts::PI * p as f64 / n as f64);
-    assert_relative_eq!(
-        measured_rate(n, 1, "sealed", p, 0, d, 0.01, 10.0),
-        want,
-        max_relative = 1e-5
-    );
+    assert_relative_eq!(measured_rate(n, 1, "sealed", p, 0, d, 0.01, 10.0), want, max_relative = 1e-5);
 }
 
 /// The same on a sealed sheet (DCT solve): rate D·(λ_p + λ_q).
@@ -64,14 +41,9 @@ fn heat_mode_decay_row_crank_1975() {
 #[test]
 fn heat_mode_decay_sheet_crank_1975() {
     let (nx, ny, p, q, d) = (24, 16, 2, 1, 1.0);
-    let want = d
-        * (lam(std::f64::consts::PI * p as f64 / nx as f64)
-            + lam(std::f64::consts::PI * q as f64 / ny as f64));
-    assert_relative_eq!(
-        measured_rate(nx, ny, "sealed", p, q, d, 0.01, 10.0),
-        want,
-        max_relative = 1e-5
-    );
+    let want =
+        d * (lam(std::f64::consts::PI * p as f64 / nx as f64) + lam(std::f64::consts::PI * q as f64 / ny as f64));
+    assert_relative_eq!(measured_rate(nx, ny, "sealed", p, q, d, 0.01, 10.0), want, max_relative = 1e-5);
 }
 
 /// Periodic row (Fourier solve): mode cos(2πp x/L) decays at D·(2 − 2cos(2πp/N))/h².
@@ -80,11 +52,7 @@ fn heat_mode_decay_sheet_crank_1975() {
 fn heat_mode_decay_periodic_row_crank_1975() {
     let (n, p, d) = (30, 2, 2.0);
     let want = d * lam(2.0 * std::f64::consts::PI * p as f64 / n as f64);
-    assert_relative_eq!(
-        measured_rate(n, 1, "periodic", p, 0, d, 0.01, 10.0),
-        want,
-        max_relative = 1e-5
-    );
+    assert_relative_eq!(measured_rate(n, 1, "periodic", p, 0, d, 0.01, 10.0), want, max_relative = 1e-5);
 }
 
 /// As h → 0 the discrete rate tends to the continuum rate D·k², with relative
@@ -101,11 +69,7 @@ fn heat_mode_rate_tends_to_d_k_squared() {
         let h = length / n as f64;
         let rate = measured_rate(n, 1, "sealed", 1, 0, d / (h * h), 0.01, 40.0 * h * h);
         errors.push((rate - want).abs() / want);
-        assert_relative_eq!(
-            errors.last().copied().unwrap(),
-            (k * h).powi(2) / 12.0,
-            max_relative = 0.02
-        );
+        assert_relative_eq!(errors.last().copied().unwrap(), (k * h).powi(2) / 12.0, max_relative = 0.02);
     }
     // Four times finer, sixteen times smaller error: second order in h.
     assert_relative_eq!(errors[0] / errors[1], 16.0, max_relative = 0.02);
@@ -116,13 +80,9 @@ fn heat_mode_rate_tends_to_d_k_squared() {
 #[test]
 fn sealed_edges_conserve_mass() {
     for (dims, init_len) in [(vec![50usize], 50usize), (vec![20, 12], 240)] {
-        let initial: Vec<f64> = (0..init_len)
-            .map(|i| ((i * 7919) % 97) as f64 / 9.0)
-            .collect();
+        let initial: Vec<f64> = (0..init_len).map(|i| ((i * 7919) % 97) as f64 / 9.0).collect();
         let total0: f64 = initial.iter().sum();
-        let mut model = parse(&reference::pure_diffusion(
-            &dims, "sealed", 3.0, &initial, 0.05, 20.0,
-        ));
+        let mut model = parse(&reference::pure_diffusion(&dims, "sealed", 3.0, &initial, 0.05, 20.0));
         model.clock.snapshot_every_min = 2.0;
         for m in [model.clone(), with_tolerance(&model, 1e-6)] {
             let rec = run(&m).recording;
@@ -191,16 +151,12 @@ fn source_decay_diffusion_profile_has_lambda_sqrt_d_over_k() {
 /// final-state sums equal to 1e-9 relative, as the peer's docstring requires.
 #[test]
 fn peer_p1_checksums_agree() {
-    let table =
-        std::fs::read_to_string(crate::common::root().join("tests/reference/peer_p1.csv")).unwrap();
+    let table = std::fs::read_to_string(crate::common::root().join("tests/reference/peer_p1.csv")).unwrap();
     let mut checked = 0;
     for line in table.lines().skip(1) {
         let v: Vec<&str> = line.split(',').collect();
-        let (n, steps, want): (usize, usize, f64) = (
-            v[0].parse().unwrap(),
-            v[1].parse().unwrap(),
-            v[2].parse().unwrap(),
-        );
+        let (n, steps, want): (usize, usize, f64) =
+            (v[0].parse().unwrap(), v[1].parse().unwrap(), v[2].parse().unwrap());
         let model = reference::parse(&reference::peer_p1(n, steps), "p1.toml").unwrap();
         assert_eq!(model.clock.fixed_steps(), Some(steps));
         let got = reference::checksum(run(&model).recording.final_state());

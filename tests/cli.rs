@@ -6,10 +6,7 @@ use std::process::{Command, Output};
 use crate::common::root;
 
 fn anlage(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_anlage"))
-        .args(args)
-        .output()
-        .expect("run anlage")
+    Command::new(env!("CARGO_BIN_EXE_anlage")).args(args).output().expect("run anlage")
 }
 
 fn temp_dir(name: &str) -> PathBuf {
@@ -21,26 +18,15 @@ fn temp_dir(name: &str) -> PathBuf {
 
 fn run_into(model: &str, out: &Path, threads: usize) {
     let model = root().join(model);
-    let o = anlage(&[
-        "run",
-        model.to_str().unwrap(),
-        "-o",
-        out.to_str().unwrap(),
-        "--threads",
-        &threads.to_string(),
-        "-q",
-    ]);
+    let o =
+        anlage(&["run", model.to_str().unwrap(), "-o", out.to_str().unwrap(), "--threads", &threads.to_string(), "-q"]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
 }
 
 /// summary.json without its one run-dependent field, the wall time.
 fn summary_without_wall_time(dir: &Path) -> serde_json::Value {
-    let mut v: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(dir.join("summary.json")).unwrap()).unwrap();
-    v.as_object_mut()
-        .unwrap()
-        .remove("wall_time_s")
-        .expect("summary has wall_time_s");
+    let mut v: serde_json::Value = serde_json::from_slice(&std::fs::read(dir.join("summary.json")).unwrap()).unwrap();
+    v.as_object_mut().unwrap().remove("wall_time_s").expect("summary has wall_time_s");
     v
 }
 
@@ -51,17 +37,8 @@ fn run_writes_every_output_and_prints_boundaries() {
     let o = anlage(&["run", model.to_str().unwrap(), "-o", out.to_str().unwrap()]);
     assert!(o.status.success());
     let text = String::from_utf8_lossy(&o.stdout);
-    assert!(
-        text.contains("amber") && text.contains("falling") && text.contains("model prediction"),
-        "{text}"
-    );
-    for name in [
-        "profiles.csv",
-        "states.npy",
-        "boundaries.csv",
-        "domains.csv",
-        "summary.json",
-    ] {
+    assert!(text.contains("amber") && text.contains("falling") && text.contains("model prediction"), "{text}");
+    for name in ["profiles.csv", "states.npy", "boundaries.csv", "domains.csv", "summary.json"] {
         assert!(out.join(name).is_file(), "{name} missing");
     }
     // No temporary files are left behind.
@@ -75,9 +52,7 @@ fn run_writes_every_output_and_prints_boundaries() {
     assert!(profiles.starts_with("time_min,nucleus,x_um,x_pct,amber,cobalt\n"));
     assert_eq!(profiles.lines().count(), 1 + 61 * 100);
     let boundaries = std::fs::read_to_string(out.join("boundaries.csv")).unwrap();
-    assert!(boundaries.starts_with(
-        "time_min,gene,direction,position_um,position_pct,steepness_per_um,width_um\n"
-    ));
+    assert!(boundaries.starts_with("time_min,gene,direction,position_um,position_pct,steepness_per_um,width_um\n"));
     let summary = summary_without_wall_time(&out);
     assert_eq!(summary["final_time_min"], 240.0);
     assert_eq!(summary["final_boundaries"].as_array().unwrap().len(), 2);
@@ -93,13 +68,8 @@ fn states_npy_round_trips() {
     let bytes = std::fs::read(out.join("states.npy")).unwrap();
     assert_eq!(&bytes[..6], b"\x93NUMPY");
     let header = String::from_utf8_lossy(&bytes[10..128]);
-    assert!(
-        header.contains("'descr': '<f8'") && header.contains("'shape': (61, 2, 100)"),
-        "{header}"
-    );
-    let arr =
-        ndarray::Array3::<f64>::read_npy(std::fs::File::open(out.join("states.npy")).unwrap())
-            .unwrap();
+    assert!(header.contains("'descr': '<f8'") && header.contains("'shape': (61, 2, 100)"), "{header}");
+    let arr = ndarray::Array3::<f64>::read_npy(std::fs::File::open(out.join("states.npy")).unwrap()).unwrap();
     let profiles = std::fs::read_to_string(out.join("profiles.csv")).unwrap();
     let last = profiles.lines().last().unwrap();
     let cobalt: f64 = last.rsplit(',').next().unwrap().parse().unwrap();
@@ -113,10 +83,8 @@ fn one_and_two_threads_write_identical_bytes() {
         let (a, b) = (temp_dir("t1"), temp_dir("t2"));
         run_into(model, &a, 1);
         run_into(model, &b, 2);
-        let mut names: Vec<String> = std::fs::read_dir(&a)
-            .unwrap()
-            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-            .collect();
+        let mut names: Vec<String> =
+            std::fs::read_dir(&a).unwrap().map(|e| e.unwrap().file_name().to_string_lossy().into_owned()).collect();
         names.sort();
         assert!(names.len() >= 5, "{names:?}");
         for name in names.iter().filter(|n| *n != "summary.json") {
@@ -134,15 +102,9 @@ fn check_describes_the_model() {
     let o = anlage(&["check", root().join("patterns/band.toml").to_str().unwrap()]);
     assert!(o.status.success());
     let text = String::from_utf8_lossy(&o.stdout);
-    for want in [
-        "is valid",
-        "row of 120",
-        "plum",
-        "teal",
-        "head -> teal: activates (K = 0.15, n = 4)",
-        "1800",
-        "memory",
-    ] {
+    for want in
+        ["is valid", "row of 120", "plum", "teal", "head -> teal: activates (K = 0.15, n = 4)", "1800", "memory"]
+    {
         assert!(text.contains(want), "missing `{want}` in\n{text}");
     }
 }
@@ -151,28 +113,14 @@ fn check_describes_the_model() {
 fn bad_model_exits_2_with_location() {
     let dir = temp_dir("bad");
     let path = dir.join("bad.toml");
-    let text = std::fs::read_to_string(root().join("patterns/ribbon.toml"))
-        .unwrap()
-        .replace("decay = 0.1 ", "decay = -0.1 ");
-    let line = 1 + text
-        .lines()
-        .position(|l| l.starts_with("decay = -0.1"))
-        .unwrap();
+    let text =
+        std::fs::read_to_string(root().join("patterns/ribbon.toml")).unwrap().replace("decay = 0.1 ", "decay = -0.1 ");
+    let line = 1 + text.lines().position(|l| l.starts_with("decay = -0.1")).unwrap();
     std::fs::write(&path, text).unwrap();
-    let o = anlage(&[
-        "run",
-        path.to_str().unwrap(),
-        "-o",
-        dir.join("out").to_str().unwrap(),
-    ]);
+    let o = anlage(&["run", path.to_str().unwrap(), "-o", dir.join("out").to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(2));
     let err = String::from_utf8_lossy(&o.stderr);
-    assert!(
-        err.contains(&format!("bad.toml:{line}:1:"))
-            && err.contains("decay")
-            && err.contains(">= 0"),
-        "{err}"
-    );
+    assert!(err.contains(&format!("bad.toml:{line}:1:")) && err.contains("decay") && err.contains(">= 0"), "{err}");
     assert!(!dir.join("out").exists(), "no output for a bad model");
 }
 
@@ -189,21 +137,8 @@ fn blow_up_exits_1_with_time_nucleus_and_gene() {
          [[circuit.link]]\nfrom = \"fuel\"\nto = \"fuel\"\nweight = 1.0\n",
     )
     .unwrap();
-    let o = anlage(&[
-        "run",
-        path.to_str().unwrap(),
-        "-o",
-        dir.join("out").to_str().unwrap(),
-    ]);
-    assert_eq!(
-        o.status.code(),
-        Some(1),
-        "{}",
-        String::from_utf8_lossy(&o.stderr)
-    );
+    let o = anlage(&["run", path.to_str().unwrap(), "-o", dir.join("out").to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(1), "{}", String::from_utf8_lossy(&o.stderr));
     let err = String::from_utf8_lossy(&o.stderr);
-    assert!(
-        err.contains("blew up at t =") && err.contains("gene `fuel`") && err.contains("nucleus 0"),
-        "{err}"
-    );
+    assert!(err.contains("blew up at t =") && err.contains("gene `fuel`") && err.contains("nucleus 0"), "{err}");
 }

@@ -35,10 +35,6 @@ pub fn with_step(model: &Model, step_min: f64) -> Model {
 /// The same model with error-controlled steps.
 pub fn with_tolerance(model: &Model, tol: f64) -> Model {
     let mut m = model.clone();
-    m.clock.stepping = Stepping::Adaptive {
-        rtol: tol,
-        atol: tol,
-        max_step_min: m.clock.snapshot_every_min,
-    };
+    m.clock.stepping = Stepping::Adaptive { rtol: tol, atol: tol, max_step_min: m.clock.snapshot_every_min };
     m
 }

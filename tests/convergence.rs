@@ -18,11 +18,7 @@ fn reference() -> Vec<f64> {
 }
 
 fn max_error(state: &ndarray::Array2<f64>, want: &[f64]) -> f64 {
-    state
-        .iter()
-        .zip(want)
-        .map(|(g, w)| (g - w).abs())
-        .fold(0.0, f64::max)
+    state.iter().zip(want).map(|(g, w)| (g - w).abs()).fold(0.0, f64::max)
 }
 
 /// Halving Δt divides the error by four: observed order in [1.9, 2.1], with
@@ -41,10 +37,7 @@ fn sbdf2_is_second_order_against_scipy() {
         .collect();
     for pair in errors.windows(2) {
         let order = (pair[0] / pair[1]).log2();
-        assert!(
-            (1.9..=2.1).contains(&order),
-            "observed order {order:.3}, errors {errors:?}"
-        );
+        assert!((1.9..=2.1).contains(&order), "observed order {order:.3}, errors {errors:?}");
     }
     assert!(errors[3] < 1e-4, "errors {errors:?}");
 }
@@ -69,10 +62,7 @@ fn error_control_scales_as_tolerance_two_thirds_against_scipy() {
         .collect();
     for pair in errors.windows(2) {
         let exponent = (pair[0] / pair[1]).log10();
-        assert!(
-            (0.55..=0.8).contains(&exponent),
-            "exponent {exponent:.3}, errors {errors:?}"
-        );
+        assert!((0.55..=0.8).contains(&exponent), "exponent {exponent:.3}, errors {errors:?}");
     }
     assert!(errors[4] < 1e-5, "errors {errors:?}");
 }

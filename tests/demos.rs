@@ -16,10 +16,7 @@ fn ribbon_forms_one_sharp_boundary() {
     let amber: Vec<_> = b.iter().filter(|b| b.gene == "amber").collect();
     let cobalt: Vec<_> = b.iter().filter(|b| b.gene == "cobalt").collect();
     assert_eq!((amber.len(), cobalt.len()), (1, 1), "{b:#?}");
-    assert_eq!(
-        (amber[0].direction, cobalt[0].direction),
-        ("falling", "rising")
-    );
+    assert_eq!((amber[0].direction, cobalt[0].direction), ("falling", "rising"));
     let h = model.grid.spacing_um;
     assert!((amber[0].position_um - cobalt[0].position_um).abs() < h);
     for x in [amber[0], cobalt[0]] {
@@ -35,29 +32,38 @@ fn band_forms_one_central_stripe() {
     let b = boundaries_at(&rec, rec.times.len() - 1);
     let teal: Vec<_> = b.iter().filter(|b| b.gene == "teal").collect();
     assert_eq!(teal.len(), 2, "{b:#?}");
-    assert_eq!(
-        (teal[0].direction, teal[1].direction),
-        ("rising", "falling")
-    );
+    assert_eq!((teal[0].direction, teal[1].direction), ("rising", "falling"));
     assert!(teal[0].position_pct > 20.0 && teal[1].position_pct < 80.0);
 }
 
-/// Sheet: the toggle boundary runs across the sheet; every row of nuclei has
-/// amber high at the head end and cobalt high at the tail end.
+/// Sheet: a disc of amber around the central source in a field of cobalt,
+/// with a circular boundary: every nucleus within 0.8 R of the centre is amber,
+/// every nucleus beyond 1.2 R cobalt, R the radius where amber's level along the
+/// middle row crosses half maximum; read along the axis, amber has one rise and one fall.
 #[test]
-fn sheet_splits_into_head_and_tail() {
+fn sheet_forms_a_disc_around_the_source() {
     let model = load("patterns/sheet.toml");
     let rec = run(&model).recording;
     let fin = rec.final_state();
-    let (nx, ny) = (model.grid.nx, model.grid.ny);
-    for iy in 0..ny {
-        let head = iy * nx;
-        let tail = iy * nx + nx - 1;
-        assert!(
-            fin[[0, head]] > fin[[1, head]] && fin[[1, tail]] > fin[[0, tail]],
-            "row {iy}"
-        );
+    let g = model.grid;
+    let mid = g.ny / 2;
+    let row: Vec<f64> = (0..g.nx).map(|ix| fin[[0, mid * g.nx + ix]]).collect();
+    let crossings = anlage::readout::profile_boundaries(&row, g.spacing_um, false);
+    assert_eq!(crossings.len(), 2, "{crossings:?}");
+    let radius = (crossings[1].position_um - crossings[0].position_um) / 2.0;
+    let (cx, cy) = (g.length_um() / 2.0, g.height_um() / 2.0);
+    for iy in 0..g.ny {
+        for ix in 0..g.nx {
+            let r = (g.x_um(ix) - cx).hypot(g.y_um(iy) - cy);
+            let (amber, cobalt) = (fin[[0, iy * g.nx + ix]], fin[[1, iy * g.nx + ix]]);
+            if r < 0.8 * radius {
+                assert!(amber > cobalt, "({ix}, {iy}) at r = {r:.1} µm");
+            } else if r > 1.2 * radius {
+                assert!(cobalt > amber, "({ix}, {iy}) at r = {r:.1} µm");
+            }
+        }
     }
     let b = boundaries_at(&rec, rec.times.len() - 1);
-    assert_eq!(b.iter().filter(|b| b.gene == "amber").count(), 1, "{b:#?}");
+    let amber: Vec<_> = b.iter().filter(|b| b.gene == "amber").map(|b| b.direction).collect();
+    assert_eq!(amber, ["rising", "falling"]);
 }

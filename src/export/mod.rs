@@ -18,7 +18,7 @@ pub use tables::{write_boundaries, write_domains, write_profiles, write_sheet};
 #[derive(Debug, thiserror::Error)]
 pub enum ExportError {
     /// File-system trouble.
-    #[error("cannot write {}: {source}", path.display())]
+    #[error("cannot write {}", path.display())]
     Io {
         /// The file.
         path: PathBuf,
@@ -40,17 +40,9 @@ pub enum ExportError {
 ///
 /// # Errors
 /// [`ExportError::Io`] for any file-system failure.
-pub fn write_atomic(
-    path: &Path,
-    body: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
-) -> Result<(), ExportError> {
-    let io = |source| ExportError::Io {
-        path: path.to_path_buf(),
-        source,
-    };
-    let name = path
-        .file_name()
-        .map_or_else(|| "out".into(), |n| n.to_string_lossy().into_owned());
+pub fn write_atomic(path: &Path, body: impl FnOnce(&mut dyn Write) -> std::io::Result<()>) -> Result<(), ExportError> {
+    let io = |source| ExportError::Io { path: path.to_path_buf(), source };
+    let name = path.file_name().map_or_else(|| "out".into(), |n| n.to_string_lossy().into_owned());
     let tmp = path.with_file_name(format!(".{name}.tmp{}", std::process::id()));
     let result = (|| {
         let file = File::create(&tmp)?;
@@ -82,10 +74,7 @@ pub fn write_states_npy(rec: &crate::integrate::Recording, path: &Path) -> Resul
         let shape = (rec.states.len(), g, rec.grid.ny, rec.grid.nx);
         let all = all
             .into_shape_with_order(shape)
-            .map_err(|e| ExportError::Npy {
-                path: path.into(),
-                message: e.to_string(),
-            })?;
+            .map_err(|e| ExportError::Npy { path: path.into(), message: e.to_string() })?;
         write_atomic(path, |w| all.write_npy(w).map_err(npy_err))
     } else {
         write_atomic(path, |w| all.write_npy(w).map_err(npy_err))

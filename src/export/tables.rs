@@ -8,7 +8,8 @@ use crate::integrate::Recording;
 use crate::readout::{Boundary, Domain};
 
 /// `profiles.csv`: `time_min, nucleus, x_um, x_pct, <gene>...` for a row; for
-/// a sheet the same with `column` for `nucleus`, each value the mean over the column.
+/// a sheet the same with `column` for `nucleus`, each value the mean over the
+/// central strip of rows ([`Recording::midline_rows`]).
 ///
 /// # Errors
 /// [`ExportError`] if the file cannot be written.
@@ -22,9 +23,7 @@ pub fn write_profiles(rec: &Recording, path: &Path) -> Result<(), ExportError> {
         }
         writeln!(w)?;
         for (s, t) in rec.times.iter().enumerate() {
-            let profiles: Vec<Vec<f64>> = (0..rec.genes.len())
-                .map(|g| rec.axis_profile(s, g))
-                .collect();
+            let profiles: Vec<Vec<f64>> = (0..rec.genes.len()).map(|g| rec.axis_profile(s, g)).collect();
             for ix in 0..grid.nx {
                 let x = grid.x_um(ix);
                 write!(w, "{t},{ix},{x},{}", 100.0 * x / grid.length_um())?;
@@ -70,21 +69,12 @@ pub fn write_sheet(rec: &Recording, path: &Path) -> Result<(), ExportError> {
 /// [`ExportError`] if the file cannot be written.
 pub fn write_boundaries(rows: &[Boundary], path: &Path) -> Result<(), ExportError> {
     write_atomic(path, |w| {
-        writeln!(
-            w,
-            "time_min,gene,direction,position_um,position_pct,steepness_per_um,width_um"
-        )?;
+        writeln!(w, "time_min,gene,direction,position_um,position_pct,steepness_per_um,width_um")?;
         for b in rows {
             writeln!(
                 w,
                 "{},{},{},{},{},{},{}",
-                b.time_min,
-                b.gene,
-                b.direction,
-                b.position_um,
-                b.position_pct,
-                b.steepness_per_um,
-                b.width_um
+                b.time_min, b.gene, b.direction, b.position_um, b.position_pct, b.steepness_per_um, b.width_um
             )?;
         }
         Ok(())
@@ -97,22 +87,12 @@ pub fn write_boundaries(rows: &[Boundary], path: &Path) -> Result<(), ExportErro
 /// [`ExportError`] if the file cannot be written.
 pub fn write_domains(rows: &[Domain], path: &Path) -> Result<(), ExportError> {
     write_atomic(path, |w| {
-        writeln!(
-            w,
-            "time_min,gene,start_um,start_pct,end_um,end_pct,width_um,width_pct"
-        )?;
+        writeln!(w, "time_min,gene,start_um,start_pct,end_um,end_pct,width_um,width_pct")?;
         for d in rows {
             writeln!(
                 w,
                 "{},{},{},{},{},{},{},{}",
-                d.time_min,
-                d.gene,
-                d.start_um,
-                d.start_pct,
-                d.end_um,
-                d.end_pct,
-                d.width_um,
-                d.width_pct
+                d.time_min, d.gene, d.start_um, d.start_pct, d.end_um, d.end_pct, d.width_um, d.width_pct
             )?;
         }
         Ok(())

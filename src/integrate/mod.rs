@@ -93,8 +93,7 @@ pub fn initial_state(model: &Model) -> Array2<f64> {
             let seed = model.seed ^ (0x9E37_79B9_7F4A_7C15u64.wrapping_mul(g as u64 + 1));
             let mut rng = rand_pcg::Pcg64::seed_from_u64(seed);
             let a = gene.initial_noise;
-            row.iter_mut()
-                .for_each(|r| *r = (*r + rng.random_range(-a..=a)).max(0.0));
+            row.iter_mut().for_each(|r| *r = (*r + rng.random_range(-a..=a)).max(0.0));
         }
     }
     u
@@ -114,15 +113,7 @@ pub fn integrate(
 ) -> Result<StepStats, StepError> {
     let names = model.genes.iter().map(|g| g.name.clone()).collect();
     let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
-    let mut stepper = Stepper::new(
-        kinetics,
-        tissue,
-        &d,
-        names,
-        initial_state(model),
-        0.0,
-        parallel,
-    )?;
+    let mut stepper = Stepper::new(kinetics, tissue, &d, names, initial_state(model), 0.0, parallel)?;
     snapshot(0.0, stepper.state());
     let times = model.clock.snapshot_times();
     let mut stats = StepStats::default();
@@ -141,11 +132,7 @@ pub fn integrate(
                 }
             }
         }
-        Stepping::Adaptive {
-            rtol,
-            atol,
-            max_step_min,
-        } => {
+        Stepping::Adaptive { rtol, atol, max_step_min } => {
             let mut k = first_step(&stepper, rtol, atol, max_step_min);
             for &target in &times[1..] {
                 while target - stepper.time() > 1e-12 * target {
@@ -163,34 +150,18 @@ pub fn integrate(
                         }
                         stepper.attempt(k_try);
                         let err = stepper.error_norm(k_try, rtol, atol);
-                        let factor = if err > 0.0 {
-                            0.9 * err.powf(-1.0 / 3.0)
-                        } else {
-                            MAX_STEP_RATIO
-                        };
+                        let factor = if err > 0.0 { 0.9 * err.powf(-1.0 / 3.0) } else { MAX_STEP_RATIO };
                         if err <= 1.0 {
-                            let t_new = if landing {
-                                target
-                            } else {
-                                stepper.time() + k_try
-                            };
+                            let t_new = if landing { target } else { stepper.time() + k_try };
                             stepper.accept(k_try, t_new)?;
                             stats.count(k_try);
                             k = k_try * factor.clamp(0.2, MAX_STEP_RATIO);
                             break;
                         }
                         stats.rejected += 1;
-                        k_try *= if factor.is_finite() {
-                            factor.clamp(0.1, 0.9)
-                        } else {
-                            0.1
-                        };
+                        k_try *= if factor.is_finite() { factor.clamp(0.1, 0.9) } else { 0.1 };
                         if k_try < 1e-13 * model.clock.until_min.max(1.0) {
-                            return Err(StepError::StepCollapse {
-                                t_min: stepper.time(),
-                                step_min: k_try,
-                                error: err,
-                            });
+                            return Err(StepError::StepCollapse { t_min: stepper.time(), step_min: k_try, error: err });
                         }
                     }
                 }

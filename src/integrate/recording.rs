@@ -42,18 +42,26 @@ impl Recording {
     /// # Panics
     /// If nothing was recorded.
     pub fn final_state(&self) -> &Array2<f64> {
-        self.states
-            .last()
-            .expect("a recording holds at least t = 0")
+        self.states.last().expect("a recording holds at least t = 0")
+    }
+
+    /// Rows of a sheet read for the axis profile: a central strip a tenth of
+    /// the sheet's height (at least one row), like the strip along the midline
+    /// in which stained embryos are read (common practice, no source).
+    pub fn midline_rows(&self) -> std::ops::Range<usize> {
+        let ny = self.grid.ny;
+        let band = (ny / 10).max(1);
+        let start = (ny - band) / 2;
+        start..start + band
     }
 
     /// Profile of gene `g` along the axis at snapshot `s`, one value per column:
-    /// the row itself, or on a sheet the mean over each column (across y).
+    /// the row itself, or on a sheet the mean over the [`Self::midline_rows`].
     pub fn axis_profile(&self, s: usize, g: usize) -> Vec<f64> {
         let row = self.states[s].row(g);
-        let (nx, ny) = (self.grid.nx, self.grid.ny);
-        (0..nx)
-            .map(|ix| (0..ny).map(|iy| row[iy * nx + ix]).sum::<f64>() / ny as f64)
-            .collect()
+        let nx = self.grid.nx;
+        let rows = self.midline_rows();
+        let n = rows.len() as f64;
+        (0..nx).map(|ix| rows.clone().map(|iy| row[iy * nx + ix]).sum::<f64>() / n).collect()
     }
 }

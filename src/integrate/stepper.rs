@@ -113,20 +113,13 @@ impl<'a> Stepper<'a> {
     /// Computes a trial state at `t + k` into the trial buffer (history unchanged).
     pub fn attempt(&mut self, k: f64) {
         let (a0, coef) = if self.history == 1 {
-            Zip::from(&mut self.trial)
-                .and(&self.u)
-                .and(&self.f)
-                .for_each(|r, &u, &f| *r = u + k * f);
+            Zip::from(&mut self.trial).and(&self.u).and(&self.f).for_each(|r, &u, &f| *r = u + k * f);
             (1.0, k)
         } else {
             let w = k / self.k1;
             let (cu, cu1) = ((1.0 + w) * (1.0 + w), w * w);
             let (kf, cf, cf1) = (k * (1.0 + w), 1.0 + w, w);
-            let z = Zip::from(&mut self.trial)
-                .and(&self.u)
-                .and(&self.u1)
-                .and(&self.f)
-                .and(&self.f1);
+            let z = Zip::from(&mut self.trial).and(&self.u).and(&self.u1).and(&self.f).and(&self.f1);
             let rule = |r: &mut f64, &u: &f64, &u1: &f64, &f: &f64, &f1: &f64| {
                 *r = cu * u - cu1 * u1 + kf * (cf * f - cf1 * f1);
             };
@@ -137,8 +130,7 @@ impl<'a> Stepper<'a> {
             }
             (1.0 + 2.0 * w, k * (1.0 + w))
         };
-        self.diffusion
-            .solve(&mut self.trial, a0, coef, self.parallel);
+        self.diffusion.solve(&mut self.trial, a0, coef, self.parallel);
     }
 
     /// Weighted max-norm of the local error of the trial step of size `k`:
@@ -167,18 +159,10 @@ impl<'a> Stepper<'a> {
         };
         let one = |&r: &f64, &u: &f64, &u1: &f64, &u2: &f64| -> f64 {
             let e = c * (r - (wn * u + wn1 * u1 + wn2 * u2)) / (atol + rtol * u.abs().max(r.abs()));
-            if e.is_finite() {
-                e.abs()
-            } else {
-                f64::INFINITY
-            }
+            if e.is_finite() { e.abs() } else { f64::INFINITY }
         };
         let rows = |(r, (u, (u1, u2))): (_, (_, (_, _)))| -> f64 {
-            Zip::from(r)
-                .and(u)
-                .and(u1)
-                .and(u2)
-                .fold(0.0f64, |m, r, u, u1, u2| m.max(one(r, u, u1, u2)))
+            Zip::from(r).and(u).and(u1).and(u2).fold(0.0f64, |m, r, u, u1, u2| m.max(one(r, u, u1, u2)))
         };
         let ax = Axis(1);
         if self.parallel {
@@ -196,10 +180,7 @@ impl<'a> Stepper<'a> {
                 .map(rows)
                 .reduce(|| 0.0, f64::max)
         } else {
-            rows((
-                self.trial.view(),
-                (self.u.view(), (self.u1.view(), self.u2.view())),
-            ))
+            rows((self.trial.view(), (self.u.view(), (self.u1.view(), self.u2.view()))))
         }
     }
 
@@ -229,28 +210,17 @@ impl<'a> Stepper<'a> {
         let ax = Axis(1);
         let chunk = |(c, (mut out, (u, m))): (
             usize,
-            (
-                ndarray::ArrayViewMut2<f64>,
-                (ndarray::ArrayView2<f64>, ndarray::ArrayView2<f64>),
-            ),
+            (ndarray::ArrayViewMut2<f64>, (ndarray::ArrayView2<f64>, ndarray::ArrayView2<f64>)),
         )| {
             kinetics.rates(u.view(), m, out.view_mut());
             let bad = |v: &f64| !(v.abs() <= BLOW_UP);
-            if u.iter().any(bad) || out.iter().any(bad) {
-                Some(c)
-            } else {
-                None
-            }
+            if u.iter().any(bad) || out.iter().any(bad) { Some(c) } else { None }
         };
         let outs = self.f.axis_chunks_iter_mut(ax, CHUNK);
         let us = self.u.axis_chunks_iter(ax, CHUNK);
         let ms = self.inputs.axis_chunks_iter(ax, CHUNK);
         let first_bad = if self.parallel {
-            outs.into_par_iter()
-                .zip(us.into_par_iter().zip(ms.into_par_iter()))
-                .enumerate()
-                .filter_map(chunk)
-                .min()
+            outs.into_par_iter().zip(us.into_par_iter().zip(ms.into_par_iter())).enumerate().filter_map(chunk).min()
         } else {
             outs.zip(us.zip(ms)).enumerate().filter_map(chunk).min()
         };

@@ -34,11 +34,7 @@ impl Term {
     }
     /// dr/dx.
     fn ratio_slope(&self, x: f64) -> f64 {
-        if x <= 0.0 {
-            0.0
-        } else {
-            self.n * self.ratio(x) / x
-        }
+        if x <= 0.0 { 0.0 } else { self.n * self.ratio(x) / x }
     }
 }
 
@@ -63,34 +59,14 @@ impl HillKinetics {
         let mut genes: Vec<GeneLaw> = model
             .genes
             .iter()
-            .map(|g| GeneLaw {
-                p: g.production,
-                d: g.decay,
-                combine: g.combine,
-                act: vec![],
-                rep: vec![],
-            })
+            .map(|g| GeneLaw { p: g.production, d: g.decay, combine: g.combine, act: vec![], rep: vec![] })
             .collect();
         for link in &model.circuit.links {
-            if let LinkEffect::Hill {
-                activates,
-                threshold,
-                hill,
-            } = link.effect
-            {
+            if let LinkEffect::Hill { activates, threshold, hill } = link.effect {
                 let n_int = (hill.fract() == 0.0 && hill <= 64.0).then_some(hill as i32);
-                let term = Term {
-                    input: link.from.into(),
-                    inv_k: 1.0 / threshold,
-                    n: hill,
-                    n_int,
-                };
+                let term = Term { input: link.from.into(), inv_k: 1.0 / threshold, n: hill, n_int };
                 let law = &mut genes[link.to];
-                if activates {
-                    law.act.push(term)
-                } else {
-                    law.rep.push(term)
-                }
+                if activates { law.act.push(term) } else { law.rep.push(term) }
             }
         }
         HillKinetics { genes }
@@ -106,11 +82,7 @@ impl Kinetics for HillKinetics {
         for (g, law) in self.genes.iter().enumerate() {
             let act = &mut act[..len];
             let rep = &mut rep[..len];
-            let start = if law.act.is_empty() || law.combine == Combine::All {
-                1.0
-            } else {
-                0.0
-            };
+            let start = if law.act.is_empty() || law.combine == Combine::All { 1.0 } else { 0.0 };
             act.fill(start);
             for term in &law.act {
                 let x = term.input.row(&u, &m);
@@ -128,9 +100,7 @@ impl Kinetics for HillKinetics {
             rep.fill(1.0);
             for term in &law.rep {
                 let x = term.input.row(&u, &m);
-                rep.iter_mut()
-                    .zip(x)
-                    .for_each(|(q, &x)| *q /= 1.0 + term.ratio(x));
+                rep.iter_mut().zip(x).for_each(|(q, &x)| *q /= 1.0 + term.ratio(x));
             }
             let own = Input::Gene(g).row(&u, &m);
             let mut row = out.row_mut(g);
@@ -153,11 +123,7 @@ impl Kinetics for HillKinetics {
                     r / (1.0 + r)
                 })
                 .collect();
-            let q_vals: Vec<f64> = law
-                .rep
-                .iter()
-                .map(|t| 1.0 / (1.0 + t.ratio(t.input.value(u, m))))
-                .collect();
+            let q_vals: Vec<f64> = law.rep.iter().map(|t| 1.0 / (1.0 + t.ratio(t.input.value(u, m)))).collect();
             let a_total: f64 = match (law.act.is_empty(), law.combine) {
                 (true, _) => 1.0,
                 (false, Combine::All) => a_vals.iter().product(),
@@ -165,11 +131,7 @@ impl Kinetics for HillKinetics {
             };
             let r_total: f64 = q_vals.iter().product();
             let others = |vals: &[f64], skip: usize| -> f64 {
-                vals.iter()
-                    .enumerate()
-                    .filter(|(k, _)| *k != skip)
-                    .map(|(_, v)| v)
-                    .product()
+                vals.iter().enumerate().filter(|(k, _)| *k != skip).map(|(_, v)| v).product()
             };
             for (k, t) in law.act.iter().enumerate() {
                 if let Input::Gene(j) = t.input {
@@ -268,8 +230,7 @@ hill = 4
         let hill_up = |x: f64, kk: f64, n: f64| (x / kk).powf(n) / (1.0 + (x / kk).powf(n));
         let hill_dn = |x: f64, kk: f64, n: f64| 1.0 / (1.0 + (x / kk).powf(n));
         let fa = 2.0 * hill_up(m, 0.4, 2.0) * hill_dn(b, 0.3, 2.5) - 0.5 * a;
-        let fb =
-            1.5 * (hill_up(a, 0.6, 3.0) + hill_up(m, 0.2, 1.0)) * hill_dn(b, 1.1, 4.0) - 0.7 * b;
+        let fb = 1.5 * (hill_up(a, 0.6, 3.0) + hill_up(m, 0.2, 1.0)) * hill_dn(b, 1.1, 4.0) - 0.7 * b;
         assert_relative_eq!(out[0], fa, max_relative = 1e-14);
         assert_relative_eq!(out[1], fb, max_relative = 1e-14);
     }

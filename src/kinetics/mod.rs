@@ -59,8 +59,7 @@ impl Input {
             Input::Gene(g) => u.row(g),
             Input::Gradient(k) => m.row(k),
         };
-        view.to_slice()
-            .expect("gene-major rows of a chunk are contiguous")
+        view.to_slice().expect("gene-major rows of a chunk are contiguous")
     }
 
     /// The regulator's value in one nucleus.

@@ -37,12 +37,7 @@ impl SigmoidKinetics {
         let mut genes: Vec<GeneLaw> = model
             .genes
             .iter()
-            .map(|g| GeneLaw {
-                p: g.production,
-                d: g.decay,
-                bias: g.bias,
-                weights: vec![],
-            })
+            .map(|g| GeneLaw { p: g.production, d: g.decay, bias: g.bias, weights: vec![] })
             .collect();
         for link in &model.circuit.links {
             if let LinkEffect::Weight(w) = link.effect {
@@ -54,12 +49,7 @@ impl SigmoidKinetics {
 
     fn argument(&self, g: usize, u: &[f64], m: &[f64]) -> f64 {
         let law = &self.genes[g];
-        law.bias
-            + law
-                .weights
-                .iter()
-                .map(|(i, w)| w * i.value(u, m))
-                .sum::<f64>()
+        law.bias + law.weights.iter().map(|(i, w)| w * i.value(u, m)).sum::<f64>()
     }
 }
 

@@ -6,7 +6,7 @@ use std::path::PathBuf;
 #[derive(Debug, thiserror::Error)]
 pub enum ModelError {
     /// The file could not be read.
-    #[error("cannot read model file {}: {source}", file.display())]
+    #[error("cannot read model file {}", file.display())]
     Read {
         /// File.
         file: PathBuf,

@@ -13,6 +13,7 @@ use std::path::{Path, PathBuf};
 
 pub use error::ModelError;
 pub use source::Source;
+pub use validate::{PALETTE, parse_color};
 
 /// Largest working memory a model may ask for before it is refused, bytes.
 pub const MEMORY_BUDGET_BYTES: u64 = 12 << 30;
@@ -44,10 +45,8 @@ impl Model {
     /// # Errors
     /// [`ModelError`] naming the file, line, column and field of the first problem.
     pub fn load(path: &Path) -> Result<Model, ModelError> {
-        let text = std::fs::read_to_string(path).map_err(|source| ModelError::Read {
-            file: path.to_path_buf(),
-            source,
-        })?;
+        let text =
+            std::fs::read_to_string(path).map_err(|source| ModelError::Read { file: path.to_path_buf(), source })?;
         Model::from_toml(&text, path)
     }
 
@@ -139,11 +138,7 @@ impl Grid {
     }
     /// Shape for display: `[n]` or `[nx, ny]`.
     pub fn shape_text(&self) -> String {
-        if self.is_sheet() {
-            format!("{} x {} sheet", self.nx, self.ny)
-        } else {
-            format!("row of {}", self.nx)
-        }
+        if self.is_sheet() { format!("{} x {} sheet", self.nx, self.ny) } else { format!("row of {}", self.nx) }
     }
 }
 
@@ -181,9 +176,7 @@ impl Clock {
     /// Times at which snapshots are recorded: 0, Δs, 2Δs, …, and the end time.
     pub fn snapshot_times(&self) -> Vec<f64> {
         let n = (self.until_min / self.snapshot_every_min * (1.0 + 1e-12)).floor() as usize;
-        let mut times: Vec<f64> = (0..=n)
-            .map(|i| i as f64 * self.snapshot_every_min)
-            .collect();
+        let mut times: Vec<f64> = (0..=n).map(|i| i as f64 * self.snapshot_every_min).collect();
         let last = *times.last().expect("at least t = 0");
         if self.until_min - last > 1e-9 * self.until_min {
             times.push(self.until_min);

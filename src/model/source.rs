@@ -15,10 +15,7 @@ pub struct Source<'a> {
 impl<'a> Source<'a> {
     /// Wraps the text of `file`.
     pub fn new(file: &Path, text: &'a str) -> Self {
-        Source {
-            file: file.to_path_buf(),
-            text,
-        }
+        Source { file: file.to_path_buf(), text }
     }
 
     /// The file name.
@@ -62,10 +59,8 @@ impl<'a> Source<'a> {
         let mut search = 0;
         while let Some(found) = body[search..].find(key) {
             let at = search + found;
-            let before_ok = body[..at]
-                .chars()
-                .next_back()
-                .is_none_or(|c| c.is_whitespace() || c == '{' || c == ',' || c == '.');
+            let before_ok =
+                body[..at].chars().next_back().is_none_or(|c| c.is_whitespace() || c == '{' || c == ',' || c == '.');
             let after = body[at + key.len()..].trim_start_matches([' ', '\t']);
             if before_ok && after.starts_with('=') {
                 return self.line_col(start + at);
@@ -90,8 +85,7 @@ impl<'a> Source<'a> {
         let line_text = self.text.lines().nth(line.saturating_sub(1)).unwrap_or("");
         if let Some((key, _)) = line_text.split_once('=') {
             let key = key.trim();
-            if column > key.len() && !key.starts_with('[') && !message.contains(&format!("`{key}`"))
-            {
+            if column > key.len() && !key.starts_with('[') && !message.contains(&format!("`{key}`")) {
                 message = format!("`{key}`: {message}");
             }
         }
@@ -103,32 +97,13 @@ impl<'a> Source<'a> {
                 message.push_str("; add it to the file");
             }
         }
-        ModelError::Syntax {
-            file: self.file(),
-            line,
-            column,
-            message,
-        }
+        ModelError::Syntax { file: self.file(), line, column, message }
     }
 
     /// An [`ModelError::Invalid`] at `key` inside `span`.
-    pub fn invalid(
-        &self,
-        span: &Range<usize>,
-        key: &str,
-        field: String,
-        problem: String,
-        fix: &str,
-    ) -> ModelError {
+    pub fn invalid(&self, span: &Range<usize>, key: &str, field: String, problem: String, fix: &str) -> ModelError {
         let (line, column) = self.locate(span, key);
-        ModelError::Invalid {
-            file: self.file(),
-            line,
-            column,
-            field,
-            problem,
-            fix: fix.to_string(),
-        }
+        ModelError::Invalid { file: self.file(), line, column, field, problem, fix: fix.to_string() }
     }
 }
 
@@ -140,10 +115,7 @@ fn is_header(line: &str) -> bool {
     code.starts_with('[')
         && code.ends_with(']')
         && !inner.contains(',')
-        && inner
-            .chars()
-            .next()
-            .is_some_and(|c| c.is_alphabetic() || c == '"' || c == '\'' || c == '_')
+        && inner.chars().next().is_some_and(|c| c.is_alphabetic() || c == '"' || c == '\'' || c == '_')
 }
 
 #[cfg(test)]
@@ -167,8 +139,7 @@ mod tests {
 
     #[test]
     fn locate_searches_from_header_to_next_header() {
-        let text =
-            "[[gene]]\nname = \"a\"\nv = [\n  [0.0, 1.0],\n]\ndecay = 1\n[[gene]]\ndecay = 2\n";
+        let text = "[[gene]]\nname = \"a\"\nv = [\n  [0.0, 1.0],\n]\ndecay = 1\n[[gene]]\ndecay = 2\n";
         let s = Source::new(Path::new("m.toml"), text);
         assert_eq!(s.locate(&(0..8), "decay"), (6, 1));
         // A key missing from the first table is not found in the second.

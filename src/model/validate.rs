@@ -7,21 +7,14 @@ use toml::Spanned;
 
 use super::spec::{ClockSpec, GeneSpec, GradientSpec, LinkSpec, ModelSpec, TissueSpec};
 use super::{
-    Circuit, Clock, Combine, Edges, Gene, Gradient, Grid, Initial, KineticsKind, Link, LinkEffect,
-    MEMORY_BUDGET_BYTES, Model, ModelError, Regulator, Shape, Side, Source, Stepping,
+    Circuit, Clock, Combine, Edges, Gene, Gradient, Grid, Initial, KineticsKind, Link, LinkEffect, MEMORY_BUDGET_BYTES,
+    Model, ModelError, Regulator, Shape, Side, Source, Stepping,
 };
 
 /// Default gene colours: the Okabe & Ito (2008) palette, distinguishable with
 /// the common forms of colour blindness ("Color Universal Design", web page).
-pub const PALETTE: [[u8; 3]; 7] = [
-    [230, 159, 0],
-    [86, 180, 233],
-    [0, 158, 115],
-    [204, 121, 167],
-    [240, 228, 66],
-    [0, 114, 178],
-    [213, 94, 0],
-];
+pub const PALETTE: [[u8; 3]; 7] =
+    [[230, 159, 0], [86, 180, 233], [0, 158, 115], [204, 121, 167], [240, 228, 66], [0, 114, 178], [213, 94, 0]];
 
 /// Checks a parsed model file and builds the [`Model`].
 pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
@@ -52,28 +45,13 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
     }
     let circuit = match &spec.circuit {
         Some(c) => check_circuit(c, &spec.gene, &genes, &gradients, src)?,
-        None => Circuit {
-            kinetics: KineticsKind::Hill,
-            links: Vec::new(),
-        },
+        None => Circuit { kinetics: KineticsKind::Hill, links: Vec::new() },
     };
 
     let title = spec.title.clone().unwrap_or_else(|| {
-        src.file().file_stem().map_or_else(
-            || "untitled".to_string(),
-            |s| s.to_string_lossy().into_owned(),
-        )
+        src.file().file_stem().map_or_else(|| "untitled".to_string(), |s| s.to_string_lossy().into_owned())
     });
-    let model = Model {
-        title,
-        file: src.file(),
-        seed: spec.seed.unwrap_or(0),
-        grid,
-        clock,
-        gradients,
-        genes,
-        circuit,
-    };
+    let model = Model { title, file: src.file(), seed: spec.seed.unwrap_or(0), grid, clock, gradients, genes, circuit };
     let needed = model.working_bytes() + model.recording_bytes();
     if needed > MEMORY_BUDGET_BYTES {
         let (line, column) = src.locate(&spec.tissue.span(), "nuclei");
@@ -131,13 +109,7 @@ struct Checker<'s, 'a> {
 
 impl Checker<'_, '_> {
     fn fail(&self, key: &str, problem: String, fix: &str) -> ModelError {
-        self.src.invalid(
-            &self.span,
-            key,
-            format!("{}{key}", self.prefix),
-            problem,
-            fix,
-        )
+        self.src.invalid(&self.span, key, format!("{}{key}", self.prefix), problem, fix)
     }
     fn positive(&self, key: &str, v: f64, unit: &str) -> Result<f64, ModelError> {
         if v.is_finite() && v > 0.0 {
@@ -165,48 +137,26 @@ impl Checker<'_, '_> {
         if v.is_finite() {
             Ok(v)
         } else {
-            Err(self.fail(
-                key,
-                format!("must be a finite number, got {v}"),
-                "give a real number",
-            ))
+            Err(self.fail(key, format!("must be a finite number, got {v}"), "give a real number"))
         }
     }
     fn required<T: Copy>(&self, key: &str, v: Option<T>, why: &str) -> Result<T, ModelError> {
-        v.ok_or_else(|| {
-            self.fail(
-                key,
-                format!("is missing; it is needed {why}"),
-                &format!("add `{key} = ...`"),
-            )
-        })
+        v.ok_or_else(|| self.fail(key, format!("is missing; it is needed {why}"), &format!("add `{key} = ...`")))
     }
     fn forbidden<T>(&self, key: &str, v: &Option<T>, why: &str) -> Result<(), ModelError> {
         match v {
-            Some(_) => Err(self.fail(
-                key,
-                format!("does not apply {why}"),
-                &format!("remove `{key}`"),
-            )),
+            Some(_) => Err(self.fail(key, format!("does not apply {why}"), &format!("remove `{key}`"))),
             None => Ok(()),
         }
     }
 }
 
 fn unit_text(unit: &str) -> String {
-    if unit.is_empty() {
-        String::new()
-    } else {
-        format!(" ({unit})")
-    }
+    if unit.is_empty() { String::new() } else { format!(" ({unit})") }
 }
 
 fn check_tissue(t: &Spanned<TissueSpec>, src: &Source) -> Result<Grid, ModelError> {
-    let c = Checker {
-        src,
-        span: t.span(),
-        prefix: "tissue.".into(),
-    };
+    let c = Checker { src, span: t.span(), prefix: "tissue.".into() };
     let spec = t.get_ref();
     let dims: Vec<i64> = spec.nuclei.iter().map(|n| *n.get_ref()).collect();
     if dims.is_empty() || dims.len() > 2 {
@@ -226,8 +176,7 @@ fn check_tissue(t: &Spanned<TissueSpec>, src: &Source) -> Result<Grid, ModelErro
                 column,
                 field: format!("tissue.nuclei[{k}]"),
                 problem: format!("is {v}"),
-                fix: "give a whole number of nuclei: at least 2 along the axis, at least 1 across"
-                    .into(),
+                fix: "give a whole number of nuclei: at least 2 along the axis, at least 1 across".into(),
             });
         }
     }
@@ -236,28 +185,15 @@ fn check_tissue(t: &Spanned<TissueSpec>, src: &Source) -> Result<Grid, ModelErro
         None | Some("sealed") => Edges::Sealed,
         Some("periodic") => Edges::Periodic,
         Some(other) => {
-            return Err(c.fail(
-                "edges",
-                format!("is `{other}`"),
-                "use \"sealed\" (no flux) or \"periodic\"",
-            ));
+            return Err(c.fail("edges", format!("is `{other}`"), "use \"sealed\" (no flux) or \"periodic\""));
         }
     };
     let ny = if dims.len() == 2 { dims[1] as usize } else { 1 };
-    Ok(Grid {
-        nx: dims[0] as usize,
-        ny,
-        spacing_um,
-        edges,
-    })
+    Ok(Grid { nx: dims[0] as usize, ny, spacing_um, edges })
 }
 
 fn check_clock(cl: &Spanned<ClockSpec>, src: &Source) -> Result<Clock, ModelError> {
-    let c = Checker {
-        src,
-        span: cl.span(),
-        prefix: "clock.".into(),
-    };
+    let c = Checker { src, span: cl.span(), prefix: "clock.".into() };
     let spec = cl.get_ref();
     let until_min = c.positive("until_min", spec.until_min, "min")?;
     let snapshot_every_min = c.positive("snapshot_every_min", spec.snapshot_every_min, "min")?;
@@ -269,11 +205,7 @@ fn check_clock(cl: &Spanned<ClockSpec>, src: &Source) -> Result<Clock, ModelErro
         ));
     }
     if until_min / snapshot_every_min > 1e6 {
-        return Err(c.fail(
-            "snapshot_every_min",
-            "asks for over a million snapshots".into(),
-            "record less often",
-        ));
+        return Err(c.fail("snapshot_every_min", "asks for over a million snapshots".into(), "record less often"));
     }
     let stepping = match (spec.step_min, spec.tolerance) {
         (Some(_), Some(_)) => {
@@ -301,27 +233,18 @@ fn check_clock(cl: &Spanned<ClockSpec>, src: &Source) -> Result<Clock, ModelErro
                     "take a step no longer than snapshot_every_min",
                 ));
             }
-            for (key, span) in [
-                ("until_min", until_min),
-                ("snapshot_every_min", snapshot_every_min),
-            ] {
+            for (key, span) in [("until_min", until_min), ("snapshot_every_min", snapshot_every_min)] {
                 let ratio = span / step_min;
                 if (ratio - ratio.round()).abs() > 1e-9 * ratio.max(1.0) {
                     return Err(c.fail(
                         "step_min",
-                        format!(
-                            "({step_min} min) does not divide `{key}` ({span} min) into whole steps"
-                        ),
+                        format!("({step_min} min) does not divide `{key}` ({span} min) into whole steps"),
                         "choose a step that divides both the run and the snapshot interval",
                     ));
                 }
             }
             if until_min / step_min > 1e9 {
-                return Err(c.fail(
-                    "step_min",
-                    "asks for over 10^9 steps".into(),
-                    "take a longer step",
-                ));
+                return Err(c.fail("step_min", "asks for over 10^9 steps".into(), "take a longer step"));
             }
             Stepping::Fixed { step_min }
         }
@@ -339,37 +262,18 @@ fn check_clock(cl: &Spanned<ClockSpec>, src: &Source) -> Result<Clock, ModelErro
                 None => rtol,
             };
             let max_step_min = match spec.max_step_min {
-                Some(m) => c
-                    .positive("max_step_min", m, "min")?
-                    .min(snapshot_every_min),
+                Some(m) => c.positive("max_step_min", m, "min")?.min(snapshot_every_min),
                 None => snapshot_every_min,
             };
-            Stepping::Adaptive {
-                rtol,
-                atol,
-                max_step_min,
-            }
+            Stepping::Adaptive { rtol, atol, max_step_min }
         }
     };
-    Ok(Clock {
-        until_min,
-        snapshot_every_min,
-        stepping,
-    })
+    Ok(Clock { until_min, snapshot_every_min, stepping })
 }
 
-fn check_gradient(
-    i: usize,
-    g: &Spanned<GradientSpec>,
-    grid: &Grid,
-    src: &Source,
-) -> Result<Gradient, ModelError> {
+fn check_gradient(i: usize, g: &Spanned<GradientSpec>, grid: &Grid, src: &Source) -> Result<Gradient, ModelError> {
     let spec = g.get_ref();
-    let c = Checker {
-        src,
-        span: g.span(),
-        prefix: format!("gradient[{i}] `{}`.", spec.name),
-    };
+    let c = Checker { src, span: g.span(), prefix: format!("gradient[{i}] `{}`.", spec.name) };
     let from = match spec.from.as_str() {
         "left" => Side::Left,
         "right" => Side::Right,
@@ -377,11 +281,7 @@ fn check_gradient(
         "top" => Side::Top,
         "centre" | "center" => Side::Centre,
         other => {
-            return Err(c.fail(
-                "from",
-                format!("is `{other}`"),
-                "use left, right, top, bottom or centre",
-            ));
+            return Err(c.fail("from", format!("is `{other}`"), "use left, right, top, bottom or centre"));
         }
     };
     if matches!(from, Side::Top | Side::Bottom) && !grid.is_sheet() {
@@ -397,11 +297,7 @@ fn check_gradient(
             Shape::Exponential {
                 decay_length_um: c.positive(
                     "decay_length_um",
-                    c.required(
-                        "decay_length_um",
-                        spec.decay_length_um,
-                        "by an exponential gradient",
-                    )?,
+                    c.required("decay_length_um", spec.decay_length_um, "by an exponential gradient")?,
                     "µm",
                 )?,
             },
@@ -419,20 +315,12 @@ fn check_gradient(
         ),
         "step" => (
             Shape::Step {
-                width_um: c.positive(
-                    "width_um",
-                    c.required("width_um", spec.width_um, "by a step gradient")?,
-                    "µm",
-                )?,
+                width_um: c.positive("width_um", c.required("width_um", spec.width_um, "by a step gradient")?, "µm")?,
             },
             "width_um",
         ),
         other => {
-            return Err(c.fail(
-                "shape",
-                format!("is `{other}`"),
-                "use exponential, linear or step",
-            ));
+            return Err(c.fail("shape", format!("is `{other}`"), "use exponential, linear or step"));
         }
     };
     let values = [spec.decay_length_um, spec.length_um, spec.width_um];
@@ -446,11 +334,7 @@ fn check_gradient(
     let mut amplitude = Vec::new();
     if let Some(points) = &spec.amplitude {
         if points.is_empty() {
-            return Err(c.fail(
-                "amplitude",
-                "is empty".into(),
-                "give [[t_min, factor], ...] or remove it",
-            ));
+            return Err(c.fail("amplitude", "is empty".into(), "give [[t_min, factor], ...] or remove it"));
         }
         let mut last_t = f64::NEG_INFINITY;
         for [t, a] in points {
@@ -465,40 +349,19 @@ fn check_gradient(
             amplitude.push((*t, *a));
         }
     }
-    Ok(Gradient {
-        name: spec.name.clone(),
-        shape,
-        from,
-        peak,
-        baseline,
-        amplitude,
-    })
+    Ok(Gradient { name: spec.name.clone(), shape, from, peak, baseline, amplitude })
 }
 
-fn check_gene(
-    i: usize,
-    g: &Spanned<GeneSpec>,
-    grid: &Grid,
-    src: &Source,
-) -> Result<Gene, ModelError> {
+fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Source) -> Result<Gene, ModelError> {
     let spec = g.get_ref();
-    let c = Checker {
-        src,
-        span: g.span(),
-        prefix: format!("gene[{i}] `{}`.", spec.name),
-    };
+    let c = Checker { src, span: g.span(), prefix: format!("gene[{i}] `{}`.", spec.name) };
     let production = c.non_negative("production", spec.production, "a.u./min")?;
     let decay = c.non_negative("decay", spec.decay, "1/min")?;
     let diffusion = c.non_negative("diffusion", spec.diffusion.unwrap_or(0.0), "µm²/min")?;
-    let initial_noise =
-        c.non_negative("initial_noise", spec.initial_noise.unwrap_or(0.0), "a.u.")?;
+    let initial_noise = c.non_negative("initial_noise", spec.initial_noise.unwrap_or(0.0), "a.u.")?;
     let initial = match (&spec.initial, &spec.initial_profile) {
         (Some(_), Some(_)) => {
-            return Err(c.fail(
-                "initial_profile",
-                "is given together with `initial`".into(),
-                "keep one of the two",
-            ));
+            return Err(c.fail("initial_profile", "is given together with `initial`".into(), "keep one of the two"));
         }
         (Some(v), None) => Initial::Uniform(c.non_negative("initial", *v, "a.u.")?),
         (None, None) => Initial::Uniform(0.0),
@@ -506,61 +369,31 @@ fn check_gene(
             if p.len() != grid.len() {
                 return Err(c.fail(
                     "initial_profile",
-                    format!(
-                        "has {} values but the tissue has {} nuclei",
-                        p.len(),
-                        grid.len()
-                    ),
+                    format!("has {} values but the tissue has {} nuclei", p.len(), grid.len()),
                     "give one value per nucleus (row by row for a sheet)",
                 ));
             }
-            if let Some((k, v)) = p
-                .iter()
-                .enumerate()
-                .find(|(_, v)| !v.is_finite() || **v < 0.0)
-            {
-                return Err(c.fail(
-                    "initial_profile",
-                    format!("value {k} is {v}"),
-                    "give finite levels >= 0",
-                ));
+            if let Some((k, v)) = p.iter().enumerate().find(|(_, v)| !v.is_finite() || **v < 0.0) {
+                return Err(c.fail("initial_profile", format!("value {k} is {v}"), "give finite levels >= 0"));
             }
             Initial::Profile(p.clone())
         }
     };
     let color = match &spec.color {
-        Some(text) => parse_color(text).ok_or_else(|| {
-            c.fail(
-                "color",
-                format!("is `{text}`"),
-                "write a colour as \"#rrggbb\"",
-            )
-        })?,
+        Some(text) => {
+            parse_color(text).ok_or_else(|| c.fail("color", format!("is `{text}`"), "write a colour as \"#rrggbb\""))?
+        }
         None => PALETTE[i % PALETTE.len()],
     };
     let combine = match spec.combine.as_deref() {
         None | Some("all") => Combine::All,
         Some("any") => Combine::Any,
         Some(other) => {
-            return Err(c.fail(
-                "combine",
-                format!("is `{other}`"),
-                "use \"all\" (product) or \"any\" (sum)",
-            ));
+            return Err(c.fail("combine", format!("is `{other}`"), "use \"all\" (product) or \"any\" (sum)"));
         }
     };
     let bias = c.finite("bias", spec.bias.unwrap_or(0.0))?;
-    Ok(Gene {
-        name: spec.name.clone(),
-        color,
-        production,
-        decay,
-        diffusion,
-        initial,
-        initial_noise,
-        combine,
-        bias,
-    })
+    Ok(Gene { name: spec.name.clone(), color, production, decay, diffusion, initial, initial_noise, combine, bias })
 }
 
 /// Parses `#rrggbb`.
@@ -581,33 +414,19 @@ fn check_circuit(
     src: &Source,
 ) -> Result<Circuit, ModelError> {
     let spec = cs.get_ref();
-    let c = Checker {
-        src,
-        span: cs.span(),
-        prefix: "circuit.".into(),
-    };
+    let c = Checker { src, span: cs.span(), prefix: "circuit.".into() };
     let kinetics = match spec.kinetics.as_str() {
         "hill" => KineticsKind::Hill,
         "sigmoid" => KineticsKind::Sigmoid,
         other => {
-            return Err(c.fail(
-                "kinetics",
-                format!("is `{other}`"),
-                "use \"hill\" or \"sigmoid\"",
-            ));
+            return Err(c.fail("kinetics", format!("is `{other}`"), "use \"hill\" or \"sigmoid\""));
         }
     };
     for (gs, g) in gene_specs.iter().zip(genes) {
-        let gc = Checker {
-            src,
-            span: gs.span(),
-            prefix: format!("gene `{}`.", g.name),
-        };
+        let gc = Checker { src, span: gs.span(), prefix: format!("gene `{}`.", g.name) };
         match kinetics {
             KineticsKind::Hill => gc.forbidden("bias", &gs.get_ref().bias, "to hill kinetics")?,
-            KineticsKind::Sigmoid => {
-                gc.forbidden("combine", &gs.get_ref().combine, "to sigmoid kinetics")?
-            }
+            KineticsKind::Sigmoid => gc.forbidden("combine", &gs.get_ref().combine, "to sigmoid kinetics")?,
         }
     }
     let known = |kind: &str| -> String {
@@ -621,11 +440,7 @@ fn check_circuit(
     let mut seen: HashMap<(Regulator, usize), Range<usize>> = HashMap::new();
     for (i, ls) in spec.link.iter().enumerate() {
         let l: &LinkSpec = ls.get_ref();
-        let lc = Checker {
-            src,
-            span: ls.span(),
-            prefix: format!("circuit.link[{i}]."),
-        };
+        let lc = Checker { src, span: ls.span(), prefix: format!("circuit.link[{i}].") };
         let unknown = |key: &str, name: &str, kind: &str| {
             let (line, column) = src.locate(&ls.span(), key);
             ModelError::UnknownName {
@@ -645,30 +460,18 @@ fn check_circuit(
         } else {
             return Err(unknown("from", &l.from, "gene or gradient"));
         };
-        let to = genes
-            .iter()
-            .position(|g| g.name == l.to)
-            .ok_or_else(|| unknown("to", &l.to, "gene"))?;
+        let to = genes.iter().position(|g| g.name == l.to).ok_or_else(|| unknown("to", &l.to, "gene"))?;
         if let Some(first) = seen.get(&(from, to)) {
             return Err(lc.fail(
                 "from",
-                format!(
-                    "repeats the link {} -> {} at line {}",
-                    l.from,
-                    l.to,
-                    src.line_col(first.start).0
-                ),
+                format!("repeats the link {} -> {} at line {}", l.from, l.to, src.line_col(first.start).0),
                 "keep one link per regulator and target",
             ));
         }
         seen.insert((from, to), ls.span());
         let effect = match kinetics {
             KineticsKind::Hill => {
-                lc.forbidden(
-                    "weight",
-                    &l.weight,
-                    "to hill kinetics (use sign, threshold and hill)",
-                )?;
+                lc.forbidden("weight", &l.weight, "to hill kinetics (use sign, threshold and hill)")?;
                 let activates = match lc.required("sign", l.sign.as_deref(), "by a hill link")? {
                     "+" => true,
                     "-" => false,
@@ -680,38 +483,19 @@ fn check_circuit(
                         ));
                     }
                 };
-                let threshold = lc.positive(
-                    "threshold",
-                    lc.required("threshold", l.threshold, "by a hill link")?,
-                    "a.u.",
-                )?;
-                let hill =
-                    lc.positive("hill", lc.required("hill", l.hill, "by a hill link")?, "")?;
+                let threshold =
+                    lc.positive("threshold", lc.required("threshold", l.threshold, "by a hill link")?, "a.u.")?;
+                let hill = lc.positive("hill", lc.required("hill", l.hill, "by a hill link")?, "")?;
                 if hill > 64.0 {
-                    return Err(lc.fail(
-                        "hill",
-                        format!("is {hill}"),
-                        "use a Hill coefficient up to 64",
-                    ));
+                    return Err(lc.fail("hill", format!("is {hill}"), "use a Hill coefficient up to 64"));
                 }
-                LinkEffect::Hill {
-                    activates,
-                    threshold,
-                    hill,
-                }
+                LinkEffect::Hill { activates, threshold, hill }
             }
             KineticsKind::Sigmoid => {
-                lc.forbidden(
-                    "sign",
-                    &l.sign,
-                    "to sigmoid kinetics (the weight's sign says it)",
-                )?;
+                lc.forbidden("sign", &l.sign, "to sigmoid kinetics (the weight's sign says it)")?;
                 lc.forbidden("threshold", &l.threshold, "to sigmoid kinetics")?;
                 lc.forbidden("hill", &l.hill, "to sigmoid kinetics")?;
-                LinkEffect::Weight(lc.finite(
-                    "weight",
-                    lc.required("weight", l.weight, "by a sigmoid link")?,
-                )?)
+                LinkEffect::Weight(lc.finite("weight", lc.required("weight", l.weight, "by a sigmoid link")?)?)
             }
         };
         links.push(Link { from, to, effect });

@@ -2,7 +2,8 @@
 //!
 //! A boundary is where a gene's profile crosses half of its maximum (at that
 //! snapshot), located between nuclei by linear interpolation. On a sheet the
-//! profile is the mean over each column (across y). Positions are reported in
+//! profile is the mean over a central strip of rows (see
+//! [`Recording::midline_rows`]). Positions are reported in
 //! µm from the left edge and in % of the axis length L = nx·h (the trade's
 //! "% egg length").
 
@@ -104,14 +105,10 @@ pub fn domains_at(rec: &Recording, s: usize) -> Vec<Domain> {
 
 /// Boundaries at every snapshot, in time order.
 pub fn find_boundaries(rec: &Recording) -> Vec<Boundary> {
-    (0..rec.times.len())
-        .flat_map(|s| boundaries_at(rec, s))
-        .collect()
+    (0..rec.times.len()).flat_map(|s| boundaries_at(rec, s)).collect()
 }
 
 /// Domains at every snapshot, in time order.
 pub fn find_domains(rec: &Recording) -> Vec<Domain> {
-    (0..rec.times.len())
-        .flat_map(|s| domains_at(rec, s))
-        .collect()
+    (0..rec.times.len()).flat_map(|s| domains_at(rec, s)).collect()
 }

@@ -63,12 +63,7 @@ pub fn profile_boundaries(profile: &[f64], h: f64, periodic: bool) -> Vec<Crossi
             position_um -= n as f64 * h;
         }
         let steepness_per_um = (b - a).abs() / h / max;
-        out.push(Crossing {
-            position_um,
-            rising,
-            steepness_per_um,
-            width_um: 1.0 / steepness_per_um,
-        });
+        out.push(Crossing { position_um, rising, steepness_per_um, width_um: 1.0 / steepness_per_um });
     }
     out
 }
@@ -82,11 +77,7 @@ pub fn profile_domains(profile: &[f64], h: f64, periodic: bool) -> Vec<Span> {
     let length = n as f64 * h;
     let high: Vec<bool> = profile.iter().map(|p| *p >= theta).collect();
     if high.iter().all(|x| *x) {
-        return vec![Span {
-            start_um: 0.0,
-            end_um: length,
-            width_um: length,
-        }];
+        return vec![Span { start_um: 0.0, end_um: length, width_um: length }];
     }
     let mut spans = Vec::new();
     let mut i = 0;
@@ -99,31 +90,15 @@ pub fn profile_domains(profile: &[f64], h: f64, periodic: bool) -> Vec<Span> {
         while i < n && high[i] {
             i += 1;
         }
-        let start_um = if start == 0 {
-            0.0
-        } else {
-            cross_at(profile, start - 1, theta, h)
-        };
-        let end_um = if i == n {
-            length
-        } else {
-            cross_at(profile, i - 1, theta, h)
-        };
-        spans.push(Span {
-            start_um,
-            end_um,
-            width_um: end_um - start_um,
-        });
+        let start_um = if start == 0 { 0.0 } else { cross_at(profile, start - 1, theta, h) };
+        let end_um = if i == n { length } else { cross_at(profile, i - 1, theta, h) };
+        spans.push(Span { start_um, end_um, width_um: end_um - start_um });
     }
     if periodic && spans.len() > 1 && high[0] && high[n - 1] {
         // The first and last runs are one domain that wraps around x = L.
         let first = spans.remove(0);
         let last = spans.last_mut().expect("more than one span");
-        *last = Span {
-            start_um: last.start_um,
-            end_um: first.end_um,
-            width_um: length - last.start_um + first.end_um,
-        };
+        *last = Span { start_um: last.start_um, end_um: first.end_um, width_um: length - last.start_um + first.end_um };
     }
     spans
 }

@@ -39,14 +39,7 @@ pub struct TriFactor {
 impl TriFactor {
     /// An empty factor for a row of `n` nuclei with spacing `h` µm.
     pub fn new(n: usize, h: f64) -> TriFactor {
-        TriFactor {
-            a0: f64::NAN,
-            c: f64::NAN,
-            h,
-            off: 0.0,
-            inv_w: vec![0.0; n],
-            m: vec![0.0; n],
-        }
+        TriFactor { a0: f64::NAN, c: f64::NAN, h, off: 0.0, inv_w: vec![0.0; n], m: vec![0.0; n] }
     }
 
     /// True if the factor is for `(a0, c)`.
@@ -113,14 +106,8 @@ pub struct SpectralSolver {
 }
 
 enum Plan {
-    Cosine {
-        x: Arc<dyn TransformType2And3<f64>>,
-        y: Arc<dyn TransformType2And3<f64>>,
-    },
-    Fourier {
-        x: [Arc<dyn Fft<f64>>; 2],
-        y: [Arc<dyn Fft<f64>>; 2],
-    },
+    Cosine { x: Arc<dyn TransformType2And3<f64>>, y: Arc<dyn TransformType2And3<f64>> },
+    Fourier { x: [Arc<dyn Fft<f64>>; 2], y: [Arc<dyn Fft<f64>>; 2] },
 }
 
 /// Eigenvalues of `−∇²` along one axis of `n` nuclei, µm⁻².
@@ -129,9 +116,7 @@ fn axis_eigenvalues(n: usize, h: f64, edges: Edges) -> Vec<f64> {
         Edges::Sealed => std::f64::consts::PI,
         Edges::Periodic => 2.0 * std::f64::consts::PI,
     };
-    (0..n)
-        .map(|p| (2.0 - 2.0 * (period * p as f64 / n as f64).cos()) / (h * h))
-        .collect()
+    (0..n).map(|p| (2.0 - 2.0 * (period * p as f64 / n as f64).cos()) / (h * h)).collect()
 }
 
 /// Runs `f(row_index, row, scratch)` over the rows of `data`, in fixed blocks.
@@ -150,26 +135,14 @@ fn for_rows<T: Send>(
         }
     };
     if parallel {
-        data.par_chunks_mut(per_block * row_len)
-            .zip(scratch.par_iter_mut())
-            .enumerate()
-            .for_each(run);
+        data.par_chunks_mut(per_block * row_len).zip(scratch.par_iter_mut()).enumerate().for_each(run);
     } else {
-        data.chunks_mut(per_block * row_len)
-            .zip(scratch.iter_mut())
-            .enumerate()
-            .for_each(run);
+        data.chunks_mut(per_block * row_len).zip(scratch.iter_mut()).enumerate().for_each(run);
     }
 }
 
 /// `dst[c·rows + r] = src[r·cols + c]`.
-fn transpose<T: Copy + Send + Sync>(
-    src: &[T],
-    dst: &mut [T],
-    rows: usize,
-    cols: usize,
-    parallel: bool,
-) {
+fn transpose<T: Copy + Send + Sync>(src: &[T], dst: &mut [T], rows: usize, cols: usize, parallel: bool) {
     const TILE: usize = 32;
     let body = |(tile, out): (usize, &mut [T])| {
         let c0 = tile * TILE;
@@ -208,12 +181,7 @@ impl SpectralSolver {
                 let mut planner = FftPlanner::new();
                 let x = [planner.plan_fft_forward(nx), planner.plan_fft_inverse(nx)];
                 let y = [planner.plan_fft_forward(ny), planner.plan_fft_inverse(ny)];
-                let len = x
-                    .iter()
-                    .chain(y.iter())
-                    .map(|p| p.get_inplace_scratch_len())
-                    .max()
-                    .unwrap_or(0);
+                let len = x.iter().chain(y.iter()).map(|p| p.get_inplace_scratch_len()).max().unwrap_or(0);
                 (Plan::Fourier { x, y }, 0, len)
             }
         };
@@ -225,20 +193,10 @@ impl SpectralSolver {
             lam_x,
             lam_y,
             real_t: if cosine { vec![0.0; n] } else { Vec::new() },
-            complex: if cosine {
-                Vec::new()
-            } else {
-                vec![Complex64::default(); n]
-            },
-            complex_t: if cosine || ny == 1 {
-                Vec::new()
-            } else {
-                vec![Complex64::default(); n]
-            },
+            complex: if cosine { Vec::new() } else { vec![Complex64::default(); n] },
+            complex_t: if cosine || ny == 1 { Vec::new() } else { vec![Complex64::default(); n] },
             real_scratch: (0..BLOCKS).map(|_| vec![0.0; real_len]).collect(),
-            complex_scratch: (0..BLOCKS)
-                .map(|_| vec![Complex64::default(); complex_len])
-                .collect(),
+            complex_scratch: (0..BLOCKS).map(|_| vec![Complex64::default(); complex_len]).collect(),
             plan,
         }
     }
@@ -251,9 +209,7 @@ impl SpectralSolver {
             Plan::Cosine { x, y } => {
                 let norm = (2.0 / nx as f64) * if ny > 1 { 2.0 / ny as f64 } else { 1.0 };
                 let scratch = &mut self.real_scratch;
-                for_rows(field, nx, scratch, parallel, |_, row, s| {
-                    x.process_dct2_with_scratch(row, s)
-                });
+                for_rows(field, nx, scratch, parallel, |_, row, s| x.process_dct2_with_scratch(row, s));
                 if ny > 1 {
                     transpose(field, &mut self.real_t, ny, nx, parallel);
                     for_rows(&mut self.real_t, ny, scratch, parallel, |ix, row, s| {
@@ -269,9 +225,7 @@ impl SpectralSolver {
                         *v *= norm / (a0 + c * l);
                     }
                 }
-                for_rows(field, nx, scratch, parallel, |_, row, s| {
-                    x.process_dct3_with_scratch(row, s)
-                });
+                for_rows(field, nx, scratch, parallel, |_, row, s| x.process_dct3_with_scratch(row, s));
             }
             Plan::Fourier { x, y } => {
                 let norm = 1.0 / (nx * ny) as f64;
@@ -279,9 +233,7 @@ impl SpectralSolver {
                 for (z, v) in self.complex.iter_mut().zip(field.iter()) {
                     *z = Complex64::new(*v, 0.0);
                 }
-                for_rows(&mut self.complex, nx, scratch, parallel, |_, row, s| {
-                    x[0].process_with_scratch(row, s)
-                });
+                for_rows(&mut self.complex, nx, scratch, parallel, |_, row, s| x[0].process_with_scratch(row, s));
                 if ny > 1 {
                     transpose(&self.complex, &mut self.complex_t, ny, nx, parallel);
                     for_rows(&mut self.complex_t, ny, scratch, parallel, |ix, row, s| {
@@ -297,9 +249,7 @@ impl SpectralSolver {
                         *v *= norm / (a0 + c * l);
                     }
                 }
-                for_rows(&mut self.complex, nx, scratch, parallel, |_, row, s| {
-                    x[1].process_with_scratch(row, s)
-                });
+                for_rows(&mut self.complex, nx, scratch, parallel, |_, row, s| x[1].process_with_scratch(row, s));
                 for (v, z) in field.iter_mut().zip(self.complex.iter()) {
                     *v = z.re;
                 }
@@ -326,21 +276,13 @@ impl Diffusion {
         let solver = if !grid.is_sheet() && grid.edges == Edges::Sealed {
             Solver::Thomas(
                 d.iter()
-                    .map(|_| {
-                        [
-                            TriFactor::new(grid.nx, grid.spacing_um),
-                            TriFactor::new(grid.nx, grid.spacing_um),
-                        ]
-                    })
+                    .map(|_| [TriFactor::new(grid.nx, grid.spacing_um), TriFactor::new(grid.nx, grid.spacing_um)])
                     .collect(),
             )
         } else {
             Solver::Spectral(Box::new(SpectralSolver::new(grid)))
         };
-        Diffusion {
-            d: d.to_vec(),
-            solver,
-        }
+        Diffusion { d: d.to_vec(), solver }
     }
 
     /// Solves `(a₀ I − k·D_g ∇²) u_g = b_g` in place for every gene g (rows of `b`).
@@ -348,10 +290,7 @@ impl Diffusion {
         let d = &self.d;
         match &mut self.solver {
             Solver::Thomas(factors) => {
-                let one = |(mut row, (pair, dg)): (
-                    ndarray::ArrayViewMut1<f64>,
-                    (&mut [TriFactor; 2], &f64),
-                )| {
+                let one = |(mut row, (pair, dg)): (ndarray::ArrayViewMut1<f64>, (&mut [TriFactor; 2], &f64))| {
                     let row = row.as_slice_mut().expect("standard layout");
                     if *dg == 0.0 {
                         row.iter_mut().for_each(|v| *v /= a0);
@@ -370,14 +309,9 @@ impl Diffusion {
                     pair[slot].solve(row);
                 };
                 if parallel && b.ncols() >= PARALLEL_MIN {
-                    b.outer_iter_mut()
-                        .into_par_iter()
-                        .zip(factors.par_iter_mut().zip(d.par_iter()))
-                        .for_each(one);
+                    b.outer_iter_mut().into_par_iter().zip(factors.par_iter_mut().zip(d.par_iter())).for_each(one);
                 } else {
-                    b.outer_iter_mut()
-                        .zip(factors.iter_mut().zip(d.iter()))
-                        .for_each(one);
+                    b.outer_iter_mut().zip(factors.iter_mut().zip(d.iter())).for_each(one);
                 }
             }
             Solver::Spectral(spectral) => {
@@ -433,15 +367,8 @@ mod tests {
     }
 
     fn check_inverse(nx: usize, ny: usize, edges: Edges) {
-        let grid = Grid {
-            nx,
-            ny,
-            spacing_um: 1.5,
-            edges,
-        };
-        let u: Vec<f64> = (0..nx * ny)
-            .map(|i| ((i * 7919) % 101) as f64 / 10.0)
-            .collect();
+        let grid = Grid { nx, ny, spacing_um: 1.5, edges };
+        let u: Vec<f64> = (0..nx * ny).map(|i| ((i * 7919) % 101) as f64 / 10.0).collect();
         let b = apply(&grid, &u, 3.0, 2.5);
         let mut arr = Array2::from_shape_vec((1, nx * ny), b).unwrap();
         let mut diffusion = Diffusion::new(&grid, &[1.0]);

@@ -17,11 +17,7 @@ pub fn distance_um(grid: &Grid, side: Side, ix: usize, iy: usize) -> f64 {
         Side::Top => grid.height_um() - y,
         Side::Centre => {
             let dx = x - grid.length_um() / 2.0;
-            if grid.is_sheet() {
-                dx.hypot(y - grid.height_um() / 2.0)
-            } else {
-                dx.abs()
-            }
+            if grid.is_sheet() { dx.hypot(y - grid.height_um() / 2.0) } else { dx.abs() }
         }
     }
 }
@@ -82,12 +78,7 @@ mod tests {
 
     #[test]
     fn distances_are_from_cell_centres() {
-        let g = Grid {
-            nx: 10,
-            ny: 4,
-            spacing_um: 2.0,
-            edges: Edges::Sealed,
-        };
+        let g = Grid { nx: 10, ny: 4, spacing_um: 2.0, edges: Edges::Sealed };
         assert_relative_eq!(distance_um(&g, Side::Left, 0, 0), 1.0);
         assert_relative_eq!(distance_um(&g, Side::Right, 9, 0), 1.0);
         assert_relative_eq!(distance_um(&g, Side::Top, 0, 3), 1.0);

@@ -31,20 +31,11 @@ impl Tissue {
             for iy in 0..grid.ny {
                 for ix in 0..grid.nx {
                     let d = distance_um(&grid, g.from, ix, iy);
-                    shape[[m, iy * grid.nx + ix]] =
-                        g.baseline + (g.peak - g.baseline) * unit_shape(g.shape, d);
+                    shape[[m, iy * grid.nx + ix]] = g.baseline + (g.peak - g.baseline) * unit_shape(g.shape, d);
                 }
             }
         }
-        Tissue {
-            grid,
-            shape,
-            amplitude: model
-                .gradients
-                .iter()
-                .map(|g| g.amplitude.clone())
-                .collect(),
-        }
+        Tissue { grid, shape, amplitude: model.gradients.iter().map(|g| g.amplitude.clone()).collect() }
     }
 
     /// Number of gradients.
@@ -63,11 +54,7 @@ impl Tissue {
     /// If `out` does not have the shape [gradients, nuclei].
     pub fn fill_inputs(&self, t_min: f64, out: &mut Array2<f64>) {
         assert_eq!(out.dim(), self.shape.dim(), "input buffer shape");
-        for (m, (mut row, shape)) in out
-            .outer_iter_mut()
-            .zip(self.shape.outer_iter())
-            .enumerate()
-        {
+        for (m, (mut row, shape)) in out.outer_iter_mut().zip(self.shape.outer_iter()).enumerate() {
             let a = amplitude_at(&self.amplitude[m], t_min);
             row.zip_mut_with(&shape, |o, s| *o = a * s);
         }

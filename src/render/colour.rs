@@ -1,0 +1,122 @@
+//! Colours: gene mixing like fluorescence channels or stains, and a
+//! perceptually uniform map for single-gene heat maps.
+
+/// Background of a picture.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Background {
+    /// Black: gene colours add like fluorescence channels.
+    Dark,
+    /// White: gene colours absorb like stains (each removes its complement).
+    Light,
+}
+
+impl Background {
+    /// Background colour.
+    pub fn rgb(self) -> [u8; 3] {
+        match self {
+            Background::Dark => [0, 0, 0],
+            Background::Light => [255, 255, 255],
+        }
+    }
+    /// Colour for axes, text and outlines.
+    pub fn ink(self) -> [u8; 3] {
+        match self {
+            Background::Dark => [230, 230, 230],
+            Background::Light => [30, 30, 30],
+        }
+    }
+    /// Muted colour for grid lines and notes.
+    pub fn muted(self) -> [u8; 3] {
+        match self {
+            Background::Dark => [120, 120, 120],
+            Background::Light => [150, 150, 150],
+        }
+    }
+}
+
+/// Mixes genes at relative levels `v_g` ∈ [0, 1] (clamped):
+/// dark `Σ c_g·v_g`, light `255 − Σ (255 − c_g)·v_g`, each channel clamped to [0, 255].
+pub fn mix(colors: &[[u8; 3]], levels: impl Iterator<Item = f64>, bg: Background) -> [u8; 3] {
+    let mut acc = [0.0f64; 3];
+    for (c, v) in colors.iter().zip(levels) {
+        let v = v.clamp(0.0, 1.0);
+        for k in 0..3 {
+            acc[k] += match bg {
+                Background::Dark => c[k] as f64 * v,
+                Background::Light => (255.0 - c[k] as f64) * v,
+            };
+        }
+    }
+    let channel = |a: f64| -> u8 {
+        let a = a.clamp(0.0, 255.0);
+        (match bg {
+            Background::Dark => a,
+            Background::Light => 255.0 - a,
+        })
+        .round() as u8
+    };
+    [channel(acc[0]), channel(acc[1]), channel(acc[2])]
+}
+
+/// Oklab (L, a, b) → sRGB bytes (out-of-gamut channels clipped).
+/// Source: Ottosson (2020), "A perceptual color space for image processing"
+/// (web page; the matrices as published there); sRGB transfer: IEC 61966-2-1.
+pub fn oklab_to_srgb(l: f64, a: f64, b: f64) -> [u8; 3] {
+    let l_ = l + 0.396_337_777_4 * a + 0.215_803_757_3 * b;
+    let m_ = l - 0.105_561_345_8 * a - 0.063_854_172_8 * b;
+    let s_ = l - 0.089_484_177_5 * a - 1.291_485_548_0 * b;
+    let (l3, m3, s3) = (l_ * l_ * l_, m_ * m_ * m_, s_ * s_ * s_);
+    let lin = [
+        4.076_741_662_1 * l3 - 3.307_711_591_3 * m3 + 0.230_969_929_2 * s3,
+        -1.268_438_004_6 * l3 + 2.609_757_401_1 * m3 - 0.341_319_396_5 * s3,
+        -0.004_196_086_3 * l3 - 0.703_418_614_7 * m3 + 1.707_614_701_0 * s3,
+    ];
+    lin.map(|c| {
+        let c = c.clamp(0.0, 1.0);
+        let s = if c <= 0.003_130_8 { 12.92 * c } else { 1.055 * c.powf(1.0 / 2.4) - 0.055 };
+        (s * 255.0).round() as u8
+    })
+}
+
+/// A sequential colour map for one gene's levels, t ∈ [0, 1]: lightness rises
+/// linearly in Oklab from 0.22 to 0.93 (so equal steps in level look like
+/// equal steps in lightness) while the hue turns from blue through teal to
+/// yellow at constant modest chroma. Our own map, in the spirit of
+/// perceptually uniform maps such as viridis (van der Walt & Smith 2015).
+pub fn sequential(t: f64) -> [u8; 3] {
+    let t = t.clamp(0.0, 1.0);
+    let l = 0.22 + 0.71 * t;
+    let hue = (275.0 - 170.0 * t).to_radians();
+    let chroma = 0.09 + 0.05 * (std::f64::consts::PI * t).sin();
+    oklab_to_srgb(l, chroma * hue.cos(), chroma * hue.sin())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn oklab_white_and_black() {
+        assert_eq!(oklab_to_srgb(1.0, 0.0, 0.0), [255, 255, 255]);
+        assert_eq!(oklab_to_srgb(0.0, 0.0, 0.0), [0, 0, 0]);
+    }
+
+    #[test]
+    fn sequential_map_gets_lighter() {
+        let luma = |c: [u8; 3]| 0.2126 * c[0] as f64 + 0.7152 * c[1] as f64 + 0.0722 * c[2] as f64;
+        let mut last = -1.0;
+        for k in 0..=20 {
+            let y = luma(sequential(k as f64 / 20.0));
+            assert!(y > last, "step {k}");
+            last = y;
+        }
+    }
+
+    #[test]
+    fn mixing_scales_a_single_gene() {
+        let c = [[200, 100, 50]];
+        assert_eq!(mix(&c, [0.5].into_iter(), Background::Dark), [100, 50, 25]);
+        assert_eq!(mix(&c, [1.0].into_iter(), Background::Light), [200, 100, 50]);
+        assert_eq!(mix(&c, [0.0].into_iter(), Background::Light), [255, 255, 255]);
+    }
+}

@@ -1,0 +1,147 @@
+//! Pictures from a [`Recording`]: kymograph, the pattern (an embryo-shaped
+//! view of a row, or the sheet itself), expression profiles, and a GIF
+//! animation. Every picture is labelled as a model prediction.
+//!
+//! Renderers see only the recording and its boundaries, never the model file.
+
+mod animate;
+mod axes;
+mod canvas;
+pub mod colour;
+mod kymograph;
+mod options;
+mod pattern;
+mod profiles;
+
+pub use animate::write_gif;
+pub use canvas::{Align, Canvas};
+pub use colour::Background;
+pub use kymograph::{KymoLayout, kymograph};
+pub use options::{StyleError, StyleOptions};
+
+pub use pattern::{PatternLayout, pattern};
+pub use profiles::{chosen_snapshots, profiles};
+
+use crate::integrate::Recording;
+
+/// How pictures look.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Style {
+    /// Title drawn at the top.
+    pub title: String,
+    /// Background (and so how gene colours combine).
+    pub background: Background,
+    /// Genes shown (indices into the recording), in legend order.
+    pub genes: Vec<usize>,
+    /// Colour of each gene of the recording.
+    pub colors: Vec<[u8; 3]>,
+    /// Picture width, px.
+    pub width: u32,
+    /// Animation frames per second.
+    pub fps: u32,
+    /// Snapshots shown: those with time in this range, min.
+    pub time_range: (f64, f64),
+}
+
+impl Style {
+    /// Every gene, its own colour, dark background, 720 px, 10 frames/s, all times.
+    pub fn for_recording(rec: &Recording) -> Style {
+        Style {
+            title: String::new(),
+            background: Background::Dark,
+            genes: (0..rec.genes.len()).collect(),
+            colors: rec.colors.clone(),
+            width: 720,
+            fps: 10,
+            time_range: (f64::NEG_INFINITY, f64::INFINITY),
+        }
+    }
+
+    /// Indices of the snapshots inside the time range.
+    pub fn snapshots(&self, rec: &Recording) -> Vec<usize> {
+        (0..rec.times.len())
+            .filter(|&s| rec.times[s] >= self.time_range.0 - 1e-9 && rec.times[s] <= self.time_range.1 + 1e-9)
+            .collect()
+    }
+
+    /// Colours of the shown genes.
+    pub fn shown_colors(&self) -> Vec<[u8; 3]> {
+        self.genes.iter().map(|&g| self.colors[g]).collect()
+    }
+}
+
+/// Largest level of each gene over the shown snapshots (1 where a gene is blank),
+/// the scale that maps a level to colour intensity.
+pub fn gene_maxima(rec: &Recording, snapshots: &[usize]) -> Vec<f64> {
+    (0..rec.genes.len())
+        .map(|g| {
+            let m = snapshots.iter().flat_map(|&s| rec.states[s].row(g).to_vec()).fold(0.0f64, f64::max);
+            if m > 0.0 { m } else { 1.0 }
+        })
+        .collect()
+}
+
+/// Level of gene `g` at axis position `x_um` at snapshot `s`, linear between
+/// nucleus centres (constant beyond the first and last), from a column profile.
+pub fn level_at(profile: &[f64], spacing_um: f64, x_um: f64) -> f64 {
+    let f = x_um / spacing_um - 0.5;
+    if f <= 0.0 {
+        return profile[0];
+    }
+    let i = f.floor() as usize;
+    if i + 1 >= profile.len() {
+        return profile[profile.len() - 1];
+    }
+    let w = f - i as f64;
+    profile[i] * (1.0 - w) + profile[i + 1] * w
+}
+
+/// Text used on every picture that could pass for data.
+pub const PREDICTION_LABEL: &str = "model prediction";
+
+/// A "nice" length for a scale bar of about a fifth of `length_um`: 1, 2 or 5 × 10^k µm.
+pub fn scale_bar_um(length_um: f64) -> f64 {
+    let target = length_um / 5.0;
+    let p = 10f64.powf(target.log10().floor());
+    [1.0, 2.0, 5.0, 10.0].iter().map(|m| m * p).filter(|v| *v <= target * 1.5).fold(p, f64::max)
+}
+
+/// Draws the legend: a swatch and the name of each shown gene, from (x, y) rightwards.
+pub fn legend(canvas: &mut Canvas, rec: &Recording, style: &Style, x: f32, y: f32, align_right: bool) {
+    let size = 14.0;
+    let items: Vec<(&str, [u8; 3])> = style.genes.iter().map(|&g| (rec.genes[g].as_str(), style.colors[g])).collect();
+    let widths: Vec<f32> = items.iter().map(|(n, _)| 18.0 + Canvas::text_width(size, n) + 14.0).collect();
+    let total: f32 = widths.iter().sum();
+    let mut pen = if align_right { x - total } else { x };
+    for ((name, c), w) in items.iter().zip(widths) {
+        canvas.rect(pen, y - 11.0, 12.0, 12.0, *c);
+        canvas.text(pen + 17.0, y, size, style.background.ink(), Align::Left, name);
+        pen += w;
+    }
+}
+
+/// Formats a time for labels: whole minutes without decimals.
+pub fn time_text(t: f64) -> String {
+    if (t - t.round()).abs() < 1e-9 { format!("{}", t.round()) } else { format!("{t:.1}") }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn scale_bar_is_nice() {
+        assert_eq!(scale_bar_um(500.0), 100.0);
+        assert_eq!(scale_bar_um(400.0), 100.0);
+        assert_eq!(scale_bar_um(60.0), 10.0);
+        assert_eq!(scale_bar_um(2000.0), 500.0);
+    }
+
+    #[test]
+    fn level_interpolates_between_centres() {
+        let p = [0.0, 10.0, 20.0];
+        assert_eq!(level_at(&p, 2.0, 1.0), 0.0);
+        assert_eq!(level_at(&p, 2.0, 2.0), 5.0);
+        assert_eq!(level_at(&p, 2.0, 6.0), 20.0);
+    }
+}

@@ -1,0 +1,127 @@
+//! Picture options as a user gives them (names, not indices), checked.
+
+use super::{Background, Style};
+use crate::integrate::Recording;
+
+/// A picture option that cannot be used.
+#[derive(Debug, thiserror::Error)]
+pub enum StyleError {
+    /// A gene name not in the run.
+    #[error("`{option}` names unknown gene `{name}`; the run has: {known}")]
+    UnknownGene {
+        /// The option.
+        option: String,
+        /// The name.
+        name: String,
+        /// The genes there are.
+        known: String,
+    },
+    /// A colour that is not `#rrggbb`.
+    #[error("`--color {text}`: write GENE=#rrggbb, e.g. amber=#e69f00")]
+    BadColor {
+        /// What was given.
+        text: String,
+    },
+    /// A size or rate out of range.
+    #[error("`{option}` is {value}; {fix}")]
+    OutOfRange {
+        /// The option.
+        option: String,
+        /// The value.
+        value: String,
+        /// What is allowed.
+        fix: String,
+    },
+    /// No snapshot in the time range.
+    #[error("no snapshot between {from} and {to} min; the run has snapshots from {first} to {last} min")]
+    EmptyTimeRange {
+        /// Range start.
+        from: f64,
+        /// Range end.
+        to: f64,
+        /// First snapshot.
+        first: f64,
+        /// Last snapshot.
+        last: f64,
+    },
+}
+
+/// Picture options by name.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct StyleOptions {
+    /// Genes to show (default all).
+    pub genes: Option<Vec<String>>,
+    /// Colour overrides `GENE=#rrggbb`.
+    pub colors: Vec<String>,
+    /// White background.
+    pub light: bool,
+    /// Width, px.
+    pub width: Option<u32>,
+    /// Frames per second.
+    pub fps: Option<u32>,
+    /// First time shown, min.
+    pub from_min: Option<f64>,
+    /// Last time shown, min.
+    pub to_min: Option<f64>,
+}
+
+impl Style {
+    /// The default style for a run, changed by `opts`.
+    ///
+    /// # Errors
+    /// [`StyleError`] for unknown genes, bad colours, sizes out of range or an empty time range.
+    pub fn with_options(rec: &Recording, title: &str, opts: &StyleOptions) -> Result<Style, StyleError> {
+        let mut style = Style::for_recording(rec);
+        style.title = title.to_string();
+        let known = || rec.genes.join(", ");
+        let index = |option: &str, name: &str| {
+            rec.genes.iter().position(|g| g == name).ok_or_else(|| StyleError::UnknownGene {
+                option: option.into(),
+                name: name.into(),
+                known: known(),
+            })
+        };
+        if let Some(genes) = &opts.genes {
+            style.genes = genes.iter().map(|n| index("--genes", n.trim())).collect::<Result<_, _>>()?;
+        }
+        for text in &opts.colors {
+            let (name, hex) = text.split_once('=').ok_or_else(|| StyleError::BadColor { text: text.clone() })?;
+            let g = index("--color", name.trim())?;
+            style.colors[g] =
+                crate::model::parse_color(hex.trim()).ok_or_else(|| StyleError::BadColor { text: text.clone() })?;
+        }
+        if opts.light {
+            style.background = Background::Light;
+        }
+        if let Some(w) = opts.width {
+            if !(320..=4096).contains(&w) {
+                return Err(StyleError::OutOfRange {
+                    option: "--width".into(),
+                    value: w.to_string(),
+                    fix: "give 320 to 4096 px".into(),
+                });
+            }
+            style.width = w;
+        }
+        if let Some(f) = opts.fps {
+            if !(1..=50).contains(&f) {
+                return Err(StyleError::OutOfRange {
+                    option: "--fps".into(),
+                    value: f.to_string(),
+                    fix: "give 1 to 50 frames per second".into(),
+                });
+            }
+            style.fps = f;
+        }
+        style.time_range = (opts.from_min.unwrap_or(f64::NEG_INFINITY), opts.to_min.unwrap_or(f64::INFINITY));
+        if style.snapshots(rec).is_empty() {
+            return Err(StyleError::EmptyTimeRange {
+                from: style.time_range.0,
+                to: style.time_range.1,
+                first: rec.times[0],
+                last: *rec.times.last().unwrap_or(&0.0),
+            });
+        }
+        Ok(style)
+    }
+}

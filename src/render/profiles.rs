@@ -1,0 +1,84 @@
+//! Expression against position (% length) at a few times, boundaries marked.
+
+use super::axes::{self, Axes};
+use super::canvas::{Align, Canvas};
+use super::{PREDICTION_LABEL, Style, legend, level_at, time_text};
+use crate::integrate::Recording;
+use crate::readout::Boundary;
+
+/// Up to four shown snapshots, evenly spread, always including the last.
+pub fn chosen_snapshots(shown: &[usize]) -> Vec<usize> {
+    let n = shown.len();
+    if n <= 4 {
+        return shown.to_vec();
+    }
+    let mut picks: Vec<usize> = (0..4).map(|k| shown[k * (n - 1) / 3]).collect();
+    picks.dedup();
+    picks
+}
+
+/// Draws the profiles; `final_boundaries` are marked at the last chosen time.
+pub fn profiles(rec: &Recording, final_boundaries: &[Boundary], style: &Style) -> Canvas {
+    let bg = style.background;
+    let width = style.width.max(320);
+    let (left, top, right, bottom) = (64.0, 70.0, 24.0, 70.0);
+    let plot_h = 300.0;
+    let mut c = Canvas::new(width, (top + plot_h + bottom) as u32, bg.rgb());
+    let picks = chosen_snapshots(&style.snapshots(rec));
+    let ymax = picks
+        .iter()
+        .flat_map(|&s| style.genes.iter().map(move |&g| (s, g)))
+        .map(|(s, g)| rec.states[s].row(g).iter().copied().fold(0.0f64, f64::max))
+        .fold(0.0f64, f64::max);
+    let ymax = if ymax > 0.0 { ymax * 1.05 } else { 1.0 };
+    let a = Axes {
+        left,
+        top,
+        width: width as f32 - left - right,
+        height: plot_h,
+        x: (0.0, 100.0),
+        y: (0.0, ymax),
+        y_down: false,
+    };
+    let length = rec.grid.length_um();
+    let samples = (a.width as usize).max(2);
+    for (k, &s) in picks.iter().enumerate() {
+        // Earlier times fainter: opacity from 25 % to 100 %.
+        let alpha = if picks.len() == 1 { 255 } else { (64.0 + 191.0 * k as f64 / (picks.len() - 1) as f64) as u8 };
+        let dash = (k + 1 < picks.len()).then_some([6.0, 4.0]);
+        for &g in &style.genes {
+            let p = rec.axis_profile(s, g);
+            let pts: Vec<(f32, f32)> = (0..=samples)
+                .map(|i| {
+                    let pct = 100.0 * i as f64 / samples as f64;
+                    (a.px(pct), a.py(level_at(&p, rec.grid.spacing_um, pct / 100.0 * length)))
+                })
+                .collect();
+            c.polyline(&pts, 2.0, style.colors[g], alpha, dash);
+        }
+    }
+    // Boundary labels: a row above the plot, a second row where two would overlap.
+    let mut placed: Vec<(f32, f32, usize)> = Vec::new();
+    for b in final_boundaries {
+        if let Some(&g) = style.genes.iter().find(|&&g| rec.genes[g] == b.gene) {
+            let x = a.px(b.position_pct);
+            c.polyline(&[(x, a.top + a.height), (x, a.top)], 1.0, style.colors[g], 160, Some([2.0, 3.0]));
+            let label = format!("{:.1}%", b.position_pct);
+            let half = Canvas::text_width(11.0, &label) / 2.0 + 3.0;
+            let row = (0..8)
+                .find(|r| !placed.iter().any(|(l, rr, pr)| pr == r && x - half < *rr && x + half > *l))
+                .unwrap_or(0);
+            placed.push((x - half, x + half, row));
+            c.text(x, a.top - 4.0 - 12.0 * row as f32, 11.0, style.colors[g], Align::Centre, &label);
+        }
+    }
+    axes::draw(&mut c, &a, "position along the axis (% length)", "level (a.u.)", bg);
+    c.text(left, 24.0, 16.0, bg.ink(), Align::Left, &style.title);
+    c.text(width as f32 - right, 24.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
+    let times: Vec<String> = picks.iter().map(|&s| time_text(rec.times[s])).collect();
+    let note =
+        format!("t = {} min (dashed, fainter = earlier); dotted lines: boundaries at the last time", times.join(", "));
+    c.text(left, c.height() as f32 - 12.0, 12.0, bg.muted(), Align::Left, &note);
+    legend(&mut c, rec, style, width as f32 - right, 46.0, true);
+    c
+}

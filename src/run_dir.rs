@@ -1,0 +1,100 @@
+//! A finished run's folder, read back: the recording from `states.npy` and
+//! `summary.json`, so pictures can be redrawn without simulating again.
+
+use std::fs::File;
+use std::path::{Path, PathBuf};
+
+use ndarray::{Array2, ArrayD, Axis, IxDyn};
+use ndarray_npy::ReadNpyExt;
+use serde::Deserialize;
+
+use crate::integrate::Recording;
+use crate::model::{Edges, Grid};
+use crate::summary::GridInfo;
+
+/// A run folder that cannot be read back.
+#[derive(Debug, thiserror::Error)]
+pub enum RunDirError {
+    /// A file is missing or unreadable.
+    #[error("cannot read {}; is this a folder written by `anlage run`?", path.display())]
+    Read {
+        /// File.
+        path: PathBuf,
+        /// Cause.
+        source: std::io::Error,
+    },
+    /// A file is there but not as `anlage run` writes it.
+    #[error("{}: {problem}; run the model again to rewrite the folder", path.display())]
+    Malformed {
+        /// File.
+        path: PathBuf,
+        /// What is wrong.
+        problem: String,
+    },
+}
+
+#[derive(Deserialize)]
+struct SummaryIn {
+    title: String,
+    genes: Vec<String>,
+    grid: GridInfo,
+    colors: Vec<String>,
+    snapshot_times_min: Vec<f64>,
+}
+
+/// A run read back from its folder.
+#[derive(Debug, Clone)]
+pub struct SavedRun {
+    /// Model title.
+    pub title: String,
+    /// The recording.
+    pub recording: Recording,
+}
+
+/// Reads `summary.json` and `states.npy` from `dir`.
+///
+/// # Errors
+/// [`RunDirError`] naming the file that is missing or malformed.
+pub fn load(dir: &Path) -> Result<SavedRun, RunDirError> {
+    let summary_path = dir.join("summary.json");
+    let text = std::fs::read_to_string(&summary_path)
+        .map_err(|source| RunDirError::Read { path: summary_path.clone(), source })?;
+    let bad = |path: &Path, problem: String| RunDirError::Malformed { path: path.to_path_buf(), problem };
+    let s: SummaryIn = serde_json::from_str(&text).map_err(|e| bad(&summary_path, e.to_string()))?;
+    let edges = match s.grid.edges.as_str() {
+        "sealed" => Edges::Sealed,
+        "periodic" => Edges::Periodic,
+        other => return Err(bad(&summary_path, format!("unknown edges `{other}`"))),
+    };
+    if s.grid.nx == 0 || s.grid.ny == 0 || !(s.grid.spacing_um > 0.0) {
+        return Err(bad(&summary_path, "grid has no nuclei or no spacing".into()));
+    }
+    let grid = Grid { nx: s.grid.nx, ny: s.grid.ny, spacing_um: s.grid.spacing_um, edges };
+    let colors = s
+        .colors
+        .iter()
+        .map(|c| crate::model::parse_color(c).ok_or_else(|| bad(&summary_path, format!("colour `{c}` is not #rrggbb"))))
+        .collect::<Result<Vec<_>, _>>()?;
+    if colors.len() != s.genes.len() {
+        return Err(bad(&summary_path, "one colour per gene expected".into()));
+    }
+    let npy_path = dir.join("states.npy");
+    let file = File::open(&npy_path).map_err(|source| RunDirError::Read { path: npy_path.clone(), source })?;
+    let all = ArrayD::<f64>::read_npy(file).map_err(|e| bad(&npy_path, e.to_string()))?;
+    let (snaps, genes, nuclei) = (s.snapshot_times_min.len(), s.genes.len(), grid.len());
+    let want: Vec<usize> =
+        if grid.is_sheet() { vec![snaps, genes, grid.ny, grid.nx] } else { vec![snaps, genes, nuclei] };
+    if all.shape() != want.as_slice() {
+        return Err(bad(&npy_path, format!("shape {:?} does not match summary.json ({want:?})", all.shape())));
+    }
+    let all = all.into_shape_with_order(IxDyn(&[snaps, genes, nuclei])).map_err(|e| bad(&npy_path, e.to_string()))?;
+    let states: Vec<Array2<f64>> = all
+        .axis_iter(Axis(0))
+        .map(|a| a.into_dimensionality::<ndarray::Ix2>().map(|v| v.to_owned()))
+        .collect::<Result<_, _>>()
+        .map_err(|e| bad(&npy_path, e.to_string()))?;
+    Ok(SavedRun {
+        title: s.title,
+        recording: Recording { grid, genes: s.genes, colors, times: s.snapshot_times_min, states },
+    })
+}

@@ -94,7 +94,14 @@ pub fn toggle_sheet(n: usize, steps: usize) -> String {
     )
 }
 
+/// [`toggle_sheet`] recording `frames` snapshots after the start (one every 10 steps).
+pub fn toggle_sheet_movie(n: usize, frames: usize) -> String {
+    let until = frames as f64;
+    toggle_sheet(n, 10 * frames).replace(&format!("snapshot_every_min = {until:?}"), "snapshot_every_min = 1.0")
+}
+
 /// Sum of every value of a state: the peer's checksum.
+
 pub fn checksum(state: &ndarray::Array2<f64>) -> f64 {
     state.iter().sum()
 }

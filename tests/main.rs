@@ -5,4 +5,6 @@ mod cli;
 mod common;
 mod convergence;
 mod demos;
+mod pictures;
+
 mod validation;

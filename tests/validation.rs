@@ -35,5 +35,4 @@ fn unreadable_file_names_the_file() {
     assert_eq!(err.to_string(), "cannot read model file /nonexistent/model.toml");
     let cause = std::error::Error::source(&err).expect("the I/O error is kept as the source").to_string();
     assert!(cause.contains("No such file"), "{cause}");
-
 }

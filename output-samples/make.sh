@@ -1,0 +1,20 @@
+#!/usr/bin/env bash
+# Regenerates output-samples/ from patterns/: pictures and the small tables.
+# Run from the repository root: bash output-samples/make.sh
+# (The large per-snapshot files, profiles.csv and states.npy, are left out to
+# keep the folder small; `anlage run` writes them.)
+set -euo pipefail
+cargo build --release --quiet
+bin=target/release/anlage
+for model in patterns/*.toml; do
+  name=$(basename "$model" .toml)
+  out=output-samples/$name
+  rm -rf "$out"
+  "$bin" run "$model" -q -o "$out" --width 560
+  if [ "$name" = ribbon ]; then
+    # The ribbon on white, as for a printed figure.
+    "$bin" render "$out" --kind kymograph --light --width 560 -o output-samples/ribbon-light > /dev/null
+  fi
+  rm -f "$out/states.npy" "$out/profiles.csv" "$out/final_sheet.csv"
+done
+du -sh output-samples

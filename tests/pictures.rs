@@ -1,0 +1,147 @@
+//! Pictures: they decode, and what they show matches the numbers.
+
+use std::process::Command;
+
+use anlage::readout::find_boundaries;
+use anlage::render::{self, Background, PatternLayout, Style};
+
+use crate::common::{load, root, run};
+
+fn ribbon() -> anlage::Recording {
+    run(&load("patterns/ribbon.toml")).recording
+}
+
+/// The GIF has one frame per snapshot, the pattern's size, and loops forever;
+/// the PNGs decode to their canvas sizes.
+#[test]
+fn gif_and_pngs_decode() {
+    let rec = ribbon();
+    let style = Style::for_recording(&rec);
+    let mut bytes = Vec::new();
+    let frames = render::write_gif(&rec, &style, &mut bytes).unwrap();
+    assert_eq!(frames, rec.times.len());
+    let (first, _) = render::pattern(&rec, 0, &style, &render::gene_maxima(&rec, &[0]));
+    let mut opts = gif::DecodeOptions::new();
+    opts.set_color_output(gif::ColorOutput::RGBA);
+    let mut dec = opts.read_info(bytes.as_slice()).unwrap();
+    assert_eq!((dec.width() as u32, dec.height() as u32), (first.width(), first.height()));
+    assert_eq!(dec.repeat(), gif::Repeat::Infinite);
+    let mut count = 0;
+    while let Some(f) = dec.read_next_frame().unwrap() {
+        assert_eq!(f.delay, 10, "10 frames per second");
+        count += 1;
+    }
+    assert_eq!(count, rec.times.len());
+    let boundaries = find_boundaries(&rec);
+    let (k, _) = render::kymograph(&rec, &boundaries, &style);
+    for canvas in [k, first] {
+        let png = canvas.png().unwrap();
+        let img = image::load_from_memory(&png).unwrap();
+        assert_eq!((img.width(), img.height()), (canvas.width(), canvas.height()));
+    }
+}
+
+/// Inside the embryo outline, the colour at a nucleus's position is the gene's
+/// colour scaled by its level there (relative to its maximum over the run),
+/// on dark; on white, white minus the colour's complement scaled by the level.
+#[test]
+fn embryo_pixels_show_the_level_of_the_gene() {
+    let rec = ribbon();
+    let last = rec.times.len() - 1;
+    let amber = rec.genes.iter().position(|g| g == "amber").unwrap();
+    let profile: Vec<f64> = rec.states[last].row(amber).to_vec();
+    let max = rec.states.iter().map(|s| s.row(amber).iter().copied().fold(0.0, f64::max)).fold(0.0, f64::max);
+    let color = rec.colors[amber];
+    for bg in [Background::Dark, Background::Light] {
+        let mut style = Style::for_recording(&rec);
+        style.genes = vec![amber];
+        style.background = bg;
+        let maxima = render::gene_maxima(&rec, &(0..rec.times.len()).collect::<Vec<_>>());
+        let (canvas, layout) = render::pattern(&rec, last, &style, &maxima);
+        let PatternLayout::Embryo { cx, cy, rx, .. } = layout else { panic!("a row is drawn as an embryo") };
+        let h = rec.grid.spacing_um;
+        let length = rec.grid.length_um();
+        for i in [3usize, 20, 45, 60, 90] {
+            let x_i = (i as f64 + 0.5) * h;
+            let px = (cx - rx + (x_i / length) as f32 * 2.0 * rx).floor() as u32;
+            // The level at this pixel's centre, interpolated here from the raw state.
+            let x = ((px as f32 + 0.5 - (cx - rx)) / (2.0 * rx)) as f64 * length;
+            let f = x / h - 0.5;
+            let j = f.floor() as usize;
+            let v = (profile[j] + (profile[j + 1] - profile[j]) * (f - j as f64)) / max;
+            let want: Vec<f64> = match bg {
+                Background::Dark => color.iter().map(|c| *c as f64 * v).collect(),
+                Background::Light => color.iter().map(|c| 255.0 - (255.0 - *c as f64) * v).collect(),
+            };
+            let got = canvas.get(px, cy as u32);
+            for k in 0..3 {
+                assert!((got[k] as f64 - want[k]).abs() <= 1.0, "{bg:?} nucleus {i}: got {got:?}, want {want:?}");
+            }
+        }
+    }
+}
+
+/// The boundary trace on the kymograph passes within one pixel of the
+/// boundary position from the boundary table, mapped to pixels.
+#[test]
+fn kymograph_trace_sits_on_the_boundary() {
+    let rec = ribbon();
+    let boundaries = find_boundaries(&rec);
+    let style = Style::for_recording(&rec);
+    let (canvas, layout) = render::kymograph(&rec, &boundaries, &style);
+    let a = layout.axes;
+    let mut checked = 0;
+    for b in boundaries.iter().filter(|b| b.gene == "amber" && b.time_min >= 80.0 && b.time_min <= 200.0) {
+        let (x, y) = (a.px(b.position_pct), a.py(b.time_min));
+        let bright = |px: f32| {
+            let c = canvas.get(px.round() as u32, y.round() as u32);
+            c.iter().all(|v| *v > 150)
+        };
+        assert!((-1..=1).any(|d| bright(x + d as f32)), "no trace near {x:.1} px at t = {}", b.time_min);
+        assert!(!bright(x - 6.0) && !bright(x + 6.0), "trace too wide at t = {}", b.time_min);
+        checked += 1;
+    }
+    assert!(checked >= 20);
+}
+
+/// The scale bar's length in pixels matches its µm label on the embryo's scale.
+#[test]
+fn scale_bar_length_matches_its_label() {
+    for model in ["patterns/ribbon.toml", "patterns/sheet.toml"] {
+        let rec = run(&load(model)).recording;
+        let style = Style::for_recording(&rec);
+        let last = rec.times.len() - 1;
+        let (canvas, layout) = render::pattern(&rec, last, &style, &render::gene_maxima(&rec, &[last]));
+        let (bar, um_per_px) = match layout {
+            PatternLayout::Embryo { rx, bar, .. } => (bar, rec.grid.length_um() / (2.0 * rx as f64)),
+            PatternLayout::Sheet { cell, bar, .. } => (bar, rec.grid.spacing_um / cell as f64),
+        };
+        let row = bar.2.round() as u32;
+        let ink: Vec<u32> = (0..canvas.width()).filter(|&x| canvas.get(x, row).iter().all(|v| *v > 200)).collect();
+        let measured = (ink.last().unwrap() - ink.first().unwrap() + 1) as f64;
+        assert!((measured * um_per_px - bar.3).abs() <= 1.5 * um_per_px, "{model}: {measured} px for {} µm", bar.3);
+        assert_eq!(render::scale_bar_um(rec.grid.length_um()), bar.3);
+    }
+}
+
+/// `anlage render` on a saved run writes the same bytes as `anlage run` did.
+#[test]
+fn render_reproduces_run_pictures() {
+    let dir = std::env::temp_dir().join(format!("anlage-render-{}", std::process::id()));
+    let redraw = dir.join("redraw");
+    let _ = std::fs::remove_dir_all(&dir);
+    let exe = env!("CARGO_BIN_EXE_anlage");
+    for model in ["patterns/ribbon.toml", "patterns/band.toml"] {
+        let m = root().join(model);
+        let ok =
+            Command::new(exe).args(["run", m.to_str().unwrap(), "-q", "-o", dir.to_str().unwrap()]).status().unwrap();
+        assert!(ok.success());
+        let ok =
+            Command::new(exe).args(["render", dir.to_str().unwrap(), "-o", redraw.to_str().unwrap()]).output().unwrap();
+        assert!(ok.status.success(), "{}", String::from_utf8_lossy(&ok.stderr));
+        for name in ["kymograph.png", "pattern.png", "profiles.png", "pattern.gif"] {
+            let (a, b) = (std::fs::read(dir.join(name)).unwrap(), std::fs::read(redraw.join(name)).unwrap());
+            assert!(a == b, "{model}: {name} differs");
+        }
+    }
+}

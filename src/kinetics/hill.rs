@@ -159,18 +159,11 @@ impl Kinetics for HillKinetics {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::kinetics::testing::jacobian_matches_differences;
+    use crate::kinetics::testing::{HEADER, jacobian_matches_differences};
     use approx::assert_relative_eq;
     use std::path::Path;
 
-    const MODEL: &str = r#"
-[tissue]
-nuclei = [4]
-spacing_um = 1.0
-[clock]
-until_min = 1.0
-step_min = 0.1
-snapshot_every_min = 1.0
+    const CIRCUIT: &str = r#"
 [[gradient]]
 name = "m"
 shape = "exponential"
@@ -222,7 +215,7 @@ hill = 4
 
     #[test]
     fn rates_follow_the_hill_formula() {
-        let model = Model::from_toml(MODEL, Path::new("t.toml")).unwrap();
+        let model = Model::from_toml(&format!("{HEADER}{CIRCUIT}"), Path::new("t.toml")).unwrap();
         let k = HillKinetics::new(&model);
         let (a, b, m) = (0.8, 0.5, 0.3);
         let mut out = [0.0; 2];
@@ -237,7 +230,7 @@ hill = 4
 
     #[test]
     fn jacobian_matches_finite_differences() {
-        let model = Model::from_toml(MODEL, Path::new("t.toml")).unwrap();
+        let model = Model::from_toml(&format!("{HEADER}{CIRCUIT}"), Path::new("t.toml")).unwrap();
         let k = HillKinetics::new(&model);
         jacobian_matches_differences(&k, &[0.8, 0.5], &[0.3]);
         jacobian_matches_differences(&k, &[0.05, 2.0], &[0.9]);

@@ -84,6 +84,10 @@ pub(crate) mod testing {
     use super::Kinetics;
     use approx::assert_relative_eq;
 
+    /// Tissue and clock for rate-law tests (a tiny row; only the circuit matters).
+    pub const HEADER: &str = "[tissue]\nnuclei = [4]\nspacing_um = 1.0\n\
+        [clock]\nuntil_min = 1.0\nstep_min = 0.1\nsnapshot_every_min = 1.0\n";
+
     /// Checks the analytic Jacobian against central differences.
     pub fn jacobian_matches_differences(k: &dyn Kinetics, u: &[f64], m: &[f64]) {
         let g = u.len();

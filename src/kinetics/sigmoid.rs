@@ -91,18 +91,11 @@ impl Kinetics for SigmoidKinetics {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::kinetics::testing::jacobian_matches_differences;
+    use crate::kinetics::testing::{HEADER, jacobian_matches_differences};
     use approx::assert_relative_eq;
     use std::path::Path;
 
-    const MODEL: &str = r#"
-[tissue]
-nuclei = [4]
-spacing_um = 1.0
-[clock]
-until_min = 1.0
-step_min = 0.1
-snapshot_every_min = 1.0
+    const CIRCUIT: &str = r#"
 [[gradient]]
 name = "m"
 shape = "linear"
@@ -140,7 +133,7 @@ weight = 0.5
 
     #[test]
     fn rates_follow_the_weighted_sum_formula() {
-        let model = Model::from_toml(MODEL, Path::new("t.toml")).unwrap();
+        let model = Model::from_toml(&format!("{HEADER}{CIRCUIT}"), Path::new("t.toml")).unwrap();
         let k = SigmoidKinetics::new(&model);
         let mut out = [0.0; 2];
         k.rates_one(&[0.4, 0.9], &[0.7], &mut out);
@@ -152,7 +145,7 @@ weight = 0.5
 
     #[test]
     fn jacobian_matches_finite_differences() {
-        let model = Model::from_toml(MODEL, Path::new("t.toml")).unwrap();
+        let model = Model::from_toml(&format!("{HEADER}{CIRCUIT}"), Path::new("t.toml")).unwrap();
         let k = SigmoidKinetics::new(&model);
         jacobian_matches_differences(&k, &[0.4, 0.9], &[0.7]);
     }

@@ -56,51 +56,51 @@ pub struct Domain {
     pub width_pct: f64,
 }
 
-/// Boundaries of every gene at snapshot `s`.
-pub fn boundaries_at(rec: &Recording, s: usize) -> Vec<Boundary> {
+/// Runs `read(profile, spacing_um, periodic)` on each gene's axis profile at
+/// snapshot `s` and converts each finding with `make(time, gene, finding, length_um)`.
+fn per_gene<F, T>(
+    rec: &Recording,
+    s: usize,
+    read: impl Fn(&[f64], f64, bool) -> Vec<F>,
+    make: impl Fn(f64, &str, F, f64) -> T,
+) -> Vec<T> {
     let grid = &rec.grid;
-    let length = grid.length_um();
     let periodic = grid.edges == crate::model::Edges::Periodic;
     let mut out = Vec::new();
     for (g, name) in rec.genes.iter().enumerate() {
         let profile = rec.axis_profile(s, g);
-        for c in profile_boundaries(&profile, grid.spacing_um, periodic) {
-            out.push(Boundary {
-                time_min: rec.times[s],
-                gene: name.clone(),
-                direction: if c.rising { "rising" } else { "falling" },
-                position_um: c.position_um,
-                position_pct: 100.0 * c.position_um / length,
-                steepness_per_um: c.steepness_per_um,
-                width_um: c.width_um,
-            });
+        for found in read(&profile, grid.spacing_um, periodic) {
+            out.push(make(rec.times[s], name, found, grid.length_um()));
         }
     }
     out
 }
 
+/// Boundaries of every gene at snapshot `s`.
+pub fn boundaries_at(rec: &Recording, s: usize) -> Vec<Boundary> {
+    per_gene(rec, s, profile_boundaries, |time_min, gene, c: Crossing, length| Boundary {
+        time_min,
+        gene: gene.to_string(),
+        direction: if c.rising { "rising" } else { "falling" },
+        position_um: c.position_um,
+        position_pct: 100.0 * c.position_um / length,
+        steepness_per_um: c.steepness_per_um,
+        width_um: c.width_um,
+    })
+}
+
 /// Domains of every gene at snapshot `s`.
 pub fn domains_at(rec: &Recording, s: usize) -> Vec<Domain> {
-    let grid = &rec.grid;
-    let length = grid.length_um();
-    let periodic = grid.edges == crate::model::Edges::Periodic;
-    let mut out = Vec::new();
-    for (g, name) in rec.genes.iter().enumerate() {
-        let profile = rec.axis_profile(s, g);
-        for d in profile_domains(&profile, grid.spacing_um, periodic) {
-            out.push(Domain {
-                time_min: rec.times[s],
-                gene: name.clone(),
-                start_um: d.start_um,
-                start_pct: 100.0 * d.start_um / length,
-                end_um: d.end_um,
-                end_pct: 100.0 * d.end_um / length,
-                width_um: d.width_um,
-                width_pct: 100.0 * d.width_um / length,
-            });
-        }
-    }
-    out
+    per_gene(rec, s, profile_domains, |time_min, gene, d: Span, length| Domain {
+        time_min,
+        gene: gene.to_string(),
+        start_um: d.start_um,
+        start_pct: 100.0 * d.start_um / length,
+        end_um: d.end_um,
+        end_pct: 100.0 * d.end_um / length,
+        width_um: d.width_um,
+        width_pct: 100.0 * d.width_um / length,
+    })
 }
 
 /// Boundaries at every snapshot, in time order.

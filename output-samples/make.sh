@@ -15,6 +15,11 @@ for model in patterns/*.toml; do
     # The ribbon on white, as for a printed figure.
     "$bin" render "$out" --kind kymograph --light --width 560 -o output-samples/ribbon-light > /dev/null
   fi
+  if [ "$name" = band ]; then
+    # One gene as a heat map.
+    "$bin" render "$out" --kind kymograph --genes teal --heatmap --width 560 -o output-samples/band-teal-heatmap > /dev/null
+  fi
   rm -f "$out/states.npy" "$out/profiles.csv" "$out/final_sheet.csv"
+
 done
 du -sh output-samples

@@ -69,6 +69,9 @@ pub struct Look {
     /// White background: genes darken like stains instead of adding like fluorescence.
     #[arg(long)]
     pub light: bool,
+    /// Draw the one gene chosen with --genes as a heat map (perceptually uniform colours).
+    #[arg(long)]
+    pub heatmap: bool,
     /// Picture width, px (320–4096; default 720).
     #[arg(long)]
     pub width: Option<u32>,
@@ -94,6 +97,7 @@ impl Look {
             fps: self.fps,
             from_min: self.from_min,
             to_min: self.to_min,
+            heatmap: self.heatmap,
         }
     }
 }

@@ -145,3 +145,32 @@ fn render_reproduces_run_pictures() {
         }
     }
 }
+
+/// A single-gene heat map paints each level with the perceptually uniform
+/// sequential map: the pixel at a nucleus equals `sequential(level / max)`.
+#[test]
+fn heatmap_uses_the_sequential_map() {
+    let rec = run(&load("patterns/band.toml")).recording;
+    let last = rec.times.len() - 1;
+    let opts = render::StyleOptions { genes: Some(vec!["teal".into()]), heatmap: true, ..Default::default() };
+    let style = Style::with_options(&rec, "band", &opts).unwrap();
+    let maxima = render::gene_maxima(&rec, &(0..rec.times.len()).collect::<Vec<_>>());
+    let (canvas, layout) = render::pattern(&rec, last, &style, &maxima);
+    let PatternLayout::Embryo { cx, cy, rx, .. } = layout else { panic!("row") };
+    let teal = rec.genes.iter().position(|g| g == "teal").unwrap();
+    let profile = rec.states[last].row(teal).to_vec();
+    let length = rec.grid.length_um();
+    for i in [10usize, 50, 70, 100] {
+        let px = (cx - rx + (((i as f64 + 0.5) * rec.grid.spacing_um / length) as f32) * 2.0 * rx).floor() as u32;
+        let x = ((px as f32 + 0.5 - (cx - rx)) / (2.0 * rx)) as f64 * length;
+        let f = x / rec.grid.spacing_um - 0.5;
+        let j = f.floor() as usize;
+        let v = (profile[j] + (profile[j + 1] - profile[j]) * (f - j as f64)) / maxima[teal];
+        let want = render::colour::sequential(v);
+        let got = canvas.get(px, cy as u32);
+        for k in 0..3 {
+            assert!((got[k] as i32 - want[k] as i32).abs() <= 2, "nucleus {i}: got {got:?}, want {want:?}");
+        }
+    }
+    assert!(Style::with_options(&rec, "band", &render::StyleOptions { heatmap: true, ..Default::default() }).is_err());
+}

@@ -50,7 +50,7 @@ pub fn kymograph(rec: &Recording, boundaries: &[Boundary], style: &Style) -> (Ca
             let x_um = (col as f64 + 0.5) / pw as f64 * length;
             let levels =
                 style.genes.iter().zip(&profiles[k]).map(|(&g, p)| level_at(p, rec.grid.spacing_um, x_um) / max[g]);
-            let rgb = super::colour::mix(&colors, levels, bg);
+            let rgb = style.paint(&colors, levels);
             c.put(left as u32 + col, top as u32 + row, rgb);
         }
     }

@@ -41,6 +41,9 @@ pub struct Style {
     pub fps: u32,
     /// Snapshots shown: those with time in this range, min.
     pub time_range: (f64, f64),
+    /// Draw the one shown gene as a heat map with the perceptually uniform
+    /// [`colour::sequential`] map instead of its own colour.
+    pub heatmap: bool,
 }
 
 impl Style {
@@ -54,6 +57,7 @@ impl Style {
             width: 720,
             fps: 10,
             time_range: (f64::NEG_INFINITY, f64::INFINITY),
+            heatmap: false,
         }
     }
 
@@ -67,6 +71,15 @@ impl Style {
     /// Colours of the shown genes.
     pub fn shown_colors(&self) -> Vec<[u8; 3]> {
         self.genes.iter().map(|&g| self.colors[g]).collect()
+    }
+
+    /// Colour of a pixel whose shown genes are at relative levels `levels` (0–1).
+    pub fn paint(&self, colors: &[[u8; 3]], mut levels: impl Iterator<Item = f64>) -> [u8; 3] {
+        if self.heatmap {
+            colour::sequential(levels.next().unwrap_or(0.0))
+        } else {
+            colour::mix(colors, levels, self.background)
+        }
     }
 }
 
@@ -109,6 +122,22 @@ pub fn scale_bar_um(length_um: f64) -> f64 {
 /// Draws the legend: a swatch and the name of each shown gene, from (x, y) rightwards.
 pub fn legend(canvas: &mut Canvas, rec: &Recording, style: &Style, x: f32, y: f32, align_right: bool) {
     let size = 14.0;
+    if style.heatmap {
+        // A colour bar: 0 to the gene's maximum.
+        let name = format!("{}: 0", rec.genes[style.genes[0]]);
+        let (bar_w, gap) = (120.0, 6.0);
+        let total = Canvas::text_width(size, &name) + gap + bar_w + gap + Canvas::text_width(size, "max");
+        let left = if align_right { x - total } else { x };
+        let ink = style.background.ink();
+        canvas.text(left, y, size, ink, Align::Left, &name);
+        let bar_left = left + Canvas::text_width(size, &name) + gap;
+        for k in 0..bar_w as u32 {
+            canvas.rect(bar_left + k as f32, y - 11.0, 1.0, 12.0, colour::sequential(k as f64 / (bar_w - 1.0) as f64));
+        }
+        canvas.text(bar_left + bar_w + gap, y, size, ink, Align::Left, "max");
+        return;
+    }
+
     let items: Vec<(&str, [u8; 3])> = style.genes.iter().map(|&g| (rec.genes[g].as_str(), style.colors[g])).collect();
     let widths: Vec<f32> = items.iter().map(|(n, _)| 18.0 + Canvas::text_width(size, n) + 14.0).collect();
     let total: f32 = widths.iter().sum();

@@ -63,6 +63,8 @@ pub struct StyleOptions {
     pub from_min: Option<f64>,
     /// Last time shown, min.
     pub to_min: Option<f64>,
+    /// Heat map of the one shown gene.
+    pub heatmap: bool,
 }
 
 impl Style {
@@ -89,6 +91,16 @@ impl Style {
             let g = index("--color", name.trim())?;
             style.colors[g] =
                 crate::model::parse_color(hex.trim()).ok_or_else(|| StyleError::BadColor { text: text.clone() })?;
+        }
+        if opts.heatmap {
+            if style.genes.len() != 1 {
+                return Err(StyleError::OutOfRange {
+                    option: "--heatmap".into(),
+                    value: format!("asked with {} genes shown", style.genes.len()),
+                    fix: "choose one gene with --genes NAME".into(),
+                });
+            }
+            style.heatmap = true;
         }
         if opts.light {
             style.background = Background::Light;

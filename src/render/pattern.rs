@@ -4,7 +4,6 @@
 //! With the time, a scale bar, a legend and the "model prediction" label.
 
 use super::canvas::{Align, Canvas};
-use super::colour::mix;
 use super::{PREDICTION_LABEL, Style, legend, level_at, scale_bar_um, time_text};
 use crate::integrate::Recording;
 
@@ -55,7 +54,7 @@ pub fn pattern(rec: &Recording, s: usize, style: &Style, max: &[f64]) -> (Canvas
         for iy in 0..ny {
             for ix in 0..nx {
                 let i = (iy * nx + ix) as usize;
-                let rgb = mix(&colors, style.genes.iter().map(|&g| state[[g, i]] / max[g]), bg);
+                let rgb = style.paint(&colors, style.genes.iter().map(|&g| state[[g, i]] / max[g]));
                 let y0 = top + (ny - 1 - iy) * cell;
                 for dy in 0..cell {
                     for dx in 0..cell {
@@ -91,7 +90,7 @@ pub fn pattern(rec: &Recording, s: usize, style: &Style, max: &[f64]) -> (Canvas
                 let x_um = ((px as f32 + 0.5 - (cx - rx)) / (2.0 * rx)) as f64 * length;
                 let levels =
                     style.genes.iter().zip(&profiles).map(|(&g, p)| level_at(p, rec.grid.spacing_um, x_um) / max[g]);
-                c.put(px, py, mix(&colors, levels, bg));
+                c.put(px, py, style.paint(&colors, levels));
             }
         }
         c.ellipse(cx, cy, rx, ry, 2.0, bg.muted(), None);

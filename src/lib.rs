@@ -36,6 +36,8 @@ pub mod export;
 pub mod integrate;
 pub mod kinetics;
 pub mod model;
+pub mod phase;
+
 pub mod readout;
 pub mod render;
 pub mod run_dir;

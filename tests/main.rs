@@ -5,6 +5,8 @@ mod cli;
 mod common;
 mod convergence;
 mod demos;
+mod phase;
+
 mod pictures;
 
 mod validation;

@@ -1,0 +1,215 @@
+//! Integrating a nucleus's isolated dynamics: the Dormand–Prince 5(4) pair
+//! with step control (Dormand & Prince 1980, J. Comput. Appl. Math. 6:19;
+//! Hairer, Nørsett & Wanner, Solving ODEs I, §II.5), until the state settles
+//! on a stable fixed point or on a limit cycle.
+
+use super::fixed::FixedPoint;
+use super::system::System;
+
+/// Where a state ends up under the isolated dynamics.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Fate {
+    /// Reaches the stable fixed point with this index (into the list given).
+    Point(usize),
+    /// Settles on a limit cycle with this period, min.
+    Cycle {
+        /// Period, min.
+        period_min: f64,
+        /// Peak-to-peak amplitude of the first coordinate, a.u.
+        amplitude: f64,
+    },
+    /// Neither within the time allowed.
+    Unresolved,
+}
+
+// Butcher tableau of the pair (autonomous systems: the nodes c_i are not needed).
+const A: [[f64; 6]; 7] = [
+    [0.0; 6],
+    [1.0 / 5.0, 0.0, 0.0, 0.0, 0.0, 0.0],
+    [3.0 / 40.0, 9.0 / 40.0, 0.0, 0.0, 0.0, 0.0],
+    [44.0 / 45.0, -56.0 / 15.0, 32.0 / 9.0, 0.0, 0.0, 0.0],
+    [19372.0 / 6561.0, -25360.0 / 2187.0, 64448.0 / 6561.0, -212.0 / 729.0, 0.0, 0.0],
+    [9017.0 / 3168.0, -355.0 / 33.0, 46732.0 / 5247.0, 49.0 / 176.0, -5103.0 / 18656.0, 0.0],
+    [35.0 / 384.0, 0.0, 500.0 / 1113.0, 125.0 / 192.0, -2187.0 / 6784.0, 11.0 / 84.0],
+];
+/// 5th-order weights (= last row of A; first same as last).
+const B5: [f64; 7] = [35.0 / 384.0, 0.0, 500.0 / 1113.0, 125.0 / 192.0, -2187.0 / 6784.0, 11.0 / 84.0, 0.0];
+/// 4th-order weights of the embedded pair.
+const B4: [f64; 7] =
+    [5179.0 / 57600.0, 0.0, 7571.0 / 16695.0, 393.0 / 640.0, -92097.0 / 339200.0, 187.0 / 2100.0, 1.0 / 40.0];
+
+/// An adaptive integrator for one autonomous system.
+pub struct Integrator<'a> {
+    sys: &'a dyn System,
+    /// Relative and absolute tolerance.
+    pub tol: f64,
+    /// Largest step, min.
+    pub max_step: f64,
+    k: [Vec<f64>; 7],
+    y: Vec<f64>,
+    err: Vec<f64>,
+}
+
+impl<'a> Integrator<'a> {
+    /// A new integrator with tolerance `tol` and largest step `max_step` (min).
+    pub fn new(sys: &'a dyn System, tol: f64, max_step: f64) -> Self {
+        let n = sys.dim();
+        Integrator { sys, tol, max_step, k: std::array::from_fn(|_| vec![0.0; n]), y: vec![0.0; n], err: vec![0.0; n] }
+    }
+
+    /// Advances `x` by one accepted step from a trial step `h`; returns the step
+    /// taken and the next trial step. Negative `h` integrates backwards.
+    pub fn step(&mut self, x: &mut [f64], h: f64) -> (f64, f64) {
+        let n = x.len();
+        let mut h = h;
+        loop {
+            self.sys.rates(x, &mut self.k[0]);
+            for s in 1..7 {
+                for i in 0..n {
+                    self.y[i] = x[i] + h * (0..s).map(|j| A[s][j] * self.k[j][i]).sum::<f64>();
+                }
+                self.sys.rates(&self.y, &mut self.k[s]);
+            }
+            // 5th-order solution into `err` (reused as a buffer), error from the 4th-order difference.
+            let mut e = 0.0f64;
+            for i in 0..n {
+                let diff: f64 = h * (0..7).map(|j| (B5[j] - B4[j]) * self.k[j][i]).sum::<f64>();
+                let x5 = x[i] + h * (0..7).map(|j| B5[j] * self.k[j][i]).sum::<f64>();
+                self.err[i] = x5;
+                e = e.max(diff.abs() / (self.tol + self.tol * x[i].abs().max(x5.abs())));
+            }
+            let give_up = !e.is_finite() && h.abs() < 1e-12;
+            if e <= 1.0 || give_up {
+                // On giving up the state turns non-finite and the caller stops.
+                x.copy_from_slice(&self.err);
+                let factor = if e > 0.0 && e.is_finite() { (0.9 * e.powf(-0.2)).clamp(0.2, 5.0) } else { 5.0 };
+                return (h, (h * factor).abs().min(self.max_step) * h.signum());
+            }
+            h *= if e.is_finite() { (0.9 * e.powf(-0.2)).clamp(0.1, 0.9) } else { 0.1 };
+        }
+    }
+}
+
+/// Integrates the isolated dynamics from `x0` for at most `t_max` min and says
+/// where they end: within `radius` (max-norm) of a stable point of `points`
+/// (when the state also moves slower than `radius` per unit time), or on a
+/// limit cycle, detected from upward crossings of the first coordinate through
+/// the middle of its range over the last part of the run: three successive
+/// periods equal to 1e-3 relative give the period (crossing times linearly
+/// interpolated between steps; steps at most 1/200 of the run apart).
+pub fn fate(sys: &dyn System, x0: &[f64], points: &[FixedPoint], radius: f64, t_max: f64) -> Fate {
+    let n = sys.dim();
+    let mut x = x0.to_vec();
+    let mut rates = vec![0.0; n];
+    let mut integ = Integrator::new(sys, 1e-8, t_max / 2000.0);
+    let (mut t, mut h) = (0.0, t_max * 1e-6);
+    let near = |x: &[f64], p: &FixedPoint| x.iter().zip(&p.x).all(|(a, b)| (a - b).abs() <= radius);
+    let mut trace: Vec<(f64, f64)> = Vec::new();
+    while t < t_max {
+        let (taken, next) = integ.step(&mut x, h.min(t_max - t));
+        t += taken;
+        h = next;
+        if let Some(k) = points.iter().position(|p| p.kind.is_stable() && near(&x, p)) {
+            sys.rates(&x, &mut rates);
+            if rates.iter().all(|r| r.abs() <= radius) {
+                return Fate::Point(k);
+            }
+        }
+        if t > 0.5 * t_max {
+            trace.push((t, x[0]));
+        }
+        if !x.iter().all(|v| v.is_finite()) {
+            return Fate::Unresolved;
+        }
+    }
+    cycle_from_trace(&trace).unwrap_or(Fate::Unresolved)
+}
+
+/// Period of an oscillation from (t, x) samples: upward crossings of the
+/// midpoint of the range; needs three equal successive periods.
+pub fn cycle_from_trace(trace: &[(f64, f64)]) -> Option<Fate> {
+    let (lo, hi) = trace.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), (_, v)| (l.min(*v), h.max(*v)));
+    if !(hi - lo > 1e-9 * (1.0 + hi.abs())) {
+        return None;
+    }
+    let mid = 0.5 * (lo + hi);
+    let crossings: Vec<f64> = trace
+        .windows(2)
+        .filter(|w| w[0].1 < mid && w[1].1 >= mid)
+        .map(|w| w[0].0 + (mid - w[0].1) / (w[1].1 - w[0].1) * (w[1].0 - w[0].0))
+        .collect();
+    if crossings.len() < 4 {
+        return None;
+    }
+    let periods: Vec<f64> = crossings.windows(2).map(|w| w[1] - w[0]).collect();
+    let last = &periods[periods.len() - 3..];
+    let mean = last.iter().sum::<f64>() / 3.0;
+    last.iter().all(|p| (p - mean).abs() <= 1e-3 * mean).then_some(Fate::Cycle { period_min: mean, amplitude: hi - lo })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    struct Decay;
+    impl System for Decay {
+        fn dim(&self) -> usize {
+            1
+        }
+        fn rates(&self, u: &[f64], out: &mut [f64]) {
+            out[0] = -u[0];
+        }
+        fn jacobian(&self, _: &[f64], jac: &mut [f64]) {
+            jac[0] = -1.0;
+        }
+    }
+
+    /// Oscillator x'' = −x: x = cos t.
+    struct Spring;
+    impl System for Spring {
+        fn dim(&self) -> usize {
+            2
+        }
+        fn rates(&self, u: &[f64], out: &mut [f64]) {
+            out[0] = u[1];
+            out[1] = -u[0];
+        }
+        fn jacobian(&self, _: &[f64], jac: &mut [f64]) {
+            jac.copy_from_slice(&[0.0, 1.0, -1.0, 0.0]);
+        }
+    }
+
+    #[test]
+    fn dormand_prince_integrates_exponential_and_spring() {
+        let mut x = vec![1.0];
+        let mut integ = Integrator::new(&Decay, 1e-10, 0.5);
+        let (mut t, mut h): (f64, f64) = (0.0, 1e-3);
+        while t < 5.0 {
+            let (taken, next) = integ.step(&mut x, h.min(5.0 - t));
+            t += taken;
+            h = next;
+        }
+        assert_relative_eq!(x[0], (-5.0f64).exp(), max_relative = 1e-7);
+        let mut y = vec![1.0, 0.0];
+        let mut integ = Integrator::new(&Spring, 1e-10, 0.5);
+        let (mut t, mut h): (f64, f64) = (0.0, 1e-3);
+        while t < 10.0 {
+            let (taken, next) = integ.step(&mut y, h.min(10.0 - t));
+            t += taken;
+            h = next;
+        }
+        assert_relative_eq!(y[0], 10.0f64.cos(), epsilon = 1e-7);
+    }
+
+    #[test]
+    fn spring_is_a_cycle_of_period_two_pi() {
+        match fate(&Spring, &[1.0, 0.0], &[], 1e-6, 200.0) {
+            Fate::Cycle { period_min, amplitude } => {
+                assert_relative_eq!(period_min, 2.0 * std::f64::consts::PI, max_relative = 1e-4);
+                assert_relative_eq!(amplitude, 2.0, max_relative = 1e-3);
+            }
+            other => panic!("{other:?}"),
+        }
+    }
+}

@@ -55,9 +55,51 @@ pub enum Command {
         #[command(flatten)]
         look: Look,
     },
+    /// Phase space of every nucleus: fixed points, basins over time, commitment,
+    /// attractors along the axis (isolated nucleus: inputs frozen).
+    Basins {
+        /// Model file (simulated first) or a folder written by `anlage run`.
+        source: PathBuf,
+        /// Output folder (default: the run folder, or `<model name>_run`).
+        #[arg(short, long)]
+        out: Option<PathBuf>,
+        /// Also freeze each snapshot's diffusion influx D∇²u as a constant term.
+        #[arg(long)]
+        with_influx: bool,
+        /// Gene shown in landscape.png (default: the first).
+        #[arg(long)]
+        gene: Option<String>,
+        /// How pictures look.
+        #[command(flatten)]
+        look: Look,
+    },
+    /// Phase portrait of one nucleus in the plane of two genes.
+    Portrait {
+        /// Model file (simulated first) or a folder written by `anlage run`.
+        source: PathBuf,
+        /// Nucleus index (row-major on a sheet).
+        #[arg(long)]
+        nucleus: usize,
+        /// The two genes of the plane, e.g. amber,cobalt.
+        #[arg(long, value_delimiter = ',', num_args = 1)]
+        genes: Vec<String>,
+        /// Freeze the inputs at the snapshot nearest this time, min (default: the last).
+        #[arg(long)]
+        time: Option<f64>,
+        /// Output picture (default: portrait_n<N>_<A>_<B>.png in the run folder).
+        #[arg(short, long)]
+        out: Option<PathBuf>,
+        /// White background.
+        #[arg(long)]
+        light: bool,
+        /// Picture width, px.
+        #[arg(long)]
+        width: Option<u32>,
+    },
 }
 
 /// Picture options shared by `run` and `render`.
+
 #[derive(Debug, Args, Clone, Default)]
 pub struct Look {
     /// Genes to show, comma-separated (default: all).

@@ -46,8 +46,9 @@ pub mod reference;
 mod summary;
 pub mod tissue;
 pub use summary::stepping_text as summary_stepping_text;
+mod outputs;
+pub use outputs::{BasinReport, PictureKind, WriteError, write_basins, write_pictures, write_portrait, write_run};
 
-use std::path::{Path, PathBuf};
 use std::time::Instant;
 
 pub use integrate::{Recording, StepError, StepStats};
@@ -113,106 +114,4 @@ pub fn simulate(model: &Model, options: &RunOptions) -> Result<Run, StepError> {
         bar.finish_and_clear();
     }
     Ok(Run { recording, stats: stats?, wall_time_s: start.elapsed().as_secs_f64() })
-}
-
-/// Writes every output of a run into `dir` (created if missing) and returns
-/// the summary; each file appears whole or not at all. Pictures are drawn
-/// with `style_options` (checked before anything is written).
-///
-/// # Errors
-/// [`WriteError`] if a picture option is wrong or a file cannot be written.
-pub fn write_run(
-    model: &Model,
-    run: &Run,
-    dir: &Path,
-    style_options: &render::StyleOptions,
-) -> Result<Summary, WriteError> {
-    let style = render::Style::with_options(&run.recording, &model.title, style_options)?;
-    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
-    let rec = &run.recording;
-    let boundaries = readout::find_boundaries(rec);
-    let domains = readout::find_domains(rec);
-    let path = |name: &str| -> PathBuf { dir.join(name) };
-    export::write_profiles(rec, &path("profiles.csv"))?;
-    if rec.grid.is_sheet() {
-        export::write_sheet(rec, &path("final_sheet.csv"))?;
-    }
-    export::write_states_npy(rec, &path("states.npy"))?;
-    export::write_boundaries(&boundaries, &path("boundaries.csv"))?;
-    export::write_domains(&domains, &path("domains.csv"))?;
-    let summary = Summary::new(model, run);
-    export::write_json(&summary, &path("summary.json"))?;
-    write_pictures(rec, &boundaries, &style, dir, PictureKind::All)?;
-    Ok(summary)
-}
-
-/// Outputs that could not be written.
-#[derive(Debug, thiserror::Error)]
-pub enum WriteError {
-    /// A file could not be written.
-    #[error(transparent)]
-    Export(#[from] export::ExportError),
-    /// A picture option is wrong.
-    #[error(transparent)]
-    Style(#[from] render::StyleError),
-}
-
-/// Which pictures to draw.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
-
-pub enum PictureKind {
-    /// Every picture that fits the tissue.
-    All,
-    /// `kymograph.png` (rows only).
-    Kymograph,
-    /// `pattern.png`, the final state.
-    Pattern,
-    /// `profiles.png`.
-    Profiles,
-    /// `pattern.gif`.
-    Animation,
-}
-
-/// Draws pictures of a recording into `dir`: `kymograph.png` (rows),
-/// `pattern.png`, `profiles.png` and `pattern.gif`; returns the files written.
-///
-/// # Errors
-/// [`export::ExportError`] if a file cannot be written.
-pub fn write_pictures(
-    rec: &Recording,
-    boundaries: &[readout::Boundary],
-    style: &render::Style,
-    dir: &Path,
-    kind: PictureKind,
-) -> Result<Vec<PathBuf>, export::ExportError> {
-    let wants = |k: PictureKind| kind == PictureKind::All || kind == k;
-    let mut written = Vec::new();
-    let snaps = style.snapshots(rec);
-    let Some(&last) = snaps.last() else {
-        return Ok(written);
-    };
-    let mut png = |name: &str, canvas: render::Canvas| -> Result<(), export::ExportError> {
-        let path = dir.join(name);
-        export::write_atomic(&path, |w| w.write_all(&canvas.png()?))?;
-        written.push(path);
-        Ok(())
-    };
-    if wants(PictureKind::Kymograph) && !rec.grid.is_sheet() {
-        png("kymograph.png", render::kymograph(rec, boundaries, style).0)?;
-    }
-    if wants(PictureKind::Pattern) {
-        let max = render::gene_maxima(rec, &snaps);
-        png("pattern.png", render::pattern(rec, last, style, &max).0)?;
-    }
-    if wants(PictureKind::Profiles) {
-        let final_boundaries: Vec<readout::Boundary> =
-            boundaries.iter().filter(|b| b.time_min == rec.times[last]).cloned().collect();
-        png("profiles.png", render::profiles(rec, &final_boundaries, style))?;
-    }
-    if wants(PictureKind::Animation) {
-        let path = dir.join("pattern.gif");
-        export::write_atomic(&path, |w| render::write_gif(rec, style, w).map(|_| ()))?;
-        written.push(path);
-    }
-    Ok(written)
 }

@@ -32,6 +32,22 @@ fn default_out(model: &Path) -> PathBuf {
     model.with_file_name(format!("{stem}_run"))
 }
 
+/// A model file is simulated (quietly, with a progress bar on a terminal);
+/// a run folder is read back with the model copy it holds. Returns the model,
+/// the recording and the folder outputs go to.
+fn model_and_recording(source: &Path, out: Option<&Path>) -> anyhow::Result<(Model, anlage::Recording, PathBuf)> {
+    if source.is_dir() {
+        let model = Model::load(&source.join("model.toml"))?;
+        let saved = anlage::run_dir::load(source)?;
+        Ok((model, saved.recording, out.map_or_else(|| source.to_path_buf(), Path::to_path_buf)))
+    } else {
+        let model = Model::load(source)?;
+        let options = anlage::RunOptions { parallel: true, progress: true };
+        let run = anlage::simulate(&model, &options).with_context(|| format!("simulating {}", source.display()))?;
+        Ok((model, run.recording, out.map_or_else(|| default_out(source), Path::to_path_buf)))
+    }
+}
+
 fn run(cli: &Cli) -> anyhow::Result<()> {
     match &cli.command {
         Command::Check { model } => {
@@ -57,6 +73,68 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             if !quiet {
                 print!("{}", report::final_boundaries(&summary, &dir));
             }
+            Ok(())
+        }
+        Command::Basins { source, out, with_influx, gene, look } => {
+            let (model, rec, dir) = model_and_recording(source, out.as_deref())?;
+            let style = Style::with_options(&rec, &model.title, &look.options())?;
+            let gene = match gene {
+                Some(name) => model.gene_index(name).ok_or_else(|| StyleError::UnknownGene {
+                    option: "--gene".into(),
+                    name: name.clone(),
+                    known: rec.genes.join(", "),
+                })?,
+                None => 0,
+            };
+            let opts = anlage::phase::BasinOptions { with_influx: *with_influx, ..Default::default() };
+            let report = anlage::write_basins(&model, &rec, &opts, &style, gene, &dir)
+                .with_context(|| format!("writing basins to {}", dir.display()))?;
+            print!("{}", report::basins(&report, &rec, &dir));
+            Ok(())
+        }
+        Command::Portrait { source, nucleus, genes, time, out, light, width } => {
+            let (model, rec, dir) = model_and_recording(source, None)?;
+            let opts = anlage::render::StyleOptions { light: *light, width: *width, ..Default::default() };
+            let style = Style::with_options(&rec, &model.title, &opts)?;
+            let index = |name: &str| {
+                model.gene_index(name).ok_or_else(|| StyleError::UnknownGene {
+                    option: "--genes".into(),
+                    name: name.into(),
+                    known: rec.genes.join(", "),
+                })
+            };
+            let [a, b] = match genes.as_slice() {
+                [a, b] if a != b => [index(a)?, index(b)?],
+                _ => {
+                    return Err(StyleError::OutOfRange {
+                        option: "--genes".into(),
+                        value: genes.join(","),
+                        fix: "name two different genes, e.g. --genes amber,cobalt".into(),
+                    }
+                    .into());
+                }
+            };
+            if *nucleus >= rec.grid.len() {
+                return Err(StyleError::OutOfRange {
+                    option: "--nucleus".into(),
+                    value: nucleus.to_string(),
+                    fix: format!("give 0 to {}", rec.grid.len() - 1),
+                }
+                .into());
+            }
+            let s = match time {
+                Some(t) => (0..rec.times.len())
+                    .min_by(|&i, &j| (rec.times[i] - t).abs().total_cmp(&(rec.times[j] - t).abs()))
+                    .expect("snapshots"),
+                None => rec.times.len() - 1,
+            };
+            let path = out
+                .clone()
+                .unwrap_or_else(|| dir.join(format!("portrait_n{nucleus}_{}_{}.png", rec.genes[a], rec.genes[b])));
+            std::fs::create_dir_all(path.parent().unwrap_or(Path::new("."))).ok();
+            let data = anlage::write_portrait(&model, &rec, *nucleus, [a, b], s, &style, &path)
+                .with_context(|| format!("writing {}", path.display()))?;
+            print!("{}", report::portrait(&data, &rec, &path));
             Ok(())
         }
         Command::Render { run_dir, kind, out, look } => {

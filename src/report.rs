@@ -133,3 +133,51 @@ pub fn final_boundaries(summary: &Summary, dir: &Path) -> String {
     let _ = writeln!(s, "outputs in {}", dir.display());
     s
 }
+
+/// What `anlage basins` prints.
+pub fn basins(r: &anlage::BasinReport, rec: &anlage::Recording, dir: &Path) -> String {
+    let mut s = String::new();
+    let a = &r.analysis;
+    let last = a.times.len() - 1;
+    let _ = writeln!(
+        s,
+        "basins of {} nuclei at {} snapshots (isolated nucleus, {} frozen; model prediction)",
+        a.basins[0].len(),
+        a.times.len(),
+        a.frozen
+    );
+    for label in &a.labels {
+        let n = a.basins[last].iter().filter(|b| &b.label == label).count();
+        let _ = writeln!(s, "  {label:<16} {n:>5} nuclei at t = {} min", a.times[last]);
+    }
+    let commit = a.commitment();
+    let latest = commit.iter().map(|c| c.time_min).fold(0.0, f64::max);
+    let _ = writeln!(s, "every nucleus committed by t = {latest} min");
+    for f in r.landscape.branches.iter().flat_map(|b| &b.folds) {
+        let x = f.s / 100.0 * rec.grid.length_um();
+        let _ = writeln!(s, "  fold at {:.2} % ({x:.1} µm): attractors appear or vanish here", f.s);
+    }
+    let _ = writeln!(s, "outputs in {}", dir.display());
+    s
+}
+
+/// What `anlage portrait` prints.
+pub fn portrait(d: &anlage::phase::PortraitData, rec: &anlage::Recording, path: &Path) -> String {
+    let mut s = String::new();
+    let [a, b] = d.genes;
+    let _ = writeln!(
+        s,
+        "nucleus {}, plane {} x {}, inputs frozen at t = {} min:",
+        d.nucleus, rec.genes[a], rec.genes[b], d.t_min
+    );
+    for p in &d.points {
+        let ev: Vec<String> = p
+            .eigenvalues
+            .iter()
+            .map(|e| if e.im == 0.0 { format!("{:.4}", e.re) } else { format!("{:.4}{:+.4}i", e.re, e.im) })
+            .collect();
+        let _ = writeln!(s, "  {:<15} ({:.4}, {:.4})  eigenvalues {}", p.kind.name(), p.x[0], p.x[1], ev.join(", "));
+    }
+    let _ = writeln!(s, "wrote {}", path.display());
+    s
+}

@@ -232,3 +232,45 @@ fn brusselator_limit_cycle_period() {
         other => panic!("expected a cycle, got {other:?}"),
     }
 }
+
+/// Ribbon demo: nuclei on either side of the boundary end in different
+/// attractors (amber-on head side, cobalt-on tail side), and the continuation
+/// in position finds the fold where the row switches from one to two
+/// attractors between the two nuclei where the per-nucleus fixed points say so.
+#[test]
+fn ribbon_basins_and_fold_agree() {
+    let model = crate::common::load("patterns/ribbon.toml");
+    let rec = crate::common::run(&model).recording;
+    let analysis = phase::analyse(&model, &rec, &phase::BasinOptions::default());
+    let last = rec.times.len() - 1;
+    let b = anlage::readout::boundaries_at(&rec, last);
+    let boundary_pct = b.iter().find(|b| b.gene == "amber").unwrap().position_pct;
+    let n = rec.grid.nx;
+    for i in 0..n {
+        let pct = 100.0 * rec.grid.x_um(i) / rec.grid.length_um();
+        let label = &analysis.basins[last][i].label;
+        if pct < boundary_pct - 2.0 {
+            assert_eq!(label, "amber", "nucleus {i} at {pct:.1} %");
+        } else if pct > boundary_pct + 2.0 {
+            assert_eq!(label, "cobalt", "nucleus {i} at {pct:.1} %");
+        }
+    }
+    let commitment = analysis.commitment();
+    assert!(commitment.iter().all(|c| c.time_min <= rec.times[last]));
+
+    let hi = [12.0, 10.0];
+    let land = phase::landscape(&model, rec.times[last], &hi);
+    let stable: Vec<usize> =
+        land.per_nucleus.iter().map(|ps| ps.iter().filter(|p| p.kind.is_stable()).count()).collect();
+    let switches: Vec<usize> = (1..n).filter(|&i| stable[i] != stable[i - 1]).collect();
+    let folds: Vec<f64> = land.branches.iter().flat_map(|b| b.folds.iter().map(|f| f.s)).collect();
+    assert!(!switches.is_empty(), "stable counts {stable:?}");
+    for &i in &switches {
+        let (lo, hi) = (land.nucleus_pct[i - 1], land.nucleus_pct[i]);
+        assert!(
+            folds.iter().any(|f| *f >= lo && *f <= hi),
+            "no fold between {lo:.2} and {hi:.2} %: folds {folds:?}, counts {stable:?}"
+        );
+    }
+    eprintln!("stable counts change at {switches:?}; folds at {folds:?} %");
+}

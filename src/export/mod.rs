@@ -3,6 +3,7 @@
 //! Every file is written under a temporary name in the same folder and
 //! renamed into place when complete, so a reader never sees half a file.
 
+mod phase_tables;
 mod tables;
 
 use std::fs::File;
@@ -12,6 +13,7 @@ use std::path::{Path, PathBuf};
 use ndarray::{Array3, Axis};
 use ndarray_npy::WriteNpyExt;
 
+pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
 pub use tables::{write_boundaries, write_domains, write_profiles, write_sheet};
 
 /// An output file that could not be written.

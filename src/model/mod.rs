@@ -25,6 +25,9 @@ pub struct Model {
     pub title: String,
     /// The file the model came from (for messages).
     pub file: PathBuf,
+    /// The model file's text (copied into run folders as `model.toml`).
+    pub text: String,
+
     /// Seed for the initial noise.
     pub seed: u64,
     /// Tissue geometry.

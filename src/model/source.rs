@@ -18,7 +18,13 @@ impl<'a> Source<'a> {
         Source { file: file.to_path_buf(), text }
     }
 
+    /// The text.
+    pub fn text(&self) -> &str {
+        self.text
+    }
+
     /// The file name.
+
     pub fn file(&self) -> PathBuf {
         self.file.clone()
     }

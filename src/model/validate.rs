@@ -51,7 +51,17 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
     let title = spec.title.clone().unwrap_or_else(|| {
         src.file().file_stem().map_or_else(|| "untitled".to_string(), |s| s.to_string_lossy().into_owned())
     });
-    let model = Model { title, file: src.file(), seed: spec.seed.unwrap_or(0), grid, clock, gradients, genes, circuit };
+    let model = Model {
+        title,
+        file: src.file(),
+        text: src.text().to_string(),
+        seed: spec.seed.unwrap_or(0),
+        grid,
+        clock,
+        gradients,
+        genes,
+        circuit,
+    };
     let needed = model.working_bytes() + model.recording_bytes();
     if needed > MEMORY_BUDGET_BYTES {
         let (line, column) = src.locate(&spec.tissue.span(), "nuclei");

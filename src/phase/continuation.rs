@@ -170,6 +170,17 @@ pub fn continue_branch(
             continue;
         };
         let Some(t_new) = tr.tangent(y_new.as_slice(), &t) else { break };
+        // Guard against jumping to another branch: the corrector must stay
+        // within half a step of the predictor and the tangent turn < ~25°.
+        let jump = (&y_new - (&y + &t * ds)).norm();
+        if jump > 0.5 * ds.abs() || t.dot(&t_new) < 0.9 {
+            ds *= 0.5;
+            if ds < 1e-9 * ds_max {
+                break;
+            }
+            continue;
+        }
+
         if t[n] * t_new[n] < 0.0 {
             if let Some(f) = tr.locate_fold(&y, &t, ds) {
                 branch.folds.push(f);
@@ -177,8 +188,18 @@ pub fn continue_branch(
         }
         let s = y_new[n];
         if s < range.0 || s > range.1 {
+            // End exactly on the boundary: interpolate, then solve at fixed s.
+            let edge = if s < range.0 { range.0 } else { range.1 };
+            let f = (edge - y[n]) / (s - y[n]);
+            let guess: Vec<f64> = (0..n).map(|i| y[i] + f * (y_new[i] - y[i])).collect();
+            let at = super::system::AtParameter { family: fam, s: edge };
+            if let Some(x) = super::fixed::newton(&at, &guess, 1e-10, false) {
+                let end = DVector::from_iterator(n + 1, x.into_iter().chain([edge]));
+                branch.points.push(tr.point(&end));
+            }
             break;
         }
+
         branch.points.push(tr.point(&y_new));
         y = y_new;
         t = t_new;

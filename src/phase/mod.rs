@@ -6,12 +6,22 @@
 //! values, and optionally the diffusion influx of that moment) are frozen,
 //! so its own circuit is an autonomous system.
 
+pub mod basins;
 pub mod continuation;
 pub mod fixed;
 pub mod flow;
+pub mod landscape;
+pub mod plane;
+pub mod portrait;
+
 pub mod system;
 
+pub use basins::{BasinAnalysis, BasinOptions, Commitment, NucleusBasin, analyse};
 pub use continuation::{Branch, BranchPoint, Fold, continue_branch};
+
 pub use fixed::{FixedPoint, Kind, box_starts, find_fixed_points};
 pub use flow::{Fate, fate};
-pub use system::{AtParameter, Family, Frozen, System};
+pub use landscape::{Landscape, PositionFamily, landscape};
+pub use portrait::{PortraitData, portrait_data};
+
+pub use system::{AtParameter, Family, Frozen, Slice, System};

@@ -40,7 +40,54 @@ impl System for Frozen<'_> {
     }
 }
 
+/// A plane through a nucleus's phase space: genes `a` and `b` vary, every
+/// other gene is held at its value in `base` (a slice, for circuits of more
+/// than two genes).
+pub struct Slice<'a> {
+    /// The whole system.
+    pub full: &'a dyn System,
+    /// The point the slice passes through.
+    pub base: Vec<f64>,
+    /// First gene of the plane.
+    pub a: usize,
+    /// Second gene of the plane.
+    pub b: usize,
+}
+
+impl Slice<'_> {
+    fn lift(&self, u: &[f64]) -> Vec<f64> {
+        let mut full = self.base.clone();
+        full[self.a] = u[0];
+        full[self.b] = u[1];
+        full
+    }
+}
+
+impl System for Slice<'_> {
+    fn dim(&self) -> usize {
+        2
+    }
+    fn rates(&self, u: &[f64], out: &mut [f64]) {
+        let mut f = vec![0.0; self.full.dim()];
+        self.full.rates(&self.lift(u), &mut f);
+        out[0] = f[self.a];
+        out[1] = f[self.b];
+    }
+    fn jacobian(&self, u: &[f64], jac: &mut [f64]) {
+        let n = self.full.dim();
+        let mut j = vec![0.0; n * n];
+        self.full.jacobian(&self.lift(u), &mut j);
+        jac.copy_from_slice(&[
+            j[self.a * n + self.a],
+            j[self.a * n + self.b],
+            j[self.b * n + self.a],
+            j[self.b * n + self.b],
+        ]);
+    }
+}
+
 /// A one-parameter family F(u, s), for continuation.
+
 pub trait Family: Sync {
     /// Dimension n.
     fn dim(&self) -> usize;

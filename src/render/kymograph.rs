@@ -20,10 +20,43 @@ pub struct KymoLayout {
 /// If the style selects no snapshot.
 pub fn kymograph(rec: &Recording, boundaries: &[Boundary], style: &Style) -> (Canvas, KymoLayout) {
     let snaps = style.snapshots(rec);
-    assert!(!snaps.is_empty(), "no snapshot in the time range");
-    let (t0, t1) = (rec.times[snaps[0]], rec.times[*snaps.last().expect("non-empty")]);
+    let max = gene_maxima(rec, &snaps);
+    let colors = style.shown_colors();
+    let profiles: Vec<Vec<Vec<f64>>> =
+        snaps.iter().map(|&s| style.genes.iter().map(|&g| rec.axis_profile(s, g)).collect()).collect();
+    let length = rec.grid.length_um();
+    let times: Vec<f64> = snaps.iter().map(|&s| rec.times[s]).collect();
+    let (mut c, a) = space_time(&times, style, "time (min)", |x_frac, k| {
+        let x_um = x_frac * length;
+        style.paint(
+            &colors,
+            style.genes.iter().zip(&profiles[k]).map(|(&g, p)| level_at(p, rec.grid.spacing_um, x_um) / max[g]),
+        )
+    });
+    trace_boundaries(&mut c, &a, rec, boundaries, style, length);
+    let right = c.width() as f32 - 24.0;
+    legend(&mut c, rec, style, right, 50.0, true);
+
+    (c, KymoLayout { axes: a })
+}
+
+/// A space × time picture: position along the axis (% length) across, the
+/// given snapshot `times` down; `paint(x_fraction, k)` colours the pixel at
+/// that fraction of the axis and snapshot k. Draws axes, the title and the
+/// prediction label; the caller adds the legend (top right, baseline y = 50).
+///
+/// # Panics
+/// If `times` is empty.
+pub fn space_time(
+    times: &[f64],
+    style: &Style,
+    y_label: &str,
+    paint: impl Fn(f64, usize) -> [u8; 3] + Sync,
+) -> (Canvas, Axes) {
+    assert!(!times.is_empty(), "no snapshot in the time range");
+    let (t0, t1) = (times[0], times[times.len() - 1]);
     let bg = style.background;
-    let plot_h = (snaps.len() as f32 * 6.0).clamp(240.0, 480.0);
+    let plot_h = (times.len() as f32 * 6.0).clamp(240.0, 480.0);
     let (left, top, right, bottom) = (64.0, 64.0, 24.0, 58.0);
     let width = style.width.max(320);
     let height = (top + plot_h + bottom) as u32;
@@ -37,29 +70,18 @@ pub fn kymograph(rec: &Recording, boundaries: &[Boundary], style: &Style) -> (Ca
         y: (t0, if t1 > t0 { t1 } else { t0 + 1.0 }),
         y_down: true,
     };
-    let max = gene_maxima(rec, &snaps);
-    let colors = style.shown_colors();
-    let profiles: Vec<Vec<Vec<f64>>> =
-        snaps.iter().map(|&s| style.genes.iter().map(|&g| rec.axis_profile(s, g)).collect()).collect();
-    let length = rec.grid.length_um();
     let (pw, ph) = (a.width.round() as u32, a.height.round() as u32);
     for row in 0..ph {
         let t = a.y.0 + (row as f64 + 0.5) / ph as f64 * (a.y.1 - a.y.0);
-        let k = nearest(&snaps.iter().map(|&s| rec.times[s]).collect::<Vec<_>>(), t);
+        let k = nearest(times, t);
         for col in 0..pw {
-            let x_um = (col as f64 + 0.5) / pw as f64 * length;
-            let levels =
-                style.genes.iter().zip(&profiles[k]).map(|(&g, p)| level_at(p, rec.grid.spacing_um, x_um) / max[g]);
-            let rgb = style.paint(&colors, levels);
-            c.put(left as u32 + col, top as u32 + row, rgb);
+            c.put(left as u32 + col, top as u32 + row, paint((col as f64 + 0.5) / pw as f64, k));
         }
     }
-    trace_boundaries(&mut c, &a, rec, boundaries, style, length);
-    axes::draw(&mut c, &a, "position along the axis (% length)", "time (min)", bg);
+    axes::draw(&mut c, &a, "position along the axis (% length)", y_label, bg);
     c.text(left, 26.0, 16.0, bg.ink(), Align::Left, &style.title);
     c.text(width as f32 - right, 26.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
-    legend(&mut c, rec, style, width as f32 - right, 50.0, true);
-    (c, KymoLayout { axes: a })
+    (c, a)
 }
 
 fn nearest(times: &[f64], t: f64) -> usize {

@@ -11,15 +11,21 @@ pub mod colour;
 mod kymograph;
 mod options;
 mod pattern;
+mod phase;
+mod portrait;
 mod profiles;
 
 pub use animate::write_gif;
 pub use canvas::{Align, Canvas};
 pub use colour::Background;
-pub use kymograph::{KymoLayout, kymograph};
+pub use kymograph::{KymoLayout, kymograph, space_time};
+
 pub use options::{StyleError, StyleOptions};
 
 pub use pattern::{PatternLayout, pattern};
+pub use phase::{basin_kymograph, label_color, landscape_picture};
+pub use portrait::{PortraitData, portrait};
+
 pub use profiles::{chosen_snapshots, profiles};
 
 use crate::integrate::Recording;

@@ -1,6 +1,6 @@
 //! Gradient shapes and time courses.
 
-use crate::model::{Grid, Shape, Side};
+use crate::model::{Gradient, Grid, Shape, Side};
 
 /// Distance of nucleus `(ix, iy)` from a gradient's source, µm.
 ///
@@ -8,8 +8,11 @@ use crate::model::{Grid, Shape, Side};
 /// cell centres, so the first nucleus is h/2 from the edge). Centre: distance
 /// from the middle of the axis (row) or radial distance from the sheet's centre.
 pub fn distance_um(grid: &Grid, side: Side, ix: usize, iy: usize) -> f64 {
-    let x = grid.x_um(ix);
-    let y = grid.y_um(iy);
+    distance_at(grid, side, grid.x_um(ix), grid.y_um(iy))
+}
+
+/// Distance of the point (x, y) µm from a gradient's source, µm (see [`distance_um`]).
+pub fn distance_at(grid: &Grid, side: Side, x: f64, y: f64) -> f64 {
     match side {
         Side::Left => x,
         Side::Right => grid.length_um() - x,
@@ -20,6 +23,13 @@ pub fn distance_um(grid: &Grid, side: Side, ix: usize, iy: usize) -> f64 {
             if grid.is_sheet() { dx.hypot(y - grid.height_um() / 2.0) } else { dx.abs() }
         }
     }
+}
+
+/// Value of gradient `g` at the point (x, y) µm at time `t_min`:
+/// `a(t)·(baseline + (peak − baseline)·s(d))`, a.u.
+pub fn value_at(g: &Gradient, grid: &Grid, x: f64, y: f64, t_min: f64) -> f64 {
+    let d = distance_at(grid, g.from, x, y);
+    amplitude_at(&g.amplitude, t_min) * (g.baseline + (g.peak - g.baseline) * unit_shape(g.shape, d))
 }
 
 /// Unit shape s(d), 1 at the source:

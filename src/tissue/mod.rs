@@ -3,8 +3,9 @@
 mod diffusion;
 mod gradient;
 
-pub use diffusion::{Diffusion, SpectralSolver, TriFactor};
-pub use gradient::{amplitude_at, distance_um, unit_shape};
+pub use diffusion::{Diffusion, SpectralSolver, TriFactor, laplacian};
+
+pub use gradient::{amplitude_at, distance_at, distance_um, unit_shape, value_at};
 
 use ndarray::Array2;
 

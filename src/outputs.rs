@@ -1,0 +1,180 @@
+//! Writing a run's outputs into its folder: tables, states, summary and
+//! pictures; and the phase-space outputs of `anlage basins` and `portrait`.
+
+use std::path::{Path, PathBuf};
+
+use crate::model::Model;
+use crate::phase::{BasinAnalysis, BasinOptions, Landscape};
+use crate::{Recording, Run, Summary, export, readout, render};
+
+/// Writes every output of a run into `dir` (created if missing) and returns
+/// the summary; each file appears whole or not at all. Pictures are drawn
+/// with `style_options` (checked before anything is written).
+///
+/// # Errors
+/// [`WriteError`] if a picture option is wrong or a file cannot be written.
+pub fn write_run(
+    model: &Model,
+    run: &Run,
+    dir: &Path,
+    style_options: &render::StyleOptions,
+) -> Result<Summary, WriteError> {
+    let style = render::Style::with_options(&run.recording, &model.title, style_options)?;
+    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
+    let rec = &run.recording;
+    let boundaries = readout::find_boundaries(rec);
+    let domains = readout::find_domains(rec);
+    let path = |name: &str| -> PathBuf { dir.join(name) };
+    export::write_profiles(rec, &path("profiles.csv"))?;
+    if rec.grid.is_sheet() {
+        export::write_sheet(rec, &path("final_sheet.csv"))?;
+    }
+    export::write_states_npy(rec, &path("states.npy"))?;
+    export::write_boundaries(&boundaries, &path("boundaries.csv"))?;
+    export::write_domains(&domains, &path("domains.csv"))?;
+    let summary = Summary::new(model, run);
+    export::write_json(&summary, &path("summary.json"))?;
+    export::write_atomic(&path("model.toml"), |w| w.write_all(model.text.as_bytes()))?;
+
+    write_pictures(rec, &boundaries, &style, dir, PictureKind::All)?;
+    Ok(summary)
+}
+
+/// Outputs that could not be written.
+#[derive(Debug, thiserror::Error)]
+pub enum WriteError {
+    /// A file could not be written.
+    #[error(transparent)]
+    Export(#[from] export::ExportError),
+    /// A picture option is wrong.
+    #[error(transparent)]
+    Style(#[from] render::StyleError),
+}
+
+/// Which pictures to draw.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+
+pub enum PictureKind {
+    /// Every picture that fits the tissue.
+    All,
+    /// `kymograph.png` (rows only).
+    Kymograph,
+    /// `pattern.png`, the final state.
+    Pattern,
+    /// `profiles.png`.
+    Profiles,
+    /// `pattern.gif`.
+    Animation,
+}
+
+/// Draws pictures of a recording into `dir`: `kymograph.png` (rows),
+/// `pattern.png`, `profiles.png` and `pattern.gif`; returns the files written.
+///
+/// # Errors
+/// [`export::ExportError`] if a file cannot be written.
+pub fn write_pictures(
+    rec: &Recording,
+    boundaries: &[readout::Boundary],
+    style: &render::Style,
+    dir: &Path,
+    kind: PictureKind,
+) -> Result<Vec<PathBuf>, export::ExportError> {
+    let wants = |k: PictureKind| kind == PictureKind::All || kind == k;
+    let mut written = Vec::new();
+    let snaps = style.snapshots(rec);
+    let Some(&last) = snaps.last() else {
+        return Ok(written);
+    };
+    let mut png = |name: &str, canvas: render::Canvas| -> Result<(), export::ExportError> {
+        let path = dir.join(name);
+        export::write_atomic(&path, |w| w.write_all(&canvas.png()?))?;
+        written.push(path);
+        Ok(())
+    };
+    if wants(PictureKind::Kymograph) && !rec.grid.is_sheet() {
+        png("kymograph.png", render::kymograph(rec, boundaries, style).0)?;
+    }
+    if wants(PictureKind::Pattern) {
+        let max = render::gene_maxima(rec, &snaps);
+        png("pattern.png", render::pattern(rec, last, style, &max).0)?;
+    }
+    if wants(PictureKind::Profiles) {
+        let final_boundaries: Vec<readout::Boundary> =
+            boundaries.iter().filter(|b| b.time_min == rec.times[last]).cloned().collect();
+        png("profiles.png", render::profiles(rec, &final_boundaries, style))?;
+    }
+    if wants(PictureKind::Animation) {
+        let path = dir.join("pattern.gif");
+        export::write_atomic(&path, |w| render::write_gif(rec, style, w).map(|_| ()))?;
+        written.push(path);
+    }
+    Ok(written)
+}
+
+/// What `anlage basins` found.
+#[derive(Debug, Clone)]
+pub struct BasinReport {
+    /// The per-nucleus analysis.
+    pub analysis: BasinAnalysis,
+    /// Attractors along the axis at the last snapshot.
+    pub landscape: Landscape,
+    /// Files written.
+    pub files: Vec<PathBuf>,
+}
+
+/// Analyses the basins of every nucleus of a run and writes `attractors.csv`,
+/// `basins.csv`, `commitment.csv`, `landscape.csv`, `basins.png` and
+/// `landscape.png` (for gene `gene`) into `dir`.
+///
+/// # Errors
+/// [`WriteError`] if a file cannot be written.
+pub fn write_basins(
+    model: &Model,
+    rec: &Recording,
+    opts: &BasinOptions,
+    style: &render::Style,
+    gene: usize,
+    dir: &Path,
+) -> Result<BasinReport, WriteError> {
+    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
+    let analysis = crate::phase::analyse(model, rec, opts);
+    let last = rec.times.len() - 1;
+    let hi: Vec<f64> = (0..rec.genes.len())
+        .map(|g| 1.2 * rec.states.iter().map(|s| s.row(g).iter().copied().fold(0.0, f64::max)).fold(1e-3, f64::max))
+        .collect();
+    let landscape = crate::phase::landscape(model, rec.times[last], &hi);
+    let path = |name: &str| dir.join(name);
+    export::write_attractors(rec, &analysis, &path("attractors.csv"))?;
+    export::write_basins(rec, &analysis, &path("basins.csv"))?;
+    export::write_commitment(rec, &analysis, &path("commitment.csv"))?;
+    export::write_landscape(&rec.genes, &landscape, &path("landscape.csv"))?;
+    let kymo = render::basin_kymograph(rec, &analysis, style);
+    export::write_atomic(&path("basins.png"), |w| w.write_all(&kymo.png()?))?;
+    let land = render::landscape_picture(rec, &landscape, gene, style);
+    export::write_atomic(&path("landscape.png"), |w| w.write_all(&land.png()?))?;
+    let files = ["attractors.csv", "basins.csv", "commitment.csv", "landscape.csv", "basins.png", "landscape.png"]
+        .iter()
+        .map(|n| path(n))
+        .collect();
+    Ok(BasinReport { analysis, landscape, files })
+}
+
+/// Draws the phase portrait of `nucleus` in the plane of genes `a`, `b` at
+/// snapshot `s` into `path`.
+///
+/// # Errors
+/// [`WriteError`] if the file cannot be written.
+pub fn write_portrait(
+    model: &Model,
+    rec: &Recording,
+    nucleus: usize,
+    genes: [usize; 2],
+    s: usize,
+    style: &render::Style,
+    path: &Path,
+) -> Result<crate::phase::PortraitData, WriteError> {
+    let data = crate::phase::portrait_data(model, rec, nucleus, genes[0], genes[1], s);
+    let canvas = render::portrait(rec, &data, style);
+    export::write_atomic(path, |w| w.write_all(&canvas.png()?))?;
+    Ok(data)
+}

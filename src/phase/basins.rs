@@ -1,0 +1,217 @@
+//! Basins of every nucleus over time: with its inputs frozen at each snapshot,
+//! which attractors a nucleus has, which one its state flows to, and from when
+//! on that no longer changes (its commitment time).
+
+use std::collections::HashMap;
+use std::sync::Arc;
+
+use rayon::prelude::*;
+
+use super::fixed::{FixedPoint, box_starts, find_fixed_points};
+use super::flow::{Fate, fate};
+use super::system::Frozen;
+use crate::integrate::Recording;
+use crate::model::Model;
+use crate::tissue::{Tissue, laplacian};
+
+/// Options of the basin analysis.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BasinOptions {
+    /// Freeze the diffusion influx D∇²u of each snapshot as a constant term too.
+    pub with_influx: bool,
+    /// Quasi-random Newton starts added to the grid of starts in each nucleus.
+    pub extra_starts: usize,
+}
+
+impl Default for BasinOptions {
+    fn default() -> Self {
+        BasinOptions { with_influx: false, extra_starts: 30 }
+    }
+}
+
+/// The fate of one nucleus at one snapshot.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NucleusBasin {
+    /// Fixed points of the isolated nucleus (shared between nuclei and times with equal inputs).
+    pub points: Arc<Vec<FixedPoint>>,
+    /// Where its state flows.
+    pub fate: Fate,
+    /// Attractor label (see [`BasinAnalysis::labels`]).
+    pub label: String,
+    /// Distance (Euclidean, a.u.) from its state to the fixed point it flows to; 0 for cycles.
+    pub distance: f64,
+}
+
+/// Basins of every nucleus at every snapshot.
+#[derive(Debug, Clone)]
+pub struct BasinAnalysis {
+    /// Snapshot times at which inputs were frozen, min.
+    pub times: Vec<f64>,
+    /// `basins[s][i]`: nucleus i at snapshot s.
+    pub basins: Vec<Vec<NucleusBasin>>,
+    /// What was frozen: "gradients" or "gradients+influx".
+    pub frozen: &'static str,
+    /// Level above which a gene counts as "on" in an attractor's label, per gene:
+    /// half its largest level over all stable fixed points found.
+    pub on_level: Vec<f64>,
+    /// Every label used, in first-seen order.
+    pub labels: Vec<String>,
+}
+
+/// One nucleus's commitment: the earliest snapshot time after which its
+/// attractor label no longer changes.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Commitment {
+    /// Nucleus index.
+    pub nucleus: usize,
+    /// Final attractor label.
+    pub label: String,
+    /// Commitment time, min.
+    pub time_min: f64,
+}
+
+/// Names an attractor by the genes that are on in it (joined by "+"), or "low".
+pub fn point_label(p: &FixedPoint, genes: &[String], on_level: &[f64]) -> String {
+    let on: Vec<&str> =
+        genes.iter().zip(&p.x).zip(on_level).filter(|((_, v), l)| **v > **l).map(|((g, _), _)| g.as_str()).collect();
+    if on.is_empty() { "low".into() } else { on.join("+") }
+}
+
+fn key(inputs: &[f64], influx: &[f64]) -> Vec<u64> {
+    inputs.iter().chain(influx).map(|v| v.to_bits()).collect()
+}
+
+/// Analyses every nucleus at every snapshot of a run of `model`.
+pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnalysis {
+    let kinetics = crate::kinetics::build(model);
+    let tissue = Tissue::new(model);
+    let (n_genes, n) = (rec.genes.len(), rec.grid.len());
+    // Box of starting points: 1.2 × the larger of the recorded maximum and p/d.
+    let hi: Vec<f64> = (0..n_genes)
+        .map(|g| {
+            let seen = rec.states.iter().map(|s| s.row(g).iter().copied().fold(0.0, f64::max)).fold(0.0, f64::max);
+            let gene = &model.genes[g];
+            let cap = if gene.decay > 0.0 { gene.production / gene.decay } else { 0.0 };
+            (1.2 * seen.max(cap)).max(1e-3)
+        })
+        .collect();
+    let scale = hi.iter().copied().fold(0.0, f64::max);
+    let tol = 1e-10 * model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
+    let slowest = model.genes.iter().map(|g| g.decay).filter(|d| *d > 0.0).fold(f64::INFINITY, f64::min);
+    let horizon = if slowest.is_finite() { 60.0 / slowest } else { 60.0 * model.clock.until_min };
+
+    // Frozen inputs of every (snapshot, nucleus).
+    let frozen: Vec<Vec<(Vec<f64>, Vec<f64>)>> = rec
+        .times
+        .iter()
+        .enumerate()
+        .map(|(s, &t)| {
+            let m = tissue.inputs_at(t);
+            let influx: Vec<Vec<f64>> = (0..n_genes)
+                .map(|g| {
+                    let mut lap = vec![0.0; n];
+                    if opts.with_influx {
+                        laplacian(&rec.grid, rec.states[s].row(g).as_slice().expect("contiguous"), &mut lap);
+                        lap.iter_mut().for_each(|v| *v *= model.genes[g].diffusion);
+                    }
+                    lap
+                })
+                .collect();
+            (0..n).map(|i| (m.column(i).to_vec(), influx.iter().map(|q| q[i]).collect())).collect()
+        })
+        .collect();
+
+    // Fixed points once per distinct frozen input, started from the box and from
+    // every state a nucleus with those inputs had.
+    let mut groups: HashMap<Vec<u64>, Vec<(usize, usize)>> = HashMap::new();
+    let mut order: Vec<Vec<u64>> = Vec::new();
+    for (s, row) in frozen.iter().enumerate() {
+        for (i, (m, q)) in row.iter().enumerate() {
+            let k = key(m, q);
+            groups.entry(k.clone()).or_insert_with(|| {
+                order.push(k.clone());
+                Vec::new()
+            });
+            groups.get_mut(&k).expect("inserted").push((s, i));
+        }
+    }
+    let base = box_starts(&hi, opts.extra_starts);
+    let solved: Vec<Arc<Vec<FixedPoint>>> = order
+        .par_iter()
+        .map(|k| {
+            let members = &groups[k];
+            let (s0, i0) = members[0];
+            let (m, q) = &frozen[s0][i0];
+            let sys = Frozen { kinetics: kinetics.as_ref(), inputs: m.clone(), influx: q.clone() };
+            let mut starts = base.clone();
+            starts.extend(members.iter().map(|&(s, i)| rec.states[s].column(i).to_vec()));
+            Arc::new(find_fixed_points(&sys, &starts, tol, true))
+        })
+        .collect();
+    let points_of: HashMap<&Vec<u64>, Arc<Vec<FixedPoint>>> = order.iter().zip(solved).collect();
+
+    let on_level: Vec<f64> = (0..n_genes)
+        .map(|g| {
+            0.5 * points_of
+                .values()
+                .flat_map(|ps| ps.iter().filter(|p| p.kind.is_stable()).map(move |p| p.x[g]))
+                .fold(0.0, f64::max)
+        })
+        .collect();
+
+    let basins: Vec<Vec<NucleusBasin>> = frozen
+        .par_iter()
+        .enumerate()
+        .map(|(s, row)| {
+            row.iter()
+                .enumerate()
+                .map(|(i, (m, q))| {
+                    let points = points_of[&key(m, q)].clone();
+                    let sys = Frozen { kinetics: kinetics.as_ref(), inputs: m.clone(), influx: q.clone() };
+                    let state = rec.states[s].column(i).to_vec();
+                    let f = fate(&sys, &state, &points, 1e-4 * scale, horizon);
+                    let (label, distance) = match &f {
+                        Fate::Point(k) => {
+                            let p = &points[*k];
+                            let d = state.iter().zip(&p.x).map(|(a, b)| (a - b) * (a - b)).sum::<f64>().sqrt();
+                            (point_label(p, &rec.genes, &on_level), d)
+                        }
+                        Fate::Cycle { .. } => ("cycle".to_string(), 0.0),
+                        Fate::Unresolved => ("unresolved".to_string(), f64::NAN),
+                    };
+                    NucleusBasin { points, fate: f, label, distance }
+                })
+                .collect()
+        })
+        .collect();
+    let mut labels: Vec<String> = Vec::new();
+    for b in basins.iter().flatten() {
+        if !labels.contains(&b.label) {
+            labels.push(b.label.clone());
+        }
+    }
+    BasinAnalysis {
+        times: rec.times.clone(),
+        basins,
+        frozen: if opts.with_influx { "gradients+influx" } else { "gradients" },
+        on_level,
+        labels,
+    }
+}
+
+impl BasinAnalysis {
+    /// Commitment of every nucleus.
+    pub fn commitment(&self) -> Vec<Commitment> {
+        let n = self.basins.first().map_or(0, Vec::len);
+        (0..n)
+            .map(|i| {
+                let last = &self.basins[self.times.len() - 1][i].label;
+                let mut s = self.times.len() - 1;
+                while s > 0 && &self.basins[s - 1][i].label == last {
+                    s -= 1;
+                }
+                Commitment { nucleus: i, label: last.clone(), time_min: self.times[s] }
+            })
+            .collect()
+    }
+}

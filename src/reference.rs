@@ -76,6 +76,15 @@ pub fn peer_p1(n: usize, steps: usize) -> String {
     s
 }
 
+/// [`peer_p1`] recording `snapshots` evenly spaced snapshots after the start.
+pub fn peer_p1_recorded(n: usize, steps: usize, snapshots: usize) -> String {
+    let until = 0.01 * steps as f64;
+    peer_p1(n, steps).replace(
+        &format!("snapshot_every_min = {until:?}"),
+        &format!("snapshot_every_min = {:?}", until / snapshots as f64),
+    )
+}
+
 /// A sheet of `n × n` nuclei (5 µm apart) running the ribbon's toggle switch
 /// with fixed step 0.1 min for `steps` steps: the 2D benchmark.
 pub fn toggle_sheet(n: usize, steps: usize) -> String {

@@ -142,3 +142,56 @@ fn blow_up_exits_1_with_time_nucleus_and_gene() {
     let err = String::from_utf8_lossy(&o.stderr);
     assert!(err.contains("blew up at t =") && err.contains("gene `fuel`") && err.contains("nucleus 0"), "{err}");
 }
+
+/// `anlage basins` on a run folder writes its tables and pictures; every table
+/// row says what was frozen; the landscape lists the fold.
+#[test]
+fn basins_and_portrait_from_a_run_folder() {
+    let out = temp_dir("basins");
+    run_into("patterns/ribbon.toml", &out, 2);
+    assert!(out.join("model.toml").is_file(), "runs keep a copy of their model");
+    let o = anlage(&["basins", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.contains("isolated nucleus") && text.contains("fold at 78.6"), "{text}");
+    let basins = std::fs::read_to_string(out.join("basins.csv")).unwrap();
+    assert!(basins.starts_with("frozen_at_min,frozen_inputs,nucleus,x_um,x_pct,attractor,fate,distance,period_min\n"));
+    assert_eq!(basins.lines().count(), 1 + 61 * 100);
+    assert!(basins.lines().skip(1).all(|l| l.split(',').nth(1) == Some("gradients")));
+    let commitment = std::fs::read_to_string(out.join("commitment.csv")).unwrap();
+    assert_eq!(commitment.lines().count(), 101);
+    let landscape = std::fs::read_to_string(out.join("landscape.csv")).unwrap();
+    assert_eq!(landscape.lines().filter(|l| l.contains(",fold,")).count(), 1);
+    for name in ["attractors.csv", "basins.png", "landscape.png"] {
+        assert!(out.join(name).is_file(), "{name}");
+    }
+    let pic = out.join("p.png");
+    let o = anlage(&[
+        "portrait",
+        out.to_str().unwrap(),
+        "--nucleus",
+        "40",
+        "--genes",
+        "amber,cobalt",
+        "--time",
+        "8",
+        "-o",
+        pic.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert_eq!(text.matches("stable node").count(), 2, "{text}");
+    assert_eq!(text.matches("saddle").count(), 1, "{text}");
+    assert!(image::open(&pic).is_ok());
+    for bad in
+        [vec!["--genes", "amber,plum"], vec!["--genes", "amber"], vec!["--nucleus", "100", "--genes", "amber,cobalt"]]
+    {
+        let mut args = vec!["portrait", out.to_str().unwrap()];
+        if !bad.contains(&"--nucleus") {
+            args.extend(["--nucleus", "3"]);
+        }
+        args.extend(bad.iter().copied());
+        let o = anlage(&args);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {}", String::from_utf8_lossy(&o.stderr));
+    }
+}

@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # Regenerates output-samples/ from patterns/: pictures and the small tables.
 # Run from the repository root: bash output-samples/make.sh
-# (The large per-snapshot files, profiles.csv and states.npy, are left out to
+# (The large per-snapshot files — profiles.csv, states.npy, attractors.csv and
+# basins.csv — are left out to
 # keep the folder small; `anlage run` writes them.)
 set -euo pipefail
 cargo build --release --quiet
@@ -12,6 +13,8 @@ for model in patterns/*.toml; do
   rm -rf "$out"
   "$bin" run "$model" -q -o "$out" --width 560
   if [ "$name" = ribbon ]; then
+    "$bin" basins "$out" --width 560 > /dev/null
+    "$bin" portrait "$out" --nucleus 40 --genes amber,cobalt --time 8 --width 560 > /dev/null
     # The ribbon on white, as for a printed figure.
     "$bin" render "$out" --kind kymograph --light --width 560 -o output-samples/ribbon-light > /dev/null
   fi
@@ -19,7 +22,7 @@ for model in patterns/*.toml; do
     # One gene as a heat map.
     "$bin" render "$out" --kind kymograph --genes teal --heatmap --width 560 -o output-samples/band-teal-heatmap > /dev/null
   fi
-  rm -f "$out/states.npy" "$out/profiles.csv" "$out/final_sheet.csv"
+  rm -f "$out/states.npy" "$out/profiles.csv" "$out/final_sheet.csv" "$out/attractors.csv" "$out/basins.csv"
 
 done
 du -sh output-samples

@@ -95,11 +95,13 @@ pub enum Command {
         /// Picture width, px.
         #[arg(long)]
         width: Option<u32>,
+        /// Also animate all nuclei moving over the portrait (`<name>_cloud.gif`).
+        #[arg(long)]
+        cloud: bool,
     },
 }
 
 /// Picture options shared by `run` and `render`.
-
 #[derive(Debug, Args, Clone, Default)]
 pub struct Look {
     /// Genes to show, comma-separated (default: all).

@@ -92,7 +92,7 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             print!("{}", report::basins(&report, &rec, &dir));
             Ok(())
         }
-        Command::Portrait { source, nucleus, genes, time, out, light, width } => {
+        Command::Portrait { source, nucleus, genes, time, out, light, width, cloud } => {
             let (model, rec, dir) = model_and_recording(source, None)?;
             let opts = anlage::render::StyleOptions { light: *light, width: *width, ..Default::default() };
             let style = Style::with_options(&rec, &model.title, &opts)?;
@@ -132,7 +132,7 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
                 .clone()
                 .unwrap_or_else(|| dir.join(format!("portrait_n{nucleus}_{}_{}.png", rec.genes[a], rec.genes[b])));
             std::fs::create_dir_all(path.parent().unwrap_or(Path::new("."))).ok();
-            let data = anlage::write_portrait(&model, &rec, *nucleus, [a, b], s, &style, &path)
+            let data = anlage::write_portrait(&model, &rec, *nucleus, [a, b], s, &style, &path, *cloud)
                 .with_context(|| format!("writing {}", path.display()))?;
             print!("{}", report::portrait(&data, &rec, &path));
             Ok(())

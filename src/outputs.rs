@@ -160,7 +160,8 @@ pub fn write_basins(
 }
 
 /// Draws the phase portrait of `nucleus` in the plane of genes `a`, `b` at
-/// snapshot `s` into `path`.
+/// snapshot `s` into `path`; with `cloud`, also the animation of all nuclei
+/// over it, beside it as `<path stem>_cloud.gif`.
 ///
 /// # Errors
 /// [`WriteError`] if the file cannot be written.
@@ -172,9 +173,15 @@ pub fn write_portrait(
     s: usize,
     style: &render::Style,
     path: &Path,
+    cloud: bool,
 ) -> Result<crate::phase::PortraitData, WriteError> {
     let data = crate::phase::portrait_data(model, rec, nucleus, genes[0], genes[1], s);
     let canvas = render::portrait(rec, &data, style);
     export::write_atomic(path, |w| w.write_all(&canvas.png()?))?;
+    if cloud {
+        let stem = path.file_stem().map_or_else(|| "portrait".into(), |s| s.to_string_lossy().into_owned());
+        let gif = path.with_file_name(format!("{stem}_cloud.gif"));
+        export::write_atomic(&gif, |w| render::write_cloud_gif(rec, &data, style, w).map(|_| ()))?;
+    }
     Ok(data)
 }

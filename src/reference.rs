@@ -110,7 +110,6 @@ pub fn toggle_sheet_movie(n: usize, frames: usize) -> String {
 }
 
 /// Sum of every value of a state: the peer's checksum.
-
 pub fn checksum(state: &ndarray::Array2<f64>) -> f64 {
     state.iter().sum()
 }

@@ -24,7 +24,6 @@ impl<'a> Source<'a> {
     }
 
     /// The file name.
-
     pub fn file(&self) -> PathBuf {
         self.file.clone()
     }

@@ -87,7 +87,6 @@ impl System for Slice<'_> {
 }
 
 /// A one-parameter family F(u, s), for continuation.
-
 pub trait Family: Sync {
     /// Dimension n.
     fn dim(&self) -> usize;

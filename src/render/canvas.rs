@@ -68,6 +68,14 @@ impl Canvas {
         [d[i], d[i + 1], d[i + 2]]
     }
 
+    /// Copies every pixel of `other` (same size).
+    ///
+    /// # Panics
+    /// If the sizes differ.
+    pub fn copy_from(&mut self, other: &Canvas) {
+        self.pix.data_mut().copy_from_slice(other.pix.data());
+    }
+
     /// Fills an axis-aligned rectangle.
     pub fn rect(&mut self, x: f32, y: f32, w: f32, h: f32, c: [u8; 3]) {
         if let Some(r) = Rect::from_xywh(x, y, w, h) {

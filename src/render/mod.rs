@@ -24,7 +24,7 @@ pub use options::{StyleError, StyleOptions};
 
 pub use pattern::{PatternLayout, pattern};
 pub use phase::{basin_kymograph, label_color, landscape_picture};
-pub use portrait::{PortraitData, portrait};
+pub use portrait::{PortraitData, portrait, write_cloud_gif};
 
 pub use profiles::{chosen_snapshots, profiles};
 

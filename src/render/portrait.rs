@@ -22,8 +22,68 @@ fn inside(a: &Axes, d: &PortraitData, curve: &[Vec<f64>]) -> Vec<(f32, f32)> {
 }
 
 /// Draws a portrait; the picture is square-ish, `style.width` wide.
-
 pub fn portrait(rec: &Recording, d: &PortraitData, style: &Style) -> Canvas {
+    portrait_with_axes(rec, d, style, true).0
+}
+
+/// The "cloud": one frame per snapshot, every nucleus (the midline row of a
+/// sheet) a dot at its levels of the two genes, coloured by its position
+/// along the axis (head dark blue → tail yellow), over the portrait of `d`'s
+/// nucleus. Frames drawn and quantised in parallel; the GIF loops.
+///
+/// # Errors
+/// An I/O error if the GIF cannot be written.
+pub fn write_cloud_gif(
+    rec: &Recording,
+    d: &PortraitData,
+    style: &Style,
+    out: &mut dyn std::io::Write,
+) -> std::io::Result<usize> {
+    use rayon::prelude::*;
+    let (base, a) = portrait_with_axes(rec, d, style, false);
+    let nx = rec.grid.nx;
+    let row0 = rec.midline_rows().start * nx;
+    let [ga, gb] = d.genes;
+    let delay = (100.0 / style.fps.max(1) as f64).round().max(2.0) as u16;
+    let frames: Vec<gif::Frame<'static>> = (0..rec.times.len())
+        .into_par_iter()
+        .map(|s| {
+            let mut c = Canvas::new(base.width(), base.height(), style.background.rgb());
+            c.copy_from(&base);
+            for ix in 0..nx {
+                let i = row0 + ix;
+                let (x, y) = (a.px(rec.states[s][[ga, i]]), a.py(rec.states[s][[gb, i]]));
+                let color = super::colour::sequential(ix as f64 / (nx.max(2) - 1) as f64);
+                c.ellipse(x, y, 3.5, 3.5, 1.0, style.background.rgb(), Some(color));
+            }
+            let w = c.width() as f32;
+            c.rect(w - 230.0, 52.0, 200.0, 24.0, style.background.rgb());
+            c.text(
+                w - 30.0,
+                70.0,
+                16.0,
+                style.background.ink(),
+                Align::Right,
+                &format!("all nuclei, t = {} min", time_text(rec.times[s])),
+            );
+            let mut rgba = c.rgba().to_vec();
+            let mut f = gif::Frame::from_rgba_speed(c.width() as u16, c.height() as u16, &mut rgba, 10);
+            f.delay = delay;
+            f
+        })
+        .collect();
+    let mut enc =
+        gif::Encoder::new(out, base.width() as u16, base.height() as u16, &[]).map_err(std::io::Error::other)?;
+    enc.set_repeat(gif::Repeat::Infinite).map_err(std::io::Error::other)?;
+    for f in &frames {
+        enc.write_frame(f).map_err(std::io::Error::other)?;
+    }
+    Ok(frames.len())
+}
+
+/// Draws the portrait and returns its plot axes; `trajectories` draws the
+/// chosen nucleus's recorded and isolated trajectories.
+fn portrait_with_axes(rec: &Recording, d: &PortraitData, style: &Style, trajectories: bool) -> (Canvas, Axes) {
     let bg = style.background;
     let width = style.width.max(420);
     let (left, top, right, bottom) = (70.0, 84.0, 30.0, 96.0);
@@ -62,11 +122,13 @@ pub fn portrait(rec: &Recording, d: &PortraitData, style: &Style) -> Canvas {
     for sep in &d.separatrices {
         c.polyline(&inside(&a, d, sep), 2.0, bg.ink(), 150, Some([8.0, 4.0]));
     }
-    c.polyline(&inside(&a, d, &d.isolated), 1.8, bg.ink(), 255, Some([3.0, 3.0]));
-    let rec_pts: Vec<(f32, f32)> = d.recorded.iter().map(|(_, p)| (a.px(p[0]), a.py(p[1]))).collect();
-    c.polyline(&rec_pts, 2.0, bg.ink(), 255, None);
-    for p in &rec_pts {
-        c.ellipse(p.0, p.1, 2.0, 2.0, 0.0, bg.ink(), Some(bg.ink()));
+    if trajectories {
+        c.polyline(&inside(&a, d, &d.isolated), 1.8, bg.ink(), 255, Some([3.0, 3.0]));
+        let rec_pts: Vec<(f32, f32)> = d.recorded.iter().map(|(_, p)| (a.px(p[0]), a.py(p[1]))).collect();
+        c.polyline(&rec_pts, 2.0, bg.ink(), 255, None);
+        for p in &rec_pts {
+            c.ellipse(p.0, p.1, 2.0, 2.0, 0.0, bg.ink(), Some(bg.ink()));
+        }
     }
     for p in &d.points {
         let (x, y) = (a.px(p.x[0]), a.py(p.x[1]));
@@ -101,22 +163,19 @@ pub fn portrait(rec: &Recording, d: &PortraitData, style: &Style) -> Canvas {
     c.text(width as f32 - right, 26.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
     let y0 = top + side + 52.0;
     let muted = bg.muted();
-    c.text(
-        left,
-        y0,
-        12.0,
-        muted,
-        Align::Left,
-        "solid line, dots: trajectory as it happened (coupled, one dot per snapshot)",
-    );
-    c.text(
-        left,
-        y0 + 16.0,
-        12.0,
-        muted,
-        Align::Left,
-        "dotted: isolated trajectory from the frozen time; long dashes: separatrix",
-    );
+    let lines = if trajectories {
+        [
+            "solid line, dots: trajectory as it happened (coupled, one dot per snapshot)",
+            "dotted: isolated trajectory from the frozen time; long dashes: separatrix",
+        ]
+    } else {
+        [
+            "dots: every nucleus as it happened (coupled), coloured head (dark) to tail (light)",
+            "long dashes: separatrix of the chosen nucleus at the frozen time",
+        ]
+    };
+    c.text(left, y0, 12.0, muted, Align::Left, lines[0]);
+    c.text(left, y0 + 16.0, 12.0, muted, Align::Left, lines[1]);
     c.text(
         left,
         y0 + 32.0,
@@ -125,5 +184,5 @@ pub fn portrait(rec: &Recording, d: &PortraitData, style: &Style) -> Canvas {
         Align::Left,
         "filled: stable; open circle: unstable; open square: saddle; coloured: nullclines",
     );
-    c
+    (c, a)
 }

@@ -41,6 +41,7 @@ pub mod phase;
 pub mod readout;
 pub mod render;
 pub mod run_dir;
+pub mod screen;
 
 pub mod reference;
 mod summary;

@@ -8,5 +8,6 @@ mod demos;
 mod phase;
 
 mod pictures;
+mod screen;
 
 mod validation;

@@ -8,7 +8,7 @@ use ndarray::Array2;
 use rand::{RngExt, SeedableRng};
 
 pub use recording::Recording;
-pub use stepper::Stepper;
+pub use stepper::{Forcing, Stepper};
 
 use crate::kinetics::Kinetics;
 use crate::model::{Initial, Model, Stepping};
@@ -99,6 +99,26 @@ pub fn initial_state(model: &Model) -> Array2<f64> {
     u
 }
 
+/// The clamps and ectopic sources a (mutant) model asks for.
+pub fn forcing(model: &Model) -> Forcing {
+    let source = (!model.ectopic.is_empty()).then(|| {
+        let grid = model.grid;
+        let mut s = Array2::zeros((model.genes.len(), grid.len()));
+        for e in &model.ectopic {
+            for iy in 0..grid.ny {
+                for ix in 0..grid.nx {
+                    let x = grid.x_um(ix);
+                    if x >= e.from_um && x <= e.to_um {
+                        s[[e.gene, iy * grid.nx + ix]] += e.rate;
+                    }
+                }
+            }
+        }
+        s
+    });
+    Forcing { clamps: model.clamps.clone(), source }
+}
+
 /// Integrates a model from its initial state to `clock.until_min`, calling
 /// `snapshot(t, state)` at t = 0 and at every snapshot time.
 ///
@@ -113,7 +133,7 @@ pub fn integrate(
 ) -> Result<StepStats, StepError> {
     let names = model.genes.iter().map(|g| g.name.clone()).collect();
     let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
-    let mut stepper = Stepper::new(kinetics, tissue, &d, names, initial_state(model), 0.0, parallel)?;
+    let mut stepper = Stepper::new(kinetics, tissue, &d, names, initial_state(model), 0.0, parallel, forcing(model))?;
     snapshot(0.0, stepper.state());
     let times = model.clock.snapshot_times();
     let mut stats = StepStats::default();

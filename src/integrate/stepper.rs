@@ -45,6 +45,19 @@ pub struct Stepper<'a> {
     k1: f64,
     /// t(u1) − t(u2), min.
     k2: f64,
+    /// Genes held at a level.
+    clamps: Vec<Option<f64>>,
+    /// Extra production per gene and nucleus (ectopic expression), a.u./min.
+    source: Option<Array2<f64>>,
+}
+
+/// Changes to the plain reaction–diffusion system made by mutants.
+#[derive(Debug, Clone, Default)]
+pub struct Forcing {
+    /// Genes held at a level (their rates are zero and their level is reset after each step).
+    pub clamps: Vec<Option<f64>>,
+    /// Extra production [gene, nucleus], a.u./min, added to the rates.
+    pub source: Option<Array2<f64>>,
 }
 
 impl<'a> Stepper<'a> {
@@ -60,6 +73,7 @@ impl<'a> Stepper<'a> {
         u0: Array2<f64>,
         t0: f64,
         parallel: bool,
+        forcing: Forcing,
     ) -> Result<Stepper<'a>, StepError> {
         let dim = u0.dim();
         let parallel = parallel && dim.0 * dim.1 >= PARALLEL_MIN;
@@ -80,7 +94,10 @@ impl<'a> Stepper<'a> {
             history: 1,
             k1: 0.0,
             k2: 0.0,
+            clamps: forcing.clamps,
+            source: forcing.source,
         };
+        s.apply_clamps_to_state();
         s.evaluate_rates()?;
         Ok(s)
     }
@@ -131,6 +148,20 @@ impl<'a> Stepper<'a> {
             (1.0 + 2.0 * w, k * (1.0 + w))
         };
         self.diffusion.solve(&mut self.trial, a0, coef, self.parallel);
+        for (g, c) in self.clamps.iter().enumerate() {
+            if let Some(level) = c {
+                self.trial.row_mut(g).fill(*level);
+            }
+        }
+    }
+
+    fn apply_clamps_to_state(&mut self) {
+        for (g, c) in self.clamps.iter().enumerate() {
+            if let Some(level) = c {
+                self.u.row_mut(g).fill(*level);
+                self.f.row_mut(g).fill(0.0);
+            }
+        }
     }
 
     /// Weighted max-norm of the local error of the trial step of size `k`:
@@ -224,6 +255,14 @@ impl<'a> Stepper<'a> {
         } else {
             outs.zip(us.zip(ms)).enumerate().filter_map(chunk).min()
         };
+        if let Some(src) = &self.source {
+            self.f += src;
+        }
+        for (g, c) in self.clamps.iter().enumerate() {
+            if c.is_some() {
+                self.f.row_mut(g).fill(0.0);
+            }
+        }
         match first_bad {
             None => Ok(()),
             Some(c) => Err(self.locate_bad(c * CHUNK)),

@@ -5,6 +5,7 @@
 //! right sign, and the clock fits the snapshots.
 
 mod error;
+mod mutant;
 mod source;
 pub mod spec;
 mod validate;
@@ -12,6 +13,7 @@ mod validate;
 use std::path::{Path, PathBuf};
 
 pub use error::ModelError;
+pub use mutant::{Ectopic, Edit, GeneParam, GradientParam, LinkParam, Mutant, Param};
 pub use source::Source;
 pub use validate::{PALETTE, parse_color};
 
@@ -40,6 +42,12 @@ pub struct Model {
     pub genes: Vec<Gene>,
     /// Regulatory circuit.
     pub circuit: Circuit,
+    /// Mutants declared in the file.
+    pub mutants: Vec<Mutant>,
+    /// Genes held at a level (by a mutant), per gene.
+    pub clamps: Vec<Option<f64>>,
+    /// Ectopic expression (by a mutant).
+    pub ectopic: Vec<Ectopic>,
 }
 
 impl Model {

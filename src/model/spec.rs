@@ -27,6 +27,50 @@ pub struct ModelSpec {
     pub gene: Vec<Spanned<GeneSpec>>,
     /// Regulatory links and the rate law that reads them.
     pub circuit: Option<Spanned<CircuitSpec>>,
+    /// Mutants: named sets of changes to the wild type.
+    #[serde(default)]
+    pub mutant: Vec<Spanned<MutantSpec>>,
+}
+
+/// `[[mutant]]` (also the syntax of `--mutant` on the command line).
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct MutantSpec {
+    /// Name shown in tables.
+    pub name: String,
+    /// Genes with no production.
+    #[serde(default)]
+    pub knock_out: Vec<String>,
+    /// Links to remove, written `"from -> to"`.
+    #[serde(default)]
+    pub remove_link: Vec<String>,
+    /// Parameters to multiply: `"gene.production" = 0.5`, `"gradient.peak" = 2`,
+    /// `"from->to.threshold" = 1.5`.
+    #[serde(default)]
+    pub scale: std::collections::BTreeMap<String, f64>,
+    /// Genes held at a level, a.u.
+    #[serde(default)]
+    pub clamp: std::collections::BTreeMap<String, f64>,
+    /// Extra production of a gene in a region of the axis.
+    #[serde(default)]
+    pub ectopic: Vec<EctopicSpec>,
+    /// Gradients whose source moves to another side: `head = "right"`.
+    #[serde(default)]
+    pub source: std::collections::BTreeMap<String, String>,
+}
+
+/// Ectopic expression: `{ gene = "amber", from_pct = 60, to_pct = 80, rate = 1.0 }`.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct EctopicSpec {
+    /// Gene.
+    pub gene: String,
+    /// Start of the region, % of axis length.
+    pub from_pct: f64,
+    /// End of the region, % of axis length.
+    pub to_pct: f64,
+    /// Extra production, a.u./min.
+    pub rate: f64,
 }
 
 /// `[tissue]`

@@ -51,7 +51,8 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
     let title = spec.title.clone().unwrap_or_else(|| {
         src.file().file_stem().map_or_else(|| "untitled".to_string(), |s| s.to_string_lossy().into_owned())
     });
-    let model = Model {
+    let n_genes = genes.len();
+    let mut model = Model {
         title,
         file: src.file(),
         text: src.text().to_string(),
@@ -61,7 +62,28 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
         gradients,
         genes,
         circuit,
+        mutants: Vec::new(),
+        clamps: vec![None; n_genes],
+        ectopic: Vec::new(),
     };
+    let mut seen_mutants: HashMap<String, usize> = HashMap::new();
+    for m in &spec.mutant {
+        let (line, column) = src.locate(&m.span(), "name");
+        if let Some(first_line) = seen_mutants.get(&m.get_ref().name) {
+            return Err(ModelError::Duplicate {
+                file: src.file(),
+                line,
+                column,
+                kind: "mutant".into(),
+                name: m.get_ref().name.clone(),
+                first_kind: "mutant".into(),
+                first_line: *first_line,
+            });
+        }
+        seen_mutants.insert(m.get_ref().name.clone(), line);
+        let checked = super::mutant::check_mutant(&model, m.get_ref(), &m.span(), src)?;
+        model.mutants.push(checked);
+    }
     let needed = model.working_bytes() + model.recording_bytes();
     if needed > MEMORY_BUDGET_BYTES {
         let (line, column) = src.locate(&spec.tissue.span(), "nuclei");

@@ -14,6 +14,8 @@ for model in patterns/*.toml; do
   "$bin" run "$model" -q -o "$out" --width 560
   if [ "$name" = ribbon ]; then
     "$bin" basins "$out" --width 560 > /dev/null
+    "$bin" screen "$model" --knockouts --dosage --width 560 -o "$out/screen" > /dev/null
+    "$bin" sensitivity "$model" --width 560 -o "$out/screen" > /dev/null
     "$bin" portrait "$out" --nucleus 40 --genes amber,cobalt --time 8 --width 560 > /dev/null
     # The ribbon on white, as for a printed figure.
     "$bin" render "$out" --kind kymograph --light --width 560 -o output-samples/ribbon-light > /dev/null

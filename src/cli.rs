@@ -55,6 +55,48 @@ pub enum Command {
         #[command(flatten)]
         look: Look,
     },
+    /// Predict where boundaries move: the wild type and every mutant (model
+    /// file, --mutant, generated families), in parallel.
+    Screen {
+        /// Model file (TOML).
+        model: PathBuf,
+        /// Extra mutant, as a TOML inline table, e.g.
+        /// '{ name = "het", scale = { "amber.production" = 0.5 } }' (repeatable).
+        #[arg(long = "mutant")]
+        mutants: Vec<String>,
+        /// Add every single knock-out.
+        #[arg(long)]
+        knockouts: bool,
+        /// Add every single link removal.
+        #[arg(long)]
+        link_removals: bool,
+        /// Add a dosage series of each gradient's peak (x0.25, x0.5, x2, x4).
+        #[arg(long)]
+        dosage: bool,
+        /// Also animate the wild type beside this mutant (its name).
+        #[arg(long)]
+        animate: Option<String>,
+        /// Output folder (default: `<model name>_screen` next to the model file).
+        #[arg(short, long)]
+        out: Option<PathBuf>,
+        /// How pictures look.
+        #[command(flatten)]
+        look: Look,
+    },
+    /// Which parameter moves which boundary: d position / d ln parameter for all.
+    Sensitivity {
+        /// Model file (TOML).
+        model: PathBuf,
+        /// Step in ln(parameter) for the central differences (default 0.01).
+        #[arg(long, default_value_t = anlage::screen::SENSITIVITY_STEP)]
+        step: f64,
+        /// Output folder (default: `<model name>_screen` next to the model file).
+        #[arg(short, long)]
+        out: Option<PathBuf>,
+        /// How pictures look.
+        #[command(flatten)]
+        look: Look,
+    },
     /// Phase space of every nucleus: fixed points, basins over time, commitment,
     /// attractors along the axis (isolated nucleus: inputs frozen).
     Basins {

@@ -49,6 +49,7 @@ pub mod tissue;
 pub use summary::stepping_text as summary_stepping_text;
 mod outputs;
 pub use outputs::{BasinReport, PictureKind, WriteError, write_basins, write_pictures, write_portrait, write_run};
+pub use outputs::{write_screen, write_sensitivity};
 
 use std::time::Instant;
 

@@ -28,8 +28,21 @@ fn main() -> ExitCode {
 }
 
 fn default_out(model: &Path) -> PathBuf {
+    sibling(model, "run")
+}
+
+/// `<model stem>_<what>` next to the model file.
+fn sibling(model: &Path, what: &str) -> PathBuf {
     let stem = model.file_stem().map_or_else(|| "model".into(), |s| s.to_string_lossy().into_owned());
-    model.with_file_name(format!("{stem}_run"))
+    model.with_file_name(format!("{stem}_{what}"))
+}
+
+/// A recording with the model's genes and snapshot times but no states, to
+/// check picture options before anything is simulated.
+fn planned_recording(model: &Model) -> anlage::Recording {
+    let mut planned = anlage::Recording::for_model(model);
+    planned.times = model.clock.snapshot_times();
+    planned
 }
 
 /// A model file is simulated (quietly, with a progress bar on a terminal);
@@ -62,9 +75,7 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             let model = Model::load(path)?;
             let style_options = look.options();
             // Check the picture options before a long run, against the snapshot times to come.
-            let mut planned = anlage::Recording::for_model(&model);
-            planned.times = model.clock.snapshot_times();
-            Style::with_options(&planned, &model.title, &style_options)?;
+            Style::with_options(&planned_recording(&model), &model.title, &style_options)?;
             let options = anlage::RunOptions { parallel: true, progress: !quiet };
             let run = anlage::simulate(&model, &options).with_context(|| format!("simulating {}", path.display()))?;
             let dir = out.clone().unwrap_or_else(|| default_out(path));
@@ -135,6 +146,60 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             let data = anlage::write_portrait(&model, &rec, *nucleus, [a, b], s, &style, &path, *cloud)
                 .with_context(|| format!("writing {}", path.display()))?;
             print!("{}", report::portrait(&data, &rec, &path));
+            Ok(())
+        }
+        Command::Screen { model: path, mutants, knockouts, link_removals, dosage, animate, out, look } => {
+            let model = Model::load(path)?;
+            let mut list = model.mutants.clone();
+            for text in mutants {
+                list.push(model.parse_mutant(text)?);
+            }
+            list.extend(anlage::screen::families(&model, *knockouts, *link_removals, *dosage));
+            if list.is_empty() {
+                anyhow::bail!(StyleError::OutOfRange {
+                    option: "mutants".into(),
+                    value: "none".into(),
+                    fix:
+                        "declare [[mutant]] tables, give --mutant, or ask for --knockouts, --link-removals or --dosage"
+                            .into(),
+                });
+            }
+            let chosen = match animate {
+                Some(name) => {
+                    Some(list.iter().find(|m| &m.name == name).cloned().ok_or_else(|| StyleError::OutOfRange {
+                        option: "--animate".into(),
+                        value: name.clone(),
+                        fix: format!(
+                            "name one of the mutants: {}",
+                            list.iter().map(|m| m.name.as_str()).collect::<Vec<_>>().join(", ")
+                        ),
+                    })?)
+                }
+                None => None,
+            };
+            let planned = planned_recording(&model);
+            let style = Style::with_options(&planned, &model.title, &look.options())?;
+            let dir = out.clone().unwrap_or_else(|| sibling(path, "screen"));
+            let screen = anlage::write_screen(&model, &list, &style, &dir, chosen.as_ref(), true)
+                .with_context(|| format!("screening {}", path.display()))?;
+            print!("{}", report::screen(&screen, &dir));
+            Ok(())
+        }
+        Command::Sensitivity { model: path, step, out, look } => {
+            let model = Model::load(path)?;
+            if !(step.is_finite() && *step > 0.0 && *step < 1.0) {
+                anyhow::bail!(StyleError::OutOfRange {
+                    option: "--step".into(),
+                    value: step.to_string(),
+                    fix: "give a step in ln(parameter) between 0 and 1, e.g. 0.01".into(),
+                });
+            }
+            let planned = planned_recording(&model);
+            let style = Style::with_options(&planned, &model.title, &look.options())?;
+            let dir = out.clone().unwrap_or_else(|| sibling(path, "screen"));
+            let rows = anlage::write_sensitivity(&model, *step, &style, &dir, true)
+                .with_context(|| format!("sensitivity of {}", path.display()))?;
+            print!("{}", report::sensitivity(&rows, &dir));
             Ok(())
         }
         Command::Render { run_dir, kind, out, look } => {

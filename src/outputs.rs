@@ -49,6 +49,9 @@ pub enum WriteError {
     /// A picture option is wrong.
     #[error(transparent)]
     Style(#[from] render::StyleError),
+    /// A simulation failed.
+    #[error(transparent)]
+    Step(#[from] crate::StepError),
 }
 
 /// Which pictures to draw.
@@ -184,4 +187,61 @@ pub fn write_portrait(
         export::write_atomic(&gif, |w| render::write_cloud_gif(rec, &data, style, w).map(|_| ()))?;
     }
     Ok(data)
+}
+
+/// Runs a screen of `mutants` and writes `shifts.csv` and `shifts.png` into
+/// `dir`; with `animate`, also `pair_<mutant>.gif` (wild type above, that
+/// mutant below, both simulated in full).
+///
+/// # Errors
+/// [`WriteError`] if the wild type fails or a file cannot be written.
+pub fn write_screen(
+    model: &Model,
+    mutants: &[crate::model::Mutant],
+    style: &render::Style,
+    dir: &Path,
+    animate: Option<&crate::model::Mutant>,
+    parallel: bool,
+) -> Result<crate::screen::Screen, WriteError> {
+    let screen = crate::screen::run_screen(model, mutants, parallel)?;
+    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
+    export::write_shifts(&screen, &dir.join("shifts.csv"))?;
+    let genes: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
+    let chart = render::shift_chart(&screen, &genes, style);
+    export::write_atomic(&dir.join("shifts.png"), |w| w.write_all(&chart.png()?))?;
+    if let Some(m) = animate {
+        let quiet = crate::RunOptions { parallel, progress: false };
+        let wt = crate::simulate(model, &quiet)?.recording;
+        let mutant_model = model.with_mutant(m);
+        let mt = crate::simulate(&mutant_model, &quiet)?.recording;
+        let mut wt_style = style.clone();
+        wt_style.title = format!("{}: wild type", style.title);
+        let mut mt_style = style.clone();
+        mt_style.title = format!("{}: {}", style.title, m.name);
+        let safe: String =
+            m.name.chars().map(|c| if c.is_alphanumeric() || c == '-' || c == '_' { c } else { '_' }).collect();
+        export::write_atomic(&dir.join(format!("pair_{safe}.gif")), |w| {
+            render::write_pair_gif(&wt, &mt, &wt_style, &mt_style, w).map(|_| ())
+        })?;
+    }
+    Ok(screen)
+}
+
+/// Computes boundary sensitivities and writes `sensitivity.csv` and `sensitivity.png`.
+///
+/// # Errors
+/// [`WriteError`] if the wild type fails or a file cannot be written.
+pub fn write_sensitivity(
+    model: &Model,
+    step_ln: f64,
+    style: &render::Style,
+    dir: &Path,
+    parallel: bool,
+) -> Result<Vec<crate::screen::SensitivityRow>, WriteError> {
+    let rows = crate::screen::sensitivity(model, step_ln, parallel)?;
+    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
+    export::write_sensitivity(&rows, &dir.join("sensitivity.csv"))?;
+    let map = render::sensitivity_map(&rows, style);
+    export::write_atomic(&dir.join("sensitivity.png"), |w| w.write_all(&map.png()?))?;
+    Ok(rows)
 }

@@ -181,3 +181,58 @@ pub fn portrait(d: &anlage::phase::PortraitData, rec: &anlage::Recording, path: 
     let _ = writeln!(s, "wrote {}", path.display());
     s
 }
+
+/// What `anlage screen` prints: the moved, lost and gained boundaries (up to 40 rows).
+pub fn screen(s: &anlage::screen::Screen, dir: &Path) -> String {
+    let mut out = String::new();
+    let rows: Vec<&anlage::screen::Shift> = s.shifts.iter().flatten().collect();
+    let _ = writeln!(out, "{} mutants screened (model predictions)", s.mutants.len());
+    let _ = writeln!(
+        out,
+        "  {:<28} {:<10} {:<8} {:>8} {:>8} {:>8}  status",
+        "mutant", "gene", "dir", "wt %", "mut %", "shift"
+    );
+    let pct = |v: Option<f64>| v.map_or_else(|| "-".to_string(), |x| format!("{x:.2}"));
+    for r in rows.iter().take(40) {
+        let _ = writeln!(
+            out,
+            "  {:<28} {:<10} {:<8} {:>8} {:>8} {:>8}  {}",
+            r.mutant,
+            r.gene,
+            r.direction,
+            pct(r.wild_type_pct),
+            pct(r.mutant_pct),
+            pct(r.shift_pct),
+            r.status
+        );
+    }
+    if rows.len() > 40 {
+        let _ = writeln!(out, "  ... {} more rows in shifts.csv", rows.len() - 40);
+    }
+    let _ = writeln!(out, "outputs in {}", dir.display());
+    out
+}
+
+/// What `anlage sensitivity` prints: the largest sensitivities.
+pub fn sensitivity(rows: &[anlage::screen::SensitivityRow], dir: &Path) -> String {
+    let mut out = String::new();
+    let mut sorted: Vec<&anlage::screen::SensitivityRow> = rows.iter().filter(|r| r.d_pct_per_ln.is_some()).collect();
+    sorted.sort_by(|a, b| b.d_pct_per_ln.unwrap_or(0.0).abs().total_cmp(&a.d_pct_per_ln.unwrap_or(0.0).abs()));
+    let step = rows.first().map_or(0.0, |r| r.step_ln);
+    let _ =
+        writeln!(out, "boundary sensitivities, d position / d ln parameter (step {step} in ln p; model predictions):");
+    for r in sorted.iter().take(12) {
+        let _ = writeln!(
+            out,
+            "  {:<30} {:<10} {:<8} at {:>6.2} %: {:>+8.3} % length ({:>+8.2} µm) per unit ln p",
+            r.parameter,
+            r.gene,
+            r.direction,
+            r.position_pct,
+            r.d_pct_per_ln.unwrap_or(f64::NAN),
+            r.d_um_per_ln.unwrap_or(f64::NAN)
+        );
+    }
+    let _ = writeln!(out, "all {} rows in {}", rows.len(), dir.join("sensitivity.csv").display());
+    out
+}

@@ -40,6 +40,7 @@ struct SummaryIn {
     grid: GridInfo,
     colors: Vec<String>,
     snapshot_times_min: Vec<f64>,
+    expression_floor: Vec<f64>,
 }
 
 /// A run read back from its folder.
@@ -75,8 +76,8 @@ pub fn load(dir: &Path) -> Result<SavedRun, RunDirError> {
         .iter()
         .map(|c| crate::model::parse_color(c).ok_or_else(|| bad(&summary_path, format!("colour `{c}` is not #rrggbb"))))
         .collect::<Result<Vec<_>, _>>()?;
-    if colors.len() != s.genes.len() {
-        return Err(bad(&summary_path, "one colour per gene expected".into()));
+    if colors.len() != s.genes.len() || s.expression_floor.len() != s.genes.len() {
+        return Err(bad(&summary_path, "one colour and one expression floor per gene expected".into()));
     }
     let npy_path = dir.join("states.npy");
     let file = File::open(&npy_path).map_err(|source| RunDirError::Read { path: npy_path.clone(), source })?;
@@ -95,6 +96,13 @@ pub fn load(dir: &Path) -> Result<SavedRun, RunDirError> {
         .map_err(|e| bad(&npy_path, e.to_string()))?;
     Ok(SavedRun {
         title: s.title,
-        recording: Recording { grid, genes: s.genes, colors, times: s.snapshot_times_min, states },
+        recording: Recording {
+            grid,
+            genes: s.genes,
+            colors,
+            times: s.snapshot_times_min,
+            states,
+            floor: s.expression_floor,
+        },
     })
 }

@@ -195,3 +195,43 @@ fn basins_and_portrait_from_a_run_folder() {
         assert_eq!(o.status.code(), Some(2), "{args:?}: {}", String::from_utf8_lossy(&o.stderr));
     }
 }
+
+/// `anlage screen` runs the declared and generated mutants and writes its
+/// table and chart; `anlage sensitivity` its table and heat map; bad mutants exit 2.
+#[test]
+fn screen_and_sensitivity_write_their_outputs() {
+    let out = temp_dir("screen");
+    let model = root().join("patterns/ribbon.toml");
+    let m = model.to_str().unwrap();
+    let o = anlage(&[
+        "screen",
+        m,
+        "--knockouts",
+        "--mutant",
+        r#"{ name = "no feedback", remove_link = ["amber -> cobalt"] }"#,
+        "--animate",
+        "head x2",
+        "-o",
+        out.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.contains("7 mutants screened (model predictions)"), "{text}");
+    let shifts = std::fs::read_to_string(out.join("shifts.csv")).unwrap();
+    assert!(shifts.starts_with(
+        "mutant,gene,direction,wild_type_um,wild_type_pct,mutant_um,mutant_pct,shift_um,shift_pct,status\n"
+    ));
+    assert!(shifts.lines().any(|l| l.starts_with("ko:amber,amber,falling,") && l.ends_with(",lost")), "{shifts}");
+    assert!(shifts.lines().any(|l| l.starts_with("no feedback,")), "{shifts}");
+    for name in ["shifts.png", "pair_head_x2.gif"] {
+        assert!(out.join(name).is_file(), "{name}");
+    }
+    let o = anlage(&["sensitivity", m, "-o", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let sens = std::fs::read_to_string(out.join("sensitivity.csv")).unwrap();
+    assert_eq!(sens.lines().count(), 1 + 14 * 2, "14 parameters x 2 boundaries");
+    assert!(out.join("sensitivity.png").is_file());
+    let o = anlage(&["screen", m, "--mutant", r#"{ name = "x", knock_out = ["plum"] }"#]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("unknown gene `plum`"));
+}

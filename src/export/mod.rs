@@ -4,6 +4,7 @@
 //! renamed into place when complete, so a reader never sees half a file.
 
 mod phase_tables;
+mod screen_tables;
 mod tables;
 
 use std::fs::File;
@@ -14,6 +15,7 @@ use ndarray::{Array3, Axis};
 use ndarray_npy::WriteNpyExt;
 
 pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
+pub use screen_tables::{write_sensitivity, write_shifts};
 pub use tables::{write_boundaries, write_domains, write_profiles, write_sheet};
 
 /// An output file that could not be written.

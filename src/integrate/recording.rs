@@ -17,7 +17,15 @@ pub struct Recording {
     pub times: Vec<f64>,
     /// State at each snapshot, [gene, nucleus], a.u.
     pub states: Vec<Array2<f64>>,
+    /// Per gene, the level below which the gene counts as not expressed
+    /// (no boundaries or domains are read), a.u.: [`EXPRESSION_FLOOR`] × its
+    /// capacity p/d; 0 where there is no capacity (no decay).
+    pub floor: Vec<f64>,
 }
+
+/// Fraction of a gene's capacity p/d (its steady level at full production)
+/// below which it counts as not expressed (common practice, no source).
+pub const EXPRESSION_FLOOR: f64 = 0.05;
 
 impl Recording {
     /// An empty recording for a model's genes and grid.
@@ -28,6 +36,11 @@ impl Recording {
             colors: model.genes.iter().map(|g| g.color).collect(),
             times: Vec::with_capacity(model.snapshot_count()),
             states: Vec::with_capacity(model.snapshot_count()),
+            floor: model
+                .genes
+                .iter()
+                .map(|g| if g.decay > 0.0 { EXPRESSION_FLOOR * g.production / g.decay } else { 0.0 })
+                .collect(),
         }
     }
 

@@ -69,6 +69,9 @@ fn per_gene<F, T>(
     let mut out = Vec::new();
     for (g, name) in rec.genes.iter().enumerate() {
         let profile = rec.axis_profile(s, g);
+        if profile.iter().copied().fold(f64::NEG_INFINITY, f64::max) < rec.floor.get(g).copied().unwrap_or(0.0) {
+            continue; // not expressed
+        }
         for found in read(&profile, grid.spacing_um, periodic) {
             out.push(make(rec.times[s], name, found, grid.length_um()));
         }
@@ -111,4 +114,28 @@ pub fn find_boundaries(rec: &Recording) -> Vec<Boundary> {
 /// Domains at every snapshot, in time order.
 pub fn find_domains(rec: &Recording) -> Vec<Domain> {
     (0..rec.times.len()).flat_map(|s| domains_at(rec, s)).collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::{Edges, Grid};
+
+    #[test]
+    fn a_gene_below_its_expression_floor_has_no_boundaries() {
+        let grid = Grid { nx: 4, ny: 1, spacing_um: 1.0, edges: Edges::Sealed };
+        let state = ndarray::array![[0.0, 0.01, 0.02, 0.03], [0.0, 1.0, 2.0, 3.0]];
+        let rec = Recording {
+            grid,
+            genes: vec!["faint".into(), "bright".into()],
+            colors: vec![[0, 0, 0]; 2],
+            times: vec![0.0],
+            states: vec![state],
+            floor: vec![0.25, 0.25],
+        };
+        let b = boundaries_at(&rec, 0);
+        assert_eq!(b.len(), 1);
+        assert_eq!(b[0].gene, "bright");
+        assert!(domains_at(&rec, 0).iter().all(|d| d.gene == "bright"));
+    }
 }

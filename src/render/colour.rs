@@ -91,6 +91,17 @@ pub fn sequential(t: f64) -> [u8; 3] {
     oklab_to_srgb(l, chroma * hue.cos(), chroma * hue.sin())
 }
 
+/// A diverging map for signed values, t ∈ [−1, 1]: blue for negative, orange
+/// for positive, light grey at zero; lightness falls symmetrically with |t| in
+/// Oklab, so equal magnitudes look equally strong. Our own map.
+pub fn diverging(t: f64) -> [u8; 3] {
+    let t = t.clamp(-1.0, 1.0);
+    let l = 0.93 - 0.33 * t.abs();
+    let hue: f64 = if t < 0.0 { 255.0 } else { 55.0 };
+    let chroma = 0.17 * t.abs();
+    oklab_to_srgb(l, chroma * hue.to_radians().cos(), chroma * hue.to_radians().sin())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -110,6 +121,15 @@ mod tests {
             assert!(y > last, "step {k}");
             last = y;
         }
+    }
+
+    #[test]
+    fn diverging_map_is_symmetric_in_lightness() {
+        let luma = |c: [u8; 3]| 0.2126 * c[0] as f64 + 0.7152 * c[1] as f64 + 0.0722 * c[2] as f64;
+        assert!((luma(diverging(0.6)) - luma(diverging(-0.6))).abs() < 25.0);
+        assert!(luma(diverging(0.0)) > luma(diverging(1.0)) && luma(diverging(0.0)) > luma(diverging(-1.0)));
+        let (neg, pos) = (diverging(-1.0), diverging(1.0));
+        assert!(neg[2] > neg[0] && pos[0] > pos[2], "blue below zero, orange above");
     }
 
     #[test]

@@ -14,11 +14,13 @@ mod pattern;
 mod phase;
 mod portrait;
 mod profiles;
+mod screen;
 
-pub use animate::write_gif;
+pub use animate::{write_gif, write_pair_gif};
 pub use canvas::{Align, Canvas};
 pub use colour::Background;
 pub use kymograph::{KymoLayout, kymograph, space_time};
+pub use screen::{sensitivity_map, shift_chart};
 
 pub use options::{StyleError, StyleOptions};
 

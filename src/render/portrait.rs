@@ -72,13 +72,7 @@ pub fn write_cloud_gif(
             f
         })
         .collect();
-    let mut enc =
-        gif::Encoder::new(out, base.width() as u16, base.height() as u16, &[]).map_err(std::io::Error::other)?;
-    enc.set_repeat(gif::Repeat::Infinite).map_err(std::io::Error::other)?;
-    for f in &frames {
-        enc.write_frame(f).map_err(std::io::Error::other)?;
-    }
-    Ok(frames.len())
+    super::animate::write_frames(frames, out)
 }
 
 /// Draws the portrait and returns its plot axes; `trajectories` draws the

@@ -1,0 +1,69 @@
+//! Tables of mutant screens and sensitivities (model predictions).
+
+use std::path::Path;
+
+use super::{ExportError, write_atomic};
+use crate::screen::{Screen, SensitivityRow};
+
+fn opt(v: Option<f64>) -> String {
+    v.map_or_else(String::new, |x| x.to_string())
+}
+
+/// `shifts.csv`: `mutant, gene, direction, wild_type_um, wild_type_pct,
+/// mutant_um, mutant_pct, shift_um, shift_pct, status` (moved, lost, gained, failed: …).
+///
+/// # Errors
+/// [`ExportError`] if the file cannot be written.
+pub fn write_shifts(s: &Screen, path: &Path) -> Result<(), ExportError> {
+    write_atomic(path, |w| {
+        writeln!(w, "mutant,gene,direction,wild_type_um,wild_type_pct,mutant_um,mutant_pct,shift_um,shift_pct,status")?;
+        for r in s.shifts.iter().flatten() {
+            writeln!(
+                w,
+                "{},{},{},{},{},{},{},{},{},{}",
+                quote(&r.mutant),
+                r.gene,
+                r.direction,
+                opt(r.wild_type_um),
+                opt(r.wild_type_pct),
+                opt(r.mutant_um),
+                opt(r.mutant_pct),
+                opt(r.shift_um),
+                opt(r.shift_pct),
+                quote(&r.status)
+            )?;
+        }
+        Ok(())
+    })
+}
+
+/// `sensitivity.csv`: `parameter, value, gene, direction, position_pct,
+/// d_um_per_ln, d_pct_per_ln, step_ln`.
+///
+/// # Errors
+/// [`ExportError`] if the file cannot be written.
+pub fn write_sensitivity(rows: &[SensitivityRow], path: &Path) -> Result<(), ExportError> {
+    write_atomic(path, |w| {
+        writeln!(w, "parameter,value,gene,direction,position_pct,d_um_per_ln,d_pct_per_ln,step_ln")?;
+        for r in rows {
+            writeln!(
+                w,
+                "{},{},{},{},{},{},{},{}",
+                r.parameter,
+                r.value,
+                r.gene,
+                r.direction,
+                r.position_pct,
+                opt(r.d_um_per_ln),
+                opt(r.d_pct_per_ln),
+                r.step_ln
+            )?;
+        }
+        Ok(())
+    })
+}
+
+/// CSV field: quoted when it holds a comma or quote.
+fn quote(s: &str) -> String {
+    if s.contains([',', '"', '\n']) { format!("\"{}\"", s.replace('"', "\"\"")) } else { s.to_string() }
+}

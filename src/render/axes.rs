@@ -23,6 +23,20 @@ pub struct Axes {
 }
 
 impl Axes {
+    /// A plot whose x axis is the position along the tissue, 0–100 % of its
+    /// length, filling a canvas `canvas_width` px wide between the margins.
+    pub fn along_axis(
+        left: f32,
+        top: f32,
+        right: f32,
+        canvas_width: u32,
+        height: f32,
+        y: (f64, f64),
+        y_down: bool,
+    ) -> Axes {
+        Axes { left, top, width: canvas_width as f32 - left - right, height, x: (0.0, 100.0), y, y_down }
+    }
+
     /// Pixel column of data x.
     pub fn px(&self, x: f64) -> f32 {
         self.left + ((x - self.x.0) / (self.x.1 - self.x.0)) as f32 * self.width

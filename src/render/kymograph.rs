@@ -61,15 +61,7 @@ pub fn space_time(
     let width = style.width.max(320);
     let height = (top + plot_h + bottom) as u32;
     let mut c = Canvas::new(width, height, bg.rgb());
-    let a = Axes {
-        left,
-        top,
-        width: width as f32 - left - right,
-        height: plot_h,
-        x: (0.0, 100.0),
-        y: (t0, if t1 > t0 { t1 } else { t0 + 1.0 }),
-        y_down: true,
-    };
+    let a = Axes::along_axis(left, top, right, width, plot_h, (t0, if t1 > t0 { t1 } else { t0 + 1.0 }), true);
     let (pw, ph) = (a.width.round() as u32, a.height.round() as u32);
     for row in 0..ph {
         let t = a.y.0 + (row as f64 + 0.5) / ph as f64 * (a.y.1 - a.y.0);

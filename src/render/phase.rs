@@ -87,15 +87,7 @@ pub fn landscape_picture(rec: &Recording, l: &Landscape, gene: usize, style: &St
         .flat_map(|b| b.points.iter().map(|p| p.x[gene]))
         .chain(l.per_nucleus.iter().flatten().map(|p| p.x[gene]))
         .fold(0.0, f64::max);
-    let a = Axes {
-        left,
-        top,
-        width: width as f32 - left - right,
-        height: plot_h,
-        x: (0.0, 100.0),
-        y: (0.0, if ymax > 0.0 { 1.08 * ymax } else { 1.0 }),
-        y_down: false,
-    };
+    let a = Axes::along_axis(left, top, right, width, plot_h, (0.0, if ymax > 0.0 { 1.08 * ymax } else { 1.0 }), false);
     let color = style.colors[gene];
     for b in &l.branches {
         // Runs of equal stability, drawn as one line each.

@@ -31,15 +31,7 @@ pub fn profiles(rec: &Recording, final_boundaries: &[Boundary], style: &Style) -
         .map(|(s, g)| rec.states[s].row(g).iter().copied().fold(0.0f64, f64::max))
         .fold(0.0f64, f64::max);
     let ymax = if ymax > 0.0 { ymax * 1.05 } else { 1.0 };
-    let a = Axes {
-        left,
-        top,
-        width: width as f32 - left - right,
-        height: plot_h,
-        x: (0.0, 100.0),
-        y: (0.0, ymax),
-        y_down: false,
-    };
+    let a = Axes::along_axis(left, top, right, width, plot_h, (0.0, ymax), false);
     let length = rec.grid.length_um();
     let samples = (a.width as usize).max(2);
     for (k, &s) in picks.iter().enumerate() {

@@ -38,15 +38,7 @@ pub fn shift_chart(s: &Screen, genes: &[String], style: &Style) -> Canvas {
     let width = style.width.max(480);
     let plot_h = row_h * (rows + 1) as f32;
     let mut c = Canvas::new(width, (top + plot_h + bottom) as u32, bg.rgb());
-    let a = Axes {
-        left,
-        top,
-        width: width as f32 - left - right,
-        height: plot_h,
-        x: (0.0, 100.0),
-        y: (0.0, 1.0),
-        y_down: true,
-    };
+    let a = Axes::along_axis(left, top, right, width, plot_h, (0.0, 1.0), true);
     let y_of = |k: usize| top + row_h * (k as f32 + 0.5);
     for k in 0..=rows {
         if k % 2 == 1 {

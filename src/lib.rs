@@ -35,6 +35,7 @@
 pub mod export;
 pub mod integrate;
 pub mod kinetics;
+pub mod measure;
 pub mod model;
 pub mod phase;
 

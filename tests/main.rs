@@ -5,6 +5,7 @@ mod cli;
 mod common;
 mod convergence;
 mod demos;
+mod measure;
 mod phase;
 
 mod pictures;

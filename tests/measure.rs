@@ -1,0 +1,141 @@
+//! Measuring stained-embryo images (synthetic images, invented data).
+
+use anlage::measure::{self, Channel, Head, Planes, profile::profile_line, synth};
+use approx::assert_relative_eq;
+use serde::Deserialize;
+
+use crate::common::root;
+
+#[derive(Deserialize)]
+struct Line {
+    src: (f64, f64),
+    dst: (f64, f64),
+    linewidth: usize,
+    values: Vec<f64>,
+}
+
+#[derive(Deserialize)]
+struct Reference {
+    rows: usize,
+    cols: usize,
+    image: Vec<f64>,
+    profiles: Vec<Line>,
+}
+
+/// Profile sampling along a line agrees with scikit-image's
+/// `measure.profile_line` (order 1, mean over the width) on the same image and
+/// lines; values stored by tests/reference/profile_line.py.
+#[test]
+fn profile_line_matches_scikit_image() {
+    let r: Reference =
+        serde_json::from_str(&std::fs::read_to_string(root().join("tests/reference/profile_line.json")).unwrap())
+            .unwrap();
+    for l in &r.profiles {
+        let got = profile_line(&r.image, r.cols, r.rows, l.src, l.dst, l.linewidth);
+        assert_eq!(got.len(), l.values.len(), "{:?} -> {:?}", l.src, l.dst);
+        for (g, w) in got.iter().zip(&l.values) {
+            assert_relative_eq!(*g, *w, epsilon = 1e-10);
+        }
+    }
+}
+
+fn planes_of(planes: Vec<Vec<f64>>, o: &synth::SynthOptions) -> Planes {
+    Planes { width: o.width, height: o.height, planes, bits: 16, path: "synthetic.png".into() }
+}
+
+fn options(angle: f64, seed: u64) -> synth::SynthOptions {
+    synth::SynthOptions {
+        width: 320,
+        height: 300,
+        semi_axes: (120.0, 48.0),
+        angle_deg: angle,
+        blur_px: 1.5,
+        noise: 0.02,
+        seed,
+    }
+}
+
+/// Two genes with known boundaries: amber on from the head to 40 %, cobalt
+/// from 62 % to the tail (logistic edges 1 % of the length wide).
+fn two_domains(c: usize, pct: f64) -> f64 {
+    let logistic = |x: f64| 1.0 / (1.0 + (-x).exp());
+    if c == 0 { logistic((40.0 - pct) / 1.0) } else { logistic((pct - 62.0) / 1.0) }
+}
+
+/// On synthetic ellipses rotated by known angles, the recovered axis is
+/// within 1° and the length within 1 % (the ellipse's long axis, 240 px).
+#[test]
+fn axis_and_length_of_rotated_ellipses() {
+    for (k, angle) in [0.0, 17.0, 45.0, 73.0, -30.0, 90.0].iter().enumerate() {
+        let o = options(*angle, k as u64);
+        let p = planes_of(synth::synthesize(&o, 2, &two_domains), &o);
+        let m = measure::measure(&p, &[Channel { gene: "amber".into(), plane: 0 }], Head::Auto).unwrap();
+        let mut d = (m.embryo.angle_deg() - angle).rem_euclid(180.0);
+        if d > 90.0 {
+            d = 180.0 - d;
+        }
+        assert!(d < 1.0, "angle {angle}: found {}", m.embryo.angle_deg());
+        assert_relative_eq!(m.length_px, 240.0, max_relative = 0.01);
+    }
+}
+
+/// Blurred, noisy synthetic images with known boundaries: each recovered
+/// boundary is within 0.5 % of the axis length, whatever the rotation, and
+/// the head is found by the head-high gene (auto).
+#[test]
+fn known_boundaries_are_recovered() {
+    for (k, angle) in [0.0, 25.0, -60.0, 110.0].iter().enumerate() {
+        let o = options(*angle, 10 + k as u64);
+        let p = planes_of(synth::synthesize(&o, 2, &two_domains), &o);
+        let channels = [Channel { gene: "amber".into(), plane: 0 }, Channel { gene: "cobalt".into(), plane: 1 }];
+        let m = measure::measure(&p, &channels, Head::Auto).unwrap();
+        assert_eq!(m.boundaries.len(), 2, "{angle}: {:?}", m.boundaries);
+        let amber = m.boundaries.iter().find(|b| b.gene == "amber").unwrap();
+        let cobalt = m.boundaries.iter().find(|b| b.gene == "cobalt").unwrap();
+        assert_eq!((amber.direction, cobalt.direction), ("falling", "rising"));
+        assert!((amber.position_pct - 40.0).abs() < 0.5, "{angle}: amber at {}", amber.position_pct);
+        assert!((cobalt.position_pct - 62.0).abs() < 0.5, "{angle}: cobalt at {}", cobalt.position_pct);
+    }
+}
+
+/// A 16-bit image and its 8-bit copy give the same boundaries within 0.5 %.
+#[test]
+fn sixteen_and_eight_bit_agree() {
+    let o = options(33.0, 99);
+    let planes = synth::synthesize(&o, 2, &two_domains);
+    let dir = std::env::temp_dir().join(format!("anlage-measure-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let channels = [Channel { gene: "amber".into(), plane: 0 }, Channel { gene: "cobalt".into(), plane: 1 }];
+    let mut found = Vec::new();
+    for bits in [16u8, 8] {
+        let path = dir.join(format!("embryo{bits}.png"));
+        std::fs::write(&path, synth::png(&planes, o.width, o.height, bits).unwrap()).unwrap();
+        let p = measure::load(&path).unwrap();
+        assert_eq!((p.bits, p.planes.len()), (bits, 3));
+        found.push(measure::measure(&p, &channels, Head::Auto).unwrap().boundaries);
+    }
+    assert_eq!(found[0].len(), found[1].len());
+    for (a, b) in found[0].iter().zip(&found[1]) {
+        assert!((a.position_pct - b.position_pct).abs() < 0.5, "{a:?} vs {b:?}");
+    }
+}
+
+/// Bad images get clear errors, never a panic.
+#[test]
+fn bad_images_are_refused_clearly() {
+    let dir = std::env::temp_dir().join(format!("anlage-bad-img-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let black = dir.join("black.png");
+    std::fs::write(&black, synth::png(&[vec![0.0; 64 * 48]], 64, 48, 8).unwrap()).unwrap();
+    let p = measure::load(&black).unwrap();
+    let err = measure::measure(&p, &[Channel { gene: "amber".into(), plane: 0 }], Head::Left).unwrap_err().to_string();
+    assert!(err.contains("no embryo found"), "{err}");
+    let o = options(0.0, 1);
+    let p = planes_of(synth::synthesize(&o, 2, &two_domains), &o);
+    let err = measure::measure(&p, &[Channel { gene: "amber".into(), plane: 5 }], Head::Left).unwrap_err().to_string();
+    assert!(err.contains("channel 5 does not exist: the image has 2 channel(s)"), "{err}");
+    let junk = dir.join("junk.png");
+    std::fs::write(&junk, b"not an image").unwrap();
+    let err = measure::load(&junk).unwrap_err().to_string();
+    assert!(err.contains("junk.png: cannot read the image"), "{err}");
+}

@@ -13,6 +13,12 @@ for model in patterns/*.toml; do
   rm -rf "$out"
   "$bin" run "$model" -q -o "$out" --width 560
   if [ "$name" = ribbon ]; then
+    # Invented demo data: synthetic stained embryos drawn from this run, measured
+    # back and scored against it (see README, "Compare with stained embryos").
+    rm -rf demo-data/stained
+    "$bin" synthesize "$out" -o demo-data/stained --count 3 > /dev/null
+    "$bin" measure demo-data/stained --channel 0=amber --channel 1=cobalt --time 240 > /dev/null
+    "$bin" compare "$out" demo-data/stained/measured.csv -o "$out" > /dev/null
     "$bin" basins "$out" --width 560 > /dev/null
     "$bin" screen "$model" --knockouts --dosage --width 560 -o "$out/screen" > /dev/null
     "$bin" sensitivity "$model" --width 560 -o "$out/screen" > /dev/null

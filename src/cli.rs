@@ -97,6 +97,52 @@ pub enum Command {
         #[command(flatten)]
         look: Look,
     },
+    /// Measure boundaries in stained-embryo images (PNG or TIFF, 8/16-bit);
+    /// a folder gives one table with mean and sd per boundary.
+    Measure {
+        /// An image, or a folder of images.
+        image: PathBuf,
+        /// Channel to read: PLANE=gene (plane of the image, from 0) or FILE=gene (repeatable).
+        #[arg(long = "channel", required = true)]
+        channels: Vec<String>,
+        /// Which end is the head.
+        #[arg(long, value_enum, default_value = "auto")]
+        head: anlage::measure::Head,
+        /// Time of the embryos, min or a stage label (written to the table).
+        #[arg(long)]
+        time: Option<String>,
+        /// Output table (default: <image>_boundaries.csv, or measured.csv in the folder).
+        #[arg(short, long)]
+        out: Option<PathBuf>,
+    },
+    /// Score a run against a measured-boundary table.
+    Compare {
+        /// Folder written by `anlage run`.
+        run_dir: PathBuf,
+        /// Measured-boundary table (CSV).
+        measured: PathBuf,
+        /// Stage label in minutes, LABEL=MINUTES (repeatable).
+        #[arg(long = "stage")]
+        stages: Vec<String>,
+        /// Output folder (default: the run folder).
+        #[arg(short, long)]
+        out: Option<PathBuf>,
+    },
+    /// Draw synthetic stained-embryo images from a run's last snapshot (invented
+    /// data, for demos and for testing `measure`).
+    Synthesize {
+        /// Folder written by `anlage run` (a row).
+        run_dir: PathBuf,
+        /// Output folder.
+        #[arg(short, long)]
+        out: PathBuf,
+        /// Number of images (each rotated, blurred and noised differently).
+        #[arg(long, default_value_t = 3)]
+        count: usize,
+        /// Seed.
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+    },
     /// Phase space of every nucleus: fixed points, basins over time, commitment,
     /// attractors along the axis (isolated nucleus: inputs frozen).
     Basins {

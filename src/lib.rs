@@ -32,6 +32,7 @@
 //! ```
 #![warn(missing_docs)]
 
+pub mod compare;
 pub mod export;
 pub mod integrate;
 pub mod kinetics;

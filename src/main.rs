@@ -1,6 +1,7 @@
 //! The `anlage` command: parses arguments and calls the library.
 
 mod cli;
+mod measure_cli;
 mod report;
 
 use std::path::{Path, PathBuf};
@@ -21,7 +22,13 @@ fn main() -> ExitCode {
         Err(e) => {
             eprintln!("anlage: {e:#}");
             // 2: the input is wrong; 1: the computation or output failed.
-            let bad_input = e.chain().any(|c| c.is::<ModelError>() || c.is::<StyleError>() || c.is::<RunDirError>());
+            let bad_input = e.chain().any(|c| {
+                c.is::<ModelError>()
+                    || c.is::<StyleError>()
+                    || c.is::<RunDirError>()
+                    || c.is::<anlage::measure::MeasureError>()
+                    || c.is::<anlage::compare::CompareError>()
+            });
             if bad_input { ExitCode::from(2) } else { ExitCode::from(1) }
         }
     }
@@ -202,6 +209,13 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             print!("{}", report::sensitivity(&rows, &dir));
             Ok(())
         }
+        Command::Measure { image, channels, head, time, out } => {
+            measure_cli::measure_verb(image, channels, *head, time, out)
+        }
+        Command::Compare { run_dir, measured, stages, out } => {
+            measure_cli::compare_verb(run_dir, measured, stages, out)
+        }
+        Command::Synthesize { run_dir, out, count, seed } => measure_cli::synthesize_verb(run_dir, out, *count, *seed),
         Command::Render { run_dir, kind, out, look } => {
             let saved = anlage::run_dir::load(run_dir)?;
             let rec = &saved.recording;

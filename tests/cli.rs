@@ -235,3 +235,31 @@ fn screen_and_sensitivity_write_their_outputs() {
     assert_eq!(o.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&o.stderr).contains("unknown gene `plum`"));
 }
+
+/// From a run to synthetic stained images (invented data), measured back, and
+/// scored against the run: the score is small and the files are there.
+#[test]
+fn synthesize_measure_compare_round_trip() {
+    let out = temp_dir("stain");
+    run_into("patterns/ribbon.toml", &out, 2);
+    let imgs = out.join("stained");
+    let o = anlage(&["synthesize", out.to_str().unwrap(), "-o", imgs.to_str().unwrap(), "--count", "2"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(std::fs::read_to_string(imgs.join("README.txt")).unwrap().starts_with("INVENTED DATA"));
+    let o =
+        anlage(&["measure", imgs.to_str().unwrap(), "--channel", "0=amber", "--channel", "1=cobalt", "--time", "240"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(imgs.join("embryo_01_check.png").is_file());
+    let table = std::fs::read_to_string(imgs.join("measured.csv")).unwrap();
+    assert_eq!(table.lines().count(), 3, "{table}");
+    let o = anlage(&["compare", out.to_str().unwrap(), imgs.join("measured.csv").to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8_lossy(&o.stdout);
+    let rmse: f64 =
+        text.split("root-mean-square difference: ").nth(1).unwrap().split(' ').next().unwrap().parse().unwrap();
+    assert!(rmse < 0.5, "{text}");
+    assert!(out.join("comparison.csv").is_file() && out.join("comparison.png").is_file());
+    let o = anlage(&["measure", imgs.join("embryo_01.png").to_str().unwrap(), "--channel", "7=amber"]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("channel 7 does not exist"));
+}

@@ -139,3 +139,86 @@ fn bad_images_are_refused_clearly() {
     let err = measure::load(&junk).unwrap_err().to_string();
     assert!(err.contains("junk.png: cannot read the image"), "{err}");
 }
+
+fn write(dir: &std::path::Path, name: &str, text: &str) -> std::path::PathBuf {
+    let p = dir.join(name);
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+/// A run scored against its own boundaries has zero error; a table shifted by
+/// a known amount gives exactly that shift; z = difference / sd.
+#[test]
+fn compare_self_is_zero_and_shift_is_exact() {
+    use anlage::compare::{compare, read_measured};
+    let rec = crate::common::run(&crate::common::load("patterns/ribbon.toml")).recording;
+    let last = rec.times.len() - 1;
+    let sim = anlage::readout::boundaries_at(&rec, last);
+    let dir = std::env::temp_dir().join(format!("anlage-compare-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let table = |shift: f64| {
+        let mut t = String::from("sample,time,gene,direction,position_pct,sd_pct,n\n");
+        for b in &sim {
+            t.push_str(&format!(
+                "e1,{},{},{},{},0.5,3\n",
+                rec.times[last],
+                b.gene,
+                b.direction,
+                b.position_pct + shift
+            ));
+        }
+        t
+    };
+    let own = read_measured(&write(&dir, "own.csv", &table(0.0)), &Default::default()).unwrap();
+    let c = compare(&rec, &own);
+    assert_eq!(c.rmse_pct, Some(0.0));
+    assert!(c.rows.iter().all(|r| r.status == "matched" && r.difference_pct == Some(0.0)));
+    let shifted = read_measured(&write(&dir, "shifted.csv", &table(1.25)), &Default::default()).unwrap();
+    let c = compare(&rec, &shifted);
+    for r in &c.rows {
+        assert_relative_eq!(r.difference_pct.unwrap(), -1.25, epsilon = 1e-9);
+        assert_relative_eq!(r.z.unwrap(), -2.5, epsilon = 1e-9);
+    }
+    assert_relative_eq!(c.rmse_pct.unwrap(), 1.25, epsilon = 1e-9);
+    // A boundary found on one side only is listed as such.
+    let extra = format!("{}e1,,amber,rising,80,,\n", table(0.0));
+    let c = compare(&rec, &read_measured(&write(&dir, "extra.csv", &extra), &Default::default()).unwrap());
+    assert_eq!(c.rows.iter().filter(|r| r.status == "measured only").count(), 1);
+}
+
+/// Bad tables name the file, line and column.
+#[test]
+fn bad_measured_tables_are_refused_clearly() {
+    use anlage::compare::read_measured;
+    let dir = std::env::temp_dir().join(format!("anlage-badtable-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let stages = [("late".to_string(), 200.0)].into_iter().collect();
+    for (name, text, want) in [
+        ("nocol.csv", "sample,gene,direction\ne1,amber,rising\n", "the header has no `position_pct` column"),
+        (
+            "badnum.csv",
+            "sample,gene,direction,position_pct\ne1,amber,rising,far\n",
+            "badnum.csv:2: column `position_pct` is `far`",
+        ),
+        (
+            "baddir.csv",
+            "sample,gene,direction,position_pct\ne1,amber,up,40\n",
+            "baddir.csv:2: column `direction` is `up`; write rising or falling",
+        ),
+        (
+            "stage.csv",
+            "sample,time,gene,direction,position_pct\ne1,early,amber,rising,40\n",
+            "column `time` is `early`; give minutes, or map this stage label with --stage",
+        ),
+        ("empty.csv", "sample,gene,direction,position_pct\n", "the table has no rows"),
+    ] {
+        let err = read_measured(&write(&dir, name, text), &stages).unwrap_err().to_string();
+        assert!(err.contains(want), "{name}: {err}");
+    }
+    let ok = read_measured(
+        &write(&dir, "late.csv", "sample,time,gene,direction,position_pct\ne1,late,amber,rising,40\n"),
+        &stages,
+    )
+    .unwrap();
+    assert_eq!(ok[0].time_min, Some(200.0));
+}

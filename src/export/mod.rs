@@ -3,6 +3,7 @@
 //! Every file is written under a temporary name in the same folder and
 //! renamed into place when complete, so a reader never sees half a file.
 
+mod compare_tables;
 mod phase_tables;
 mod screen_tables;
 mod tables;
@@ -14,6 +15,7 @@ use std::path::{Path, PathBuf};
 use ndarray::{Array3, Axis};
 use ndarray_npy::WriteNpyExt;
 
+pub use compare_tables::{write_comparison, write_measured};
 pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
 pub use screen_tables::{write_sensitivity, write_shifts};
 pub use tables::{write_boundaries, write_domains, write_profiles, write_sheet};

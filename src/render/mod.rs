@@ -9,6 +9,7 @@ mod axes;
 mod canvas;
 pub mod colour;
 mod kymograph;
+mod measure;
 mod options;
 mod pattern;
 mod phase;
@@ -20,6 +21,7 @@ pub use animate::{write_gif, write_pair_gif};
 pub use canvas::{Align, Canvas};
 pub use colour::Background;
 pub use kymograph::{KymoLayout, kymograph, space_time};
+pub use measure::{check_picture, comparison_overlay};
 pub use screen::{sensitivity_map, shift_chart};
 
 pub use options::{StyleError, StyleOptions};

@@ -19,6 +19,11 @@ pub fn chosen_snapshots(shown: &[usize]) -> Vec<usize> {
 
 /// Draws the profiles; `final_boundaries` are marked at the last chosen time.
 pub fn profiles(rec: &Recording, final_boundaries: &[Boundary], style: &Style) -> Canvas {
+    profiles_with_axes(rec, final_boundaries, style).0
+}
+
+/// As [`profiles`], also returning the plot axes (for overlays).
+pub fn profiles_with_axes(rec: &Recording, final_boundaries: &[Boundary], style: &Style) -> (Canvas, Axes) {
     let bg = style.background;
     let width = style.width.max(320);
     let (left, top, right, bottom) = (64.0, 70.0, 24.0, 70.0);
@@ -72,5 +77,5 @@ pub fn profiles(rec: &Recording, final_boundaries: &[Boundary], style: &Style) -
         format!("t = {} min (dashed, fainter = earlier); dotted lines: boundaries at the last time", times.join(", "));
     c.text(left, c.height() as f32 - 12.0, 12.0, bg.muted(), Align::Left, &note);
     legend(&mut c, rec, style, width as f32 - right, 46.0, true);
-    c
+    (c, a)
 }

@@ -16,6 +16,10 @@ pub struct Summary {
     pub anlage_version: &'static str,
     /// A reminder of what these numbers are.
     pub note: &'static str,
+    /// FNV-1a 64-bit hash of the model file's text, hex: the same hash means the same model.
+    pub model_hash: String,
+    /// Seed of the initial noise.
+    pub seed: u64,
     /// Tissue shape, e.g. "row of 96".
     pub tissue: String,
     /// The grid, as needed to read states.npy back.
@@ -73,6 +77,8 @@ impl Summary {
             title: model.title.clone(),
             anlage_version: env!("CARGO_PKG_VERSION"),
             note: PREDICTION_NOTE,
+            model_hash: format!("{:016x}", fnv1a(model.text.as_bytes())),
+            seed: model.seed,
             tissue: model.grid.shape_text(),
             grid: GridInfo {
                 nx: model.grid.nx,
@@ -100,6 +106,12 @@ impl Summary {
     }
 }
 
+/// FNV-1a, 64 bit (Fowler, Noll & Vo; the IETF draft "The FNV Non-Cryptographic
+/// Hash Algorithm"): offset basis 0xcbf29ce484222325, prime 0x100000001b3.
+pub fn fnv1a(bytes: &[u8]) -> u64 {
+    bytes.iter().fold(0xcbf2_9ce4_8422_2325u64, |h, b| (h ^ *b as u64).wrapping_mul(0x0000_0100_0000_01b3))
+}
+
 /// Human-readable step control.
 pub fn stepping_text(s: &Stepping) -> String {
     match s {
@@ -107,5 +119,17 @@ pub fn stepping_text(s: &Stepping) -> String {
         Stepping::Adaptive { rtol, atol, max_step_min } => {
             format!("SBDF2, error-controlled steps (rtol {rtol:e}, atol {atol:e}, at most {max_step_min} min)")
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    /// Published FNV-1a 64 test vectors (the IETF FNV draft's test suite, from memory):
+    /// "" → cbf29ce484222325, "a" → af63dc4c8601ec8c, "foobar" → 85944171f73967e8.
+    #[test]
+    fn fnv1a_matches_published_vectors() {
+        assert_eq!(super::fnv1a(b""), 0xcbf2_9ce4_8422_2325);
+        assert_eq!(super::fnv1a(b"a"), 0xaf63_dc4c_8601_ec8c);
+        assert_eq!(super::fnv1a(b"foobar"), 0x8594_4171_f739_67e8);
     }
 }

@@ -9,6 +9,7 @@ mod measure;
 mod phase;
 
 mod pictures;
+mod properties;
 mod screen;
 
 mod validation;

@@ -88,8 +88,15 @@ pub fn describe(m: &Model) -> String {
     let kind = match m.circuit.kinetics {
         KineticsKind::Hill => "hill",
         KineticsKind::Sigmoid => "sigmoid",
+        KineticsKind::Rates => "rates",
     };
     let _ = writeln!(s, "circuit   {kind} kinetics, {} links", m.circuit.links.len());
+    for (name, v) in &m.circuit.parameters {
+        let _ = writeln!(s, "  parameter {name} = {v}");
+    }
+    for g in m.genes.iter().filter(|g| g.rate.is_some()) {
+        let _ = writeln!(s, "  d{}/dt = {} + diffusion", g.name, g.rate.as_deref().unwrap_or(""));
+    }
     for l in &m.circuit.links {
         let from = match l.from {
             Regulator::Gene(k) => &m.genes[k].name,

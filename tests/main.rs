@@ -10,6 +10,7 @@ mod phase;
 
 mod pictures;
 mod properties;
+mod rates;
 mod screen;
 
 mod validation;

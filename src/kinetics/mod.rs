@@ -6,12 +6,15 @@
 //! inner loops run over contiguous slices. A new family (e.g. free rate
 //! expressions) implements [`Kinetics`] and is chosen in [`build`].
 
+pub mod expr;
 mod hill;
+mod rates;
 mod sigmoid;
 
 use ndarray::{ArrayView2, ArrayViewMut2};
 
 pub use hill::HillKinetics;
+pub use rates::{ModelNames, RatesKinetics};
 pub use sigmoid::SigmoidKinetics;
 
 use crate::model::{KineticsKind, Model, Regulator};
@@ -73,9 +76,15 @@ impl Input {
 
 /// Builds the rate law of a model.
 pub fn build(model: &Model) -> Box<dyn Kinetics> {
-    match model.circuit.kinetics {
-        KineticsKind::Hill => Box::new(HillKinetics::new(model)),
-        KineticsKind::Sigmoid => Box::new(SigmoidKinetics::new(model)),
+    let builtin: Option<Box<dyn Kinetics>> = match model.circuit.kinetics {
+        KineticsKind::Hill => Some(Box::new(HillKinetics::new(model))),
+        KineticsKind::Sigmoid => Some(Box::new(SigmoidKinetics::new(model))),
+        KineticsKind::Rates => None,
+    };
+    if model.genes.iter().any(|g| g.rate.is_some()) {
+        Box::new(RatesKinetics::new(model, builtin))
+    } else {
+        builtin.expect("hill or sigmoid when no gene has a rate expression")
     }
 }
 

@@ -300,6 +300,8 @@ pub struct Gene {
     pub combine: Combine,
     /// Sigmoid kinetics: bias h.
     pub bias: f64,
+    /// Rate expression replacing the circuit's rate law for this gene (checked).
+    pub rate: Option<String>,
 }
 
 /// What regulates a link.
@@ -345,6 +347,8 @@ pub enum KineticsKind {
     Hill,
     /// Sigmoid of a weighted sum.
     Sigmoid,
+    /// Every gene's rate written as an expression.
+    Rates,
 }
 
 /// The regulatory circuit.
@@ -354,4 +358,6 @@ pub struct Circuit {
     pub kinetics: KineticsKind,
     /// Links, in file order.
     pub links: Vec<Link>,
+    /// Named constants for rate expressions.
+    pub parameters: Vec<(String, f64)>,
 }

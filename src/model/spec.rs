@@ -136,10 +136,13 @@ pub struct GeneSpec {
     pub name: String,
     /// Display colour `#rrggbb`.
     pub color: Option<String>,
-    /// Maximal production rate, a.u./min.
-    pub production: f64,
-    /// First-order decay rate, 1/min.
-    pub decay: f64,
+    /// Maximal production rate, a.u./min (not used by a rate expression).
+    pub production: Option<f64>,
+    /// First-order decay rate, 1/min (not used by a rate expression).
+    pub decay: Option<f64>,
+    /// Rate expression du/dt (reaction part), a.u./min: replaces the circuit's
+    /// rate law for this gene.
+    pub rate: Option<String>,
     /// Diffusion coefficient, µm²/min (default 0).
     pub diffusion: Option<f64>,
     /// Initial level everywhere, a.u. (default 0).
@@ -158,8 +161,11 @@ pub struct GeneSpec {
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct CircuitSpec {
-    /// `"hill"` or `"sigmoid"`.
+    /// `"hill"`, `"sigmoid"` or `"rates"`.
     pub kinetics: String,
+    /// Named constants for rate expressions.
+    #[serde(default)]
+    pub parameters: std::collections::BTreeMap<String, f64>,
     /// Regulatory links.
     #[serde(default)]
     pub link: Vec<Spanned<LinkSpec>>,

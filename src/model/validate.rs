@@ -45,8 +45,22 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
     }
     let circuit = match &spec.circuit {
         Some(c) => check_circuit(c, &spec.gene, &genes, &gradients, src)?,
-        None => Circuit { kinetics: KineticsKind::Hill, links: Vec::new() },
+        None => Circuit { kinetics: KineticsKind::Hill, links: Vec::new(), parameters: Vec::new() },
     };
+    let names = crate::kinetics::ModelNames { genes: &genes, gradients: &gradients, parameters: &circuit.parameters };
+    for (i, (gs, g)) in spec.gene.iter().zip(&genes).enumerate() {
+        if let Some(text) = &g.rate {
+            crate::kinetics::expr::parse(text, &names).map_err(|e| {
+                src.invalid(
+                    &gs.span(),
+                    "rate",
+                    format!("gene[{i}] `{}`.rate", g.name),
+                    format!("column {} of the expression: {}", e.column, e.message),
+                    "fix the expression",
+                )
+            })?;
+        }
+    }
 
     let title = spec.title.clone().unwrap_or_else(|| {
         src.file().file_stem().map_or_else(|| "untitled".to_string(), |s| s.to_string_lossy().into_owned())
@@ -387,8 +401,11 @@ fn check_gradient(i: usize, g: &Spanned<GradientSpec>, grid: &Grid, src: &Source
 fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Source) -> Result<Gene, ModelError> {
     let spec = g.get_ref();
     let c = Checker { src, span: g.span(), prefix: format!("gene[{i}] `{}`.", spec.name) };
-    let production = c.non_negative("production", spec.production, "a.u./min")?;
-    let decay = c.non_negative("decay", spec.decay, "1/min")?;
+    let needed = if spec.rate.is_some() { Some(0.0) } else { None };
+    let why = "by a gene without a `rate` expression";
+    let production =
+        c.non_negative("production", c.required("production", spec.production.or(needed), why)?, "a.u./min")?;
+    let decay = c.non_negative("decay", c.required("decay", spec.decay.or(needed), why)?, "1/min")?;
     let diffusion = c.non_negative("diffusion", spec.diffusion.unwrap_or(0.0), "µm²/min")?;
     let initial_noise = c.non_negative("initial_noise", spec.initial_noise.unwrap_or(0.0), "a.u.")?;
     let initial = match (&spec.initial, &spec.initial_profile) {
@@ -425,7 +442,18 @@ fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Source) -> Res
         }
     };
     let bias = c.finite("bias", spec.bias.unwrap_or(0.0))?;
-    Ok(Gene { name: spec.name.clone(), color, production, decay, diffusion, initial, initial_noise, combine, bias })
+    Ok(Gene {
+        name: spec.name.clone(),
+        color,
+        production,
+        decay,
+        diffusion,
+        initial,
+        initial_noise,
+        combine,
+        bias,
+        rate: spec.rate.clone(),
+    })
 }
 
 /// Parses `#rrggbb`.
@@ -450,15 +478,40 @@ fn check_circuit(
     let kinetics = match spec.kinetics.as_str() {
         "hill" => KineticsKind::Hill,
         "sigmoid" => KineticsKind::Sigmoid,
+        "rates" => KineticsKind::Rates,
         other => {
-            return Err(c.fail("kinetics", format!("is `{other}`"), "use \"hill\" or \"sigmoid\""));
+            return Err(c.fail("kinetics", format!("is `{other}`"), "use \"hill\", \"sigmoid\" or \"rates\""));
         }
     };
+    let mut parameters = Vec::new();
+    for (name, v) in &spec.parameters {
+        let clash = genes.iter().any(|g| &g.name == name) || gradients.iter().any(|g| &g.name == name);
+        if clash
+            || !name.chars().all(|ch| ch.is_alphanumeric() || ch == '_')
+            || name.starts_with(|ch: char| ch.is_ascii_digit())
+        {
+            return Err(c.fail(
+                "parameters",
+                format!("has the name `{name}`"),
+                "name parameters with letters, digits and _, unlike any gene or gradient",
+            ));
+        }
+        parameters.push((name.clone(), c.finite("parameters", *v)?));
+    }
     for (gs, g) in gene_specs.iter().zip(genes) {
         let gc = Checker { src, span: gs.span(), prefix: format!("gene `{}`.", g.name) };
         match kinetics {
             KineticsKind::Hill => gc.forbidden("bias", &gs.get_ref().bias, "to hill kinetics")?,
             KineticsKind::Sigmoid => gc.forbidden("combine", &gs.get_ref().combine, "to sigmoid kinetics")?,
+            KineticsKind::Rates => {
+                if g.rate.is_none() {
+                    return Err(gc.fail(
+                        "rate",
+                        "is missing".into(),
+                        "with kinetics = \"rates\" every gene needs rate = \"...\"",
+                    ));
+                }
+            }
         }
     }
     let known = |kind: &str| -> String {
@@ -493,6 +546,13 @@ fn check_circuit(
             return Err(unknown("from", &l.from, "gene or gradient"));
         };
         let to = genes.iter().position(|g| g.name == l.to).ok_or_else(|| unknown("to", &l.to, "gene"))?;
+        if kinetics == KineticsKind::Rates || genes[to].rate.is_some() {
+            return Err(lc.fail(
+                "to",
+                format!("targets `{}`, whose rate is an expression", l.to),
+                "write this regulation inside the gene's rate expression, or remove the link",
+            ));
+        }
         if let Some(first) = seen.get(&(from, to)) {
             return Err(lc.fail(
                 "from",
@@ -523,6 +583,7 @@ fn check_circuit(
                 }
                 LinkEffect::Hill { activates, threshold, hill }
             }
+            KineticsKind::Rates => unreachable!("links to genes with rate expressions are refused above"),
             KineticsKind::Sigmoid => {
                 lc.forbidden("sign", &l.sign, "to sigmoid kinetics (the weight's sign says it)")?;
                 lc.forbidden("threshold", &l.threshold, "to sigmoid kinetics")?;
@@ -532,5 +593,5 @@ fn check_circuit(
         };
         links.push(Link { from, to, effect });
     }
-    Ok(Circuit { kinetics, links })
+    Ok(Circuit { kinetics, links, parameters })
 }

@@ -1,0 +1,356 @@
+//! Rate expressions: parsed once, differentiated symbolically, and compiled to
+//! a stack program that runs over a whole chunk of nuclei per instruction
+//! (structure of arrays), so no expression is interpreted per nucleus.
+
+mod parse;
+
+pub use parse::{Names, ParseError, parse};
+
+use super::CHUNK;
+
+/// Binary operators.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Op {
+    /// +
+    Add,
+    /// −
+    Sub,
+    /// ×
+    Mul,
+    /// ÷
+    Div,
+    /// ^
+    Pow,
+}
+
+/// Functions.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Func {
+    /// eˣ
+    Exp,
+    /// natural logarithm
+    Ln,
+    /// √
+    Sqrt,
+    /// |x|
+    Abs,
+    /// sign(x) (−1, 0, 1); arises in derivatives of abs
+    Sign,
+    /// min(a, b)
+    Min,
+    /// max(a, b)
+    Max,
+    /// choose(a, b, x, y) = x if a ≤ b else y; arises in derivatives of min/max
+    Choose,
+}
+
+/// An expression tree.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Expr {
+    /// A constant (numbers and named parameters).
+    Num(f64),
+    /// Level of gene i.
+    Gene(usize),
+    /// Value of input (gradient) k.
+    Input(usize),
+    /// −a
+    Neg(Box<Expr>),
+    /// a op b
+    Bin(Op, Box<Expr>, Box<Expr>),
+    /// f(args)
+    Call(Func, Vec<Expr>),
+}
+
+fn num(v: f64) -> Expr {
+    Expr::Num(v)
+}
+fn bin(op: Op, a: Expr, b: Expr) -> Expr {
+    simplify(Expr::Bin(op, Box::new(a), Box::new(b)))
+}
+
+impl Expr {
+    /// True if the expression reads gene `g`.
+    pub fn depends_on(&self, g: usize) -> bool {
+        match self {
+            Expr::Gene(i) => *i == g,
+            Expr::Num(_) | Expr::Input(_) => false,
+            Expr::Neg(a) => a.depends_on(g),
+            Expr::Bin(_, a, b) => a.depends_on(g) || b.depends_on(g),
+            Expr::Call(_, args) => args.iter().any(|a| a.depends_on(g)),
+        }
+    }
+
+    /// ∂/∂(gene g), simplified.
+    pub fn derivative(&self, g: usize) -> Expr {
+        if !self.depends_on(g) {
+            return num(0.0);
+        }
+        match self {
+            Expr::Num(_) | Expr::Input(_) => num(0.0),
+            Expr::Gene(i) => num(if *i == g { 1.0 } else { 0.0 }),
+            Expr::Neg(a) => simplify(Expr::Neg(Box::new(a.derivative(g)))),
+            Expr::Bin(op, a, b) => {
+                let (a, b) = (a.as_ref().clone(), b.as_ref().clone());
+                let (da, db) = (a.derivative(g), b.derivative(g));
+                match op {
+                    Op::Add => bin(Op::Add, da, db),
+                    Op::Sub => bin(Op::Sub, da, db),
+                    Op::Mul => bin(Op::Add, bin(Op::Mul, da, b.clone()), bin(Op::Mul, a, db)),
+                    Op::Div => bin(
+                        Op::Div,
+                        bin(Op::Sub, bin(Op::Mul, da, b.clone()), bin(Op::Mul, a, db)),
+                        bin(Op::Mul, b.clone(), b),
+                    ),
+                    Op::Pow if !b.depends_on(g) => {
+                        // d(a^b) = b·a^(b−1)·a'
+                        bin(Op::Mul, bin(Op::Mul, b.clone(), bin(Op::Pow, a, bin(Op::Sub, b, num(1.0)))), da)
+                    }
+                    Op::Pow => {
+                        // d(a^b) = a^b·(b'·ln a + b·a'/a)
+                        let ln_a = simplify(Expr::Call(Func::Ln, vec![a.clone()]));
+                        let inner =
+                            bin(Op::Add, bin(Op::Mul, db, ln_a), bin(Op::Div, bin(Op::Mul, b.clone(), da), a.clone()));
+                        bin(Op::Mul, bin(Op::Pow, a, b), inner)
+                    }
+                }
+            }
+            Expr::Call(f, args) => {
+                let a = args[0].clone();
+                let da = a.derivative(g);
+                match f {
+                    Func::Exp => bin(Op::Mul, self.clone(), da),
+                    Func::Ln => bin(Op::Div, da, a),
+                    Func::Sqrt => bin(Op::Div, da, bin(Op::Mul, num(2.0), self.clone())),
+                    Func::Abs => bin(Op::Mul, simplify(Expr::Call(Func::Sign, vec![a])), da),
+                    Func::Sign => num(0.0),
+                    Func::Min | Func::Max => {
+                        let (b, db) = (args[1].clone(), args[1].derivative(g));
+                        // min: a' where a ≤ b; max: a' where b ≤ a.
+                        let (p, q) = if *f == Func::Min { (a, b) } else { (b, a) };
+                        simplify(Expr::Call(Func::Choose, vec![p, q, da, db]))
+                    }
+                    Func::Choose => simplify(Expr::Call(
+                        Func::Choose,
+                        vec![args[0].clone(), args[1].clone(), args[2].derivative(g), args[3].derivative(g)],
+                    )),
+                }
+            }
+        }
+    }
+}
+
+/// Folds constants and drops ×1, ×0, +0.
+pub fn simplify(e: Expr) -> Expr {
+    match e {
+        Expr::Neg(a) => match *a {
+            Expr::Num(v) => num(-v),
+            Expr::Neg(b) => *b,
+            other => Expr::Neg(Box::new(other)),
+        },
+        Expr::Bin(op, a, b) => {
+            let (a, b) = (*a, *b);
+            match (&a, &b, op) {
+                (Expr::Num(x), Expr::Num(y), _) => num(apply(op, *x, *y)),
+                (Expr::Num(z), _, Op::Add) if *z == 0.0 => b,
+                (_, Expr::Num(z), Op::Add | Op::Sub) if *z == 0.0 => a,
+                (Expr::Num(z), _, Op::Sub) if *z == 0.0 => simplify(Expr::Neg(Box::new(b))),
+                (Expr::Num(z), _, Op::Mul | Op::Div) if *z == 0.0 => num(0.0),
+                (_, Expr::Num(z), Op::Mul) if *z == 0.0 => num(0.0),
+                (Expr::Num(o), _, Op::Mul) if *o == 1.0 => b,
+                (_, Expr::Num(o), Op::Mul | Op::Div | Op::Pow) if *o == 1.0 => a,
+                (_, Expr::Num(z), Op::Pow) if *z == 0.0 => num(1.0),
+                _ => Expr::Bin(op, Box::new(a), Box::new(b)),
+            }
+        }
+        Expr::Call(f, args) => {
+            if args.iter().all(|a| matches!(a, Expr::Num(_))) {
+                let v: Vec<f64> = args.iter().map(|a| if let Expr::Num(x) = a { *x } else { 0.0 }).collect();
+                return num(call(f, &v));
+            }
+            if f == Func::Choose && args[2] == args[3] {
+                return args[2].clone();
+            }
+            Expr::Call(f, args)
+        }
+        other => other,
+    }
+}
+
+fn apply(op: Op, x: f64, y: f64) -> f64 {
+    match op {
+        Op::Add => x + y,
+        Op::Sub => x - y,
+        Op::Mul => x * y,
+        Op::Div => x / y,
+        Op::Pow => pow(x, y),
+    }
+}
+
+/// x^y with integer exponents done by repeated multiplication (exact signs).
+#[inline(always)]
+fn pow(x: f64, y: f64) -> f64 {
+    if y.fract() == 0.0 && y.abs() <= 64.0 { x.powi(y as i32) } else { x.powf(y) }
+}
+
+fn call(f: Func, a: &[f64]) -> f64 {
+    match f {
+        Func::Exp => a[0].exp(),
+        Func::Ln => a[0].ln(),
+        Func::Sqrt => a[0].sqrt(),
+        Func::Abs => a[0].abs(),
+        Func::Sign => {
+            if a[0] > 0.0 {
+                1.0
+            } else if a[0] < 0.0 {
+                -1.0
+            } else {
+                0.0
+            }
+        }
+        Func::Min => a[0].min(a[1]),
+        Func::Max => a[0].max(a[1]),
+        Func::Choose => {
+            if a[0] <= a[1] {
+                a[2]
+            } else {
+                a[3]
+            }
+        }
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Ins {
+    Const(f64),
+    Gene(usize),
+    Input(usize),
+    Neg,
+    Bin(Op),
+    PowI(i32),
+    Call(Func, usize),
+}
+
+/// Deepest stack a program may need (expressions nested deeper are refused).
+pub const MAX_DEPTH: usize = 24;
+
+/// A compiled expression: postfix instructions over chunk-wide registers.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Program {
+    code: Vec<Ins>,
+}
+
+impl Program {
+    /// Compiles an expression; `None` if it needs more than [`MAX_DEPTH`] stack slots.
+    pub fn compile(e: &Expr) -> Option<Program> {
+        let mut code = Vec::new();
+        let depth = emit(e, &mut code, 0);
+        (depth <= MAX_DEPTH).then_some(Program { code })
+    }
+
+    /// Evaluates over a chunk: `gene(i)` and `input(k)` give the chunk's rows;
+    /// writes `len` values into `out`.
+    pub fn run<'a>(
+        &self,
+        gene: &dyn Fn(usize) -> &'a [f64],
+        input: &dyn Fn(usize) -> &'a [f64],
+        len: usize,
+        out: &mut [f64],
+    ) {
+        let mut stack = [[0.0f64; CHUNK]; MAX_DEPTH];
+        let mut top = 0usize;
+        for ins in &self.code {
+            match *ins {
+                Ins::Const(c) => {
+                    stack[top][..len].fill(c);
+                    top += 1;
+                }
+                Ins::Gene(g) => {
+                    stack[top][..len].copy_from_slice(&gene(g)[..len]);
+                    top += 1;
+                }
+                Ins::Input(k) => {
+                    stack[top][..len].copy_from_slice(&input(k)[..len]);
+                    top += 1;
+                }
+                Ins::Neg => stack[top - 1][..len].iter_mut().for_each(|v| *v = -*v),
+                Ins::PowI(n) => stack[top - 1][..len].iter_mut().for_each(|v| *v = v.powi(n)),
+                Ins::Bin(op) => {
+                    let (lo, hi) = stack.split_at_mut(top - 1);
+                    let (a, b) = (&mut lo[top - 2][..len], &hi[0][..len]);
+                    match op {
+                        Op::Add => a.iter_mut().zip(b).for_each(|(x, y)| *x += y),
+                        Op::Sub => a.iter_mut().zip(b).for_each(|(x, y)| *x -= y),
+                        Op::Mul => a.iter_mut().zip(b).for_each(|(x, y)| *x *= y),
+                        Op::Div => a.iter_mut().zip(b).for_each(|(x, y)| *x /= y),
+                        Op::Pow => a.iter_mut().zip(b).for_each(|(x, y)| *x = pow(*x, *y)),
+                    }
+                    top -= 1;
+                }
+                Ins::Call(f, n) => {
+                    let base = top - n;
+                    let mut args = [0.0f64; 4];
+                    for i in 0..len {
+                        for k in 0..n {
+                            args[k] = stack[base + k][i];
+                        }
+                        stack[base][i] = call(f, &args[..n]);
+                    }
+                    top = base + 1;
+                }
+            }
+        }
+        out[..len].copy_from_slice(&stack[0][..len]);
+    }
+
+    /// Evaluates at one point.
+    pub fn eval(&self, u: &[f64], m: &[f64]) -> f64 {
+        let mut out = [0.0];
+        let gene_rows: Vec<[f64; 1]> = u.iter().map(|v| [*v]).collect();
+        let input_rows: Vec<[f64; 1]> = m.iter().map(|v| [*v]).collect();
+        self.run(&|g| &gene_rows[g][..], &|k| &input_rows[k][..], 1, &mut out);
+        out[0]
+    }
+}
+
+/// Emits postfix code; returns the stack depth needed.
+fn emit(e: &Expr, code: &mut Vec<Ins>, depth: usize) -> usize {
+    match e {
+        Expr::Num(v) => {
+            code.push(Ins::Const(*v));
+            depth + 1
+        }
+        Expr::Gene(g) => {
+            code.push(Ins::Gene(*g));
+            depth + 1
+        }
+        Expr::Input(k) => {
+            code.push(Ins::Input(*k));
+            depth + 1
+        }
+        Expr::Neg(a) => {
+            let d = emit(a, code, depth);
+            code.push(Ins::Neg);
+            d
+        }
+        Expr::Bin(Op::Pow, a, b) if matches!(**b, Expr::Num(n) if n.fract() == 0.0 && n.abs() <= 64.0) => {
+            let d = emit(a, code, depth);
+            let Expr::Num(n) = **b else { unreachable!("matched a number") };
+            code.push(Ins::PowI(n as i32));
+            d
+        }
+        Expr::Bin(op, a, b) => {
+            let da = emit(a, code, depth);
+            let db = emit(b, code, depth + 1);
+            code.push(Ins::Bin(*op));
+            da.max(db)
+        }
+        Expr::Call(f, args) => {
+            let mut d = depth;
+            for (k, a) in args.iter().enumerate() {
+                d = d.max(emit(a, code, depth + k));
+            }
+            code.push(Ins::Call(*f, args.len()));
+            d
+        }
+    }
+}

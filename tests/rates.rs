@@ -106,6 +106,22 @@ fn brusselator_as_rates_hopf_onset() {
     assert_relative_eq!(0.5 * (lo + hi), 1.0 + a * a, max_relative = 1e-7);
 }
 
+/// Wavelength (cells) of the fastest-growing mode on a periodic row of `n`
+/// cells (h = 1) for a 2×2 Jacobian J = [[fu, fv], [gu, gv]] and diffusion
+/// (du, dv): the growth rate of mode q is the larger eigenvalue of
+/// J − λ_q·diag(du, dv), λ_q = 2 − 2cos(2πp/n) (Murray 2003, ch. 2).
+fn fastest_wavelength(j: [f64; 4], du: f64, dv: f64, n: usize) -> f64 {
+    let [fu, fv, gu, gv] = j;
+    let growth = |p: usize| {
+        let lam = 2.0 - 2.0 * (2.0 * std::f64::consts::PI * p as f64 / n as f64).cos();
+        let (m11, m22) = (fu - du * lam, gv - dv * lam);
+        let (tr, det) = (m11 + m22, m11 * m22 - fv * gu);
+        let disc = tr * tr - 4.0 * det;
+        if disc >= 0.0 { 0.5 * (tr + disc.sqrt()) } else { 0.5 * tr }
+    };
+    n as f64 / (1..n / 2).max_by(|&p, &q| growth(p).total_cmp(&growth(q))).unwrap() as f64
+}
+
 /// Schnakenberg kinetics on a periodic row of 256 cells (h = 1), a = 0.1, b = 0.9,
 /// Du = 1, from the uniform state plus 1 % noise.
 fn schnakenberg(dv: f64) -> anlage::model::Model {
@@ -149,18 +165,8 @@ fn dominant_mode(u: &[f64]) -> usize {
 fn schnakenberg_turing_wavelength_murray_2003() {
     let (a, b, du, dv) = (0.1, 0.9, 1.0, 20.0);
     let (us, vs) = (a + b, b / ((a + b) * (a + b)));
-    let (fu, fv, gu, gv) = (-1.0 + 2.0 * us * vs, us * us, -2.0 * us * vs, -us * us);
     let n = 256;
-    let growth = |p: usize| {
-        let lam = 2.0 - 2.0 * (2.0 * std::f64::consts::PI * p as f64 / n as f64).cos();
-        let (m11, m22) = (fu - du * lam, gv - dv * lam);
-        let tr = m11 + m22;
-        let det = m11 * m22 - fv * gu;
-        let disc = tr * tr - 4.0 * det;
-        if disc >= 0.0 { 0.5 * (tr + disc.sqrt()) } else { 0.5 * tr }
-    };
-    let fastest = (1..n / 2).max_by(|&p, &q| growth(p).total_cmp(&growth(q))).unwrap();
-    let want = n as f64 / fastest as f64;
+    let want = fastest_wavelength([-1.0 + 2.0 * us * vs, us * us, -2.0 * us * vs, -us * us], du, dv, n);
     assert!((12.0..14.0).contains(&want), "linear theory wavelength {want}");
 
     let rec = run(&schnakenberg(dv)).recording;
@@ -192,4 +198,65 @@ fn hill_and_rate_genes_mix() {
     k.rates_one(&[1.0, 2.0], &[0.5], &mut f);
     assert_relative_eq!(f[0], 2.0 * 0.5 - 0.5 * 1.0, max_relative = 1e-14);
     assert_relative_eq!(f[1], 0.3 - 0.4, max_relative = 1e-14);
+}
+
+/// Gierer–Meinhardt activator–inhibitor, da/dt = a²/h − a + σ, dh/dt = a² − νh
+/// (Gierer & Meinhardt 1972, Kybernetik 12:30), σ = 0.1, ν = 2, Da = 1, on a
+/// periodic row of 256 cells: with Dh = 25 (above the critical ratio ≈ 13.8) a
+/// pattern appears whose dominant wavelength is within 10 % of the linear
+/// theory's fastest-growing wavelength; with Dh = 8 the uniform state stays.
+#[test]
+fn gierer_meinhardt_turing_wavelength() {
+    let gm = |dh: f64| {
+        parse(&format!(
+            "seed = 5\n[tissue]\nnuclei = [256]\nspacing_um = 1.0\nedges = \"periodic\"\n\
+             [clock]\nuntil_min = 400.0\ntolerance = 1e-6\nsnapshot_every_min = 400.0\n\
+             [[gene]]\nname = \"act\"\nrate = \"a^2 / inh - a + sigma\"\ndiffusion = 1.0\ninitial = 2.1\ninitial_noise = 0.02\n\
+             [[gene]]\nname = \"inh\"\nrate = \"act^2 - nu * inh\"\ndiffusion = {dh:?}\ninitial = 2.205\ninitial_noise = 0.02\n\
+             [circuit]\nkinetics = \"rates\"\nparameters = {{ sigma = 0.1, nu = 2.0 }}\n"
+        ).replace("a^2 / inh - a + sigma", "act^2 / inh - act + sigma"))
+    };
+    let (a, h) = (2.1, 2.205);
+    let j = [2.0 * a / h - 1.0, -(a * a) / (h * h), 2.0 * a, -2.0];
+    let want = fastest_wavelength(j, 1.0, 25.0, 256);
+    let u = run(&gm(25.0)).recording.final_state().row(0).to_vec();
+    let amplitude =
+        u.iter().copied().fold(f64::NEG_INFINITY, f64::max) - u.iter().copied().fold(f64::INFINITY, f64::min);
+    assert!(amplitude > 0.5, "no pattern: amplitude {amplitude}");
+    let got = 256.0 / dominant_mode(&u) as f64;
+    eprintln!("Gierer-Meinhardt: wavelength {got:.2} cells vs linear theory {want:.2}, amplitude {amplitude:.2}");
+    assert!((got - want).abs() <= 0.1 * want, "wavelength {got} vs linear theory {want}");
+    let u = run(&gm(8.0)).recording.final_state().row(0).to_vec();
+    let spread = u.iter().copied().fold(f64::NEG_INFINITY, f64::max) - u.iter().copied().fold(f64::INFINITY, f64::min);
+    assert!(spread < 0.05, "below the critical ratio: spread {spread}");
+}
+
+/// Fisher–KPP, u_t = D u_xx + r u(1 − u): a front from a step travels at
+/// 2√(Dr) (Fisher 1937, Ann. Eugen. 7:355; Kolmogorov, Petrovsky & Piskunov
+/// 1937), approached slowly as x(t) = 2√(Dr)·t − (3/2)√(D/r)·ln t + const
+/// (Bramson 1983, Mem. AMS 44:285). Measured between t = 200 and 300 min and
+/// compared with the speed corrected for that term: within 2 %. D = 1 µm²/min,
+/// r = 1 /min, h = 0.25 µm.
+#[test]
+fn fisher_kpp_front_speed() {
+    let n = 4000;
+    let initial: Vec<String> = (0..n).map(|i| if i < 80 { "1.0".into() } else { "0.0".into() }).collect();
+    let model = parse(&format!(
+        "[tissue]\nnuclei = [{n}]\nspacing_um = 0.25\n[clock]\nuntil_min = 300.0\ntolerance = 1e-6\nsnapshot_every_min = 100.0\n\
+         [[gene]]\nname = \"u\"\nrate = \"r * u * (1 - u)\"\ndiffusion = 1.0\ninitial_profile = [{}]\n\
+         [circuit]\nkinetics = \"rates\"\nparameters = {{ r = 1.0 }}\n",
+        initial.join(", ")
+    ));
+    let rec = run(&model).recording;
+    let front = |s: usize| {
+        let p = rec.axis_profile(s, 0);
+        let c = anlage::readout::profile_boundaries(&p, 0.25, false);
+        assert_eq!(c.len(), 1, "one front at t = {}", rec.times[s]);
+        c[0].position_um
+    };
+    let (x2, x3) = (front(2), front(3));
+    let measured = (x3 - x2) / 100.0;
+    let corrected = 2.0 - 1.5 * (300.0f64 / 200.0).ln() / 100.0;
+    eprintln!("Fisher-KPP: front speed {measured:.4} µm/min; 2√(Dr) = 2, with Bramson's term {corrected:.4}");
+    assert!((measured - corrected).abs() <= 0.02 * corrected, "speed {measured} vs {corrected}");
 }

@@ -31,6 +31,8 @@ for model in patterns/*.toml; do
     "$bin" render "$out" --kind kymograph --genes teal --heatmap --width 560 -o output-samples/band-teal-heatmap > /dev/null
   fi
   rm -f "$out/states.npy" "$out/profiles.csv" "$out/final_sheet.csv" "$out/attractors.csv" "$out/basins.csv"
+  # One animation is enough for the samples (run writes one for every model).
+  [ "$name" = ribbon ] || rm -f "$out/pattern.gif"
 
 done
 du -sh output-samples

@@ -26,6 +26,11 @@ fn main() {
             repeats: 3,
         },
         Case {
+            name: "P1 as rate expressions, 10^5 x 4, 1000 steps",
+            text: reference::peer_p1_as_rates(100_000, 1000 / scale),
+            repeats: 3,
+        },
+        Case {
             name: "toggle sheet, 512x512 x 2 genes, 100 steps",
             text: reference::toggle_sheet(512, 100 / scale),
             repeats: 2,

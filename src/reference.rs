@@ -76,6 +76,35 @@ pub fn peer_p1(n: usize, steps: usize) -> String {
     s
 }
 
+/// [`peer_p1`] with every gene's rate written as an expression (the same
+/// equations), to compare compiled expressions with the built-in Hill law.
+pub fn peer_p1_as_rates(n: usize, steps: usize) -> String {
+    let hill = peer_p1(n, steps);
+    let model = parse(&hill, "p1.toml").expect("P1 is valid");
+    let mut text = hill.split("[circuit]").next().expect("has a circuit").to_string();
+    for (g, gene) in model.genes.iter().enumerate() {
+        let mut act = String::new();
+        let mut rep = String::new();
+        for l in model.circuit.links.iter().filter(|l| l.to == g) {
+            let from = match l.from {
+                crate::model::Regulator::Gene(j) => model.genes[j].name.clone(),
+                crate::model::Regulator::Gradient(k) => model.gradients[k].name.clone(),
+            };
+            if let crate::model::LinkEffect::Hill { activates, threshold, .. } = l.effect {
+                if activates {
+                    act = format!("hill({from}, {threshold:?}, 2)");
+                } else {
+                    rep.push_str(&format!(" / (1 + ({from} / {threshold:?})^2)"));
+                }
+            }
+        }
+        let line = format!("rate = \"{:?} * {act}{rep} - {:?} * {}\"\n", gene.production, gene.decay, gene.name);
+        let marker = format!("name = \"{}\"\n", gene.name);
+        text = text.replacen(&marker, &format!("{marker}{line}"), 1);
+    }
+    text + "[circuit]\nkinetics = \"rates\"\n"
+}
+
 /// [`peer_p1`] recording `snapshots` evenly spaced snapshots after the start.
 pub fn peer_p1_recorded(n: usize, steps: usize, snapshots: usize) -> String {
     let until = 0.01 * steps as f64;

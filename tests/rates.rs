@@ -184,6 +184,16 @@ fn schnakenberg_turing_wavelength_murray_2003() {
     assert!(spread < 0.02, "below the critical ratio the state should stay uniform: spread {spread}");
 }
 
+/// Peer problem P1 written as rate expressions reproduces the peer's checksum
+/// (../shared/peer/peer_numpy.py, stored in tests/reference/peer_p1.csv) to 1e-9.
+#[test]
+fn peer_p1_as_rates_matches_checksum() {
+    let model = anlage::reference::parse(&anlage::reference::peer_p1_as_rates(100, 1000), "p1r.toml").unwrap();
+    assert!(model.genes.iter().all(|g| g.rate.is_some()));
+    let got = anlage::reference::checksum(run(&model).recording.final_state());
+    assert_relative_eq!(got, 47.79765276245791, max_relative = 1e-9);
+}
+
 /// A Hill circuit may give one gene a rate expression (mixing families).
 #[test]
 fn hill_and_rate_genes_mix() {

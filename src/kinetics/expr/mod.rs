@@ -226,6 +226,10 @@ enum Ins {
     Input(usize),
     Neg,
     Bin(Op),
+    /// top ← top op c
+    BinConst(Op, f64),
+    /// top ← c op top
+    ConstBin(Op, f64),
     PowI(i32),
     Call(Func, usize),
 }
@@ -273,7 +277,45 @@ impl Program {
                     top += 1;
                 }
                 Ins::Neg => stack[top - 1][..len].iter_mut().for_each(|v| *v = -*v),
-                Ins::PowI(n) => stack[top - 1][..len].iter_mut().for_each(|v| *v = v.powi(n)),
+                Ins::BinConst(op, c) => {
+                    let a = &mut stack[top - 1][..len];
+                    match op {
+                        Op::Add => a.iter_mut().for_each(|x| *x += c),
+                        Op::Sub => a.iter_mut().for_each(|x| *x -= c),
+                        Op::Mul => a.iter_mut().for_each(|x| *x *= c),
+                        Op::Div => {
+                            let inv = 1.0 / c;
+                            a.iter_mut().for_each(|x| *x *= inv)
+                        }
+                        Op::Pow => a.iter_mut().for_each(|x| *x = pow(*x, c)),
+                    }
+                }
+                Ins::ConstBin(op, c) => {
+                    let a = &mut stack[top - 1][..len];
+                    match op {
+                        Op::Add => a.iter_mut().for_each(|x| *x += c),
+                        Op::Sub => a.iter_mut().for_each(|x| *x = c - *x),
+                        Op::Mul => a.iter_mut().for_each(|x| *x *= c),
+                        Op::Div => a.iter_mut().for_each(|x| *x = c / *x),
+                        Op::Pow => a.iter_mut().for_each(|x| *x = pow(c, *x)),
+                    }
+                }
+                Ins::PowI(n) => {
+                    let a = &mut stack[top - 1][..len];
+                    // Small powers as products: powi with a runtime exponent is a call per element.
+                    match n {
+                        0 => a.fill(1.0),
+                        1 => {}
+                        2 => a.iter_mut().for_each(|x| *x *= *x),
+                        3 => a.iter_mut().for_each(|x| *x = *x * *x * *x),
+                        4 => a.iter_mut().for_each(|x| {
+                            let y = *x * *x;
+                            *x = y * y;
+                        }),
+                        -1 => a.iter_mut().for_each(|x| *x = 1.0 / *x),
+                        _ => a.iter_mut().for_each(|x| *x = x.powi(n)),
+                    }
+                }
                 Ins::Bin(op) => {
                     let (lo, hi) = stack.split_at_mut(top - 1);
                     let (a, b) = (&mut lo[top - 2][..len], &hi[0][..len]);
@@ -338,12 +380,24 @@ fn emit(e: &Expr, code: &mut Vec<Ins>, depth: usize) -> usize {
             code.push(Ins::PowI(n as i32));
             d
         }
-        Expr::Bin(op, a, b) => {
-            let da = emit(a, code, depth);
-            let db = emit(b, code, depth + 1);
-            code.push(Ins::Bin(*op));
-            da.max(db)
-        }
+        Expr::Bin(op, a, b) => match (&**a, &**b) {
+            (_, Expr::Num(c)) => {
+                let d = emit(a, code, depth);
+                code.push(Ins::BinConst(*op, *c));
+                d
+            }
+            (Expr::Num(c), _) => {
+                let d = emit(b, code, depth);
+                code.push(Ins::ConstBin(*op, *c));
+                d
+            }
+            _ => {
+                let da = emit(a, code, depth);
+                let db = emit(b, code, depth + 1);
+                code.push(Ins::Bin(*op));
+                da.max(db)
+            }
+        },
         Expr::Call(f, args) => {
             let mut d = depth;
             for (k, a) in args.iter().enumerate() {

@@ -270,3 +270,51 @@ fn fisher_kpp_front_speed() {
     eprintln!("Fisher-KPP: front speed {measured:.4} µm/min; 2√(Dr) = 2, with Bramson's term {corrected:.4}");
     assert!((measured - corrected).abs() <= 0.02 * corrected, "speed {measured} vs {corrected}");
 }
+
+/// Lateral inhibition by contact: each cell's receptor `plume` is activated by
+/// the mean ligand `quill` of its neighbours, and `plume` represses the cell's
+/// own `quill` (the model of Collier, Monk, Lewis & Lewis 1996, J. Theor. Biol.
+/// 183:429, eqs. 2.1–2.2, with f(x) = x²/(a + x²), g(x) = 1/(1 + b x²),
+/// a = 0.01, b = 100, v = 1; invented gene names). From small random
+/// differences a sheet settles into alternating cells: every high-quill cell's
+/// four neighbours are low.
+#[test]
+fn lateral_inhibition_gives_alternating_cells_collier_1996() {
+    let model = parse(
+        "seed = 2\n[tissue]\nnuclei = [16, 16]\nspacing_um = 10.0\nedges = \"periodic\"\n\
+         [clock]\nuntil_min = 300.0\ntolerance = 1e-6\nsnapshot_every_min = 300.0\n\
+         [[gene]]\nname = \"plume\"\nrate = \"neighbours(quill)^2 / (a + neighbours(quill)^2) - plume\"\ninitial = 0.5\ninitial_noise = 0.05\n\
+         [[gene]]\nname = \"quill\"\nrate = \"v * (1 / (1 + b * plume^2) - quill)\"\ninitial = 0.5\ninitial_noise = 0.05\n\
+         [circuit]\nkinetics = \"rates\"\nparameters = { a = 0.01, b = 100.0, v = 1.0 }\n",
+    );
+    assert!(model.circuit.neighbours);
+    let rec = run(&model).recording;
+    let q = rec.final_state().row(1).to_vec();
+    let n = 16;
+    let high: Vec<usize> = (0..n * n).filter(|&i| q[i] > 0.5).collect();
+    assert!(high.len() > n * n / 5, "{} high cells", high.len());
+    for &i in &high {
+        let (x, y) = (i % n, i / n);
+        for j in [y * n + (x + 1) % n, y * n + (x + n - 1) % n, ((y + 1) % n) * n + x, ((y + n - 1) % n) * n + x] {
+            assert!(q[j] < 0.5, "cell {i} high and its neighbour {j} high too");
+        }
+    }
+}
+
+/// Position and time in expressions: du/dt = x/100 − u relaxes to u = x/100;
+/// dw/dt = t gives w(T) = T²/2 (exact calculus), to within the O(Δt²) error
+/// of the IMEX-Euler first step (w(Δt) = 0 instead of Δt²/2): 1e-6 relative.
+#[test]
+fn position_and_time_in_expressions() {
+    let model = parse(
+        "[tissue]\nnuclei = [10]\nspacing_um = 10.0\n[clock]\nuntil_min = 40.0\nstep_min = 0.01\nsnapshot_every_min = 40.0\n\
+         [[gene]]\nname = \"u\"\nrate = \"x / 100 - u\"\n[[gene]]\nname = \"w\"\nrate = \"t\"\n\
+         [circuit]\nkinetics = \"rates\"\n",
+    );
+    let rec = run(&model).recording;
+    let fin = rec.final_state();
+    for i in 0..10 {
+        assert_relative_eq!(fin[[0, i]], (i as f64 + 0.5) * 10.0 / 100.0, max_relative = 1e-9);
+        assert_relative_eq!(fin[[1, i]], 800.0, max_relative = 1e-6);
+    }
+}

@@ -236,7 +236,10 @@ impl<'a> Stepper<'a> {
     fn evaluate_rates(&mut self) -> Result<(), StepError> {
         if self.tissue.time_varying() {
             self.tissue.fill_inputs(self.t, &mut self.inputs);
+        } else {
+            self.tissue.fill_time(self.t, &mut self.inputs);
         }
+        self.tissue.fill_neighbours(&self.u, &mut self.inputs);
         let kinetics = self.kinetics;
         let ax = Axis(1);
         let chunk = |(c, (mut out, (u, m))): (

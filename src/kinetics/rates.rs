@@ -27,13 +27,24 @@ impl Names for ModelNames<'_> {
         if let Some(k) = self.gradients.iter().position(|g| g.name == name) {
             return Some(Expr::Input(k));
         }
-        self.parameters.iter().find(|(n, _)| n == name).map(|(_, v)| Expr::Num(*v))
+        if let Some((_, v)) = self.parameters.iter().find(|(n, _)| n == name) {
+            return Some(Expr::Num(*v));
+        }
+        match name {
+            "x" => Some(Expr::Input(self.gradients.len())),
+            "t" => Some(Expr::Input(self.gradients.len() + 1)),
+            _ => None,
+        }
     }
     fn known(&self) -> String {
         let mut all: Vec<&str> = self.genes.iter().map(|g| g.name.as_str()).collect();
         all.extend(self.gradients.iter().map(|g| g.name.as_str()));
         all.extend(self.parameters.iter().map(|(n, _)| n.as_str()));
+        all.extend(["x", "t"]);
         all.join(", ")
+    }
+    fn neighbour(&self, gene: usize) -> Option<Expr> {
+        Some(Expr::Input(self.gradients.len() + 2 + gene))
     }
 }
 

@@ -360,4 +360,6 @@ pub struct Circuit {
     pub links: Vec<Link>,
     /// Named constants for rate expressions.
     pub parameters: Vec<(String, f64)>,
+    /// True when a rate expression reads neighbour means (contact signalling).
+    pub neighbours: bool,
 }

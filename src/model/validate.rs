@@ -45,12 +45,14 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
     }
     let circuit = match &spec.circuit {
         Some(c) => check_circuit(c, &spec.gene, &genes, &gradients, src)?,
-        None => Circuit { kinetics: KineticsKind::Hill, links: Vec::new(), parameters: Vec::new() },
+        None => Circuit { kinetics: KineticsKind::Hill, links: Vec::new(), parameters: Vec::new(), neighbours: false },
     };
+    let mut circuit = circuit;
     let names = crate::kinetics::ModelNames { genes: &genes, gradients: &gradients, parameters: &circuit.parameters };
+    let mut neighbours = false;
     for (i, (gs, g)) in spec.gene.iter().zip(&genes).enumerate() {
         if let Some(text) = &g.rate {
-            crate::kinetics::expr::parse(text, &names).map_err(|e| {
+            let e = crate::kinetics::expr::parse(text, &names).map_err(|e| {
                 src.invalid(
                     &gs.span(),
                     "rate",
@@ -59,8 +61,10 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
                     "fix the expression",
                 )
             })?;
+            neighbours |= e.reads_input_from(gradients.len() + 2);
         }
     }
+    circuit.neighbours = neighbours;
 
     let title = spec.title.clone().unwrap_or_else(|| {
         src.file().file_stem().map_or_else(|| "untitled".to_string(), |s| s.to_string_lossy().into_owned())
@@ -593,5 +597,5 @@ fn check_circuit(
         };
         links.push(Link { from, to, effect });
     }
-    Ok(Circuit { kinetics, links, parameters })
+    Ok(Circuit { kinetics, links, parameters, neighbours: false })
 }

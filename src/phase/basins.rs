@@ -106,7 +106,7 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
         .iter()
         .enumerate()
         .map(|(s, &t)| {
-            let m = tissue.inputs_at(t);
+            let m = tissue.inputs_with_state(t, &rec.states[s]);
             let influx: Vec<Vec<f64>> = (0..n_genes)
                 .map(|g| {
                     let mut lap = vec![0.0; n];

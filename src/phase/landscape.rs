@@ -23,14 +23,21 @@ pub struct PositionFamily<'a> {
     pub t_min: f64,
     /// Number of genes.
     pub genes: usize,
+    /// Neighbour-mean input rows the rate law expects (0 or the number of genes).
+    pub neighbour_genes: usize,
 }
 
 impl PositionFamily<'_> {
     /// Gradient values at position `s` (% of axis length).
+    /// Inputs at position `s` (% of axis length): the gradients, x and t, and
+    /// zero for any neighbour means (contact terms are not followed along the axis).
     pub fn inputs(&self, s: f64) -> Vec<f64> {
         let x = s / 100.0 * self.grid.length_um();
         let y = self.grid.height_um() / 2.0;
-        self.gradients.iter().map(|g| value_at(g, &self.grid, x, y, self.t_min)).collect()
+        let mut m: Vec<f64> = self.gradients.iter().map(|g| value_at(g, &self.grid, x, y, self.t_min)).collect();
+        m.extend([x, self.t_min]);
+        m.extend(std::iter::repeat_n(0.0, self.neighbour_genes));
+        m
     }
 }
 
@@ -70,6 +77,7 @@ pub fn landscape(model: &Model, t_min: f64, hi: &[f64]) -> Landscape {
         grid,
         t_min,
         genes: model.genes.len(),
+        neighbour_genes: if model.circuit.neighbours { model.genes.len() } else { 0 },
     };
     let tol = 1e-10 * model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
     let starts = box_starts(hi, 30);

@@ -42,7 +42,7 @@ pub fn portrait_data(model: &Model, rec: &Recording, nucleus: usize, a: usize, b
     let kinetics = crate::kinetics::build(model);
     let tissue = Tissue::new(model);
     let t = rec.times[s];
-    let inputs = tissue.inputs_at(t).column(nucleus).to_vec();
+    let inputs = tissue.inputs_with_state(t, &rec.states[s]).column(nucleus).to_vec();
     let n_genes = rec.genes.len();
     let full = Frozen { kinetics: kinetics.as_ref(), inputs, influx: vec![0.0; n_genes] };
     let state = rec.states[s].column(nucleus).to_vec();

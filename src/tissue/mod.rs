@@ -12,6 +12,11 @@ use ndarray::Array2;
 use crate::model::{Grid, Model};
 
 /// Geometry plus the static part of every gradient, ready for the integrator.
+///
+/// The input rows a rate law sees, per nucleus: each gradient, then the
+/// nucleus's position x (µm along the axis), the time t (min), and — when the
+/// circuit uses contact signalling — the mean level of each gene over the
+/// nucleus's neighbours (in gene order).
 #[derive(Debug, Clone)]
 pub struct Tissue {
     /// Grid.
@@ -21,6 +26,8 @@ pub struct Tissue {
     shape: Array2<f64>,
     /// Amplitude time course of each gradient, `(t_min, factor)`.
     amplitude: Vec<Vec<(f64, f64)>>,
+    /// Genes whose neighbour means are inputs (all genes, or none).
+    neighbour_genes: usize,
 }
 
 impl Tissue {
@@ -36,12 +43,27 @@ impl Tissue {
                 }
             }
         }
-        Tissue { grid, shape, amplitude: model.gradients.iter().map(|g| g.amplitude.clone()).collect() }
+        Tissue {
+            grid,
+            shape,
+            amplitude: model.gradients.iter().map(|g| g.amplitude.clone()).collect(),
+            neighbour_genes: if model.circuit.neighbours { model.genes.len() } else { 0 },
+        }
     }
 
     /// Number of gradients.
-    pub fn n_inputs(&self) -> usize {
+    pub fn n_gradients(&self) -> usize {
         self.shape.nrows()
+    }
+
+    /// Number of input rows: gradients, x, t, and neighbour means if used.
+    pub fn n_inputs(&self) -> usize {
+        self.shape.nrows() + 2 + self.neighbour_genes
+    }
+
+    /// True when the circuit reads neighbour means.
+    pub fn uses_neighbours(&self) -> bool {
+        self.neighbour_genes > 0
     }
 
     /// True when any gradient's amplitude changes with time.
@@ -49,22 +71,83 @@ impl Tissue {
         self.amplitude.iter().any(|a| a.len() > 1)
     }
 
-    /// Writes every gradient's value at time `t_min` into `out` ([gradient, nucleus]).
+    /// Writes the gradients, x and t at time `t_min` into `out` ([input, nucleus]);
+    /// neighbour rows are left as they are.
     ///
     /// # Panics
-    /// If `out` does not have the shape [gradients, nuclei].
+    /// If `out` does not have [`Self::n_inputs`] rows of every nucleus.
     pub fn fill_inputs(&self, t_min: f64, out: &mut Array2<f64>) {
-        assert_eq!(out.dim(), self.shape.dim(), "input buffer shape");
+        assert_eq!(out.dim(), (self.n_inputs(), self.grid.len()), "input buffer shape");
+        let k = self.shape.nrows();
         for (m, (mut row, shape)) in out.outer_iter_mut().zip(self.shape.outer_iter()).enumerate() {
             let a = amplitude_at(&self.amplitude[m], t_min);
             row.zip_mut_with(&shape, |o, s| *o = a * s);
         }
+        let nx = self.grid.nx;
+        for (i, v) in out.row_mut(k).iter_mut().enumerate() {
+            *v = self.grid.x_um(i % nx);
+        }
+        self.fill_time(t_min, out);
     }
 
-    /// Gradient values at time `t_min`, [gradient, nucleus].
+    /// Writes only the time row.
+    pub fn fill_time(&self, t_min: f64, out: &mut Array2<f64>) {
+        out.row_mut(self.shape.nrows() + 1).fill(t_min);
+    }
+
+    /// Writes each gene's mean over each nucleus's neighbours (the existing ones
+    /// on sealed edges, wrapped on periodic ones; 2 in a row, 4 on a sheet)
+    /// into the neighbour rows, if the circuit uses them.
+    pub fn fill_neighbours(&self, u: &Array2<f64>, out: &mut Array2<f64>) {
+        if self.neighbour_genes == 0 {
+            return;
+        }
+        let base = self.shape.nrows() + 2;
+        let (nx, ny) = (self.grid.nx, self.grid.ny);
+        let periodic = self.grid.edges == crate::model::Edges::Periodic;
+        let step = |i: usize, n: usize, forward: bool| -> Option<usize> {
+            match (forward, i) {
+                (true, i) if i + 1 < n => Some(i + 1),
+                (false, i) if i > 0 => Some(i - 1),
+                _ if periodic && n > 1 => Some(if forward { 0 } else { n - 1 }),
+                _ => None,
+            }
+        };
+        for g in 0..self.neighbour_genes {
+            let src = u.row(g);
+            let mut dst = out.row_mut(base + g);
+            for iy in 0..ny {
+                for ix in 0..nx {
+                    let mut sum = 0.0;
+                    let mut count = 0;
+                    for x in [step(ix, nx, false), step(ix, nx, true)].into_iter().flatten() {
+                        sum += src[iy * nx + x];
+                        count += 1;
+                    }
+                    if ny > 1 {
+                        for y in [step(iy, ny, false), step(iy, ny, true)].into_iter().flatten() {
+                            sum += src[y * nx + ix];
+                            count += 1;
+                        }
+                    }
+                    dst[iy * nx + ix] = if count > 0 { sum / count as f64 } else { 0.0 };
+                }
+            }
+        }
+    }
+
+    /// All inputs at time `t_min`, [input, nucleus]; neighbour rows from `u`
+    /// when given, else zero.
     pub fn inputs_at(&self, t_min: f64) -> Array2<f64> {
-        let mut out = Array2::zeros(self.shape.dim());
+        let mut out = Array2::zeros((self.n_inputs(), self.grid.len()));
         self.fill_inputs(t_min, &mut out);
+        out
+    }
+
+    /// All inputs at time `t_min` with the neighbour means of state `u`.
+    pub fn inputs_with_state(&self, t_min: f64, u: &Array2<f64>) -> Array2<f64> {
+        let mut out = self.inputs_at(t_min);
+        self.fill_neighbours(u, &mut out);
         out
     }
 }

@@ -80,6 +80,17 @@ impl Expr {
         }
     }
 
+    /// True if the expression reads an input row with index ≥ `first`.
+    pub fn reads_input_from(&self, first: usize) -> bool {
+        match self {
+            Expr::Input(k) => *k >= first,
+            Expr::Num(_) | Expr::Gene(_) => false,
+            Expr::Neg(a) => a.reads_input_from(first),
+            Expr::Bin(_, a, b) => a.reads_input_from(first) || b.reads_input_from(first),
+            Expr::Call(_, args) => args.iter().any(|a| a.reads_input_from(first)),
+        }
+    }
+
     /// ∂/∂(gene g), simplified.
     pub fn derivative(&self, g: usize) -> Expr {
         if !self.depends_on(g) {

@@ -19,6 +19,11 @@ pub trait Names {
     fn resolve(&self, name: &str) -> Option<Expr>;
     /// All names, for error messages.
     fn known(&self) -> String;
+    /// The mean of gene `gene` over a nucleus's neighbours, if supported.
+    fn neighbour(&self, gene: usize) -> Option<Expr> {
+        let _ = gene;
+        None
+    }
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -190,6 +195,17 @@ fn atom(lx: &mut Lexer, names: &dyn Names) -> Result<Expr, ParseError> {
                     args.push(expr(lx, names)?);
                 }
                 lx.expect(')')?;
+                if n == "neighbours" {
+                    return match args.as_slice() {
+                        [Expr::Gene(g)] => names
+                            .neighbour(*g)
+                            .ok_or_else(|| ParseError { column, message: "neighbours() is not available here".into() }),
+                        _ => Err(ParseError {
+                            column,
+                            message: "neighbours() takes one gene name, e.g. neighbours(quill)".into(),
+                        }),
+                    };
+                }
                 return call(&n, args, column);
             }
             names.resolve(&n).ok_or_else(|| ParseError {

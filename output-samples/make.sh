@@ -26,6 +26,9 @@ for model in patterns/*.toml; do
     # The ribbon on white, as for a printed figure.
     "$bin" render "$out" --kind kymograph --light --width 560 -o output-samples/ribbon-light > /dev/null
   fi
+  if [ "$name" = ring_waves ]; then
+    "$bin" render "$out" --kind kymograph --genes cyan --heatmap --width 560 -o "$out/cyan" > /dev/null
+  fi
   if [ "$name" = band ]; then
     # One gene as a heat map.
     "$bin" render "$out" --kind kymograph --genes teal --heatmap --width 560 -o output-samples/band-teal-heatmap > /dev/null

@@ -38,3 +38,14 @@ pub fn with_tolerance(model: &Model, tol: f64) -> Model {
     m.clock.stepping = Stepping::Adaptive { rtol: tol, atol: tol, max_step_min: m.clock.snapshot_every_min };
     m
 }
+
+/// Bisection on a monotone yes/no property: `below(lo)` holds, `below(hi)` does
+/// not; returns the midpoint of the final bracket after `iterations` halvings.
+pub fn bisect(mut lo: f64, mut hi: f64, iterations: usize, below: impl Fn(f64) -> bool) -> f64 {
+    assert!(below(lo) && !below(hi), "the bracket must straddle the change");
+    for _ in 0..iterations {
+        let mid = 0.5 * (lo + hi);
+        if below(mid) { lo = mid } else { hi = mid }
+    }
+    0.5 * (lo + hi)
+}

@@ -79,13 +79,9 @@ fn toggle_points_and_eigenvalues_gardner_2000() {
 fn toggle_symmetric_threshold_gardner_2000() {
     let r = reference();
     let stable = |a: f64| toggle_points(a, a).iter().filter(|p| p.kind.is_stable()).count();
-    let (mut lo, mut hi) = (1.0, 1.5);
-    assert_eq!((stable(lo), stable(hi)), (1, 2));
-    for _ in 0..40 {
-        let mid = 0.5 * (lo + hi);
-        if stable(mid) == 1 { lo = mid } else { hi = mid }
-    }
-    assert_relative_eq!(0.5 * (lo + hi), r.toggle_symmetric_threshold, max_relative = 1e-6);
+    assert_eq!((stable(1.0), stable(1.5)), (1, 2));
+    let threshold = crate::common::bisect(1.0, 1.5, 40, |a| stable(a) == 1);
+    assert_relative_eq!(threshold, r.toggle_symmetric_threshold, max_relative = 1e-6);
 }
 
 /// The toggle with a2 = 3 as a family in a1.
@@ -206,13 +202,9 @@ fn brusselator_hopf_onset_strogatz() {
         let sys = Brusselator { a, b };
         phase::fixed::fixed_point_at(&sys, vec![a, b / a]).kind
     };
-    let (mut lo, mut hi) = (2.0, 4.0);
-    assert_eq!((kind(lo), kind(hi)), (Kind::StableFocus, Kind::UnstableFocus));
-    for _ in 0..40 {
-        let mid = 0.5 * (lo + hi);
-        if kind(mid) == Kind::StableFocus { lo = mid } else { hi = mid }
-    }
-    assert_relative_eq!(0.5 * (lo + hi), 1.0 + a * a, max_relative = 1e-7);
+    assert_eq!((kind(2.0), kind(4.0)), (Kind::StableFocus, Kind::UnstableFocus));
+    let onset = crate::common::bisect(2.0, 4.0, 40, |b| kind(b) == Kind::StableFocus);
+    assert_relative_eq!(onset, 1.0 + a * a, max_relative = 1e-7);
 }
 
 /// Past onset (A = 1, B = 3) the state settles on a limit cycle whose period

@@ -1,7 +1,7 @@
 //! Rate expressions: compiled programs, symbolic Jacobians, and published
 //! pattern-forming and oscillating systems written as rates.
 
-use anlage::kinetics::{self, Kinetics};
+use anlage::kinetics;
 use anlage::phase::{self, Frozen, Kind};
 use approx::assert_relative_eq;
 
@@ -97,13 +97,9 @@ fn brusselator_as_rates_hopf_onset() {
         let sys = Frozen { kinetics: k.as_ref(), inputs: vec![], influx: vec![0.0; 2] };
         phase::fixed::fixed_point_at(&sys, vec![a, b / a]).kind
     };
-    let (mut lo, mut hi) = (2.0, 4.0);
-    assert_eq!((kind(lo), kind(hi)), (Kind::StableFocus, Kind::UnstableFocus));
-    for _ in 0..40 {
-        let mid = 0.5 * (lo + hi);
-        if kind(mid) == Kind::StableFocus { lo = mid } else { hi = mid }
-    }
-    assert_relative_eq!(0.5 * (lo + hi), 1.0 + a * a, max_relative = 1e-7);
+    assert_eq!((kind(2.0), kind(4.0)), (Kind::StableFocus, Kind::UnstableFocus));
+    let onset = crate::common::bisect(2.0, 4.0, 40, |b| kind(b) == Kind::StableFocus);
+    assert_relative_eq!(onset, 1.0 + a * a, max_relative = 1e-7);
 }
 
 /// Wavelength (cells) of the fastest-growing mode on a periodic row of `n`

@@ -222,3 +222,23 @@ fn bad_measured_tables_are_refused_clearly() {
     .unwrap();
     assert_eq!(ok[0].time_min, Some(200.0));
 }
+
+/// A 16-bit TIFF gives the same boundaries as the 16-bit PNG of the same image.
+#[test]
+fn tiff_reads_like_png() {
+    let o = options(-20.0, 7);
+    let planes = synth::synthesize(&o, 2, &two_domains);
+    let dir = std::env::temp_dir().join(format!("anlage-tiff-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let png = dir.join("e.png");
+    std::fs::write(&png, synth::png(&planes, o.width, o.height, 16).unwrap()).unwrap();
+    let img = image::open(&png).unwrap();
+    let tif = dir.join("e.tif");
+    img.save(&tif).unwrap();
+    let channels = [Channel { gene: "amber".into(), plane: 0 }, Channel { gene: "cobalt".into(), plane: 1 }];
+    let a = measure::measure(&measure::load(&png).unwrap(), &channels, Head::Auto).unwrap().boundaries;
+    let t = measure::load(&tif).unwrap();
+    assert_eq!(t.bits, 16);
+    let b = measure::measure(&t, &channels, Head::Auto).unwrap().boundaries;
+    assert_eq!(a, b);
+}

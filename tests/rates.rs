@@ -118,6 +118,14 @@ fn fastest_wavelength(j: [f64; 4], du: f64, dv: f64, n: usize) -> f64 {
     n as f64 / (1..n / 2).max_by(|&p, &q| growth(p).total_cmp(&growth(q))).unwrap() as f64
 }
 
+/// Stored linear-theory values (tests/reference/turing.py, SciPy): fastest-growing
+/// wavelength and critical diffusion ratio of a system.
+fn turing_reference(system: &str) -> (f64, f64) {
+    let text = std::fs::read_to_string(crate::common::root().join("tests/reference/turing.json")).unwrap();
+    let v: serde_json::Value = serde_json::from_str(&text).unwrap();
+    (v[system]["fastest_wavelength_cells"].as_f64().unwrap(), v[system]["critical_ratio"].as_f64().unwrap())
+}
+
 /// Schnakenberg kinetics on a periodic row of 256 cells (h = 1), a = 0.1, b = 0.9,
 /// Du = 1, from the uniform state plus 1 % noise.
 fn schnakenberg(dv: f64) -> anlage::model::Model {
@@ -162,7 +170,11 @@ fn schnakenberg_turing_wavelength_murray_2003() {
     let (a, b, du, dv) = (0.1, 0.9, 1.0, 20.0);
     let (us, vs) = (a + b, b / ((a + b) * (a + b)));
     let n = 256;
-    let want = fastest_wavelength([-1.0 + 2.0 * us * vs, us * us, -2.0 * us * vs, -us * us], du, dv, n);
+    let (want, critical) = turing_reference("schnakenberg");
+    assert!(5.0 < critical && critical < dv, "Dv = 5 below and Dv = 20 above the critical ratio {critical}");
+    // The same linear theory computed here agrees with SciPy's.
+    let here = fastest_wavelength([-1.0 + 2.0 * us * vs, us * us, -2.0 * us * vs, -us * us], du, dv, n);
+    assert_relative_eq!(here, want, max_relative = 1e-12);
     assert!((12.0..14.0).contains(&want), "linear theory wavelength {want}");
 
     let rec = run(&schnakenberg(dv)).recording;
@@ -224,7 +236,9 @@ fn gierer_meinhardt_turing_wavelength() {
     };
     let (a, h) = (2.1, 2.205);
     let j = [2.0 * a / h - 1.0, -(a * a) / (h * h), 2.0 * a, -2.0];
-    let want = fastest_wavelength(j, 1.0, 25.0, 256);
+    let (want, critical) = turing_reference("gierer_meinhardt");
+    assert!(8.0 < critical && critical < 25.0, "Dh = 8 below and 25 above the critical ratio {critical}");
+    assert_relative_eq!(fastest_wavelength(j, 1.0, 25.0, 256), want, max_relative = 1e-12);
     let u = run(&gm(25.0)).recording.final_state().row(0).to_vec();
     let amplitude =
         u.iter().copied().fold(f64::NEG_INFINITY, f64::max) - u.iter().copied().fold(f64::INFINITY, f64::min);

@@ -86,10 +86,14 @@ impl Model {
         self.snapshot_count() as u64 * self.genes.len() as u64 * self.grid.len() as u64 * 8
     }
 
-    /// Bytes of the integrator's working arrays (state history, rates, inputs).
+    /// Bytes of the integrator's working arrays: state history and rates (7 per
+    /// gene), input rows (gradients, x, t, neighbour means) and the gradient
+    /// shapes, plus two spare fields for solver scratch.
     pub fn working_bytes(&self) -> u64 {
         let per_field = self.grid.len() as u64 * 8;
-        (7 * self.genes.len() as u64 + 2 * self.gradients.len() as u64 + 2) * per_field
+        let genes = self.genes.len() as u64;
+        let inputs = self.gradients.len() as u64 + 2 + if self.circuit.neighbours { genes } else { 0 };
+        (7 * genes + inputs + self.gradients.len() as u64 + 2) * per_field
     }
 }
 

@@ -2,12 +2,8 @@
 
 use std::path::Path;
 
-use super::{ExportError, write_atomic};
+use super::{ExportError, opt, write_atomic};
 use crate::compare::{Comparison, MeasuredRow};
-
-fn opt<T: ToString>(v: Option<T>) -> String {
-    v.map_or_else(String::new, |x| x.to_string())
-}
 
 /// A measured-boundary table: `sample, time, gene, direction, position_pct, sd_pct, n`.
 ///

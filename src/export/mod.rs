@@ -20,6 +20,11 @@ pub use phase_tables::{write_attractors, write_basins, write_commitment, write_l
 pub use screen_tables::{write_sensitivity, write_shifts};
 pub use tables::{write_boundaries, write_domains, write_profiles, write_sheet};
 
+/// A table cell for an optional value: empty when absent.
+pub(crate) fn opt<T: ToString>(v: Option<T>) -> String {
+    v.map_or_else(String::new, |x| x.to_string())
+}
+
 /// An output file that could not be written.
 #[derive(Debug, thiserror::Error)]
 pub enum ExportError {

@@ -2,12 +2,8 @@
 
 use std::path::Path;
 
-use super::{ExportError, write_atomic};
+use super::{ExportError, opt, write_atomic};
 use crate::screen::{Screen, SensitivityRow};
-
-fn opt(v: Option<f64>) -> String {
-    v.map_or_else(String::new, |x| x.to_string())
-}
 
 /// `shifts.csv`: `mutant, gene, direction, wild_type_um, wild_type_pct,
 /// mutant_um, mutant_pct, shift_um, shift_pct, status` (moved, lost, gained, failed: …).

@@ -1,39 +1,7 @@
-//! Finding the embryo in an image: Otsu threshold, largest connected region,
+//! Finding the embryo in an image: pixels above a fitted background, largest connected region,
 //! holes filled, principal axes.
 
 use std::collections::VecDeque;
-
-/// Otsu's threshold of `values` (256 bins over their range): the level that
-/// maximises the between-class variance (Otsu 1979, IEEE Trans. Syst. Man
-/// Cybern. 9:62).
-pub fn otsu(values: &[f64]) -> f64 {
-    let (lo, hi) = values.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), v| (l.min(*v), h.max(*v)));
-    if !(hi > lo) {
-        return lo;
-    }
-    let mut hist = [0usize; 256];
-    for v in values {
-        hist[(((v - lo) / (hi - lo)) * 255.0).round() as usize] += 1;
-    }
-    let total = values.len() as f64;
-    let sum_all: f64 = hist.iter().enumerate().map(|(i, n)| i as f64 * *n as f64).sum();
-    let (mut w0, mut sum0, mut best, mut best_k) = (0.0, 0.0, -1.0, 0usize);
-    for (k, n) in hist.iter().enumerate() {
-        w0 += *n as f64;
-        sum0 += k as f64 * *n as f64;
-        let w1 = total - w0;
-        if w0 == 0.0 || w1 == 0.0 {
-            continue;
-        }
-        let (m0, m1) = (sum0 / w0, (sum_all - sum0) / w1);
-        let between = w0 * w1 * (m0 - m1) * (m0 - m1);
-        if between > best {
-            best = between;
-            best_k = k;
-        }
-    }
-    lo + (best_k as f64 + 0.5) / 255.0 * (hi - lo)
-}
 
 /// Pixels brighter than the background: a plane a + b·x + c·y is fitted by
 /// least squares to the image border (where the embryo must not be), so an
@@ -211,10 +179,6 @@ pub struct Embryo {
     pub cy: f64,
     /// Unit vector of the long axis (columns, rows).
     pub axis: (f64, f64),
-    /// Extent along the long axis: min and max projection from the centroid, px.
-    pub along: (f64, f64),
-    /// Extent across: min and max projection on the short axis, px.
-    pub across: (f64, f64),
     /// Pixels in the region.
     pub area: usize,
     /// Variances of the coordinates along and across the long axis, px².
@@ -276,13 +240,5 @@ pub fn principal_axes(mask: &[bool], width: usize) -> Option<Embryo> {
     let spread = (0.25 * (sxx - syy) * (sxx - syy) + sxy * sxy).sqrt();
     let variances = (mean + spread, (mean - spread).max(0.0));
     let axis = (theta.cos(), theta.sin());
-    let (mut along, mut across) = ((f64::INFINITY, f64::NEG_INFINITY), (f64::INFINITY, f64::NEG_INFINITY));
-    for (x, y) in &pts {
-        let (dx, dy) = (x - cx, y - cy);
-        let t = dx * axis.0 + dy * axis.1;
-        let s = -dx * axis.1 + dy * axis.0;
-        along = (along.0.min(t), along.1.max(t));
-        across = (across.0.min(s), across.1.max(s));
-    }
-    Some(Embryo { cx, cy, axis, along, across, area: pts.len(), variances })
+    Some(Embryo { cx, cy, axis, area: pts.len(), variances })
 }

@@ -136,8 +136,8 @@ impl Tissue {
         }
     }
 
-    /// All inputs at time `t_min`, [input, nucleus]; neighbour rows from `u`
-    /// when given, else zero.
+    /// All inputs at time `t_min`, [input, nucleus]; neighbour rows zero
+    /// (see [`Self::inputs_with_state`]).
     pub fn inputs_at(&self, t_min: f64) -> Array2<f64> {
         let mut out = Array2::zeros((self.n_inputs(), self.grid.len()));
         self.fill_inputs(t_min, &mut out);

@@ -32,6 +32,13 @@ pub enum Command {
         /// Print nothing but errors.
         #[arg(short, long)]
         quiet: bool,
+        /// Write tables, states and the summary but no pictures.
+        #[arg(long)]
+        no_pictures: bool,
+        /// Print one JSON line: solve time (loading the model, set-up and all steps), steps and the sum of
+        /// the final state (for comparing implementations).
+        #[arg(long)]
+        timing: bool,
         /// How pictures look.
         #[command(flatten)]
         look: Look,

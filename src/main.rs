@@ -75,21 +75,34 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             print!("{}", report::describe(&model));
             Ok(())
         }
-        Command::Run { model: path, out, threads, quiet, look } => {
+        Command::Run { model: path, out, threads, quiet, no_pictures, timing, look } => {
             if let Some(n) = threads {
                 rayon::ThreadPoolBuilder::new().num_threads((*n).max(1)).build_global().context("setting threads")?;
             }
+            let start = std::time::Instant::now();
             let model = Model::load(path)?;
             let style_options = look.options();
             // Check the picture options before a long run, against the snapshot times to come.
             Style::with_options(&planned_recording(&model), &model.title, &style_options)?;
             let options = anlage::RunOptions { parallel: true, progress: !quiet };
             let run = anlage::simulate(&model, &options).with_context(|| format!("simulating {}", path.display()))?;
+            let checksum: f64 = run.recording.final_state().iter().sum();
+            let solve_seconds = start.elapsed().as_secs_f64();
             let dir = out.clone().unwrap_or_else(|| default_out(path));
-            let summary = anlage::write_run(&model, &run, &dir, &style_options)
+            let summary = anlage::write_run(&model, &run, &dir, &style_options, !no_pictures)
                 .with_context(|| format!("writing outputs to {}", dir.display()))?;
-            if !quiet {
-                print!("{}", report::final_boundaries(&summary, &dir));
+            if *timing {
+                let line = serde_json::json!({
+                    "model": path.display().to_string(),
+                    "nuclei": model.grid.len(),
+                    "genes": model.genes.len(),
+                    "steps": run.stats.steps,
+                    "solve_seconds": solve_seconds,
+                    "checksum": checksum,
+                });
+                println!("{line}");
+            } else if !quiet {
+                print!("{}", report::final_boundaries(&summary, run.wall_time_s, &dir));
             }
             Ok(())
         }

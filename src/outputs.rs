@@ -18,6 +18,7 @@ pub fn write_run(
     run: &Run,
     dir: &Path,
     style_options: &render::StyleOptions,
+    pictures: bool,
 ) -> Result<Summary, WriteError> {
     let style = render::Style::with_options(&run.recording, &model.title, style_options)?;
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
@@ -36,7 +37,9 @@ pub fn write_run(
     export::write_json(&summary, &path("summary.json"))?;
     export::write_atomic(&path("model.toml"), |w| w.write_all(model.text.as_bytes()))?;
 
-    write_pictures(rec, &boundaries, &style, dir, PictureKind::All)?;
+    if pictures {
+        write_pictures(rec, &boundaries, &style, dir, PictureKind::All)?;
+    }
     Ok(summary)
 }
 

@@ -138,6 +138,45 @@ pub fn toggle_sheet_movie(n: usize, frames: usize) -> String {
     toggle_sheet(n, 10 * frames).replace(&format!("snapshot_every_min = {until:?}"), "snapshot_every_min = 1.0")
 }
 
+/// The peer's pseudo-random unit number ξ(k) = (splitmix64(k) >> 11)·2⁻⁵³
+/// (Steele, Lea & Flood 2014, OOPSLA, "Fast splittable pseudorandom number
+/// generators"; the finaliser constants as in the peer's docstring).
+pub fn splitmix_unit(k: u64) -> f64 {
+    let mut z = k.wrapping_add(0x9E37_79B9_7F4A_7C15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+    z ^= z >> 31;
+    (z >> 11) as f64 * (-53f64).exp2()
+}
+
+/// Peer problem P2 (../shared/peer/peer_numpy.py): Schnakenberg kinetics
+/// (a = 0.1, b = 0.9, D_u = 1, D_v = 20) on an `n × n` sheet with h = 1 and
+/// sealed edges, dt = 0.1 for `steps` steps, from the peer's splitmix64 start.
+/// Writes the start as `p2_{n}_u.npy` and `p2_{n}_v.npy` in `dir` and returns
+/// the model text (which reads them).
+///
+/// # Errors
+/// If the files cannot be written.
+pub fn write_peer_p2(dir: &Path, n: usize, steps: usize) -> std::io::Result<String> {
+    use ndarray_npy::WriteNpyExt;
+    let cells = (n * n) as u64;
+    for (name, base, offset) in [("u", 1.0, 0), ("v", 0.9, cells)] {
+        let start = ndarray::Array2::from_shape_fn((n, n), |(r, c)| {
+            base + 0.01 * (2.0 * splitmix_unit((r * n + c) as u64 + offset) - 1.0)
+        });
+        let file = std::fs::File::create(dir.join(format!("p2_{n}_{name}.npy")))?;
+        start.write_npy(std::io::BufWriter::new(file)).map_err(std::io::Error::other)?;
+    }
+    let until = 0.1 * steps as f64;
+    Ok(format!(
+        "title = \"peer P2\"\n[tissue]\nnuclei = [{n}, {n}]\nspacing_um = 1.0\n\
+         [clock]\nuntil_min = {until:?}\nstep_min = 0.1\nsnapshot_every_min = {until:?}\n\
+         [[gene]]\nname = \"u\"\nrate = \"a - u + u^2 * v\"\ndiffusion = 1.0\ninitial_file = \"p2_{n}_u.npy\"\n\
+         [[gene]]\nname = \"v\"\nrate = \"b - u^2 * v\"\ndiffusion = 20.0\ninitial_file = \"p2_{n}_v.npy\"\n\
+         [circuit]\nkinetics = \"rates\"\nparameters = {{ a = 0.1, b = 0.9 }}\n"
+    ))
+}
+
 /// Sum of every value of a state: the peer's checksum.
 pub fn checksum(state: &ndarray::Array2<f64>) -> f64 {
     state.iter().sum()

@@ -118,12 +118,12 @@ fn anlage_stepping(s: &Stepping) -> String {
 }
 
 /// What `anlage run` prints at the end.
-pub fn final_boundaries(summary: &Summary, dir: &Path) -> String {
+pub fn final_boundaries(summary: &Summary, wall_time_s: f64, dir: &Path) -> String {
     let mut s = String::new();
     let _ = writeln!(
         s,
         "{}: {} steps ({} rejected) to t = {} min in {:.2} s",
-        summary.title, summary.steps, summary.rejected_steps, summary.final_time_min, summary.wall_time_s
+        summary.title, summary.steps, summary.rejected_steps, summary.final_time_min, wall_time_s
     );
     if summary.final_boundaries.is_empty() {
         let _ = writeln!(s, "no boundaries at the final time");

@@ -44,8 +44,6 @@ pub struct Summary {
     pub snapshots: usize,
     /// Final time, min.
     pub final_time_min: f64,
-    /// Wall time of the integration, s (the only field that changes between identical runs).
-    pub wall_time_s: f64,
     /// Boundaries at the final time.
     pub final_boundaries: Vec<Boundary>,
     /// Domains at the final time.
@@ -99,7 +97,6 @@ impl Summary {
             rejected_steps: run.stats.rejected,
             snapshots: rec.times.len(),
             final_time_min: rec.times[last],
-            wall_time_s: run.wall_time_s,
             final_boundaries: boundaries_at(rec, last),
             final_domains: domains_at(rec, last),
         }

@@ -149,6 +149,9 @@ pub struct GeneSpec {
     pub initial: Option<f64>,
     /// Initial level per nucleus, a.u. (row-major for sheets).
     pub initial_profile: Option<Vec<f64>>,
+    /// Initial level per nucleus from an NPY file of f64 (shape `[nuclei]` or
+    /// `[ny, nx]`), path relative to the model file.
+    pub initial_file: Option<String>,
     /// Half-width of uniform noise added to the initial level, a.u. (default 0).
     pub initial_noise: Option<f64>,
     /// Hill kinetics: how activators combine, `"all"` (product, default) or `"any"` (sum).

@@ -402,6 +402,32 @@ fn check_gradient(i: usize, g: &Spanned<GradientSpec>, grid: &Grid, src: &Source
     Ok(Gradient { name: spec.name.clone(), shape, from, peak, baseline, amplitude })
 }
 
+/// Reads `initial_file` (relative to the model file): an NPY array of f64 with
+/// one value per nucleus, shape `[nuclei]` or `[ny, nx]`.
+fn read_initial_file(c: &Checker, name: &str, grid: &Grid) -> Result<Vec<f64>, ModelError> {
+    use ndarray_npy::ReadNpyExt;
+    let path = c.src.file().parent().map_or_else(|| name.into(), |dir| dir.join(name));
+    let fix = "give an NPY file of float64 levels, one per nucleus (shape [nuclei] or [ny, nx])";
+    let file = std::fs::File::open(&path)
+        .map_err(|e| c.fail("initial_file", format!("`{}` cannot be opened: {e}", path.display()), fix))?;
+    let array = ndarray::ArrayD::<f64>::read_npy(std::io::BufReader::new(file))
+        .map_err(|e| c.fail("initial_file", format!("`{}` is not a float64 NPY array: {e}", path.display()), fix))?;
+    let shape = array.shape().to_vec();
+    let fits = match shape[..] {
+        [n] => n == grid.len(),
+        [ny, nx] => ny == grid.ny && nx == grid.nx,
+        _ => false,
+    };
+    if !fits {
+        return Err(c.fail(
+            "initial_file",
+            format!("`{}` has shape {shape:?} but the tissue is {} x {} nuclei", path.display(), grid.ny, grid.nx),
+            fix,
+        ));
+    }
+    Ok(array.iter().copied().collect())
+}
+
 fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Source) -> Result<Gene, ModelError> {
     let spec = g.get_ref();
     let c = Checker { src, span: g.span(), prefix: format!("gene[{i}] `{}`.", spec.name) };
@@ -412,24 +438,36 @@ fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Source) -> Res
     let decay = c.non_negative("decay", c.required("decay", spec.decay.or(needed), why)?, "1/min")?;
     let diffusion = c.non_negative("diffusion", spec.diffusion.unwrap_or(0.0), "µm²/min")?;
     let initial_noise = c.non_negative("initial_noise", spec.initial_noise.unwrap_or(0.0), "a.u.")?;
-    let initial = match (&spec.initial, &spec.initial_profile) {
+    let profile = match (&spec.initial_profile, &spec.initial_file) {
         (Some(_), Some(_)) => {
-            return Err(c.fail("initial_profile", "is given together with `initial`".into(), "keep one of the two"));
+            return Err(c.fail(
+                "initial_file",
+                "is given together with `initial_profile`".into(),
+                "keep one of the two",
+            ));
+        }
+        (Some(p), None) => Some(("initial_profile", p.clone())),
+        (None, Some(f)) => Some(("initial_file", read_initial_file(&c, f, grid)?)),
+        (None, None) => None,
+    };
+    let initial = match (&spec.initial, profile) {
+        (Some(_), Some((key, _))) => {
+            return Err(c.fail(key, "is given together with `initial`".into(), "keep one of the two"));
         }
         (Some(v), None) => Initial::Uniform(c.non_negative("initial", *v, "a.u.")?),
         (None, None) => Initial::Uniform(0.0),
-        (None, Some(p)) => {
+        (None, Some((key, p))) => {
             if p.len() != grid.len() {
                 return Err(c.fail(
-                    "initial_profile",
+                    key,
                     format!("has {} values but the tissue has {} nuclei", p.len(), grid.len()),
                     "give one value per nucleus (row by row for a sheet)",
                 ));
             }
             if let Some((k, v)) = p.iter().enumerate().find(|(_, v)| !v.is_finite() || **v < 0.0) {
-                return Err(c.fail("initial_profile", format!("value {k} is {v}"), "give finite levels >= 0"));
+                return Err(c.fail(key, format!("value {k} is {v}"), "give finite levels >= 0"));
             }
-            Initial::Profile(p.clone())
+            Initial::Profile(p)
         }
     };
     let color = match &spec.color {

@@ -26,20 +26,26 @@ const BLOCKS: usize = 16;
 const PARALLEL_MIN: usize = 4096;
 
 /// A kept factorisation of the symmetric tridiagonal matrix `a₀ I − c ∇²` on a sealed row.
+///
+/// LU without pivoting (the matrix is diagonally dominant): `m_i = off/w_{i−1}`,
+/// `w_i = diag_i − m_i·off`. The back substitution is stored as
+/// `x_i = y_i/w_i − (off/w_i)·x_{i+1}`, so both sweeps are one multiply–add
+/// per value, and up to four rows are swept together to hide the latency.
 #[derive(Debug, Clone)]
 pub struct TriFactor {
     a0: f64,
     c: f64,
     h: f64,
-    off: f64,
     inv_w: Vec<f64>,
+    /// off/w_i (0 for the last nucleus).
+    up: Vec<f64>,
     m: Vec<f64>,
 }
 
 impl TriFactor {
     /// An empty factor for a row of `n` nuclei with spacing `h` µm.
     pub fn new(n: usize, h: f64) -> TriFactor {
-        TriFactor { a0: f64::NAN, c: f64::NAN, h, off: 0.0, inv_w: vec![0.0; n], m: vec![0.0; n] }
+        TriFactor { a0: f64::NAN, c: f64::NAN, h, inv_w: vec![0.0; n], up: vec![0.0; n], m: vec![0.0; n] }
     }
 
     /// True if the factor is for `(a0, c)`.
@@ -51,7 +57,7 @@ impl TriFactor {
     pub fn factor(&mut self, a0: f64, c: f64) {
         let n = self.inv_w.len();
         let r = c / (self.h * self.h);
-        self.off = -r;
+        let off = -r;
         let diag = |i: usize| {
             a0 + r * if n == 1 {
                 0.0
@@ -65,10 +71,13 @@ impl TriFactor {
         self.inv_w[0] = 1.0 / w;
         self.m[0] = 0.0;
         for i in 1..n {
-            let m = self.off / w;
-            w = diag(i) - m * self.off;
+            let m = off / w;
+            w = diag(i) - m * off;
             self.m[i] = m;
             self.inv_w[i] = 1.0 / w;
+        }
+        for i in 0..n {
+            self.up[i] = if i + 1 < n { off * self.inv_w[i] } else { 0.0 };
         }
         self.a0 = a0;
         self.c = c;
@@ -79,16 +88,81 @@ impl TriFactor {
     /// # Panics
     /// If `b` is not as long as the row.
     pub fn solve(&self, b: &mut [f64]) {
-        let n = self.inv_w.len();
-        assert_eq!(b.len(), n, "row length");
-        for i in 1..n {
-            b[i] -= self.m[i] * b[i - 1];
-        }
-        b[n - 1] *= self.inv_w[n - 1];
-        for i in (0..n - 1).rev() {
-            b[i] = (b[i] - self.off * b[i + 1]) * self.inv_w[i];
+        solve_together([self], [b]);
+    }
+}
+
+/// Solves `K` rows at once, each with its own factor (interleaved sweeps:
+/// the `K` recurrences are independent, so their latencies overlap). Each
+/// row's arithmetic is the same as when solved alone.
+///
+/// # Panics
+/// If a row's length differs from its factor's.
+fn solve_together<const K: usize>(f: [&TriFactor; K], b: [&mut [f64]; K]) {
+    let n = f[0].m.len();
+    for k in 0..K {
+        assert!(b[k].len() == n && f[k].m.len() == n, "row length");
+    }
+    if n == 0 {
+        return;
+    }
+    let mut prev = [0.0; K];
+    for k in 0..K {
+        prev[k] = b[k][0];
+    }
+    for i in 1..n {
+        for k in 0..K {
+            prev[k] = b[k][i] - f[k].m[i] * prev[k];
+            b[k][i] = prev[k];
         }
     }
+    let mut next = [0.0; K];
+    for i in (0..n).rev() {
+        for k in 0..K {
+            next[k] = b[k][i] * f[k].inv_w[i] - f[k].up[i] * next[k];
+            b[k][i] = next[k];
+        }
+    }
+}
+
+/// Sweeps the gene rows of `field` (`n` nuclei each) whose diffusion is not
+/// zero, four at a time, with each gene's current factor (slot 0); no allocation.
+fn sweep_genes(field: &mut [f64], n: usize, factors: &[[TriFactor; 2]], d: &[f64]) {
+    let mut held: [Option<(&TriFactor, &mut [f64])>; 4] = [None, None, None, None];
+    let mut count = 0;
+    let flush = |held: &mut [Option<(&TriFactor, &mut [f64])>; 4], count: usize| {
+        let mut take = || held.iter_mut().find_map(Option::take).expect("held row");
+        match count {
+            4 => {
+                let (a, b, c, d) = (take(), take(), take(), take());
+                solve_together([a.0, b.0, c.0, d.0], [a.1, b.1, c.1, d.1]);
+            }
+            3 => {
+                let (a, b, c) = (take(), take(), take());
+                solve_together([a.0, b.0, c.0], [a.1, b.1, c.1]);
+            }
+            2 => {
+                let (a, b) = (take(), take());
+                solve_together([a.0, b.0], [a.1, b.1]);
+            }
+            1 => {
+                let a = take();
+                solve_together([a.0], [a.1]);
+            }
+            _ => {}
+        }
+    };
+    for ((row, pair), dg) in field.chunks_exact_mut(n).zip(factors).zip(d) {
+        if *dg != 0.0 {
+            held[count] = Some((&pair[0], row));
+            count += 1;
+            if count == 4 {
+                flush(&mut held, count);
+                count = 0;
+            }
+        }
+    }
+    flush(&mut held, count);
 }
 
 /// Exact spectral solve on a sheet (or periodic row) of `nx × ny` nuclei.
@@ -290,28 +364,32 @@ impl Diffusion {
         let d = &self.d;
         match &mut self.solver {
             Solver::Thomas(factors) => {
-                let one = |(mut row, (pair, dg)): (ndarray::ArrayViewMut1<f64>, (&mut [TriFactor; 2], &f64))| {
-                    let row = row.as_slice_mut().expect("standard layout");
+                // Make sure slot 0 of each diffusing gene holds its factor, then
+                // sweep (genes without diffusion are a division), in two halves
+                // of the genes when parallel.
+                let n = b.ncols();
+                for ((mut row, pair), dg) in b.outer_iter_mut().zip(factors.iter_mut()).zip(d) {
+                    let c = k * dg;
                     if *dg == 0.0 {
                         row.iter_mut().for_each(|v| *v /= a0);
-                        return;
-                    }
-                    let c = k * dg;
-                    let slot = if pair[0].is_for(a0, c) {
-                        0
-                    } else if pair[1].is_for(a0, c) {
-                        1
-                    } else {
+                    } else if !pair[0].is_for(a0, c) {
                         pair.swap(0, 1);
-                        pair[0].factor(a0, c);
-                        0
-                    };
-                    pair[slot].solve(row);
-                };
-                if parallel && b.ncols() >= PARALLEL_MIN {
-                    b.outer_iter_mut().into_par_iter().zip(factors.par_iter_mut().zip(d.par_iter())).for_each(one);
+                        if !pair[0].is_for(a0, c) {
+                            pair[0].factor(a0, c);
+                        }
+                    }
+                }
+                let field = b.as_slice_mut().expect("standard layout");
+                let genes = d.len();
+                if parallel && genes > 1 && n >= PARALLEL_MIN {
+                    let half = genes.div_ceil(2);
+                    let (first, second) = field.split_at_mut(half * n);
+                    rayon::join(
+                        || sweep_genes(first, n, &factors[..half], &d[..half]),
+                        || sweep_genes(second, n, &factors[half..], &d[half..]),
+                    );
                 } else {
-                    b.outer_iter_mut().zip(factors.iter_mut().zip(d.iter())).for_each(one);
+                    sweep_genes(field, n, factors, d);
                 }
             }
             Solver::Spectral(spectral) => {

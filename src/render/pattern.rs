@@ -29,8 +29,8 @@ pub enum PatternLayout {
         left: f32,
         /// Top edge.
         top: f32,
-        /// Pixels per nucleus.
-        cell: u32,
+        /// Pixels per nucleus (below 1 for a sheet wider than the picture).
+        cell: f32,
         /// Scale bar: left end x, right end x, y, and its length in µm.
         bar: (f32, f32, f32, f64),
     },
@@ -45,22 +45,27 @@ pub fn pattern(rec: &Recording, s: usize, style: &Style, max: &[f64]) -> (Canvas
     let margin = 40.0;
     let (mut c, layout) = if rec.grid.is_sheet() {
         let (nx, ny) = (rec.grid.nx as u32, rec.grid.ny as u32);
-        let cell = ((width as f32 - 2.0 * margin) as u32 / nx).clamp(1, (width * 3 / 5 / ny).max(1));
-        let (sw, sh) = (cell * nx, cell * ny);
+        // Whole pixels per nucleus while the sheet fits; a larger sheet is
+        // sampled, each pixel showing the nucleus under its centre.
+        let (avail_w, avail_h) = (width as f32 - 2.0 * margin, (width * 3 / 5) as f32);
+        let cell = (avail_w as u32 / nx).min(avail_h as u32 / ny);
+        let (sw, sh) = if cell >= 1 {
+            (cell * nx, cell * ny)
+        } else {
+            let scale = (avail_w / nx as f32).min(avail_h / ny as f32);
+            (((nx as f32 * scale) as u32).max(1), ((ny as f32 * scale) as u32).max(1))
+        };
         let height = 70 + sh + 80;
         let mut c = Canvas::new(width, height, bg.rgb());
         let (left, top) = ((width - sw) / 2, 70);
         let state = &rec.states[s];
-        for iy in 0..ny {
-            for ix in 0..nx {
+        let rows: Vec<u32> = (0..sh).map(|py| ((py as u64 * ny as u64) / sh as u64) as u32).collect();
+        let cols: Vec<u32> = (0..sw).map(|px| ((px as u64 * nx as u64) / sw as u64) as u32).collect();
+        for (py, &iy) in rows.iter().enumerate() {
+            for (px, &ix) in cols.iter().enumerate() {
                 let i = (iy * nx + ix) as usize;
                 let rgb = style.paint(&colors, style.genes.iter().map(|&g| state[[g, i]] / max[g]));
-                let y0 = top + (ny - 1 - iy) * cell;
-                for dy in 0..cell {
-                    for dx in 0..cell {
-                        c.put(left + ix * cell + dx, y0 + dy, rgb);
-                    }
-                }
+                c.put(left + px as u32, top + sh - 1 - py as u32, rgb);
             }
         }
         let (l, t) = (left as f32, top as f32);
@@ -73,7 +78,7 @@ pub fn pattern(rec: &Recording, s: usize, style: &Style, max: &[f64]) -> (Canvas
         );
         let bar_um = scale_bar_um(length);
         let bar = (l, l + (bar_um / length) as f32 * sw as f32, t + sh as f32 + 30.0, bar_um);
-        (c, PatternLayout::Sheet { left: l, top: t, cell, bar })
+        (c, PatternLayout::Sheet { left: l, top: t, cell: sw as f32 / nx as f32, bar })
     } else {
         let rx = (width as f32 - 2.0 * margin) / 2.0;
         let ry = (rx * 0.36).round();

@@ -194,16 +194,16 @@ fn axis_eigenvalues(n: usize, h: f64, edges: Edges) -> Vec<f64> {
 }
 
 /// Runs `f(row_index, row, scratch)` over the rows of `data`, in fixed blocks.
-fn for_rows<T: Send>(
+pub(super) fn for_rows<T: Send, S: Send>(
     data: &mut [T],
     row_len: usize,
-    scratch: &mut [Vec<T>],
+    scratch: &mut [S],
     parallel: bool,
-    f: impl Fn(usize, &mut [T], &mut [T]) + Sync,
+    f: impl Fn(usize, &mut [T], &mut S) + Sync,
 ) {
     let rows = data.len() / row_len;
     let per_block = rows.div_ceil(scratch.len()).max(1);
-    let run = |(b, (block, s)): (usize, (&mut [T], &mut Vec<T>))| {
+    let run = |(b, (block, s)): (usize, (&mut [T], &mut S))| {
         for (k, row) in block.chunks_exact_mut(row_len).enumerate() {
             f(b * per_block + k, row, s);
         }
@@ -335,6 +335,9 @@ impl SpectralSolver {
 enum Solver {
     /// One pair of kept factors per gene (a fixed-step run alternates between at most two).
     Thomas(Vec<[TriFactor; 2]>),
+    /// Sealed sheets.
+    Sheet(Box<super::sheet_solve::SheetSolver>),
+    /// Periodic rows and sheets.
     Spectral(Box<SpectralSolver>),
 }
 
@@ -353,6 +356,8 @@ impl Diffusion {
                     .map(|_| [TriFactor::new(grid.nx, grid.spacing_um), TriFactor::new(grid.nx, grid.spacing_um)])
                     .collect(),
             )
+        } else if grid.edges == Edges::Sealed {
+            Solver::Sheet(Box::new(super::sheet_solve::SheetSolver::new(grid.nx, grid.ny, grid.spacing_um, d.len())))
         } else {
             Solver::Spectral(Box::new(SpectralSolver::new(grid)))
         };
@@ -390,6 +395,16 @@ impl Diffusion {
                     );
                 } else {
                     sweep_genes(field, n, factors, d);
+                }
+            }
+            Solver::Sheet(sheet) => {
+                for (g, (mut row, dg)) in b.outer_iter_mut().zip(d).enumerate() {
+                    let row = row.as_slice_mut().expect("standard layout");
+                    if *dg == 0.0 {
+                        row.iter_mut().for_each(|v| *v /= a0);
+                    } else {
+                        sheet.solve(g, row, a0, k * dg, parallel);
+                    }
                 }
             }
             Solver::Spectral(spectral) => {

@@ -1,7 +1,9 @@
 //! The tissue: grid geometry, gradient inputs and implicit diffusion solves.
 
+mod cosine;
 mod diffusion;
 mod gradient;
+mod sheet_solve;
 
 pub use diffusion::{Diffusion, SpectralSolver, TriFactor, laplacian};
 

@@ -1,0 +1,106 @@
+//! Time to solution at equal accuracy on the ribbon demo: error-controlled
+//! SBDF2 against fixed-step SBDF2, each at the loosest setting that comes
+//! within 1e-4 (max abs, a.u.) of a very fine fixed-step reference.
+//!
+//! Two yardsticks: the final state alone, and every recorded snapshot (the
+//! whole kymograph). The ribbon settles into a stable steady state, which any
+//! stable scheme approaches whatever its step, so the final state alone is a
+//! weak test; the recording is what a modeller looks at.
+//!
+//! `cargo bench --bench stepping`. The reference uses 1/1024 of the demo's
+//! snapshot interval as its step; its own error is estimated by Richardson
+//! extrapolation against half as many steps (second order: |e| ≈ |Δ|/3).
+
+use std::time::Instant;
+
+use anlage::model::{Model, Stepping};
+use anlage::{RunOptions, simulate};
+
+const TARGET: f64 = 1e-4;
+
+/// Every snapshot of a run, [gene, nucleus] each.
+fn states(model: &Model) -> Vec<ndarray::Array2<f64>> {
+    simulate(model, &RunOptions { parallel: false, progress: false }).expect("ribbon runs").recording.states
+}
+
+/// Max abs difference over the last snapshot only (`whole` false) or over all.
+fn max_abs(a: &[ndarray::Array2<f64>], b: &[ndarray::Array2<f64>], whole: bool) -> f64 {
+    let skip = if whole { 0 } else { a.len() - 1 };
+    a.iter().zip(b).skip(skip).flat_map(|(a, b)| a.iter().zip(b).map(|(x, y)| (x - y).abs())).fold(0.0, f64::max)
+}
+
+fn with(model: &Model, stepping: Stepping) -> Model {
+    let mut m = model.clone();
+    m.clock.stepping = stepping;
+    m
+}
+
+fn best_time(model: &Model, repeats: usize) -> f64 {
+    (0..repeats)
+        .map(|_| {
+            let start = Instant::now();
+            states(model);
+            start.elapsed().as_secs_f64()
+        })
+        .fold(f64::INFINITY, f64::min)
+}
+
+fn main() {
+    let ribbon = Model::load(std::path::Path::new("patterns/ribbon.toml")).expect("demo model");
+    let every = ribbon.clock.snapshot_every_min;
+    let fixed = |per_interval: usize| with(&ribbon, Stepping::Fixed { step_min: every / per_interval as f64 });
+    let reference = states(&fixed(1024));
+    let coarser = states(&fixed(512));
+    println!(
+        "reference: step {:.3e} min, estimated own error {:.1e} (whole recording)",
+        every / 1024.0,
+        max_abs(&reference, &coarser, true) / 3.0
+    );
+    println!("target: within {TARGET:e} of the reference (max abs, a.u.)");
+    for whole in [false, true] {
+        compare(&ribbon, &reference, whole);
+    }
+}
+
+fn compare(ribbon: &Model, reference: &[ndarray::Array2<f64>], whole: bool) {
+    let every = ribbon.clock.snapshot_every_min;
+    let fixed = |per_interval: usize| with(ribbon, Stepping::Fixed { step_min: every / per_interval as f64 });
+    // Fixed steps: the fewest steps per snapshot interval that meet the target
+    // (doubling, then bisection on the integer count).
+    let error_fixed = |k: usize| max_abs(&states(&fixed(k)), reference, whole);
+    let mut hi = 1;
+    while error_fixed(hi) > TARGET {
+        hi *= 2;
+    }
+    let mut lo = hi / 2;
+    while hi - lo > 1 {
+        let mid = (lo + hi) / 2;
+        if error_fixed(mid) > TARGET { lo = mid } else { hi = mid }
+    }
+    let fixed_model = fixed(hi);
+    let fixed_err = error_fixed(hi);
+
+    // Error control: the loosest tolerance (in steps of 10^(1/4)) that meets the target.
+    let adaptive = |tol: f64| with(ribbon, Stepping::Adaptive { rtol: tol, atol: tol, max_step_min: every });
+    let mut tol = 1e-2;
+    while max_abs(&states(&adaptive(tol)), reference, whole) > TARGET {
+        tol /= 10f64.powf(0.25);
+    }
+    let adaptive_model = adaptive(tol);
+    let adaptive_err = max_abs(&states(&adaptive_model), reference, whole);
+    let steps = |m: &Model| simulate(m, &RunOptions { parallel: false, progress: false }).unwrap().stats;
+
+    let (tf, ta) = (best_time(&fixed_model, 5), best_time(&adaptive_model, 5));
+    let (sf, sa) = (steps(&fixed_model), steps(&adaptive_model));
+    println!("yardstick: {}", if whole { "every snapshot" } else { "final state only" });
+    println!(
+        "  fixed step    {:.4e} min: {:>7} steps, error {fixed_err:.2e}, best {tf:.4} s",
+        every / hi as f64,
+        sf.steps
+    );
+    println!(
+        "  error control tol {tol:.2e}: {:>7} steps ({} rejected), error {adaptive_err:.2e}, best {ta:.4} s",
+        sa.steps, sa.rejected
+    );
+    println!("  fixed / error-controlled time: {:.1}x", tf / ta);
+}

@@ -51,6 +51,34 @@ pub fn describe(m: &Model) -> String {
             let _ = writeln!(s, "steps     chosen as the run goes (error-controlled)");
         }
     }
+    let rate = anlage::integrate::reaction_stiffness(m);
+    if rate > 0.0 {
+        let k_max = 4.0 / (3.0 * rate);
+        let at_least = (m.clock.until_min / k_max).ceil();
+        let _ = writeln!(
+            s,
+            "stiffness fastest reaction rate {rate:.3e} /min at the start: steps stay below ~{k_max:.3e} min, \
+             so at least ~{at_least:.0} steps"
+        );
+        if let anlage::model::Stepping::Fixed { step_min } = m.clock.stepping
+            && step_min > k_max
+        {
+            let _ = writeln!(
+                s,
+                "warning   step_min = {step_min} is above that limit; the run is likely to blow up: take step_min <= {k_max:.3e}"
+            );
+        }
+        // Throughput of the engine, order of magnitude (benches/engine.rs).
+        let seconds = at_least * g.len() as f64 * m.genes.len() as f64 / 1e8;
+        if seconds > 3600.0 {
+            let _ = writeln!(
+                s,
+                "warning   at least ~{:.1} h of computing on this model's grid; the reactions are too fast for the \
+                 time span: check the rates' units (per minute) or shorten until_min",
+                seconds / 3600.0
+            );
+        }
+    }
     let _ = writeln!(s, "memory    {} working + {} recording", gib(m.working_bytes()), gib(m.recording_bytes()));
     let _ = writeln!(s, "genes     {}", m.genes.len());
     for gene in &m.genes {

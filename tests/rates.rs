@@ -328,3 +328,30 @@ fn position_and_time_in_expressions() {
         assert_relative_eq!(fin[[1, i]], 800.0, max_relative = 1e-6);
     }
 }
+
+/// Peer problem P2 (Schnakenberg on a sealed sheet, the peer's splitmix64
+/// start read through `initial_file`) agrees with the NumPy/SciPy DCT solve
+/// (../shared/peer/peer_numpy.py, stored by tests/reference/peer_p2.sh) to
+/// 1e-9 relative: an even side (real-FFT cosine transform) and an odd one
+/// (direct DCT).
+#[test]
+fn peer_p2_checksums_agree() {
+    let table = std::fs::read_to_string(crate::common::root().join("tests/reference/peer_p2.csv")).unwrap();
+    let dir = std::env::temp_dir().join(format!("anlage_p2_{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let mut checked = 0;
+    for line in table.lines().skip(1) {
+        let v: Vec<&str> = line.split(',').collect();
+        let (n, steps, want): (usize, usize, f64) =
+            (v[0].parse().unwrap(), v[1].parse().unwrap(), v[2].parse().unwrap());
+        let text = anlage::reference::write_peer_p2(&dir, n, steps).unwrap();
+        let path = dir.join(format!("p2_{n}.toml"));
+        std::fs::write(&path, text).unwrap();
+        let model = anlage::model::Model::load(&path).unwrap();
+        assert_eq!(model.clock.fixed_steps(), Some(steps));
+        let got = anlage::reference::checksum(run(&model).recording.final_state());
+        assert_relative_eq!(got, want, max_relative = 1e-9);
+        checked += 1;
+    }
+    assert_eq!(checked, 2);
+}

@@ -12,9 +12,6 @@ use std::fs::File;
 use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 
-use ndarray::{Array3, Axis};
-use ndarray_npy::WriteNpyExt;
-
 pub use compare_tables::{write_comparison, write_measured};
 pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
 pub use screen_tables::{write_sensitivity, write_shifts};
@@ -76,20 +73,30 @@ pub fn write_atomic(path: &Path, body: impl FnOnce(&mut dyn Write) -> std::io::R
 /// [`ExportError`] if the file cannot be written.
 pub fn write_states_npy(rec: &crate::integrate::Recording, path: &Path) -> Result<(), ExportError> {
     let (g, n) = rec.states[0].dim();
-    let mut all = Array3::<f64>::zeros((rec.states.len(), g, n));
-    for (mut dst, src) in all.axis_iter_mut(Axis(0)).zip(&rec.states) {
-        dst.assign(src);
-    }
-    let npy_err = |e: ndarray_npy::WriteNpyError| std::io::Error::other(e.to_string());
-    if rec.grid.is_sheet() {
-        let shape = (rec.states.len(), g, rec.grid.ny, rec.grid.nx);
-        let all = all
-            .into_shape_with_order(shape)
-            .map_err(|e| ExportError::Npy { path: path.into(), message: e.to_string() })?;
-        write_atomic(path, |w| all.write_npy(w).map_err(npy_err))
+    let shape = if rec.grid.is_sheet() {
+        format!("({}, {g}, {}, {})", rec.states.len(), rec.grid.ny, rec.grid.nx)
     } else {
-        write_atomic(path, |w| all.write_npy(w).map_err(npy_err))
-    }
+        format!("({}, {g}, {n})", rec.states.len())
+    };
+    // Streamed snapshot by snapshot (no copy of the whole recording): NPY
+    // format 1.0 (NumPy Enhancement Proposal 1): magic, version, a
+    // little-endian u16 header length, then a Python dict literal padded with
+    // spaces and a newline so that the data start on a multiple of 64 bytes.
+    let mut header = format!("{{'descr': '<f8', 'fortran_order': False, 'shape': {shape}, }}");
+    let unpadded = 10 + header.len() + 1;
+    header.push_str(&" ".repeat(unpadded.next_multiple_of(64) - unpadded));
+    header.push('\n');
+    write_atomic(path, |w| {
+        w.write_all(b"\x93NUMPY\x01\x00")?;
+        w.write_all(&u16::try_from(header.len()).map_err(std::io::Error::other)?.to_le_bytes())?;
+        w.write_all(header.as_bytes())?;
+        for state in &rec.states {
+            for v in state.iter() {
+                w.write_all(&v.to_le_bytes())?;
+            }
+        }
+        Ok(())
+    })
 }
 
 /// Writes a serialisable value as pretty JSON with a final newline.

@@ -77,8 +77,16 @@ pub enum ModelError {
         /// Line of the first definition.
         first_line: usize,
     },
+    /// ANLAGE_MEMORY_GIB is not a positive number.
+    #[error(
+        "ANLAGE_MEMORY_GIB is `{text}`; set it to a positive number of GiB (e.g. 8) or unset it for the 12 GiB default"
+    )]
+    BadBudget {
+        /// The variable's text.
+        text: String,
+    },
     /// The run would need more memory than allowed.
-    #[error("{}:{line}:{column}: `tissue.nuclei` asks for {needed_gib:.1} GiB of working memory, over the {budget_gib:.0} GiB budget; use fewer nuclei or genes", file.display())]
+    #[error("{}:{line}:{column}: `tissue.nuclei` asks for {needed_gib:.1} GiB of memory (working arrays and recording), over the {budget_gib:.1} GiB budget; use fewer nuclei, genes or snapshots, or raise the budget with ANLAGE_MEMORY_GIB=<GiB>", file.display())]
     TooLarge {
         /// File.
         file: PathBuf,

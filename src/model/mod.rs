@@ -20,6 +20,24 @@ pub use validate::{PALETTE, parse_color};
 /// Largest working memory a model may ask for before it is refused, bytes.
 pub const MEMORY_BUDGET_BYTES: u64 = 12 << 30;
 
+/// Environment variable that sets the memory budget, GiB.
+pub const MEMORY_BUDGET_VAR: &str = "ANLAGE_MEMORY_GIB";
+
+/// The memory budget, bytes: `ANLAGE_MEMORY_GIB` (a positive number of GiB)
+/// if set, else [`MEMORY_BUDGET_BYTES`].
+///
+/// # Errors
+/// The text of the variable if it is not a positive number.
+pub fn memory_budget_bytes() -> Result<u64, String> {
+    match std::env::var(MEMORY_BUDGET_VAR) {
+        Err(_) => Ok(MEMORY_BUDGET_BYTES),
+        Ok(text) => match text.trim().parse::<f64>() {
+            Ok(gib) if gib.is_finite() && gib > 0.0 => Ok((gib * (1u64 << 30) as f64) as u64),
+            _ => Err(text),
+        },
+    }
+}
+
 /// A checked model.
 #[derive(Debug, Clone)]
 pub struct Model {

@@ -94,6 +94,12 @@ impl<'a> Source<'a> {
                 message = format!("`{key}`: {message}");
             }
         }
+        if message == "duplicate key" {
+            let key = line_text.split_once('=').map_or(line_text, |(k, _)| k).trim();
+            message = format!("duplicate key `{key}`; keep one `{key} = ...` in this table");
+        } else if message.contains("invalid type") {
+            message.push_str("; write a number without quotes, text in quotes");
+        }
         if message.starts_with("missing field") {
             let table = line_text.trim();
             if table.starts_with('[') {

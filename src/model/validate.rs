@@ -7,8 +7,8 @@ use toml::Spanned;
 
 use super::spec::{ClockSpec, GeneSpec, GradientSpec, LinkSpec, ModelSpec, TissueSpec};
 use super::{
-    Circuit, Clock, Combine, Edges, Gene, Gradient, Grid, Initial, KineticsKind, Link, LinkEffect, MEMORY_BUDGET_BYTES,
-    Model, ModelError, Regulator, Shape, Side, Source, Stepping,
+    Circuit, Clock, Combine, Edges, Gene, Gradient, Grid, Initial, KineticsKind, Link, LinkEffect, Model, ModelError,
+    Regulator, Shape, Side, Source, Stepping,
 };
 
 /// Default gene colours: the Okabe & Ito (2008) palette, distinguishable with
@@ -103,14 +103,15 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
         model.mutants.push(checked);
     }
     let needed = model.working_bytes() + model.recording_bytes();
-    if needed > MEMORY_BUDGET_BYTES {
+    let budget = super::memory_budget_bytes().map_err(|text| ModelError::BadBudget { text })?;
+    if needed > budget {
         let (line, column) = src.locate(&spec.tissue.span(), "nuclei");
         return Err(ModelError::TooLarge {
             file: src.file(),
             line,
             column,
             needed_gib: needed as f64 / (1u64 << 30) as f64,
-            budget_gib: MEMORY_BUDGET_BYTES as f64 / (1u64 << 30) as f64,
+            budget_gib: budget as f64 / (1u64 << 30) as f64,
         });
     }
     Ok(model)

@@ -495,6 +495,7 @@ mod tests {
     fn cosine_inverts_sealed_sheet() {
         check_inverse(12, 7, Edges::Sealed);
         check_inverse(64, 33, Edges::Sealed);
+        check_inverse(9, 6, Edges::Sealed);
     }
 
     #[test]

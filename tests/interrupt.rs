@@ -1,0 +1,79 @@
+//! A run killed with SIGKILL at any moment leaves, under every output name,
+//! either the complete file of the previous run or the complete new one: no
+//! truncated table, NPY, PNG, GIF or JSON (outputs are written under hidden
+//! temporary names and renamed).
+
+use std::path::Path;
+use std::process::Command;
+use std::time::{Duration, Instant};
+
+use crate::common::root;
+
+/// Checks that every visible file in `dir` is complete and well-formed.
+fn check_complete(dir: &Path) {
+    for entry in std::fs::read_dir(dir).unwrap() {
+        let path = entry.unwrap().path();
+        let name = path.file_name().unwrap().to_string_lossy().into_owned();
+        if name.starts_with('.') {
+            continue; // an unfinished temporary file, never a named output
+        }
+        let bytes = std::fs::read(&path).unwrap();
+        match path.extension().and_then(|e| e.to_str()) {
+            Some("csv") => {
+                let text = String::from_utf8(bytes).unwrap();
+                assert!(text.ends_with('\n'), "{name} is cut short");
+                let fields = text.lines().next().unwrap().split(',').count();
+                for (k, line) in text.lines().enumerate() {
+                    assert_eq!(line.split(',').count(), fields, "{name} line {} is cut short", k + 1);
+                }
+            }
+            Some("npy") => {
+                use ndarray_npy::ReadNpyExt;
+                ndarray::ArrayD::<f64>::read_npy(std::io::Cursor::new(bytes)).unwrap_or_else(|e| panic!("{name}: {e}"));
+            }
+            Some("png") => {
+                image::load_from_memory(&bytes).unwrap_or_else(|e| panic!("{name}: {e}"));
+            }
+            Some("gif") => {
+                let mut options = gif::DecodeOptions::new();
+                options.set_color_output(gif::ColorOutput::RGBA);
+                let mut decoder = options.read_info(std::io::Cursor::new(bytes)).unwrap();
+                let mut frames = 0;
+                while decoder.read_next_frame().unwrap_or_else(|e| panic!("{name}: {e}")).is_some() {
+                    frames += 1;
+                }
+                assert!(frames > 1, "{name} has {frames} frames");
+            }
+            Some("json") => {
+                serde_json::from_slice::<serde_json::Value>(&bytes).unwrap_or_else(|e| panic!("{name}: {e}"));
+            }
+            _ => {}
+        }
+    }
+}
+
+#[test]
+fn killed_runs_leave_only_complete_outputs() {
+    let dir = std::env::temp_dir().join(format!("anlage-test-{}-kill", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    let model = root().join("patterns/sheet.toml");
+    let run = || {
+        Command::new(env!("CARGO_BIN_EXE_anlage"))
+            .args(["run", model.to_str().unwrap(), "-q", "-o", dir.to_str().unwrap()])
+            .spawn()
+            .unwrap()
+    };
+    let start = Instant::now();
+    assert!(run().wait().unwrap().success());
+    let full = start.elapsed();
+    check_complete(&dir);
+    // Kill at fractions of a full run: during the simulation, the tables and the pictures.
+    for fraction in [0.2, 0.5, 0.7, 0.8, 0.9, 0.95, 0.99] {
+        let mut child = run();
+        std::thread::sleep(Duration::from_secs_f64(full.as_secs_f64() * fraction));
+        let _ = child.kill(); // SIGKILL on Unix
+        let _ = child.wait();
+        check_complete(&dir);
+    }
+    std::fs::remove_dir_all(&dir).unwrap();
+}

@@ -36,3 +36,36 @@ fn unreadable_file_names_the_file() {
     let cause = std::error::Error::source(&err).expect("the I/O error is kept as the source").to_string();
     assert!(cause.contains("No such file"), "{cause}");
 }
+
+/// Every input the fuzzer (examples/fuzz_models.rs) ever saved is answered
+/// without a panic; plus a fixed sample of mutants of the corpus, so the check
+/// runs even while tests/fuzz_found/ holds none.
+#[test]
+fn fuzz_found_inputs_never_panic() {
+    let dir = root().join("tests/fuzz_found");
+    let mut texts: Vec<String> = std::fs::read_dir(&dir)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
+        .map(|p| std::fs::read_to_string(p).unwrap())
+        .collect();
+    let ribbon = std::fs::read_to_string(root().join("patterns/ribbon.toml")).unwrap();
+    for (k, line) in ribbon.lines().enumerate() {
+        for odd in ["nan", "-1", "1e308", "\"\"", "[]", "\"a - (b\""] {
+            let mutated: Vec<String> = ribbon
+                .lines()
+                .enumerate()
+                .map(|(j, l)| match l.split_once('=') {
+                    Some((key, _)) if j == k => format!("{key}= {odd}"),
+                    _ => l.to_string(),
+                })
+                .collect();
+            texts.push(mutated.join("\n"));
+        }
+        let _ = line;
+    }
+    for text in &texts {
+        let outcome = std::panic::catch_unwind(|| Model::from_toml(text, Path::new("fuzz.toml")).is_ok());
+        assert!(outcome.is_ok(), "panicked on:\n{text}");
+    }
+}

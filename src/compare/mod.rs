@@ -108,6 +108,14 @@ pub fn read_measured(path: &Path, stages: &HashMap<String, f64>) -> Result<Vec<M
             v.parse::<f64>().ok().filter(|x| x.is_finite()).ok_or_else(|| bad(path, line, name, &v, fix))
         };
         let position_pct = number(c_pos, "position_pct", "give a number, % of the axis length")?;
+        if !(0.0..=100.0).contains(&position_pct) {
+            let v = field(Some(c_pos));
+            return Err(bad(path, line, "position_pct", &v, "give a position between 0 and 100 % of the axis length"));
+        }
+        let gene = field(Some(c_gene));
+        if gene.trim().is_empty() {
+            return Err(bad(path, line, "gene", &gene, "name the gene whose boundary this is"));
+        }
         let direction = field(Some(c_dir));
         if direction != "rising" && direction != "falling" {
             return Err(bad(path, line, "direction", &direction, "write rising or falling (going from head to tail)"));
@@ -116,6 +124,9 @@ pub fn read_measured(path: &Path, stages: &HashMap<String, f64>) -> Result<Vec<M
         let time_min = if time.is_empty() {
             None
         } else if let Ok(t) = time.parse::<f64>() {
+            if !(t.is_finite() && t >= 0.0) {
+                return Err(bad(path, line, "time", &time, "give minutes >= 0"));
+            }
             Some(t)
         } else {
             Some(*stages.get(&time).ok_or_else(|| {

@@ -21,8 +21,9 @@ pub struct Cli {
 pub enum Command {
     /// Simulate a model; write tables, states, a summary and pictures.
     Run {
-        /// Model file (TOML).
-        model: PathBuf,
+        /// Model file (TOML); not needed with --resume.
+        #[arg(required_unless_present = "resume")]
+        model: Option<PathBuf>,
         /// Output folder (default: `<model name>_run` next to the model file).
         #[arg(short, long)]
         out: Option<PathBuf>,
@@ -35,6 +36,14 @@ pub enum Command {
         /// Write tables, states and the summary but no pictures.
         #[arg(long)]
         no_pictures: bool,
+        /// Save the run every so often (wall time: 90s, 10m, 2h) as OUT/checkpoint.bin, to continue
+        /// with --resume after a crash; removed when the run finishes.
+        #[arg(long, value_name = "TIME", value_parser = parse_wall_time)]
+        checkpoint_every: Option<std::time::Duration>,
+        /// Continue the run whose checkpoint is in this folder (outputs go there too); the result is
+        /// byte for byte that of an uninterrupted run.
+        #[arg(long, value_name = "DIR", conflicts_with = "model")]
+        resume: Option<PathBuf>,
         /// Print one JSON line: solve time (loading the model, set-up and all steps), steps and the sum of
         /// the final state (for comparing implementations).
         #[arg(long)]
@@ -238,5 +247,25 @@ impl Look {
             to_min: self.to_min,
             heatmap: self.heatmap,
         }
+    }
+}
+
+/// Parses a wall time such as `90s`, `10m`, `2h` or `250ms` (a bare number is seconds).
+fn parse_wall_time(text: &str) -> Result<std::time::Duration, String> {
+    let t = text.trim();
+    let (number, scale) = if let Some(n) = t.strip_suffix("ms") {
+        (n, 1e-3)
+    } else if let Some(n) = t.strip_suffix('s') {
+        (n, 1.0)
+    } else if let Some(n) = t.strip_suffix('m') {
+        (n, 60.0)
+    } else if let Some(n) = t.strip_suffix('h') {
+        (n, 3600.0)
+    } else {
+        (t, 1.0)
+    };
+    match number.trim().parse::<f64>() {
+        Ok(v) if v.is_finite() && v >= 0.0 => Ok(std::time::Duration::from_secs_f64(v * scale)),
+        _ => Err(format!("`{text}` is not a wall time; write e.g. 90s, 10m or 2h")),
     }
 }

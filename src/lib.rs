@@ -91,10 +91,38 @@ pub struct Run {
 /// # Errors
 /// [`StepError`] if the state becomes non-finite or error-controlled steps collapse.
 pub fn simulate(model: &Model, options: &RunOptions) -> Result<Run, StepError> {
+    simulate_with(model, options, None)
+}
+
+/// Checkpoints of a long run: where, how often, and where to continue from.
+#[derive(Debug, Clone)]
+pub struct Checkpointing {
+    /// The checkpoint file (written atomically, replaced each time).
+    pub file: std::path::PathBuf,
+    /// Wall time between checkpoints.
+    pub every: std::time::Duration,
+    /// A checkpoint of this model to continue from.
+    pub resume: Option<integrate::Checkpoint>,
+}
+
+/// [`simulate`] with checkpoints: saves the run every `every` of wall time and
+/// can continue from a checkpoint; a resumed run gives the same bytes as an
+/// uninterrupted one. A checkpoint that cannot be written is reported on
+/// stderr and the run goes on.
+///
+/// # Errors
+/// [`StepError`] if the state becomes non-finite or error-controlled steps collapse.
+pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpointing>) -> Result<Run, StepError> {
     let start = Instant::now();
     let tissue = tissue::Tissue::new(model);
     let kinetics = kinetics::build(model);
     let mut recording = Recording::for_model(model);
+    let resume = plan.and_then(|p| p.resume.as_ref());
+    if let Some(c) = resume {
+        recording.times = c.times.clone();
+        recording.states = c.states.clone();
+    }
+    let recording = std::cell::RefCell::new(recording);
     let bar = if options.progress {
         let bar = indicatif::ProgressBar::new(model.snapshot_count() as u64);
         bar.set_style(
@@ -103,19 +131,53 @@ pub fn simulate(model: &Model, options: &RunOptions) -> Result<Run, StepError> {
             )
             .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
         );
+        bar.set_position(recording.borrow().times.len() as u64);
         Some(bar)
     } else {
         None
     };
-    let stats = integrate::integrate(model, kinetics.as_ref(), &tissue, options.parallel, |t, state| {
-        recording.push(t, state);
-        if let Some(bar) = &bar {
-            bar.set_message(format!("{t:.1}"));
-            bar.inc(1);
-        }
-    });
+    let mut last_saved = Instant::now();
+    let mut warned = false;
+    let stats = integrate::integrate_from(
+        model,
+        kinetics.as_ref(),
+        &tissue,
+        options.parallel,
+        resume,
+        |t, state| {
+            recording.borrow_mut().push(t, state);
+            if let Some(bar) = &bar {
+                bar.set_message(format!("{t:.1}"));
+                bar.inc(1);
+            }
+        },
+        |stepper, progress, stats| {
+            let Some(plan) = plan else { return };
+            if last_saved.elapsed() < plan.every {
+                return;
+            }
+            let rec = recording.borrow();
+            let checkpoint = integrate::Checkpoint {
+                model_text: model.text.clone(),
+                model_path: std::path::absolute(&model.file).unwrap_or_else(|_| model.file.clone()),
+                stepper: stepper.save(),
+                progress,
+                stats,
+                times: rec.times.clone(),
+                states: rec.states.clone(),
+            };
+            if let Err(e) = export::write_atomic(&plan.file, |w| checkpoint.write(w))
+                && !warned
+            {
+                eprintln!("anlage: warning: checkpoint not written: {e}");
+                warned = true;
+            }
+            last_saved = Instant::now();
+        },
+    );
     if let Some(bar) = bar {
         bar.finish_and_clear();
     }
+    let recording = recording.into_inner();
     Ok(Run { recording, stats: stats?, wall_time_s: start.elapsed().as_secs_f64() })
 }

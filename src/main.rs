@@ -28,6 +28,7 @@ fn main() -> ExitCode {
                     || c.is::<RunDirError>()
                     || c.is::<anlage::measure::MeasureError>()
                     || c.is::<anlage::compare::CompareError>()
+                    || c.is::<anlage::integrate::CheckpointError>()
             });
             if bad_input { ExitCode::from(2) } else { ExitCode::from(1) }
         }
@@ -68,6 +69,9 @@ fn model_and_recording(source: &Path, out: Option<&Path>) -> anyhow::Result<(Mod
     }
 }
 
+/// Name of the checkpoint file in a run folder.
+const CHECKPOINT: &str = "checkpoint.bin";
+
 fn run(cli: &Cli) -> anyhow::Result<()> {
     match &cli.command {
         Command::Check { model } => {
@@ -75,25 +79,47 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             print!("{}", report::describe(&model));
             Ok(())
         }
-        Command::Run { model: path, out, threads, quiet, no_pictures, timing, look } => {
+        Command::Run { model: path, out, threads, quiet, no_pictures, timing, checkpoint_every, resume, look } => {
             if let Some(n) = threads {
                 rayon::ThreadPoolBuilder::new().num_threads((*n).max(1)).build_global().context("setting threads")?;
             }
             let start = std::time::Instant::now();
-            let model = Model::load(path)?;
+            let (model, checkpoint, dir) = match resume {
+                Some(dir) => {
+                    let checkpoint = anlage::integrate::Checkpoint::read(&dir.join(CHECKPOINT))?;
+                    let model = Model::from_toml(&checkpoint.model_text, &checkpoint.model_path)?;
+                    (model, Some(checkpoint), out.clone().unwrap_or_else(|| dir.clone()))
+                }
+                None => {
+                    let path = path.as_ref().expect("clap requires MODEL without --resume");
+                    (Model::load(path)?, None, out.clone().unwrap_or_else(|| default_out(path)))
+                }
+            };
             let style_options = look.options();
             // Check the picture options before a long run, against the snapshot times to come.
             Style::with_options(&planned_recording(&model), &model.title, &style_options)?;
             let options = anlage::RunOptions { parallel: true, progress: !quiet };
-            let run = anlage::simulate(&model, &options).with_context(|| format!("simulating {}", path.display()))?;
+            let plan = (checkpoint_every.is_some() || checkpoint.is_some()).then(|| anlage::Checkpointing {
+                file: dir.join(CHECKPOINT),
+                every: checkpoint_every.unwrap_or(std::time::Duration::MAX),
+                resume: checkpoint,
+            });
+            if plan.is_some() {
+                std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
+            }
+            let run = anlage::simulate_with(&model, &options, plan.as_ref())
+                .with_context(|| format!("simulating {}", model.file.display()))?;
             let checksum: f64 = run.recording.final_state().iter().sum();
             let solve_seconds = start.elapsed().as_secs_f64();
-            let dir = out.clone().unwrap_or_else(|| default_out(path));
             let summary = anlage::write_run(&model, &run, &dir, &style_options, !no_pictures)
                 .with_context(|| format!("writing outputs to {}", dir.display()))?;
+            if plan.is_some() {
+                // The finished outputs are complete; the checkpoint is no longer needed.
+                let _ = std::fs::remove_file(dir.join(CHECKPOINT));
+            }
             if *timing {
                 let line = serde_json::json!({
-                    "model": path.display().to_string(),
+                    "model": model.file.display().to_string(),
                     "nuclei": model.grid.len(),
                     "genes": model.genes.len(),
                     "steps": run.stats.steps,

@@ -1,12 +1,14 @@
 //! Time integration: second-order IMEX (SBDF2) with fixed or error-controlled
 //! steps, landing exactly on every snapshot time.
 
+mod checkpoint;
 mod recording;
 mod stepper;
 
 use ndarray::Array2;
 use rand::{RngExt, SeedableRng};
 
+pub use checkpoint::{Checkpoint, CheckpointError, Progress, StepperState};
 pub use recording::Recording;
 pub use stepper::{Forcing, Stepper};
 
@@ -132,35 +134,67 @@ pub fn integrate(
     kinetics: &dyn Kinetics,
     tissue: &Tissue,
     parallel: bool,
+    snapshot: impl FnMut(f64, &Array2<f64>),
+) -> Result<StepStats, StepError> {
+    integrate_from(model, kinetics, tissue, parallel, None, snapshot, |_, _, _| {})
+}
+
+/// [`integrate`], optionally continuing from a checkpoint (whose snapshots the
+/// caller has already recorded), and calling `accepted(stepper, progress,
+/// stats)` after every accepted step, where a checkpoint may be taken.
+///
+/// # Errors
+/// [`StepError`] when the state stops being finite or steps collapse.
+pub fn integrate_from(
+    model: &Model,
+    kinetics: &dyn Kinetics,
+    tissue: &Tissue,
+    parallel: bool,
+    resume: Option<&Checkpoint>,
     mut snapshot: impl FnMut(f64, &Array2<f64>),
+    mut accepted: impl FnMut(&Stepper, Progress, StepStats),
 ) -> Result<StepStats, StepError> {
     let names = model.genes.iter().map(|g| g.name.clone()).collect();
     let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
     let mut stepper = Stepper::new(kinetics, tissue, &d, names, initial_state(model), 0.0, parallel, forcing(model))?;
-    snapshot(0.0, stepper.state());
     let times = model.clock.snapshot_times();
-    let mut stats = StepStats::default();
+    let (mut stats, mut progress) = match resume {
+        Some(c) => {
+            stepper.restore(&c.stepper);
+            (c.stats, c.progress)
+        }
+        None => {
+            snapshot(0.0, stepper.state());
+            (StepStats::default(), Progress { next_snapshot: 1, steps_taken: 0, next_step_min: 0.0 })
+        }
+    };
     match model.clock.stepping {
         Stepping::Fixed { step_min } => {
             let total = model.clock.fixed_steps().expect("fixed stepping");
-            let mut next = 1;
-            for n in 1..=total {
+            while progress.steps_taken < total {
+                let n = progress.steps_taken + 1;
                 let t_new = n as f64 * step_min;
                 stepper.attempt(step_min);
                 stepper.accept(step_min, t_new)?;
                 stats.count(step_min);
+                progress.steps_taken = n;
+                let next = progress.next_snapshot;
                 if next < times.len() && (t_new >= times[next] - 0.5 * step_min || n == total) {
                     snapshot(times[next], stepper.state());
-                    next += 1;
+                    progress.next_snapshot += 1;
                 }
+                accepted(&stepper, progress, stats);
             }
         }
         Stepping::Adaptive { rtol, atol, max_step_min } => {
-            let mut k = first_step(&stepper, rtol, atol, max_step_min);
-            for &target in &times[1..] {
+            if resume.is_none() {
+                progress.next_step_min = first_step(&stepper, rtol, atol, max_step_min);
+            }
+            while progress.next_snapshot < times.len() {
+                let target = times[progress.next_snapshot];
                 while target - stepper.time() > 1e-12 * target {
                     let remaining = target - stepper.time();
-                    let mut k_try = k.min(max_step_min);
+                    let mut k_try = progress.next_step_min.min(max_step_min);
                     if stepper.history() > 1 {
                         k_try = k_try.min(MAX_STEP_RATIO * stepper.last_step());
                     }
@@ -185,7 +219,8 @@ pub fn integrate(
                             // from memory. Ours is 1.2, which keeps the
                             // tol^(2/3) error scaling the tests check).
                             let grow = factor.clamp(0.2, MAX_STEP_RATIO);
-                            k = if (1.0..STEP_HOLD).contains(&grow) && !landing { k_try } else { k_try * grow };
+                            progress.next_step_min =
+                                if (1.0..STEP_HOLD).contains(&grow) && !landing { k_try } else { k_try * grow };
                             break;
                         }
                         stats.rejected += 1;
@@ -194,8 +229,10 @@ pub fn integrate(
                             return Err(StepError::StepCollapse { t_min: stepper.time(), step_min: k_try, error: err });
                         }
                     }
+                    accepted(&stepper, progress, stats);
                 }
                 snapshot(target, stepper.state());
+                progress.next_snapshot += 1;
             }
         }
     }

@@ -136,6 +136,35 @@ impl<'a> Stepper<'a> {
         self.history
     }
 
+    /// A copy of everything the next steps depend on (for checkpoints).
+    pub fn save(&self) -> super::checkpoint::StepperState {
+        super::checkpoint::StepperState {
+            t: self.t,
+            history: self.history,
+            k1: self.k1,
+            k2: self.k2,
+            u: [self.u.clone(), self.u1.clone(), self.u2.clone()],
+            f: [self.f.clone(), self.f1.clone()],
+        }
+    }
+
+    /// Puts back a saved state (same model, so same shapes).
+    ///
+    /// # Panics
+    /// If the shapes differ from this stepper's.
+    pub fn restore(&mut self, s: &super::checkpoint::StepperState) {
+        assert_eq!(s.u[0].dim(), self.u.dim(), "checkpoint shape");
+        self.t = s.t;
+        self.history = s.history;
+        self.k1 = s.k1;
+        self.k2 = s.k2;
+        self.u.assign(&s.u[0]);
+        self.u1.assign(&s.u[1]);
+        self.u2.assign(&s.u[2]);
+        self.f.assign(&s.f[0]);
+        self.f1.assign(&s.f[1]);
+    }
+
     /// Computes a trial state at `t + k` into the trial buffer (history unchanged).
     pub fn attempt(&mut self, k: f64) {
         let (a0, coef) = if self.history == 1 {

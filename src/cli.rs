@@ -113,6 +113,24 @@ pub enum Command {
         #[command(flatten)]
         look: Look,
     },
+    /// Fit the free parameters of the model's [fit] section to measured boundaries of the wild type and
+    /// mutants: global search, approximate intervals, correlations and the fitted model file.
+    Fit {
+        /// Model file (TOML) with a [fit] section.
+        model: PathBuf,
+        /// Output folder (default: `<model name>_fit` next to the model file).
+        #[arg(short, long)]
+        out: Option<PathBuf>,
+        /// Worker threads (default: all cores). Results are identical for any count.
+        #[arg(long)]
+        threads: Option<usize>,
+        /// White picture background.
+        #[arg(long)]
+        light: bool,
+        /// Print nothing but errors.
+        #[arg(short, long)]
+        quiet: bool,
+    },
     /// Measure boundaries in stained-embryo images (PNG or TIFF, 8/16-bit);
     /// a folder gives one table with mean and sd per boundary.
     Measure {

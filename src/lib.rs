@@ -34,6 +34,7 @@
 
 pub mod compare;
 pub mod export;
+pub mod fit;
 pub mod integrate;
 pub mod kinetics;
 pub mod measure;
@@ -51,7 +52,7 @@ pub mod tissue;
 pub use summary::stepping_text as summary_stepping_text;
 mod outputs;
 pub use outputs::{BasinReport, PictureKind, WriteError, write_basins, write_pictures, write_portrait, write_run};
-pub use outputs::{write_screen, write_sensitivity};
+pub use outputs::{write_fit, write_screen, write_sensitivity};
 
 use std::time::Instant;
 

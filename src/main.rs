@@ -29,6 +29,7 @@ fn main() -> ExitCode {
                     || c.is::<anlage::measure::MeasureError>()
                     || c.is::<anlage::compare::CompareError>()
                     || c.is::<anlage::integrate::CheckpointError>()
+                    || c.is::<anlage::fit::FitSetupError>()
             });
             if bad_input { ExitCode::from(2) } else { ExitCode::from(1) }
         }
@@ -246,6 +247,39 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             let rows = anlage::write_sensitivity(&model, *step, &style, &dir, true)
                 .with_context(|| format!("sensitivity of {}", path.display()))?;
             print!("{}", report::sensitivity(&rows, &dir));
+            Ok(())
+        }
+        Command::Fit { model: path, out, threads, light, quiet } => {
+            if let Some(n) = threads {
+                rayon::ThreadPoolBuilder::new().num_threads((*n).max(1)).build_global().context("setting threads")?;
+            }
+            let model = Model::load(path)?;
+            let problem = anlage::fit::FitProblem::from_model(&model)?;
+            let start = std::time::Instant::now();
+            let bar = (!quiet).then(|| {
+                let bar = indicatif::ProgressBar::new(problem.evaluations as u64);
+                bar.set_style(
+                    indicatif::ProgressStyle::with_template("{bar:40} {pos}/{len} evaluations, best {msg}, {elapsed}")
+                        .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+                );
+                bar
+            });
+            let result = anlage::fit::fit(&problem, true, &mut |evaluations, best| {
+                if let Some(bar) = &bar {
+                    bar.set_position(evaluations as u64);
+                    bar.set_message(format!("{best:.4}"));
+                }
+            });
+            if let Some(bar) = bar {
+                bar.finish_and_clear();
+            }
+            let dir = out.clone().unwrap_or_else(|| sibling(path, "fit"));
+            let bg = if *light { anlage::render::Background::Light } else { anlage::render::Background::Dark };
+            anlage::write_fit(&problem, &result, bg, &dir)
+                .with_context(|| format!("writing the fit to {}", dir.display()))?;
+            if !quiet {
+                print!("{}", report::fit(&problem, &result, start.elapsed().as_secs_f64(), &dir));
+            }
             Ok(())
         }
         Command::Measure { image, channels, head, time, out } => {

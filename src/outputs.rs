@@ -248,3 +248,32 @@ pub fn write_sensitivity(
     export::write_atomic(&dir.join("sensitivity.png"), |w| w.write_all(&map.png()?))?;
     Ok(rows)
 }
+
+/// Writes a finished fit: `fit.csv`, `fit_trace.csv`, `fit_residuals.csv`,
+/// `fit_correlation.csv`, the fitted model `fitted.toml`, `fit_trace.png` and
+/// `fit_boundaries.png`.
+///
+/// # Errors
+/// [`WriteError`] if a file cannot be written.
+pub fn write_fit(
+    problem: &crate::fit::FitProblem,
+    result: &crate::fit::FitResult,
+    background: render::Background,
+    dir: &Path,
+) -> Result<(), WriteError> {
+    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
+    export::write_fit(problem, result, &dir.join("fit.csv"))?;
+    export::write_trace(result, &dir.join("fit_trace.csv"))?;
+    export::write_residuals(result, &dir.join("fit_residuals.csv"))?;
+    export::write_correlation(problem, result, &dir.join("fit_correlation.csv"))?;
+    let text = crate::fit::fitted_model_text(problem, &result.values(), result.objective)
+        .map_err(|message| export::ExportError::Content { path: dir.join("fitted.toml"), message })?;
+    export::write_atomic(&dir.join("fitted.toml"), |w| w.write_all(text.as_bytes()))?;
+    let title = &problem.model.title;
+    let trace = render::fit_trace(result, title, background);
+    export::write_atomic(&dir.join("fit_trace.png"), |w| w.write_all(&trace.png()?))?;
+    let names: Vec<String> = problem.genotypes.iter().map(|g| g.name.clone()).collect();
+    let chart = render::fit_boundaries(result, &names, title, background);
+    export::write_atomic(&dir.join("fit_boundaries.png"), |w| w.write_all(&chart.png()?))?;
+    Ok(())
+}

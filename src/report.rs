@@ -271,3 +271,47 @@ pub fn sensitivity(rows: &[anlage::screen::SensitivityRow], dir: &Path) -> Strin
     let _ = writeln!(out, "all {} rows in {}", rows.len(), dir.join("sensitivity.csv").display());
     out
 }
+
+/// What `anlage fit` prints.
+pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, seconds: f64, dir: &Path) -> String {
+    let mut s = String::new();
+    let evals = r.search.evaluations;
+    let _ = writeln!(
+        s,
+        "{}: {evals} evaluations in {seconds:.1} s ({:.0} per second)",
+        problem.model.title,
+        evals as f64 / seconds.max(1e-9)
+    );
+    let n = r.residuals.len();
+    let _ = writeln!(
+        s,
+        "objective {:.4} over {n} boundaries and {} parameters; for noise of the stated size expect about {} ± {:.1}",
+        r.objective,
+        problem.params.len(),
+        r.dof,
+        (2.0 * r.dof as f64).sqrt()
+    );
+    let _ = writeln!(s, "{:<28} {:>12} {:>27}  note", "parameter", "value", "approx. 95 % interval");
+    for (p, e) in problem.params.iter().zip(&r.estimates) {
+        let interval = e.interval.map_or_else(|| "not available".to_string(), |(a, b)| format!("{a:.4} … {b:.4}"));
+        let note = if e.at_bound {
+            "at a bound: poorly determined"
+        } else if !e.determined {
+            "wide: poorly determined"
+        } else {
+            ""
+        };
+        let _ = writeln!(s, "{:<28} {:>12.5} {:>27}  {note}", p.name, e.value, interval);
+    }
+    let missing = r.residuals.iter().filter(|x| x.measured_pct.is_none() || x.simulated_pct.is_none()).count();
+    if missing > 0 {
+        let _ = writeln!(s, "{missing} boundaries missing or extra in the fitted model (penalised)");
+    }
+    let _ = writeln!(
+        s,
+        "A good fit is a hypothesis consistent with these data, not proof of the mechanism; intervals come from the \
+         local curvature and are approximate.\noutputs in {}",
+        dir.display()
+    );
+    s
+}

@@ -5,6 +5,7 @@ mod cli;
 mod common;
 mod convergence;
 mod demos;
+mod fit;
 mod interrupt;
 mod measure;
 mod phase;

@@ -4,6 +4,7 @@
 //! renamed into place when complete, so a reader never sees half a file.
 
 mod compare_tables;
+mod fit_tables;
 mod phase_tables;
 mod screen_tables;
 mod tables;
@@ -13,6 +14,7 @@ use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 
 pub use compare_tables::{write_comparison, write_measured};
+pub use fit_tables::{write_correlation, write_fit, write_residuals, write_trace};
 pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
 pub use screen_tables::{write_sensitivity, write_shifts};
 pub use tables::{write_boundaries, write_domains, write_profiles, write_sheet};
@@ -33,12 +35,12 @@ pub enum ExportError {
         /// Cause.
         source: std::io::Error,
     },
-    /// NPY encoding trouble.
+    /// The content could not be produced.
     #[error("cannot write {}: {message}", path.display())]
-    Npy {
+    Content {
         /// The file.
         path: PathBuf,
-        /// What the NPY writer said.
+        /// What went wrong.
         message: String,
     },
 }

@@ -30,6 +30,8 @@ pub struct ModelSpec {
     /// Mutants: named sets of changes to the wild type.
     #[serde(default)]
     pub mutant: Vec<Spanned<MutantSpec>>,
+    /// Parameter fitting (read by `anlage fit`, see `crate::fit`).
+    pub fit: Option<toml::Value>,
 }
 
 /// `[[mutant]]` (also the syntax of `--mutant` on the command line).

@@ -66,8 +66,8 @@ fn tick_text(v: f64) -> String {
     s.trim_end_matches('0').trim_end_matches('.').to_string()
 }
 
-/// Draws the frame, ticks, tick labels and axis labels.
-pub fn draw(c: &mut Canvas, a: &Axes, x_label: &str, y_label: &str, bg: Background) {
+/// Draws the frame, the x ticks and the x label (for charts whose rows are categories).
+pub fn draw_x(c: &mut Canvas, a: &Axes, x_label: &str, bg: Background) {
     let ink = bg.ink();
     let (l, t, r, b) = (a.left, a.top, a.left + a.width, a.top + a.height);
     c.polyline(&[(l, t), (r, t), (r, b), (l, b), (l, t)], 1.0, ink, 255, None);
@@ -76,12 +76,19 @@ pub fn draw(c: &mut Canvas, a: &Axes, x_label: &str, y_label: &str, bg: Backgrou
         c.line(px, b, px, b + 5.0, 1.0, ink);
         c.text(px, b + 19.0, 13.0, ink, Align::Centre, &tick_text(x));
     }
+    c.text(l + a.width / 2.0, b + 40.0, 14.0, ink, Align::Centre, x_label);
+}
+
+/// Draws the frame, ticks, tick labels and axis labels.
+pub fn draw(c: &mut Canvas, a: &Axes, x_label: &str, y_label: &str, bg: Background) {
+    let ink = bg.ink();
+    let (l, t) = (a.left, a.top);
+    draw_x(c, a, x_label, bg);
     for y in nice_ticks(a.y.0.min(a.y.1), a.y.1.max(a.y.0), 5) {
         let py = a.py(y);
         c.line(l - 5.0, py, l, py, 1.0, ink);
         c.text(l - 8.0, py + 4.5, 13.0, ink, Align::Right, &tick_text(y));
     }
-    c.text(l + a.width / 2.0, b + 40.0, 14.0, ink, Align::Centre, x_label);
     // The y label, written above the axis (no rotated text).
     c.text(l - 8.0, t - 10.0, 14.0, ink, Align::Left, y_label);
 }

@@ -1,0 +1,93 @@
+//! Fit tables: estimates, objective trace, residuals and correlations.
+
+use std::path::Path;
+
+use super::{ExportError, opt, write_atomic};
+use crate::fit::{FitProblem, FitResult};
+
+/// `fit.csv`: `parameter, value, start, min, max, scale, at_bound, ci95_low,
+/// ci95_high, determined` (approximate intervals; see [`crate::fit`]).
+///
+/// # Errors
+/// [`ExportError`] if the file cannot be written.
+pub fn write_fit(problem: &FitProblem, r: &FitResult, path: &Path) -> Result<(), ExportError> {
+    write_atomic(path, |w| {
+        writeln!(w, "parameter,value,start,min,max,scale,at_bound,ci95_low,ci95_high,determined")?;
+        for (p, e) in problem.params.iter().zip(&r.estimates) {
+            writeln!(
+                w,
+                "{},{},{},{},{},{},{},{},{},{}",
+                p.name,
+                e.value,
+                p.start,
+                p.min,
+                p.max,
+                if p.log { "log" } else { "linear" },
+                e.at_bound,
+                opt(e.interval.map(|i| i.0)),
+                opt(e.interval.map(|i| i.1)),
+                e.determined
+            )?;
+        }
+        Ok(())
+    })
+}
+
+/// `fit_trace.csv`: `evaluations, best_objective` after each generation.
+///
+/// # Errors
+/// [`ExportError`] if the file cannot be written.
+pub fn write_trace(r: &FitResult, path: &Path) -> Result<(), ExportError> {
+    write_atomic(path, |w| {
+        writeln!(w, "evaluations,best_objective")?;
+        for (n, v) in &r.search.trace {
+            writeln!(w, "{n},{v}")?;
+        }
+        Ok(())
+    })
+}
+
+/// `fit_residuals.csv`: `genotype, time_min, gene, direction, measured_pct,
+/// simulated_pct, sigma_pct, residual` (empty measured: an extra simulated
+/// boundary; empty simulated: a missing one; both cost the penalty).
+///
+/// # Errors
+/// [`ExportError`] if the file cannot be written.
+pub fn write_residuals(r: &FitResult, path: &Path) -> Result<(), ExportError> {
+    write_atomic(path, |w| {
+        writeln!(w, "genotype,time_min,gene,direction,measured_pct,simulated_pct,sigma_pct,residual")?;
+        for x in &r.residuals {
+            writeln!(
+                w,
+                "{},{},{},{},{},{},{},{}",
+                x.genotype,
+                x.time_min,
+                x.gene,
+                x.direction,
+                opt(x.measured_pct),
+                opt(x.simulated_pct),
+                x.sigma_pct,
+                x.value
+            )?;
+        }
+        Ok(())
+    })
+}
+
+/// `fit_correlation.csv`: the parameters' correlation matrix (header row and
+/// first column name the parameters); not written when the curvature is singular.
+///
+/// # Errors
+/// [`ExportError`] if the file cannot be written.
+pub fn write_correlation(problem: &FitProblem, r: &FitResult, path: &Path) -> Result<(), ExportError> {
+    let Some(c) = &r.correlation else { return Ok(()) };
+    write_atomic(path, |w| {
+        let names: Vec<&str> = problem.params.iter().map(|p| p.name.as_str()).collect();
+        writeln!(w, "parameter,{}", names.join(","))?;
+        for (name, row) in names.iter().zip(c) {
+            let cells: Vec<String> = row.iter().map(|v| v.to_string()).collect();
+            writeln!(w, "{name},{}", cells.join(","))?;
+        }
+        Ok(())
+    })
+}

@@ -1,0 +1,144 @@
+//! The fit objective: a weighted sum of squared boundary differences over
+//! every genotype, `Σ ((x_sim − x_meas)/σ)²`, positions in % of the axis.
+//!
+//! σ is the measured standard error: `sd_pct/√n` when the table gives n,
+//! `sd_pct` without n, and 1 % of the axis when the table gives no sd (common
+//! practice, no source). A measured boundary the model does not make, and a
+//! simulated boundary of a measured gene and direction that no measurement
+//! matches, each cost a residual of [`PENALTY_PCT`]/σ, as if half an axis off.
+
+use crate::compare::MeasuredRow;
+use crate::integrate::{self, Recording};
+use crate::model::Model;
+use crate::readout::{Boundary, boundaries_at};
+
+use super::problem::{FitProblem, Genotype};
+
+/// Cost of a missing or extra boundary, % of the axis.
+pub const PENALTY_PCT: f64 = 50.0;
+/// σ when a table gives none, % of the axis.
+pub const DEFAULT_SD_PCT: f64 = 1.0;
+
+/// One term of the objective.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Residual {
+    /// Genotype name.
+    pub genotype: String,
+    /// Gene.
+    pub gene: String,
+    /// rising or falling.
+    pub direction: String,
+    /// Time, min.
+    pub time_min: f64,
+    /// Measured position, % (None for an extra simulated boundary).
+    pub measured_pct: Option<f64>,
+    /// Simulated position, % (None for a missing boundary).
+    pub simulated_pct: Option<f64>,
+    /// σ, %.
+    pub sigma_pct: f64,
+    /// (simulated − measured)/σ, or the penalty.
+    pub value: f64,
+}
+
+fn sigma(row: &MeasuredRow) -> f64 {
+    match (row.sd_pct, row.n) {
+        (Some(sd), Some(n)) if sd > 0.0 && n > 0 => sd / (n as f64).sqrt(),
+        (Some(sd), None) if sd > 0.0 => sd,
+        _ => DEFAULT_SD_PCT,
+    }
+}
+
+/// Boundaries at the given times (each a snapshot time of the clock),
+/// simulated on one thread keeping only those snapshots.
+fn boundaries_at_times(model: &Model, times: &[f64]) -> Result<Vec<Boundary>, integrate::StepError> {
+    let tissue = crate::tissue::Tissue::new(model);
+    let kinetics = crate::kinetics::build(model);
+    let mut rec = Recording::for_model(model);
+    let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * a.abs().max(1.0);
+    integrate::integrate(model, kinetics.as_ref(), &tissue, false, |t, state| {
+        if times.iter().any(|&w| close(w, t)) {
+            rec.push(t, state);
+        }
+    })?;
+    Ok((0..rec.times.len()).flat_map(|s| boundaries_at(&rec, s)).collect())
+}
+
+/// Residuals of one genotype for a model with the free parameters set.
+fn genotype_residuals(model: &Model, g: &Genotype) -> Result<Vec<Residual>, integrate::StepError> {
+    let model = match &g.mutant {
+        Some(m) => model.with_mutant(m),
+        None => model.clone(),
+    };
+    let until = model.clock.until_min;
+    let time_of = |r: &MeasuredRow| r.time_min.unwrap_or(until);
+    let mut times: Vec<f64> = g.rows.iter().map(time_of).collect();
+    times.sort_by(f64::total_cmp);
+    times.dedup();
+    let simulated = boundaries_at_times(&model, &times)?;
+    let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * a.abs().max(1.0);
+    let mut out = Vec::new();
+    // Groups of the same gene, direction and time, matched in order along the axis.
+    let mut keys: Vec<(String, String, f64)> =
+        g.rows.iter().map(|r| (r.gene.clone(), r.direction.clone(), time_of(r))).collect();
+    keys.sort_by(|a, b| (&a.0, &a.1).cmp(&(&b.0, &b.1)).then(a.2.total_cmp(&b.2)));
+    keys.dedup();
+    for (gene, direction, t) in keys {
+        let mut measured: Vec<&MeasuredRow> =
+            g.rows.iter().filter(|r| r.gene == gene && r.direction == direction && close(time_of(r), t)).collect();
+        measured.sort_by(|a, b| a.position_pct.total_cmp(&b.position_pct));
+        let mut sim: Vec<f64> = simulated
+            .iter()
+            .filter(|b| b.gene == gene && b.direction == direction && close(b.time_min, t))
+            .map(|b| b.position_pct)
+            .collect();
+        sim.sort_by(f64::total_cmp);
+        let base = |m: Option<&MeasuredRow>, s: Option<f64>, sigma_pct: f64, value: f64| Residual {
+            genotype: g.name.clone(),
+            gene: gene.clone(),
+            direction: direction.clone(),
+            time_min: t,
+            measured_pct: m.map(|m| m.position_pct),
+            simulated_pct: s,
+            sigma_pct,
+            value,
+        };
+        // Pair each measured boundary with the nearest unused simulated one.
+        let mut used = vec![false; sim.len()];
+        for m in &measured {
+            let s = sigma(m);
+            let nearest = (0..sim.len())
+                .filter(|&k| !used[k])
+                .min_by(|&a, &b| (sim[a] - m.position_pct).abs().total_cmp(&(sim[b] - m.position_pct).abs()));
+            match nearest {
+                Some(k) => {
+                    used[k] = true;
+                    out.push(base(Some(m), Some(sim[k]), s, (sim[k] - m.position_pct) / s));
+                }
+                None => out.push(base(Some(m), None, s, PENALTY_PCT / s)),
+            }
+        }
+        let s = measured.iter().map(|m| sigma(m)).fold(f64::INFINITY, f64::min);
+        for (k, x) in sim.iter().enumerate() {
+            if !used[k] {
+                out.push(base(None, Some(*x), s, PENALTY_PCT / s));
+            }
+        }
+    }
+    Ok(out)
+}
+
+/// Every residual at parameter values `values` (in the order of the free
+/// parameters); None if a simulation fails (the optimiser treats that as +∞).
+pub fn residuals(problem: &FitProblem, values: &[f64]) -> Option<Vec<Residual>> {
+    let model = problem.model_at(values);
+    let mut all = Vec::new();
+    for g in &problem.genotypes {
+        all.extend(genotype_residuals(&model, g).ok()?);
+    }
+    Some(all)
+}
+
+/// Σ r² at `values`; +∞ if a simulation fails.
+pub fn objective(problem: &FitProblem, values: &[f64]) -> f64 {
+    residuals(problem, values).map_or(f64::INFINITY, |r| r.iter().map(|r| r.value * r.value).sum())
+}

@@ -1,0 +1,290 @@
+//! The `[fit]` part of a model file: free parameters with bounds and scales,
+//! and measured-boundary tables tied to genotypes.
+//!
+//! ```toml
+//! [fit]
+//! seed = 1                 # optimiser seed (default 0)
+//! evaluations = 3000       # budget of objective evaluations (default 200 per parameter)
+//! restarts = 1             # independent restarts sharing the budget (default 1)
+//! [[fit.parameter]]
+//! name = "amber.production"  # any parameter a mutant can scale
+//! min = 0.5
+//! max = 2.0
+//! scale = "log"            # or "linear" (default)
+//! [[fit.data]]
+//! table = "measured.csv"   # sample, time, gene, direction, position_pct, sd_pct, n
+//! genotype = "wild type"   # or the name of a [[mutant]]
+//! ```
+
+use std::collections::HashMap;
+use std::path::Path;
+
+use serde::Deserialize;
+use toml::Spanned;
+
+use crate::compare::{MeasuredRow, read_measured};
+use crate::model::{Model, ModelError, Mutant, Param, Source};
+
+/// The genotype name of the unmutated model.
+pub const WILD_TYPE: &str = "wild type";
+
+#[derive(Debug, Deserialize)]
+struct FitFile {
+    fit: Option<Spanned<FitSpec>>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct FitSpec {
+    seed: Option<u64>,
+    evaluations: Option<usize>,
+    restarts: Option<usize>,
+    #[serde(default)]
+    parameter: Vec<Spanned<ParamSpec>>,
+    #[serde(default)]
+    data: Vec<Spanned<DataSpec>>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct ParamSpec {
+    name: String,
+    min: f64,
+    max: f64,
+    scale: Option<String>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct DataSpec {
+    table: String,
+    genotype: Option<String>,
+}
+
+/// One free parameter.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FreeParam {
+    /// As written, e.g. `amber.production`.
+    pub name: String,
+    /// Which model parameter.
+    pub param: Param,
+    /// Bounds.
+    pub min: f64,
+    /// Bounds.
+    pub max: f64,
+    /// Searched on a logarithmic scale.
+    pub log: bool,
+    /// The model file's value.
+    pub start: f64,
+}
+
+impl FreeParam {
+    /// Value at position `z ∈ [0, 1]` of the search range.
+    pub fn value(&self, z: f64) -> f64 {
+        let z = z.clamp(0.0, 1.0);
+        if self.log {
+            (self.min.ln() + z * (self.max.ln() - self.min.ln())).exp()
+        } else {
+            self.min + z * (self.max - self.min)
+        }
+    }
+    /// Position of `v` in the search range.
+    pub fn unit(&self, v: f64) -> f64 {
+        if self.log {
+            (v.ln() - self.min.ln()) / (self.max.ln() - self.min.ln())
+        } else {
+            (v - self.min) / (self.max - self.min)
+        }
+    }
+}
+
+/// Measured boundaries of one genotype.
+#[derive(Debug, Clone)]
+pub struct Genotype {
+    /// `wild type` or a mutant's name.
+    pub name: String,
+    /// The mutant (None for the wild type).
+    pub mutant: Option<Mutant>,
+    /// Measured rows (each with a time in min; missing times mean the end of the run).
+    pub rows: Vec<MeasuredRow>,
+}
+
+/// A checked fitting problem.
+#[derive(Debug, Clone)]
+pub struct FitProblem {
+    /// The model with the file's parameter values.
+    pub model: Model,
+    /// Free parameters.
+    pub params: Vec<FreeParam>,
+    /// Data per genotype.
+    pub genotypes: Vec<Genotype>,
+    /// Optimiser seed.
+    pub seed: u64,
+    /// Objective evaluations allowed.
+    pub evaluations: usize,
+    /// Independent restarts.
+    pub restarts: usize,
+}
+
+impl FitProblem {
+    /// Reads the `[fit]` part of `model`'s file and the tables it names
+    /// (paths relative to the model file).
+    ///
+    /// # Errors
+    /// [`ModelError`] naming the line and field of the problem, or the table's row.
+    pub fn from_model(model: &Model) -> Result<FitProblem, FitSetupError> {
+        let src = Source::new(&model.file, &model.text);
+        let file: FitFile = toml::from_str(&model.text).map_err(|e| src.syntax_error(&e))?;
+        let Some(fit) = file.fit else {
+            return Err(FitSetupError::NoFit { file: model.file.clone() });
+        };
+        let spec = fit.get_ref();
+        let span = fit.span();
+        if spec.parameter.is_empty() {
+            return Err(src
+                .invalid(
+                    &span,
+                    "parameter",
+                    "fit.parameter".into(),
+                    "is empty".into(),
+                    "add [[fit.parameter]] tables with name, min and max",
+                )
+                .into());
+        }
+        let mut params = Vec::new();
+        for (i, p) in spec.parameter.iter().enumerate() {
+            let (ps, span) = (p.get_ref(), p.span());
+            let field = |k: &str| format!("fit.parameter[{i}].{k}");
+            let param = model.parse_param(&ps.name).map_err(|why| {
+                src.invalid(
+                    &span,
+                    "name",
+                    field("name"),
+                    format!("`{}`: {why}", ps.name),
+                    "name a parameter as gene.production, gradient.peak or from->to.threshold",
+                )
+            })?;
+            let log = match ps.scale.as_deref() {
+                None | Some("linear") => false,
+                Some("log") => true,
+                Some(other) => {
+                    return Err(src
+                        .invalid(&span, "scale", field("scale"), format!("is `{other}`"), "write \"linear\" or \"log\"")
+                        .into());
+                }
+            };
+            let ok = ps.min.is_finite() && ps.max.is_finite() && ps.min < ps.max && (!log || ps.min > 0.0);
+            if !ok {
+                return Err(src
+                    .invalid(
+                        &span,
+                        "min",
+                        field("min"),
+                        format!("and max are {} and {}", ps.min, ps.max),
+                        "give finite bounds with min < max (and min > 0 on a log scale)",
+                    )
+                    .into());
+            }
+            if params.iter().any(|q: &FreeParam| q.param == param) {
+                return Err(src
+                    .invalid(
+                        &span,
+                        "name",
+                        field("name"),
+                        format!("`{}` is already free", ps.name),
+                        "list each parameter once",
+                    )
+                    .into());
+            }
+            let start = model.param_value(param).expect("parse_param checked it applies");
+            params.push(FreeParam { name: ps.name.clone(), param, min: ps.min, max: ps.max, log, start });
+        }
+        if spec.data.is_empty() {
+            return Err(src
+                .invalid(
+                    &span,
+                    "data",
+                    "fit.data".into(),
+                    "is empty".into(),
+                    "add [[fit.data]] tables with a measured-boundary table",
+                )
+                .into());
+        }
+        let dir = model.file.parent().unwrap_or(Path::new("."));
+        let mut genotypes: Vec<Genotype> = Vec::new();
+        for (i, d) in spec.data.iter().enumerate() {
+            let (ds, span) = (d.get_ref(), d.span());
+            let name = ds.genotype.clone().unwrap_or_else(|| WILD_TYPE.into());
+            let mutant = if name == WILD_TYPE {
+                None
+            } else {
+                let m = model.mutants.iter().find(|m| m.name == name).ok_or_else(|| {
+                    let known: Vec<&str> = model.mutants.iter().map(|m| m.name.as_str()).collect();
+                    src.invalid(
+                        &span,
+                        "genotype",
+                        format!("fit.data[{i}].genotype"),
+                        format!("`{name}` is not a declared mutant (known: {})", known.join(", ")),
+                        "write \"wild type\" or the name of a [[mutant]]",
+                    )
+                })?;
+                Some(m.clone())
+            };
+            let rows = read_measured(&dir.join(&ds.table), &HashMap::new())?;
+            let times = model.clock.snapshot_times();
+            for r in &rows {
+                if let Some(t) = r.time_min
+                    && !times.iter().any(|s| (s - t).abs() <= 1e-9 * s.abs().max(1.0))
+                {
+                    return Err(src
+                        .invalid(&span, "table", format!("fit.data[{i}].table"), format!("`{}` has a boundary at t = {t} min, which is not a snapshot time of the clock", ds.table), "give times that are snapshot times (multiples of snapshot_every_min), or leave time empty for the end of the run")
+                        .into());
+                }
+            }
+            match genotypes.iter_mut().find(|g| g.name == name) {
+                Some(g) => g.rows.extend(rows),
+                None => genotypes.push(Genotype { name, mutant, rows }),
+            }
+        }
+        let evaluations = spec.evaluations.unwrap_or(200 * params.len()).max(10);
+        Ok(FitProblem {
+            model: model.clone(),
+            params,
+            genotypes,
+            seed: spec.seed.unwrap_or(0),
+            evaluations,
+            restarts: spec.restarts.unwrap_or(1).max(1),
+        })
+    }
+
+    /// The model with free parameters at `values`.
+    pub fn model_at(&self, values: &[f64]) -> Model {
+        let mut m = self.model.clone();
+        for (p, v) in self.params.iter().zip(values) {
+            *m.param_mut(p.param).expect("checked parameter") = *v;
+        }
+        m
+    }
+
+    /// Number of measured boundaries.
+    pub fn data_points(&self) -> usize {
+        self.genotypes.iter().map(|g| g.rows.len()).sum()
+    }
+}
+
+/// Why a fit could not be set up.
+#[derive(Debug, thiserror::Error)]
+pub enum FitSetupError {
+    /// The model file has no `[fit]`.
+    #[error("{}: there is no [fit] section; add [fit] with [[fit.parameter]] and [[fit.data]] tables (see README, \"Fit\")", file.display())]
+    NoFit {
+        /// The model file.
+        file: std::path::PathBuf,
+    },
+    /// A field of `[fit]` is wrong.
+    #[error(transparent)]
+    Model(#[from] ModelError),
+    /// A measured table is wrong.
+    #[error(transparent)]
+    Table(#[from] crate::compare::CompareError),
+}

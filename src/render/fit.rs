@@ -1,0 +1,95 @@
+//! Fit pictures: the objective trace and the fitted against the measured
+//! boundaries of every genotype.
+
+use super::axes::{self, Axes};
+use super::canvas::{Align, Canvas};
+use super::colour::Background;
+use crate::fit::FitResult;
+
+/// Best objective (log10) against objective evaluations.
+pub fn fit_trace(r: &FitResult, title: &str, bg: Background) -> Canvas {
+    let (w, h) = (720u32, 440u32);
+    let mut c = Canvas::new(w, h, bg.rgb());
+    c.text(20.0, 28.0, 16.0, bg.ink(), Align::Left, &format!("{title}: fit progress"));
+    let pts: Vec<(f64, f64)> =
+        r.search.trace.iter().filter(|(_, v)| v.is_finite()).map(|(n, v)| (*n as f64, v.max(1e-12).log10())).collect();
+    let last = pts.last().map_or(1.0, |p| p.0.max(1.0));
+    let (lo, hi) = pts.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), p| (a.min(p.1), b.max(p.1)));
+    let (lo, hi) = if lo.is_finite() { (lo.floor(), hi.ceil().max(lo.floor() + 1.0)) } else { (0.0, 1.0) };
+    let a = Axes {
+        left: 80.0,
+        top: 70.0,
+        width: w as f32 - 110.0,
+        height: h as f32 - 150.0,
+        x: (0.0, last),
+        y: (lo, hi),
+        y_down: false,
+    };
+    axes::draw(&mut c, &a, "objective evaluations", "log10 best objective (sum of squared residuals)", bg);
+    let line: Vec<(f32, f32)> = pts.iter().map(|(x, y)| (a.px(*x), a.py(*y))).collect();
+    c.polyline(&line, 2.0, [230, 159, 0], 255, None);
+    c.text(
+        w as f32 - 20.0,
+        h as f32 - 14.0,
+        12.0,
+        bg.muted(),
+        Align::Right,
+        &format!(
+            "final objective {:.4}, {} residuals, {} evaluations",
+            r.objective,
+            r.residuals.len(),
+            r.search.evaluations
+        ),
+    );
+    c
+}
+
+/// One row per genotype: measured boundaries (open circles with ±σ bars) and
+/// the fitted model's (filled), along the axis in %.
+pub fn fit_boundaries(r: &FitResult, genotypes: &[String], title: &str, bg: Background) -> Canvas {
+    let row_h = 46.0f32;
+    let (w, top) = (720u32, 80.0f32);
+    let h = (top + row_h * genotypes.len().max(1) as f32 + 90.0) as u32;
+    let mut c = Canvas::new(w, h, bg.rgb());
+    c.text(20.0, 28.0, 16.0, bg.ink(), Align::Left, &format!("{title}: fitted vs measured boundaries"));
+    c.text(
+        20.0,
+        48.0,
+        12.0,
+        bg.muted(),
+        Align::Left,
+        "open: measured ± σ   filled: fitted model (a model prediction)   ×: missing or extra",
+    );
+    let a = Axes::along_axis(
+        150.0,
+        top,
+        30.0,
+        w,
+        row_h * genotypes.len().max(1) as f32,
+        (0.0, genotypes.len().max(1) as f64),
+        true,
+    );
+    axes::draw_x(&mut c, &a, "position along the axis, % (head at 0)", bg);
+    let (measured_c, fitted_c, bad_c) = ([86, 180, 233], [230, 159, 0], [213, 94, 0]);
+    for (k, g) in genotypes.iter().enumerate() {
+        let y = a.top + row_h * (k as f32 + 0.5);
+        c.text(a.left - 10.0, y + 4.0, 13.0, bg.ink(), Align::Right, g);
+        c.line(a.left, y, a.left + a.width, y, 1.0, bg.muted());
+        for res in r.residuals.iter().filter(|x| &x.genotype == g) {
+            match (res.measured_pct, res.simulated_pct) {
+                (Some(m), s) => {
+                    let (x0, x1) = (a.px((m - res.sigma_pct).max(0.0)), a.px((m + res.sigma_pct).min(100.0)));
+                    c.line(x0, y - 8.0, x1, y - 8.0, 1.5, measured_c);
+                    c.ellipse(a.px(m), y - 8.0, 5.0, 5.0, 1.5, measured_c, None);
+                    match s {
+                        Some(s) => c.ellipse(a.px(s), y + 8.0, 4.5, 4.5, 1.0, fitted_c, Some(fitted_c)),
+                        None => c.text(a.px(m), y + 13.0, 14.0, bad_c, Align::Centre, "×"),
+                    }
+                }
+                (None, Some(s)) => c.text(a.px(s), y + 13.0, 14.0, bad_c, Align::Centre, "×"),
+                (None, None) => {}
+            }
+        }
+    }
+    c
+}

@@ -38,4 +38,6 @@ for model in patterns/*.toml; do
   [ "$name" = ribbon ] || rm -f "$out/pattern.gif"
 
 done
+# The fit demo (invented data in demo-data/fit).
+"$bin" fit patterns/ribbon_fit.toml -q -o output-samples/ribbon_fit
 du -sh output-samples

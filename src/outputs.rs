@@ -250,8 +250,9 @@ pub fn write_sensitivity(
 }
 
 /// Writes a finished fit: `fit.csv`, `fit_trace.csv`, `fit_residuals.csv`,
-/// `fit_correlation.csv`, the fitted model `fitted.toml`, `fit_trace.png` and
-/// `fit_boundaries.png`.
+/// `fit_correlation.csv`, the fitted model `fitted.toml`, `fit_trace.png`,
+/// `fit_boundaries.png` and, if profiles were asked for, `fit_profiles.csv`
+/// and `fit_profiles.png`.
 ///
 /// # Errors
 /// [`WriteError`] if a file cannot be written.
@@ -266,6 +267,7 @@ pub fn write_fit(
     export::write_trace(result, &dir.join("fit_trace.csv"))?;
     export::write_residuals(result, &dir.join("fit_residuals.csv"))?;
     export::write_correlation(problem, result, &dir.join("fit_correlation.csv"))?;
+    export::write_fit_profiles(problem, result, &dir.join("fit_profiles.csv"))?;
     let text = crate::fit::fitted_model_text(problem, &result.values(), result.objective)
         .map_err(|message| export::ExportError::Content { path: dir.join("fitted.toml"), message })?;
     export::write_atomic(&dir.join("fitted.toml"), |w| w.write_all(text.as_bytes()))?;
@@ -275,5 +277,10 @@ pub fn write_fit(
     let names: Vec<String> = problem.genotypes.iter().map(|g| g.name.clone()).collect();
     let chart = render::fit_boundaries(result, &names, title, background);
     export::write_atomic(&dir.join("fit_boundaries.png"), |w| w.write_all(&chart.png()?))?;
+    if !result.profiles.is_empty() {
+        let params: Vec<String> = problem.params.iter().map(|p| p.name.clone()).collect();
+        let chart = render::fit_profiles(result, &params, title, background);
+        export::write_atomic(&dir.join("fit_profiles.png"), |w| w.write_all(&chart.png()?))?;
+    }
     Ok(())
 }

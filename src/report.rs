@@ -303,6 +303,18 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, second
         };
         let _ = writeln!(s, "{:<28} {:>12.5} {:>27}  {note}", p.name, e.value, interval);
     }
+    for p in &r.profiles {
+        let inside: Vec<f64> = p.points.iter().filter(|(_, f)| f - r.objective < 3.84).map(|(v, _)| *v).collect();
+        let name = &problem.params[p.param].name;
+        match (inside.first(), inside.last()) {
+            (Some(a), Some(b)) => {
+                let _ = writeln!(s, "profile of {name}: within 3.84 of the best for {a:.4} … {b:.4} (grid points)");
+            }
+            _ => {
+                let _ = writeln!(s, "profile of {name}: no grid point within 3.84 of the best");
+            }
+        }
+    }
     let missing = r.residuals.iter().filter(|x| x.measured_pct.is_none() || x.simulated_pct.is_none()).count();
     if missing > 0 {
         let _ = writeln!(s, "{missing} boundaries missing or extra in the fitted model (penalised)");

@@ -162,3 +162,25 @@ fn bad_fit_sections_are_refused_with_the_line() {
     let none = Model::from_toml(&base, Path::new("f.toml")).unwrap();
     assert!(FitProblem::from_model(&none).unwrap_err().to_string().contains("there is no [fit] section"));
 }
+
+/// Profile likelihood of λ (Venzon & Moolgavkar 1988; Raue et al. 2009): the
+/// re-fitted objective is lowest near the best fit, never below the best
+/// objective by more than the re-fit's slack, rises past the 95 % line 3.84 at
+/// both ends of its grid, and its 95 % region contains the true value.
+#[test]
+fn profile_likelihood_brackets_the_truth() {
+    let (_, mut problem) = recovery_problem("profile", 1.5, 23, 1200);
+    problem.profile = vec![0];
+    let r = fit(&problem, true, &mut |_, _| {});
+    let p = &r.profiles[0];
+    assert_eq!(p.points.len(), 9);
+    let (lowest_at, lowest) = p.points.iter().copied().min_by(|a, b| a.1.total_cmp(&b.1)).unwrap();
+    assert!(lowest >= r.objective - 1.0, "profile {lowest} far below the fit {}", r.objective);
+    let step = p.points[1].0 - p.points[0].0;
+    assert!((lowest_at - r.estimates[0].value).abs() <= 1.01 * step, "lowest at {lowest_at}");
+    assert!(p.points[0].1 - r.objective > 3.84 && p.points[8].1 - r.objective > 3.84, "{p:?}");
+    assert!(p.points.windows(2).all(|w| w[0].0 < w[1].0));
+    let inside: Vec<f64> = p.points.iter().filter(|(_, f)| f - r.objective < 3.84).map(|(v, _)| *v).collect();
+    let (lo, hi) = (inside[0] - step, inside[inside.len() - 1] + step);
+    assert!(lo <= TRUE_LAMBDA && TRUE_LAMBDA <= hi, "{TRUE_LAMBDA} outside [{lo}, {hi}]");
+}

@@ -91,3 +91,23 @@ pub fn write_correlation(problem: &FitProblem, r: &FitResult, path: &Path) -> Re
         Ok(())
     })
 }
+
+/// `fit_profiles.csv`: `parameter, value, objective, above_best` for each
+/// profiled parameter (`above_best` < 3.84 lies inside the 95 % profile interval).
+///
+/// # Errors
+/// [`ExportError`] if the file cannot be written.
+pub fn write_profiles(problem: &FitProblem, r: &FitResult, path: &Path) -> Result<(), ExportError> {
+    if r.profiles.is_empty() {
+        return Ok(());
+    }
+    write_atomic(path, |w| {
+        writeln!(w, "parameter,value,objective,above_best")?;
+        for p in &r.profiles {
+            for (v, f) in &p.points {
+                writeln!(w, "{},{v},{f},{}", problem.params[p.param].name, f - r.objective)?;
+            }
+        }
+        Ok(())
+    })
+}

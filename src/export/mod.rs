@@ -14,7 +14,9 @@ use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 
 pub use compare_tables::{write_comparison, write_measured};
-pub use fit_tables::{write_correlation, write_fit, write_residuals, write_trace};
+pub use fit_tables::{
+    write_correlation, write_fit, write_profiles as write_fit_profiles, write_residuals, write_trace,
+};
 pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
 pub use screen_tables::{write_sensitivity, write_shifts};
 pub use tables::{write_boundaries, write_domains, write_profiles, write_sheet};

@@ -58,7 +58,27 @@ pub struct FitResult {
     pub correlation: Option<Vec<Vec<f64>>>,
     /// Degrees of freedom: residuals − parameters.
     pub dof: usize,
+    /// Profile likelihoods of the parameters asked for in `[fit] profile`.
+    pub profiles: Vec<Profile>,
 }
+
+/// The profile of one parameter: at each fixed value, the objective minimised
+/// over the other free parameters. Where it stays within 3.84 (the 95 % point
+/// of χ² with one degree of freedom) of the best objective is the
+/// profile-likelihood interval (Venzon & Moolgavkar 1988, Appl. Statist.
+/// 37:87; Raue et al. 2009, Bioinformatics 25:1923).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Profile {
+    /// Index of the parameter.
+    pub param: usize,
+    /// (value, minimised objective), in increasing value.
+    pub points: Vec<(f64, f64)>,
+}
+
+/// Points of each profile.
+const PROFILE_POINTS: usize = 9;
+/// 95 % point of χ² with one degree of freedom.
+const CHI2_95: f64 = 3.841_458_820_694_124;
 
 impl FitResult {
     /// The best values, in parameter order.
@@ -96,9 +116,75 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
             Estimate { value: best[j], interval, at_bound, determined: inside && !at_bound }
         })
         .collect();
-    let correlation =
-        cov.map(|c| (0..dim).map(|i| (0..dim).map(|j| c[(i, j)] / (c[(i, i)] * c[(j, j)]).sqrt()).collect()).collect());
-    FitResult { estimates, objective, dof: residuals.len().saturating_sub(dim), residuals, search, correlation }
+    let correlation = cov
+        .as_ref()
+        .map(|c| (0..dim).map(|i| (0..dim).map(|j| c[(i, j)] / (c[(i, i)] * c[(j, j)]).sqrt()).collect()).collect());
+    let profiles =
+        problem.profile.iter().map(|&j| profile(problem, &search.best, objective, j, &cov, parallel)).collect();
+    FitResult {
+        estimates,
+        objective,
+        dof: residuals.len().saturating_sub(dim),
+        residuals,
+        search,
+        correlation,
+        profiles,
+    }
+}
+
+/// The profile of parameter `j` around the best point `u`: a grid over ±3σ
+/// (at least ±5 % of the search range, widened until the ends rise past the
+/// 95 % line), the others re-fitted at each point by a short
+/// differential-evolution search started from the best point.
+fn profile(
+    problem: &FitProblem,
+    u: &[f64],
+    best: f64,
+    j: usize,
+    cov: &Option<DMatrix<f64>>,
+    parallel: bool,
+) -> Profile {
+    let dim = u.len();
+    let values = |u: &[f64]| -> Vec<f64> { problem.params.iter().zip(u).map(|(p, z)| p.value(*z)).collect() };
+    let others: Vec<f64> = u.iter().enumerate().filter(|(k, _)| *k != j).map(|(_, v)| *v).collect();
+    let at = |k: usize, fixed: f64| -> f64 {
+        if dim == 1 {
+            return objective::objective(problem, &values(&[fixed]));
+        }
+        let f = |rest: &[f64]| {
+            let mut v = rest.to_vec();
+            v.insert(j, fixed);
+            objective::objective(problem, &values(&v))
+        };
+        let opts = DeOptions {
+            seed: problem.seed.wrapping_add(1 + k as u64),
+            evaluations: (problem.evaluations / 10).max(40 * dim),
+            restarts: 1,
+            parallel,
+        };
+        optimise::minimise(dim - 1, &f, Some(&others), &opts, &mut |_, _| {}).value
+    };
+    // Widen the grid (up to three doublings) until both ends rise past the
+    // 95 % line or reach the bounds: boundaries that move in nucleus-sized
+    // jumps can leave the profile flatter than the curvature suggests.
+    let mut half = cov.as_ref().map_or(0.05, |c| (3.0 * c[(j, j)].max(0.0).sqrt()).max(0.05));
+    let mut points = Vec::new();
+    for _ in 0..4 {
+        let (lo, hi) = ((u[j] - half).max(0.0), (u[j] + half).min(1.0));
+        points = (0..PROFILE_POINTS)
+            .map(|k| {
+                let fixed = lo + (hi - lo) * k as f64 / (PROFILE_POINTS - 1) as f64;
+                (problem.params[j].value(fixed), at(k, fixed))
+            })
+            .collect::<Vec<_>>();
+        let open_low = lo > 0.0 && points[0].1 - best < CHI2_95;
+        let open_high = hi < 1.0 && points[PROFILE_POINTS - 1].1 - best < CHI2_95;
+        if !(open_low || open_high) {
+            break;
+        }
+        half *= 2.0;
+    }
+    Profile { param: j, points }
 }
 
 /// `(JᵀJ)⁻¹` in unit-range coordinates at `u`, or None if a residual appears

@@ -6,6 +6,7 @@
 //! seed = 1                 # optimiser seed (default 0)
 //! evaluations = 3000       # budget of objective evaluations (default 200 per parameter)
 //! restarts = 1             # independent restarts sharing the budget (default 1)
+//! profile = ["amber.production"]  # profile likelihoods wanted (default none)
 //! [[fit.parameter]]
 //! name = "amber.production"  # any parameter a mutant can scale
 //! min = 0.5
@@ -39,6 +40,8 @@ struct FitSpec {
     seed: Option<u64>,
     evaluations: Option<usize>,
     restarts: Option<usize>,
+    #[serde(default)]
+    profile: Vec<String>,
     #[serde(default)]
     parameter: Vec<Spanned<ParamSpec>>,
     #[serde(default)]
@@ -124,6 +127,8 @@ pub struct FitProblem {
     pub evaluations: usize,
     /// Independent restarts.
     pub restarts: usize,
+    /// Indices of the free parameters whose profile likelihood is wanted.
+    pub profile: Vec<usize>,
 }
 
 impl FitProblem {
@@ -247,6 +252,20 @@ impl FitProblem {
             }
         }
         let evaluations = spec.evaluations.unwrap_or(200 * params.len()).max(10);
+        let mut profile = Vec::new();
+        for name in &spec.profile {
+            let k = params.iter().position(|p| &p.name == name).ok_or_else(|| {
+                let known: Vec<&str> = params.iter().map(|p| p.name.as_str()).collect();
+                src.invalid(
+                    &span,
+                    "profile",
+                    "fit.profile".into(),
+                    format!("names `{name}`, which is not free (free: {})", known.join(", ")),
+                    "list names of [[fit.parameter]] entries",
+                )
+            })?;
+            profile.push(k);
+        }
         Ok(FitProblem {
             model: model.clone(),
             params,
@@ -254,6 +273,7 @@ impl FitProblem {
             seed: spec.seed.unwrap_or(0),
             evaluations,
             restarts: spec.restarts.unwrap_or(1).max(1),
+            profile,
         })
     }
 

@@ -93,3 +93,37 @@ pub fn fit_boundaries(r: &FitResult, genotypes: &[String], title: &str, bg: Back
     }
     c
 }
+
+/// One panel per profiled parameter: objective above the best against the
+/// parameter's value, with the 95 % line (3.84) dashed.
+pub fn fit_profiles(r: &FitResult, names: &[String], title: &str, bg: Background) -> Canvas {
+    let panel = 230.0f32;
+    let w = 720u32;
+    let h = (60.0 + panel * r.profiles.len().max(1) as f32) as u32;
+    let mut c = Canvas::new(w, h, bg.rgb());
+    c.text(20.0, 28.0, 16.0, bg.ink(), Align::Left, &format!("{title}: profile likelihoods"));
+    for (k, p) in r.profiles.iter().enumerate() {
+        let pts: Vec<(f64, f64)> = p.points.iter().map(|(v, f)| (*v, (f - r.objective).max(0.0))).collect();
+        let (x0, x1) = pts.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), p| (a.min(p.0), b.max(p.0)));
+        let top = pts.iter().map(|p| p.1).filter(|v| v.is_finite()).fold(5.0f64, f64::max);
+        let a = Axes {
+            left: 80.0,
+            top: 70.0 + panel * k as f32,
+            width: w as f32 - 110.0,
+            height: panel - 90.0,
+            x: (x0, if x1 > x0 { x1 } else { x0 + 1.0 }),
+            y: (0.0, top * 1.05),
+            y_down: false,
+        };
+        axes::draw(&mut c, &a, &names[p.param], "objective above the best", bg);
+        let y95 = a.py(3.84);
+        c.polyline(&[(a.left, y95), (a.left + a.width, y95)], 1.0, bg.muted(), 255, Some([6.0, 4.0]));
+        c.text(a.left + a.width - 4.0, y95 - 4.0, 11.0, bg.muted(), Align::Right, "95 % (3.84)");
+        let line: Vec<(f32, f32)> = pts.iter().filter(|p| p.1.is_finite()).map(|(x, y)| (a.px(*x), a.py(*y))).collect();
+        c.polyline(&line, 2.0, [230, 159, 0], 255, None);
+        for (x, y) in &line {
+            c.ellipse(*x, *y, 3.0, 3.0, 1.0, [230, 159, 0], Some([230, 159, 0]));
+        }
+    }
+    c
+}

@@ -21,7 +21,7 @@ mod screen;
 pub use animate::{write_gif, write_pair_gif};
 pub use canvas::{Align, Canvas};
 pub use colour::Background;
-pub use fit::{fit_boundaries, fit_trace};
+pub use fit::{fit_boundaries, fit_profiles, fit_trace};
 pub use kymograph::{KymoLayout, kymograph, space_time};
 pub use measure::{check_picture, comparison_overlay};
 pub use screen::{sensitivity_map, shift_chart};

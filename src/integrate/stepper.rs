@@ -16,7 +16,7 @@ use rayon::prelude::*;
 
 use super::StepError;
 use crate::kinetics::{CHUNK, Kinetics};
-use crate::tissue::{Diffusion, Tissue};
+use crate::tissue::{Diffusion, Rhs, Tissue};
 
 /// |u| above this counts as a blow-up, a.u.
 const BLOW_UP: f64 = 1e100;
@@ -167,30 +167,21 @@ impl<'a> Stepper<'a> {
 
     /// Computes a trial state at `t + k` into the trial buffer (history unchanged).
     pub fn attempt(&mut self, k: f64) {
-        let (a0, coef) = if self.history == 1 {
+        if self.history == 1 {
             Zip::from(&mut self.trial).and(&self.u).and(&self.f).for_each(|r, &u, &f| *r = u + k * f);
-            (1.0, k)
+            self.diffusion.solve(&mut self.trial, 1.0, k, self.parallel);
         } else {
             let w = k / self.k1;
-            let (cu, cu1) = ((1.0 + w) * (1.0 + w), w * w);
-            let (kf, cf, cf1) = (k * (1.0 + w), 1.0 + w, w);
-            let z = Zip::from(&mut self.trial).and(&self.u).and(&self.u1).and(&self.f).and(&self.f1);
-            let rule = |r: &mut f64, &u: &f64, &u1: &f64, &f: &f64, &f1: &f64| {
-                *r = cu * u - cu1 * u1 + kf * (cf * f - cf1 * f1);
+            let rhs = Rhs {
+                u: self.u.as_slice().expect("standard layout"),
+                u1: self.u1.as_slice().expect("standard layout"),
+                f: self.f.as_slice().expect("standard layout"),
+                f1: self.f1.as_slice().expect("standard layout"),
+                c: [(1.0 + w) * (1.0 + w), w * w, k * (1.0 + w), 1.0 + w, w],
             };
-            if self.parallel {
-                z.par_for_each(rule)
-            } else {
-                z.for_each(rule)
-            }
-            (1.0 + 2.0 * w, k * (1.0 + w))
-        };
-        self.diffusion.solve(&mut self.trial, a0, coef, self.parallel);
-        for (g, c) in self.clamps.iter().enumerate() {
-            if let Some(level) = c {
-                self.trial.row_mut(g).fill(*level);
-            }
+            self.diffusion.solve_rhs(&mut self.trial, &rhs, 1.0 + 2.0 * w, k * (1.0 + w), self.parallel);
         }
+        self.apply_clamps_to_trial();
     }
 
     fn apply_clamps_to_state(&mut self) {
@@ -198,6 +189,14 @@ impl<'a> Stepper<'a> {
             if let Some(level) = c {
                 self.u.row_mut(g).fill(*level);
                 self.f.row_mut(g).fill(0.0);
+            }
+        }
+    }
+
+    fn apply_clamps_to_trial(&mut self) {
+        for (g, c) in self.clamps.iter().enumerate() {
+            if let Some(level) = c {
+                self.trial.row_mut(g).fill(*level);
             }
         }
     }

@@ -5,7 +5,7 @@ mod diffusion;
 mod gradient;
 mod sheet_solve;
 
-pub use diffusion::{Diffusion, SpectralSolver, TriFactor, laplacian};
+pub use diffusion::{Diffusion, Rhs, SpectralSolver, TriFactor, laplacian};
 
 pub use gradient::{amplitude_at, distance_at, distance_um, unit_shape, value_at};
 

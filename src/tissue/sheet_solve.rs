@@ -58,8 +58,18 @@ impl SheetSolver {
         }
     }
 
-    /// Solves `(a₀ I − c ∇²) u = b` in place for gene `gene`'s field (row-major, `iy·nx + ix`).
-    pub fn solve(&mut self, gene: usize, field: &mut [f64], a0: f64, c: f64, parallel: bool) {
+    /// Solves `(a₀ I − c ∇²) u = b` in place for gene `gene`'s field (row-major,
+    /// `iy·nx + ix`); with `rhs`, `b` is first built row by row from it
+    /// (values from the given offset on).
+    pub fn solve_from(
+        &mut self,
+        gene: usize,
+        field: &mut [f64],
+        rhs: Option<(&super::diffusion::Rhs, usize)>,
+        a0: f64,
+        c: f64,
+        parallel: bool,
+    ) {
         let (nx, ny) = (self.nx, self.ny);
         let pair = &mut self.factors[gene];
         if !(pair[0].a0 == a0 && pair[0].c == c) {
@@ -70,7 +80,12 @@ impl SheetSolver {
         }
         let f = &pair[0];
         let rows = &self.rows;
-        super::diffusion::for_rows(field, nx, &mut self.scratch, parallel, |_, row, s| rows.forward(row, s));
+        super::diffusion::for_rows(field, nx, &mut self.scratch, parallel, |iy, row, s| {
+            if let Some((rhs, offset)) = rhs {
+                rhs.fill(offset + iy * nx, row);
+            }
+            rows.forward(row, s)
+        });
         let norm = 1.0;
         let off = -c / (self.h * self.h);
         let mut view = ArrayViewMut2::from_shape((ny, nx), &mut *field).expect("field is ny x nx");

@@ -4,17 +4,18 @@
 //! - Sealed row: the system is symmetric tridiagonal; mirror ghost nuclei give
 //!   `(∇²u)₀ = (u₁ − u₀)/h²`. Solved exactly by the Thomas algorithm, O(N),
 //!   with the factorisation kept while `(a₀, c)` stays the same.
-//! - Sheets and periodic rows: the Laplacian is diagonalised exactly by the
-//!   type-II discrete cosine transform (sealed) or the discrete Fourier
-//!   transform (periodic), with eigenvalues of `−∇²` along one axis
-//!   `λ_p = (2 − 2 cos θ_p)/h²`, `θ_p = πp/n` (cosine) or `2πp/n` (Fourier)
-//!   (Strang 1999, SIAM Review 41:135, "The discrete cosine transform").
+//! - Sealed sheets: a cosine transform along x and tridiagonal sweeps along y
+//!   ([`super::sheet_solve`]).
+//! - Periodic rows and sheets: the Laplacian is diagonalised exactly by the
+//!   discrete Fourier transform, with eigenvalues of `−∇²` along one axis
+//!   `λ_p = (2 − 2 cos θ_p)/h²`, `θ_p = 2πp/n` (`πp/n` for the sealed
+//!   cosine case) (Strang 1999, SIAM Review 41:135, "The discrete cosine
+//!   transform").
 
 use std::sync::Arc;
 
 use ndarray::Array2;
 use rayon::prelude::*;
-use rustdct::{DctPlanner, TransformType2And3};
 use rustfft::num_complex::Complex64;
 use rustfft::{Fft, FftPlanner};
 
@@ -165,27 +166,23 @@ fn sweep_genes(field: &mut [f64], n: usize, factors: &[[TriFactor; 2]], d: &[f64
     flush(&mut held, count);
 }
 
-/// Exact spectral solve on a sheet (or periodic row) of `nx × ny` nuclei.
+/// Exact spectral solve on a periodic row or sheet of `nx × ny` nuclei (the
+/// discrete Fourier transform diagonalises the periodic Laplacian; sealed
+/// sheets use [`super::sheet_solve::SheetSolver`]).
 pub struct SpectralSolver {
     nx: usize,
     ny: usize,
     lam_x: Vec<f64>,
     lam_y: Vec<f64>,
-    plan: Plan,
-    real_t: Vec<f64>,
+    x: [Arc<dyn Fft<f64>>; 2],
+    y: [Arc<dyn Fft<f64>>; 2],
     complex: Vec<Complex64>,
     complex_t: Vec<Complex64>,
-    real_scratch: Vec<Vec<f64>>,
-    complex_scratch: Vec<Vec<Complex64>>,
-}
-
-enum Plan {
-    Cosine { x: Arc<dyn TransformType2And3<f64>>, y: Arc<dyn TransformType2And3<f64>> },
-    Fourier { x: [Arc<dyn Fft<f64>>; 2], y: [Arc<dyn Fft<f64>>; 2] },
+    scratch: Vec<Vec<Complex64>>,
 }
 
 /// Eigenvalues of `−∇²` along one axis of `n` nuclei, µm⁻².
-fn axis_eigenvalues(n: usize, h: f64, edges: Edges) -> Vec<f64> {
+pub(super) fn axis_eigenvalues(n: usize, h: f64, edges: Edges) -> Vec<f64> {
     let period = match edges {
         Edges::Sealed => std::f64::consts::PI,
         Edges::Periodic => 2.0 * std::f64::consts::PI,
@@ -238,40 +235,24 @@ fn transpose<T: Copy + Send + Sync>(src: &[T], dst: &mut [T], rows: usize, cols:
 }
 
 impl SpectralSolver {
-    /// Plans the transforms for a grid.
+    /// Plans the transforms for a periodic grid.
     pub fn new(grid: &Grid) -> SpectralSolver {
         let (nx, ny) = (grid.nx, grid.ny);
-        let lam_x = axis_eigenvalues(nx, grid.spacing_um, grid.edges);
-        let lam_y = axis_eigenvalues(ny, grid.spacing_um, grid.edges);
-        let (plan, real_len, complex_len) = match grid.edges {
-            Edges::Sealed => {
-                let mut planner = DctPlanner::new();
-                let x = planner.plan_dct2(nx);
-                let y = planner.plan_dct2(ny);
-                let len = x.get_scratch_len().max(y.get_scratch_len());
-                (Plan::Cosine { x, y }, len, 0)
-            }
-            Edges::Periodic => {
-                let mut planner = FftPlanner::new();
-                let x = [planner.plan_fft_forward(nx), planner.plan_fft_inverse(nx)];
-                let y = [planner.plan_fft_forward(ny), planner.plan_fft_inverse(ny)];
-                let len = x.iter().chain(y.iter()).map(|p| p.get_inplace_scratch_len()).max().unwrap_or(0);
-                (Plan::Fourier { x, y }, 0, len)
-            }
-        };
+        let mut planner = FftPlanner::new();
+        let x = [planner.plan_fft_forward(nx), planner.plan_fft_inverse(nx)];
+        let y = [planner.plan_fft_forward(ny), planner.plan_fft_inverse(ny)];
+        let len = x.iter().chain(y.iter()).map(|p| p.get_inplace_scratch_len()).max().unwrap_or(0);
         let n = nx * ny;
-        let cosine = matches!(plan, Plan::Cosine { .. });
         SpectralSolver {
             nx,
             ny,
-            lam_x,
-            lam_y,
-            real_t: if cosine { vec![0.0; n] } else { Vec::new() },
-            complex: if cosine { Vec::new() } else { vec![Complex64::default(); n] },
-            complex_t: if cosine || ny == 1 { Vec::new() } else { vec![Complex64::default(); n] },
-            real_scratch: (0..BLOCKS).map(|_| vec![0.0; real_len]).collect(),
-            complex_scratch: (0..BLOCKS).map(|_| vec![Complex64::default(); complex_len]).collect(),
-            plan,
+            lam_x: axis_eigenvalues(nx, grid.spacing_um, Edges::Periodic),
+            lam_y: axis_eigenvalues(ny, grid.spacing_um, Edges::Periodic),
+            x,
+            y,
+            complex: vec![Complex64::default(); n],
+            complex_t: if ny == 1 { Vec::new() } else { vec![Complex64::default(); n] },
+            scratch: (0..BLOCKS).map(|_| vec![Complex64::default(); len]).collect(),
         }
     }
 
@@ -279,55 +260,31 @@ impl SpectralSolver {
     pub fn solve(&mut self, field: &mut [f64], a0: f64, c: f64, parallel: bool) {
         let (nx, ny) = (self.nx, self.ny);
         let (lx, ly) = (&self.lam_x, &self.lam_y);
-        match &self.plan {
-            Plan::Cosine { x, y } => {
-                let norm = (2.0 / nx as f64) * if ny > 1 { 2.0 / ny as f64 } else { 1.0 };
-                let scratch = &mut self.real_scratch;
-                for_rows(field, nx, scratch, parallel, |_, row, s| x.process_dct2_with_scratch(row, s));
-                if ny > 1 {
-                    transpose(field, &mut self.real_t, ny, nx, parallel);
-                    for_rows(&mut self.real_t, ny, scratch, parallel, |ix, row, s| {
-                        y.process_dct2_with_scratch(row, s);
-                        for (v, l) in row.iter_mut().zip(ly) {
-                            *v *= norm / (a0 + c * (lx[ix] + l));
-                        }
-                        y.process_dct3_with_scratch(row, s);
-                    });
-                    transpose(&self.real_t, field, nx, ny, parallel);
-                } else {
-                    for (v, l) in field.iter_mut().zip(lx) {
-                        *v *= norm / (a0 + c * l);
-                    }
+        let (x, y) = (&self.x, &self.y);
+        let norm = 1.0 / (nx * ny) as f64;
+        let scratch = &mut self.scratch;
+        for (z, v) in self.complex.iter_mut().zip(field.iter()) {
+            *z = Complex64::new(*v, 0.0);
+        }
+        for_rows(&mut self.complex, nx, scratch, parallel, |_, row, s| x[0].process_with_scratch(row, s));
+        if ny > 1 {
+            transpose(&self.complex, &mut self.complex_t, ny, nx, parallel);
+            for_rows(&mut self.complex_t, ny, scratch, parallel, |ix, row, s| {
+                y[0].process_with_scratch(row, s);
+                for (v, l) in row.iter_mut().zip(ly) {
+                    *v *= norm / (a0 + c * (lx[ix] + l));
                 }
-                for_rows(field, nx, scratch, parallel, |_, row, s| x.process_dct3_with_scratch(row, s));
+                y[1].process_with_scratch(row, s);
+            });
+            transpose(&self.complex_t, &mut self.complex, nx, ny, parallel);
+        } else {
+            for (v, l) in self.complex.iter_mut().zip(lx) {
+                *v *= norm / (a0 + c * l);
             }
-            Plan::Fourier { x, y } => {
-                let norm = 1.0 / (nx * ny) as f64;
-                let scratch = &mut self.complex_scratch;
-                for (z, v) in self.complex.iter_mut().zip(field.iter()) {
-                    *z = Complex64::new(*v, 0.0);
-                }
-                for_rows(&mut self.complex, nx, scratch, parallel, |_, row, s| x[0].process_with_scratch(row, s));
-                if ny > 1 {
-                    transpose(&self.complex, &mut self.complex_t, ny, nx, parallel);
-                    for_rows(&mut self.complex_t, ny, scratch, parallel, |ix, row, s| {
-                        y[0].process_with_scratch(row, s);
-                        for (v, l) in row.iter_mut().zip(ly) {
-                            *v *= norm / (a0 + c * (lx[ix] + l));
-                        }
-                        y[1].process_with_scratch(row, s);
-                    });
-                    transpose(&self.complex_t, &mut self.complex, nx, ny, parallel);
-                } else {
-                    for (v, l) in self.complex.iter_mut().zip(lx) {
-                        *v *= norm / (a0 + c * l);
-                    }
-                }
-                for_rows(&mut self.complex, nx, scratch, parallel, |_, row, s| x[1].process_with_scratch(row, s));
-                for (v, z) in field.iter_mut().zip(self.complex.iter()) {
-                    *v = z.re;
-                }
-            }
+        }
+        for_rows(&mut self.complex, nx, scratch, parallel, |_, row, s| x[1].process_with_scratch(row, s));
+        for (v, z) in field.iter_mut().zip(self.complex.iter()) {
+            *v = z.re;
         }
     }
 }

@@ -86,7 +86,6 @@ impl SheetSolver {
             }
             rows.forward(row, s)
         });
-        let norm = 1.0;
         let off = -c / (self.h * self.h);
         let mut view = ArrayViewMut2::from_shape((ny, nx), &mut *field).expect("field is ny x nx");
         let m = ArrayView2::from_shape((ny, nx), &f.m).expect("factor is ny x nx");
@@ -95,8 +94,7 @@ impl SheetSolver {
             .axis_chunks_iter_mut(Axis(1), STRIP)
             .into_par_iter()
             .zip(m.axis_chunks_iter(Axis(1), STRIP).into_par_iter().zip(inv_w.axis_chunks_iter(Axis(1), STRIP)));
-        let sweep =
-            |(b, (m, w)): (ArrayViewMut2<f64>, (ArrayView2<f64>, ArrayView2<f64>))| sweep_strip(b, m, w, norm, off);
+        let sweep = |(b, (m, w)): (ArrayViewMut2<f64>, (ArrayView2<f64>, ArrayView2<f64>))| sweep_strip(b, m, w, off);
         if parallel {
             strips.for_each(sweep);
         } else {
@@ -131,24 +129,23 @@ fn factor(f: &mut ModeFactors, lam_x: &[f64], ny: usize, h: f64, a0: f64, c: f64
     f.c = c;
 }
 
-/// Forward and back sweeps along y for a strip of columns (modes), scaling the
-/// right-hand side by `norm` (the DCT-II/III round trip's 2/nx) on the way.
-fn sweep_strip(b: ArrayViewMut2<f64>, m: ArrayView2<f64>, inv_w: ArrayView2<f64>, norm: f64, off: f64) {
+/// Forward and back sweeps along y for a strip of columns (modes).
+fn sweep_strip(b: ArrayViewMut2<f64>, m: ArrayView2<f64>, inv_w: ArrayView2<f64>, off: f64) {
     #[cfg(target_arch = "x86_64")]
     if std::arch::is_x86_feature_detected!("avx2") {
         /// The same code compiled for 4-wide vectors (bit-identical results).
         #[target_feature(enable = "avx2")]
-        fn wide(b: ArrayViewMut2<f64>, m: ArrayView2<f64>, inv_w: ArrayView2<f64>, norm: f64, off: f64) {
-            sweep_strip_body(b, m, inv_w, norm, off)
+        fn wide(b: ArrayViewMut2<f64>, m: ArrayView2<f64>, inv_w: ArrayView2<f64>, off: f64) {
+            sweep_strip_body(b, m, inv_w, off)
         }
         // SAFETY: the CPU was just checked for AVX2.
-        return unsafe { wide(b, m, inv_w, norm, off) };
+        return unsafe { wide(b, m, inv_w, off) };
     }
-    sweep_strip_body(b, m, inv_w, norm, off)
+    sweep_strip_body(b, m, inv_w, off)
 }
 
 #[inline(always)]
-fn sweep_strip_body(mut b: ArrayViewMut2<f64>, m: ArrayView2<f64>, inv_w: ArrayView2<f64>, norm: f64, off: f64) {
+fn sweep_strip_body(mut b: ArrayViewMut2<f64>, m: ArrayView2<f64>, inv_w: ArrayView2<f64>, off: f64) {
     // The running row is carried in a local buffer: rows of the field are a
     // multiple of 4 KiB apart, and reading the row just written would alias
     // in the cache's store buffer.
@@ -162,13 +159,10 @@ fn sweep_strip_body(mut b: ArrayViewMut2<f64>, m: ArrayView2<f64>, inv_w: ArrayV
         let m = m.row(iy);
         let m = m.to_slice().expect("contiguous strip row");
         if iy == 0 {
-            for (v, c) in row.iter_mut().zip(carry.iter_mut()) {
-                *c = norm * *v;
-                *v = *c;
-            }
+            carry.copy_from_slice(row);
         } else {
             for ((v, c), &m) in row.iter_mut().zip(carry.iter_mut()).zip(m) {
-                *c = norm * *v - m * *c;
+                *c = *v - m * *c;
                 *v = *c;
             }
         }

@@ -90,12 +90,11 @@ impl FitResult {
 /// Runs the fit; `report(evaluations, best objective)` after each generation.
 pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f64)) -> FitResult {
     let dim = problem.params.len();
-    let values = |u: &[f64]| -> Vec<f64> { problem.params.iter().zip(u).map(|(p, z)| p.value(*z)).collect() };
-    let f = |u: &[f64]| objective::objective(problem, &values(u));
+    let f = |u: &[f64]| objective::objective(problem, &problem.values(u));
     let start: Vec<f64> = problem.params.iter().map(|p| p.unit(p.start)).collect();
     let opts = DeOptions { seed: problem.seed, evaluations: problem.evaluations, restarts: problem.restarts, parallel };
     let search = optimise::minimise(dim, &f, Some(&start), &opts, report);
-    let best = values(&search.best);
+    let best = problem.values(&search.best);
     let residuals = objective::residuals(problem, &best).unwrap_or_default();
     let objective = residuals.iter().map(|r| r.value * r.value).sum();
     let cov = covariance(problem, &search.best, &residuals);
@@ -145,16 +144,15 @@ fn profile(
     parallel: bool,
 ) -> Profile {
     let dim = u.len();
-    let values = |u: &[f64]| -> Vec<f64> { problem.params.iter().zip(u).map(|(p, z)| p.value(*z)).collect() };
     let others: Vec<f64> = u.iter().enumerate().filter(|(k, _)| *k != j).map(|(_, v)| *v).collect();
     let at = |k: usize, fixed: f64| -> f64 {
         if dim == 1 {
-            return objective::objective(problem, &values(&[fixed]));
+            return objective::objective(problem, &problem.values(&[fixed]));
         }
         let f = |rest: &[f64]| {
             let mut v = rest.to_vec();
             v.insert(j, fixed);
-            objective::objective(problem, &values(&v))
+            objective::objective(problem, &problem.values(&v))
         };
         let opts = DeOptions {
             seed: problem.seed.wrapping_add(1 + k as u64),
@@ -194,7 +192,6 @@ fn covariance(problem: &FitProblem, u: &[f64], at: &[Residual]) -> Option<DMatri
     let n = at.len();
     let mut jac = DMatrix::<f64>::zeros(n, dim);
     let nucleus_pct = 100.0 / problem.model.grid.nx as f64;
-    let values = |u: &[f64]| -> Vec<f64> { problem.params.iter().zip(u).map(|(p, z)| p.value(*z)).collect() };
     for j in 0..dim {
         // Boundaries of a sharp switch move in nucleus-sized jumps, so the
         // residuals are staircases in each parameter. The slope is the
@@ -205,7 +202,7 @@ fn covariance(problem: &FitProblem, u: &[f64], at: &[Residual]) -> Option<DMatri
             let z = (u[j] + offset).clamp(0.0, 1.0);
             let mut v = u.to_vec();
             v[j] = z;
-            let r = objective::residuals(problem, &values(&v))?;
+            let r = objective::residuals(problem, &problem.values(&v))?;
             (r.len() == n).then(|| (z - u[j], r.iter().map(|x| x.value).collect()))
         };
         let mut h = STEP;
@@ -241,41 +238,15 @@ fn covariance(problem: &FitProblem, u: &[f64], at: &[Residual]) -> Option<DMatri
 /// # Errors
 /// A message if the text cannot be rewritten (a bug) or does not validate.
 pub fn fitted_model_text(problem: &FitProblem, values: &[f64], objective: f64) -> Result<String, String> {
-    use crate::model::{GeneParam, GradientParam, LinkParam, Param};
+    use crate::model::Param;
     let mut doc: toml::Table = toml::from_str(&problem.model.text).map_err(|e| e.to_string())?;
     for (p, v) in problem.params.iter().zip(values) {
-        let (array, index, key) = match p.param {
-            Param::Gene(i, q) => (
-                ("gene", None),
-                i,
-                match q {
-                    GeneParam::Production => "production",
-                    GeneParam::Decay => "decay",
-                    GeneParam::Diffusion => "diffusion",
-                    GeneParam::Bias => "bias",
-                },
-            ),
-            Param::Gradient(k, q) => (
-                ("gradient", None),
-                k,
-                match q {
-                    GradientParam::Peak => "peak",
-                    GradientParam::DecayLength => "decay_length_um",
-                    GradientParam::Length => "length_um",
-                    GradientParam::Width => "width_um",
-                    GradientParam::Baseline => "baseline",
-                },
-            ),
-            Param::Link(k, q) => (
-                ("circuit", Some("link")),
-                k,
-                match q {
-                    LinkParam::Threshold => "threshold",
-                    LinkParam::Hill => "hill",
-                    LinkParam::Weight => "weight",
-                },
-            ),
+        let (array, index) = match p.param {
+            Param::Gene(i, _) => (("gene", None), i),
+            Param::Gradient(k, _) => (("gradient", None), k),
+            Param::Link(k, _) => (("circuit", Some("link")), k),
         };
+        let key = p.param.key();
         let mut table = doc.get_mut(array.0).ok_or("missing table")?;
         if let Some(inner) = array.1 {
             table = table.get_mut(inner).ok_or("missing links")?;

@@ -8,9 +8,9 @@
 //! matches, each cost a residual of [`PENALTY_PCT`]/σ, as if half an axis off.
 
 use crate::compare::MeasuredRow;
-use crate::integrate::{self, Recording};
+use crate::integrate;
 use crate::model::Model;
-use crate::readout::{Boundary, boundaries_at};
+use crate::screen::{boundaries_at_times, same_time};
 
 use super::problem::{FitProblem, Genotype};
 
@@ -48,21 +48,6 @@ fn sigma(row: &MeasuredRow) -> f64 {
     }
 }
 
-/// Boundaries at the given times (each a snapshot time of the clock),
-/// simulated on one thread keeping only those snapshots.
-fn boundaries_at_times(model: &Model, times: &[f64]) -> Result<Vec<Boundary>, integrate::StepError> {
-    let tissue = crate::tissue::Tissue::new(model);
-    let kinetics = crate::kinetics::build(model);
-    let mut rec = Recording::for_model(model);
-    let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * a.abs().max(1.0);
-    integrate::integrate(model, kinetics.as_ref(), &tissue, false, |t, state| {
-        if times.iter().any(|&w| close(w, t)) {
-            rec.push(t, state);
-        }
-    })?;
-    Ok((0..rec.times.len()).flat_map(|s| boundaries_at(&rec, s)).collect())
-}
-
 /// Residuals of one genotype for a model with the free parameters set.
 fn genotype_residuals(model: &Model, g: &Genotype) -> Result<Vec<Residual>, integrate::StepError> {
     let model = match &g.mutant {
@@ -75,7 +60,6 @@ fn genotype_residuals(model: &Model, g: &Genotype) -> Result<Vec<Residual>, inte
     times.sort_by(f64::total_cmp);
     times.dedup();
     let simulated = boundaries_at_times(&model, &times)?;
-    let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * a.abs().max(1.0);
     let mut out = Vec::new();
     // Groups of the same gene, direction and time, matched in order along the axis.
     let mut keys: Vec<(String, String, f64)> =
@@ -84,11 +68,11 @@ fn genotype_residuals(model: &Model, g: &Genotype) -> Result<Vec<Residual>, inte
     keys.dedup();
     for (gene, direction, t) in keys {
         let mut measured: Vec<&MeasuredRow> =
-            g.rows.iter().filter(|r| r.gene == gene && r.direction == direction && close(time_of(r), t)).collect();
+            g.rows.iter().filter(|r| r.gene == gene && r.direction == direction && same_time(time_of(r), t)).collect();
         measured.sort_by(|a, b| a.position_pct.total_cmp(&b.position_pct));
         let mut sim: Vec<f64> = simulated
             .iter()
-            .filter(|b| b.gene == gene && b.direction == direction && close(b.time_min, t))
+            .filter(|b| b.gene == gene && b.direction == direction && same_time(b.time_min, t))
             .map(|b| b.position_pct)
             .collect();
         sim.sort_by(f64::total_cmp);

@@ -239,7 +239,7 @@ impl FitProblem {
             let times = model.clock.snapshot_times();
             for r in &rows {
                 if let Some(t) = r.time_min
-                    && !times.iter().any(|s| (s - t).abs() <= 1e-9 * s.abs().max(1.0))
+                    && !times.iter().any(|&s| crate::screen::same_time(s, t))
                 {
                     return Err(src
                         .invalid(&span, "table", format!("fit.data[{i}].table"), format!("`{}` has a boundary at t = {t} min, which is not a snapshot time of the clock", ds.table), "give times that are snapshot times (multiples of snapshot_every_min), or leave time empty for the end of the run")
@@ -275,6 +275,11 @@ impl FitProblem {
             restarts: spec.restarts.unwrap_or(1).max(1),
             profile,
         })
+    }
+
+    /// Parameter values at a point `u` of the unit cube (one coordinate per free parameter).
+    pub fn values(&self, u: &[f64]) -> Vec<f64> {
+        self.params.iter().zip(u).map(|(p, z)| p.value(*z)).collect()
     }
 
     /// The model with free parameters at `values`.

@@ -58,6 +58,32 @@ pub enum Param {
     Link(usize, LinkParam),
 }
 
+impl Param {
+    /// The parameter's key in the model file (`production`, `decay_length_um`, `threshold`, …).
+    pub fn key(self) -> &'static str {
+        match self {
+            Param::Gene(_, q) => match q {
+                GeneParam::Production => "production",
+                GeneParam::Decay => "decay",
+                GeneParam::Diffusion => "diffusion",
+                GeneParam::Bias => "bias",
+            },
+            Param::Gradient(_, q) => match q {
+                GradientParam::Peak => "peak",
+                GradientParam::DecayLength => "decay_length_um",
+                GradientParam::Length => "length_um",
+                GradientParam::Width => "width_um",
+                GradientParam::Baseline => "baseline",
+            },
+            Param::Link(_, q) => match q {
+                LinkParam::Threshold => "threshold",
+                LinkParam::Hill => "hill",
+                LinkParam::Weight => "weight",
+            },
+        }
+    }
+}
+
 /// Extra production of a gene over a region of the axis.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Ectopic {
@@ -100,38 +126,12 @@ pub struct Mutant {
 impl Model {
     /// The name of a parameter as mutants and tables write it.
     pub fn param_name(&self, p: Param) -> String {
-        match p {
-            Param::Gene(g, q) => format!(
-                "{}.{}",
-                self.genes[g].name,
-                match q {
-                    GeneParam::Production => "production",
-                    GeneParam::Decay => "decay",
-                    GeneParam::Diffusion => "diffusion",
-                    GeneParam::Bias => "bias",
-                }
-            ),
-            Param::Gradient(k, q) => format!(
-                "{}.{}",
-                self.gradients[k].name,
-                match q {
-                    GradientParam::Peak => "peak",
-                    GradientParam::DecayLength => "decay_length_um",
-                    GradientParam::Length => "length_um",
-                    GradientParam::Width => "width_um",
-                    GradientParam::Baseline => "baseline",
-                }
-            ),
-            Param::Link(k, q) => format!(
-                "{}.{}",
-                self.link_name(k),
-                match q {
-                    LinkParam::Threshold => "threshold",
-                    LinkParam::Hill => "hill",
-                    LinkParam::Weight => "weight",
-                }
-            ),
-        }
+        let owner = match p {
+            Param::Gene(g, _) => self.genes[g].name.clone(),
+            Param::Gradient(k, _) => self.gradients[k].name.clone(),
+            Param::Link(k, _) => self.link_name(k),
+        };
+        format!("{owner}.{}", p.key())
     }
 
     /// `from->to` of link k.

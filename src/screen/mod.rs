@@ -21,18 +21,29 @@ use crate::readout::{Boundary, boundaries_at};
 /// # Errors
 /// [`StepError`] if the run fails.
 pub fn final_boundaries(model: &Model) -> Result<Vec<Boundary>, StepError> {
+    boundaries_at_times(model, &[model.clock.until_min])
+}
+
+/// Boundaries at the given snapshot times (min), simulated on one thread
+/// keeping only those snapshots; times that are not snapshot times give none.
+///
+/// # Errors
+/// [`StepError`] if the run fails.
+pub fn boundaries_at_times(model: &Model, times: &[f64]) -> Result<Vec<Boundary>, StepError> {
     let tissue = crate::tissue::Tissue::new(model);
     let kinetics = crate::kinetics::build(model);
-    let mut last = None;
-    let until = model.clock.until_min;
+    let mut rec = Recording::for_model(model);
     integrate::integrate(model, kinetics.as_ref(), &tissue, false, |t, state| {
-        if t >= until {
-            last = Some(state.clone());
+        if times.iter().any(|&w| same_time(w, t)) {
+            rec.push(t, state);
         }
     })?;
-    let mut rec = Recording::for_model(model);
-    rec.push(until, &last.expect("the run records its end time"));
-    Ok(boundaries_at(&rec, 0))
+    Ok((0..rec.times.len()).flat_map(|s| boundaries_at(&rec, s)).collect())
+}
+
+/// Two times that name the same snapshot (relative 1e-9).
+pub fn same_time(a: f64, b: f64) -> bool {
+    (a - b).abs() <= 1e-9 * a.abs().max(1.0)
 }
 
 /// How one boundary moved in a mutant.

@@ -138,6 +138,7 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
         None
     };
     let mut last_saved = Instant::now();
+    let model_path = std::path::absolute(&model.file).unwrap_or_else(|_| model.file.clone());
     let mut warned = false;
     let stats = integrate::integrate_from(
         model,
@@ -158,14 +159,15 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
                 return;
             }
             let rec = recording.borrow();
-            let checkpoint = integrate::Checkpoint {
-                model_text: model.text.clone(),
-                model_path: std::path::absolute(&model.file).unwrap_or_else(|_| model.file.clone()),
-                stepper: stepper.save(),
+            let saved = stepper.save();
+            let checkpoint = integrate::CheckpointParts {
+                model_text: &model.text,
+                model_path: &model_path,
+                stepper: &saved,
                 progress,
                 stats,
-                times: rec.times.clone(),
-                states: rec.states.clone(),
+                times: &rec.times,
+                states: &rec.states,
             };
             if let Err(e) = export::write_atomic(&plan.file, |w| checkpoint.write(w))
                 && !warned

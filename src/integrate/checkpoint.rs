@@ -93,16 +93,35 @@ pub struct CheckpointError {
     pub fix: String,
 }
 
-impl Checkpoint {
+/// The parts of a checkpoint, borrowed from a run in progress (so that taking
+/// a checkpoint copies nothing but the integrator's arrays).
+pub struct CheckpointParts<'a> {
+    /// The model file's text.
+    pub model_text: &'a str,
+    /// Where the model file was.
+    pub model_path: &'a Path,
+    /// The integrator.
+    pub stepper: &'a StepperState,
+    /// The loop.
+    pub progress: Progress,
+    /// Steps so far.
+    pub stats: StepStats,
+    /// Snapshot times so far.
+    pub times: &'a [f64],
+    /// Their states.
+    pub states: &'a [Array2<f64>],
+}
+
+impl CheckpointParts<'_> {
     /// Writes the checkpoint body (the caller makes the write atomic).
     ///
     /// # Errors
     /// Any write error.
     pub fn write(&self, w: &mut dyn Write) -> std::io::Result<()> {
-        let s = &self.stepper;
+        let s = self.stepper;
         let header = Header {
-            model_text: self.model_text.clone(),
-            model_path: self.model_path.clone(),
+            model_text: self.model_text.to_string(),
+            model_path: self.model_path.to_path_buf(),
             t: s.t,
             history: s.history,
             k1: s.k1,
@@ -112,7 +131,7 @@ impl Checkpoint {
             rejected: self.stats.rejected,
             min_step_min: self.stats.min_step_min,
             max_step_min: self.stats.max_step_min,
-            times: self.times.clone(),
+            times: self.times.to_vec(),
             shape: [s.u[0].nrows(), s.u[0].ncols()],
         };
         writeln!(w, "{MAGIC}")?;
@@ -125,7 +144,9 @@ impl Checkpoint {
         }
         Ok(())
     }
+}
 
+impl Checkpoint {
     /// Reads a checkpoint file.
     ///
     /// # Errors

@@ -8,7 +8,7 @@ mod stepper;
 use ndarray::Array2;
 use rand::{RngExt, SeedableRng};
 
-pub use checkpoint::{Checkpoint, CheckpointError, Progress, StepperState};
+pub use checkpoint::{Checkpoint, CheckpointError, CheckpointParts, Progress, StepperState};
 pub use recording::Recording;
 pub use stepper::{Forcing, Stepper};
 

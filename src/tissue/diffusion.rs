@@ -302,7 +302,7 @@ enum Solver {
 /// flattened `[gene, nucleus]` arrays, computed where a solve first reads it
 /// (saving a pass over memory) with the same operations in the same order.
 pub struct Rhs<'a> {
-    /// State, previous state, rates, previous rates.
+    /// State.
     pub u: &'a [f64],
     /// Previous state.
     pub u1: &'a [f64],
@@ -310,7 +310,7 @@ pub struct Rhs<'a> {
     pub f: &'a [f64],
     /// Previous rates.
     pub f1: &'a [f64],
-    /// Coefficients.
+    /// Coefficients `[cu, cu1, kf, cf, cf1]`.
     pub c: [f64; 5],
 }
 

@@ -44,6 +44,10 @@ pub enum Command {
         /// byte for byte that of an uninterrupted run.
         #[arg(long, value_name = "DIR", conflicts_with = "model")]
         resume: Option<PathBuf>,
+        /// Write each snapshot to disk as it is taken instead of keeping it in memory (automatic
+        /// when the recording would pass 256 MiB).
+        #[arg(long)]
+        stream: bool,
         /// Print one JSON line: solve time (loading the model, set-up and all steps), steps and the sum of
         /// the final state (for comparing implementations).
         #[arg(long)]

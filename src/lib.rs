@@ -56,28 +56,34 @@ pub use outputs::{write_fit, write_screen, write_sensitivity};
 
 use std::time::Instant;
 
-pub use integrate::{Recording, StepError, StepStats};
+pub use integrate::{Recording, STREAM_ABOVE_BYTES, StepError, StepStats};
 pub use summary::Summary;
 
 use model::Model;
 
 /// How to run a simulation.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq, Eq)]
 pub struct RunOptions {
     /// Use rayon inside the run (results are identical either way).
     pub parallel: bool,
     /// Show a progress bar on stderr when it is a terminal.
     pub progress: bool,
+    /// A folder for an unnamed scratch file: snapshots are streamed to it
+    /// when the recording would pass [`STREAM_ABOVE_BYTES`] (or always, with
+    /// `stream`), so memory does not grow with the snapshots.
+    pub scratch_dir: Option<std::path::PathBuf>,
+    /// Stream whatever the recording's size (needs `scratch_dir`).
+    pub stream: bool,
 }
 
 impl Default for RunOptions {
     fn default() -> Self {
-        RunOptions { parallel: true, progress: false }
+        RunOptions { parallel: true, progress: false, scratch_dir: None, stream: false }
     }
 }
 
 /// A finished simulation.
-#[derive(Debug, Clone)]
+#[derive(Debug)]
 pub struct Run {
     /// Snapshots.
     pub recording: Recording,
@@ -118,11 +124,20 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
     let tissue = tissue::Tissue::new(model);
     let kinetics = kinetics::build(model);
     let mut recording = Recording::for_model(model);
+    if let Some(dir) = &options.scratch_dir
+        && (options.stream || model.recording_bytes() > STREAM_ABOVE_BYTES)
+    {
+        recording
+            .stream_to(dir)
+            .map_err(|e| StepError::Recording(format!("making a scratch file in {}: {e}", dir.display())))?;
+    }
     let resume = plan.and_then(|p| p.resume.as_ref());
     if let Some(c) = resume {
-        recording.times = c.times.clone();
-        recording.states = c.states.clone();
+        for (t, state) in c.times.iter().zip(&c.states) {
+            recording.push(*t, state).map_err(|e| StepError::Recording(e.to_string()))?;
+        }
     }
+    let mut write_error = None;
     let recording = std::cell::RefCell::new(recording);
     let bar = if options.progress {
         let bar = indicatif::ProgressBar::new(model.snapshot_count() as u64);
@@ -147,7 +162,9 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
         options.parallel,
         resume,
         |t, state| {
-            recording.borrow_mut().push(t, state);
+            if let Err(e) = recording.borrow_mut().push(t, state) {
+                write_error.get_or_insert(e);
+            }
             if let Some(bar) = &bar {
                 bar.set_message(format!("{t:.1}"));
                 bar.inc(1);
@@ -166,8 +183,7 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
                 stepper: &saved,
                 progress,
                 stats,
-                times: &rec.times,
-                states: &rec.states,
+                recording: &rec,
             };
             if let Err(e) = export::write_atomic(&plan.file, |w| checkpoint.write(w))
                 && !warned
@@ -180,6 +196,9 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
     );
     if let Some(bar) = bar {
         bar.finish_and_clear();
+    }
+    if let Some(e) = write_error {
+        return Err(StepError::Recording(format!("writing a snapshot to the scratch file: {e}")));
     }
     let recording = recording.into_inner();
     Ok(Run { recording, stats: stats?, wall_time_s: start.elapsed().as_secs_f64() })

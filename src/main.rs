@@ -64,7 +64,7 @@ fn model_and_recording(source: &Path, out: Option<&Path>) -> anyhow::Result<(Mod
         Ok((model, saved.recording, out.map_or_else(|| source.to_path_buf(), Path::to_path_buf)))
     } else {
         let model = Model::load(source)?;
-        let options = anlage::RunOptions { parallel: true, progress: true };
+        let options = anlage::RunOptions { parallel: true, progress: true, ..Default::default() };
         let run = anlage::simulate(&model, &options).with_context(|| format!("simulating {}", source.display()))?;
         Ok((model, run.recording, out.map_or_else(|| default_out(source), Path::to_path_buf)))
     }
@@ -80,7 +80,18 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             print!("{}", report::describe(&model));
             Ok(())
         }
-        Command::Run { model: path, out, threads, quiet, no_pictures, timing, checkpoint_every, resume, look } => {
+        Command::Run {
+            model: path,
+            out,
+            threads,
+            quiet,
+            no_pictures,
+            timing,
+            checkpoint_every,
+            resume,
+            stream,
+            look,
+        } => {
             if let Some(n) = threads {
                 rayon::ThreadPoolBuilder::new().num_threads((*n).max(1)).build_global().context("setting threads")?;
             }
@@ -99,13 +110,19 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             let style_options = look.options();
             // Check the picture options before a long run, against the snapshot times to come.
             Style::with_options(&planned_recording(&model), &model.title, &style_options)?;
-            let options = anlage::RunOptions { parallel: true, progress: !quiet };
+            let streams = *stream || model.recording_bytes() > anlage::STREAM_ABOVE_BYTES;
+            let options = anlage::RunOptions {
+                parallel: true,
+                progress: !quiet,
+                scratch_dir: streams.then(|| dir.clone()),
+                stream: *stream,
+            };
             let plan = (checkpoint_every.is_some() || checkpoint.is_some()).then(|| anlage::Checkpointing {
                 file: dir.join(CHECKPOINT),
                 every: checkpoint_every.unwrap_or(std::time::Duration::MAX),
                 resume: checkpoint,
             });
-            if plan.is_some() {
+            if plan.is_some() || streams {
                 std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
             }
             let run = anlage::simulate_with(&model, &options, plan.as_ref())

@@ -146,7 +146,7 @@ pub fn write_basins(
     let analysis = crate::phase::analyse(model, rec, opts);
     let last = rec.times.len() - 1;
     let hi: Vec<f64> = (0..rec.genes.len())
-        .map(|g| 1.2 * rec.states.iter().map(|s| s.row(g).iter().copied().fold(0.0, f64::max)).fold(1e-3, f64::max))
+        .map(|g| 1.2 * rec.states().map(|s| s.row(g).iter().copied().fold(0.0, f64::max)).fold(1e-3, f64::max))
         .collect();
     let landscape = crate::phase::landscape(model, rec.times[last], &hi);
     let path = |name: &str| dir.join(name);
@@ -213,7 +213,7 @@ pub fn write_screen(
     let chart = render::shift_chart(&screen, &genes, style);
     export::write_atomic(&dir.join("shifts.png"), |w| w.write_all(&chart.png()?))?;
     if let Some(m) = animate {
-        let quiet = crate::RunOptions { parallel, progress: false };
+        let quiet = crate::RunOptions { parallel, ..Default::default() };
         let wt = crate::simulate(model, &quiet)?.recording;
         let mutant_model = model.with_mutant(m);
         let mt = crate::simulate(&mutant_model, &quiet)?.recording;

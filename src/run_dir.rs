@@ -44,7 +44,7 @@ struct SummaryIn {
 }
 
 /// A run read back from its folder.
-#[derive(Debug, Clone)]
+#[derive(Debug)]
 pub struct SavedRun {
     /// Model title.
     pub title: String,
@@ -96,13 +96,6 @@ pub fn load(dir: &Path) -> Result<SavedRun, RunDirError> {
         .map_err(|e| bad(&npy_path, e.to_string()))?;
     Ok(SavedRun {
         title: s.title,
-        recording: Recording {
-            grid,
-            genes: s.genes,
-            colors,
-            times: s.snapshot_times_min,
-            states,
-            floor: s.expression_floor,
-        },
+        recording: Recording::with_states(grid, s.genes, colors, s.snapshot_times_min, states, s.expression_floor),
     })
 }

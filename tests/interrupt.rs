@@ -81,10 +81,12 @@ fn killed_runs_leave_only_complete_outputs() {
 /// A run saved with `--checkpoint-every 0s` (a checkpoint after every step),
 /// killed with SIGKILL mid-simulation and continued with `--resume` writes the
 /// same bytes as an uninterrupted run, for error-controlled (sheet) and fixed
-/// (band) steps; the checkpoint is removed at the end.
+/// (band) steps; the checkpoint is removed at the end. The sheet's cut run
+/// streams its snapshots to disk, the uninterrupted one keeps them in memory.
 #[test]
 fn resumed_runs_write_the_same_bytes() {
     for (name, delay_ms) in [("sheet", 300), ("band", 150)] {
+        let stream: &[&str] = if name == "sheet" { &["--stream"] } else { &[] };
         let model = root().join(format!("patterns/{name}.toml"));
         let base = std::env::temp_dir().join(format!("anlage-test-{}-resume-{name}", std::process::id()));
         let (full, cut) = (base.join("full"), base.join("cut"));
@@ -94,6 +96,7 @@ fn resumed_runs_write_the_same_bytes() {
         assert!(Command::new(exe).args(["run", m, "-q", "-o", full.to_str().unwrap()]).status().unwrap().success());
         let mut child = Command::new(exe)
             .args(["run", m, "-q", "-o", cut.to_str().unwrap(), "--checkpoint-every", "0s"])
+            .args(stream)
             .spawn()
             .unwrap();
         let start = Instant::now();
@@ -105,7 +108,7 @@ fn resumed_runs_write_the_same_bytes() {
         let _ = child.kill();
         let _ = child.wait();
         assert!(!cut.join("summary.json").exists(), "{name}: the run finished before it was killed");
-        let o = Command::new(exe).args(["run", "--resume", cut.to_str().unwrap(), "-q"]).output().unwrap();
+        let o = Command::new(exe).args(["run", "--resume", cut.to_str().unwrap(), "-q"]).args(stream).output().unwrap();
         assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
         assert!(!cut.join("checkpoint.bin").exists(), "{name}: checkpoint left behind");
         let mut names: Vec<_> = std::fs::read_dir(&full).unwrap().map(|e| e.unwrap().file_name()).collect();
@@ -117,6 +120,38 @@ fn resumed_runs_write_the_same_bytes() {
         }
         std::fs::remove_dir_all(&base).unwrap();
     }
+}
+
+/// Streaming the snapshots to disk as they are taken changes no output byte
+/// and leaves no scratch file behind.
+#[test]
+fn streamed_runs_write_the_same_bytes() {
+    let base = std::env::temp_dir().join(format!("anlage-test-{}-stream", std::process::id()));
+    let _ = std::fs::remove_dir_all(&base);
+    let exe = env!("CARGO_BIN_EXE_anlage");
+    for name in ["band", "sheet"] {
+        let model = root().join(format!("patterns/{name}.toml"));
+        let (memory, disk) = (base.join(format!("{name}-memory")), base.join(format!("{name}-disk")));
+        for (dir, extra) in [(&memory, &[][..]), (&disk, &["--stream"][..])] {
+            let o = Command::new(exe)
+                .args(["run", model.to_str().unwrap(), "-q", "-o", dir.to_str().unwrap()])
+                .args(extra)
+                .output()
+                .unwrap();
+            assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        }
+        let names = |dir: &Path| {
+            let mut n: Vec<_> = std::fs::read_dir(dir).unwrap().map(|e| e.unwrap().file_name()).collect();
+            n.sort();
+            n
+        };
+        assert_eq!(names(&memory), names(&disk), "{name}: the streamed run wrote other files");
+        for file in names(&memory) {
+            let (a, b) = (std::fs::read(memory.join(&file)).unwrap(), std::fs::read(disk.join(&file)).unwrap());
+            assert!(a == b, "{name}: {} differs when streamed", file.to_string_lossy());
+        }
+    }
+    std::fs::remove_dir_all(&base).unwrap();
 }
 
 /// Resuming from a folder without a checkpoint is bad input (exit 2) with a fix.

@@ -49,8 +49,8 @@ fn embryo_pixels_show_the_level_of_the_gene() {
     let rec = ribbon();
     let last = rec.times.len() - 1;
     let amber = rec.genes.iter().position(|g| g == "amber").unwrap();
-    let profile: Vec<f64> = rec.states[last].row(amber).to_vec();
-    let max = rec.states.iter().map(|s| s.row(amber).iter().copied().fold(0.0, f64::max)).fold(0.0, f64::max);
+    let profile: Vec<f64> = rec.state(last).row(amber).to_vec();
+    let max = rec.states().map(|s| s.row(amber).iter().copied().fold(0.0, f64::max)).fold(0.0, f64::max);
     let color = rec.colors[amber];
     for bg in [Background::Dark, Background::Light] {
         let mut style = Style::for_recording(&rec);
@@ -158,7 +158,7 @@ fn heatmap_uses_the_sequential_map() {
     let (canvas, layout) = render::pattern(&rec, last, &style, &maxima);
     let PatternLayout::Embryo { cx, cy, rx, .. } = layout else { panic!("row") };
     let teal = rec.genes.iter().position(|g| g == "teal").unwrap();
-    let profile = rec.states[last].row(teal).to_vec();
+    let profile = rec.state(last).row(teal).to_vec();
     let length = rec.grid.length_um();
     for i in [10usize, 50, 70, 100] {
         let px = (cx - rx + (((i as f64 + 0.5) * rec.grid.spacing_um / length) as f32) * 2.0 * rx).floor() as u32;

@@ -75,8 +75,8 @@ proptest! {
             p[0], d[0], p[1], d[1], k[0], n[0], k[1], n[1], k[2], n[2]
         );
         let r = run(&parse(&text));
-        prop_assert_eq!(r.recording.states.len(), 11);
-        let lowest = r.recording.states.iter().flat_map(|s| s.iter()).copied().fold(f64::INFINITY, f64::min);
+        prop_assert_eq!(r.recording.len(), 11);
+        let lowest = r.recording.states().map(|s| s.iter().copied().fold(f64::INFINITY, f64::min)).fold(f64::INFINITY, f64::min);
         prop_assert!(lowest >= 0.0, "lowest level {lowest}");
     }
 }

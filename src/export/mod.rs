@@ -76,11 +76,11 @@ pub fn write_atomic(path: &Path, body: impl FnOnce(&mut dyn Write) -> std::io::R
 /// # Errors
 /// [`ExportError`] if the file cannot be written.
 pub fn write_states_npy(rec: &crate::integrate::Recording, path: &Path) -> Result<(), ExportError> {
-    let (g, n) = rec.states[0].dim();
+    let (g, n) = rec.state(0).dim();
     let shape = if rec.grid.is_sheet() {
-        format!("({}, {g}, {}, {})", rec.states.len(), rec.grid.ny, rec.grid.nx)
+        format!("({}, {g}, {}, {})", rec.len(), rec.grid.ny, rec.grid.nx)
     } else {
-        format!("({}, {g}, {n})", rec.states.len())
+        format!("({}, {g}, {n})", rec.len())
     };
     // Streamed snapshot by snapshot (no copy of the whole recording): NPY
     // format 1.0 (NumPy Enhancement Proposal 1): magic, version, a
@@ -94,7 +94,7 @@ pub fn write_states_npy(rec: &crate::integrate::Recording, path: &Path) -> Resul
         w.write_all(b"\x93NUMPY\x01\x00")?;
         w.write_all(&u16::try_from(header.len()).map_err(std::io::Error::other)?.to_le_bytes())?;
         w.write_all(header.as_bytes())?;
-        for state in &rec.states {
+        for state in rec.states() {
             for v in state.iter() {
                 w.write_all(&v.to_le_bytes())?;
             }

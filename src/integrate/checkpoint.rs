@@ -106,10 +106,8 @@ pub struct CheckpointParts<'a> {
     pub progress: Progress,
     /// Steps so far.
     pub stats: StepStats,
-    /// Snapshot times so far.
-    pub times: &'a [f64],
-    /// Their states.
-    pub states: &'a [Array2<f64>],
+    /// The snapshots so far.
+    pub recording: &'a super::Recording,
 }
 
 impl CheckpointParts<'_> {
@@ -131,16 +129,23 @@ impl CheckpointParts<'_> {
             rejected: self.stats.rejected,
             min_step_min: self.stats.min_step_min,
             max_step_min: self.stats.max_step_min,
-            times: self.times.to_vec(),
+            times: self.recording.times.clone(),
             shape: [s.u[0].nrows(), s.u[0].ncols()],
         };
         writeln!(w, "{MAGIC}")?;
         serde_json::to_writer(&mut *w, &header)?;
         writeln!(w)?;
-        for a in s.u.iter().chain(s.f.iter()).chain(self.states.iter()) {
+        let write = |w: &mut dyn Write, a: &Array2<f64>| -> std::io::Result<()> {
             for v in a.iter() {
                 w.write_all(&v.to_le_bytes())?;
             }
+            Ok(())
+        };
+        for a in s.u.iter().chain(s.f.iter()) {
+            write(w, a)?;
+        }
+        for state in self.recording.states() {
+            write(w, &state)?;
         }
         Ok(())
     }

@@ -1,11 +1,25 @@
-//! Snapshots of a run, kept in memory.
+//! Snapshots of a run: kept in memory, or streamed to a scratch file as they
+//! are taken when the recording would be large (a 1024² sheet of 4 genes is
+//! 32 MiB per snapshot), so a long run's memory does not grow with its
+//! snapshots.
+
+use std::borrow::Cow;
+use std::fs::File;
+use std::io::{Read, Seek, SeekFrom, Write};
+use std::path::Path;
+use std::sync::Mutex;
 
 use ndarray::Array2;
 
 use crate::model::{Grid, Model};
 
+/// A recording above this size is streamed to disk when a scratch folder is
+/// given, bytes (common practice, no source: a quarter of a GiB leaves room
+/// for the integrator's own arrays on an ordinary workstation).
+pub const STREAM_ABOVE_BYTES: u64 = 256 << 20;
+
 /// The recorded history of a run: the state at each snapshot time.
-#[derive(Debug, Clone)]
+#[derive(Debug)]
 pub struct Recording {
     /// Grid the states live on.
     pub grid: Grid,
@@ -16,11 +30,59 @@ pub struct Recording {
     /// Snapshot times, min.
     pub times: Vec<f64>,
     /// State at each snapshot, [gene, nucleus], a.u.
-    pub states: Vec<Array2<f64>>,
+    store: Store,
     /// Per gene, the level below which the gene counts as not expressed
     /// (no boundaries or domains are read), a.u.: [`EXPRESSION_FLOOR`] × its
     /// capacity p/d; 0 where there is no capacity (no decay).
     pub floor: Vec<f64>,
+}
+
+#[derive(Debug)]
+enum Store {
+    Memory(Vec<Array2<f64>>),
+    Disk(Spill),
+}
+
+/// Snapshots in an unnamed scratch file (removed by the system when it is
+/// closed, even if the process is killed), little-endian f64 one after the
+/// other; the last one is also kept in memory.
+#[derive(Debug)]
+struct Spill {
+    file: Mutex<File>,
+    shape: (usize, usize),
+    count: usize,
+    last: Option<Array2<f64>>,
+    bytes: Vec<u8>,
+}
+
+impl Spill {
+    fn read(&self, s: usize) -> std::io::Result<Array2<f64>> {
+        let (g, n) = self.shape;
+        let mut bytes = vec![0u8; g * n * 8];
+        let mut file = self.file.lock().unwrap_or_else(std::sync::PoisonError::into_inner);
+        file.seek(SeekFrom::Start((s * g * n * 8) as u64))?;
+        file.read_exact(&mut bytes)?;
+        file.seek(SeekFrom::End(0))?;
+        let values = bytes.chunks_exact(8).map(|c| f64::from_le_bytes(c.try_into().expect("8 bytes"))).collect();
+        Ok(Array2::from_shape_vec((g, n), values).expect("shape of the spill"))
+    }
+
+    fn push(&mut self, state: &Array2<f64>) -> std::io::Result<()> {
+        const CHUNK: usize = 1 << 16;
+        let file = self.file.get_mut().unwrap_or_else(std::sync::PoisonError::into_inner);
+        let values = state.as_slice().expect("standard layout");
+        for chunk in values.chunks(CHUNK) {
+            self.bytes.clear();
+            self.bytes.extend(chunk.iter().flat_map(|v| v.to_le_bytes()));
+            file.write_all(&self.bytes)?;
+        }
+        match &mut self.last {
+            Some(last) => last.assign(state),
+            None => self.last = Some(state.clone()),
+        }
+        self.count += 1;
+        Ok(())
+    }
 }
 
 /// Fraction of a gene's capacity p/d (its steady level at full production)
@@ -30,24 +92,100 @@ pub const EXPRESSION_FLOOR: f64 = 0.05;
 impl Recording {
     /// An empty recording for a model's genes and grid.
     pub fn for_model(model: &Model) -> Recording {
-        Recording {
-            grid: model.grid,
-            genes: model.genes.iter().map(|g| g.name.clone()).collect(),
-            colors: model.genes.iter().map(|g| g.color).collect(),
-            times: Vec::with_capacity(model.snapshot_count()),
-            states: Vec::with_capacity(model.snapshot_count()),
-            floor: model
+        Recording::with_states(
+            model.grid,
+            model.genes.iter().map(|g| g.name.clone()).collect(),
+            model.genes.iter().map(|g| g.color).collect(),
+            Vec::with_capacity(model.snapshot_count()),
+            Vec::with_capacity(model.snapshot_count()),
+            model
                 .genes
                 .iter()
                 .map(|g| if g.decay > 0.0 { EXPRESSION_FLOOR * g.production / g.decay } else { 0.0 })
                 .collect(),
-        }
+        )
+    }
+
+    /// A recording of given states (one per time), held in memory.
+    pub fn with_states(
+        grid: Grid,
+        genes: Vec<String>,
+        colors: Vec<[u8; 3]>,
+        times: Vec<f64>,
+        states: Vec<Array2<f64>>,
+        floor: Vec<f64>,
+    ) -> Recording {
+        Recording { grid, genes, colors, times, store: Store::Memory(states), floor }
+    }
+
+    /// Streams the snapshots to come to an unnamed scratch file in `dir`
+    /// instead of memory.
+    ///
+    /// # Errors
+    /// If the scratch file cannot be made.
+    ///
+    /// # Panics
+    /// If snapshots were already recorded.
+    pub fn stream_to(&mut self, dir: &Path) -> std::io::Result<()> {
+        assert_eq!(self.len(), 0, "streaming starts before the first snapshot");
+        let file = tempfile::tempfile_in(dir)?;
+        let shape = (self.genes.len(), self.grid.len());
+        self.store = Store::Disk(Spill { file: Mutex::new(file), shape, count: 0, last: None, bytes: Vec::new() });
+        Ok(())
+    }
+
+    /// True if the snapshots are on disk.
+    pub fn is_streamed(&self) -> bool {
+        matches!(self.store, Store::Disk(_))
     }
 
     /// Adds a snapshot.
-    pub fn push(&mut self, t_min: f64, state: &Array2<f64>) {
+    ///
+    /// # Errors
+    /// If a streamed snapshot cannot be written.
+    pub fn push(&mut self, t_min: f64, state: &Array2<f64>) -> std::io::Result<()> {
+        match &mut self.store {
+            Store::Memory(states) => states.push(state.clone()),
+            Store::Disk(spill) => spill.push(state)?,
+        }
         self.times.push(t_min);
-        self.states.push(state.clone());
+        Ok(())
+    }
+
+    /// Number of snapshots held.
+    pub fn len(&self) -> usize {
+        match &self.store {
+            Store::Memory(states) => states.len(),
+            Store::Disk(spill) => spill.count,
+        }
+    }
+
+    /// True if no snapshot is held.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// The state at snapshot `s`, [gene, nucleus] (read back from disk when streamed).
+    ///
+    /// # Panics
+    /// If `s` is out of range, or a streamed snapshot cannot be read back
+    /// from the scratch file this process holds open (a failing disk).
+    pub fn state(&self, s: usize) -> Cow<'_, Array2<f64>> {
+        match &self.store {
+            Store::Memory(states) => Cow::Borrowed(&states[s]),
+            Store::Disk(spill) => {
+                assert!(s < spill.count, "snapshot {s} of {}", spill.count);
+                match &spill.last {
+                    Some(last) if s + 1 == spill.count => Cow::Borrowed(last),
+                    _ => Cow::Owned(spill.read(s).expect("the scratch file of the streamed recording reads back")),
+                }
+            }
+        }
+    }
+
+    /// Every state in time order, one at a time.
+    pub fn states(&self) -> impl Iterator<Item = Cow<'_, Array2<f64>>> + '_ {
+        (0..self.len()).map(|s| self.state(s))
     }
 
     /// The last snapshot.
@@ -55,7 +193,11 @@ impl Recording {
     /// # Panics
     /// If nothing was recorded.
     pub fn final_state(&self) -> &Array2<f64> {
-        self.states.last().expect("a recording holds at least t = 0")
+        match &self.store {
+            Store::Memory(states) => states.last(),
+            Store::Disk(spill) => spill.last.as_ref(),
+        }
+        .expect("a recording holds at least t = 0")
     }
 
     /// Rows of a sheet read for the axis profile: a central strip a tenth of
@@ -71,7 +213,8 @@ impl Recording {
     /// Profile of gene `g` along the axis at snapshot `s`, one value per column:
     /// the row itself, or on a sheet the mean over the [`Self::midline_rows`].
     pub fn axis_profile(&self, s: usize, g: usize) -> Vec<f64> {
-        let row = self.states[s].row(g);
+        let state = self.state(s);
+        let row = state.row(g);
         let nx = self.grid.nx;
         let rows = self.midline_rows();
         let n = rows.len() as f64;

@@ -89,7 +89,7 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
     // Box of starting points: 1.2 × the larger of the recorded maximum and p/d.
     let hi: Vec<f64> = (0..n_genes)
         .map(|g| {
-            let seen = rec.states.iter().map(|s| s.row(g).iter().copied().fold(0.0, f64::max)).fold(0.0, f64::max);
+            let seen = rec.states().map(|s| s.row(g).iter().copied().fold(0.0, f64::max)).fold(0.0, f64::max);
             let gene = &model.genes[g];
             let cap = if gene.decay > 0.0 { gene.production / gene.decay } else { 0.0 };
             (1.2 * seen.max(cap)).max(1e-3)
@@ -106,12 +106,12 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
         .iter()
         .enumerate()
         .map(|(s, &t)| {
-            let m = tissue.inputs_with_state(t, &rec.states[s]);
+            let m = tissue.inputs_with_state(t, &rec.state(s));
             let influx: Vec<Vec<f64>> = (0..n_genes)
                 .map(|g| {
                     let mut lap = vec![0.0; n];
                     if opts.with_influx {
-                        laplacian(&rec.grid, rec.states[s].row(g).as_slice().expect("contiguous"), &mut lap);
+                        laplacian(&rec.grid, rec.state(s).row(g).as_slice().expect("contiguous"), &mut lap);
                         lap.iter_mut().for_each(|v| *v *= model.genes[g].diffusion);
                     }
                     lap
@@ -144,7 +144,7 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
             let (m, q) = &frozen[s0][i0];
             let sys = Frozen { kinetics: kinetics.as_ref(), inputs: m.clone(), influx: q.clone() };
             let mut starts = base.clone();
-            starts.extend(members.iter().map(|&(s, i)| rec.states[s].column(i).to_vec()));
+            starts.extend(members.iter().map(|&(s, i)| rec.state(s).column(i).to_vec()));
             Arc::new(find_fixed_points(&sys, &starts, tol, true))
         })
         .collect();
@@ -168,7 +168,7 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
                 .map(|(i, (m, q))| {
                     let points = points_of[&key(m, q)].clone();
                     let sys = Frozen { kinetics: kinetics.as_ref(), inputs: m.clone(), influx: q.clone() };
-                    let state = rec.states[s].column(i).to_vec();
+                    let state = rec.state(s).column(i).to_vec();
                     let f = fate(&sys, &state, &points, 1e-4 * scale, horizon);
                     let (label, distance) = match &f {
                         Fate::Point(k) => {

@@ -42,13 +42,13 @@ pub fn portrait_data(model: &Model, rec: &Recording, nucleus: usize, a: usize, b
     let kinetics = crate::kinetics::build(model);
     let tissue = Tissue::new(model);
     let t = rec.times[s];
-    let inputs = tissue.inputs_with_state(t, &rec.states[s]).column(nucleus).to_vec();
+    let inputs = tissue.inputs_with_state(t, &rec.state(s)).column(nucleus).to_vec();
     let n_genes = rec.genes.len();
     let full = Frozen { kinetics: kinetics.as_ref(), inputs, influx: vec![0.0; n_genes] };
-    let state = rec.states[s].column(nucleus).to_vec();
+    let state = rec.state(s).column(nucleus).to_vec();
     let sys = Slice { full: &full, base: state.clone(), a, b };
     let top = |g: usize| {
-        let seen = rec.states.iter().map(|st| st.row(g).iter().copied().fold(0.0, f64::max)).fold(0.0, f64::max);
+        let seen = rec.states().map(|st| st.row(g).iter().copied().fold(0.0, f64::max)).fold(0.0, f64::max);
         let gene = &model.genes[g];
         let cap = if gene.decay > 0.0 { gene.production / gene.decay } else { 0.0 };
         1.1 * seen.max(cap).max(1e-6)
@@ -82,7 +82,7 @@ pub fn portrait_data(model: &Model, rec: &Recording, nucleus: usize, a: usize, b
     let separatrices = points.iter().flat_map(|p| separatrix(&sys, p, &bounds, horizon)).collect();
     let isolated = trajectory(&sys, &[state[a], state[b]], horizon, &bounds);
     let recorded =
-        rec.times.iter().zip(&rec.states).map(|(t, st)| (*t, [st[[a, nucleus]], st[[b, nucleus]]])).collect();
+        rec.times.iter().zip(rec.states()).map(|(t, st)| (*t, [st[[a, nucleus]], st[[b, nucleus]]])).collect();
     let slice = (0..n_genes).filter(|g| *g != a && *g != b).map(|g| (rec.genes[g].clone(), state[g])).collect();
     PortraitData {
         genes: [a, b],

@@ -125,14 +125,14 @@ mod tests {
     fn a_gene_below_its_expression_floor_has_no_boundaries() {
         let grid = Grid { nx: 4, ny: 1, spacing_um: 1.0, edges: Edges::Sealed };
         let state = ndarray::array![[0.0, 0.01, 0.02, 0.03], [0.0, 1.0, 2.0, 3.0]];
-        let rec = Recording {
+        let rec = Recording::with_states(
             grid,
-            genes: vec!["faint".into(), "bright".into()],
-            colors: vec![[0, 0, 0]; 2],
-            times: vec![0.0],
-            states: vec![state],
-            floor: vec![0.25, 0.25],
-        };
+            vec!["faint".into(), "bright".into()],
+            vec![[0, 0, 0]; 2],
+            vec![0.0],
+            vec![state],
+            vec![0.25, 0.25],
+        );
         let b = boundaries_at(&rec, 0);
         assert_eq!(b.len(), 1);
         assert_eq!(b[0].gene, "bright");

@@ -100,7 +100,7 @@ impl Style {
 pub fn gene_maxima(rec: &Recording, snapshots: &[usize]) -> Vec<f64> {
     (0..rec.genes.len())
         .map(|g| {
-            let m = snapshots.iter().flat_map(|&s| rec.states[s].row(g).to_vec()).fold(0.0f64, f64::max);
+            let m = snapshots.iter().flat_map(|&s| rec.state(s).row(g).to_vec()).fold(0.0f64, f64::max);
             if m > 0.0 { m } else { 1.0 }
         })
         .collect()

@@ -58,7 +58,7 @@ pub fn pattern(rec: &Recording, s: usize, style: &Style, max: &[f64]) -> (Canvas
         let height = 70 + sh + 80;
         let mut c = Canvas::new(width, height, bg.rgb());
         let (left, top) = ((width - sw) / 2, 70);
-        let state = &rec.states[s];
+        let state = &rec.state(s);
         let rows: Vec<u32> = (0..sh).map(|py| ((py as u64 * ny as u64) / sh as u64) as u32).collect();
         let cols: Vec<u32> = (0..sw).map(|px| ((px as u64 * nx as u64) / sw as u64) as u32).collect();
         for (py, &iy) in rows.iter().enumerate() {

@@ -52,7 +52,7 @@ pub fn write_cloud_gif(
             c.copy_from(&base);
             for ix in 0..nx {
                 let i = row0 + ix;
-                let (x, y) = (a.px(rec.states[s][[ga, i]]), a.py(rec.states[s][[gb, i]]));
+                let (x, y) = (a.px(rec.state(s)[[ga, i]]), a.py(rec.state(s)[[gb, i]]));
                 let color = super::colour::sequential(ix as f64 / (nx.max(2) - 1) as f64);
                 c.ellipse(x, y, 3.5, 3.5, 1.0, style.background.rgb(), Some(color));
             }

@@ -33,7 +33,7 @@ pub fn profiles_with_axes(rec: &Recording, final_boundaries: &[Boundary], style:
     let ymax = picks
         .iter()
         .flat_map(|&s| style.genes.iter().map(move |&g| (s, g)))
-        .map(|(s, g)| rec.states[s].row(g).iter().copied().fold(0.0f64, f64::max))
+        .map(|(s, g)| rec.state(s).row(g).iter().copied().fold(0.0f64, f64::max))
         .fold(0.0f64, f64::max);
     let ymax = if ymax > 0.0 { ymax * 1.05 } else { 1.0 };
     let a = Axes::along_axis(left, top, right, width, plot_h, (0.0, ymax), false);

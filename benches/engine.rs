@@ -45,7 +45,7 @@ fn main() {
         let mut checksum = 0.0;
         for _ in 0..case.repeats {
             let start = Instant::now();
-            let run = simulate(&model, &RunOptions { parallel: true, progress: false }).expect("run");
+            let run = simulate(&model, &RunOptions { parallel: true, ..Default::default() }).expect("run");
             best = best.min(start.elapsed().as_secs_f64());
             checksum = reference::checksum(run.recording.final_state());
         }

@@ -20,7 +20,12 @@ const TARGET: f64 = 1e-4;
 
 /// Every snapshot of a run, [gene, nucleus] each.
 fn states(model: &Model) -> Vec<ndarray::Array2<f64>> {
-    simulate(model, &RunOptions { parallel: false, progress: false }).expect("ribbon runs").recording.states
+    simulate(model, &RunOptions { parallel: false, ..Default::default() })
+        .expect("ribbon runs")
+        .recording
+        .states()
+        .map(|s| s.into_owned())
+        .collect()
 }
 
 /// Max abs difference over the last snapshot only (`whole` false) or over all.
@@ -88,7 +93,7 @@ fn compare(ribbon: &Model, reference: &[ndarray::Array2<f64>], whole: bool) {
     }
     let adaptive_model = adaptive(tol);
     let adaptive_err = max_abs(&states(&adaptive_model), reference, whole);
-    let steps = |m: &Model| simulate(m, &RunOptions { parallel: false, progress: false }).unwrap().stats;
+    let steps = |m: &Model| simulate(m, &RunOptions { parallel: false, ..Default::default() }).unwrap().stats;
 
     let (tf, ta) = (best_time(&fixed_model, 5), best_time(&adaptive_model, 5));
     let (sf, sa) = (steps(&fixed_model), steps(&adaptive_model));

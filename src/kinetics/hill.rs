@@ -119,11 +119,10 @@ struct Scratch {
 
 impl HillKinetics {
     #[inline(always)]
-    fn all_genes(&self, u: ArrayView2<f64>, m: ArrayView2<f64>, mut out: ArrayViewMut2<f64>) {
-        let mut scratch = Scratch { num: [0.0; CHUNK], den: [0.0; CHUNK], sum: [0.0; CHUNK] };
+    fn all_genes(&self, u: ArrayView2<f64>, m: ArrayView2<f64>, mut out: ArrayViewMut2<f64>, scratch: &mut Scratch) {
         for (law, mut row) in self.genes.iter().zip(out.outer_iter_mut()) {
             let dst = row.as_slice_mut().expect("contiguous gene row");
-            if !self.fused_gene(law, &u, &m, dst, &mut scratch) {
+            if !self.fused_gene(law, &u, &m, dst, scratch) {
                 self.careful_gene(law, &u, &m, dst);
             }
         }
@@ -213,18 +212,31 @@ impl HillKinetics {
 impl Kinetics for HillKinetics {
     fn rates(&self, u: ArrayView2<f64>, m: ArrayView2<f64>, out: ArrayViewMut2<f64>) {
         debug_assert!(out.ncols() <= CHUNK);
-        #[cfg(target_arch = "x86_64")]
-        if std::arch::is_x86_feature_detected!("avx2") {
-            /// The same code compiled for 4-wide vectors (no fused multiply–add
-            /// is introduced, so results are bit-identical to the plain path).
-            #[target_feature(enable = "avx2")]
-            fn wide(k: &HillKinetics, u: ArrayView2<f64>, m: ArrayView2<f64>, out: ArrayViewMut2<f64>) {
-                k.all_genes(u, m, out)
-            }
-            // SAFETY: the CPU was just checked for AVX2.
-            return unsafe { wide(self, u, m, out) };
+        thread_local! {
+            /// Kept per thread, so no chunk pays for clearing it.
+            static SCRATCH: std::cell::RefCell<Scratch> =
+                const { std::cell::RefCell::new(Scratch { num: [0.0; CHUNK], den: [0.0; CHUNK], sum: [0.0; CHUNK] }) };
         }
-        self.all_genes(u, m, out)
+        SCRATCH.with_borrow_mut(|scratch| {
+            #[cfg(target_arch = "x86_64")]
+            if std::arch::is_x86_feature_detected!("avx2") {
+                /// The same code compiled for 4-wide vectors (no fused multiply–add
+                /// is introduced, so results are bit-identical to the plain path).
+                #[target_feature(enable = "avx2")]
+                fn wide(
+                    k: &HillKinetics,
+                    u: ArrayView2<f64>,
+                    m: ArrayView2<f64>,
+                    out: ArrayViewMut2<f64>,
+                    s: &mut Scratch,
+                ) {
+                    k.all_genes(u, m, out, s)
+                }
+                // SAFETY: the CPU was just checked for AVX2.
+                return unsafe { wide(self, u, m, out, scratch) };
+            }
+            self.all_genes(u, m, out, scratch)
+        })
     }
 
     fn jacobian(&self, u: &[f64], m: &[f64], jac: &mut [f64]) {

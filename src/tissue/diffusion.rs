@@ -56,32 +56,7 @@ impl TriFactor {
 
     /// Factors `a₀ I − c ∇²` (c in µm², so `c/h²` is dimensionless); no allocation.
     pub fn factor(&mut self, a0: f64, c: f64) {
-        let n = self.inv_w.len();
-        let r = c / (self.h * self.h);
-        let off = -r;
-        let diag = |i: usize| {
-            a0 + r * if n == 1 {
-                0.0
-            } else if i == 0 || i == n - 1 {
-                1.0
-            } else {
-                2.0
-            }
-        };
-        let mut w = diag(0);
-        self.inv_w[0] = 1.0 / w;
-        self.m[0] = 0.0;
-        for i in 1..n {
-            let m = off / w;
-            w = diag(i) - m * off;
-            self.m[i] = m;
-            self.inv_w[i] = 1.0 / w;
-        }
-        for i in 0..n {
-            self.up[i] = if i + 1 < n { off * self.inv_w[i] } else { 0.0 };
-        }
-        self.a0 = a0;
-        self.c = c;
+        factor_together([self], a0, [c]);
     }
 
     /// Solves in place: `b ← (a₀ I − c ∇²)⁻¹ b`.
@@ -90,6 +65,62 @@ impl TriFactor {
     /// If `b` is not as long as the row.
     pub fn solve(&self, b: &mut [f64]) {
         solve_together([self], [b]);
+    }
+}
+
+/// Factors the held rows (up to four, each with its `c`) together and empties the slots.
+fn factor_held(held: &mut [Option<(&mut TriFactor, f64)>; 4], a0: f64) {
+    let mut take = || held.iter_mut().find_map(Option::take);
+    match (take(), take(), take(), take()) {
+        (Some(a), Some(b), Some(c), Some(d)) => factor_together([a.0, b.0, c.0, d.0], a0, [a.1, b.1, c.1, d.1]),
+        (Some(a), Some(b), Some(c), None) => factor_together([a.0, b.0, c.0], a0, [a.1, b.1, c.1]),
+        (Some(a), Some(b), None, None) => factor_together([a.0, b.0], a0, [a.1, b.1]),
+        (Some(a), None, None, None) => factor_together([a.0], a0, [a.1]),
+        _ => {}
+    }
+}
+
+/// Factors `K` rows at once, row k for `a₀ I − c_k ∇²` (interleaved: the
+/// `K` pivot recurrences are independent, so their division latencies
+/// overlap); each row's arithmetic is the same as alone.
+///
+/// # Panics
+/// If the rows differ in length.
+fn factor_together<const K: usize>(mut f: [&mut TriFactor; K], a0: f64, c: [f64; K]) {
+    let n = f[0].m.len();
+    assert!(f.iter().all(|f| f.m.len() == n), "row length");
+    if n == 0 {
+        return;
+    }
+    let off: [f64; K] = std::array::from_fn(|k| -(c[k] / (f[k].h * f[k].h)));
+    // Diagonal: a₀ + r·(number of neighbours), r = −off.
+    let edge: [f64; K] = std::array::from_fn(|k| a0 + -off[k] * if n == 1 { 0.0 } else { 1.0 });
+    let inner: [f64; K] = std::array::from_fn(|k| a0 + -off[k] * 2.0);
+    let mut w = edge;
+    for k in 0..K {
+        f[k].inv_w[0] = 1.0 / w[k];
+        f[k].m[0] = 0.0;
+    }
+    let mut pivot = |i: usize, d: [f64; K], w: &mut [f64; K]| {
+        for k in 0..K {
+            let m = off[k] / w[k];
+            w[k] = d[k] - m * off[k];
+            f[k].m[i] = m;
+            f[k].inv_w[i] = 1.0 / w[k];
+        }
+    };
+    for i in 1..n.saturating_sub(1) {
+        pivot(i, inner, &mut w);
+    }
+    if n > 1 {
+        pivot(n - 1, edge, &mut w);
+    }
+    for k in 0..K {
+        let t = &mut *f[k];
+        for i in 0..n {
+            t.up[i] = if i + 1 < n { off[k] * t.inv_w[i] } else { 0.0 };
+        }
+        (t.a0, t.c) = (a0, c[k]);
     }
 }
 
@@ -385,6 +416,8 @@ impl Diffusion {
                 // sweep (genes without diffusion are a division), in two halves
                 // of the genes when parallel.
                 let n = b.ncols();
+                let mut stale: [Option<(&mut TriFactor, f64)>; 4] = [None, None, None, None];
+                let mut count = 0;
                 for ((mut row, pair), dg) in b.outer_iter_mut().zip(factors.iter_mut()).zip(d) {
                     let c = k * dg;
                     if *dg == 0.0 {
@@ -392,10 +425,16 @@ impl Diffusion {
                     } else if !pair[0].is_for(a0, c) {
                         pair.swap(0, 1);
                         if !pair[0].is_for(a0, c) {
-                            pair[0].factor(a0, c);
+                            stale[count] = Some((&mut pair[0], c));
+                            count += 1;
+                            if count == 4 {
+                                factor_held(&mut stale, a0);
+                                count = 0;
+                            }
                         }
                     }
                 }
+                factor_held(&mut stale, a0);
                 let field = b.as_slice_mut().expect("standard layout");
                 let genes = d.len();
                 if parallel && genes > 1 && n >= PARALLEL_MIN {

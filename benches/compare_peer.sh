@@ -9,7 +9,8 @@
 #
 # Solve time has the same meaning on both sides: loading/building the problem,
 # all steps and the checksum, without interpreter or process start-up; the
-# best of several repeats. Peak memory is the whole process (GNU time's
+# best of several repeats in one process (the peer's --repeat, anlage's
+# run --timing --repeat). Peak memory is the whole process (GNU time's
 # "Maximum resident set size"), interpreter and libraries included.
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -32,9 +33,7 @@ measure() {
   while [ "$1" != -- ]; do args+=("$1"); shift; done
   local model=$2
   /usr/bin/time -v -o "$out/peer.time" python3 "$peer" "${args[@]}" --repeat "$repeats" > "$out/peer.json"
-  for i in $(seq "$repeats"); do
-    /usr/bin/time -v -o "$out/anlage.$i.time" "$exe" run "$model" --no-pictures --timing -o "$out/run" > "$out/anlage.$i.json"
-  done
+  /usr/bin/time -v -o "$out/anlage.time" "$exe" run "$model" --no-pictures --timing --repeat "$repeats" -o "$out/run" > "$out/anlage.json"
   python3 - "$name" "$out" "$repeats" >> "$out/rows" <<'PY'
 import json, re, sys
 name, out, repeats = sys.argv[1], sys.argv[2], int(sys.argv[3])
@@ -42,11 +41,10 @@ def rss(path):
     m = re.search(r"Maximum resident set size \(kbytes\): (\d+)", open(path).read())
     return int(m.group(1)) / 1024
 peer = json.load(open(f"{out}/peer.json"))
-runs = [json.load(open(f"{out}/anlage.{i}.json")) for i in range(1, repeats + 1)]
-best = min(r["solve_seconds"] for r in runs)
-print(json.dumps(dict(problem=name, size=peer["grid"], steps=peer["steps"], anlage_s=best, peer_s=peer["seconds"],
-    anlage_sum=runs[0]["checksum"], peer_sum=peer["checksum"],
-    anlage_mib=max(rss(f"{out}/anlage.{i}.time") for i in range(1, repeats + 1)), peer_mib=rss(f"{out}/peer.time"))))
+run = json.load(open(f"{out}/anlage.json"))
+print(json.dumps(dict(problem=name, size=peer["grid"], steps=peer["steps"], anlage_s=run["solve_seconds"],
+    peer_s=peer["seconds"], anlage_sum=run["checksum"], peer_sum=peer["checksum"],
+    anlage_mib=rss(f"{out}/anlage.time"), peer_mib=rss(f"{out}/peer.time"))))
 PY
 }
 

@@ -52,6 +52,10 @@ pub enum Command {
         /// the final state (for comparing implementations).
         #[arg(long)]
         timing: bool,
+        /// With --timing: solve this many times in one process and report the fastest solve (each one
+        /// loads the model again), as a benchmark peer reporting its best of several repeats does.
+        #[arg(long, value_name = "N", default_value_t = 1, requires = "timing", conflicts_with = "resume")]
+        repeat: usize,
         /// How pictures look.
         #[command(flatten)]
         look: Look,

@@ -260,3 +260,32 @@ fn synthesize_measure_compare_round_trip() {
     assert_eq!(o.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&o.stderr).contains("channel 7 does not exist"));
 }
+
+/// `run --timing` prints one JSON line whose checksum is the sum of the final
+/// state in states.npy; `--repeat` solves again and reports the same checksum
+/// (the fastest solve's time); `--repeat` without `--timing` is refused.
+#[test]
+fn timing_line_and_repeat() {
+    let out = temp_dir("timing");
+    let model = root().join("patterns/band.toml");
+    let line = |extra: &[&str]| -> serde_json::Value {
+        let mut args = vec!["run", model.to_str().unwrap(), "--no-pictures", "--timing", "-o", out.to_str().unwrap()];
+        args.extend_from_slice(extra);
+        let o = anlage(&args);
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        serde_json::from_slice(&o.stdout).expect("one JSON line")
+    };
+    let (once, thrice) = (line(&[]), line(&["--repeat", "3"]));
+    assert_eq!(once["checksum"], thrice["checksum"]);
+    assert!(thrice["solve_seconds"].as_f64().unwrap() > 0.0);
+    let npy = std::fs::read(out.join("states.npy")).unwrap();
+    let header = 10 + u16::from_le_bytes([npy[8], npy[9]]) as usize;
+    let (g, n) = (once["genes"].as_u64().unwrap() as usize, once["nuclei"].as_u64().unwrap() as usize);
+    let last = &npy[npy.len() - g * n * 8..];
+    assert!(npy.len() > header + g * n * 8);
+    let sum: f64 = last.chunks_exact(8).map(|c| f64::from_le_bytes(c.try_into().unwrap())).sum();
+    assert_eq!(sum, once["checksum"].as_f64().unwrap());
+    let o = anlage(&["run", model.to_str().unwrap(), "--repeat", "2", "-o", out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    std::fs::remove_dir_all(&out).unwrap();
+}

@@ -20,12 +20,28 @@ const BLOCKS: usize = 16;
 /// Columns per strip of the y sweeps (one task each).
 const STRIP: usize = 128;
 
-/// LU factors of `(a₀ + cλ_p) I − c ∇²_y` for every mode p, stored `[iy, p]`.
+/// LU factors of `(a₀ + cλ_p) I − c ∇²_y` for every mode p, stored `[row, p]`.
+///
+/// The interior rows of each mode's matrix are all alike, so its pivots tend
+/// to a fixed point; once a whole row of pivots repeats exactly, every later
+/// interior row is the same numbers. Only rows `0..head` are stored, then
+/// the last row (`head`): the sweeps read a few rows of factors from cache
+/// instead of two full-size arrays, with the same bits.
 struct ModeFactors {
     a0: f64,
     c: f64,
     m: Vec<f64>,
     inv_w: Vec<f64>,
+    /// Stored interior rows; rows `head − 1 ..= ny − 2` share row `head − 1`.
+    head: usize,
+}
+
+impl ModeFactors {
+    /// Stored row holding the factors of row `iy` of `ny`.
+    #[inline(always)]
+    fn row_of(&self, iy: usize, ny: usize) -> usize {
+        if iy + 1 == ny { self.head } else { iy.min(self.head - 1) }
+    }
 }
 
 /// The solver for one sealed sheet of `nx × ny` nuclei (ny > 1).
@@ -46,7 +62,7 @@ impl SheetSolver {
         let rows = CosineRows::new(nx);
         let lam_x =
             (0..nx).map(|p| (2.0 - 2.0 * (std::f64::consts::PI * p as f64 / nx as f64).cos()) / (h * h)).collect();
-        let empty = || ModeFactors { a0: f64::NAN, c: f64::NAN, m: Vec::new(), inv_w: Vec::new() };
+        let empty = || ModeFactors { a0: f64::NAN, c: f64::NAN, m: Vec::new(), inv_w: Vec::new(), head: 1 };
         SheetSolver {
             nx,
             ny,
@@ -79,6 +95,7 @@ impl SheetSolver {
             }
         }
         let f = &pair[0];
+        let stored = f.head + 1;
         let rows = &self.rows;
         super::diffusion::for_rows(field, nx, &mut self.scratch, parallel, |iy, row, s| {
             if let Some((rhs, offset)) = rhs {
@@ -88,13 +105,15 @@ impl SheetSolver {
         });
         let off = -c / (self.h * self.h);
         let mut view = ArrayViewMut2::from_shape((ny, nx), &mut *field).expect("field is ny x nx");
-        let m = ArrayView2::from_shape((ny, nx), &f.m).expect("factor is ny x nx");
-        let inv_w = ArrayView2::from_shape((ny, nx), &f.inv_w).expect("factor is ny x nx");
+        let m = ArrayView2::from_shape((stored, nx), &f.m).expect("factor rows x nx");
+        let inv_w = ArrayView2::from_shape((stored, nx), &f.inv_w).expect("factor rows x nx");
         let strips = view
             .axis_chunks_iter_mut(Axis(1), STRIP)
             .into_par_iter()
             .zip(m.axis_chunks_iter(Axis(1), STRIP).into_par_iter().zip(inv_w.axis_chunks_iter(Axis(1), STRIP)));
-        let sweep = |(b, (m, w)): (ArrayViewMut2<f64>, (ArrayView2<f64>, ArrayView2<f64>))| sweep_strip(b, m, w, off);
+        let row_of = |iy: usize| f.row_of(iy, ny);
+        let sweep =
+            |(b, (m, w)): (ArrayViewMut2<f64>, (ArrayView2<f64>, ArrayView2<f64>))| sweep_strip(b, m, w, off, &row_of);
         if parallel {
             strips.for_each(sweep);
         } else {
@@ -106,46 +125,87 @@ impl SheetSolver {
     }
 }
 
-/// LU factors for every x mode: `m_iy = off/w_{iy−1}`, `w_iy = diag_iy − m_iy·off`.
+/// LU factors for every x mode: `m_iy = off/w_{iy−1}`, `w_iy = diag_iy − m_iy·off`,
+/// computed row by row until a row of pivots repeats exactly (see [`ModeFactors`]).
 fn factor(f: &mut ModeFactors, lam_x: &[f64], ny: usize, h: f64, a0: f64, c: f64) {
     let nx = lam_x.len();
     let r = c / (h * h);
-    f.m.resize(nx * ny, 0.0);
-    f.inv_w.resize(nx * ny, 0.0);
-    for (p, &lam) in lam_x.iter().enumerate() {
-        let base = a0 + c * lam;
-        let diag = |iy: usize| base + r * if iy == 0 || iy == ny - 1 { 1.0 } else { 2.0 };
-        let mut w = diag(0);
-        f.m[p] = 0.0;
-        f.inv_w[p] = 1.0 / w;
-        for iy in 1..ny {
-            let m = -r / w;
-            w = diag(iy) + m * r;
-            f.m[iy * nx + p] = m;
-            f.inv_w[iy * nx + p] = 1.0 / w;
+    f.m.clear();
+    f.inv_w.clear();
+    let diag = |base: f64, iy: usize| base + r * if iy == 0 || iy == ny - 1 { 1.0 } else { 2.0 };
+    // Row 0.
+    let mut w: Vec<f64> = lam_x.iter().map(|&lam| diag(a0 + c * lam, 0)).collect();
+    f.m.extend(std::iter::repeat_n(0.0, nx));
+    f.inv_w.extend(w.iter().map(|w| 1.0 / w));
+    let mut head = ny - 1;
+    let mut m_row = vec![0.0; nx];
+    for iy in 1..ny - 1 {
+        let mut same = true;
+        for ((wp, mp), &lam) in w.iter_mut().zip(m_row.iter_mut()).zip(lam_x) {
+            let m = -r / *wp;
+            let next = diag(a0 + c * lam, iy) + m * r;
+            same &= next == *wp;
+            (*wp, *mp) = (next, m);
+        }
+        f.m.extend_from_slice(&m_row);
+        f.inv_w.extend(w.iter().map(|w| 1.0 / w));
+        if same && iy + 1 < ny - 1 {
+            // w_iy = w_{iy−1} makes m_{iy+1} = −r/w_iy = m_iy and so
+            // w_{iy+1} = w_iy: rows iy ..= ny − 2 are all this row.
+            head = iy + 1;
+            break;
         }
     }
+    // The last row (its own diagonal).
+    if ny > 1 {
+        for ((wp, mp), &lam) in w.iter_mut().zip(m_row.iter_mut()).zip(lam_x) {
+            let m = -r / *wp;
+            (*wp, *mp) = (diag(a0 + c * lam, ny - 1) + m * r, m);
+        }
+        f.m.extend_from_slice(&m_row);
+        f.inv_w.extend(w.iter().map(|w| 1.0 / w));
+    }
+    f.head = head.min(ny.saturating_sub(1)).max(1);
     f.a0 = a0;
     f.c = c;
 }
 
 /// Forward and back sweeps along y for a strip of columns (modes).
-fn sweep_strip(b: ArrayViewMut2<f64>, m: ArrayView2<f64>, inv_w: ArrayView2<f64>, off: f64) {
+/// `row_of(iy)` is the stored factor row of row iy.
+fn sweep_strip(
+    b: ArrayViewMut2<f64>,
+    m: ArrayView2<f64>,
+    inv_w: ArrayView2<f64>,
+    off: f64,
+    row_of: &dyn Fn(usize) -> usize,
+) {
     #[cfg(target_arch = "x86_64")]
     if std::arch::is_x86_feature_detected!("avx2") {
         /// The same code compiled for 4-wide vectors (bit-identical results).
         #[target_feature(enable = "avx2")]
-        fn wide(b: ArrayViewMut2<f64>, m: ArrayView2<f64>, inv_w: ArrayView2<f64>, off: f64) {
-            sweep_strip_body(b, m, inv_w, off)
+        fn wide(
+            b: ArrayViewMut2<f64>,
+            m: ArrayView2<f64>,
+            inv_w: ArrayView2<f64>,
+            off: f64,
+            row_of: &dyn Fn(usize) -> usize,
+        ) {
+            sweep_strip_body(b, m, inv_w, off, row_of)
         }
         // SAFETY: the CPU was just checked for AVX2.
-        return unsafe { wide(b, m, inv_w, off) };
+        return unsafe { wide(b, m, inv_w, off, row_of) };
     }
-    sweep_strip_body(b, m, inv_w, off)
+    sweep_strip_body(b, m, inv_w, off, row_of)
 }
 
 #[inline(always)]
-fn sweep_strip_body(mut b: ArrayViewMut2<f64>, m: ArrayView2<f64>, inv_w: ArrayView2<f64>, off: f64) {
+fn sweep_strip_body(
+    mut b: ArrayViewMut2<f64>,
+    m: ArrayView2<f64>,
+    inv_w: ArrayView2<f64>,
+    off: f64,
+    row_of: &dyn Fn(usize) -> usize,
+) {
     // The running row is carried in a local buffer: rows of the field are a
     // multiple of 4 KiB apart, and reading the row just written would alias
     // in the cache's store buffer.
@@ -156,7 +216,7 @@ fn sweep_strip_body(mut b: ArrayViewMut2<f64>, m: ArrayView2<f64>, inv_w: ArrayV
     for iy in 0..ny {
         let mut row = b.row_mut(iy);
         let row = row.as_slice_mut().expect("contiguous strip row");
-        let m = m.row(iy);
+        let m = m.row(row_of(iy));
         let m = m.to_slice().expect("contiguous strip row");
         if iy == 0 {
             carry.copy_from_slice(row);
@@ -170,7 +230,7 @@ fn sweep_strip_body(mut b: ArrayViewMut2<f64>, m: ArrayView2<f64>, inv_w: ArrayV
     for iy in (0..ny).rev() {
         let mut row = b.row_mut(iy);
         let row = row.as_slice_mut().expect("contiguous strip row");
-        let w = inv_w.row(iy);
+        let w = inv_w.row(row_of(iy));
         let w = w.to_slice().expect("contiguous strip row");
         if iy == ny - 1 {
             for ((v, c), &w) in row.iter_mut().zip(carry.iter_mut()).zip(w) {

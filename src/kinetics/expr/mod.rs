@@ -243,6 +243,10 @@ enum Ins {
     ConstBin(Op, f64),
     PowI(i32),
     Call(Func, usize),
+    /// top ← top op gene row (a `Gene` then `Bin`, without the copy)
+    BinGene(Op, usize),
+    /// top ← top op input row (an `Input` then `Bin`, without the copy)
+    BinInput(Op, usize),
 }
 
 /// Deepest stack a program may need (expressions nested deeper are refused).
@@ -260,7 +264,26 @@ impl Program {
     pub fn compile(e: &Expr) -> Option<Program> {
         let mut code = Vec::new();
         let depth = emit(e, &mut code, 0);
-        (depth <= MAX_DEPTH).then_some(Program { code, depth })
+        // Peephole: a row pushed only to be combined with the top is read in place.
+        let mut fused = Vec::with_capacity(code.len());
+        let mut i = 0;
+        while i < code.len() {
+            match (code[i], code.get(i + 1)) {
+                (Ins::Gene(g), Some(&Ins::Bin(op))) => {
+                    fused.push(Ins::BinGene(op, g));
+                    i += 2;
+                }
+                (Ins::Input(k), Some(&Ins::Bin(op))) => {
+                    fused.push(Ins::BinInput(op, k));
+                    i += 2;
+                }
+                (ins, _) => {
+                    fused.push(ins);
+                    i += 1;
+                }
+            }
+        }
+        (depth <= MAX_DEPTH).then_some(Program { code: fused, depth })
     }
 
     /// Evaluates over a chunk: `gene(i)` and `input(k)` give the chunk's rows;
@@ -272,52 +295,43 @@ impl Program {
         len: usize,
         out: &mut [f64],
     ) {
-        #[cfg(target_arch = "x86_64")]
-        if std::arch::is_x86_feature_detected!("avx2") {
-            /// The same code compiled for 4-wide vectors (no fused multiply–add
-            /// is introduced, so results are bit-identical to the plain path).
-            #[target_feature(enable = "avx2")]
-            fn wide<'a>(
-                p: &Program,
-                gene: &dyn Fn(usize) -> &'a [f64],
-                input: &dyn Fn(usize) -> &'a [f64],
-                len: usize,
-                out: &mut [f64],
-            ) {
-                p.run_sized(gene, input, len, out)
+        thread_local! {
+            /// The register file, kept per thread so no call pays for clearing it.
+            static STACK: std::cell::RefCell<[[f64; CHUNK]; MAX_DEPTH]> =
+                const { std::cell::RefCell::new([[0.0; CHUNK]; MAX_DEPTH]) };
+        }
+        STACK.with_borrow_mut(|stack| {
+            #[cfg(target_arch = "x86_64")]
+            if std::arch::is_x86_feature_detected!("avx2") {
+                /// The same code compiled for 4-wide vectors (no fused multiply–add
+                /// is introduced, so results are bit-identical to the plain path).
+                #[target_feature(enable = "avx2")]
+                fn wide<'a>(
+                    p: &Program,
+                    gene: &dyn Fn(usize) -> &'a [f64],
+                    input: &dyn Fn(usize) -> &'a [f64],
+                    len: usize,
+                    out: &mut [f64],
+                    stack: &mut [[f64; CHUNK]],
+                ) {
+                    p.run_with(gene, input, len, out, stack)
+                }
+                // SAFETY: the CPU was just checked for AVX2.
+                return unsafe { wide(self, gene, input, len, out, stack) };
             }
-            // SAFETY: the CPU was just checked for AVX2.
-            return unsafe { wide(self, gene, input, len, out) };
-        }
-        self.run_sized(gene, input, len, out)
+            self.run_with(gene, input, len, out, stack)
+        })
     }
 
-    /// The register file is sized to the program (zeroing 24 registers for a
-    /// shallow program would cost more than running it).
     #[inline(always)]
-    fn run_sized<'a>(
+    fn run_with<'a>(
         &self,
         gene: &dyn Fn(usize) -> &'a [f64],
         input: &dyn Fn(usize) -> &'a [f64],
         len: usize,
         out: &mut [f64],
+        stack: &mut [[f64; CHUNK]],
     ) {
-        match self.depth {
-            0..=4 => self.run_with::<4>(gene, input, len, out),
-            5..=8 => self.run_with::<8>(gene, input, len, out),
-            _ => self.run_with::<MAX_DEPTH>(gene, input, len, out),
-        }
-    }
-
-    #[inline(always)]
-    fn run_with<'a, const D: usize>(
-        &self,
-        gene: &dyn Fn(usize) -> &'a [f64],
-        input: &dyn Fn(usize) -> &'a [f64],
-        len: usize,
-        out: &mut [f64],
-    ) {
-        let mut stack = [[0.0f64; CHUNK]; D];
         let mut top = 0usize;
         for ins in &self.code {
             match *ins {
@@ -375,16 +389,11 @@ impl Program {
                 }
                 Ins::Bin(op) => {
                     let (lo, hi) = stack.split_at_mut(top - 1);
-                    let (a, b) = (&mut lo[top - 2][..len], &hi[0][..len]);
-                    match op {
-                        Op::Add => a.iter_mut().zip(b).for_each(|(x, y)| *x += y),
-                        Op::Sub => a.iter_mut().zip(b).for_each(|(x, y)| *x -= y),
-                        Op::Mul => a.iter_mut().zip(b).for_each(|(x, y)| *x *= y),
-                        Op::Div => a.iter_mut().zip(b).for_each(|(x, y)| *x /= y),
-                        Op::Pow => a.iter_mut().zip(b).for_each(|(x, y)| *x = pow(*x, *y)),
-                    }
+                    combine(op, &mut lo[top - 2][..len], &hi[0][..len]);
                     top -= 1;
                 }
+                Ins::BinGene(op, g) => combine(op, &mut stack[top - 1][..len], &gene(g)[..len]),
+                Ins::BinInput(op, k) => combine(op, &mut stack[top - 1][..len], &input(k)[..len]),
                 Ins::Call(f, n) => {
                     let base = top - n;
                     let mut args = [0.0f64; 4];
@@ -408,6 +417,18 @@ impl Program {
         let input_rows: Vec<[f64; 1]> = m.iter().map(|v| [*v]).collect();
         self.run(&|g| &gene_rows[g][..], &|k| &input_rows[k][..], 1, &mut out);
         out[0]
+    }
+}
+
+/// `a ← a op b`, element by element.
+#[inline(always)]
+fn combine(op: Op, a: &mut [f64], b: &[f64]) {
+    match op {
+        Op::Add => a.iter_mut().zip(b).for_each(|(x, y)| *x += y),
+        Op::Sub => a.iter_mut().zip(b).for_each(|(x, y)| *x -= y),
+        Op::Mul => a.iter_mut().zip(b).for_each(|(x, y)| *x *= y),
+        Op::Div => a.iter_mut().zip(b).for_each(|(x, y)| *x /= y),
+        Op::Pow => a.iter_mut().zip(b).for_each(|(x, y)| *x = pow(*x, *y)),
     }
 }
 

@@ -68,17 +68,15 @@ pub struct RunOptions {
     pub parallel: bool,
     /// Show a progress bar on stderr when it is a terminal.
     pub progress: bool,
-    /// A folder for an unnamed scratch file: snapshots are streamed to it
-    /// when the recording would pass [`STREAM_ABOVE_BYTES`] (or always, with
-    /// `stream`), so memory does not grow with the snapshots.
-    pub scratch_dir: Option<std::path::PathBuf>,
-    /// Stream whatever the recording's size (needs `scratch_dir`).
-    pub stream: bool,
+    /// Stream the snapshots to an unnamed scratch file in this folder as they
+    /// are taken, so memory does not grow with them (`anlage run` does so
+    /// when the recording would pass [`STREAM_ABOVE_BYTES`]).
+    pub stream_to: Option<std::path::PathBuf>,
 }
 
 impl Default for RunOptions {
     fn default() -> Self {
-        RunOptions { parallel: true, progress: false, scratch_dir: None, stream: false }
+        RunOptions { parallel: true, progress: false, stream_to: None }
     }
 }
 
@@ -124,9 +122,7 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
     let tissue = tissue::Tissue::new(model);
     let kinetics = kinetics::build(model);
     let mut recording = Recording::for_model(model);
-    if let Some(dir) = &options.scratch_dir
-        && (options.stream || model.recording_bytes() > STREAM_ABOVE_BYTES)
-    {
+    if let Some(dir) = &options.stream_to {
         recording
             .stream_to(dir)
             .map_err(|e| StepError::Recording(format!("making a scratch file in {}: {e}", dir.display())))?;

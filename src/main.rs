@@ -104,8 +104,7 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
                     let model = Model::load(path)?;
                     let run = anlage::simulate(&model, &anlage::RunOptions::default())
                         .with_context(|| format!("simulating {}", model.file.display()))?;
-                    let checksum: f64 = run.recording.final_state().iter().sum();
-                    std::hint::black_box(checksum);
+                    std::hint::black_box(anlage::reference::checksum(run.recording.final_state()));
                     fastest = fastest.min(start.elapsed().as_secs_f64());
                 }
             }
@@ -125,12 +124,8 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             // Check the picture options before a long run, against the snapshot times to come.
             Style::with_options(&planned_recording(&model), &model.title, &style_options)?;
             let streams = *stream || model.recording_bytes() > anlage::STREAM_ABOVE_BYTES;
-            let options = anlage::RunOptions {
-                parallel: true,
-                progress: !quiet,
-                scratch_dir: streams.then(|| dir.clone()),
-                stream: *stream,
-            };
+            let options =
+                anlage::RunOptions { parallel: true, progress: !quiet, stream_to: streams.then(|| dir.clone()) };
             let plan = (checkpoint_every.is_some() || checkpoint.is_some()).then(|| anlage::Checkpointing {
                 file: dir.join(CHECKPOINT),
                 every: checkpoint_every.unwrap_or(std::time::Duration::MAX),
@@ -141,7 +136,7 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             }
             let run = anlage::simulate_with(&model, &options, plan.as_ref())
                 .with_context(|| format!("simulating {}", model.file.display()))?;
-            let checksum: f64 = run.recording.final_state().iter().sum();
+            let checksum = anlage::reference::checksum(run.recording.final_state());
             let solve_seconds = start.elapsed().as_secs_f64().min(fastest);
             let summary = anlage::write_run(&model, &run, &dir, &style_options, !no_pictures)
                 .with_context(|| format!("writing outputs to {}", dir.display()))?;

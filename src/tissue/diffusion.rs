@@ -94,10 +94,11 @@ fn factor_together<const K: usize>(mut f: [&mut TriFactor; K], a0: f64, c: [f64;
     if n == 0 {
         return;
     }
-    let off: [f64; K] = std::array::from_fn(|k| -(c[k] / (f[k].h * f[k].h)));
-    // Diagonal: a₀ + r·(number of neighbours), r = −off.
-    let edge: [f64; K] = std::array::from_fn(|k| a0 + -off[k] * if n == 1 { 0.0 } else { 1.0 });
-    let inner: [f64; K] = std::array::from_fn(|k| a0 + -off[k] * 2.0);
+    let r: [f64; K] = std::array::from_fn(|k| c[k] / (f[k].h * f[k].h));
+    let off = r.map(|r| -r);
+    // Diagonal: a₀ + r·(number of neighbours).
+    let edge = r.map(|r| a0 + r * if n == 1 { 0.0 } else { 1.0 });
+    let inner = r.map(|r| a0 + r * 2.0);
     let mut w = edge;
     for k in 0..K {
         f[k].inv_w[0] = 1.0 / w[k];

@@ -34,6 +34,8 @@ struct ModeFactors {
     inv_w: Vec<f64>,
     /// Stored interior rows; rows `head − 1 ..= ny − 2` share row `head − 1`.
     head: usize,
+    /// Working row of pivots `w` (kept to avoid allocating per factorisation).
+    pivots: Vec<f64>,
 }
 
 impl ModeFactors {
@@ -62,7 +64,8 @@ impl SheetSolver {
         let rows = CosineRows::new(nx);
         let lam_x =
             (0..nx).map(|p| (2.0 - 2.0 * (std::f64::consts::PI * p as f64 / nx as f64).cos()) / (h * h)).collect();
-        let empty = || ModeFactors { a0: f64::NAN, c: f64::NAN, m: Vec::new(), inv_w: Vec::new(), head: 1 };
+        let empty =
+            || ModeFactors { a0: f64::NAN, c: f64::NAN, m: Vec::new(), inv_w: Vec::new(), head: 1, pivots: Vec::new() };
         SheetSolver {
             nx,
             ny,
@@ -127,47 +130,42 @@ impl SheetSolver {
 
 /// LU factors for every x mode: `m_iy = off/w_{iy−1}`, `w_iy = diag_iy − m_iy·off`,
 /// computed row by row until a row of pivots repeats exactly (see [`ModeFactors`]).
+/// Allocates only when the sheet's first factorisation grows the rows.
 fn factor(f: &mut ModeFactors, lam_x: &[f64], ny: usize, h: f64, a0: f64, c: f64) {
-    let nx = lam_x.len();
+    debug_assert!(ny > 1, "a sheet has more than one row");
     let r = c / (h * h);
-    f.m.clear();
-    f.inv_w.clear();
-    let diag = |base: f64, iy: usize| base + r * if iy == 0 || iy == ny - 1 { 1.0 } else { 2.0 };
+    let diag = |lam: f64, iy: usize| a0 + c * lam + r * if iy == 0 || iy == ny - 1 { 1.0 } else { 2.0 };
+    let ModeFactors { m, inv_w, pivots: w, .. } = f;
+    m.clear();
+    inv_w.clear();
+    w.clear();
     // Row 0.
-    let mut w: Vec<f64> = lam_x.iter().map(|&lam| diag(a0 + c * lam, 0)).collect();
-    f.m.extend(std::iter::repeat_n(0.0, nx));
-    f.inv_w.extend(w.iter().map(|w| 1.0 / w));
+    w.extend(lam_x.iter().map(|&lam| diag(lam, 0)));
+    m.extend(std::iter::repeat_n(0.0, lam_x.len()));
+    inv_w.extend(w.iter().map(|w| 1.0 / w));
+    // Interior rows, then the last row (its own diagonal).
     let mut head = ny - 1;
-    let mut m_row = vec![0.0; nx];
-    for iy in 1..ny - 1 {
+    let mut iy = 1;
+    while iy < ny {
         let mut same = true;
-        for ((wp, mp), &lam) in w.iter_mut().zip(m_row.iter_mut()).zip(lam_x) {
-            let m = -r / *wp;
-            let next = diag(a0 + c * lam, iy) + m * r;
+        for (wp, &lam) in w.iter_mut().zip(lam_x) {
+            let mi = -r / *wp;
+            let next = diag(lam, iy) + mi * r;
             same &= next == *wp;
-            (*wp, *mp) = (next, m);
+            *wp = next;
+            m.push(mi);
         }
-        f.m.extend_from_slice(&m_row);
-        f.inv_w.extend(w.iter().map(|w| 1.0 / w));
-        if same && iy + 1 < ny - 1 {
+        inv_w.extend(w.iter().map(|w| 1.0 / w));
+        iy = if same && iy + 2 < ny {
             // w_iy = w_{iy−1} makes m_{iy+1} = −r/w_iy = m_iy and so
-            // w_{iy+1} = w_iy: rows iy ..= ny − 2 are all this row.
+            // w_{iy+1} = w_iy: rows iy ..= ny − 2 are all this row. On to the last.
             head = iy + 1;
-            break;
-        }
+            ny - 1
+        } else {
+            iy + 1
+        };
     }
-    // The last row (its own diagonal).
-    if ny > 1 {
-        for ((wp, mp), &lam) in w.iter_mut().zip(m_row.iter_mut()).zip(lam_x) {
-            let m = -r / *wp;
-            (*wp, *mp) = (diag(a0 + c * lam, ny - 1) + m * r, m);
-        }
-        f.m.extend_from_slice(&m_row);
-        f.inv_w.extend(w.iter().map(|w| 1.0 / w));
-    }
-    f.head = head.min(ny.saturating_sub(1)).max(1);
-    f.a0 = a0;
-    f.c = c;
+    (f.head, f.a0, f.c) = (head, a0, c);
 }
 
 /// Forward and back sweeps along y for a strip of columns (modes).

@@ -256,7 +256,6 @@ pub const MAX_DEPTH: usize = 24;
 #[derive(Debug, Clone, PartialEq)]
 pub struct Program {
     code: Vec<Ins>,
-    depth: usize,
 }
 
 impl Program {
@@ -283,7 +282,7 @@ impl Program {
                 }
             }
         }
-        (depth <= MAX_DEPTH).then_some(Program { code: fused, depth })
+        (depth <= MAX_DEPTH).then_some(Program { code: fused })
     }
 
     /// Evaluates over a chunk: `gene(i)` and `input(k)` give the chunk's rows;

@@ -86,6 +86,13 @@ fn factor_held(held: &mut [Option<(&mut TriFactor, f64)>; 4], a0: f64) {
 /// `K` pivot recurrences are independent, so their division latencies
 /// overlap); each row's arithmetic is the same as alone.
 ///
+/// Only the pivots the solve reads are formed: up to the middle nucleus for
+/// the twisted solve. Away from the ends the recurrence `w ← d − off²/w` has
+/// the same input every time, so once a pivot repeats exactly every later one
+/// is the same number: the rest is filled in, bit-identical to forming it and
+/// free of the division chain (with small `c/h²`, as on error-controlled rows
+/// whose step keeps changing, that happens within a few nuclei).
+///
 /// # Panics
 /// If the rows differ in length.
 fn factor_together<const K: usize>(mut f: [&mut TriFactor; K], a0: f64, c: [f64; K]) {
@@ -99,30 +106,44 @@ fn factor_together<const K: usize>(mut f: [&mut TriFactor; K], a0: f64, c: [f64;
     // Diagonal: a₀ + r·(number of neighbours).
     let edge = r.map(|r| a0 + r * if n == 1 { 0.0 } else { 1.0 });
     let inner = r.map(|r| a0 + r * 2.0);
+    // Last pivot the solve reads: the middle one when twisted (n ≥ 3, so it
+    // is an inner nucleus), else the last nucleus.
+    let last = if n >= TWIST_MIN { n / 2 } else { n - 1 };
     let mut w = edge;
     for k in 0..K {
         f[k].inv_w[0] = 1.0 / w[k];
         f[k].m[0] = 0.0;
+        f[k].up[0] = if n > 1 { off[k] * f[k].inv_w[0] } else { 0.0 };
     }
-    let mut pivot = |i: usize, d: [f64; K], w: &mut [f64; K]| {
+    let mut i = 1;
+    while i <= last {
+        let d = if i == n - 1 { edge } else { inner };
+        let mut repeated = i < n - 1;
         for k in 0..K {
             let m = off[k] / w[k];
-            w[k] = d[k] - m * off[k];
-            f[k].m[i] = m;
-            f[k].inv_w[i] = 1.0 / w[k];
+            let next = d[k] - m * off[k];
+            repeated &= next == w[k];
+            w[k] = next;
+            let t = &mut *f[k];
+            t.m[i] = m;
+            t.inv_w[i] = 1.0 / next;
+            t.up[i] = if i + 1 < n { off[k] * t.inv_w[i] } else { 0.0 };
         }
-    };
-    for i in 1..n.saturating_sub(1) {
-        pivot(i, inner, &mut w);
-    }
-    if n > 1 {
-        pivot(n - 1, edge, &mut w);
+        i += 1;
+        if repeated {
+            // Inner nuclei only here (i ≤ last ≤ n − 2 when twisted), so
+            // every later pivot equals this one.
+            for t in f.iter_mut() {
+                let (m, inv, up) = (t.m[i - 1], t.inv_w[i - 1], t.up[i - 1]);
+                t.m[i..=last].fill(m);
+                t.inv_w[i..=last].fill(inv);
+                t.up[i..=last].fill(up);
+            }
+            break;
+        }
     }
     for k in 0..K {
         let t = &mut *f[k];
-        for i in 0..n {
-            t.up[i] = if i + 1 < n { off[k] * t.inv_w[i] } else { 0.0 };
-        }
         (t.a0, t.c) = (a0, c[k]);
         if n >= TWIST_MIN {
             // Both ends eliminated up to the middle p = n/2: its pivot is its
@@ -594,6 +615,64 @@ mod tests {
     fn thomas_inverts_sealed_row() {
         check_inverse(2, 1, Edges::Sealed);
         check_inverse(37, 1, Edges::Sealed);
+    }
+
+    /// The pivots filled in once they repeat are the very numbers the full
+    /// recurrence gives (bit for bit), for rows that converge early, late or
+    /// not before the middle, factored one or three at a time.
+    #[test]
+    fn filled_pivots_equal_the_full_recurrence() {
+        for n in [1usize, 2, 3, 4, 5, 40, 1001] {
+            let h = 1.5;
+            let cs = [1e-3, 0.7, 60.0];
+            let mut together: Vec<TriFactor> = cs.iter().map(|_| TriFactor::new(n, h)).collect();
+            let [a, b, c] = &mut together[..] else { unreachable!() };
+            factor_together([a, b, c], 3.0, cs);
+            for (t, &c) in together.iter().zip(&cs) {
+                let mut alone = TriFactor::new(n, h);
+                alone.factor(3.0, c);
+                // The plain recurrence over every nucleus.
+                let r = c / (h * h);
+                let diag = |i: usize| {
+                    3.0 + r * if n == 1 {
+                        0.0
+                    } else if i == 0 || i == n - 1 {
+                        1.0
+                    } else {
+                        2.0
+                    }
+                };
+                let mut w = diag(0);
+                let used = if n >= TWIST_MIN { n / 2 } else { n - 1 };
+                for i in 0..=used {
+                    if i > 0 {
+                        let m = -r / w;
+                        w = diag(i) - m * -r;
+                        assert_eq!(t.m[i].to_bits(), m.to_bits(), "n {n} c {c} m[{i}]");
+                    }
+                    assert_eq!(t.inv_w[i].to_bits(), (1.0 / w).to_bits(), "n {n} c {c} inv_w[{i}]");
+                    let up = if i + 1 < n { -r * (1.0 / w) } else { 0.0 };
+                    assert_eq!(t.up[i].to_bits(), up.to_bits(), "n {n} c {c} up[{i}]");
+                    for (x, y) in [(t.m[i], alone.m[i]), (t.inv_w[i], alone.inv_w[i]), (t.up[i], alone.up[i])] {
+                        assert_eq!(x.to_bits(), y.to_bits(), "grouped and alone differ");
+                    }
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn thomas_inverts_long_rows_with_weak_and_strong_coupling() {
+        for c in [1e-4, 0.05, 400.0] {
+            let grid = Grid { nx: 501, ny: 1, spacing_um: 1.5, edges: Edges::Sealed };
+            let u: Vec<f64> = (0..501).map(|i| ((i * 7919) % 101) as f64 / 10.0).collect();
+            let b = apply(&grid, &u, 3.0, c);
+            let mut x = Array2::from_shape_vec((1, 501), b).unwrap();
+            Diffusion::new(&grid, &[1.0]).solve(&mut x, 3.0, c, false);
+            for (got, want) in x.iter().zip(&u) {
+                assert_relative_eq!(*got, *want, epsilon = 1e-10, max_relative = 1e-10);
+            }
+        }
     }
 
     #[test]

@@ -205,8 +205,13 @@ pub fn integrate_from(
                         let landing = k_try >= remaining * (1.0 - 1e-9);
                         if landing {
                             k_try = remaining;
-                        } else if 2.0 * k_try > remaining {
-                            k_try = remaining / 2.0;
+                        } else {
+                            // Equal steps up to the snapshot: a short last
+                            // step would make the next ratio kₙ/kₙ₋₁ large,
+                            // and that step would often be rejected (common
+                            // practice, no source; the guard keeps a step
+                            // that already divides the rest unchanged).
+                            k_try = remaining / (remaining / k_try * (1.0 - 1e-9)).ceil();
                         }
                         stepper.attempt(k_try);
                         let err = stepper.error_norm(k_try, rtol, atol);

@@ -230,18 +230,29 @@ fn call(f: Func, a: &[f64]) -> f64 {
     }
 }
 
+/// An operation on one register.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Unary {
+    Neg,
+    /// x op c
+    BinConst(Op, f64),
+    /// c op x
+    ConstBin(Op, f64),
+    PowI(i32),
+}
+
 #[derive(Debug, Clone, Copy, PartialEq)]
 enum Ins {
     Const(f64),
     Gene(usize),
     Input(usize),
-    Neg,
+    /// top ← unary(top)
+    Un(Unary),
+    /// push unary(gene row) (a `Gene` then `Un`, without the copy)
+    GeneUn(usize, Unary),
+    /// push unary(input row) (an `Input` then `Un`, without the copy)
+    InputUn(usize, Unary),
     Bin(Op),
-    /// top ← top op c
-    BinConst(Op, f64),
-    /// top ← c op top
-    ConstBin(Op, f64),
-    PowI(i32),
     Call(Func, usize),
     /// top ← top op gene row (a `Gene` then `Bin`, without the copy)
     BinGene(Op, usize),
@@ -263,7 +274,8 @@ impl Program {
     pub fn compile(e: &Expr) -> Option<Program> {
         let mut code = Vec::new();
         let depth = emit(e, &mut code, 0);
-        // Peephole: a row pushed only to be combined with the top is read in place.
+        // Peephole: a row pushed only to be combined with the top, or to have
+        // one operation applied, is read in place.
         let mut fused = Vec::with_capacity(code.len());
         let mut i = 0;
         while i < code.len() {
@@ -274,6 +286,14 @@ impl Program {
                 }
                 (Ins::Input(k), Some(&Ins::Bin(op))) => {
                     fused.push(Ins::BinInput(op, k));
+                    i += 2;
+                }
+                (Ins::Gene(g), Some(&Ins::Un(op))) => {
+                    fused.push(Ins::GeneUn(g, op));
+                    i += 2;
+                }
+                (Ins::Input(k), Some(&Ins::Un(op))) => {
+                    fused.push(Ins::InputUn(k, op));
                     i += 2;
                 }
                 (ins, _) => {
@@ -322,6 +342,8 @@ impl Program {
         })
     }
 
+    /// Runs the code with register 0 being `out` itself (so the result needs
+    /// no copy) and registers 1.. in `stack`.
     #[inline(always)]
     fn run_with<'a>(
         &self,
@@ -331,82 +353,58 @@ impl Program {
         out: &mut [f64],
         stack: &mut [[f64; CHUNK]],
     ) {
+        let out = &mut out[..len];
+        /// Register `i`.
+        fn reg<'s>(out: &'s mut [f64], stack: &'s mut [[f64; CHUNK]], i: usize, len: usize) -> &'s mut [f64] {
+            if i == 0 { out } else { &mut stack[i][..len] }
+        }
         let mut top = 0usize;
         for ins in &self.code {
             match *ins {
                 Ins::Const(c) => {
-                    stack[top][..len].fill(c);
+                    reg(out, stack, top, len).fill(c);
                     top += 1;
                 }
                 Ins::Gene(g) => {
-                    stack[top][..len].copy_from_slice(&gene(g)[..len]);
+                    reg(out, stack, top, len).copy_from_slice(&gene(g)[..len]);
                     top += 1;
                 }
                 Ins::Input(k) => {
-                    stack[top][..len].copy_from_slice(&input(k)[..len]);
+                    reg(out, stack, top, len).copy_from_slice(&input(k)[..len]);
                     top += 1;
                 }
-                Ins::Neg => stack[top - 1][..len].iter_mut().for_each(|v| *v = -*v),
-                Ins::BinConst(op, c) => {
-                    let a = &mut stack[top - 1][..len];
-                    match op {
-                        Op::Add => a.iter_mut().for_each(|x| *x += c),
-                        Op::Sub => a.iter_mut().for_each(|x| *x -= c),
-                        Op::Mul => a.iter_mut().for_each(|x| *x *= c),
-                        Op::Div => {
-                            let inv = 1.0 / c;
-                            a.iter_mut().for_each(|x| *x *= inv)
-                        }
-                        Op::Pow => a.iter_mut().for_each(|x| *x = pow(*x, c)),
-                    }
+                Ins::GeneUn(g, op) => {
+                    unary(op, reg(out, stack, top, len), Some(&gene(g)[..len]));
+                    top += 1;
                 }
-                Ins::ConstBin(op, c) => {
-                    let a = &mut stack[top - 1][..len];
-                    match op {
-                        Op::Add => a.iter_mut().for_each(|x| *x += c),
-                        Op::Sub => a.iter_mut().for_each(|x| *x = c - *x),
-                        Op::Mul => a.iter_mut().for_each(|x| *x *= c),
-                        Op::Div => a.iter_mut().for_each(|x| *x = c / *x),
-                        Op::Pow => a.iter_mut().for_each(|x| *x = pow(c, *x)),
-                    }
+                Ins::InputUn(k, op) => {
+                    unary(op, reg(out, stack, top, len), Some(&input(k)[..len]));
+                    top += 1;
                 }
-                Ins::PowI(n) => {
-                    let a = &mut stack[top - 1][..len];
-                    // Small powers as products: powi with a runtime exponent is a call per element.
-                    match n {
-                        0 => a.fill(1.0),
-                        1 => {}
-                        2 => a.iter_mut().for_each(|x| *x *= *x),
-                        3 => a.iter_mut().for_each(|x| *x = *x * *x * *x),
-                        4 => a.iter_mut().for_each(|x| {
-                            let y = *x * *x;
-                            *x = y * y;
-                        }),
-                        -1 => a.iter_mut().for_each(|x| *x = 1.0 / *x),
-                        _ => a.iter_mut().for_each(|x| *x = x.powi(n)),
-                    }
-                }
+                Ins::Un(op) => unary(op, reg(out, stack, top - 1, len), None),
                 Ins::Bin(op) => {
+                    // top − 1 ≥ 1, so the right operand is always in `stack`.
                     let (lo, hi) = stack.split_at_mut(top - 1);
-                    combine(op, &mut lo[top - 2][..len], &hi[0][..len]);
+                    let a = reg(out, lo, top - 2, len);
+                    combine(op, a, &hi[0][..len]);
                     top -= 1;
                 }
-                Ins::BinGene(op, g) => combine(op, &mut stack[top - 1][..len], &gene(g)[..len]),
-                Ins::BinInput(op, k) => combine(op, &mut stack[top - 1][..len], &input(k)[..len]),
+                Ins::BinGene(op, g) => combine(op, reg(out, stack, top - 1, len), &gene(g)[..len]),
+                Ins::BinInput(op, k) => combine(op, reg(out, stack, top - 1, len), &input(k)[..len]),
                 Ins::Call(f, n) => {
                     let base = top - n;
                     let mut args = [0.0f64; 4];
                     for i in 0..len {
-                        for k in 0..n {
-                            args[k] = stack[base + k][i];
+                        for (k, a) in args[..n].iter_mut().enumerate() {
+                            *a = if base + k == 0 { out[i] } else { stack[base + k][i] };
                         }
-                        stack[base][i] = call(f, &args[..n]);
+                        let v = call(f, &args[..n]);
+                        if base == 0 { out[i] = v } else { stack[base][i] = v }
                     }
                     top = base + 1;
                 }
             }
         }
-        out[..len].copy_from_slice(&stack[0][..len]);
     }
 
     /// Evaluates at one point.
@@ -416,6 +414,65 @@ impl Program {
         let input_rows: Vec<[f64; 1]> = m.iter().map(|v| [*v]).collect();
         self.run(&|g| &gene_rows[g][..], &|k| &input_rows[k][..], 1, &mut out);
         out[0]
+    }
+}
+
+/// x^n for an integer n; small powers as products (powi with a runtime
+/// exponent is a call per element).
+#[inline(always)]
+fn powi_small(x: f64, n: i32) -> f64 {
+    match n {
+        0 => 1.0,
+        1 => x,
+        2 => x * x,
+        3 => x * x * x,
+        4 => {
+            let y = x * x;
+            y * y
+        }
+        -1 => 1.0 / x,
+        _ => x.powi(n),
+    }
+}
+
+/// `dst ← op(src)`, or `dst ← op(dst)` without a source, with the operation
+/// resolved outside the loop so that each arm vectorises.
+#[inline(always)]
+fn unary(op: Unary, dst: &mut [f64], src: Option<&[f64]>) {
+    macro_rules! map {
+        ($f:expr) => {{
+            let f = $f;
+            match src {
+                Some(src) => dst.iter_mut().zip(src).for_each(|(d, &x)| *d = f(x)),
+                None => dst.iter_mut().for_each(|d| *d = f(*d)),
+            }
+        }};
+    }
+    match op {
+        Unary::Neg => map!(|x: f64| -x),
+        Unary::BinConst(op, c) => match op {
+            Op::Add => map!(|x: f64| x + c),
+            Op::Sub => map!(|x: f64| x - c),
+            Op::Mul => map!(|x: f64| x * c),
+            Op::Div => {
+                let inv = 1.0 / c;
+                map!(|x: f64| x * inv)
+            }
+            Op::Pow => map!(|x: f64| pow(x, c)),
+        },
+        Unary::ConstBin(op, c) => match op {
+            Op::Add => map!(|x: f64| c + x),
+            Op::Sub => map!(|x: f64| c - x),
+            Op::Mul => map!(|x: f64| c * x),
+            Op::Div => map!(|x: f64| c / x),
+            Op::Pow => map!(|x: f64| pow(c, x)),
+        },
+        Unary::PowI(n) => match n {
+            2 => map!(|x: f64| x * x),
+            3 => map!(|x: f64| x * x * x),
+            4 => map!(|x: f64| powi_small(x, 4)),
+            _ => map!(|x: f64| powi_small(x, n)),
+        },
     }
 }
 
@@ -448,24 +505,24 @@ fn emit(e: &Expr, code: &mut Vec<Ins>, depth: usize) -> usize {
         }
         Expr::Neg(a) => {
             let d = emit(a, code, depth);
-            code.push(Ins::Neg);
+            code.push(Ins::Un(Unary::Neg));
             d
         }
         Expr::Bin(Op::Pow, a, b) if matches!(**b, Expr::Num(n) if n.fract() == 0.0 && n.abs() <= 64.0) => {
             let d = emit(a, code, depth);
             let Expr::Num(n) = **b else { unreachable!("matched a number") };
-            code.push(Ins::PowI(n as i32));
+            code.push(Ins::Un(Unary::PowI(n as i32)));
             d
         }
         Expr::Bin(op, a, b) => match (&**a, &**b) {
             (_, Expr::Num(c)) => {
                 let d = emit(a, code, depth);
-                code.push(Ins::BinConst(*op, *c));
+                code.push(Ins::Un(Unary::BinConst(*op, *c)));
                 d
             }
             (Expr::Num(c), _) => {
                 let d = emit(b, code, depth);
-                code.push(Ins::ConstBin(*op, *c));
+                code.push(Ins::Un(Unary::ConstBin(*op, *c)));
                 d
             }
             _ => {

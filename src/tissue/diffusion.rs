@@ -43,12 +43,24 @@ pub struct TriFactor {
     m: Vec<f64>,
     /// Pivot of the middle nucleus in the twisted solve (see [`solve_together`]).
     gamma: f64,
+    /// From this nucleus up to the middle, `m`, `inv_w` and `up` are each one
+    /// repeated number (see [`factor_together`]).
+    head: usize,
 }
 
 impl TriFactor {
     /// An empty factor for a row of `n` nuclei with spacing `h` µm.
     pub fn new(n: usize, h: f64) -> TriFactor {
-        TriFactor { a0: f64::NAN, c: f64::NAN, h, inv_w: vec![0.0; n], up: vec![0.0; n], m: vec![0.0; n], gamma: 0.0 }
+        TriFactor {
+            a0: f64::NAN,
+            c: f64::NAN,
+            h,
+            inv_w: vec![0.0; n],
+            up: vec![0.0; n],
+            m: vec![0.0; n],
+            gamma: 0.0,
+            head: n,
+        }
     }
 
     /// True if the factor is for `(a0, c)`.
@@ -115,6 +127,9 @@ fn factor_together<const K: usize>(mut f: [&mut TriFactor; K], a0: f64, c: [f64;
         f[k].m[0] = 0.0;
         f[k].up[0] = if n > 1 { off[k] * f[k].inv_w[0] } else { 0.0 };
     }
+    for t in f.iter_mut() {
+        t.head = last + 1;
+    }
     let mut i = 1;
     while i <= last {
         let d = if i == n - 1 { edge } else { inner };
@@ -138,6 +153,7 @@ fn factor_together<const K: usize>(mut f: [&mut TriFactor; K], a0: f64, c: [f64;
                 t.m[i..=last].fill(m);
                 t.inv_w[i..=last].fill(inv);
                 t.up[i..=last].fill(up);
+                t.head = i - 1;
             }
             break;
         }
@@ -199,14 +215,25 @@ fn solve_together<const K: usize>(f: [&TriFactor; K], b: [&mut [f64]; K]) {
     // Top end: nuclei 0..p; bottom end: nuclei n−1 down to p+1 (s = 0..q).
     let p = n / 2;
     let q = n - 1 - p;
+    // From `h` on the coefficients are constants (no loads in the chains).
+    let h = f.iter().map(|f| f.head).max().unwrap_or(0).clamp(1, q.max(1));
     let mut top: [f64; K] = std::array::from_fn(|k| b[k][0]);
     let mut bottom: [f64; K] = std::array::from_fn(|k| b[k][n - 1]);
-    for s in 1..q {
+    for s in 1..h {
         for k in 0..K {
             let m = f[k].m[s];
             top[k] = b[k][s] - m * top[k];
             b[k][s] = top[k];
             bottom[k] = b[k][n - 1 - s] - m * bottom[k];
+            b[k][n - 1 - s] = bottom[k];
+        }
+    }
+    let m: [f64; K] = std::array::from_fn(|k| f[k].m[h]);
+    for s in h..q {
+        for k in 0..K {
+            top[k] = b[k][s] - m[k] * top[k];
+            b[k][s] = top[k];
+            bottom[k] = b[k][n - 1 - s] - m[k] * bottom[k];
             b[k][n - 1 - s] = bottom[k];
         }
     }
@@ -227,7 +254,16 @@ fn solve_together<const K: usize>(f: [&TriFactor; K], b: [&mut [f64]; K]) {
             b[k][s] = top[k];
         }
     }
-    for s in (0..q).rev() {
+    let (inv, up): ([f64; K], [f64; K]) = (std::array::from_fn(|k| f[k].inv_w[h]), std::array::from_fn(|k| f[k].up[h]));
+    for s in (h..q).rev() {
+        for k in 0..K {
+            top[k] = b[k][s] * inv[k] - up[k] * top[k];
+            b[k][s] = top[k];
+            bottom[k] = b[k][n - 1 - s] * inv[k] - up[k] * bottom[k];
+            b[k][n - 1 - s] = bottom[k];
+        }
+    }
+    for s in (0..h.min(q)).rev() {
         for k in 0..K {
             let (inv, up) = (f[k].inv_w[s], f[k].up[s]);
             top[k] = b[k][s] * inv - up * top[k];
@@ -661,9 +697,20 @@ mod tests {
         }
     }
 
+    /// Rows whose pivots settle at once, part-way or not before the middle,
+    /// so the solve's constant tail is empty, partial or whole.
     #[test]
     fn thomas_inverts_long_rows_with_weak_and_strong_coupling() {
-        for c in [1e-4, 0.05, 400.0] {
+        let heads: Vec<usize> = [1e-4, 400.0, 1e5]
+            .iter()
+            .map(|&c| {
+                let mut t = TriFactor::new(501, 1.5);
+                t.factor(3.0, c);
+                t.head
+            })
+            .collect();
+        assert!(heads[0] < 10 && heads[1] > 10 && heads[1] < 249 && heads[2] > 250, "heads {heads:?}");
+        for c in [1e-4, 0.05, 400.0, 1e5] {
             let grid = Grid { nx: 501, ny: 1, spacing_um: 1.5, edges: Edges::Sealed };
             let u: Vec<f64> = (0..501).map(|i| ((i * 7919) % 101) as f64 / 10.0).collect();
             let b = apply(&grid, &u, 3.0, c);

@@ -3,9 +3,11 @@
 mod cosine;
 mod diffusion;
 mod gradient;
+mod row_solve;
 mod sheet_solve;
 
-pub use diffusion::{Diffusion, Rhs, SpectralSolver, TriFactor, laplacian};
+pub use diffusion::{Diffusion, Rhs, SpectralSolver, laplacian};
+pub use row_solve::TriFactor;
 
 pub use gradient::{amplitude_at, distance_at, distance_um, unit_shape, value_at};
 

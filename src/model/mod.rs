@@ -9,13 +9,15 @@ mod mutant;
 mod source;
 pub mod spec;
 mod validate;
+mod validate_circuit;
 
 use std::path::{Path, PathBuf};
 
 pub use error::ModelError;
 pub use mutant::{Ectopic, Edit, GeneParam, GradientParam, LinkParam, Mutant, Param};
 pub use source::Source;
-pub use validate::{PALETTE, parse_color};
+pub use validate::PALETTE;
+pub use validate_circuit::parse_color;
 
 /// Largest working memory a model may ask for before it is refused, bytes.
 pub const MEMORY_BUDGET_BYTES: u64 = 12 << 30;

@@ -5,11 +5,9 @@ use std::ops::Range;
 
 use toml::Spanned;
 
-use super::spec::{ClockSpec, GeneSpec, GradientSpec, LinkSpec, ModelSpec, TissueSpec};
-use super::{
-    Circuit, Clock, Combine, Edges, Gene, Gradient, Grid, Initial, KineticsKind, Link, LinkEffect, Model, ModelError,
-    Regulator, Shape, Side, Source, Stepping,
-};
+use super::spec::{ClockSpec, GradientSpec, ModelSpec, TissueSpec};
+use super::validate_circuit::{check_circuit, check_gene};
+use super::{Circuit, Clock, Edges, Gradient, Grid, KineticsKind, Model, ModelError, Shape, Side, Source, Stepping};
 
 /// Default gene colours: the Okabe & Ito (2008) palette, distinguishable with
 /// the common forms of colour blindness ("Color Universal Design", web page).
@@ -152,17 +150,17 @@ fn claim_name(
 }
 
 /// Field checks for one table: each returns the value or an Invalid error at its key.
-struct Checker<'s, 'a> {
-    src: &'s Source<'a>,
-    span: Range<usize>,
-    prefix: String,
+pub(super) struct Checker<'s, 'a> {
+    pub(super) src: &'s Source<'a>,
+    pub(super) span: Range<usize>,
+    pub(super) prefix: String,
 }
 
 impl Checker<'_, '_> {
-    fn fail(&self, key: &str, problem: String, fix: &str) -> ModelError {
+    pub(super) fn fail(&self, key: &str, problem: String, fix: &str) -> ModelError {
         self.src.invalid(&self.span, key, format!("{}{key}", self.prefix), problem, fix)
     }
-    fn positive(&self, key: &str, v: f64, unit: &str) -> Result<f64, ModelError> {
+    pub(super) fn positive(&self, key: &str, v: f64, unit: &str) -> Result<f64, ModelError> {
         if v.is_finite() && v > 0.0 {
             Ok(v)
         } else {
@@ -173,7 +171,7 @@ impl Checker<'_, '_> {
             ))
         }
     }
-    fn non_negative(&self, key: &str, v: f64, unit: &str) -> Result<f64, ModelError> {
+    pub(super) fn non_negative(&self, key: &str, v: f64, unit: &str) -> Result<f64, ModelError> {
         if v.is_finite() && v >= 0.0 {
             Ok(v)
         } else {
@@ -184,17 +182,17 @@ impl Checker<'_, '_> {
             ))
         }
     }
-    fn finite(&self, key: &str, v: f64) -> Result<f64, ModelError> {
+    pub(super) fn finite(&self, key: &str, v: f64) -> Result<f64, ModelError> {
         if v.is_finite() {
             Ok(v)
         } else {
             Err(self.fail(key, format!("must be a finite number, got {v}"), "give a real number"))
         }
     }
-    fn required<T: Copy>(&self, key: &str, v: Option<T>, why: &str) -> Result<T, ModelError> {
+    pub(super) fn required<T: Copy>(&self, key: &str, v: Option<T>, why: &str) -> Result<T, ModelError> {
         v.ok_or_else(|| self.fail(key, format!("is missing; it is needed {why}"), &format!("add `{key} = ...`")))
     }
-    fn forbidden<T>(&self, key: &str, v: &Option<T>, why: &str) -> Result<(), ModelError> {
+    pub(super) fn forbidden<T>(&self, key: &str, v: &Option<T>, why: &str) -> Result<(), ModelError> {
         match v {
             Some(_) => Err(self.fail(key, format!("does not apply {why}"), &format!("remove `{key}`"))),
             None => Ok(()),
@@ -401,240 +399,4 @@ fn check_gradient(i: usize, g: &Spanned<GradientSpec>, grid: &Grid, src: &Source
         }
     }
     Ok(Gradient { name: spec.name.clone(), shape, from, peak, baseline, amplitude })
-}
-
-/// Reads `initial_file` (relative to the model file): an NPY array of f64 with
-/// one value per nucleus, shape `[nuclei]` or `[ny, nx]`.
-fn read_initial_file(c: &Checker, name: &str, grid: &Grid) -> Result<Vec<f64>, ModelError> {
-    use ndarray_npy::ReadNpyExt;
-    let path = c.src.file().parent().map_or_else(|| name.into(), |dir| dir.join(name));
-    let fix = "give an NPY file of float64 levels, one per nucleus (shape [nuclei] or [ny, nx])";
-    let file = std::fs::File::open(&path)
-        .map_err(|e| c.fail("initial_file", format!("`{}` cannot be opened: {e}", path.display()), fix))?;
-    let array = ndarray::ArrayD::<f64>::read_npy(std::io::BufReader::new(file))
-        .map_err(|e| c.fail("initial_file", format!("`{}` is not a float64 NPY array: {e}", path.display()), fix))?;
-    let shape = array.shape().to_vec();
-    let fits = match shape[..] {
-        [n] => n == grid.len(),
-        [ny, nx] => ny == grid.ny && nx == grid.nx,
-        _ => false,
-    };
-    if !fits {
-        return Err(c.fail(
-            "initial_file",
-            format!("`{}` has shape {shape:?} but the tissue is {} x {} nuclei", path.display(), grid.ny, grid.nx),
-            fix,
-        ));
-    }
-    Ok(array.iter().copied().collect())
-}
-
-fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Source) -> Result<Gene, ModelError> {
-    let spec = g.get_ref();
-    let c = Checker { src, span: g.span(), prefix: format!("gene[{i}] `{}`.", spec.name) };
-    let needed = if spec.rate.is_some() { Some(0.0) } else { None };
-    let why = "by a gene without a `rate` expression";
-    let production =
-        c.non_negative("production", c.required("production", spec.production.or(needed), why)?, "a.u./min")?;
-    let decay = c.non_negative("decay", c.required("decay", spec.decay.or(needed), why)?, "1/min")?;
-    let diffusion = c.non_negative("diffusion", spec.diffusion.unwrap_or(0.0), "µm²/min")?;
-    let initial_noise = c.non_negative("initial_noise", spec.initial_noise.unwrap_or(0.0), "a.u.")?;
-    let profile = match (&spec.initial_profile, &spec.initial_file) {
-        (Some(_), Some(_)) => {
-            return Err(c.fail(
-                "initial_file",
-                "is given together with `initial_profile`".into(),
-                "keep one of the two",
-            ));
-        }
-        (Some(p), None) => Some(("initial_profile", p.clone())),
-        (None, Some(f)) => Some(("initial_file", read_initial_file(&c, f, grid)?)),
-        (None, None) => None,
-    };
-    let initial = match (&spec.initial, profile) {
-        (Some(_), Some((key, _))) => {
-            return Err(c.fail(key, "is given together with `initial`".into(), "keep one of the two"));
-        }
-        (Some(v), None) => Initial::Uniform(c.non_negative("initial", *v, "a.u.")?),
-        (None, None) => Initial::Uniform(0.0),
-        (None, Some((key, p))) => {
-            if p.len() != grid.len() {
-                return Err(c.fail(
-                    key,
-                    format!("has {} values but the tissue has {} nuclei", p.len(), grid.len()),
-                    "give one value per nucleus (row by row for a sheet)",
-                ));
-            }
-            if let Some((k, v)) = p.iter().enumerate().find(|(_, v)| !v.is_finite() || **v < 0.0) {
-                return Err(c.fail(key, format!("value {k} is {v}"), "give finite levels >= 0"));
-            }
-            Initial::Profile(p)
-        }
-    };
-    let color = match &spec.color {
-        Some(text) => {
-            parse_color(text).ok_or_else(|| c.fail("color", format!("is `{text}`"), "write a colour as \"#rrggbb\""))?
-        }
-        None => PALETTE[i % PALETTE.len()],
-    };
-    let combine = match spec.combine.as_deref() {
-        None | Some("all") => Combine::All,
-        Some("any") => Combine::Any,
-        Some(other) => {
-            return Err(c.fail("combine", format!("is `{other}`"), "use \"all\" (product) or \"any\" (sum)"));
-        }
-    };
-    let bias = c.finite("bias", spec.bias.unwrap_or(0.0))?;
-    Ok(Gene {
-        name: spec.name.clone(),
-        color,
-        production,
-        decay,
-        diffusion,
-        initial,
-        initial_noise,
-        combine,
-        bias,
-        rate: spec.rate.clone(),
-    })
-}
-
-/// Parses `#rrggbb`.
-pub fn parse_color(text: &str) -> Option<[u8; 3]> {
-    let hex = text.strip_prefix('#')?;
-    if hex.len() != 6 || !hex.chars().all(|c| c.is_ascii_hexdigit()) {
-        return None;
-    }
-    let byte = |k: usize| u8::from_str_radix(&hex[k..k + 2], 16).ok();
-    Some([byte(0)?, byte(2)?, byte(4)?])
-}
-
-fn check_circuit(
-    cs: &Spanned<super::spec::CircuitSpec>,
-    gene_specs: &[Spanned<GeneSpec>],
-    genes: &[Gene],
-    gradients: &[Gradient],
-    src: &Source,
-) -> Result<Circuit, ModelError> {
-    let spec = cs.get_ref();
-    let c = Checker { src, span: cs.span(), prefix: "circuit.".into() };
-    let kinetics = match spec.kinetics.as_str() {
-        "hill" => KineticsKind::Hill,
-        "sigmoid" => KineticsKind::Sigmoid,
-        "rates" => KineticsKind::Rates,
-        other => {
-            return Err(c.fail("kinetics", format!("is `{other}`"), "use \"hill\", \"sigmoid\" or \"rates\""));
-        }
-    };
-    let mut parameters = Vec::new();
-    for (name, v) in &spec.parameters {
-        let clash = genes.iter().any(|g| &g.name == name) || gradients.iter().any(|g| &g.name == name);
-        if clash
-            || !name.chars().all(|ch| ch.is_alphanumeric() || ch == '_')
-            || name.starts_with(|ch: char| ch.is_ascii_digit())
-        {
-            return Err(c.fail(
-                "parameters",
-                format!("has the name `{name}`"),
-                "name parameters with letters, digits and _, unlike any gene or gradient",
-            ));
-        }
-        parameters.push((name.clone(), c.finite("parameters", *v)?));
-    }
-    for (gs, g) in gene_specs.iter().zip(genes) {
-        let gc = Checker { src, span: gs.span(), prefix: format!("gene `{}`.", g.name) };
-        match kinetics {
-            KineticsKind::Hill => gc.forbidden("bias", &gs.get_ref().bias, "to hill kinetics")?,
-            KineticsKind::Sigmoid => gc.forbidden("combine", &gs.get_ref().combine, "to sigmoid kinetics")?,
-            KineticsKind::Rates => {
-                if g.rate.is_none() {
-                    return Err(gc.fail(
-                        "rate",
-                        "is missing".into(),
-                        "with kinetics = \"rates\" every gene needs rate = \"...\"",
-                    ));
-                }
-            }
-        }
-    }
-    let known = |kind: &str| -> String {
-        let mut names: Vec<&str> = genes.iter().map(|g| g.name.as_str()).collect();
-        if kind != "gene" {
-            names.extend(gradients.iter().map(|g| g.name.as_str()));
-        }
-        names.join(", ")
-    };
-    let mut links = Vec::with_capacity(spec.link.len());
-    let mut seen: HashMap<(Regulator, usize), Range<usize>> = HashMap::new();
-    for (i, ls) in spec.link.iter().enumerate() {
-        let l: &LinkSpec = ls.get_ref();
-        let lc = Checker { src, span: ls.span(), prefix: format!("circuit.link[{i}].") };
-        let unknown = |key: &str, name: &str, kind: &str| {
-            let (line, column) = src.locate(&ls.span(), key);
-            ModelError::UnknownName {
-                file: src.file(),
-                line,
-                column,
-                field: format!("circuit.link[{i}].{key}"),
-                kind: kind.into(),
-                name: name.into(),
-                known: known(kind),
-            }
-        };
-        let from = if let Some(k) = genes.iter().position(|g| g.name == l.from) {
-            Regulator::Gene(k)
-        } else if let Some(k) = gradients.iter().position(|g| g.name == l.from) {
-            Regulator::Gradient(k)
-        } else {
-            return Err(unknown("from", &l.from, "gene or gradient"));
-        };
-        let to = genes.iter().position(|g| g.name == l.to).ok_or_else(|| unknown("to", &l.to, "gene"))?;
-        if kinetics == KineticsKind::Rates || genes[to].rate.is_some() {
-            return Err(lc.fail(
-                "to",
-                format!("targets `{}`, whose rate is an expression", l.to),
-                "write this regulation inside the gene's rate expression, or remove the link",
-            ));
-        }
-        if let Some(first) = seen.get(&(from, to)) {
-            return Err(lc.fail(
-                "from",
-                format!("repeats the link {} -> {} at line {}", l.from, l.to, src.line_col(first.start).0),
-                "keep one link per regulator and target",
-            ));
-        }
-        seen.insert((from, to), ls.span());
-        let effect = match kinetics {
-            KineticsKind::Hill => {
-                lc.forbidden("weight", &l.weight, "to hill kinetics (use sign, threshold and hill)")?;
-                let activates = match lc.required("sign", l.sign.as_deref(), "by a hill link")? {
-                    "+" => true,
-                    "-" => false,
-                    other => {
-                        return Err(lc.fail(
-                            "sign",
-                            format!("is `{other}`"),
-                            "use \"+\" to activate or \"-\" to repress",
-                        ));
-                    }
-                };
-                let threshold =
-                    lc.positive("threshold", lc.required("threshold", l.threshold, "by a hill link")?, "a.u.")?;
-                let hill = lc.positive("hill", lc.required("hill", l.hill, "by a hill link")?, "")?;
-                if hill > 64.0 {
-                    return Err(lc.fail("hill", format!("is {hill}"), "use a Hill coefficient up to 64"));
-                }
-                LinkEffect::Hill { activates, threshold, hill }
-            }
-            KineticsKind::Rates => unreachable!("links to genes with rate expressions are refused above"),
-            KineticsKind::Sigmoid => {
-                lc.forbidden("sign", &l.sign, "to sigmoid kinetics (the weight's sign says it)")?;
-                lc.forbidden("threshold", &l.threshold, "to sigmoid kinetics")?;
-                lc.forbidden("hill", &l.hill, "to sigmoid kinetics")?;
-                LinkEffect::Weight(lc.finite("weight", lc.required("weight", l.weight, "by a sigmoid link")?)?)
-            }
-        };
-        links.push(Link { from, to, effect });
-    }
-    Ok(Circuit { kinetics, links, parameters, neighbours: false })
 }

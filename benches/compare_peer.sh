@@ -17,7 +17,7 @@ cd "$(dirname "$0")/.."
 peer=${PEER:-../shared/peer/peer_numpy.py}
 quick=${1:-}
 p2_steps=1000
-repeats=3
+repeats=5
 if [ "$quick" = quick ]; then p2_steps=100; repeats=2; fi
 work=benches/peer
 cargo build --release --quiet

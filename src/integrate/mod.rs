@@ -209,9 +209,13 @@ pub fn integrate_from(
                             // Equal steps up to the snapshot: a short last
                             // step would make the next ratio kₙ/kₙ₋₁ large,
                             // and that step would often be rejected (common
-                            // practice, no source; the guard keeps a step
-                            // that already divides the rest unchanged).
-                            k_try = remaining / (remaining / k_try * (1.0 - 1e-9)).ceil();
+                            // practice, no source). A step that already
+                            // divides the rest is kept to the bit, so the
+                            // solver's factorisation is kept too.
+                            let n = (remaining / k_try * (1.0 - 1e-9)).ceil();
+                            if (n * k_try - remaining).abs() > 1e-9 * remaining {
+                                k_try = remaining / n;
+                            }
                         }
                         stepper.attempt(k_try);
                         let err = stepper.error_norm(k_try, rtol, atol);

@@ -67,3 +67,39 @@ fn error_control_scales_as_tolerance_two_thirds_against_scipy() {
     }
     assert!(errors[4] < 1e-5, "errors {errors:?}");
 }
+
+/// Error-controlled steps on the ribbon demo: most steps repeat the previous
+/// step to the bit (so the implicit solve keeps its factorisation; a step
+/// that already divides the rest of a snapshot interval is not re-spread),
+/// few trials are rejected (equal steps up to each snapshot instead of a
+/// short last one), and every snapshot is landed on exactly. Thresholds are
+/// common practice, no source: with the step re-spread every time, 84 % of
+/// steps changed; with a short last step, 95 of 1565 trials were rejected.
+#[test]
+fn error_control_holds_steps_and_lands_on_snapshots() {
+    let model = with_tolerance(&load("patterns/ribbon.toml"), 2e-7);
+    let kinetics = anlage::kinetics::build(&model);
+    let tissue = anlage::tissue::Tissue::new(&model);
+    let mut steps = Vec::new();
+    let mut snapshots = Vec::new();
+    let stats = anlage::integrate::integrate_from(
+        &model,
+        kinetics.as_ref(),
+        &tissue,
+        false,
+        None,
+        |t, _| snapshots.push(t),
+        |s, _, _| steps.push((s.last_step(), s.time())),
+    )
+    .unwrap();
+    let changed = steps.windows(2).filter(|w| w[0].0 != w[1].0).count();
+    eprintln!("{} steps, {} changed, {} rejected", steps.len(), changed, stats.rejected);
+    assert!(changed * 3 < steps.len(), "{changed} of {} steps changed size", steps.len());
+    assert!(stats.rejected * 50 < stats.steps, "{} rejected of {}", stats.rejected, stats.steps);
+    let every = model.clock.snapshot_every_min;
+    assert_eq!(snapshots.len(), 61);
+    for (i, t) in snapshots.iter().enumerate().skip(1) {
+        assert_eq!(*t, i as f64 * every, "snapshot {i}");
+        assert!(steps.iter().any(|s| s.1 == *t), "no step ends exactly at snapshot {i}, t = {t}");
+    }
+}

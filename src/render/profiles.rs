@@ -17,6 +17,10 @@ pub fn chosen_snapshots(shown: &[usize]) -> Vec<usize> {
     picks
 }
 
+fn boundary_label(b: &Boundary) -> String {
+    format!("{:.1}%", b.position_pct)
+}
+
 /// Draws the profiles; `final_boundaries` are marked at the last chosen time.
 pub fn profiles(rec: &Recording, final_boundaries: &[Boundary], style: &Style) -> Canvas {
     profiles_with_axes(rec, final_boundaries, style).0
@@ -26,8 +30,28 @@ pub fn profiles(rec: &Recording, final_boundaries: &[Boundary], style: &Style) -
 pub fn profiles_with_axes(rec: &Recording, final_boundaries: &[Boundary], style: &Style) -> (Canvas, Axes) {
     let bg = style.background;
     let width = style.width.max(320);
-    let (left, top, right, bottom) = (64.0, 70.0, 24.0, 70.0);
+    let (left, right, bottom) = (64.0, 24.0, 70.0);
     let plot_h = 300.0;
+    let shown: Vec<(&Boundary, usize)> = final_boundaries
+        .iter()
+        .filter_map(|b| style.genes.iter().find(|&&g| rec.genes[g] == b.gene).map(|&g| (b, g)))
+        .collect();
+    // Boundary labels: a row above the plot, another row wherever two would
+    // overlap; the rows sit between the legend line and the plot, so the
+    // plot moves down when more rows are needed.
+    let along = Axes::along_axis(left, 0.0, right, width, plot_h, (0.0, 1.0), false);
+    let mut placed: Vec<(f32, f32, usize)> = Vec::new();
+    for (b, _) in &shown {
+        let x = along.px(b.position_pct);
+        let half = Canvas::text_width(11.0, &boundary_label(b)) / 2.0 + 3.0;
+        let row = (0..)
+            .find(|r| !placed.iter().any(|(l, rr, pr)| pr == r && x - half < *rr && x + half > *l))
+            .expect("some row is free");
+        placed.push((x - half, x + half, row));
+    }
+    let rows = placed.iter().map(|p| p.2 + 1).max().unwrap_or(0);
+    const LEGEND_LINE: f32 = 46.0;
+    let top = (LEGEND_LINE + 8.0 + 12.0 * rows as f32).max(70.0);
     let mut c = Canvas::new(width, (top + plot_h + bottom) as u32, bg.rgb());
     let picks = chosen_snapshots(&style.snapshots(rec));
     let ymax = picks
@@ -54,28 +78,20 @@ pub fn profiles_with_axes(rec: &Recording, final_boundaries: &[Boundary], style:
             c.polyline(&pts, 2.0, style.colors[g], alpha, dash);
         }
     }
-    // Boundary labels: a row above the plot, a second row where two would overlap.
-    let mut placed: Vec<(f32, f32, usize)> = Vec::new();
-    for b in final_boundaries {
-        if let Some(&g) = style.genes.iter().find(|&&g| rec.genes[g] == b.gene) {
-            let x = a.px(b.position_pct);
-            c.polyline(&[(x, a.top + a.height), (x, a.top)], 1.0, style.colors[g], 160, Some([2.0, 3.0]));
-            let label = format!("{:.1}%", b.position_pct);
-            let half = Canvas::text_width(11.0, &label) / 2.0 + 3.0;
-            let row = (0..8)
-                .find(|r| !placed.iter().any(|(l, rr, pr)| pr == r && x - half < *rr && x + half > *l))
-                .unwrap_or(0);
-            placed.push((x - half, x + half, row));
-            c.text(x, a.top - 4.0 - 12.0 * row as f32, 11.0, style.colors[g], Align::Centre, &label);
-        }
+    for ((b, g), (_, _, row)) in shown.iter().zip(&placed) {
+        let x = a.px(b.position_pct);
+        c.polyline(&[(x, a.top + a.height), (x, a.top)], 1.0, style.colors[*g], 160, Some([2.0, 3.0]));
+        c.text(x, a.top - 4.0 - 12.0 * *row as f32, 11.0, style.colors[*g], Align::Centre, &boundary_label(b));
     }
-    axes::draw(&mut c, &a, "position along the axis (% length)", "level (a.u.)", bg);
+    // The y-axis title on the legend's line, clear of the label rows.
+    axes::draw(&mut c, &a, "position along the axis (% length)", "", bg);
+    c.text(left - 8.0, LEGEND_LINE, 14.0, bg.ink(), Align::Left, "level (a.u.)");
     c.text(left, 24.0, 16.0, bg.ink(), Align::Left, &style.title);
     c.text(width as f32 - right, 24.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
     let times: Vec<String> = picks.iter().map(|&s| time_text(rec.times[s])).collect();
     let note =
         format!("t = {} min (dashed, fainter = earlier); dotted lines: boundaries at the last time", times.join(", "));
     c.text(left, c.height() as f32 - 12.0, 12.0, bg.muted(), Align::Left, &note);
-    legend(&mut c, rec, style, width as f32 - right, 46.0, true);
+    legend(&mut c, rec, style, width as f32 - right, LEGEND_LINE, true);
     (c, a)
 }

@@ -53,28 +53,15 @@ impl Program {
         let mut fused = Vec::with_capacity(code.len());
         let mut i = 0;
         while i < code.len() {
-            match (code[i], code.get(i + 1)) {
-                (Ins::Gene(g), Some(&Ins::Bin(op))) => {
-                    fused.push(Ins::BinGene(op, g));
-                    i += 2;
-                }
-                (Ins::Input(k), Some(&Ins::Bin(op))) => {
-                    fused.push(Ins::BinInput(op, k));
-                    i += 2;
-                }
-                (Ins::Gene(g), Some(&Ins::Un(op))) => {
-                    fused.push(Ins::GeneUn(g, op));
-                    i += 2;
-                }
-                (Ins::Input(k), Some(&Ins::Un(op))) => {
-                    fused.push(Ins::InputUn(k, op));
-                    i += 2;
-                }
-                (ins, _) => {
-                    fused.push(ins);
-                    i += 1;
-                }
-            }
+            let pair = match (code[i], code.get(i + 1)) {
+                (Ins::Gene(g), Some(&Ins::Bin(op))) => Some(Ins::BinGene(op, g)),
+                (Ins::Input(k), Some(&Ins::Bin(op))) => Some(Ins::BinInput(op, k)),
+                (Ins::Gene(g), Some(&Ins::Un(op))) => Some(Ins::GeneUn(g, op)),
+                (Ins::Input(k), Some(&Ins::Un(op))) => Some(Ins::InputUn(k, op)),
+                _ => None,
+            };
+            fused.push(pair.unwrap_or(code[i]));
+            i += if pair.is_some() { 2 } else { 1 };
         }
         (depth <= MAX_DEPTH).then_some(Program { code: fused })
     }

@@ -69,8 +69,9 @@ pub struct RunOptions {
     /// Show a progress bar on stderr when it is a terminal.
     pub progress: bool,
     /// Stream the snapshots to an unnamed scratch file in this folder as they
-    /// are taken, so memory does not grow with them (`anlage run` does so
-    /// when the recording would pass [`STREAM_ABOVE_BYTES`]).
+    /// are taken, so memory does not grow with them. Without a folder, a
+    /// recording larger than [`model::stream_above_bytes`] streams to the
+    /// system's temporary folder (`anlage run` gives its output folder).
     pub stream_to: Option<std::path::PathBuf>,
 }
 
@@ -122,7 +123,11 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
     let tissue = tissue::Tissue::new(model);
     let kinetics = kinetics::build(model);
     let mut recording = Recording::for_model(model);
-    if let Some(dir) = &options.stream_to {
+    // A recording too large for memory streams even when no folder is given
+    // (then to the system's temporary folder), so every caller fits the
+    // budget the model was checked against.
+    let scratch = options.stream_to.clone().or_else(|| model.streams_recording().then(std::env::temp_dir));
+    if let Some(dir) = &scratch {
         recording
             .stream_to(dir)
             .map_err(|e| StepError::Recording(format!("making a scratch file in {}: {e}", dir.display())))?;

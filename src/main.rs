@@ -123,7 +123,7 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             let style_options = look.options();
             // Check the picture options before a long run, against the snapshot times to come.
             Style::with_options(&planned_recording(&model), &model.title, &style_options)?;
-            let streams = *stream || model.recording_bytes() > anlage::STREAM_ABOVE_BYTES;
+            let streams = *stream || model.streams_recording();
             let options =
                 anlage::RunOptions { parallel: true, progress: !quiet, stream_to: streams.then(|| dir.clone()) };
             let plan = (checkpoint_every.is_some() || checkpoint.is_some()).then(|| anlage::Checkpointing {

@@ -79,7 +79,9 @@ pub fn describe(m: &Model) -> String {
             );
         }
     }
-    let _ = writeln!(s, "memory    {} working + {} recording", gib(m.working_bytes()), gib(m.recording_bytes()));
+    let streamed = if m.streams_recording() { " (streamed to disk)" } else { "" };
+    let _ =
+        writeln!(s, "memory    {} working + {} recording{streamed}", gib(m.working_bytes()), gib(m.recording_bytes()));
     let _ = writeln!(s, "genes     {}", m.genes.len());
     for gene in &m.genes {
         let [r, gg, b] = gene.color;

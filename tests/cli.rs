@@ -289,3 +289,45 @@ fn timing_line_and_repeat() {
     assert_eq!(o.status.code(), Some(2));
     std::fs::remove_dir_all(&out).unwrap();
 }
+
+/// A recording too large for the memory budget is streamed to disk, so the
+/// model is accepted and runs, and its states.npy is complete; a model whose
+/// working arrays alone pass the budget is still refused (exit 2). 50,000
+/// nuclei, 1 gene, 101 snapshots: a 40 MB recording and about 5 MB of
+/// working arrays.
+#[test]
+fn small_budget_streams_the_recording_instead_of_refusing() {
+    let dir = temp_dir("budget");
+    let model = dir.join("long_row.toml");
+    std::fs::write(
+        &model,
+        "[tissue]\nnuclei = [50000]\nspacing_um = 1.0\n[clock]\nuntil_min = 100.0\nstep_min = 0.5\n\
+         snapshot_every_min = 1.0\n[[gradient]]\nname = \"head\"\nshape = \"exponential\"\nfrom = \"left\"\n\
+         peak = 1.0\ndecay_length_um = 5000.0\n[[gene]]\nname = \"amber\"\nproduction = 1.0\ndecay = 0.1\n\
+         diffusion = 1.0\n[circuit]\nkinetics = \"hill\"\n[[circuit.link]]\nfrom = \"head\"\nto = \"amber\"\n\
+         sign = \"+\"\nthreshold = 0.5\nhill = 2\n",
+    )
+    .unwrap();
+    let out = dir.join("run");
+    let run = |gib: &str| {
+        Command::new(env!("CARGO_BIN_EXE_anlage"))
+            .args(["run", model.to_str().unwrap(), "--no-pictures", "-q", "-o", out.to_str().unwrap()])
+            .env("ANLAGE_MEMORY_GIB", gib)
+            .output()
+            .unwrap()
+    };
+    // 30 MiB: the whole recording (40 MB) would not fit, the streamed run does.
+    let o = run("0.03");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let npy = std::fs::read(out.join("states.npy")).unwrap();
+    assert!(npy.len() > 101 * 50_000 * 8, "states.npy holds {} bytes", npy.len());
+    // 4 MiB: the working arrays alone do not fit.
+    let o = run("0.004");
+    assert_eq!(o.status.code(), Some(2), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(
+        String::from_utf8_lossy(&o.stderr).contains("over the 4 MiB budget"),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    std::fs::remove_dir_all(&dir).unwrap();
+}

@@ -86,7 +86,7 @@ pub enum ModelError {
         text: String,
     },
     /// The run would need more memory than allowed.
-    #[error("{}:{line}:{column}: `tissue.nuclei` asks for {needed_gib:.1} GiB of memory (working arrays and recording), over the {budget_gib:.1} GiB budget; use fewer nuclei, genes or snapshots, or raise the budget with ANLAGE_MEMORY_GIB=<GiB>", file.display())]
+    #[error("{}:{line}:{column}: `tissue.nuclei` asks for {} of memory (working arrays and the part of the recording held in memory), over the {} budget; use fewer nuclei, genes or snapshots, or raise the budget with ANLAGE_MEMORY_GIB=<GiB>", file.display(), size_text(*needed_gib), size_text(*budget_gib))]
     TooLarge {
         /// File.
         file: PathBuf,
@@ -99,4 +99,10 @@ pub enum ModelError {
         /// Allowed, GiB.
         budget_gib: f64,
     },
+}
+
+/// A memory size given in GiB, for messages: GiB with one decimal from 1 GiB
+/// up, whole MiB below.
+fn size_text(gib: f64) -> String {
+    if gib >= 1.0 { format!("{gib:.1} GiB") } else { format!("{:.0} MiB", gib * 1024.0) }
 }

@@ -40,6 +40,14 @@ pub fn memory_budget_bytes() -> Result<u64, String> {
     }
 }
 
+/// Recordings larger than this are streamed to a scratch file rather than
+/// held in memory, bytes: [`crate::STREAM_ABOVE_BYTES`], or a quarter of a
+/// smaller memory budget (so a streamed run always fits the budget's check).
+pub fn stream_above_bytes() -> u64 {
+    let budget = memory_budget_bytes().unwrap_or(MEMORY_BUDGET_BYTES);
+    crate::STREAM_ABOVE_BYTES.min(budget / 4)
+}
+
 /// A checked model.
 #[derive(Debug, Clone)]
 pub struct Model {
@@ -101,9 +109,22 @@ impl Model {
         self.clock.snapshot_times().len()
     }
 
-    /// Bytes of the in-memory recording: snapshots × genes × nuclei × 8.
+    /// Bytes of the whole recording: snapshots × genes × nuclei × 8.
     pub fn recording_bytes(&self) -> u64 {
         self.snapshot_count() as u64 * self.genes.len() as u64 * self.grid.len() as u64 * 8
+    }
+
+    /// True if a run of this model streams its recording to a scratch file
+    /// (it is larger than [`stream_above_bytes`]).
+    pub fn streams_recording(&self) -> bool {
+        self.recording_bytes() > stream_above_bytes()
+    }
+
+    /// Bytes a run holds in memory: the working arrays, plus the recording
+    /// unless it is streamed (then a snapshot's worth of buffers at most,
+    /// counted as the stream threshold).
+    pub fn resident_bytes(&self) -> u64 {
+        self.working_bytes() + self.recording_bytes().min(stream_above_bytes())
     }
 
     /// Bytes of the integrator's working arrays: state history and rates (7 per

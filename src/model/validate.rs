@@ -100,7 +100,7 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
         let checked = super::mutant::check_mutant(&model, m.get_ref(), &m.span(), src)?;
         model.mutants.push(checked);
     }
-    let needed = model.working_bytes() + model.recording_bytes();
+    let needed = model.resident_bytes();
     let budget = super::memory_budget_bytes().map_err(|text| ModelError::BadBudget { text })?;
     if needed > budget {
         let (line, column) = src.locate(&spec.tissue.span(), "nuclei");

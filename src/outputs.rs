@@ -145,9 +145,7 @@ pub fn write_basins(
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
     let analysis = crate::phase::analyse(model, rec, opts);
     let last = rec.times.len() - 1;
-    let hi: Vec<f64> = (0..rec.genes.len())
-        .map(|g| 1.2 * rec.states().map(|s| s.row(g).iter().copied().fold(0.0, f64::max)).fold(1e-3, f64::max))
-        .collect();
+    let hi: Vec<f64> = rec.max_levels(0..rec.len()).into_iter().map(|m| 1.2 * m.max(1e-3)).collect();
     let landscape = crate::phase::landscape(model, rec.times[last], &hi);
     let path = |name: &str| dir.join(name);
     export::write_attractors(rec, &analysis, &path("attractors.csv"))?;

@@ -76,7 +76,7 @@ pub fn write_atomic(path: &Path, body: impl FnOnce(&mut dyn Write) -> std::io::R
 /// # Errors
 /// [`ExportError`] if the file cannot be written.
 pub fn write_states_npy(rec: &crate::integrate::Recording, path: &Path) -> Result<(), ExportError> {
-    let (g, n) = rec.state(0).dim();
+    let (g, n) = (rec.genes.len(), rec.grid.len());
     let shape = if rec.grid.is_sheet() {
         format!("({}, {g}, {}, {})", rec.len(), rec.grid.ny, rec.grid.nx)
     } else {

@@ -183,6 +183,19 @@ impl Recording {
         }
     }
 
+    /// Largest level of each gene over the given snapshots (0 for none), a.u.:
+    /// one read of each snapshot, however many genes.
+    pub fn max_levels(&self, snapshots: impl IntoIterator<Item = usize>) -> Vec<f64> {
+        let mut top = vec![0.0f64; self.genes.len()];
+        for s in snapshots {
+            let state = self.state(s);
+            for (m, row) in top.iter_mut().zip(state.outer_iter()) {
+                *m = row.iter().copied().fold(*m, f64::max);
+            }
+        }
+        top
+    }
+
     /// Every state in time order, one at a time.
     pub fn states(&self) -> impl Iterator<Item = Cow<'_, Array2<f64>>> + '_ {
         (0..self.len()).map(|s| self.state(s))

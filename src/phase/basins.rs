@@ -87,9 +87,10 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
     let tissue = Tissue::new(model);
     let (n_genes, n) = (rec.genes.len(), rec.grid.len());
     // Box of starting points: 1.2 × the larger of the recorded maximum and p/d.
+    let seen = rec.max_levels(0..rec.len());
     let hi: Vec<f64> = (0..n_genes)
         .map(|g| {
-            let seen = rec.states().map(|s| s.row(g).iter().copied().fold(0.0, f64::max)).fold(0.0, f64::max);
+            let seen = seen[g];
             let gene = &model.genes[g];
             let cap = if gene.decay > 0.0 { gene.production / gene.decay } else { 0.0 };
             (1.2 * seen.max(cap)).max(1e-3)
@@ -106,12 +107,13 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
         .iter()
         .enumerate()
         .map(|(s, &t)| {
-            let m = tissue.inputs_with_state(t, &rec.state(s));
+            let state = rec.state(s);
+            let m = tissue.inputs_with_state(t, &state);
             let influx: Vec<Vec<f64>> = (0..n_genes)
                 .map(|g| {
                     let mut lap = vec![0.0; n];
                     if opts.with_influx {
-                        laplacian(&rec.grid, rec.state(s).row(g).as_slice().expect("contiguous"), &mut lap);
+                        laplacian(&rec.grid, state.row(g).as_slice().expect("contiguous"), &mut lap);
                         lap.iter_mut().for_each(|v| *v *= model.genes[g].diffusion);
                     }
                     lap
@@ -163,12 +165,13 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
         .par_iter()
         .enumerate()
         .map(|(s, row)| {
+            let at_s = rec.state(s);
             row.iter()
                 .enumerate()
                 .map(|(i, (m, q))| {
                     let points = points_of[&key(m, q)].clone();
                     let sys = Frozen { kinetics: kinetics.as_ref(), inputs: m.clone(), influx: q.clone() };
-                    let state = rec.state(s).column(i).to_vec();
+                    let state = at_s.column(i).to_vec();
                     let f = fate(&sys, &state, &points, 1e-4 * scale, horizon);
                     let (label, distance) = match &f {
                         Fate::Point(k) => {

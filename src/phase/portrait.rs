@@ -47,8 +47,9 @@ pub fn portrait_data(model: &Model, rec: &Recording, nucleus: usize, a: usize, b
     let full = Frozen { kinetics: kinetics.as_ref(), inputs, influx: vec![0.0; n_genes] };
     let state = rec.state(s).column(nucleus).to_vec();
     let sys = Slice { full: &full, base: state.clone(), a, b };
+    let seen = rec.max_levels(0..rec.len());
     let top = |g: usize| {
-        let seen = rec.states().map(|st| st.row(g).iter().copied().fold(0.0, f64::max)).fold(0.0, f64::max);
+        let seen = seen[g];
         let gene = &model.genes[g];
         let cap = if gene.decay > 0.0 { gene.production / gene.decay } else { 0.0 };
         1.1 * seen.max(cap).max(1e-6)

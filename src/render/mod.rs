@@ -98,12 +98,7 @@ impl Style {
 /// Largest level of each gene over the shown snapshots (1 where a gene is blank),
 /// the scale that maps a level to colour intensity.
 pub fn gene_maxima(rec: &Recording, snapshots: &[usize]) -> Vec<f64> {
-    (0..rec.genes.len())
-        .map(|g| {
-            let m = snapshots.iter().flat_map(|&s| rec.state(s).row(g).to_vec()).fold(0.0f64, f64::max);
-            if m > 0.0 { m } else { 1.0 }
-        })
-        .collect()
+    rec.max_levels(snapshots.iter().copied()).into_iter().map(|m| if m > 0.0 { m } else { 1.0 }).collect()
 }
 
 /// Level of gene `g` at axis position `x_um` at snapshot `s`, linear between

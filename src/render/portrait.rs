@@ -50,9 +50,10 @@ pub fn write_cloud_gif(
         .map(|s| {
             let mut c = Canvas::new(base.width(), base.height(), style.background.rgb());
             c.copy_from(&base);
+            let state = rec.state(s);
             for ix in 0..nx {
                 let i = row0 + ix;
-                let (x, y) = (a.px(rec.state(s)[[ga, i]]), a.py(rec.state(s)[[gb, i]]));
+                let (x, y) = (a.px(state[[ga, i]]), a.py(state[[gb, i]]));
                 let color = super::colour::sequential(ix as f64 / (nx.max(2) - 1) as f64);
                 c.ellipse(x, y, 3.5, 3.5, 1.0, style.background.rgb(), Some(color));
             }

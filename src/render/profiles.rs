@@ -54,11 +54,8 @@ pub fn profiles_with_axes(rec: &Recording, final_boundaries: &[Boundary], style:
     let top = (LEGEND_LINE + 8.0 + 12.0 * rows as f32).max(70.0);
     let mut c = Canvas::new(width, (top + plot_h + bottom) as u32, bg.rgb());
     let picks = chosen_snapshots(&style.snapshots(rec));
-    let ymax = picks
-        .iter()
-        .flat_map(|&s| style.genes.iter().map(move |&g| (s, g)))
-        .map(|(s, g)| rec.state(s).row(g).iter().copied().fold(0.0f64, f64::max))
-        .fold(0.0f64, f64::max);
+    let top_levels = rec.max_levels(picks.iter().copied());
+    let ymax = style.genes.iter().map(|&g| top_levels[g]).fold(0.0f64, f64::max);
     let ymax = if ymax > 0.0 { ymax * 1.05 } else { 1.0 };
     let a = Axes::along_axis(left, top, right, width, plot_h, (0.0, ymax), false);
     let length = rec.grid.length_um();

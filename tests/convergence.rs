@@ -103,3 +103,50 @@ fn error_control_holds_steps_and_lands_on_snapshots() {
         assert!(steps.iter().any(|s| s.1 == *t), "no step ends exactly at snapshot {i}, t = {t}");
     }
 }
+
+/// Fixed steps build each trial over the previous state and hold two states
+/// (`Stepper::accept_every_step`); that saves memory traffic only and must
+/// give the same bytes as the general path, which holds three. Checked on
+/// the ribbon demo (a row, Thomas sweeps) and the spots demo (a sheet,
+/// cosine transforms), on one thread and split between threads.
+#[test]
+fn fixed_steps_in_place_give_the_same_bytes_as_the_general_path() {
+    use anlage::integrate::{Stepper, forcing, initial_state};
+    for (path, step, steps) in [("patterns/ribbon.toml", 0.5, 40), ("patterns/spots.toml", 0.2, 20)] {
+        let model = load(path);
+        let tissue = anlage::tissue::Tissue::new(&model);
+        let kinetics = anlage::kinetics::build(&model);
+        let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
+        let names: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
+        for parallel in [false, true] {
+            let start = |lean: bool| {
+                let mut s = Stepper::new(
+                    kinetics.as_ref(),
+                    &tissue,
+                    &d,
+                    names.clone(),
+                    initial_state(&model),
+                    0.0,
+                    parallel,
+                    forcing(&model),
+                )
+                .unwrap();
+                if lean {
+                    s.accept_every_step();
+                }
+                s
+            };
+            let (mut general, mut lean) = (start(false), start(true));
+            for n in 1..=steps {
+                for s in [&mut general, &mut lean] {
+                    s.attempt(step);
+                    s.accept(step, n as f64 * step).unwrap();
+                }
+                assert_eq!(general.state(), lean.state(), "{path}, step {n}");
+                assert_eq!(general.rates(), lean.rates(), "{path}, step {n}");
+            }
+            assert_eq!(lean.history(), 2);
+            assert_eq!(general.history(), 3);
+        }
+    }
+}

@@ -174,6 +174,7 @@ pub fn integrate_from(
     match model.clock.stepping {
         Stepping::Fixed { step_min } => {
             let total = model.clock.fixed_steps().expect("fixed stepping");
+            stepper.accept_every_step();
             while progress.steps_taken < total {
                 let n = progress.steps_taken + 1;
                 let t_new = n as f64 * step_min;

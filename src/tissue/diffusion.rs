@@ -166,8 +166,9 @@ enum Solver {
 pub struct Rhs<'a> {
     /// State.
     pub u: &'a [f64],
-    /// Previous state.
-    pub u1: &'a [f64],
+    /// Previous state; `None` when the output array already holds it (it is
+    /// then overwritten value by value, which keeps one array fewer in cache).
+    pub u1: Option<&'a [f64]>,
     /// Rates.
     pub f: &'a [f64],
     /// Previous rates.
@@ -182,9 +183,20 @@ impl Rhs<'_> {
     pub fn fill(&self, offset: usize, out: &mut [f64]) {
         let [cu, cu1, kf, cf, cf1] = self.c;
         let end = offset + out.len();
-        let (u, u1, f, f1) = (&self.u[offset..end], &self.u1[offset..end], &self.f[offset..end], &self.f1[offset..end]);
-        for ((((r, &u), &u1), &f), &f1) in out.iter_mut().zip(u).zip(u1).zip(f).zip(f1) {
-            *r = cu * u - cu1 * u1 + kf * (cf * f - cf1 * f1);
+        let (u, f, f1) = (&self.u[offset..end], &self.f[offset..end], &self.f1[offset..end]);
+        let value = |u: f64, u1: f64, f: f64, f1: f64| cu * u - cu1 * u1 + kf * (cf * f - cf1 * f1);
+        match self.u1 {
+            Some(u1) => {
+                let u1 = &u1[offset..end];
+                for ((((r, &u), &u1), &f), &f1) in out.iter_mut().zip(u).zip(u1).zip(f).zip(f1) {
+                    *r = value(u, u1, f, f1);
+                }
+            }
+            None => {
+                for (((r, &u), &f), &f1) in out.iter_mut().zip(u).zip(f).zip(f1) {
+                    *r = value(u, *r, f, f1);
+                }
+            }
         }
     }
 }

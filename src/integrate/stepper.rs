@@ -357,7 +357,7 @@ impl<'a> Stepper<'a> {
     fn evaluate_rates(&mut self) -> Result<(), StepError> {
         if self.tissue.time_varying() {
             self.tissue.fill_inputs(self.t, &mut self.inputs);
-        } else {
+        } else if self.kinetics.reads_time() {
             self.tissue.fill_time(self.t, &mut self.inputs);
         }
         self.tissue.fill_neighbours(&self.u, &mut self.inputs);

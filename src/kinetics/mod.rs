@@ -27,6 +27,12 @@ pub trait Kinetics: Send + Sync {
     /// Writes `f(u, m)` for a chunk of at most [`CHUNK`] nuclei, a.u./min.
     fn rates(&self, u: ArrayView2<f64>, m: ArrayView2<f64>, out: ArrayViewMut2<f64>);
 
+    /// True if the rates read the time row of the inputs (else the
+    /// integrator need not refill it every step).
+    fn reads_time(&self) -> bool {
+        false
+    }
+
     /// Writes `∂f_g/∂u_j` for one nucleus into `jac[g·G + j]`, 1/min.
     fn jacobian(&self, u: &[f64], m: &[f64], jac: &mut [f64]);
 

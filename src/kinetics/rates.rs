@@ -60,6 +60,7 @@ pub struct RatesKinetics {
     inner: Option<Box<dyn Kinetics>>,
     rates: Vec<GeneRate>,
     n: usize,
+    reads_time: bool,
 }
 
 impl RatesKinetics {
@@ -71,6 +72,8 @@ impl RatesKinetics {
         let names =
             ModelNames { genes: &model.genes, gradients: &model.gradients, parameters: &model.circuit.parameters };
         let n = model.genes.len();
+        let time = model.gradients.len() + 1;
+        let mut reads_time = false;
         let rates = model
             .genes
             .iter()
@@ -78,11 +81,12 @@ impl RatesKinetics {
             .filter_map(|(g, gene)| gene.rate.as_ref().map(|t| (g, t)))
             .map(|(gene, text)| {
                 let e = expr::simplify(expr::parse(text, &names).expect("checked when the model was loaded"));
+                reads_time |= e.reads_input(&|k| k == time);
                 let compile = |e: &Expr| Program::compile(e).expect("expression within the stack limit");
                 GeneRate { gene, rate: compile(&e), jacobian: (0..n).map(|j| compile(&e.derivative(j))).collect() }
             })
             .collect();
-        RatesKinetics { inner, rates, n }
+        RatesKinetics { inner, rates, n, reads_time }
     }
 }
 
@@ -98,6 +102,10 @@ impl Kinetics for RatesKinetics {
             let mut row = out.row_mut(r.gene);
             r.rate.run(&gene, &input, len, row.as_slice_mut().expect("contiguous gene row"));
         }
+    }
+
+    fn reads_time(&self) -> bool {
+        self.reads_time
     }
 
     fn jacobian(&self, u: &[f64], m: &[f64], jac: &mut [f64]) {

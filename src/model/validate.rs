@@ -59,7 +59,7 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
                     "fix the expression",
                 )
             })?;
-            neighbours |= e.reads_input_from(gradients.len() + 2);
+            neighbours |= e.reads_input(&|k| k >= gradients.len() + 2);
         }
     }
     circuit.neighbours = neighbours;

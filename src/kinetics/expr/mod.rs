@@ -69,26 +69,24 @@ fn bin(op: Op, a: Expr, b: Expr) -> Expr {
 }
 
 impl Expr {
-    /// True if the expression reads gene `g`.
-    pub fn depends_on(&self, g: usize) -> bool {
+    /// True if some leaf (number, gene or input) has `leaf(e)`.
+    fn any_leaf(&self, leaf: &impl Fn(&Expr) -> bool) -> bool {
         match self {
-            Expr::Gene(i) => *i == g,
-            Expr::Num(_) | Expr::Input(_) => false,
-            Expr::Neg(a) => a.depends_on(g),
-            Expr::Bin(_, a, b) => a.depends_on(g) || b.depends_on(g),
-            Expr::Call(_, args) => args.iter().any(|a| a.depends_on(g)),
+            Expr::Num(_) | Expr::Gene(_) | Expr::Input(_) => leaf(self),
+            Expr::Neg(a) => a.any_leaf(leaf),
+            Expr::Bin(_, a, b) => a.any_leaf(leaf) || b.any_leaf(leaf),
+            Expr::Call(_, args) => args.iter().any(|a| a.any_leaf(leaf)),
         }
     }
 
-    /// True if the expression reads an input row with index ≥ `first`.
-    pub fn reads_input_from(&self, first: usize) -> bool {
-        match self {
-            Expr::Input(k) => *k >= first,
-            Expr::Num(_) | Expr::Gene(_) => false,
-            Expr::Neg(a) => a.reads_input_from(first),
-            Expr::Bin(_, a, b) => a.reads_input_from(first) || b.reads_input_from(first),
-            Expr::Call(_, args) => args.iter().any(|a| a.reads_input_from(first)),
-        }
+    /// True if the expression reads gene `g`.
+    pub fn depends_on(&self, g: usize) -> bool {
+        self.any_leaf(&|e| matches!(e, Expr::Gene(i) if *i == g))
+    }
+
+    /// True if the expression reads an input row whose index `k` has `wanted(k)`.
+    pub fn reads_input(&self, wanted: &impl Fn(usize) -> bool) -> bool {
+        self.any_leaf(&|e| matches!(e, Expr::Input(k) if wanted(*k)))
     }
 
     /// ∂/∂(gene g), simplified.

@@ -2,8 +2,8 @@
 //! channels, boundaries traced as thin lines.
 
 use super::axes::{self, Axes};
-use super::canvas::{Align, Canvas};
-use super::{PREDICTION_LABEL, Style, gene_maxima, legend, level_at};
+use super::canvas::Canvas;
+use super::{Style, gene_maxima, legend, level_at, title_and_label};
 use crate::integrate::Recording;
 use crate::readout::Boundary;
 
@@ -71,8 +71,7 @@ pub fn space_time(
         }
     }
     axes::draw(&mut c, &a, "position along the axis (% length)", y_label, bg);
-    c.text(left, 26.0, 16.0, bg.ink(), Align::Left, &style.title);
-    c.text(width as f32 - right, 26.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
+    title_and_label(&mut c, left, width as f32 - right, 26.0, bg, &style.title);
     (c, a)
 }
 

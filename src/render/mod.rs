@@ -119,6 +119,41 @@ pub fn level_at(profile: &[f64], spacing_um: f64, x_um: f64) -> f64 {
 /// Text used on every picture that could pass for data.
 pub const PREDICTION_LABEL: &str = "model prediction";
 
+/// Title size, px, and the smallest a long title is shrunk to.
+const TITLE_SIZE: (f32, f32) = (16.0, 12.0);
+
+/// Draws a picture's title from `x` at baseline `y`, within `max_w` px: at
+/// 16 px, shrunk (to 12 px at least) if it would not fit, and cut short with
+/// "…" if even that does not fit, so it never runs into what sits to its right.
+pub fn title(canvas: &mut Canvas, x: f32, y: f32, max_w: f32, ink: [u8; 3], text: &str) {
+    let (size, shown) = fit_title(text, max_w);
+    canvas.text(x, y, size, ink, Align::Left, &shown);
+}
+
+/// The size and text [`title`] draws.
+fn fit_title(text: &str, max_w: f32) -> (f32, String) {
+    let (mut size, least) = TITLE_SIZE;
+    while size > least && Canvas::text_width(size, text) > max_w {
+        size -= 0.25;
+    }
+    let mut shown = text.to_string();
+    let mut keep = text.chars().count();
+    while Canvas::text_width(size, &shown) > max_w && keep > 0 {
+        keep -= 1;
+        shown = format!("{}…", text.chars().take(keep).collect::<String>().trim_end());
+    }
+    (size, shown)
+}
+
+/// [`title`] from `left`, and the [`PREDICTION_LABEL`] right-aligned at
+/// `right_edge` on the same baseline; the title keeps clear of the label.
+pub fn title_and_label(canvas: &mut Canvas, left: f32, right_edge: f32, y: f32, bg: Background, text: &str) {
+    const GAP: f32 = 12.0;
+    let label_w = Canvas::text_width(12.0, PREDICTION_LABEL);
+    title(canvas, left, y, right_edge - label_w - GAP - left, bg.ink(), text);
+    canvas.text(right_edge, y, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
+}
+
 /// A "nice" length for a scale bar of about a fifth of `length_um`: 1, 2 or 5 × 10^k µm.
 pub fn scale_bar_um(length_um: f64) -> f64 {
     let target = length_um / 5.0;
@@ -164,6 +199,24 @@ pub fn time_text(t: f64) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn titles_shrink_then_shorten_to_fit() {
+        let text = "Salt and pepper: lateral inhibition between neighbouring cells";
+        let full = Canvas::text_width(16.0, text);
+        assert_eq!(fit_title(text, full + 1.0), (16.0, text.to_string()));
+        let (size, shown) = fit_title(text, full * 0.9);
+        assert!((12.0..16.0).contains(&size) && shown == text, "{size} {shown}");
+        assert!(Canvas::text_width(size, &shown) <= full * 0.9);
+        let (size, shown) = fit_title(text, full * 0.5);
+        assert_eq!(size, 12.0);
+        assert!(shown.ends_with('…') && shown.len() < text.len(), "{shown}");
+        assert!(Canvas::text_width(size, &shown) <= full * 0.5);
+        assert!(
+            Canvas::text_width(size, &shown) > full * 0.5 - Canvas::text_width(12.0, "MM…"),
+            "cut no shorter than needed"
+        );
+    }
 
     #[test]
     fn scale_bar_is_nice() {

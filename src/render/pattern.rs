@@ -4,7 +4,7 @@
 //! With the time, a scale bar, a legend and the "model prediction" label.
 
 use super::canvas::{Align, Canvas};
-use super::{PREDICTION_LABEL, Style, legend, level_at, scale_bar_um, time_text};
+use super::{PREDICTION_LABEL, Style, legend, level_at, scale_bar_um, time_text, title};
 use crate::integrate::Recording;
 
 /// Where things are on a pattern picture.
@@ -114,8 +114,10 @@ pub fn pattern(rec: &Recording, s: usize, style: &Style, max: &[f64]) -> (Canvas
     let ink = bg.ink();
     c.rect(bar.0, bar.2 - 2.0, bar.1 - bar.0, 4.0, ink);
     c.text((bar.0 + bar.1) / 2.0, bar.2 + 20.0, 13.0, ink, Align::Centre, &format!("{} µm", bar.3));
-    c.text(margin, 28.0, 16.0, ink, Align::Left, &style.title);
-    c.text(width as f32 - margin, 28.0, 18.0, ink, Align::Right, &format!("t = {} min", time_text(rec.times[s])));
+    let clock = format!("t = {} min", time_text(rec.times[s]));
+    let clock_w = Canvas::text_width(18.0, &clock);
+    title(&mut c, margin, 28.0, width as f32 - 2.0 * margin - clock_w - 10.0, ink, &style.title);
+    c.text(width as f32 - margin, 28.0, 18.0, ink, Align::Right, &clock);
     c.text(width as f32 - margin, 48.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
     let h = c.height() as f32;
     legend(&mut c, rec, style, width as f32 - margin, h - 18.0, true);

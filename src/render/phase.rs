@@ -5,7 +5,7 @@ use super::axes::{self, Axes};
 use super::canvas::{Align, Canvas};
 use super::colour::{Background, mix};
 use super::kymograph::space_time;
-use super::{PREDICTION_LABEL, Style, time_text};
+use super::{PREDICTION_LABEL, Style, time_text, title};
 use crate::integrate::Recording;
 use crate::phase::{BasinAnalysis, Landscape};
 
@@ -127,14 +127,8 @@ pub fn landscape_picture(rec: &Recording, l: &Landscape, gene: usize, style: &St
         &format!("{} at fixed points (a.u.)", rec.genes[gene]),
         bg,
     );
-    c.text(
-        left,
-        24.0,
-        16.0,
-        bg.ink(),
-        Align::Left,
-        &format!("Attractors along the axis: isolated nucleus, gradients at t = {} min", time_text(l.t_min)),
-    );
+    let heading = format!("Attractors along the axis: isolated nucleus, gradients at t = {} min", time_text(l.t_min));
+    title(&mut c, left, 24.0, width as f32 - right - left, bg.ink(), &heading);
     c.text(width as f32 - right, 44.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
     let note = "solid: stable branch   dashed: unstable   dots: each nucleus's fixed points   rings: folds";
     c.text(left, c.height() as f32 - 10.0, 12.0, bg.muted(), Align::Left, note);

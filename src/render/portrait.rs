@@ -5,7 +5,7 @@
 
 use super::axes::{self, Axes};
 use super::canvas::{Align, Canvas};
-use super::{PREDICTION_LABEL, Style, time_text};
+use super::{Style, time_text, title_and_label};
 use crate::integrate::Recording;
 use crate::phase::Kind;
 pub use crate::phase::PortraitData;
@@ -141,21 +141,14 @@ fn portrait_with_axes(rec: &Recording, d: &PortraitData, style: &Style, trajecto
     }
     axes::draw(&mut c, &a, &format!("{} (a.u.)", rec.genes[ga]), &format!("{} (a.u.)", rec.genes[gb]), bg);
     let x_um = rec.grid.x_um(d.nucleus % rec.grid.nx);
-    c.text(
-        left,
-        26.0,
-        16.0,
-        bg.ink(),
-        Align::Left,
-        &format!("Phase portrait, nucleus {} (x = {:.0} µm)", d.nucleus, x_um),
-    );
+    let heading = format!("Phase portrait, nucleus {} (x = {:.0} µm)", d.nucleus, x_um);
+    title_and_label(&mut c, left, width as f32 - right, 26.0, bg, &heading);
     let mut sub = format!("isolated nucleus: gradients frozen at t = {} min", time_text(d.t_min));
     if !d.slice.is_empty() {
         let held: Vec<String> = d.slice.iter().map(|(g, v)| format!("{g} = {v:.3}")).collect();
         sub.push_str(&format!("; slice at {}", held.join(", ")));
     }
     c.text(left, 46.0, 13.0, bg.muted(), Align::Left, &sub);
-    c.text(width as f32 - right, 26.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
     let y0 = top + side + 52.0;
     let muted = bg.muted();
     let lines = if trajectories {

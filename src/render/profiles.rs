@@ -2,7 +2,7 @@
 
 use super::axes::{self, Axes};
 use super::canvas::{Align, Canvas};
-use super::{PREDICTION_LABEL, Style, legend, level_at, time_text};
+use super::{Style, legend, level_at, time_text, title_and_label};
 use crate::integrate::Recording;
 use crate::readout::Boundary;
 
@@ -83,8 +83,7 @@ pub fn profiles_with_axes(rec: &Recording, final_boundaries: &[Boundary], style:
     // The y-axis title on the legend's line, clear of the label rows.
     axes::draw(&mut c, &a, "position along the axis (% length)", "", bg);
     c.text(left - 8.0, LEGEND_LINE, 14.0, bg.ink(), Align::Left, "level (a.u.)");
-    c.text(left, 24.0, 16.0, bg.ink(), Align::Left, &style.title);
-    c.text(width as f32 - right, 24.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
+    title_and_label(&mut c, left, width as f32 - right, 24.0, bg, &style.title);
     let times: Vec<String> = picks.iter().map(|&s| time_text(rec.times[s])).collect();
     let note =
         format!("t = {} min (dashed, fainter = earlier); dotted lines: boundaries at the last time", times.join(", "));

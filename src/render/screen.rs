@@ -4,7 +4,7 @@
 use super::axes::{self, Axes};
 use super::canvas::{Align, Canvas};
 use super::colour::diverging;
-use super::{PREDICTION_LABEL, Style};
+use super::{Style, title_and_label};
 use crate::screen::{Screen, SensitivityRow};
 
 /// Most mutant rows a chart shows.
@@ -89,10 +89,10 @@ pub fn shift_chart(s: &Screen, genes: &[String], style: &Style) -> Canvas {
         c.text(px, b + 19.0, 13.0, ink, Align::Centre, &format!("{x}"));
     }
     c.text(l + a.width / 2.0, b + 40.0, 14.0, ink, Align::Centre, "boundary position (% length)");
-    c.text(16.0, 26.0, 16.0, ink, Align::Left, &format!("{}: boundary shifts in mutants", style.title));
+    let heading = format!("{}: boundary shifts in mutants", style.title);
+    title_and_label(&mut c, 16.0, width as f32 - right, 26.0, bg, &heading);
     let note = "ring: wild type; dot: mutant; cross: lost";
     c.text(16.0, 48.0, 12.0, bg.muted(), Align::Left, note);
-    c.text(width as f32 - right, 26.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
     let mut pen = width as f32 - right;
     for (g, name) in genes.iter().enumerate().rev() {
         let w = Canvas::text_width(13.0, name);
@@ -154,7 +154,7 @@ pub fn sensitivity_map(rows: &[SensitivityRow], style: &Style) -> Canvas {
         }
     }
     let step = rows.first().map_or(0.0, |r| r.step_ln);
-    c.text(16.0, 26.0, 16.0, bg.ink(), Align::Left, &format!("{}: boundary sensitivity", style.title));
+    title_and_label(&mut c, 16.0, width as f32 - 24.0, 26.0, bg, &format!("{}: boundary sensitivity", style.title));
     c.text(
         16.0,
         46.0,
@@ -163,7 +163,6 @@ pub fn sensitivity_map(rows: &[SensitivityRow], style: &Style) -> Canvas {
         Align::Left,
         &format!("d position / d ln parameter, % length (central differences, step {step} in ln p)"),
     );
-    c.text(width as f32 - 24.0, 26.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
     let yb = height as f32 - 40.0;
     for k in 0..160 {
         c.rect(left + k as f32, yb, 1.0, 12.0, diverging(k as f64 / 79.5 - 1.0));

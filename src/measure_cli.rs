@@ -220,7 +220,7 @@ pub fn synthesize_verb(run_dir: &Path, out: &Path, count: usize, seed: u64) -> a
         ));
     }
     let last = rec.times.len() - 1;
-    let profiles: Vec<Vec<f64>> = (0..rec.genes.len().min(3)).map(|g| rec.axis_profile(last, g)).collect();
+    let profiles = rec.axis_profiles(last, 0..rec.genes.len().min(3));
     let maxima: Vec<f64> = profiles.iter().map(|p| p.iter().copied().fold(1e-12, f64::max)).collect();
     std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
     for k in 0..count {

@@ -223,14 +223,20 @@ impl Recording {
         start..start + band
     }
 
-    /// Profile of gene `g` along the axis at snapshot `s`, one value per column:
-    /// the row itself, or on a sheet the mean over the [`Self::midline_rows`].
-    pub fn axis_profile(&self, s: usize, g: usize) -> Vec<f64> {
+    /// Profiles along the axis at snapshot `s` of the given genes (in that
+    /// order), one value per column: the row itself, or on a sheet the mean
+    /// over the [`Self::midline_rows`]. The snapshot is read once.
+    pub fn axis_profiles(&self, s: usize, genes: impl IntoIterator<Item = usize>) -> Vec<Vec<f64>> {
         let state = self.state(s);
-        let row = state.row(g);
         let nx = self.grid.nx;
         let rows = self.midline_rows();
         let n = rows.len() as f64;
-        (0..nx).map(|ix| rows.clone().map(|iy| row[iy * nx + ix]).sum::<f64>() / n).collect()
+        genes
+            .into_iter()
+            .map(|g| {
+                let row = state.row(g);
+                (0..nx).map(|ix| rows.clone().map(|iy| row[iy * nx + ix]).sum::<f64>() / n).collect()
+            })
+            .collect()
     }
 }

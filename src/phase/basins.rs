@@ -101,8 +101,8 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
     let slowest = model.genes.iter().map(|g| g.decay).filter(|d| *d > 0.0).fold(f64::INFINITY, f64::min);
     let horizon = if slowest.is_finite() { 60.0 / slowest } else { 60.0 * model.clock.until_min };
 
-    // Frozen inputs of every (snapshot, nucleus).
-    let frozen: Vec<Vec<(Vec<f64>, Vec<f64>)>> = rec
+    // Frozen inputs and state of every (snapshot, nucleus), each snapshot read once.
+    let frozen: Vec<Vec<(Vec<f64>, Vec<f64>, Vec<f64>)>> = rec
         .times
         .iter()
         .enumerate()
@@ -119,7 +119,9 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
                     lap
                 })
                 .collect();
-            (0..n).map(|i| (m.column(i).to_vec(), influx.iter().map(|q| q[i]).collect())).collect()
+            (0..n)
+                .map(|i| (m.column(i).to_vec(), influx.iter().map(|q| q[i]).collect(), state.column(i).to_vec()))
+                .collect()
         })
         .collect();
 
@@ -128,7 +130,7 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
     let mut groups: HashMap<Vec<u64>, Vec<(usize, usize)>> = HashMap::new();
     let mut order: Vec<Vec<u64>> = Vec::new();
     for (s, row) in frozen.iter().enumerate() {
-        for (i, (m, q)) in row.iter().enumerate() {
+        for (i, (m, q, _)) in row.iter().enumerate() {
             let k = key(m, q);
             groups.entry(k.clone()).or_insert_with(|| {
                 order.push(k.clone());
@@ -143,10 +145,10 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
         .map(|k| {
             let members = &groups[k];
             let (s0, i0) = members[0];
-            let (m, q) = &frozen[s0][i0];
+            let (m, q, _) = &frozen[s0][i0];
             let sys = Frozen { kinetics: kinetics.as_ref(), inputs: m.clone(), influx: q.clone() };
             let mut starts = base.clone();
-            starts.extend(members.iter().map(|&(s, i)| rec.state(s).column(i).to_vec()));
+            starts.extend(members.iter().map(|&(s, i)| frozen[s][i].2.clone()));
             Arc::new(find_fixed_points(&sys, &starts, tol, true))
         })
         .collect();
@@ -163,16 +165,12 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
 
     let basins: Vec<Vec<NucleusBasin>> = frozen
         .par_iter()
-        .enumerate()
-        .map(|(s, row)| {
-            let at_s = rec.state(s);
+        .map(|row| {
             row.iter()
-                .enumerate()
-                .map(|(i, (m, q))| {
+                .map(|(m, q, state)| {
                     let points = points_of[&key(m, q)].clone();
                     let sys = Frozen { kinetics: kinetics.as_ref(), inputs: m.clone(), influx: q.clone() };
-                    let state = at_s.column(i).to_vec();
-                    let f = fate(&sys, &state, &points, 1e-4 * scale, horizon);
+                    let f = fate(&sys, state, &points, 1e-4 * scale, horizon);
                     let (label, distance) = match &f {
                         Fate::Point(k) => {
                             let p = &points[*k];

@@ -67,8 +67,8 @@ fn per_gene<F, T>(
     let grid = &rec.grid;
     let periodic = grid.edges == crate::model::Edges::Periodic;
     let mut out = Vec::new();
-    for (g, name) in rec.genes.iter().enumerate() {
-        let profile = rec.axis_profile(s, g);
+    let profiles = rec.axis_profiles(s, 0..rec.genes.len());
+    for (g, (name, profile)) in rec.genes.iter().zip(profiles).enumerate() {
         if profile.iter().copied().fold(f64::NEG_INFINITY, f64::max) < rec.floor.get(g).copied().unwrap_or(0.0) {
             continue; // not expressed
         }

@@ -23,7 +23,7 @@ pub fn kymograph(rec: &Recording, boundaries: &[Boundary], style: &Style) -> (Ca
     let max = gene_maxima(rec, &snaps);
     let colors = style.shown_colors();
     let profiles: Vec<Vec<Vec<f64>>> =
-        snaps.iter().map(|&s| style.genes.iter().map(|&g| rec.axis_profile(s, g)).collect()).collect();
+        snaps.iter().map(|&s| rec.axis_profiles(s, style.genes.iter().copied())).collect();
     let length = rec.grid.length_um();
     let times: Vec<f64> = snaps.iter().map(|&s| rec.times[s]).collect();
     let (mut c, a) = space_time(&times, style, "time (min)", |x_frac, k| {

@@ -85,7 +85,7 @@ pub fn pattern(rec: &Recording, s: usize, style: &Style, max: &[f64]) -> (Canvas
         let (cx, cy) = (width as f32 / 2.0, 70.0 + ry);
         let height = (cy + ry + 90.0) as u32;
         let mut c = Canvas::new(width, height, bg.rgb());
-        let profiles: Vec<Vec<f64>> = style.genes.iter().map(|&g| rec.axis_profile(s, g)).collect();
+        let profiles = rec.axis_profiles(s, style.genes.iter().copied());
         for py in (cy - ry).floor() as u32..(cy + ry).ceil() as u32 {
             for px in (cx - rx).floor() as u32..(cx + rx).ceil() as u32 {
                 let (dx, dy) = ((px as f32 + 0.5 - cx) / rx, (py as f32 + 0.5 - cy) / ry);

@@ -64,8 +64,7 @@ pub fn profiles_with_axes(rec: &Recording, final_boundaries: &[Boundary], style:
         // Earlier times fainter: opacity from 25 % to 100 %.
         let alpha = if picks.len() == 1 { 255 } else { (64.0 + 191.0 * k as f64 / (picks.len() - 1) as f64) as u8 };
         let dash = (k + 1 < picks.len()).then_some([6.0, 4.0]);
-        for &g in &style.genes {
-            let p = rec.axis_profile(s, g);
+        for (&g, p) in style.genes.iter().zip(rec.axis_profiles(s, style.genes.iter().copied())) {
             let pts: Vec<(f32, f32)> = (0..=samples)
                 .map(|i| {
                     let pct = 100.0 * i as f64 / samples as f64;

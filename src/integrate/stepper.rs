@@ -363,10 +363,9 @@ impl<'a> Stepper<'a> {
         self.tissue.fill_neighbours(&self.u, &mut self.inputs);
         let kinetics = self.kinetics;
         let ax = Axis(1);
-        let chunk = |(c, (mut out, (u, m))): (
-            usize,
-            (ndarray::ArrayViewMut2<f64>, (ndarray::ArrayView2<f64>, ndarray::ArrayView2<f64>)),
-        )| {
+        type Chunk<'v> =
+            (usize, (ndarray::ArrayViewMut2<'v, f64>, (ndarray::ArrayView2<'v, f64>, ndarray::ArrayView2<'v, f64>)));
+        let chunk = |(c, (mut out, (u, m))): Chunk| {
             kinetics.rates(u.view(), m, out.view_mut());
             if tame(u) && tame(out.view()) { None } else { Some(c) }
         };

@@ -389,7 +389,7 @@ pub(super) fn check_mutant(
             && 0.0 <= e.from_pct
             && e.from_pct < e.to_pct
             && e.to_pct <= 100.0;
-        if !ok || !(e.rate.is_finite() && e.rate >= 0.0) {
+        if !(ok && e.rate.is_finite() && e.rate >= 0.0) {
             return Err(fail(
                 "ectopic",
                 format!("region {}–{} % at rate {}", e.from_pct, e.to_pct, e.rate),

@@ -299,7 +299,7 @@ fn check_clock(cl: &Spanned<ClockSpec>, src: &Source) -> Result<Clock, ModelErro
         }
         (None, Some(tol)) => {
             let rtol = c.positive("tolerance", tol, "")?;
-            if rtol >= 0.1 || rtol < 1e-12 {
+            if !(1e-12..0.1).contains(&rtol) {
                 return Err(c.fail(
                     "tolerance",
                     format!("is {rtol}"),

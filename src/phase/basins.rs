@@ -81,6 +81,9 @@ fn key(inputs: &[f64], influx: &[f64]) -> Vec<u64> {
     inputs.iter().chain(influx).map(|v| v.to_bits()).collect()
 }
 
+/// One nucleus at one snapshot: its frozen inputs, diffusive influx and state.
+type NucleusAt = (Vec<f64>, Vec<f64>, Vec<f64>);
+
 /// Analyses every nucleus at every snapshot of a run of `model`.
 pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnalysis {
     let kinetics = crate::kinetics::build(model);
@@ -102,7 +105,7 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
     let horizon = if slowest.is_finite() { 60.0 / slowest } else { 60.0 * model.clock.until_min };
 
     // Frozen inputs and state of every (snapshot, nucleus), each snapshot read once.
-    let frozen: Vec<Vec<(Vec<f64>, Vec<f64>, Vec<f64>)>> = rec
+    let frozen: Vec<Vec<NucleusAt>> = rec
         .times
         .iter()
         .enumerate()

@@ -181,10 +181,10 @@ pub fn continue_branch(
             continue;
         }
 
-        if t[n] * t_new[n] < 0.0 {
-            if let Some(f) = tr.locate_fold(&y, &t, ds) {
-                branch.folds.push(f);
-            }
+        if t[n] * t_new[n] < 0.0
+            && let Some(f) = tr.locate_fold(&y, &t, ds)
+        {
+            branch.folds.push(f);
         }
         let s = y_new[n];
         if s < range.0 || s > range.1 {

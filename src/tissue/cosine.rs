@@ -35,7 +35,7 @@ pub struct RowScratch {
 impl CosineRows {
     /// Plans transforms of length `n`.
     pub fn new(n: usize) -> CosineRows {
-        let plan = if n >= 2 && n % 2 == 0 {
+        let plan = if n >= 2 && n.is_multiple_of(2) {
             let mut planner = RealFftPlanner::<f64>::new();
             let twiddle = (0..=n / 2)
                 .map(|k| {

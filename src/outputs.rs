@@ -22,6 +22,7 @@ pub fn write_run(
 ) -> Result<Summary, WriteError> {
     let style = render::Style::with_options(&run.recording, &model.title, style_options)?;
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
+    export::remove_stale_temps(dir);
     let rec = &run.recording;
     let boundaries = readout::find_boundaries(rec);
     let domains = readout::find_domains(rec);

@@ -111,6 +111,10 @@ fn resumed_runs_write_the_same_bytes() {
         let o = Command::new(exe).args(["run", "--resume", cut.to_str().unwrap(), "-q"]).args(stream).output().unwrap();
         assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
         assert!(!cut.join("checkpoint.bin").exists(), "{name}: checkpoint left behind");
+        for entry in std::fs::read_dir(&cut).unwrap() {
+            let file = entry.unwrap().file_name();
+            assert!(!file.to_string_lossy().starts_with('.'), "{name}: {file:?} left behind");
+        }
         let mut names: Vec<_> = std::fs::read_dir(&full).unwrap().map(|e| e.unwrap().file_name()).collect();
         names.sort();
         assert!(names.len() >= 8);

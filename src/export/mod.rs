@@ -70,6 +70,27 @@ pub fn write_atomic(path: &Path, body: impl FnOnce(&mut dyn Write) -> std::io::R
     result.map_err(io)
 }
 
+/// Removes temporary files [`write_atomic`] left in `dir` when a process
+/// was killed mid-write (`.NAME.tmpPID` of a process no longer running;
+/// on systems without `/proc`, none is removed). Errors are ignored: a
+/// leftover is untidy, not wrong.
+pub fn remove_stale_temps(dir: &Path) {
+    let Ok(entries) = std::fs::read_dir(dir) else { return };
+    for entry in entries.flatten() {
+        let name = entry.file_name().to_string_lossy().into_owned();
+        let Some(pid) = name.strip_prefix('.').and_then(|n| n.rsplit_once(".tmp")).map(|(_, pid)| pid) else {
+            continue;
+        };
+        let Ok(pid) = pid.parse::<u32>() else { continue };
+        let gone = pid != std::process::id()
+            && Path::new("/proc/self").exists()
+            && !Path::new(&format!("/proc/{pid}")).exists();
+        if gone {
+            let _ = std::fs::remove_file(entry.path());
+        }
+    }
+}
+
 /// Writes the whole recording as a NumPy array of f64: `[snapshot, gene, nucleus]`
 /// for a row, `[snapshot, gene, y, x]` for a sheet.
 ///
@@ -112,4 +133,29 @@ pub fn write_json<T: serde::Serialize>(value: &T, path: &Path) -> Result<(), Exp
         serde_json::to_writer_pretty(&mut *w, value).map_err(std::io::Error::other)?;
         w.write_all(b"\n")
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Only a dead process's `.NAME.tmpPID` goes; this process's own
+    /// temporaries and anything not of that form stay.
+    #[test]
+    fn stale_temporaries_of_dead_processes_are_removed() {
+        let dir = std::env::temp_dir().join(format!("anlage-stale-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let own = format!(".summary.json.tmp{}", std::process::id());
+        let names = [".checkpoint.bin.tmp4294967295", own.as_str(), "table.tmp7", ".hidden", ".a.tmpx"];
+        for n in names {
+            std::fs::write(dir.join(n), b"x").unwrap();
+        }
+        remove_stale_temps(&dir);
+        let dead_gone = !dir.join(names[0]).exists() || !Path::new("/proc/self").exists();
+        assert!(dead_gone, "a dead process's temporary stays");
+        for n in &names[1..] {
+            assert!(dir.join(n).exists(), "{n} was removed");
+        }
+        std::fs::remove_dir_all(&dir).unwrap();
+    }
 }

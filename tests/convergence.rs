@@ -108,17 +108,28 @@ fn error_control_holds_steps_and_lands_on_snapshots() {
 /// (`Stepper::accept_every_step`); that saves memory traffic only and must
 /// give the same bytes as the general path, which holds three. Checked on
 /// the ribbon demo (a row, Thomas sweeps) and the spots demo (a sheet,
-/// cosine transforms), on one thread and split between threads.
+/// cosine transforms), on one thread and split between threads, plain and
+/// with a mutant's forcing (the second gene held at a level, extra
+/// production of the first in a band of nuclei).
 #[test]
 fn fixed_steps_in_place_give_the_same_bytes_as_the_general_path() {
-    use anlage::integrate::{Stepper, forcing, initial_state};
+    use anlage::integrate::{Forcing, Stepper, forcing, initial_state};
     for (path, step, steps) in [("patterns/ribbon.toml", 0.5, 40), ("patterns/spots.toml", 0.2, 20)] {
         let model = load(path);
         let tissue = anlage::tissue::Tissue::new(&model);
         let kinetics = anlage::kinetics::build(&model);
         let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
         let names: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
-        for parallel in [false, true] {
+        for (parallel, forced) in [(false, false), (true, false), (false, true), (true, true)] {
+            let forcing = || {
+                if !forced {
+                    return forcing(&model);
+                }
+                let n = model.grid.len();
+                let mut source = ndarray::Array2::zeros((model.genes.len(), n));
+                source.row_mut(0).slice_mut(ndarray::s![n / 4..n / 2]).fill(0.3);
+                Forcing { clamps: vec![None, Some(0.7)], source: Some(source) }
+            };
             let start = |lean: bool| {
                 let mut s = Stepper::new(
                     kinetics.as_ref(),
@@ -128,7 +139,7 @@ fn fixed_steps_in_place_give_the_same_bytes_as_the_general_path() {
                     initial_state(&model),
                     0.0,
                     parallel,
-                    forcing(&model),
+                    forcing(),
                 )
                 .unwrap();
                 if lean {
@@ -142,10 +153,11 @@ fn fixed_steps_in_place_give_the_same_bytes_as_the_general_path() {
                     s.attempt(step);
                     s.accept(step, n as f64 * step).unwrap();
                 }
-                assert_eq!(general.state(), lean.state(), "{path}, step {n}");
-                assert_eq!(general.rates(), lean.rates(), "{path}, step {n}");
+                assert_eq!(general.state(), lean.state(), "{path}, forced {forced}, step {n}");
+                assert_eq!(general.rates(), lean.rates(), "{path}, forced {forced}, step {n}");
             }
             assert_eq!(lean.history(), 2);
+            assert_eq!(forced, lean.state().row(1).iter().all(|v| *v == 0.7), "{path}: the clamp holds");
             assert_eq!(general.history(), 3);
         }
     }

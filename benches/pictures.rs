@@ -31,13 +31,14 @@ fn main() {
 
     let ribbon = anlage::model::Model::load("patterns/ribbon.toml".as_ref()).expect("demo");
     let rec = simulate(&ribbon, &RunOptions::default()).expect("run").recording;
-    let boundaries = find_boundaries(&rec);
+    let boundaries = find_boundaries(&rec).expect("in memory");
     let style = Style::for_recording(&rec);
     let start = Instant::now();
     let last = rec.times.len() - 1;
-    let k = render::kymograph(&rec, &boundaries, &style).0.png().expect("png");
-    let p = render::pattern(&rec, last, &style, &render::gene_maxima(&rec, &[last])).0.png().expect("png");
-    let q = render::profiles(&rec, &boundaries, &style).png().expect("png");
+    let k = render::kymograph(&rec, &boundaries, &style).expect("in memory").0.png().expect("png");
+    let max = render::gene_maxima(&rec, &[last]).expect("in memory");
+    let p = render::pattern(&rec, last, &style, &max).expect("in memory").0.png().expect("png");
+    let q = render::profiles(&rec, &boundaries, &style).expect("in memory").png().expect("png");
     println!(
         "ribbon kymograph + pattern + profiles PNGs: {:.3} s ({} bytes)",
         start.elapsed().as_secs_f64(),

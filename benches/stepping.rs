@@ -24,7 +24,7 @@ fn states(model: &Model) -> Vec<ndarray::Array2<f64>> {
         .expect("ribbon runs")
         .recording
         .states()
-        .map(|s| s.into_owned())
+        .map(|s| s.expect("in memory").into_owned())
         .collect()
 }
 

@@ -321,7 +321,7 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             let style = Style::with_options(rec, &saved.title, &look.options())?;
             let dir = out.clone().unwrap_or_else(|| run_dir.clone());
             std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
-            let boundaries = anlage::readout::find_boundaries(rec);
+            let boundaries = anlage::readout::find_boundaries(rec)?;
             let written = anlage::write_pictures(rec, &boundaries, &style, &dir, *kind)?;
             for path in written {
                 println!("wrote {}", path.display());

@@ -170,7 +170,7 @@ pub fn compare_verb(run_dir: &Path, measured: &Path, stages: &[String], out: &Op
     let saved = anlage::run_dir::load(run_dir)?;
     let rows = compare::read_measured(measured, &map)?;
     let rec = &saved.recording;
-    let cmp = compare::compare(rec, &rows);
+    let cmp = compare::compare(rec, &rows)?;
     let dir = out.clone().unwrap_or_else(|| run_dir.to_path_buf());
     std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
     anlage::export::write_comparison(&cmp, &dir.join("comparison.csv"))?;
@@ -179,7 +179,7 @@ pub fn compare_verb(run_dir: &Path, measured: &Path, stages: &[String], out: &Op
         .unwrap_or(rec.times.len() - 1);
     let mut style = Style::for_recording(rec);
     style.title = format!("{}: simulated vs measured", saved.title);
-    let overlay = anlage::render::comparison_overlay(rec, s, &cmp, &style);
+    let overlay = anlage::render::comparison_overlay(rec, s, &cmp, &style)?;
     anlage::export::write_atomic(&dir.join("comparison.png"), |w| w.write_all(&overlay.png()?))?;
     println!("simulated (model prediction) vs measured boundaries:");
     for r in &cmp.rows {
@@ -220,7 +220,7 @@ pub fn synthesize_verb(run_dir: &Path, out: &Path, count: usize, seed: u64) -> a
         ));
     }
     let last = rec.times.len() - 1;
-    let profiles = rec.axis_profiles(last, 0..rec.genes.len().min(3));
+    let profiles = rec.axis_profiles(last, 0..rec.genes.len().min(3))?;
     let maxima: Vec<f64> = profiles.iter().map(|p| p.iter().copied().fold(1e-12, f64::max)).collect();
     std::fs::create_dir_all(out).with_context(|| format!("creating {}", out.display()))?;
     for k in 0..count {

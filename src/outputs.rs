@@ -24,8 +24,8 @@ pub fn write_run(
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
     export::remove_stale_temps(dir);
     let rec = &run.recording;
-    let boundaries = readout::find_boundaries(rec);
-    let domains = readout::find_domains(rec);
+    let boundaries = readout::find_boundaries(rec)?;
+    let domains = readout::find_domains(rec)?;
     let path = |name: &str| -> PathBuf { dir.join(name) };
     export::write_profiles(rec, &path("profiles.csv"))?;
     if rec.grid.is_sheet() {
@@ -56,6 +56,9 @@ pub enum WriteError {
     /// A simulation failed.
     #[error(transparent)]
     Step(#[from] crate::StepError),
+    /// A streamed snapshot could not be read back.
+    #[error(transparent)]
+    ReadBack(#[from] crate::integrate::ReadBackError),
 }
 
 /// Which pictures to draw.
@@ -99,16 +102,16 @@ pub fn write_pictures(
         Ok(())
     };
     if wants(PictureKind::Kymograph) && !rec.grid.is_sheet() {
-        png("kymograph.png", render::kymograph(rec, boundaries, style).0)?;
+        png("kymograph.png", render::kymograph(rec, boundaries, style)?.0)?;
     }
     if wants(PictureKind::Pattern) {
-        let max = render::gene_maxima(rec, &snaps);
-        png("pattern.png", render::pattern(rec, last, style, &max).0)?;
+        let max = render::gene_maxima(rec, &snaps)?;
+        png("pattern.png", render::pattern(rec, last, style, &max)?.0)?;
     }
     if wants(PictureKind::Profiles) {
         let final_boundaries: Vec<readout::Boundary> =
             boundaries.iter().filter(|b| b.time_min == rec.times[last]).cloned().collect();
-        png("profiles.png", render::profiles(rec, &final_boundaries, style))?;
+        png("profiles.png", render::profiles(rec, &final_boundaries, style)?)?;
     }
     if wants(PictureKind::Animation) {
         let path = dir.join("pattern.gif");
@@ -144,9 +147,9 @@ pub fn write_basins(
     dir: &Path,
 ) -> Result<BasinReport, WriteError> {
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
-    let analysis = crate::phase::analyse(model, rec, opts);
+    let analysis = crate::phase::analyse(model, rec, opts)?;
     let last = rec.times.len() - 1;
-    let hi: Vec<f64> = rec.max_levels(0..rec.len()).into_iter().map(|m| 1.2 * m.max(1e-3)).collect();
+    let hi: Vec<f64> = rec.max_levels(0..rec.len())?.into_iter().map(|m| 1.2 * m.max(1e-3)).collect();
     let landscape = crate::phase::landscape(model, rec.times[last], &hi);
     let path = |name: &str| dir.join(name);
     export::write_attractors(rec, &analysis, &path("attractors.csv"))?;
@@ -180,7 +183,7 @@ pub fn write_portrait(
     path: &Path,
     cloud: bool,
 ) -> Result<crate::phase::PortraitData, WriteError> {
-    let data = crate::phase::portrait_data(model, rec, nucleus, genes[0], genes[1], s);
+    let data = crate::phase::portrait_data(model, rec, nucleus, genes[0], genes[1], s)?;
     let canvas = render::portrait(rec, &data, style);
     export::write_atomic(path, |w| w.write_all(&canvas.png()?))?;
     if cloud {

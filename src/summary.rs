@@ -5,7 +5,7 @@ use serde::Serialize;
 use crate::Run;
 use crate::model::{Edges, Model, Stepping};
 
-use crate::readout::{Boundary, Domain, boundaries_at, domains_at};
+use crate::readout::{Boundary, Domain, final_boundaries, final_domains};
 
 /// The summary of one run.
 #[derive(Debug, Clone, Serialize)]
@@ -97,8 +97,8 @@ impl Summary {
             rejected_steps: run.stats.rejected,
             snapshots: rec.times.len(),
             final_time_min: rec.times[last],
-            final_boundaries: boundaries_at(rec, last),
-            final_domains: domains_at(rec, last),
+            final_boundaries: final_boundaries(rec),
+            final_domains: final_domains(rec),
         }
     }
 }

@@ -12,7 +12,7 @@ fn ribbon_forms_one_sharp_boundary() {
     let model = load("patterns/ribbon.toml");
     let rec = run(&model).recording;
     let last = rec.times.len() - 1;
-    let b = boundaries_at(&rec, last);
+    let b = boundaries_at(&rec, last).unwrap();
     let amber: Vec<_> = b.iter().filter(|b| b.gene == "amber").collect();
     let cobalt: Vec<_> = b.iter().filter(|b| b.gene == "cobalt").collect();
     assert_eq!((amber.len(), cobalt.len()), (1, 1), "{b:#?}");
@@ -29,7 +29,7 @@ fn ribbon_forms_one_sharp_boundary() {
 #[test]
 fn band_forms_one_central_stripe() {
     let rec = run(&load("patterns/band.toml")).recording;
-    let b = boundaries_at(&rec, rec.times.len() - 1);
+    let b = boundaries_at(&rec, rec.times.len() - 1).unwrap();
     let teal: Vec<_> = b.iter().filter(|b| b.gene == "teal").collect();
     assert_eq!(teal.len(), 2, "{b:#?}");
     assert_eq!((teal[0].direction, teal[1].direction), ("rising", "falling"));
@@ -63,7 +63,7 @@ fn sheet_forms_a_disc_around_the_source() {
             }
         }
     }
-    let b = boundaries_at(&rec, rec.times.len() - 1);
+    let b = boundaries_at(&rec, rec.times.len() - 1).unwrap();
     let amber: Vec<_> = b.iter().filter(|b| b.gene == "amber").map(|b| b.direction).collect();
     assert_eq!(amber, ["rising", "falling"]);
 }

@@ -153,7 +153,7 @@ fn compare_self_is_zero_and_shift_is_exact() {
     use anlage::compare::{compare, read_measured};
     let rec = crate::common::run(&crate::common::load("patterns/ribbon.toml")).recording;
     let last = rec.times.len() - 1;
-    let sim = anlage::readout::boundaries_at(&rec, last);
+    let sim = anlage::readout::boundaries_at(&rec, last).unwrap();
     let dir = std::env::temp_dir().join(format!("anlage-compare-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     let table = |shift: f64| {
@@ -170,11 +170,11 @@ fn compare_self_is_zero_and_shift_is_exact() {
         t
     };
     let own = read_measured(&write(&dir, "own.csv", &table(0.0)), &Default::default()).unwrap();
-    let c = compare(&rec, &own);
+    let c = compare(&rec, &own).unwrap();
     assert_eq!(c.rmse_pct, Some(0.0));
     assert!(c.rows.iter().all(|r| r.status == "matched" && r.difference_pct == Some(0.0)));
     let shifted = read_measured(&write(&dir, "shifted.csv", &table(1.25)), &Default::default()).unwrap();
-    let c = compare(&rec, &shifted);
+    let c = compare(&rec, &shifted).unwrap();
     for r in &c.rows {
         assert_relative_eq!(r.difference_pct.unwrap(), -1.25, epsilon = 1e-9);
         assert_relative_eq!(r.z.unwrap(), -2.5, epsilon = 1e-9);
@@ -182,7 +182,7 @@ fn compare_self_is_zero_and_shift_is_exact() {
     assert_relative_eq!(c.rmse_pct.unwrap(), 1.25, epsilon = 1e-9);
     // A boundary found on one side only is listed as such.
     let extra = format!("{}e1,,amber,rising,80,,\n", table(0.0));
-    let c = compare(&rec, &read_measured(&write(&dir, "extra.csv", &extra), &Default::default()).unwrap());
+    let c = compare(&rec, &read_measured(&write(&dir, "extra.csv", &extra), &Default::default()).unwrap()).unwrap();
     assert_eq!(c.rows.iter().filter(|r| r.status == "measured only").count(), 1);
 }
 

@@ -233,9 +233,9 @@ fn brusselator_limit_cycle_period() {
 fn ribbon_basins_and_fold_agree() {
     let model = crate::common::load("patterns/ribbon.toml");
     let rec = crate::common::run(&model).recording;
-    let analysis = phase::analyse(&model, &rec, &phase::BasinOptions::default());
+    let analysis = phase::analyse(&model, &rec, &phase::BasinOptions::default()).unwrap();
     let last = rec.times.len() - 1;
-    let b = anlage::readout::boundaries_at(&rec, last);
+    let b = anlage::readout::boundaries_at(&rec, last).unwrap();
     let boundary_pct = b.iter().find(|b| b.gene == "amber").unwrap().position_pct;
     let n = rec.grid.nx;
     for i in 0..n {

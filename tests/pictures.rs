@@ -20,7 +20,7 @@ fn gif_and_pngs_decode() {
     let mut bytes = Vec::new();
     let frames = render::write_gif(&rec, &style, &mut bytes).unwrap();
     assert_eq!(frames, rec.times.len());
-    let (first, _) = render::pattern(&rec, 0, &style, &render::gene_maxima(&rec, &[0]));
+    let (first, _) = render::pattern(&rec, 0, &style, &render::gene_maxima(&rec, &[0]).unwrap()).unwrap();
     let mut opts = gif::DecodeOptions::new();
     opts.set_color_output(gif::ColorOutput::RGBA);
     let mut dec = opts.read_info(bytes.as_slice()).unwrap();
@@ -32,8 +32,8 @@ fn gif_and_pngs_decode() {
         count += 1;
     }
     assert_eq!(count, rec.times.len());
-    let boundaries = find_boundaries(&rec);
-    let (k, _) = render::kymograph(&rec, &boundaries, &style);
+    let boundaries = find_boundaries(&rec).unwrap();
+    let (k, _) = render::kymograph(&rec, &boundaries, &style).unwrap();
     for canvas in [k, first] {
         let png = canvas.png().unwrap();
         let img = image::load_from_memory(&png).unwrap();
@@ -49,15 +49,15 @@ fn embryo_pixels_show_the_level_of_the_gene() {
     let rec = ribbon();
     let last = rec.times.len() - 1;
     let amber = rec.genes.iter().position(|g| g == "amber").unwrap();
-    let profile: Vec<f64> = rec.state(last).row(amber).to_vec();
-    let max = rec.states().map(|s| s.row(amber).iter().copied().fold(0.0, f64::max)).fold(0.0, f64::max);
+    let profile: Vec<f64> = rec.state(last).unwrap().row(amber).to_vec();
+    let max = rec.states().map(|s| s.unwrap().row(amber).iter().copied().fold(0.0, f64::max)).fold(0.0, f64::max);
     let color = rec.colors[amber];
     for bg in [Background::Dark, Background::Light] {
         let mut style = Style::for_recording(&rec);
         style.genes = vec![amber];
         style.background = bg;
-        let maxima = render::gene_maxima(&rec, &(0..rec.times.len()).collect::<Vec<_>>());
-        let (canvas, layout) = render::pattern(&rec, last, &style, &maxima);
+        let maxima = render::gene_maxima(&rec, &(0..rec.times.len()).collect::<Vec<_>>()).unwrap();
+        let (canvas, layout) = render::pattern(&rec, last, &style, &maxima).unwrap();
         let PatternLayout::Embryo { cx, cy, rx, .. } = layout else { panic!("a row is drawn as an embryo") };
         let h = rec.grid.spacing_um;
         let length = rec.grid.length_um();
@@ -86,9 +86,9 @@ fn embryo_pixels_show_the_level_of_the_gene() {
 #[test]
 fn kymograph_trace_sits_on_the_boundary() {
     let rec = ribbon();
-    let boundaries = find_boundaries(&rec);
+    let boundaries = find_boundaries(&rec).unwrap();
     let style = Style::for_recording(&rec);
-    let (canvas, layout) = render::kymograph(&rec, &boundaries, &style);
+    let (canvas, layout) = render::kymograph(&rec, &boundaries, &style).unwrap();
     let a = layout.axes;
     let mut checked = 0;
     for b in boundaries.iter().filter(|b| b.gene == "amber" && b.time_min >= 80.0 && b.time_min <= 200.0) {
@@ -111,7 +111,8 @@ fn scale_bar_length_matches_its_label() {
         let rec = run(&load(model)).recording;
         let style = Style::for_recording(&rec);
         let last = rec.times.len() - 1;
-        let (canvas, layout) = render::pattern(&rec, last, &style, &render::gene_maxima(&rec, &[last]));
+        let (canvas, layout) =
+            render::pattern(&rec, last, &style, &render::gene_maxima(&rec, &[last]).unwrap()).unwrap();
         let (bar, um_per_px) = match layout {
             PatternLayout::Embryo { rx, bar, .. } => (bar, rec.grid.length_um() / (2.0 * rx as f64)),
             PatternLayout::Sheet { cell, bar, .. } => (bar, rec.grid.spacing_um / cell as f64),
@@ -154,11 +155,11 @@ fn heatmap_uses_the_sequential_map() {
     let last = rec.times.len() - 1;
     let opts = render::StyleOptions { genes: Some(vec!["teal".into()]), heatmap: true, ..Default::default() };
     let style = Style::with_options(&rec, "band", &opts).unwrap();
-    let maxima = render::gene_maxima(&rec, &(0..rec.times.len()).collect::<Vec<_>>());
-    let (canvas, layout) = render::pattern(&rec, last, &style, &maxima);
+    let maxima = render::gene_maxima(&rec, &(0..rec.times.len()).collect::<Vec<_>>()).unwrap();
+    let (canvas, layout) = render::pattern(&rec, last, &style, &maxima).unwrap();
     let PatternLayout::Embryo { cx, cy, rx, .. } = layout else { panic!("row") };
     let teal = rec.genes.iter().position(|g| g == "teal").unwrap();
-    let profile = rec.state(last).row(teal).to_vec();
+    let profile = rec.state(last).unwrap().row(teal).to_vec();
     let length = rec.grid.length_um();
     for i in [10usize, 50, 70, 100] {
         let px = (cx - rx + (((i as f64 + 0.5) * rec.grid.spacing_um / length) as f32) * 2.0 * rx).floor() as u32;

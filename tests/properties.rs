@@ -76,7 +76,7 @@ proptest! {
         );
         let r = run(&parse(&text));
         prop_assert_eq!(r.recording.len(), 11);
-        let lowest = r.recording.states().map(|s| s.iter().copied().fold(f64::INFINITY, f64::min)).fold(f64::INFINITY, f64::min);
+        let lowest = r.recording.states().map(|s| s.unwrap().iter().copied().fold(f64::INFINITY, f64::min)).fold(f64::INFINITY, f64::min);
         prop_assert!(lowest >= 0.0, "lowest level {lowest}");
     }
 }

@@ -269,7 +269,7 @@ fn fisher_kpp_front_speed() {
     ));
     let rec = run(&model).recording;
     let front = |s: usize| {
-        let p = rec.axis_profiles(s, [0]).remove(0);
+        let p = rec.axis_profiles(s, [0]).unwrap().remove(0);
         let c = anlage::readout::profile_boundaries(&p, 0.25, false);
         assert_eq!(c.len(), 1, "one front at t = {}", rec.times[s]);
         c[0].position_um

@@ -11,7 +11,7 @@ use std::path::{Path, PathBuf};
 
 use serde::Serialize;
 
-use crate::integrate::Recording;
+use crate::integrate::{ReadBackError, Recording};
 use crate::readout::{Boundary, boundaries_at};
 use crate::screen::match_boundaries;
 
@@ -212,7 +212,10 @@ pub struct Comparison {
 
 /// Pairs measured and simulated boundaries: per sample, at the snapshot
 /// nearest the measured time, same gene and direction, nearest in position.
-pub fn compare(rec: &Recording, measured: &[MeasuredRow]) -> Comparison {
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn compare(rec: &Recording, measured: &[MeasuredRow]) -> Result<Comparison, ReadBackError> {
     let last = rec.times.len() - 1;
     let snapshot = |t: Option<f64>| {
         t.map_or(last, |t| {
@@ -232,7 +235,7 @@ pub fn compare(rec: &Recording, measured: &[MeasuredRow]) -> Comparison {
     }
     let mut rows = Vec::new();
     for ((sample, s), ms) in groups {
-        let simulated = boundaries_at(rec, s);
+        let simulated = boundaries_at(rec, s)?;
         let as_boundary: Vec<Boundary> = ms
             .iter()
             .map(|m| Boundary {
@@ -272,5 +275,5 @@ pub fn compare(rec: &Recording, measured: &[MeasuredRow]) -> Comparison {
     }
     let diffs: Vec<f64> = rows.iter().filter_map(|r| r.difference_pct).collect();
     let rmse_pct = (!diffs.is_empty()).then(|| (diffs.iter().map(|d| d * d).sum::<f64>() / diffs.len() as f64).sqrt());
-    Comparison { rows, rmse_pct }
+    Ok(Comparison { rows, rmse_pct })
 }

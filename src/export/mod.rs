@@ -45,6 +45,9 @@ pub enum ExportError {
         /// What went wrong.
         message: String,
     },
+    /// A streamed snapshot could not be read back.
+    #[error(transparent)]
+    ReadBack(#[from] crate::integrate::ReadBackError),
 }
 
 /// Writes `path` atomically: `body` writes into a temporary file beside it,
@@ -116,6 +119,7 @@ pub fn write_states_npy(rec: &crate::integrate::Recording, path: &Path) -> Resul
         w.write_all(&u16::try_from(header.len()).map_err(std::io::Error::other)?.to_le_bytes())?;
         w.write_all(header.as_bytes())?;
         for state in rec.states() {
+            let state = state.map_err(std::io::Error::other)?;
             for v in state.iter() {
                 w.write_all(&v.to_le_bytes())?;
             }

@@ -23,7 +23,7 @@ pub fn write_profiles(rec: &Recording, path: &Path) -> Result<(), ExportError> {
         }
         writeln!(w)?;
         for (s, t) in rec.times.iter().enumerate() {
-            let profiles = rec.axis_profiles(s, 0..rec.genes.len());
+            let profiles = rec.axis_profiles(s, 0..rec.genes.len()).map_err(std::io::Error::other)?;
             for ix in 0..grid.nx {
                 let x = grid.x_um(ix);
                 write!(w, "{t},{ix},{x},{}", 100.0 * x / grid.length_um())?;

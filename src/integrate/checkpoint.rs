@@ -145,6 +145,7 @@ impl CheckpointParts<'_> {
             write(w, a)?;
         }
         for state in self.recording.states() {
+            let state = state.map_err(std::io::Error::other)?;
             write(w, &state)?;
         }
         Ok(())

@@ -9,7 +9,7 @@ use ndarray::Array2;
 use rand::{RngExt, SeedableRng};
 
 pub use checkpoint::{Checkpoint, CheckpointError, CheckpointParts, Progress, StepperState};
-pub use recording::{Recording, STREAM_ABOVE_BYTES};
+pub use recording::{ReadBackError, Recording, STREAM_ABOVE_BYTES};
 pub use stepper::{Forcing, Stepper};
 
 use crate::kinetics::Kinetics;
@@ -46,6 +46,9 @@ pub enum StepError {
     /// A streamed snapshot could not be written.
     #[error("the recording could not be streamed to disk: {0}; free disk space in the output folder")]
     Recording(String),
+    /// A streamed snapshot could not be read back.
+    #[error(transparent)]
+    ReadBack(#[from] ReadBackError),
     /// Error-controlled steps shrank to nothing.
     #[error(
         "error-controlled steps collapsed to {step_min:e} min at t = {t_min:.6} min: the estimated error ({error:.3e} \

@@ -85,6 +85,20 @@ impl Spill {
     }
 }
 
+/// A streamed snapshot could not be read back from its scratch file.
+#[derive(Debug, thiserror::Error)]
+#[error(
+    "cannot read snapshot {snapshot} back from the streamed recording's scratch file ({source}); the disk \
+     holding it may be full or failing: give the run an output folder on another disk with -o, or set TMPDIR"
+)]
+pub struct ReadBackError {
+    /// Snapshot index.
+    pub snapshot: usize,
+    /// The read error.
+    #[source]
+    pub source: std::io::Error,
+}
+
 /// Fraction of a gene's capacity p/d (its steady level at full production)
 /// below which it counts as not expressed (common practice, no source).
 pub const EXPRESSION_FLOOR: f64 = 0.05;
@@ -167,37 +181,43 @@ impl Recording {
 
     /// The state at snapshot `s`, [gene, nucleus] (read back from disk when streamed).
     ///
+    /// # Errors
+    /// [`ReadBackError`] if a streamed snapshot cannot be read back from the
+    /// scratch file this process holds open (a full or failing disk).
+    ///
     /// # Panics
-    /// If `s` is out of range, or a streamed snapshot cannot be read back
-    /// from the scratch file this process holds open (a failing disk).
-    pub fn state(&self, s: usize) -> Cow<'_, Array2<f64>> {
-        match &self.store {
+    /// If `s` is out of range.
+    pub fn state(&self, s: usize) -> Result<Cow<'_, Array2<f64>>, ReadBackError> {
+        Ok(match &self.store {
             Store::Memory(states) => Cow::Borrowed(&states[s]),
             Store::Disk(spill) => {
                 assert!(s < spill.count, "snapshot {s} of {}", spill.count);
                 match &spill.last {
                     Some(last) if s + 1 == spill.count => Cow::Borrowed(last),
-                    _ => Cow::Owned(spill.read(s).expect("the scratch file of the streamed recording reads back")),
+                    _ => Cow::Owned(spill.read(s).map_err(|source| ReadBackError { snapshot: s, source })?),
                 }
             }
-        }
+        })
     }
 
     /// Largest level of each gene over the given snapshots (0 for none), a.u.:
     /// one read of each snapshot, however many genes.
-    pub fn max_levels(&self, snapshots: impl IntoIterator<Item = usize>) -> Vec<f64> {
+    ///
+    /// # Errors
+    /// [`ReadBackError`], see [`Self::state`].
+    pub fn max_levels(&self, snapshots: impl IntoIterator<Item = usize>) -> Result<Vec<f64>, ReadBackError> {
         let mut top = vec![0.0f64; self.genes.len()];
         for s in snapshots {
-            let state = self.state(s);
+            let state = self.state(s)?;
             for (m, row) in top.iter_mut().zip(state.outer_iter()) {
                 *m = row.iter().copied().fold(*m, f64::max);
             }
         }
-        top
+        Ok(top)
     }
 
-    /// Every state in time order, one at a time.
-    pub fn states(&self) -> impl Iterator<Item = Cow<'_, Array2<f64>>> + '_ {
+    /// Every state in time order, one at a time (see [`Self::state`]).
+    pub fn states(&self) -> impl Iterator<Item = Result<Cow<'_, Array2<f64>>, ReadBackError>> + '_ {
         (0..self.len()).map(|s| self.state(s))
     }
 
@@ -226,8 +246,20 @@ impl Recording {
     /// Profiles along the axis at snapshot `s` of the given genes (in that
     /// order), one value per column: the row itself, or on a sheet the mean
     /// over the [`Self::midline_rows`]. The snapshot is read once.
-    pub fn axis_profiles(&self, s: usize, genes: impl IntoIterator<Item = usize>) -> Vec<Vec<f64>> {
-        let state = self.state(s);
+    ///
+    /// # Errors
+    /// [`ReadBackError`], see [`Self::state`].
+    pub fn axis_profiles(
+        &self,
+        s: usize,
+        genes: impl IntoIterator<Item = usize>,
+    ) -> Result<Vec<Vec<f64>>, ReadBackError> {
+        let state = self.state(s)?;
+        Ok(self.profiles_of(&state, genes))
+    }
+
+    /// [`Self::axis_profiles`] of a state of this recording's shape.
+    pub fn profiles_of(&self, state: &Array2<f64>, genes: impl IntoIterator<Item = usize>) -> Vec<Vec<f64>> {
         let nx = self.grid.nx;
         let rows = self.midline_rows();
         let n = rows.len() as f64;
@@ -238,5 +270,37 @@ impl Recording {
                 (0..nx).map(|ix| rows.clone().map(|iy| row[iy * nx + ix]).sum::<f64>() / n).collect()
             })
             .collect()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::Edges;
+
+    /// A streamed snapshot that cannot be read back is an error that says
+    /// which snapshot and what to do, not a panic; readouts pass it on, and
+    /// the last snapshot (kept in memory) still reads.
+    #[test]
+    fn unreadable_snapshots_are_errors() {
+        let grid = Grid { nx: 4, ny: 1, spacing_um: 1.0, edges: Edges::Sealed };
+        let mut rec = Recording::with_states(grid, vec!["g".into()], vec![[0, 0, 0]], vec![], vec![], vec![0.0]);
+        let path = std::env::temp_dir().join(format!("anlage-unreadable-{}", std::process::id()));
+        // Opened for writing only, so every read back fails.
+        let file = File::create(&path).unwrap();
+        std::fs::remove_file(&path).unwrap();
+        rec.store =
+            Store::Disk(Spill { file: Mutex::new(file), shape: (1, 4), count: 0, last: None, bytes: Vec::new() });
+        for (t, v) in [(0.0, 0.0), (1.0, 1.0), (2.0, 2.0)] {
+            rec.push(t, &Array2::from_shape_vec((1, 4), vec![v, v, 3.0 * v, 0.0]).unwrap()).unwrap();
+        }
+        let e = rec.state(1).unwrap_err();
+        assert_eq!(e.snapshot, 1);
+        let message = e.to_string();
+        assert!(message.contains("snapshot 1") && message.contains("TMPDIR"), "{message}");
+        assert!(rec.max_levels(0..3).is_err());
+        assert!(crate::readout::find_boundaries(&rec).is_err());
+        assert_eq!(rec.state(2).unwrap()[[0, 2]], 6.0);
+        assert_eq!(crate::readout::final_boundaries(&rec).len(), 2, "a rise to the peak and a fall after it");
     }
 }

@@ -10,7 +10,7 @@ use rayon::prelude::*;
 use super::fixed::{FixedPoint, box_starts, find_fixed_points};
 use super::flow::{Fate, fate};
 use super::system::Frozen;
-use crate::integrate::Recording;
+use crate::integrate::{ReadBackError, Recording};
 use crate::model::Model;
 use crate::tissue::{Tissue, laplacian};
 
@@ -85,12 +85,15 @@ fn key(inputs: &[f64], influx: &[f64]) -> Vec<u64> {
 type NucleusAt = (Vec<f64>, Vec<f64>, Vec<f64>);
 
 /// Analyses every nucleus at every snapshot of a run of `model`.
-pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnalysis {
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> Result<BasinAnalysis, ReadBackError> {
     let kinetics = crate::kinetics::build(model);
     let tissue = Tissue::new(model);
     let (n_genes, n) = (rec.genes.len(), rec.grid.len());
     // Box of starting points: 1.2 × the larger of the recorded maximum and p/d.
-    let seen = rec.max_levels(0..rec.len());
+    let seen = rec.max_levels(0..rec.len())?;
     let hi: Vec<f64> = (0..n_genes)
         .map(|g| {
             let seen = seen[g];
@@ -110,7 +113,7 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
         .iter()
         .enumerate()
         .map(|(s, &t)| {
-            let state = rec.state(s);
+            let state = rec.state(s)?;
             let m = tissue.inputs_with_state(t, &state);
             let influx: Vec<Vec<f64>> = (0..n_genes)
                 .map(|g| {
@@ -122,11 +125,11 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
                     lap
                 })
                 .collect();
-            (0..n)
+            Ok((0..n)
                 .map(|i| (m.column(i).to_vec(), influx.iter().map(|q| q[i]).collect(), state.column(i).to_vec()))
-                .collect()
+                .collect())
         })
-        .collect();
+        .collect::<Result<_, ReadBackError>>()?;
 
     // Fixed points once per distinct frozen input, started from the box and from
     // every state a nucleus with those inputs had.
@@ -194,13 +197,13 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> BasinAnal
             labels.push(b.label.clone());
         }
     }
-    BasinAnalysis {
+    Ok(BasinAnalysis {
         times: rec.times.clone(),
         basins,
         frozen: if opts.with_influx { "gradients+influx" } else { "gradients" },
         on_level,
         labels,
-    }
+    })
 }
 
 impl BasinAnalysis {

@@ -5,7 +5,7 @@
 use super::fixed::{FixedPoint, box_starts, find_fixed_points};
 use super::plane::{separatrix, trajectory, zero_contour};
 use super::system::{Frozen, Slice, System};
-use crate::integrate::Recording;
+use crate::integrate::{ReadBackError, Recording};
 use crate::model::Model;
 use crate::tissue::Tissue;
 
@@ -38,16 +38,27 @@ pub struct PortraitData {
 
 /// Computes the portrait of nucleus `nucleus` in the plane of genes `a`, `b`,
 /// with inputs frozen at snapshot `s` (gradients only).
-pub fn portrait_data(model: &Model, rec: &Recording, nucleus: usize, a: usize, b: usize, s: usize) -> PortraitData {
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn portrait_data(
+    model: &Model,
+    rec: &Recording,
+    nucleus: usize,
+    a: usize,
+    b: usize,
+    s: usize,
+) -> Result<PortraitData, ReadBackError> {
     let kinetics = crate::kinetics::build(model);
     let tissue = Tissue::new(model);
     let t = rec.times[s];
-    let inputs = tissue.inputs_with_state(t, &rec.state(s)).column(nucleus).to_vec();
+    let at_s = rec.state(s)?;
+    let inputs = tissue.inputs_with_state(t, &at_s).column(nucleus).to_vec();
     let n_genes = rec.genes.len();
     let full = Frozen { kinetics: kinetics.as_ref(), inputs, influx: vec![0.0; n_genes] };
-    let state = rec.state(s).column(nucleus).to_vec();
+    let state = at_s.column(nucleus).to_vec();
     let sys = Slice { full: &full, base: state.clone(), a, b };
-    let seen = rec.max_levels(0..rec.len());
+    let seen = rec.max_levels(0..rec.len())?;
     let top = |g: usize| {
         let seen = seen[g];
         let gene = &model.genes[g];
@@ -82,10 +93,14 @@ pub fn portrait_data(model: &Model, rec: &Recording, nucleus: usize, a: usize, b
     let horizon = if slowest.is_finite() { 40.0 / slowest } else { model.clock.until_min };
     let separatrices = points.iter().flat_map(|p| separatrix(&sys, p, &bounds, horizon)).collect();
     let isolated = trajectory(&sys, &[state[a], state[b]], horizon, &bounds);
-    let recorded =
-        rec.times.iter().zip(rec.states()).map(|(t, st)| (*t, [st[[a, nucleus]], st[[b, nucleus]]])).collect();
+    let recorded = rec
+        .times
+        .iter()
+        .zip(rec.states())
+        .map(|(t, st)| st.map(|st| (*t, [st[[a, nucleus]], st[[b, nucleus]]])))
+        .collect::<Result<_, _>>()?;
     let slice = (0..n_genes).filter(|g| *g != a && *g != b).map(|g| (rec.genes[g].clone(), state[g])).collect();
-    PortraitData {
+    Ok(PortraitData {
         genes: [a, b],
         bounds,
         field,
@@ -97,5 +112,5 @@ pub fn portrait_data(model: &Model, rec: &Recording, nucleus: usize, a: usize, b
         t_min: t,
         nucleus,
         slice,
-    }
+    })
 }

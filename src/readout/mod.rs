@@ -11,9 +11,10 @@ mod profile;
 
 pub use profile::{Crossing, Span, profile_boundaries, profile_domains};
 
+use ndarray::Array2;
 use serde::Serialize;
 
-use crate::integrate::Recording;
+use crate::integrate::{ReadBackError, Recording};
 
 /// A boundary of one gene at one snapshot.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -56,18 +57,20 @@ pub struct Domain {
     pub width_pct: f64,
 }
 
-/// Runs `read(profile, spacing_um, periodic)` on each gene's axis profile at
-/// snapshot `s` and converts each finding with `make(time, gene, finding, length_um)`.
+/// Runs `read(profile, spacing_um, periodic)` on each gene's axis profile
+/// of `state`, snapshot `s`, and converts each finding with
+/// `make(time, gene, finding, length_um)`.
 fn per_gene<F, T>(
     rec: &Recording,
     s: usize,
+    state: &Array2<f64>,
     read: impl Fn(&[f64], f64, bool) -> Vec<F>,
     make: impl Fn(f64, &str, F, f64) -> T,
 ) -> Vec<T> {
     let grid = &rec.grid;
     let periodic = grid.edges == crate::model::Edges::Periodic;
     let mut out = Vec::new();
-    let profiles = rec.axis_profiles(s, 0..rec.genes.len());
+    let profiles = rec.profiles_of(state, 0..rec.genes.len());
     for (g, (name, profile)) in rec.genes.iter().zip(profiles).enumerate() {
         if profile.iter().copied().fold(f64::NEG_INFINITY, f64::max) < rec.floor.get(g).copied().unwrap_or(0.0) {
             continue; // not expressed
@@ -80,8 +83,31 @@ fn per_gene<F, T>(
 }
 
 /// Boundaries of every gene at snapshot `s`.
-pub fn boundaries_at(rec: &Recording, s: usize) -> Vec<Boundary> {
-    per_gene(rec, s, profile_boundaries, |time_min, gene, c: Crossing, length| Boundary {
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn boundaries_at(rec: &Recording, s: usize) -> Result<Vec<Boundary>, ReadBackError> {
+    read_at(rec, s, boundaries_in)
+}
+
+/// `find(rec, s, state)` on snapshot `s`, read back from disk if streamed.
+fn read_at<T>(
+    rec: &Recording,
+    s: usize,
+    find: fn(&Recording, usize, &Array2<f64>) -> Vec<T>,
+) -> Result<Vec<T>, ReadBackError> {
+    let state = rec.state(s)?;
+    Ok(find(rec, s, &state))
+}
+
+/// Boundaries at the last snapshot (held in memory, so nothing can fail).
+pub fn final_boundaries(rec: &Recording) -> Vec<Boundary> {
+    boundaries_in(rec, rec.len() - 1, rec.final_state())
+}
+
+/// Boundaries of every gene in `state`, snapshot `s`.
+fn boundaries_in(rec: &Recording, s: usize, state: &Array2<f64>) -> Vec<Boundary> {
+    per_gene(rec, s, state, profile_boundaries, |time_min, gene, c: Crossing, length| Boundary {
         time_min,
         gene: gene.to_string(),
         direction: if c.rising { "rising" } else { "falling" },
@@ -93,8 +119,21 @@ pub fn boundaries_at(rec: &Recording, s: usize) -> Vec<Boundary> {
 }
 
 /// Domains of every gene at snapshot `s`.
-pub fn domains_at(rec: &Recording, s: usize) -> Vec<Domain> {
-    per_gene(rec, s, profile_domains, |time_min, gene, d: Span, length| Domain {
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn domains_at(rec: &Recording, s: usize) -> Result<Vec<Domain>, ReadBackError> {
+    read_at(rec, s, domains_in)
+}
+
+/// Domains at the last snapshot (held in memory, so nothing can fail).
+pub fn final_domains(rec: &Recording) -> Vec<Domain> {
+    domains_in(rec, rec.len() - 1, rec.final_state())
+}
+
+/// Domains of every gene in `state`, snapshot `s`.
+fn domains_in(rec: &Recording, s: usize, state: &Array2<f64>) -> Vec<Domain> {
+    per_gene(rec, s, state, profile_domains, |time_min, gene, d: Span, length| Domain {
         time_min,
         gene: gene.to_string(),
         start_um: d.start_um,
@@ -107,13 +146,19 @@ pub fn domains_at(rec: &Recording, s: usize) -> Vec<Domain> {
 }
 
 /// Boundaries at every snapshot, in time order.
-pub fn find_boundaries(rec: &Recording) -> Vec<Boundary> {
-    (0..rec.times.len()).flat_map(|s| boundaries_at(rec, s)).collect()
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn find_boundaries(rec: &Recording) -> Result<Vec<Boundary>, ReadBackError> {
+    Ok((0..rec.times.len()).map(|s| boundaries_at(rec, s)).collect::<Result<Vec<_>, _>>()?.concat())
 }
 
 /// Domains at every snapshot, in time order.
-pub fn find_domains(rec: &Recording) -> Vec<Domain> {
-    (0..rec.times.len()).flat_map(|s| domains_at(rec, s)).collect()
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn find_domains(rec: &Recording) -> Result<Vec<Domain>, ReadBackError> {
+    Ok((0..rec.times.len()).map(|s| domains_at(rec, s)).collect::<Result<Vec<_>, _>>()?.concat())
 }
 
 #[cfg(test)]
@@ -133,9 +178,9 @@ mod tests {
             vec![state],
             vec![0.25, 0.25],
         );
-        let b = boundaries_at(&rec, 0);
+        let b = boundaries_at(&rec, 0).unwrap();
         assert_eq!(b.len(), 1);
         assert_eq!(b[0].gene, "bright");
-        assert!(domains_at(&rec, 0).iter().all(|d| d.gene == "bright"));
+        assert!(domains_at(&rec, 0).unwrap().iter().all(|d| d.gene == "bright"));
     }
 }

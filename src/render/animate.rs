@@ -23,22 +23,23 @@ pub fn write_pair_gif(
 ) -> std::io::Result<usize> {
     let n = wt.times.len().min(mt.times.len());
     let all: Vec<usize> = (0..n).collect();
-    let (max_w, max_m) = (gene_maxima(wt, &all), gene_maxima(mt, &all));
+    let io = std::io::Error::other;
+    let (max_w, max_m) = (gene_maxima(wt, &all).map_err(io)?, gene_maxima(mt, &all).map_err(io)?);
     let delay = (100.0 / wt_style.fps.max(1) as f64).round().max(2.0) as u16;
     let frames: Vec<gif::Frame<'static>> = (0..n)
         .into_par_iter()
         .map(|s| {
-            let (a, _) = pattern(wt, s, wt_style, &max_w);
-            let (b, _) = pattern(mt, s, mt_style, &max_m);
+            let (a, _) = pattern(wt, s, wt_style, &max_w).map_err(io)?;
+            let (b, _) = pattern(mt, s, mt_style, &max_m).map_err(io)?;
             let (w, h) = (a.width(), a.height() + b.height());
             let mut rgba = Vec::with_capacity((4 * w * h) as usize);
             rgba.extend_from_slice(a.rgba());
             rgba.extend_from_slice(b.rgba());
             let mut f = gif::Frame::from_rgba_speed(w as u16, h as u16, &mut rgba, 10);
             f.delay = delay;
-            f
+            Ok(f)
         })
-        .collect();
+        .collect::<std::io::Result<_>>()?;
     write_frames(frames, out)
 }
 
@@ -58,17 +59,17 @@ pub(super) fn write_frames(frames: Vec<gif::Frame<'static>>, out: &mut dyn Write
 /// An I/O error if the GIF cannot be encoded or written.
 pub fn write_gif(rec: &Recording, style: &Style, out: &mut dyn Write) -> std::io::Result<usize> {
     let snaps = style.snapshots(rec);
-    let max = gene_maxima(rec, &snaps);
+    let max = gene_maxima(rec, &snaps).map_err(std::io::Error::other)?;
     let delay = (100.0 / style.fps.max(1) as f64).round().max(2.0) as u16;
     let frames: Vec<gif::Frame<'static>> = snaps
         .par_iter()
         .map(|&s| {
-            let (canvas, _) = pattern(rec, s, style, &max);
+            let (canvas, _) = pattern(rec, s, style, &max).map_err(std::io::Error::other)?;
             let mut rgba = canvas.rgba().to_vec();
             let mut f = gif::Frame::from_rgba_speed(canvas.width() as u16, canvas.height() as u16, &mut rgba, 10);
             f.delay = delay;
-            f
+            Ok(f)
         })
-        .collect();
+        .collect::<std::io::Result<_>>()?;
     write_frames(frames, out)
 }

@@ -4,7 +4,7 @@
 use super::axes::{self, Axes};
 use super::canvas::Canvas;
 use super::{Style, gene_maxima, legend, level_at, title_and_label};
-use crate::integrate::Recording;
+use crate::integrate::{ReadBackError, Recording};
 use crate::readout::Boundary;
 
 /// Where things are on a kymograph, for callers that annotate or check it.
@@ -16,14 +16,21 @@ pub struct KymoLayout {
 
 /// Draws the kymograph of the shown snapshots, tracing `boundaries`.
 ///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+///
 /// # Panics
 /// If the style selects no snapshot.
-pub fn kymograph(rec: &Recording, boundaries: &[Boundary], style: &Style) -> (Canvas, KymoLayout) {
+pub fn kymograph(
+    rec: &Recording,
+    boundaries: &[Boundary],
+    style: &Style,
+) -> Result<(Canvas, KymoLayout), ReadBackError> {
     let snaps = style.snapshots(rec);
-    let max = gene_maxima(rec, &snaps);
+    let max = gene_maxima(rec, &snaps)?;
     let colors = style.shown_colors();
     let profiles: Vec<Vec<Vec<f64>>> =
-        snaps.iter().map(|&s| rec.axis_profiles(s, style.genes.iter().copied())).collect();
+        snaps.iter().map(|&s| rec.axis_profiles(s, style.genes.iter().copied())).collect::<Result<_, _>>()?;
     let length = rec.grid.length_um();
     let times: Vec<f64> = snaps.iter().map(|&s| rec.times[s]).collect();
     let (mut c, a) = space_time(&times, style, "time (min)", |x_frac, k| {
@@ -37,7 +44,7 @@ pub fn kymograph(rec: &Recording, boundaries: &[Boundary], style: &Style) -> (Ca
     let right = c.width() as f32 - 24.0;
     legend(&mut c, rec, style, right, 50.0, true);
 
-    (c, KymoLayout { axes: a })
+    Ok((c, KymoLayout { axes: a }))
 }
 
 /// A space × time picture: position along the axis (% length) across, the

@@ -5,7 +5,7 @@ use super::Style;
 use super::canvas::{Align, Canvas};
 use super::profiles::profiles_with_axes;
 use crate::compare::Comparison;
-use crate::integrate::Recording;
+use crate::integrate::{ReadBackError, Recording};
 use crate::measure::{Measurement, Planes};
 
 /// The image (first three planes as red, green, blue, each stretched to its
@@ -86,11 +86,14 @@ pub fn check_picture(p: &Planes, m: &Measurement, genes: &[(String, [u8; 3])]) -
 
 /// Simulated profiles at snapshot `s` with each measured boundary of that
 /// time as a band of ±1 sd (a line where no sd is given), in the gene's colour.
-pub fn comparison_overlay(rec: &Recording, s: usize, cmp: &Comparison, style: &Style) -> Canvas {
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn comparison_overlay(rec: &Recording, s: usize, cmp: &Comparison, style: &Style) -> Result<Canvas, ReadBackError> {
     let mut st = style.clone();
     st.time_range = (rec.times[s], rec.times[s]);
-    let sim: Vec<crate::readout::Boundary> = crate::readout::boundaries_at(rec, s);
-    let (mut c, a) = profiles_with_axes(rec, &sim, &st);
+    let sim: Vec<crate::readout::Boundary> = crate::readout::boundaries_at(rec, s)?;
+    let (mut c, a) = profiles_with_axes(rec, &sim, &st)?;
     for r in cmp.rows.iter().filter(|r| r.time_min == rec.times[s]) {
         let Some(m) = r.measured_pct else { continue };
         let color = rec.genes.iter().position(|g| g == &r.gene).map_or(style.background.ink(), |g| style.colors[g]);
@@ -106,5 +109,5 @@ pub fn comparison_overlay(rec: &Recording, s: usize, cmp: &Comparison, style: &S
     let note = "bands: measured boundaries ±1 sd (lines: no sd given); curves and dotted lines: simulated";
     c.rect(0.0, c.height() as f32 - 26.0, c.width() as f32, 26.0, style.background.rgb());
     c.text(64.0, c.height() as f32 - 10.0, 12.0, style.background.muted(), Align::Left, note);
-    c
+    Ok(c)
 }

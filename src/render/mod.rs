@@ -34,7 +34,7 @@ pub use portrait::{PortraitData, portrait, write_cloud_gif};
 
 pub use profiles::{chosen_snapshots, profiles};
 
-use crate::integrate::Recording;
+use crate::integrate::{ReadBackError, Recording};
 
 /// How pictures look.
 #[derive(Debug, Clone, PartialEq)]
@@ -97,8 +97,11 @@ impl Style {
 
 /// Largest level of each gene over the shown snapshots (1 where a gene is blank),
 /// the scale that maps a level to colour intensity.
-pub fn gene_maxima(rec: &Recording, snapshots: &[usize]) -> Vec<f64> {
-    rec.max_levels(snapshots.iter().copied()).into_iter().map(|m| if m > 0.0 { m } else { 1.0 }).collect()
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn gene_maxima(rec: &Recording, snapshots: &[usize]) -> Result<Vec<f64>, ReadBackError> {
+    Ok(rec.max_levels(snapshots.iter().copied())?.into_iter().map(|m| if m > 0.0 { m } else { 1.0 }).collect())
 }
 
 /// Level of gene `g` at axis position `x_um` at snapshot `s`, linear between

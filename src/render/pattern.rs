@@ -5,7 +5,7 @@
 
 use super::canvas::{Align, Canvas};
 use super::{PREDICTION_LABEL, Style, legend, level_at, scale_bar_um, time_text, title};
-use crate::integrate::Recording;
+use crate::integrate::{ReadBackError, Recording};
 
 /// Where things are on a pattern picture.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -37,7 +37,15 @@ pub enum PatternLayout {
 }
 
 /// Draws snapshot `s`; `max[g]` maps gene g's level to full colour.
-pub fn pattern(rec: &Recording, s: usize, style: &Style, max: &[f64]) -> (Canvas, PatternLayout) {
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn pattern(
+    rec: &Recording,
+    s: usize,
+    style: &Style,
+    max: &[f64],
+) -> Result<(Canvas, PatternLayout), ReadBackError> {
     let bg = style.background;
     let width = style.width.max(320);
     let colors = style.shown_colors();
@@ -58,7 +66,7 @@ pub fn pattern(rec: &Recording, s: usize, style: &Style, max: &[f64]) -> (Canvas
         let height = 70 + sh + 80;
         let mut c = Canvas::new(width, height, bg.rgb());
         let (left, top) = ((width - sw) / 2, 70);
-        let state = &rec.state(s);
+        let state = &rec.state(s)?;
         let rows: Vec<u32> = (0..sh).map(|py| ((py as u64 * ny as u64) / sh as u64) as u32).collect();
         let cols: Vec<u32> = (0..sw).map(|px| ((px as u64 * nx as u64) / sw as u64) as u32).collect();
         for (py, &iy) in rows.iter().enumerate() {
@@ -85,7 +93,7 @@ pub fn pattern(rec: &Recording, s: usize, style: &Style, max: &[f64]) -> (Canvas
         let (cx, cy) = (width as f32 / 2.0, 70.0 + ry);
         let height = (cy + ry + 90.0) as u32;
         let mut c = Canvas::new(width, height, bg.rgb());
-        let profiles = rec.axis_profiles(s, style.genes.iter().copied());
+        let profiles = rec.axis_profiles(s, style.genes.iter().copied())?;
         for py in (cy - ry).floor() as u32..(cy + ry).ceil() as u32 {
             for px in (cx - rx).floor() as u32..(cx + rx).ceil() as u32 {
                 let (dx, dy) = ((px as f32 + 0.5 - cx) / rx, (py as f32 + 0.5 - cy) / ry);
@@ -121,5 +129,5 @@ pub fn pattern(rec: &Recording, s: usize, style: &Style, max: &[f64]) -> (Canvas
     c.text(width as f32 - margin, 48.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
     let h = c.height() as f32;
     legend(&mut c, rec, style, width as f32 - margin, h - 18.0, true);
-    (c, layout)
+    Ok((c, layout))
 }

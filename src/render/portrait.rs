@@ -50,7 +50,7 @@ pub fn write_cloud_gif(
         .map(|s| {
             let mut c = Canvas::new(base.width(), base.height(), style.background.rgb());
             c.copy_from(&base);
-            let state = rec.state(s);
+            let state = rec.state(s).map_err(std::io::Error::other)?;
             for ix in 0..nx {
                 let i = row0 + ix;
                 let (x, y) = (a.px(state[[ga, i]]), a.py(state[[gb, i]]));
@@ -70,9 +70,9 @@ pub fn write_cloud_gif(
             let mut rgba = c.rgba().to_vec();
             let mut f = gif::Frame::from_rgba_speed(c.width() as u16, c.height() as u16, &mut rgba, 10);
             f.delay = delay;
-            f
+            Ok(f)
         })
-        .collect();
+        .collect::<std::io::Result<_>>()?;
     super::animate::write_frames(frames, out)
 }
 

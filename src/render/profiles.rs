@@ -3,7 +3,7 @@
 use super::axes::{self, Axes};
 use super::canvas::{Align, Canvas};
 use super::{Style, legend, level_at, time_text, title_and_label};
-use crate::integrate::Recording;
+use crate::integrate::{ReadBackError, Recording};
 use crate::readout::Boundary;
 
 /// Up to four shown snapshots, evenly spread, always including the last.
@@ -22,12 +22,22 @@ fn boundary_label(b: &Boundary) -> String {
 }
 
 /// Draws the profiles; `final_boundaries` are marked at the last chosen time.
-pub fn profiles(rec: &Recording, final_boundaries: &[Boundary], style: &Style) -> Canvas {
-    profiles_with_axes(rec, final_boundaries, style).0
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn profiles(rec: &Recording, final_boundaries: &[Boundary], style: &Style) -> Result<Canvas, ReadBackError> {
+    Ok(profiles_with_axes(rec, final_boundaries, style)?.0)
 }
 
 /// As [`profiles`], also returning the plot axes (for overlays).
-pub fn profiles_with_axes(rec: &Recording, final_boundaries: &[Boundary], style: &Style) -> (Canvas, Axes) {
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn profiles_with_axes(
+    rec: &Recording,
+    final_boundaries: &[Boundary],
+    style: &Style,
+) -> Result<(Canvas, Axes), ReadBackError> {
     let bg = style.background;
     let width = style.width.max(320);
     let (left, right, bottom) = (64.0, 24.0, 70.0);
@@ -54,7 +64,7 @@ pub fn profiles_with_axes(rec: &Recording, final_boundaries: &[Boundary], style:
     let top = (LEGEND_LINE + 8.0 + 12.0 * rows as f32).max(70.0);
     let mut c = Canvas::new(width, (top + plot_h + bottom) as u32, bg.rgb());
     let picks = chosen_snapshots(&style.snapshots(rec));
-    let top_levels = rec.max_levels(picks.iter().copied());
+    let top_levels = rec.max_levels(picks.iter().copied())?;
     let ymax = style.genes.iter().map(|&g| top_levels[g]).fold(0.0f64, f64::max);
     let ymax = if ymax > 0.0 { ymax * 1.05 } else { 1.0 };
     let a = Axes::along_axis(left, top, right, width, plot_h, (0.0, ymax), false);
@@ -64,7 +74,7 @@ pub fn profiles_with_axes(rec: &Recording, final_boundaries: &[Boundary], style:
         // Earlier times fainter: opacity from 25 % to 100 %.
         let alpha = if picks.len() == 1 { 255 } else { (64.0 + 191.0 * k as f64 / (picks.len() - 1) as f64) as u8 };
         let dash = (k + 1 < picks.len()).then_some([6.0, 4.0]);
-        for (&g, p) in style.genes.iter().zip(rec.axis_profiles(s, style.genes.iter().copied())) {
+        for (&g, p) in style.genes.iter().zip(rec.axis_profiles(s, style.genes.iter().copied())?) {
             let pts: Vec<(f32, f32)> = (0..=samples)
                 .map(|i| {
                     let pct = 100.0 * i as f64 / samples as f64;
@@ -88,5 +98,5 @@ pub fn profiles_with_axes(rec: &Recording, final_boundaries: &[Boundary], style:
         format!("t = {} min (dashed, fainter = earlier); dotted lines: boundaries at the last time", times.join(", "));
     c.text(left, c.height() as f32 - 12.0, 12.0, bg.muted(), Align::Left, &note);
     legend(&mut c, rec, style, width as f32 - right, LEGEND_LINE, true);
-    (c, a)
+    Ok((c, a))
 }

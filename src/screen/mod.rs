@@ -39,7 +39,7 @@ pub fn boundaries_at_times(model: &Model, times: &[f64]) -> Result<Vec<Boundary>
             let _ = rec.push(t, state);
         }
     })?;
-    Ok((0..rec.times.len()).flat_map(|s| boundaries_at(&rec, s)).collect())
+    Ok((0..rec.times.len()).map(|s| boundaries_at(&rec, s)).collect::<Result<Vec<_>, _>>()?.concat())
 }
 
 /// Two times that name the same snapshot (relative 1e-9).

@@ -24,8 +24,7 @@ pub fn write_run(
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
     export::remove_stale_temps(dir);
     let rec = &run.recording;
-    let boundaries = readout::find_boundaries(rec)?;
-    let domains = readout::find_domains(rec)?;
+    let (boundaries, domains) = readout::find_boundaries_and_domains(rec)?;
     let path = |name: &str| -> PathBuf { dir.join(name) };
     export::write_profiles(rec, &path("profiles.csv"))?;
     if rec.grid.is_sheet() {

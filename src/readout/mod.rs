@@ -11,7 +11,6 @@ mod profile;
 
 pub use profile::{Crossing, Span, profile_boundaries, profile_domains};
 
-use ndarray::Array2;
 use serde::Serialize;
 
 use crate::integrate::{ReadBackError, Recording};
@@ -58,28 +57,37 @@ pub struct Domain {
 }
 
 /// Runs `read(profile, spacing_um, periodic)` on each gene's axis profile
-/// of `state`, snapshot `s`, and converts each finding with
-/// `make(time, gene, finding, length_um)`.
+/// at snapshot `s` (`profiles`, in gene order) and converts each finding
+/// with `make(time, gene, finding, length_um)`.
 fn per_gene<F, T>(
     rec: &Recording,
     s: usize,
-    state: &Array2<f64>,
+    profiles: &[Vec<f64>],
     read: impl Fn(&[f64], f64, bool) -> Vec<F>,
     make: impl Fn(f64, &str, F, f64) -> T,
 ) -> Vec<T> {
     let grid = &rec.grid;
     let periodic = grid.edges == crate::model::Edges::Periodic;
     let mut out = Vec::new();
-    let profiles = rec.profiles_of(state, 0..rec.genes.len());
     for (g, (name, profile)) in rec.genes.iter().zip(profiles).enumerate() {
         if profile.iter().copied().fold(f64::NEG_INFINITY, f64::max) < rec.floor.get(g).copied().unwrap_or(0.0) {
             continue; // not expressed
         }
-        for found in read(&profile, grid.spacing_um, periodic) {
+        for found in read(profile, grid.spacing_um, periodic) {
             out.push(make(rec.times[s], name, found, grid.length_um()));
         }
     }
     out
+}
+
+/// Every gene's axis profile at snapshot `s`, read back from disk if streamed.
+fn profiles_at(rec: &Recording, s: usize) -> Result<Vec<Vec<f64>>, ReadBackError> {
+    rec.axis_profiles(s, 0..rec.genes.len())
+}
+
+/// Every gene's axis profile at the last snapshot (held in memory, so nothing can fail).
+fn final_profiles(rec: &Recording) -> Vec<Vec<f64>> {
+    rec.profiles_of(rec.final_state(), 0..rec.genes.len())
 }
 
 /// Boundaries of every gene at snapshot `s`.
@@ -87,27 +95,17 @@ fn per_gene<F, T>(
 /// # Errors
 /// [`ReadBackError`] if a streamed snapshot cannot be read back.
 pub fn boundaries_at(rec: &Recording, s: usize) -> Result<Vec<Boundary>, ReadBackError> {
-    read_at(rec, s, boundaries_in)
+    Ok(boundaries_in(rec, s, &profiles_at(rec, s)?))
 }
 
-/// `find(rec, s, state)` on snapshot `s`, read back from disk if streamed.
-fn read_at<T>(
-    rec: &Recording,
-    s: usize,
-    find: fn(&Recording, usize, &Array2<f64>) -> Vec<T>,
-) -> Result<Vec<T>, ReadBackError> {
-    let state = rec.state(s)?;
-    Ok(find(rec, s, &state))
-}
-
-/// Boundaries at the last snapshot (held in memory, so nothing can fail).
+/// Boundaries at the last snapshot.
 pub fn final_boundaries(rec: &Recording) -> Vec<Boundary> {
-    boundaries_in(rec, rec.len() - 1, rec.final_state())
+    boundaries_in(rec, rec.len() - 1, &final_profiles(rec))
 }
 
-/// Boundaries of every gene in `state`, snapshot `s`.
-fn boundaries_in(rec: &Recording, s: usize, state: &Array2<f64>) -> Vec<Boundary> {
-    per_gene(rec, s, state, profile_boundaries, |time_min, gene, c: Crossing, length| Boundary {
+/// Boundaries of every gene in `profiles`, snapshot `s`.
+fn boundaries_in(rec: &Recording, s: usize, profiles: &[Vec<f64>]) -> Vec<Boundary> {
+    per_gene(rec, s, profiles, profile_boundaries, |time_min, gene, c: Crossing, length| Boundary {
         time_min,
         gene: gene.to_string(),
         direction: if c.rising { "rising" } else { "falling" },
@@ -123,17 +121,17 @@ fn boundaries_in(rec: &Recording, s: usize, state: &Array2<f64>) -> Vec<Boundary
 /// # Errors
 /// [`ReadBackError`] if a streamed snapshot cannot be read back.
 pub fn domains_at(rec: &Recording, s: usize) -> Result<Vec<Domain>, ReadBackError> {
-    read_at(rec, s, domains_in)
+    Ok(domains_in(rec, s, &profiles_at(rec, s)?))
 }
 
-/// Domains at the last snapshot (held in memory, so nothing can fail).
+/// Domains at the last snapshot.
 pub fn final_domains(rec: &Recording) -> Vec<Domain> {
-    domains_in(rec, rec.len() - 1, rec.final_state())
+    domains_in(rec, rec.len() - 1, &final_profiles(rec))
 }
 
-/// Domains of every gene in `state`, snapshot `s`.
-fn domains_in(rec: &Recording, s: usize, state: &Array2<f64>) -> Vec<Domain> {
-    per_gene(rec, s, state, profile_domains, |time_min, gene, d: Span, length| Domain {
+/// Domains of every gene in `profiles`, snapshot `s`.
+fn domains_in(rec: &Recording, s: usize, profiles: &[Vec<f64>]) -> Vec<Domain> {
+    per_gene(rec, s, profiles, profile_domains, |time_min, gene, d: Span, length| Domain {
         time_min,
         gene: gene.to_string(),
         start_um: d.start_um,
@@ -150,15 +148,22 @@ fn domains_in(rec: &Recording, s: usize, state: &Array2<f64>) -> Vec<Domain> {
 /// # Errors
 /// [`ReadBackError`] if a streamed snapshot cannot be read back.
 pub fn find_boundaries(rec: &Recording) -> Result<Vec<Boundary>, ReadBackError> {
-    Ok((0..rec.times.len()).map(|s| boundaries_at(rec, s)).collect::<Result<Vec<_>, _>>()?.concat())
+    Ok((0..rec.len()).map(|s| boundaries_at(rec, s)).collect::<Result<Vec<_>, _>>()?.concat())
 }
 
-/// Domains at every snapshot, in time order.
+/// Boundaries and domains at every snapshot, in time order: each snapshot
+/// is read and profiled once for both.
 ///
 /// # Errors
 /// [`ReadBackError`] if a streamed snapshot cannot be read back.
-pub fn find_domains(rec: &Recording) -> Result<Vec<Domain>, ReadBackError> {
-    Ok((0..rec.times.len()).map(|s| domains_at(rec, s)).collect::<Result<Vec<_>, _>>()?.concat())
+pub fn find_boundaries_and_domains(rec: &Recording) -> Result<(Vec<Boundary>, Vec<Domain>), ReadBackError> {
+    let (mut boundaries, mut domains) = (Vec::new(), Vec::new());
+    for s in 0..rec.len() {
+        let profiles = profiles_at(rec, s)?;
+        boundaries.extend(boundaries_in(rec, s, &profiles));
+        domains.extend(domains_in(rec, s, &profiles));
+    }
+    Ok((boundaries, domains))
 }
 
 #[cfg(test)]

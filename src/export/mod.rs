@@ -58,7 +58,7 @@ pub enum ExportError {
 pub fn write_atomic(path: &Path, body: impl FnOnce(&mut dyn Write) -> std::io::Result<()>) -> Result<(), ExportError> {
     let io = |source| ExportError::Io { path: path.to_path_buf(), source };
     let name = path.file_name().map_or_else(|| "out".into(), |n| n.to_string_lossy().into_owned());
-    let tmp = path.with_file_name(format!(".{name}.tmp{}", std::process::id()));
+    let tmp = path.with_file_name(temp_name(&name, std::process::id()));
     let result = (|| {
         let file = File::create(&tmp)?;
         let mut w = BufWriter::new(file);
@@ -78,20 +78,26 @@ pub fn write_atomic(path: &Path, body: impl FnOnce(&mut dyn Write) -> std::io::R
 /// on systems without `/proc`, none is removed). Errors are ignored: a
 /// leftover is untidy, not wrong.
 pub fn remove_stale_temps(dir: &Path) {
+    if !Path::new("/proc/self").exists() {
+        return;
+    }
     let Ok(entries) = std::fs::read_dir(dir) else { return };
     for entry in entries.flatten() {
-        let name = entry.file_name().to_string_lossy().into_owned();
-        let Some(pid) = name.strip_prefix('.').and_then(|n| n.rsplit_once(".tmp")).map(|(_, pid)| pid) else {
-            continue;
-        };
-        let Ok(pid) = pid.parse::<u32>() else { continue };
-        let gone = pid != std::process::id()
-            && Path::new("/proc/self").exists()
-            && !Path::new(&format!("/proc/{pid}")).exists();
-        if gone {
+        let Some(pid) = temp_owner(&entry.file_name().to_string_lossy()) else { continue };
+        if pid != std::process::id() && !Path::new(&format!("/proc/{pid}")).exists() {
             let _ = std::fs::remove_file(entry.path());
         }
     }
+}
+
+/// The temporary name [`write_atomic`] gives file `name` in process `pid`.
+fn temp_name(name: &str, pid: u32) -> String {
+    format!(".{name}.tmp{pid}")
+}
+
+/// The process whose temporary this is, if `file` is a [`temp_name`].
+fn temp_owner(file: &str) -> Option<u32> {
+    file.strip_prefix('.')?.rsplit_once(".tmp")?.1.parse().ok()
 }
 
 /// Writes the whole recording as a NumPy array of f64: `[snapshot, gene, nucleus]`

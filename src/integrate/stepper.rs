@@ -17,6 +17,7 @@ use rayon::prelude::*;
 use super::StepError;
 use crate::kinetics::{CHUNK, Kinetics};
 use crate::tissue::{Diffusion, Rhs, Tissue};
+use crate::wide::with_avx2;
 
 /// |u| above this counts as a blow-up, a.u.
 const BLOW_UP: f64 = 1e100;
@@ -26,24 +27,15 @@ const PARALLEL_MIN: usize = 8192;
 /// True if every value is finite and below [`BLOW_UP`] in size (a
 /// branch-free scan over each contiguous row, so it vectorises).
 fn tame(v: ndarray::ArrayView2<f64>) -> bool {
-    #[inline(always)]
-    fn plain(v: ndarray::ArrayView2<f64>) -> bool {
-        v.outer_iter().all(|row| {
-            let row = row.to_slice().expect("gene-major rows are contiguous");
-            row.iter().fold(true, |ok, x| ok & (x.abs() <= BLOW_UP))
-        })
-    }
-    #[cfg(target_arch = "x86_64")]
-    if std::arch::is_x86_feature_detected!("avx2") {
-        /// The same scan compiled for 4-wide vectors.
-        #[target_feature(enable = "avx2")]
-        fn wide(v: ndarray::ArrayView2<f64>) -> bool {
-            plain(v)
-        }
-        // SAFETY: the CPU was just checked for AVX2.
-        return unsafe { wide(v) };
-    }
-    plain(v)
+    with_avx2(
+        #[inline(always)]
+        || {
+            v.outer_iter().all(|row| {
+                let row = row.to_slice().expect("gene-major rows are contiguous");
+                row.iter().fold(true, |ok, x| ok & (x.abs() <= BLOW_UP))
+            })
+        },
+    )
 }
 
 /// `max |c·(r − (wn·u + wn1·u1 + wn2·u2))| / (atol + rtol·max(|u|, |r|))`
@@ -51,18 +43,10 @@ fn tame(v: ndarray::ArrayView2<f64>) -> bool {
 /// running maxima (max is exact, so the order of the lanes does not change
 /// the result) let the loop vectorise.
 fn error_max(r: &[f64], u: &[f64], u1: &[f64], u2: &[f64], w: [f64; 4], rtol: f64, atol: f64) -> f64 {
-    #[cfg(target_arch = "x86_64")]
-    if std::arch::is_x86_feature_detected!("avx2") {
-        /// The same code compiled for 4-wide vectors (no fused multiply–add
-        /// is introduced, so results are bit-identical to the plain path).
-        #[target_feature(enable = "avx2")]
-        fn wide(r: &[f64], u: &[f64], u1: &[f64], u2: &[f64], w: [f64; 4], rtol: f64, atol: f64) -> f64 {
-            error_max_plain(r, u, u1, u2, w, rtol, atol)
-        }
-        // SAFETY: the CPU was just checked for AVX2.
-        return unsafe { wide(r, u, u1, u2, w, rtol, atol) };
-    }
-    error_max_plain(r, u, u1, u2, w, rtol, atol)
+    with_avx2(
+        #[inline(always)]
+        || error_max_plain(r, u, u1, u2, w, rtol, atol),
+    )
 }
 
 #[inline(always)]

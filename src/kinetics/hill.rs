@@ -218,24 +218,10 @@ impl Kinetics for HillKinetics {
                 const { std::cell::RefCell::new(Scratch { num: [0.0; CHUNK], den: [0.0; CHUNK], sum: [0.0; CHUNK] }) };
         }
         SCRATCH.with_borrow_mut(|scratch| {
-            #[cfg(target_arch = "x86_64")]
-            if std::arch::is_x86_feature_detected!("avx2") {
-                /// The same code compiled for 4-wide vectors (no fused multiply–add
-                /// is introduced, so results are bit-identical to the plain path).
-                #[target_feature(enable = "avx2")]
-                fn wide(
-                    k: &HillKinetics,
-                    u: ArrayView2<f64>,
-                    m: ArrayView2<f64>,
-                    out: ArrayViewMut2<f64>,
-                    s: &mut Scratch,
-                ) {
-                    k.all_genes(u, m, out, s)
-                }
-                // SAFETY: the CPU was just checked for AVX2.
-                return unsafe { wide(self, u, m, out, scratch) };
-            }
-            self.all_genes(u, m, out, scratch)
+            crate::wide::with_avx2(
+                #[inline(always)]
+                || self.all_genes(u, m, out, scratch),
+            )
         })
     }
 

@@ -177,23 +177,10 @@ fn sweep_strip(
     off: f64,
     row_of: &dyn Fn(usize) -> usize,
 ) {
-    #[cfg(target_arch = "x86_64")]
-    if std::arch::is_x86_feature_detected!("avx2") {
-        /// The same code compiled for 4-wide vectors (bit-identical results).
-        #[target_feature(enable = "avx2")]
-        fn wide(
-            b: ArrayViewMut2<f64>,
-            m: ArrayView2<f64>,
-            inv_w: ArrayView2<f64>,
-            off: f64,
-            row_of: &dyn Fn(usize) -> usize,
-        ) {
-            sweep_strip_body(b, m, inv_w, off, row_of)
-        }
-        // SAFETY: the CPU was just checked for AVX2.
-        return unsafe { wide(b, m, inv_w, off, row_of) };
-    }
-    sweep_strip_body(b, m, inv_w, off, row_of)
+    crate::wide::with_avx2(
+        #[inline(always)]
+        || sweep_strip_body(b, m, inv_w, off, row_of),
+    )
 }
 
 #[inline(always)]

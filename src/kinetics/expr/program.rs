@@ -81,25 +81,10 @@ impl Program {
                 const { std::cell::RefCell::new([[0.0; CHUNK]; MAX_DEPTH]) };
         }
         STACK.with_borrow_mut(|stack| {
-            #[cfg(target_arch = "x86_64")]
-            if std::arch::is_x86_feature_detected!("avx2") {
-                /// The same code compiled for 4-wide vectors (no fused multiply–add
-                /// is introduced, so results are bit-identical to the plain path).
-                #[target_feature(enable = "avx2")]
-                fn wide<'a>(
-                    p: &Program,
-                    gene: &dyn Fn(usize) -> &'a [f64],
-                    input: &dyn Fn(usize) -> &'a [f64],
-                    len: usize,
-                    out: &mut [f64],
-                    stack: &mut [[f64; CHUNK]],
-                ) {
-                    p.run_with(gene, input, len, out, stack)
-                }
-                // SAFETY: the CPU was just checked for AVX2.
-                return unsafe { wide(self, gene, input, len, out, stack) };
-            }
-            self.run_with(gene, input, len, out, stack)
+            crate::wide::with_avx2(
+                #[inline(always)]
+                || self.run_with(gene, input, len, out, stack),
+            )
         })
     }
 

@@ -16,6 +16,14 @@ fn temp_dir(name: &str) -> PathBuf {
     dir
 }
 
+/// A fresh test folder `name` holding `file` with `text`; returns (folder, file).
+fn model_in_temp(name: &str, file: &str, text: &str) -> (PathBuf, PathBuf) {
+    let dir = temp_dir(name);
+    let path = dir.join(file);
+    std::fs::write(&path, text).unwrap();
+    (dir, path)
+}
+
 fn run_into(model: &str, out: &Path, threads: usize) {
     let model = root().join(model);
     let o =
@@ -108,12 +116,10 @@ fn check_describes_the_model() {
 
 #[test]
 fn bad_model_exits_2_with_location() {
-    let dir = temp_dir("bad");
-    let path = dir.join("bad.toml");
     let text =
         std::fs::read_to_string(root().join("patterns/ribbon.toml")).unwrap().replace("decay = 0.1 ", "decay = -0.1 ");
     let line = 1 + text.lines().position(|l| l.starts_with("decay = -0.1")).unwrap();
-    std::fs::write(&path, text).unwrap();
+    let (dir, path) = model_in_temp("bad", "bad.toml", &text);
     let o = anlage(&["run", path.to_str().unwrap(), "-o", dir.join("out").to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(2));
     let err = String::from_utf8_lossy(&o.stderr);
@@ -123,17 +129,15 @@ fn bad_model_exits_2_with_location() {
 
 #[test]
 fn blow_up_exits_1_with_time_nucleus_and_gene() {
-    let dir = temp_dir("blowup");
-    let path = dir.join("blowup.toml");
     // Self-activation with n = 1 and no saturation in reach of decay: explosive growth.
-    std::fs::write(
-        &path,
+    let (dir, path) = model_in_temp(
+        "blowup",
+        "blowup.toml",
         "[tissue]\nnuclei = [5]\nspacing_um = 1.0\n[clock]\nuntil_min = 100.0\nstep_min = 1.0\nsnapshot_every_min = 10.0\n\
          [[gene]]\nname = \"runaway\"\nproduction = 1.0\ndecay = 0.0\ndiffusion = 1000000.0\ninitial_profile = [1.0, 0.0, 0.0, 0.0, 1.0]\n\
          [[gene]]\nname = \"fuel\"\nproduction = 1e300\ndecay = 0.0\n[circuit]\nkinetics = \"sigmoid\"\n\
          [[circuit.link]]\nfrom = \"fuel\"\nto = \"fuel\"\nweight = 1.0\n",
-    )
-    .unwrap();
+    );
     let o = anlage(&["run", path.to_str().unwrap(), "-o", dir.join("out").to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(1), "{}", String::from_utf8_lossy(&o.stderr));
     let err = String::from_utf8_lossy(&o.stderr);
@@ -297,17 +301,15 @@ fn timing_line_and_repeat() {
 /// working arrays.
 #[test]
 fn small_budget_streams_the_recording_instead_of_refusing() {
-    let dir = temp_dir("budget");
-    let model = dir.join("long_row.toml");
-    std::fs::write(
-        &model,
+    let (dir, model) = model_in_temp(
+        "budget",
+        "long_row.toml",
         "[tissue]\nnuclei = [50000]\nspacing_um = 1.0\n[clock]\nuntil_min = 100.0\nstep_min = 0.5\n\
          snapshot_every_min = 1.0\n[[gradient]]\nname = \"head\"\nshape = \"exponential\"\nfrom = \"left\"\n\
          peak = 1.0\ndecay_length_um = 5000.0\n[[gene]]\nname = \"amber\"\nproduction = 1.0\ndecay = 0.1\n\
          diffusion = 1.0\n[circuit]\nkinetics = \"hill\"\n[[circuit.link]]\nfrom = \"head\"\nto = \"amber\"\n\
          sign = \"+\"\nthreshold = 0.5\nhill = 2\n",
-    )
-    .unwrap();
+    );
     let out = dir.join("run");
     let run = |gib: &str| {
         Command::new(env!("CARGO_BIN_EXE_anlage"))

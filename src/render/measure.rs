@@ -69,14 +69,12 @@ pub fn check_picture(p: &Planes, m: &Measurement, genes: &[(String, [u8; 3])]) -
         let tick = half + 10.0;
         c.line(x - tick * nx, y - tick * ny, x + tick * nx, y + tick * ny, 2.5, color);
         let off = tick + 12.0 + 12.0 * (k % 2) as f32;
-        c.text(
-            x + off * nx,
-            y + off * ny + 4.0,
-            12.0,
-            color,
-            Align::Centre,
-            &format!("{} {:.1}%", b.gene, b.position_pct),
-        );
+        let (lx, ly) = (x + off * nx, y + off * ny + 4.0);
+        let label = format!("{} {:.1}%", b.gene, b.position_pct);
+        // On a dark backing: the stain under the label can be any colour.
+        let lw = Canvas::text_width(12.0, &label);
+        c.rect(lx - lw / 2.0 - 3.0, ly - 11.0, lw + 6.0, 15.0, [0, 0, 0]);
+        c.text(lx, ly, 12.0, color, Align::Centre, &label);
     }
     let name = p.path.file_name().map_or_else(String::new, |n| n.to_string_lossy().into_owned());
     let note = format!("{name}: outline, axis from head (H), strip read ({} px), boundaries", m.strip_px);

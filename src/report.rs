@@ -4,7 +4,7 @@ use std::fmt::Write;
 use std::path::Path;
 
 use anlage::Summary;
-use anlage::model::{KineticsKind, LinkEffect, Model, Regulator, Shape, Side, Stepping};
+use anlage::model::{KineticsKind, LinkEffect, Model, Regulator, Shape, Side};
 
 fn gib(bytes: u64) -> String {
     let b = bytes as f64;
@@ -38,7 +38,7 @@ pub fn describe(m: &Model) -> String {
         m.clock.snapshot_every_min,
         m.snapshot_count()
     );
-    let _ = writeln!(s, "stepping  {}", anlage_stepping(&m.clock.stepping));
+    let _ = writeln!(s, "stepping  {}", anlage::summary_stepping_text(&m.clock));
     match m.clock.fixed_steps() {
         Some(n) => {
             let _ = writeln!(
@@ -53,7 +53,7 @@ pub fn describe(m: &Model) -> String {
     }
     let rate = anlage::integrate::reaction_stiffness(m);
     if rate > 0.0 {
-        let k_max = 4.0 / (3.0 * rate);
+        let k_max = anlage::integrate::explicit_stability(m.clock.scheme) / rate;
         let at_least = (m.clock.until_min / k_max).ceil();
         let _ = writeln!(
             s,
@@ -141,10 +141,6 @@ pub fn describe(m: &Model) -> String {
         let _ = writeln!(s, "  {from} -> {}: {effect}", m.genes[l.to].name);
     }
     s
-}
-
-fn anlage_stepping(s: &Stepping) -> String {
-    anlage::summary_stepping_text(s)
 }
 
 /// What `anlage run` prints at the end.

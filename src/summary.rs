@@ -3,7 +3,7 @@
 use serde::Serialize;
 
 use crate::Run;
-use crate::model::{Edges, Model, Stepping};
+use crate::model::{Clock, Edges, Model, Scheme, Stepping};
 
 use crate::readout::{Boundary, Domain, final_boundaries, final_domains};
 
@@ -92,7 +92,7 @@ impl Summary {
             expression_floor: rec.floor.clone(),
             axis_length_um: model.grid.length_um(),
             genes: rec.genes.clone(),
-            stepping: stepping_text(&model.clock.stepping),
+            stepping: stepping_text(&model.clock),
             steps: run.stats.steps,
             rejected_steps: run.stats.rejected,
             snapshots: rec.times.len(),
@@ -110,11 +110,15 @@ pub fn fnv1a(bytes: &[u8]) -> u64 {
 }
 
 /// Human-readable step control.
-pub fn stepping_text(s: &Stepping) -> String {
-    match s {
-        Stepping::Fixed { step_min } => format!("SBDF2, fixed step {step_min} min"),
+pub fn stepping_text(clock: &Clock) -> String {
+    let scheme = match clock.scheme {
+        Scheme::Sbdf2 => "SBDF2",
+        Scheme::Ark4 => "ARK4(3)6L[2]SA",
+    };
+    match clock.stepping {
+        Stepping::Fixed { step_min } => format!("{scheme}, fixed step {step_min} min"),
         Stepping::Adaptive { rtol, atol, max_step_min } => {
-            format!("SBDF2, error-controlled steps (rtol {rtol:e}, atol {atol:e}, at most {max_step_min} min)")
+            format!("{scheme}, error-controlled steps (rtol {rtol:e}, atol {atol:e}, at most {max_step_min} min)")
         }
     }
 }

@@ -9,34 +9,23 @@
 //! ```
 //! For ω = 1 this is `3u¹ − 2kD∇²u¹ = 4u⁰ − u⁻¹ + 2k(2f⁰ − f⁻¹)`. The first
 //! step, with no history, is IMEX Euler: `u¹ − kD∇²u¹ = u⁰ + k f(u⁰)`.
-//! Diffusion is implicit (exact solve), reactions explicit.
+//! Diffusion is implicit (exact solve), reactions explicit. With
+//! [`Scheme::Ark4`] the same stepper takes ARK4(3)6L\[2\]SA steps instead
+//! (see [`super::ark`]).
 
-use ndarray::{Array2, Axis, Zip};
+use ndarray::{Array2, Zip};
 use rayon::prelude::*;
 
 use super::StepError;
+use super::ark::Ark;
+use super::reactions::Reactions;
 use crate::kinetics::{CHUNK, Kinetics};
+use crate::model::Scheme;
 use crate::tissue::{Diffusion, Rhs, Tissue};
 use crate::wide::with_avx2;
 
-/// |u| above this counts as a blow-up, a.u.
-const BLOW_UP: f64 = 1e100;
 /// Below this many values, work is done on one thread.
 const PARALLEL_MIN: usize = 8192;
-
-/// True if every value is finite and below [`BLOW_UP`] in size (a
-/// branch-free scan over each contiguous row, so it vectorises).
-fn tame(v: ndarray::ArrayView2<f64>) -> bool {
-    with_avx2(
-        #[inline(always)]
-        || {
-            v.outer_iter().all(|row| {
-                let row = row.to_slice().expect("gene-major rows are contiguous");
-                row.iter().fold(true, |ok, x| ok & (x.abs() <= BLOW_UP))
-            })
-        },
-    )
-}
 
 /// `max |c·(r − (wn·u + wn1·u1 + wn2·u2))| / (atol + rtol·max(|u|, |r|))`
 /// over equal-length slices, infinite if any term is not finite. Four
@@ -80,11 +69,8 @@ fn error_max_plain(r: &[f64], u: &[f64], u1: &[f64], u2: &[f64], w: [f64; 4], rt
 
 /// The integrator's state and working arrays; nothing is allocated per step.
 pub struct Stepper<'a> {
-    kinetics: &'a dyn Kinetics,
-    tissue: &'a Tissue,
+    reactions: Reactions<'a>,
     diffusion: Diffusion,
-    gene_names: Vec<String>,
-    parallel: bool,
     /// Time of `u`, min.
     t: f64,
     u: Array2<f64>,
@@ -93,17 +79,14 @@ pub struct Stepper<'a> {
     f: Array2<f64>,
     f1: Array2<f64>,
     trial: Array2<f64>,
-    inputs: Array2<f64>,
     /// Accepted states held: 1 = u; 2 = u, u1; 3 = u, u1, u2.
     history: usize,
     /// t(u) − t(u1), min.
     k1: f64,
     /// t(u1) − t(u2), min.
     k2: f64,
-    /// Genes held at a level.
-    clamps: Vec<Option<f64>>,
-    /// Extra production per gene and nucleus (ectopic expression), a.u./min.
-    source: Option<Array2<f64>>,
+    /// The fourth-order scheme's working arrays, when it is the scheme.
+    ark: Option<Box<Ark>>,
     /// Every attempt is accepted and no error is estimated (see [`Self::accept_every_step`]).
     lean: bool,
 }
@@ -135,11 +118,8 @@ impl<'a> Stepper<'a> {
         let dim = u0.dim();
         let parallel = parallel && dim.0 * dim.1 >= PARALLEL_MIN;
         let mut s = Stepper {
-            kinetics,
-            tissue,
+            reactions: Reactions::new(kinetics, tissue, gene_names, parallel, t0, forcing),
             diffusion: Diffusion::new(&tissue.grid, diffusion),
-            gene_names,
-            parallel,
             t: t0,
             u: u0,
             u1: Array2::zeros(dim),
@@ -147,17 +127,43 @@ impl<'a> Stepper<'a> {
             f: Array2::zeros(dim),
             f1: Array2::zeros(dim),
             trial: Array2::zeros(dim),
-            inputs: tissue.inputs_at(t0),
             history: 1,
             k1: 0.0,
             k2: 0.0,
-            clamps: forcing.clamps,
-            source: forcing.source,
+            ark: None,
             lean: false,
         };
-        s.apply_clamps_to_state();
+        s.reactions.clamp(&mut s.u);
         s.evaluate_rates()?;
         Ok(s)
+    }
+
+    /// Steps with `scheme` from now on (SBDF2 unless told).
+    pub fn with_scheme(mut self, scheme: Scheme, diffusion: &[f64]) -> Stepper<'a> {
+        self.ark = match scheme {
+            Scheme::Sbdf2 => None,
+            Scheme::Ark4 => {
+                let mut ark = Box::new(Ark::new(self.u.dim(), diffusion));
+                ark.apply_diffusion(&self.reactions, &self.u);
+                Some(ark)
+            }
+        };
+        self
+    }
+
+    /// Exponent of the step-size controller: the local error estimate
+    /// scales as kᵖ⁺¹, p the order of the lower member of the pair (SBDF2
+    /// against its predictor: p = 2; ARK4(3): p = 3).
+    pub fn error_exponent(&self) -> f64 {
+        if self.ark.is_some() { 1.0 / 4.0 } else { 1.0 / 3.0 }
+    }
+
+    /// Largest growth of the step from one step to the next: SBDF2's
+    /// zero-stability bound (see [`super::MAX_STEP_RATIO`]); 5 for the one-step
+    /// ARK scheme (the usual cap of embedded Runge–Kutta codes, Hairer,
+    /// Nørsett & Wanner, Solving ODEs I, §II.4, "facmax" between 1.5 and 5).
+    pub fn max_growth(&self) -> f64 {
+        if self.ark.is_some() { 5.0 } else { super::MAX_STEP_RATIO }
     }
 
     /// Current time, min.
@@ -193,7 +199,7 @@ impl<'a> Stepper<'a> {
             k1: self.k1,
             k2: self.k2,
             u: [self.u.clone(), self.u1.clone(), self.u2.clone()],
-            f: [self.f.clone(), self.f1.clone()],
+            f: [self.f.clone(), self.ark.as_ref().map_or_else(|| self.f1.clone(), |a| a.lu.clone())],
         }
     }
 
@@ -211,7 +217,10 @@ impl<'a> Stepper<'a> {
         self.u1.assign(&s.u[1]);
         self.u2.assign(&s.u[2]);
         self.f.assign(&s.f[0]);
-        self.f1.assign(&s.f[1]);
+        match &mut self.ark {
+            Some(ark) => ark.lu.assign(&s.f[1]),
+            None => self.f1.assign(&s.f[1]),
+        }
     }
 
     /// From now on every attempt is accepted and [`Self::error_norm`] is not
@@ -229,9 +238,12 @@ impl<'a> Stepper<'a> {
     /// unchanged, unless [`Self::accept_every_step`] was called: then the
     /// previous state is consumed and the trial must be accepted).
     pub fn attempt(&mut self, k: f64) {
-        if self.history == 1 {
+        let parallel = self.reactions.parallel;
+        if let Some(ark) = &mut self.ark {
+            ark.attempt(k, self.t, &self.u, &self.f, &mut self.trial, &mut self.diffusion, &mut self.reactions);
+        } else if self.history == 1 {
             Zip::from(&mut self.trial).and(&self.u).and(&self.f).for_each(|r, &u, &f| *r = u + k * f);
-            self.diffusion.solve(&mut self.trial, 1.0, k, self.parallel);
+            self.diffusion.solve(&mut self.trial, 1.0, k, parallel);
         } else {
             let w = k / self.k1;
             if self.lean {
@@ -244,26 +256,9 @@ impl<'a> Stepper<'a> {
                 f1: self.f1.as_slice().expect("standard layout"),
                 c: [(1.0 + w) * (1.0 + w), w * w, k * (1.0 + w), 1.0 + w, w],
             };
-            self.diffusion.solve_rhs(&mut self.trial, &rhs, 1.0 + 2.0 * w, k * (1.0 + w), self.parallel);
+            self.diffusion.solve_rhs(&mut self.trial, &rhs, 1.0 + 2.0 * w, k * (1.0 + w), parallel);
         }
-        self.apply_clamps_to_trial();
-    }
-
-    fn apply_clamps_to_state(&mut self) {
-        for (g, c) in self.clamps.iter().enumerate() {
-            if let Some(level) = c {
-                self.u.row_mut(g).fill(*level);
-                self.f.row_mut(g).fill(0.0);
-            }
-        }
-    }
-
-    fn apply_clamps_to_trial(&mut self) {
-        for (g, c) in self.clamps.iter().enumerate() {
-            if let Some(level) = c {
-                self.trial.row_mut(g).fill(*level);
-            }
-        }
+        self.reactions.clamp(&mut self.trial);
     }
 
     /// Weighted max-norm of the local error of the trial step of size `k`:
@@ -277,8 +272,13 @@ impl<'a> Stepper<'a> {
     /// reaction-driven error and 2/11 for diffusion-driven error. We take
     /// C = 0.8, which over-estimates the latter: safe.
     /// Infinite if the trial is not finite.
+    ///
+    /// With the ARK scheme: its embedded estimate (`ark::Ark::error_norm`).
     pub fn error_norm(&self, k: f64, rtol: f64, atol: f64) -> f64 {
         assert!(!self.lean, "no error estimate after accept_every_step");
+        if let Some(ark) = &self.ark {
+            return ark.error_norm(&self.u, &self.trial, rtol, atol);
+        }
         let (c, wn, wn1, wn2) = if self.history >= 3 {
             let (k1, k2) = (self.k1, self.k2);
             let wn = (k + k1) * (k + k1 + k2) / (k1 * (k1 + k2));
@@ -308,7 +308,7 @@ impl<'a> Stepper<'a> {
         };
         let n = r.len();
         const BLOCK: usize = CHUNK * 32;
-        if self.parallel && n >= 2 * BLOCK {
+        if self.reactions.parallel && n >= 2 * BLOCK {
             (0..n.div_ceil(BLOCK))
                 .into_par_iter()
                 .map(|b| part(b * BLOCK..((b + 1) * BLOCK).min(n)))
@@ -324,6 +324,17 @@ impl<'a> Stepper<'a> {
     /// # Errors
     /// [`StepError::NonFinite`] if the new state or its rates are NaN, infinite or blown up.
     pub fn accept(&mut self, k: f64, t_new: f64) -> Result<(), StepError> {
+        if let Some(ark) = &mut self.ark {
+            if let Some(e) = ark.failed.take() {
+                return Err(e);
+            }
+            std::mem::swap(&mut self.u, &mut self.trial);
+            self.k1 = k;
+            self.t = t_new;
+            self.reactions.eval(self.t, &self.u, &mut self.f)?;
+            ark.apply_diffusion(&self.reactions, &self.u);
+            return Ok(());
+        }
         if !self.lean {
             std::mem::swap(&mut self.u2, &mut self.u1);
         }
@@ -339,59 +350,6 @@ impl<'a> Stepper<'a> {
 
     /// `f ← f(u, m(t))`, checking every value.
     fn evaluate_rates(&mut self) -> Result<(), StepError> {
-        if self.tissue.time_varying() {
-            self.tissue.fill_inputs(self.t, &mut self.inputs);
-        } else if self.kinetics.reads_time() {
-            self.tissue.fill_time(self.t, &mut self.inputs);
-        }
-        self.tissue.fill_neighbours(&self.u, &mut self.inputs);
-        let kinetics = self.kinetics;
-        let ax = Axis(1);
-        type Chunk<'v> =
-            (usize, (ndarray::ArrayViewMut2<'v, f64>, (ndarray::ArrayView2<'v, f64>, ndarray::ArrayView2<'v, f64>)));
-        let chunk = |(c, (mut out, (u, m))): Chunk| {
-            kinetics.rates(u.view(), m, out.view_mut());
-            if tame(u) && tame(out.view()) { None } else { Some(c) }
-        };
-        let outs = self.f.axis_chunks_iter_mut(ax, CHUNK);
-        let us = self.u.axis_chunks_iter(ax, CHUNK);
-        let ms = self.inputs.axis_chunks_iter(ax, CHUNK);
-        let first_bad = if self.parallel {
-            outs.into_par_iter().zip(us.into_par_iter().zip(ms.into_par_iter())).enumerate().filter_map(chunk).min()
-        } else {
-            outs.zip(us.zip(ms)).enumerate().filter_map(chunk).min()
-        };
-        if let Some(src) = &self.source {
-            self.f += src;
-        }
-        for (g, c) in self.clamps.iter().enumerate() {
-            if c.is_some() {
-                self.f.row_mut(g).fill(0.0);
-            }
-        }
-        match first_bad {
-            None => Ok(()),
-            Some(c) => Err(self.locate_bad(c * CHUNK)),
-        }
-    }
-
-    fn locate_bad(&self, from: usize) -> StepError {
-        let n = self.u.ncols();
-        for i in from..n {
-            for (g, name) in self.gene_names.iter().enumerate() {
-                for (value, what) in [(self.u[[g, i]], "level"), (self.f[[g, i]], "rate")] {
-                    if !(value.abs() <= BLOW_UP) {
-                        return StepError::NonFinite {
-                            t_min: self.t,
-                            nucleus: i,
-                            gene: name.clone(),
-                            what: what.into(),
-                            value,
-                        };
-                    }
-                }
-            }
-        }
-        unreachable!("a chunk flagged as bad holds a bad value")
+        self.reactions.eval(self.t, &self.u, &mut self.f)
     }
 }

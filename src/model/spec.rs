@@ -104,6 +104,8 @@ pub struct ClockSpec {
     pub max_step_min: Option<f64>,
     /// Interval between recorded snapshots, min.
     pub snapshot_every_min: f64,
+    /// Time-stepping scheme: `"sbdf2"` (default) or `"ark4"`.
+    pub scheme: Option<String>,
 }
 
 /// `[[gradient]]`

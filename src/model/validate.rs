@@ -7,7 +7,9 @@ use toml::Spanned;
 
 use super::spec::{ClockSpec, GradientSpec, ModelSpec, TissueSpec};
 use super::validate_circuit::{check_circuit, check_gene};
-use super::{Circuit, Clock, Edges, Gradient, Grid, KineticsKind, Model, ModelError, Shape, Side, Source, Stepping};
+use super::{
+    Circuit, Clock, Edges, Gradient, Grid, KineticsKind, Model, ModelError, Scheme, Shape, Side, Source, Stepping,
+};
 
 /// Default gene colours: the Okabe & Ito (2008) palette, distinguishable with
 /// the common forms of colour blindness ("Color Universal Design", web page).
@@ -317,7 +319,19 @@ fn check_clock(cl: &Spanned<ClockSpec>, src: &Source) -> Result<Clock, ModelErro
             Stepping::Adaptive { rtol, atol, max_step_min }
         }
     };
-    Ok(Clock { until_min, snapshot_every_min, stepping })
+    let scheme = match spec.scheme.as_deref() {
+        None | Some("sbdf2") => Scheme::Sbdf2,
+        Some("ark4") => Scheme::Ark4,
+        Some(other) => {
+            return Err(c.fail(
+                "scheme",
+                format!("is `{other}`"),
+                "use `sbdf2` (second order, the default) or `ark4` (fourth order: fewer, costlier steps, \
+                 best with error-controlled steps at tight tolerances)",
+            ));
+        }
+    };
+    Ok(Clock { until_min, snapshot_every_min, stepping, scheme })
 }
 
 fn check_gradient(i: usize, g: &Spanned<GradientSpec>, grid: &Grid, src: &Source) -> Result<Gradient, ModelError> {

@@ -1,0 +1,293 @@
+//! Fourth-order additive Runge–Kutta: ARK4(3)6L\[2\]SA (Kennedy & Carpenter
+//! 2003, Appl. Numer. Math. 44:139, Table 5 of the published coefficients),
+//! diffusion through its ESDIRK tableau (implicit, L-stable, γ = 1/4),
+//! reactions through its explicit tableau. For stage i = 2…6 at `t + cᵢk`:
+//!
+//! ```text
+//! (I − γk D∇²) Yᵢ = u + k Σ_{j<i} (aᴱᵢⱼ fᴱⱼ + aᴵᵢⱼ fᴵⱼ),   fᴱᵢ = f(Yᵢ, m(t + cᵢk)),  fᴵᵢ = D∇²Yᵢ
+//! u¹ = u + k Σᵢ bᵢ (fᴱᵢ + fᴵᵢ),     error estimate  e = k Σᵢ (bᵢ − b̂ᵢ)(fᴱᵢ + fᴵᵢ)
+//! ```
+//! with Y₁ = u, so fᴱ₁ and fᴵ₁ = D∇²u are carried from the last accepted
+//! step. Each stage's `fᴵᵢ` is read off its own solve as `(Yᵢ − rhsᵢ)/(γk)`,
+//! which is exact for the linear implicit part; only `D∇²u` at an accepted
+//! state is applied explicitly. Every stage solves with the same `γk`, so a
+//! row's tridiagonal factorisation is made once per step size.
+
+use ndarray::{Array2, Zip};
+
+use super::StepError;
+use super::reactions::Reactions;
+use crate::tissue::{Diffusion, laplacian};
+
+/// Stages.
+const S: usize = 6;
+/// Diagonal of the implicit tableau.
+pub const GAMMA: f64 = 0.25;
+/// Explicit tableau aᴱᵢⱼ (strictly lower triangular).
+pub const AE: [[f64; S]; S] = [
+    [0.0; S],
+    [0.5, 0.0, 0.0, 0.0, 0.0, 0.0],
+    [13861.0 / 62500.0, 6889.0 / 62500.0, 0.0, 0.0, 0.0, 0.0],
+    [
+        -116923316275.0 / 2393684061468.0,
+        -2731218467317.0 / 15368042101831.0,
+        9408046702089.0 / 11113171139209.0,
+        0.0,
+        0.0,
+        0.0,
+    ],
+    [
+        -451086348788.0 / 2902428689909.0,
+        -2682348792572.0 / 7519795681897.0,
+        12662868775082.0 / 11960479115383.0,
+        3355817975965.0 / 11060851509271.0,
+        0.0,
+        0.0,
+    ],
+    [
+        647845179188.0 / 3216320057751.0,
+        73281519250.0 / 8382639484533.0,
+        552539513391.0 / 3454668386233.0,
+        3354512671639.0 / 8306763924573.0,
+        4040.0 / 17871.0,
+        0.0,
+    ],
+];
+/// Implicit tableau aᴵᵢⱼ (lower triangular, aᴵᵢᵢ = γ from the second stage on).
+pub const AI: [[f64; S]; S] = [
+    [0.0; S],
+    [0.25, 0.25, 0.0, 0.0, 0.0, 0.0],
+    [8611.0 / 62500.0, -1743.0 / 31250.0, 0.25, 0.0, 0.0, 0.0],
+    [5012029.0 / 34652500.0, -654441.0 / 2922500.0, 174375.0 / 388108.0, 0.25, 0.0, 0.0],
+    [
+        15267082809.0 / 155376265600.0,
+        -71443401.0 / 120774400.0,
+        730878875.0 / 902184768.0,
+        2285395.0 / 8070912.0,
+        0.25,
+        0.0,
+    ],
+    B,
+];
+/// Weights of the fourth-order solution (both tableaux).
+pub const B: [f64; S] = [82889.0 / 524892.0, 0.0, 15625.0 / 83664.0, 69875.0 / 102672.0, -2260.0 / 8211.0, 0.25];
+/// Weights of the embedded third-order solution.
+pub const B_HAT: [f64; S] = [
+    4586570599.0 / 29645900160.0,
+    0.0,
+    178811875.0 / 945068544.0,
+    814220225.0 / 1159782912.0,
+    -3700637.0 / 11593932.0,
+    61727.0 / 225920.0,
+];
+/// Stage times as fractions of the step.
+pub const C: [f64; S] = [0.0, 0.5, 83.0 / 250.0, 31.0 / 50.0, 17.0 / 20.0, 1.0];
+
+/// The explicit part is stable on the negative real axis for `k|λ| ≤ 4.23`
+/// (largest x with |R(−x′)| ≤ 1 on (0, x], R the explicit tableau's stability
+/// function; computed here by tests/reference/ark4_tableau.py, no published
+/// value).
+pub const EXPLICIT_STABILITY: f64 = 4.23;
+
+/// ARK working arrays, allocated once.
+pub(super) struct Ark {
+    /// Diffusion coefficient of each gene, µm²/min.
+    d: Vec<f64>,
+    /// `D∇²u` at the current state, a.u./min.
+    pub(super) lu: Array2<f64>,
+    /// fᴱ and fᴵ of stages 2…6.
+    fe: Vec<Array2<f64>>,
+    fi: Vec<Array2<f64>>,
+    /// The current stage's levels.
+    y: Array2<f64>,
+    /// Embedded estimate of the trial's local error, a.u.
+    err: Array2<f64>,
+    /// Why the last trial could not be completed (a stage blew up).
+    pub(super) failed: Option<StepError>,
+}
+
+/// `out += a·x` over equal-shaped arrays.
+fn axpy(out: &mut Array2<f64>, a: f64, x: &Array2<f64>) {
+    if a != 0.0 {
+        Zip::from(out).and(x).for_each(|o, &x| *o += a * x);
+    }
+}
+
+impl Ark {
+    pub(super) fn new(dim: (usize, usize), d: &[f64]) -> Ark {
+        let zeros = || Array2::zeros(dim);
+        Ark {
+            d: d.to_vec(),
+            lu: zeros(),
+            fe: (1..S).map(|_| zeros()).collect(),
+            fi: (1..S).map(|_| zeros()).collect(),
+            y: zeros(),
+            err: zeros(),
+            failed: None,
+        }
+    }
+
+    /// `lu ← D∇²u` (zero for held genes).
+    pub(super) fn apply_diffusion(&mut self, reactions: &Reactions, u: &Array2<f64>) {
+        let grid = &reactions.tissue.grid;
+        for ((mut out, row), dg) in self.lu.outer_iter_mut().zip(u.outer_iter()).zip(&self.d) {
+            let out = out.as_slice_mut().expect("standard layout");
+            if *dg == 0.0 {
+                out.fill(0.0);
+            } else {
+                laplacian(grid, row.as_slice().expect("standard layout"), out);
+                out.iter_mut().for_each(|v| *v *= dg);
+            }
+        }
+        for (g, _) in reactions.clamps() {
+            self.lu.row_mut(g).fill(0.0);
+        }
+    }
+
+    /// One step of `k` from `(t, u)` with rates `f` there; the result goes to
+    /// `trial` and the error estimate is kept for [`Self::error_norm`]. A stage
+    /// that blows up is kept in `failed` (the trial is then not usable).
+    #[allow(clippy::too_many_arguments)]
+    pub(super) fn attempt(
+        &mut self,
+        k: f64,
+        t: f64,
+        u: &Array2<f64>,
+        f: &Array2<f64>,
+        trial: &mut Array2<f64>,
+        diffusion: &mut Diffusion,
+        reactions: &mut Reactions,
+    ) {
+        self.failed = None;
+        let gk = GAMMA * k;
+        for i in 1..S {
+            // Right-hand side of stage i, kept in fᴵᵢ's slot until the solve.
+            let (done_e, rest_e) = self.fe.split_at_mut(i - 1);
+            let (done_i, rest_i) = self.fi.split_at_mut(i - 1);
+            let rhs = &mut rest_i[0];
+            rhs.assign(u);
+            axpy(rhs, k * AE[i][0], f);
+            axpy(rhs, k * AI[i][0], &self.lu);
+            for j in 1..i {
+                axpy(rhs, k * AE[i][j], &done_e[j - 1]);
+                axpy(rhs, k * AI[i][j], &done_i[j - 1]);
+            }
+            self.y.assign(rhs);
+            diffusion.solve(&mut self.y, 1.0, gk, reactions.parallel);
+            reactions.clamp(&mut self.y);
+            Zip::from(&mut *rhs).and(&self.y).for_each(|r, &y| *r = (y - *r) / gk);
+            for (g, _) in reactions.clamps() {
+                rhs.row_mut(g).fill(0.0);
+            }
+            if let Err(e) = reactions.eval(t + C[i] * k, &self.y, &mut rest_e[0]) {
+                self.failed = Some(e);
+                return;
+            }
+        }
+        trial.assign(u);
+        self.err.fill(0.0);
+        for i in 0..S {
+            let (fe, fi) = if i == 0 { (f, &self.lu) } else { (&self.fe[i - 1], &self.fi[i - 1]) };
+            let (b, e) = (k * B[i], k * (B[i] - B_HAT[i]));
+            if B[i] != 0.0 || B_HAT[i] != 0.0 {
+                Zip::from(&mut *trial).and(&mut self.err).and(fe).and(fi).for_each(|r, err, &fe, &fi| {
+                    let s = fe + fi;
+                    *r += b * s;
+                    *err += e * s;
+                });
+            }
+        }
+        // Filter the estimate through the stage solve, so stiff diffusion
+        // modes, which the L-stable main scheme damps but the embedded one
+        // does not, do not shrink the step.
+        diffusion.solve(&mut self.err, 1.0, gk, reactions.parallel);
+    }
+
+    /// `max |e| / (atol + rtol·max(|u|, |u¹|))` for the last trial; infinite
+    /// if a stage blew up or any value is not finite.
+    pub(super) fn error_norm(&self, u: &Array2<f64>, trial: &Array2<f64>, rtol: f64, atol: f64) -> f64 {
+        if self.failed.is_some() {
+            return f64::INFINITY;
+        }
+        let mut top = 0.0f64;
+        let mut tame = true;
+        Zip::from(&self.err).and(u).and(trial).for_each(|&e, &u, &r| {
+            let v = (e / (atol + rtol * u.abs().max(r.abs()))).abs();
+            tame &= v <= f64::MAX;
+            top = top.max(v);
+        });
+        if tame { top } else { f64::INFINITY }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn dot(a: &[f64; S], b: &[f64; S]) -> f64 {
+        a.iter().zip(b).map(|(a, b)| a * b).sum()
+    }
+    fn times(a: &[[f64; S]; S], v: &[f64; S]) -> [f64; S] {
+        std::array::from_fn(|i| dot(&a[i], v))
+    }
+    fn pow(k: i32) -> [f64; S] {
+        C.map(|c| c.powi(k))
+    }
+
+    /// The transcribed coefficients satisfy the order conditions of an
+    /// additive Runge–Kutta method of order 4 (every coupled tree: both
+    /// tableaux share b and c, so the conditions are those of each tableau
+    /// plus `b·A₁A₂c = 1/24` for every pairing; Kennedy & Carpenter 2003,
+    /// Appl. Numer. Math. 44:139, §2; the single-tableau conditions: Butcher,
+    /// Numerical Methods for ODEs, 2nd ed., §31), and the embedded weights
+    /// those of order 3, to 1e-14.
+    #[test]
+    fn tableaux_meet_the_order_conditions() {
+        let close = |got: f64, want: f64, what: &str| assert!((got - want).abs() < 1e-14, "{what}: {got} vs {want}");
+        for (name, a) in [("explicit", &AE), ("implicit", &AI)] {
+            for i in 0..S {
+                close(a[i].iter().sum(), C[i], &format!("{name} row {i} sums to c"));
+            }
+        }
+        for (name, b, order) in [("b", &B, 4), ("b̂", &B_HAT, 3)] {
+            for k in 0..order {
+                close(dot(b, &pow(k)), 1.0 / (k + 1) as f64, &format!("{name}·c^{k}"));
+            }
+            for (n1, a1) in [("E", &AE), ("I", &AI)] {
+                close(dot(b, &times(a1, &C)), 1.0 / 6.0, &format!("{name}·A{n1}c"));
+                if order < 4 {
+                    continue;
+                }
+                let cac: [f64; S] = std::array::from_fn(|i| C[i] * times(a1, &C)[i]);
+                close(dot(b, &cac), 1.0 / 8.0, &format!("{name}·(c∘A{n1}c)"));
+                close(dot(b, &times(a1, &pow(2))), 1.0 / 12.0, &format!("{name}·A{n1}c²"));
+                for (n2, a2) in [("E", &AE), ("I", &AI)] {
+                    close(dot(b, &times(a1, &times(a2, &C))), 1.0 / 24.0, &format!("{name}·A{n1}A{n2}c"));
+                }
+            }
+        }
+        assert!(AI[1..].iter().enumerate().all(|(i, row)| row[i + 1] == GAMMA), "ESDIRK diagonal");
+        assert!(AE.iter().enumerate().all(|(i, row)| row[i..].iter().all(|&v| v == 0.0)), "explicit");
+    }
+
+    /// Stability function of the explicit tableau on the real axis,
+    /// `R(z) = 1 + z bᵀ(I − zA)⁻¹𝟙` (Hairer & Wanner, Solving ODEs II, §IV.2).
+    fn explicit_r(z: f64) -> f64 {
+        let mut g = [0.0; S];
+        for i in 0..S {
+            g[i] = 1.0 + z * (0..i).map(|j| AE[i][j] * g[j]).sum::<f64>();
+        }
+        1.0 + z * dot(&B, &g)
+    }
+
+    /// [`EXPLICIT_STABILITY`]: |R(−x)| ≤ 1 for every x up to it, and not
+    /// much beyond (tests/reference/ark4_tableau.py finds the edge at 4.2345).
+    #[test]
+    fn explicit_stability_edge() {
+        for i in 1..=4230 {
+            let x = i as f64 * EXPLICIT_STABILITY / 4230.0;
+            assert!(explicit_r(-x).abs() <= 1.0 + 1e-12, "|R(-{x})| = {}", explicit_r(-x).abs());
+        }
+        assert!(explicit_r(-4.24).abs() > 1.0);
+    }
+}

@@ -1,6 +1,7 @@
 //! Time to solution at equal accuracy on the ribbon demo: error-controlled
-//! SBDF2 against fixed-step SBDF2, each at the loosest setting that comes
-//! within 1e-4 (max abs, a.u.) of a very fine fixed-step reference.
+//! steps (the fourth-order ARK4(3) pair, and SBDF2 with its predictor)
+//! against fixed-step SBDF2, each at the loosest setting that comes within
+//! 1e-4 (max abs, a.u.) of a very fine fixed-step reference.
 //!
 //! Two yardsticks: the final state alone, and every recorded snapshot (the
 //! whole kymograph). The ribbon settles into a stable steady state, which any
@@ -13,7 +14,7 @@
 
 use std::time::Instant;
 
-use anlage::model::{Model, Stepping};
+use anlage::model::{Model, Scheme, Stepping};
 use anlage::{RunOptions, simulate};
 
 const TARGET: f64 = 1e-4;
@@ -85,10 +86,47 @@ fn compare(ribbon: &Model, reference: &[ndarray::Array2<f64>], whole: bool) {
     let fixed_model = fixed(hi);
     let fixed_err = error_fixed(hi);
 
-    // Error control: the loosest tolerance that meets the target, searched as
-    // finely as the fixed step count: steps of 10^(1/4) down from 1e-2, then
-    // bisection on log(tol) to within 1 %.
-    let adaptive = |tol: f64| with(ribbon, Stepping::Adaptive { rtol: tol, atol: tol, max_step_min: every });
+    let tf = best_time(&fixed_model, 30);
+    let sf = steps(&fixed_model);
+    println!("yardstick: {}", if whole { "every snapshot" } else { "final state only" });
+    println!(
+        "  fixed-step SBDF2   {:.4e} min: {:>7} steps, error {fixed_err:.2e}, best {tf:.4} s",
+        every / hi as f64,
+        sf.steps
+    );
+    for scheme in [Scheme::Ark4, Scheme::Sbdf2] {
+        let (tol, err, stats, ta) = loosest_tolerance(ribbon, reference, whole, scheme);
+        println!(
+            "  error control {:<5} tol {tol:.2e}: {:>7} steps ({} rejected), error {err:.2e}, best {ta:.4} s \
+             -> fixed / error-controlled time {:.1}x",
+            scheme.key(),
+            stats.steps,
+            stats.rejected,
+            tf / ta
+        );
+    }
+}
+
+fn steps(m: &Model) -> anlage::integrate::StepStats {
+    simulate(m, &RunOptions { parallel: false, ..Default::default() }).unwrap().stats
+}
+
+/// Error control with `scheme`: the loosest tolerance that meets the target,
+/// searched as finely as the fixed step count: steps of 10^(1/4) down from
+/// 1e-2, then bisection on log(tol) to within 1 %. Returns the tolerance, its
+/// error, its step counts and its best time.
+fn loosest_tolerance(
+    ribbon: &Model,
+    reference: &[ndarray::Array2<f64>],
+    whole: bool,
+    scheme: Scheme,
+) -> (f64, f64, anlage::integrate::StepStats, f64) {
+    let every = ribbon.clock.snapshot_every_min;
+    let adaptive = |tol: f64| {
+        let mut m = with(ribbon, Stepping::Adaptive { rtol: tol, atol: tol, max_step_min: every });
+        m.clock.scheme = scheme;
+        m
+    };
     let meets = |tol: f64| max_abs(&states(&adaptive(tol)), reference, whole) <= TARGET;
     let mut tol = 1e-2;
     while !meets(tol) {
@@ -101,21 +139,7 @@ fn compare(ribbon: &Model, reference: &[ndarray::Array2<f64>], whole: bool) {
             if meets(mid) { tol = mid } else { loose = mid }
         }
     }
-    let adaptive_model = adaptive(tol);
-    let adaptive_err = max_abs(&states(&adaptive_model), reference, whole);
-    let steps = |m: &Model| simulate(m, &RunOptions { parallel: false, ..Default::default() }).unwrap().stats;
-
-    let (tf, ta) = (best_time(&fixed_model, 30), best_time(&adaptive_model, 30));
-    let (sf, sa) = (steps(&fixed_model), steps(&adaptive_model));
-    println!("yardstick: {}", if whole { "every snapshot" } else { "final state only" });
-    println!(
-        "  fixed step    {:.4e} min: {:>7} steps, error {fixed_err:.2e}, best {tf:.4} s",
-        every / hi as f64,
-        sf.steps
-    );
-    println!(
-        "  error control tol {tol:.2e}: {:>7} steps ({} rejected), error {adaptive_err:.2e}, best {ta:.4} s",
-        sa.steps, sa.rejected
-    );
-    println!("  fixed / error-controlled time: {:.1}x", tf / ta);
+    let model = adaptive(tol);
+    let err = max_abs(&states(&model), reference, whole);
+    (tol, err, steps(&model), best_time(&model, 30))
 }

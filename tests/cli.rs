@@ -81,10 +81,15 @@ fn states_npy_round_trips() {
     assert_eq!(arr[[60, 1, 99]], cobalt);
 }
 
-/// One thread and two threads write identical bytes, summary.json included.
+/// One thread and two threads write identical bytes, summary.json included;
+/// with either scheme (the sheet also with ARK4 error control).
 #[test]
 fn one_and_two_threads_write_identical_bytes() {
-    for model in ["patterns/ribbon.toml", "patterns/sheet.toml"] {
+    let text = std::fs::read_to_string(root().join("patterns/sheet.toml"))
+        .unwrap()
+        .replace("[clock]", "[clock]\nscheme = \"ark4\"");
+    let (_dir, ark_sheet) = model_in_temp("ark-sheet", "sheet.toml", &text);
+    for model in ["patterns/ribbon.toml", "patterns/sheet.toml", ark_sheet.to_str().unwrap()] {
         let (a, b) = (temp_dir("t1"), temp_dir("t2"));
         run_into(model, &a, 1);
         run_into(model, &b, 2);

@@ -13,11 +13,12 @@
 //! state is applied explicitly. Every stage solves with the same `γk`, so a
 //! row's tridiagonal factorisation is made once per step size.
 
-use ndarray::{Array2, Zip};
+use ndarray::Array2;
 
 use super::StepError;
 use super::reactions::Reactions;
 use crate::tissue::{Diffusion, laplacian};
+use crate::wide::with_avx2;
 
 /// Stages.
 const S: usize = 6;
@@ -106,11 +107,59 @@ pub(super) struct Ark {
     pub(super) failed: Option<StepError>,
 }
 
-/// `out += a·x` over equal-shaped arrays.
-fn axpy(out: &mut Array2<f64>, a: f64, x: &Array2<f64>) {
-    if a != 0.0 {
-        Zip::from(out).and(x).for_each(|o, &x| *o += a * x);
+fn flat(a: &Array2<f64>) -> &[f64] {
+    a.as_slice().expect("standard layout")
+}
+
+fn flat_mut(a: &mut Array2<f64>) -> &mut [f64] {
+    a.as_slice_mut().expect("standard layout")
+}
+
+/// Values per block of the combinations below, when split between threads.
+const BLOCK: usize = 8192;
+
+/// Runs `body(offset, block)` over blocks of `out`, on several threads when
+/// asked and worth it (each value's arithmetic is the same either way).
+fn by_blocks(out: &mut [f64], parallel: bool, body: impl Fn(usize, &mut [f64]) + Sync) {
+    if parallel && out.len() >= 2 * BLOCK {
+        use rayon::prelude::*;
+        out.par_chunks_mut(BLOCK).enumerate().for_each(|(b, o)| body(b * BLOCK, o));
+    } else {
+        body(0, out);
     }
+}
+
+/// `out = base + Σ aⱼ·xⱼ` (no base: zero), adding the terms in order.
+/// Eight values at a time are held in registers while every term is added,
+/// so `out` is written once.
+fn combine(out: &mut [f64], base: Option<&[f64]>, terms: &[(f64, &[f64])], parallel: bool) {
+    const LANES: usize = 8;
+    let block = |at: usize, out: &mut [f64]| {
+        let lanes = out.len() / LANES * LANES;
+        for (c, out) in out[..lanes].chunks_exact_mut(LANES).enumerate() {
+            let i = at + c * LANES;
+            let mut acc = [0.0; LANES];
+            if let Some(base) = base {
+                acc.copy_from_slice(&base[i..i + LANES]);
+            }
+            for &(a, x) in terms {
+                for (acc, x) in acc.iter_mut().zip(&x[i..i + LANES]) {
+                    *acc += a * x;
+                }
+            }
+            out.copy_from_slice(&acc);
+        }
+        for (l, o) in out.iter_mut().enumerate().skip(lanes) {
+            let i = at + l;
+            *o = terms.iter().fold(base.map_or(0.0, |b| b[i]), |acc, &(a, x)| acc + a * x[i]);
+        }
+    };
+    by_blocks(out, parallel, |at, out| {
+        with_avx2(
+            #[inline(always)]
+            || block(at, out),
+        )
+    });
 }
 
 impl Ark {
@@ -160,22 +209,28 @@ impl Ark {
     ) {
         self.failed = None;
         let gk = GAMMA * k;
+        let parallel = reactions.parallel;
         for i in 1..S {
             // Right-hand side of stage i, kept in fᴵᵢ's slot until the solve.
             let (done_e, rest_e) = self.fe.split_at_mut(i - 1);
             let (done_i, rest_i) = self.fi.split_at_mut(i - 1);
-            let rhs = &mut rest_i[0];
-            rhs.assign(u);
-            axpy(rhs, k * AE[i][0], f);
-            axpy(rhs, k * AI[i][0], &self.lu);
+            let mut terms = [(0.0, &[][..]); 2 * S];
+            terms[0] = (k * AE[i][0], flat(f));
+            terms[1] = (k * AI[i][0], flat(&self.lu));
             for j in 1..i {
-                axpy(rhs, k * AE[i][j], &done_e[j - 1]);
-                axpy(rhs, k * AI[i][j], &done_i[j - 1]);
+                terms[2 * j] = (k * AE[i][j], flat(&done_e[j - 1]));
+                terms[2 * j + 1] = (k * AI[i][j], flat(&done_i[j - 1]));
             }
+            let rhs = &mut rest_i[0];
+            combine(flat_mut(rhs), Some(flat(u)), &terms[..2 * i], parallel);
             self.y.assign(rhs);
-            diffusion.solve(&mut self.y, 1.0, gk, reactions.parallel);
+            diffusion.solve(&mut self.y, 1.0, gk, parallel);
             reactions.clamp(&mut self.y);
-            Zip::from(&mut *rhs).and(&self.y).for_each(|r, &y| *r = (y - *r) / gk);
+            let y = flat(&self.y);
+            let inv_gk = 1.0 / gk;
+            by_blocks(flat_mut(rhs), parallel, |at, r| {
+                r.iter_mut().zip(&y[at..]).for_each(|(r, &y)| *r = (y - *r) * inv_gk);
+            });
             for (g, _) in reactions.clamps() {
                 rhs.row_mut(g).fill(0.0);
             }
@@ -184,19 +239,17 @@ impl Ark {
                 return;
             }
         }
-        trial.assign(u);
-        self.err.fill(0.0);
-        for i in 0..S {
-            let (fe, fi) = if i == 0 { (f, &self.lu) } else { (&self.fe[i - 1], &self.fi[i - 1]) };
-            let (b, e) = (k * B[i], k * (B[i] - B_HAT[i]));
-            if B[i] != 0.0 || B_HAT[i] != 0.0 {
-                Zip::from(&mut *trial).and(&mut self.err).and(fe).and(fi).for_each(|r, err, &fe, &fi| {
-                    let s = fe + fi;
-                    *r += b * s;
-                    *err += e * s;
-                });
-            }
-        }
+        // u¹ and the error estimate from every stage's fᴱ and fᴵ.
+        let stage = |m: usize| match (m / 2, m % 2) {
+            (0, 0) => flat(f),
+            (0, _) => flat(&self.lu),
+            (i, 0) => flat(&self.fe[i - 1]),
+            (i, _) => flat(&self.fi[i - 1]),
+        };
+        let terms: [(f64, &[f64]); 2 * S] = std::array::from_fn(|m| (k * B[m / 2], stage(m)));
+        combine(flat_mut(trial), Some(flat(u)), &terms, parallel);
+        let terms: [(f64, &[f64]); 2 * S] = std::array::from_fn(|m| (k * (B[m / 2] - B_HAT[m / 2]), stage(m)));
+        combine(flat_mut(&mut self.err), None, &terms, parallel);
         // Filter the estimate through the stage solve, so stiff diffusion
         // modes, which the L-stable main scheme damps but the embedded one
         // does not, do not shrink the step.
@@ -209,13 +262,12 @@ impl Ark {
         if self.failed.is_some() {
             return f64::INFINITY;
         }
-        let mut top = 0.0f64;
-        let mut tame = true;
-        Zip::from(&self.err).and(u).and(trial).for_each(|&e, &u, &r| {
+        let (mut top, mut tame) = (0.0f64, true);
+        for ((&e, &u), &r) in flat(&self.err).iter().zip(flat(u)).zip(flat(trial)) {
             let v = (e / (atol + rtol * u.abs().max(r.abs()))).abs();
             tame &= v <= f64::MAX;
             top = top.max(v);
-        });
+        }
         if tame { top } else { f64::INFINITY }
     }
 }

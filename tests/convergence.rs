@@ -29,18 +29,37 @@ fn max_error(state: &ndarray::Array2<f64>, want: &[f64]) -> f64 {
 /// SBDF2's order 2: Ruuth (1995), J. Math. Biol. 34:148.
 #[test]
 fn sbdf2_is_second_order_against_scipy() {
-    let model = load("tests/reference/convergence.toml");
+    check_order(&load("tests/reference/convergence.toml"), [0.1, 0.05, 0.025, 0.0125], 1.9..=2.1, 1e-4);
+}
+
+/// Final errors against the SciPy reference with fixed steps `dts`; asserts
+/// each halving's observed order is in `orders` and the finest error below `finest`.
+fn check_order(model: &anlage::model::Model, dts: [f64; 4], orders: std::ops::RangeInclusive<f64>, finest: f64) {
     let want = reference();
-    let errors: Vec<f64> = [0.1, 0.05, 0.025, 0.0125]
-        .iter()
-        .map(|dt| max_error(run(&with_step(&model, *dt)).recording.final_state(), &want))
-        .collect();
-    let orders: Vec<f64> = errors.windows(2).map(|p| (p[0] / p[1]).log2()).collect();
-    eprintln!("SBDF2 errors {errors:?}, observed orders {orders:.3?}");
-    for order in &orders {
-        assert!((1.9..=2.1).contains(order), "observed order {order:.3}, errors {errors:?}");
+    let errors: Vec<f64> =
+        dts.iter().map(|dt| max_error(run(&with_step(model, *dt)).recording.final_state(), &want)).collect();
+    let observed: Vec<f64> = errors.windows(2).map(|p| (p[0] / p[1]).log2()).collect();
+    eprintln!("{:?}: errors {errors:?}, observed orders {observed:.3?}", model.clock.scheme);
+    for order in &observed {
+        assert!(orders.contains(order), "observed order {order:.3}, errors {errors:?}");
     }
-    assert!(errors[3] < 1e-4, "errors {errors:?}");
+    assert!(errors[3] < finest, "errors {errors:?}");
+}
+
+/// Final errors against the SciPy reference with error control at each
+/// tolerance; each run must end exactly at the end time.
+fn errors_at_tolerances(model: &anlage::model::Model, tolerances: [f64; 5]) -> Vec<f64> {
+    let want = reference();
+    let errors = tolerances
+        .iter()
+        .map(|tol| {
+            let r = run(&with_tolerance(model, *tol));
+            assert_relative_eq!(*r.recording.times.last().unwrap(), 20.0);
+            max_error(r.recording.final_state(), &want)
+        })
+        .collect();
+    eprintln!("{:?}: errors {errors:?}", model.clock.scheme);
+    errors
 }
 
 fn ark4(model: &anlage::model::Model) -> anlage::model::Model {
@@ -57,18 +76,7 @@ fn ark4(model: &anlage::model::Model) -> anlage::model::Model {
 /// (SciPy DOP853, tests/reference/convergence.py).
 #[test]
 fn ark4_is_fourth_order_against_scipy() {
-    let model = ark4(&load("tests/reference/convergence.toml"));
-    let want = reference();
-    let errors: Vec<f64> = [0.4, 0.2, 0.1, 0.05]
-        .iter()
-        .map(|dt| max_error(run(&with_step(&model, *dt)).recording.final_state(), &want))
-        .collect();
-    let orders: Vec<f64> = errors.windows(2).map(|p| (p[0] / p[1]).log2()).collect();
-    eprintln!("ARK4 errors {errors:?}, observed orders {orders:.3?}");
-    for order in &orders {
-        assert!((3.8..=4.2).contains(order), "observed order {order:.3}, errors {errors:?}");
-    }
-    assert!(errors[3] < 1e-8, "errors {errors:?}");
+    check_order(&ark4(&load("tests/reference/convergence.toml")), [0.4, 0.2, 0.1, 0.05], 3.8..=4.2, 1e-8);
 }
 
 /// With ARK4(3) error control the local error estimate is that of the
@@ -80,18 +88,7 @@ fn ark4_is_fourth_order_against_scipy() {
 /// vary: 0.78–0.98 seen); the run ends exactly at the end time.
 #[test]
 fn ark4_error_control_scales_as_tolerance_against_scipy() {
-    let model = ark4(&load("tests/reference/convergence.toml"));
-    let want = reference();
-    let errors: Vec<f64> = [1e-4, 1e-5, 1e-6, 1e-7, 1e-8]
-        .iter()
-        .map(|tol| {
-            let r = run(&with_tolerance(&model, *tol));
-            assert_relative_eq!(*r.recording.times.last().unwrap(), 20.0);
-            eprintln!("tol {tol:e}: {} steps, {} rejected", r.stats.steps, r.stats.rejected);
-            max_error(r.recording.final_state(), &want)
-        })
-        .collect();
-    eprintln!("ARK4 errors {errors:?}");
+    let errors = errors_at_tolerances(&ark4(&load("tests/reference/convergence.toml")), [1e-4, 1e-5, 1e-6, 1e-7, 1e-8]);
     for pair in errors.windows(2) {
         let exponent = (pair[0] / pair[1]).log10();
         assert!(exponent >= 0.6, "exponent {exponent:.3}, errors {errors:?}");
@@ -108,16 +105,7 @@ fn ark4_error_control_scales_as_tolerance_against_scipy() {
 /// the run ends exactly at the end time.
 #[test]
 fn error_control_scales_as_tolerance_two_thirds_against_scipy() {
-    let model = load("tests/reference/convergence.toml");
-    let want = reference();
-    let errors: Vec<f64> = [1e-4, 1e-5, 1e-6, 1e-7, 1e-8]
-        .iter()
-        .map(|tol| {
-            let r = run(&with_tolerance(&model, *tol));
-            assert_relative_eq!(*r.recording.times.last().unwrap(), 20.0);
-            max_error(r.recording.final_state(), &want)
-        })
-        .collect();
+    let errors = errors_at_tolerances(&load("tests/reference/convergence.toml"), [1e-4, 1e-5, 1e-6, 1e-7, 1e-8]);
     for pair in errors.windows(2) {
         let exponent = (pair[0] / pair[1]).log10();
         assert!((0.55..=0.8).contains(&exponent), "exponent {exponent:.3}, errors {errors:?}");

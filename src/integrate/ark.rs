@@ -105,6 +105,8 @@ pub(super) struct Ark {
     err: Array2<f64>,
     /// Why the last trial could not be completed (a stage blew up).
     pub(super) failed: Option<StepError>,
+    /// Whether attempts estimate their error (not with fixed steps).
+    pub(super) estimate: bool,
 }
 
 fn flat(a: &Array2<f64>) -> &[f64] {
@@ -173,6 +175,7 @@ impl Ark {
             y: zeros(),
             err: zeros(),
             failed: None,
+            estimate: true,
         }
     }
 
@@ -248,6 +251,9 @@ impl Ark {
         };
         let terms: [(f64, &[f64]); 2 * S] = std::array::from_fn(|m| (k * B[m / 2], stage(m)));
         combine(flat_mut(trial), Some(flat(u)), &terms, parallel);
+        if !self.estimate {
+            return;
+        }
         let terms: [(f64, &[f64]); 2 * S] = std::array::from_fn(|m| (k * (B[m / 2] - B_HAT[m / 2]), stage(m)));
         combine(flat_mut(&mut self.err), None, &terms, parallel);
         // Filter the estimate through the stage solve, so stiff diffusion
@@ -261,6 +267,7 @@ impl Ark {
     /// `max |e| / (atol + rtol·max(|u|, |u¹|))` for the last trial; infinite
     /// if a stage blew up or any value is not finite.
     pub(super) fn error_norm(&self, u: &Array2<f64>, trial: &Array2<f64>, rtol: f64, atol: f64) -> f64 {
+        assert!(self.estimate, "no error estimate with fixed steps");
         if self.failed.is_some() {
             return f64::INFINITY;
         }

@@ -228,9 +228,12 @@ impl<'a> Stepper<'a> {
     /// state's values, and only two states are held, so a step streams
     /// through four arrays of the state's size instead of six: at 10⁵
     /// nuclei and more this decides how much stays in cache. Results are
-    /// bit-identical.
+    /// bit-identical. ARK steps then skip their error estimate.
     pub fn accept_every_step(&mut self) {
         self.lean = true;
+        if let Some(ark) = &mut self.ark {
+            ark.estimate = false;
+        }
         self.history = self.history.min(2);
     }
 

@@ -128,13 +128,18 @@ impl Model {
     }
 
     /// Bytes of the integrator's working arrays: state history and rates (7 per
-    /// gene), input rows (gradients, x, t, neighbour means) and the gradient
-    /// shapes, plus two spare fields for solver scratch.
+    /// gene; the ARK scheme adds 13: two per stage, D∇²u, the stage levels and
+    /// the error estimate), input rows (gradients, x, t, neighbour means) and
+    /// the gradient shapes, plus two spare fields for solver scratch.
     pub fn working_bytes(&self) -> u64 {
         let per_field = self.grid.len() as u64 * 8;
         let genes = self.genes.len() as u64;
+        let per_gene = match self.clock.scheme {
+            Scheme::Sbdf2 => 7,
+            Scheme::Ark4 => 7 + 13,
+        };
         let inputs = self.gradients.len() as u64 + 2 + if self.circuit.neighbours { genes } else { 0 };
-        (7 * genes + inputs + self.gradients.len() as u64 + 2) * per_field
+        (per_gene * genes + inputs + self.gradients.len() as u64 + 2) * per_field
     }
 }
 

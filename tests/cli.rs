@@ -338,3 +338,26 @@ fn small_budget_streams_the_recording_instead_of_refusing() {
     );
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+/// A blow-up met inside a step: SBDF2 finds it in the rates at the new state
+/// (t = 1 min), ARK4 in its second stage (t + ½k = 0.5 min); either way the
+/// run stops with exit code 1, the time, nucleus and gene, and no summary.
+#[test]
+fn blow_up_inside_a_step_names_where_it_was_met() {
+    for (scheme, when) in [("sbdf2", "t = 1.000000 min"), ("ark4", "t = 0.500000 min")] {
+        let (dir, path) = model_in_temp(
+            &format!("blowup-{scheme}"),
+            "blowup.toml",
+            &format!(
+                "[tissue]\nnuclei = [5]\nspacing_um = 1.0\n[clock]\nscheme = \"{scheme}\"\nuntil_min = 100.0\n\
+                 step_min = 1.0\nsnapshot_every_min = 10.0\n[[gene]]\nname = \"fuel\"\nrate = \"1e30 * fuel^4\"\n\
+                 diffusion = 1.0\ninitial = 1.0\n[circuit]\nkinetics = \"rates\"\n"
+            ),
+        );
+        let o = anlage(&["run", path.to_str().unwrap(), "-o", dir.join("out").to_str().unwrap()]);
+        assert_eq!(o.status.code(), Some(1), "{}", String::from_utf8_lossy(&o.stderr));
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert!(err.contains(&format!("blew up at {when}")) && err.contains("gene `fuel`"), "{scheme}: {err}");
+        assert!(!dir.join("out").join("summary.json").exists(), "{scheme}: no summary for a run that blew up");
+    }
+}

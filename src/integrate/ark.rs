@@ -17,7 +17,7 @@ use ndarray::Array2;
 
 use super::StepError;
 use super::reactions::Reactions;
-use crate::tissue::{Diffusion, laplacian};
+use crate::tissue::Diffusion;
 use crate::wide::with_avx2;
 
 /// Stages.
@@ -92,8 +92,6 @@ pub const EXPLICIT_STABILITY: f64 = 4.23;
 
 /// ARK working arrays, allocated once.
 pub(super) struct Ark {
-    /// Diffusion coefficient of each gene, µm²/min.
-    d: Vec<f64>,
     /// `D∇²u` at the current state, a.u./min.
     pub(super) lu: Array2<f64>,
     /// fᴱ and fᴵ of stages 2…6.
@@ -165,10 +163,9 @@ fn combine(out: &mut [f64], base: Option<&[f64]>, terms: &[(f64, &[f64])], paral
 }
 
 impl Ark {
-    pub(super) fn new(dim: (usize, usize), d: &[f64]) -> Ark {
+    pub(super) fn new(dim: (usize, usize)) -> Ark {
         let zeros = || Array2::zeros(dim);
         Ark {
-            d: d.to_vec(),
             lu: zeros(),
             fe: (1..S).map(|_| zeros()).collect(),
             fi: (1..S).map(|_| zeros()).collect(),
@@ -180,17 +177,8 @@ impl Ark {
     }
 
     /// `lu ← D∇²u` (zero for held genes).
-    pub(super) fn apply_diffusion(&mut self, reactions: &Reactions, u: &Array2<f64>) {
-        let grid = &reactions.tissue.grid;
-        for ((mut out, row), dg) in self.lu.outer_iter_mut().zip(u.outer_iter()).zip(&self.d) {
-            let out = out.as_slice_mut().expect("standard layout");
-            if *dg == 0.0 {
-                out.fill(0.0);
-            } else {
-                laplacian(grid, row.as_slice().expect("standard layout"), out);
-                out.iter_mut().for_each(|v| *v *= dg);
-            }
-        }
+    pub(super) fn apply_diffusion(&mut self, diffusion: &Diffusion, reactions: &Reactions, u: &Array2<f64>) {
+        diffusion.apply(u, &mut self.lu);
         for (g, _) in reactions.clamps() {
             self.lu.row_mut(g).fill(0.0);
         }

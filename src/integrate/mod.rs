@@ -167,7 +167,7 @@ pub fn integrate_from(
     let names = model.genes.iter().map(|g| g.name.clone()).collect();
     let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
     let mut stepper = Stepper::new(kinetics, tissue, &d, names, initial_state(model), 0.0, parallel, forcing(model))?
-        .with_scheme(model.clock.scheme, &d);
+        .with_scheme(model.clock.scheme);
     let times = model.clock.snapshot_times();
     let (mut stats, mut progress) = match resume {
         Some(c) => {

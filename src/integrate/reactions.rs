@@ -30,7 +30,7 @@ fn tame(v: ndarray::ArrayView2<f64>) -> bool {
 /// Rate evaluation for one run; its working arrays are allocated once.
 pub(super) struct Reactions<'a> {
     kinetics: &'a dyn Kinetics,
-    pub(super) tissue: &'a Tissue,
+    tissue: &'a Tissue,
     gene_names: Vec<String>,
     pub(super) parallel: bool,
     /// Gradients, position, time and neighbour levels [input, nucleus].

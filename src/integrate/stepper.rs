@@ -134,17 +134,17 @@ impl<'a> Stepper<'a> {
             lean: false,
         };
         s.reactions.clamp(&mut s.u);
-        s.evaluate_rates()?;
+        s.reactions.eval(s.t, &s.u, &mut s.f)?;
         Ok(s)
     }
 
     /// Steps with `scheme` from now on (SBDF2 unless told).
-    pub fn with_scheme(mut self, scheme: Scheme, diffusion: &[f64]) -> Stepper<'a> {
+    pub fn with_scheme(mut self, scheme: Scheme) -> Stepper<'a> {
         self.ark = match scheme {
             Scheme::Sbdf2 => None,
             Scheme::Ark4 => {
-                let mut ark = Box::new(Ark::new(self.u.dim(), diffusion));
-                ark.apply_diffusion(&self.reactions, &self.u);
+                let mut ark = Box::new(Ark::new(self.u.dim()));
+                ark.apply_diffusion(&self.diffusion, &self.reactions, &self.u);
                 Some(ark)
             }
         };
@@ -335,7 +335,7 @@ impl<'a> Stepper<'a> {
             self.k1 = k;
             self.t = t_new;
             self.reactions.eval(self.t, &self.u, &mut self.f)?;
-            ark.apply_diffusion(&self.reactions, &self.u);
+            ark.apply_diffusion(&self.diffusion, &self.reactions, &self.u);
             return Ok(());
         }
         if !self.lean {
@@ -348,11 +348,6 @@ impl<'a> Stepper<'a> {
         self.k1 = k;
         self.history = (self.history + 1).min(if self.lean { 2 } else { 3 });
         self.t = t_new;
-        self.evaluate_rates()
-    }
-
-    /// `f ← f(u, m(t))`, checking every value.
-    fn evaluate_rates(&mut self) -> Result<(), StepError> {
         self.reactions.eval(self.t, &self.u, &mut self.f)
     }
 }

@@ -203,6 +203,7 @@ impl Rhs<'_> {
 
 /// Implicit diffusion for all genes of a tissue.
 pub struct Diffusion {
+    grid: Grid,
     d: Vec<f64>,
     solver: Solver,
 }
@@ -221,7 +222,20 @@ impl Diffusion {
         } else {
             Solver::Spectral(Box::new(SpectralSolver::new(grid)))
         };
-        Diffusion { d: d.to_vec(), solver }
+        Diffusion { grid: *grid, d: d.to_vec(), solver }
+    }
+
+    /// `out_g ← D_g ∇²u_g` for every gene g (rows), explicitly, a.u./min.
+    pub fn apply(&self, u: &Array2<f64>, out: &mut Array2<f64>) {
+        for ((mut out, row), dg) in out.outer_iter_mut().zip(u.outer_iter()).zip(&self.d) {
+            let out = out.as_slice_mut().expect("standard layout");
+            if *dg == 0.0 {
+                out.fill(0.0);
+            } else {
+                laplacian(&self.grid, row.as_slice().expect("standard layout"), out);
+                out.iter_mut().for_each(|v| *v *= dg);
+            }
+        }
     }
 
     /// [`Self::solve`] with `b` given by `rhs` (built inside the row

@@ -141,22 +141,7 @@ pub enum Command {
     },
     /// Measure boundaries in stained-embryo images (PNG or TIFF, 8/16-bit);
     /// a folder gives one table with mean and sd per boundary.
-    Measure {
-        /// An image, or a folder of images.
-        image: PathBuf,
-        /// Channel to read: PLANE=gene (plane of the image, from 0) or FILE=gene (repeatable).
-        #[arg(long = "channel", required = true)]
-        channels: Vec<String>,
-        /// Which end is the head.
-        #[arg(long, value_enum, default_value = "auto")]
-        head: anlage::measure::Head,
-        /// Time of the embryos, min or a stage label (written to the table).
-        #[arg(long)]
-        time: Option<String>,
-        /// Output table (default: <image>_boundaries.csv, or measured.csv in the folder).
-        #[arg(short, long)]
-        out: Option<PathBuf>,
-    },
+    Measure(MeasureArgs),
     /// Score a run against a measured-boundary table.
     Compare {
         /// Folder written by `anlage run`.
@@ -166,6 +151,9 @@ pub enum Command {
         /// Stage label in minutes, LABEL=MINUTES (repeatable).
         #[arg(long = "stage")]
         stages: Vec<String>,
+        /// Smallest sd taken at face value, % of length (raised to each row's resolution if that is larger).
+        #[arg(long, default_value_t = anlage::compare::DEFAULT_SD_FLOOR_PCT)]
+        sd_floor: f64,
         /// Output folder (default: the run folder).
         #[arg(short, long)]
         out: Option<PathBuf>,
@@ -294,4 +282,61 @@ fn parse_wall_time(text: &str) -> Result<std::time::Duration, String> {
         Ok(v) if v.is_finite() && v >= 0.0 => Ok(std::time::Duration::from_secs_f64(v * scale)),
         _ => Err(format!("`{text}` is not a wall time; write e.g. 90s, 10m or 2h")),
     }
+}
+
+/// Which end of each embryo is the head.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum HeadArg {
+    /// The end with the smaller image column.
+    Left,
+    /// The end with the larger image column.
+    Right,
+    /// The end with the smaller image row.
+    Top,
+    /// The end with the larger image row.
+    Bottom,
+    /// Guessed: the end where the head-high gene (--head-high, else the first channel) is higher.
+    Auto,
+}
+
+/// How the stain shows against the background.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum StainArg {
+    /// Brighter than the background (fluorescence).
+    Bright,
+    /// Darker than a light background (bright-field, chromogenic); read as optical density.
+    Dark,
+    /// Detected from the image, and reported.
+    Auto,
+}
+
+/// `anlage measure`.
+#[derive(Debug, Args)]
+pub struct MeasureArgs {
+    /// An image, or a folder of images.
+    pub image: PathBuf,
+    /// Channel to read: PLANE=gene (plane of the image, from 0) or FILE=gene (repeatable).
+    #[arg(long = "channel", required = true)]
+    pub channels: Vec<String>,
+    /// Which end is the head.
+    #[arg(long, value_enum, default_value = "auto")]
+    pub head: HeadArg,
+    /// With --head auto: the gene that is higher at the head (default: the first channel, assumed).
+    #[arg(long)]
+    pub head_high: Option<String>,
+    /// Bright stain on a dark background, dark on light, or detect.
+    #[arg(long, value_enum, default_value = "auto")]
+    pub stain: StainArg,
+    /// Outline from one plane (PLANE or FILE), e.g. a nuclear counterstain (default: all planes).
+    #[arg(long, conflicts_with = "mask")]
+    pub outline: Option<String>,
+    /// Outline from a mask image (non-zero = embryo); `{stem}` in the name stands for each image's name.
+    #[arg(long)]
+    pub mask: Option<String>,
+    /// Time of the embryos: minutes, or a stage label (kept as written).
+    #[arg(long)]
+    pub time: Option<String>,
+    /// Output table (default: <image>_boundaries.csv, or measured.csv in the folder).
+    #[arg(short, long)]
+    pub out: Option<PathBuf>,
 }

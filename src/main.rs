@@ -308,11 +308,9 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             }
             Ok(())
         }
-        Command::Measure { image, channels, head, time, out } => {
-            measure_cli::measure_verb(image, channels, *head, time, out)
-        }
-        Command::Compare { run_dir, measured, stages, out } => {
-            measure_cli::compare_verb(run_dir, measured, stages, out)
+        Command::Measure(args) => measure_cli::measure_verb(args),
+        Command::Compare { run_dir, measured, stages, sd_floor, out } => {
+            measure_cli::compare_verb(run_dir, measured, stages, *sd_floor, out)
         }
         Command::Synthesize { run_dir, out, count, seed } => measure_cli::synthesize_verb(run_dir, out, *count, *seed),
         Command::Render { run_dir, kind, out, look } => {

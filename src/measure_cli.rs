@@ -5,26 +5,31 @@ use std::path::{Path, PathBuf};
 
 use anyhow::{Context, bail};
 
-use anlage::compare::{self, MeasuredRow};
-use anlage::measure::{self, Channel, Head, Planes, synth};
+use anlage::compare;
+use anlage::measure::{
+    self, Channel, Contrast, HeadRule, ImageMeasurement, MeasureOptions, Outline, Planes, Side, batch, synth,
+};
 use anlage::render::{Style, StyleError};
+
+use crate::cli::{HeadArg, MeasureArgs, StainArg};
 
 fn bad_option(option: &str, value: &str, fix: &str) -> anyhow::Error {
     StyleError::OutOfRange { option: option.into(), value: value.into(), fix: fix.into() }.into()
 }
 
-/// Loads the planes of one image plus any per-channel files named in `specs`,
-/// and the channels to read.
-fn planes_and_channels(image: &Path, specs: &[String]) -> anyhow::Result<(Planes, Vec<Channel>)> {
+/// Loads the planes of one image plus any per-channel files named in `specs`
+/// and the outline file, and the channels to read (and the outline plane).
+fn planes_and_channels(
+    image: &Path,
+    specs: &[String],
+    outline: Option<&str>,
+) -> anyhow::Result<(Planes, Vec<Channel>, Option<usize>)> {
     let mut planes = measure::load(image)?;
-    let mut channels = Vec::new();
-    for spec in specs {
-        let (what, gene) =
-            spec.split_once('=').ok_or_else(|| bad_option("--channel", spec, "write PLANE=gene or FILE=gene"))?;
-        let plane = match what.parse::<usize>() {
-            Ok(k) => k,
+    let plane_of = |what: &str, planes: &mut Planes| -> anyhow::Result<usize> {
+        match what.trim().parse::<usize>() {
+            Ok(k) => Ok(k),
             Err(_) => {
-                let extra = measure::load(&image.with_file_name(what))?;
+                let extra = measure::load(&image.with_file_name(what.trim()))?;
                 if (extra.width, extra.height) != (planes.width, planes.height) {
                     bail!(measure::MeasureError::SizeMismatch {
                         path: extra.path,
@@ -33,12 +38,22 @@ fn planes_and_channels(image: &Path, specs: &[String]) -> anyhow::Result<(Planes
                     });
                 }
                 planes.planes.push(extra.planes[0].clone());
-                planes.planes.len() - 1
+                Ok(planes.planes.len() - 1)
             }
-        };
+        }
+    };
+    let mut channels = Vec::new();
+    for spec in specs {
+        let (what, gene) =
+            spec.split_once('=').ok_or_else(|| bad_option("--channel", spec, "write PLANE=gene or FILE=gene"))?;
+        if gene.trim().is_empty() {
+            bail!(bad_option("--channel", spec, "name the gene after the ="));
+        }
+        let plane = plane_of(what, &mut planes)?;
         channels.push(Channel { gene: gene.trim().to_string(), plane });
     }
-    Ok((planes, channels))
+    let outline = outline.map(|o| plane_of(o, &mut planes)).transpose()?;
+    Ok((planes, channels, outline))
 }
 
 fn colors_of(channels: &[Channel]) -> Vec<(String, [u8; 3])> {
@@ -49,29 +64,76 @@ fn colors_of(channels: &[Channel]) -> Vec<(String, [u8; 3])> {
         .collect()
 }
 
-fn parse_time(time: &Option<String>) -> Option<f64> {
-    time.as_ref().and_then(|t| t.parse::<f64>().ok())
+fn stem_of(path: &Path) -> String {
+    path.file_stem().map_or_else(|| "image".into(), |s| s.to_string_lossy().into_owned())
+}
+
+/// Measures one image, writes its check picture beside it and prints what was found.
+fn measure_image(args: &MeasureArgs, path: &Path) -> anyhow::Result<ImageMeasurement> {
+    let (planes, channels, outline_plane) = planes_and_channels(path, &args.channels, args.outline.as_deref())?;
+    let outline = match (&args.mask, outline_plane) {
+        (Some(mask), _) => {
+            let file = PathBuf::from(mask.replace("{stem}", &stem_of(path)));
+            Outline::Mask(measure::load_mask(&file, (planes.width, planes.height))?)
+        }
+        (None, Some(k)) => Outline::Plane(k),
+        (None, None) => Outline::AllPlanes,
+    };
+    let head = match args.head {
+        HeadArg::Left => HeadRule::Given(Side::Left),
+        HeadArg::Right => HeadRule::Given(Side::Right),
+        HeadArg::Top => HeadRule::Given(Side::Top),
+        HeadArg::Bottom => HeadRule::Given(Side::Bottom),
+        HeadArg::Auto => HeadRule::Guess { gene: args.head_high.clone() },
+    };
+    if args.head_high.is_some() && args.head != HeadArg::Auto {
+        bail!(bad_option("--head-high", args.head_high.as_deref().unwrap_or(""), "use it with --head auto only"));
+    }
+    let contrast = match args.stain {
+        StainArg::Bright => Some(Contrast::Bright),
+        StainArg::Dark => Some(Contrast::Dark),
+        StainArg::Auto => None,
+    };
+    let options = MeasureOptions { channels: channels.clone(), head, contrast, outline };
+    let m = measure::measure(&planes, &options)?;
+    let check = anlage::render::check_picture(&planes, &m, &colors_of(&channels));
+    let check_path = path.with_file_name(format!("{}_check.png", stem_of(path)));
+    anlage::export::write_atomic(&check_path, |w| w.write_all(&check.png()?))?;
+    let how = if m.contrast_how == "given" { "given".to_string() } else { m.contrast_how.clone() };
+    println!("{}: stain {} ({how}); outline from {}", path.display(), m.contrast.describe(), m.outline_how);
+    for e in &m.embryos {
+        let (hx, hy) = e.head_tail[0];
+        let confidence = e.head.confidence.map_or_else(String::new, |c| format!(", confidence {c:.2}"));
+        println!(
+            "  embryo {}: {:.0} px long at {:.1}°; head at ({hx:.0}, {hy:.0}) px, {}{confidence}",
+            e.number,
+            e.length_px,
+            e.embryo.angle_deg(),
+            e.head.how
+        );
+        for b in &e.boundaries {
+            println!("    {:<12} {:<8} {:>6.2} % of length", b.gene, b.direction, b.position_pct);
+        }
+        for f in e.flags() {
+            println!("    ! {f}");
+        }
+    }
+    for s in &m.skipped {
+        println!("  embryo {}: {}", s.number, s.reason);
+    }
+    Ok(m)
 }
 
 /// `anlage measure`.
-pub fn measure_verb(
-    image: &Path,
-    specs: &[String],
-    head: Head,
-    time: &Option<String>,
-    out: &Option<PathBuf>,
-) -> anyhow::Result<()> {
-    let images: Vec<PathBuf> = if image.is_dir() {
-        let mut v: Vec<PathBuf> = std::fs::read_dir(image)
+pub fn measure_verb(args: &MeasureArgs) -> anyhow::Result<()> {
+    let image = &args.image;
+    let folder = image.is_dir();
+    let images: Vec<PathBuf> = if folder {
+        let v: Vec<PathBuf> = batch::images_in(image)
             .with_context(|| format!("reading {}", image.display()))?
-            .filter_map(|e| e.ok().map(|e| e.path()))
-            .filter(|p| {
-                p.extension()
-                    .is_some_and(|x| ["png", "tif", "tiff"].contains(&x.to_string_lossy().to_lowercase().as_str()))
-            })
-            .filter(|p| !p.file_stem().is_some_and(|s| s.to_string_lossy().ends_with("_check")))
+            .into_iter()
+            .filter(|p| !stem_of(p).ends_with("_mask"))
             .collect();
-        v.sort();
         if v.is_empty() {
             bail!(measure::MeasureError::Empty { path: image.to_path_buf() });
         }
@@ -79,98 +141,91 @@ pub fn measure_verb(
     } else {
         vec![image.to_path_buf()]
     };
-    let mut rows: Vec<MeasuredRow> = Vec::new();
+    let when = batch::When::parse(args.time.as_deref());
+    let (mut rows, mut profiles, mut names, mut failures) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
     for path in &images {
-        let (planes, channels) = planes_and_channels(path, specs)?;
-        let m = measure::measure(&planes, &channels, head)?;
-        let check = anlage::render::check_picture(&planes, &m, &colors_of(&channels));
-        let stem = path.file_stem().map_or_else(|| "image".into(), |s| s.to_string_lossy().into_owned());
-        let check_path = path.with_file_name(format!("{stem}_check.png"));
-        anlage::export::write_atomic(&check_path, |w| w.write_all(&check.png()?))?;
-        println!(
-            "{}: embryo {:.0} px long at {:.1}°; {} boundaries",
-            path.display(),
-            m.length_px,
-            m.embryo.angle_deg(),
-            m.boundaries.len()
-        );
-        for b in &m.boundaries {
-            println!("  {:<12} {:<8} {:>6.2} % of length", b.gene, b.direction, b.position_pct);
-            rows.push(MeasuredRow {
-                sample: stem.clone(),
-                time_min: parse_time(time),
-                gene: b.gene.clone(),
-                direction: b.direction.to_string(),
-                position_pct: b.position_pct,
-                sd_pct: None,
-                n: Some(1),
-            });
+        match measure_image(args, path) {
+            Ok(m) => {
+                let stem = stem_of(path);
+                rows.extend(batch::embryo_rows(&stem, &m, &when));
+                profiles.extend(batch::profile_rows(&stem, &m));
+                names.extend(m.embryos.iter().map(|e| batch::sample_name(&stem, &m, e)));
+            }
+            Err(e) if folder => {
+                println!("{}: NOT MEASURED: {e:#}", path.display());
+                failures.push((path.clone(), format!("{e:#}")));
+            }
+            Err(e) => return Err(e),
         }
     }
-    let table = if images.len() > 1 { aggregate(&rows, image, time) } else { rows };
-    let out = out.clone().unwrap_or_else(|| {
-        if image.is_dir() {
+    let out = args.out.clone().unwrap_or_else(|| {
+        if folder {
             image.join("measured.csv")
         } else {
-            image.with_extension("").with_file_name(format!(
-                "{}_boundaries.csv",
-                image.file_stem().map_or_else(|| "image".into(), |s| s.to_string_lossy().into_owned())
-            ))
+            image.with_file_name(format!("{}_boundaries.csv", stem_of(image)))
         }
     });
-    anlage::export::write_measured(&table, &out)?;
-    println!("wrote {} (measured from images)", out.display());
+    let beside = |what: &str| out.with_file_name(format!("{}_{what}.csv", stem_of(&out)));
+    if !names.is_empty() {
+        if folder {
+            let sample = image.file_name().map_or_else(|| "batch".into(), |s| s.to_string_lossy().into_owned());
+            let (table, notes) = batch::aggregate(&rows, &names, &sample);
+            anlage::export::write_measured(&table, &out)?;
+            anlage::export::write_measured(&rows, &beside("embryos"))?;
+            println!(
+                "{} embryos measured in {} of {} images",
+                names.len(),
+                images.len() - failures.len(),
+                images.len()
+            );
+            for n in &notes {
+                println!("  note: {n}");
+            }
+            println!("wrote {} (mean and sd per boundary) and {}", out.display(), beside("embryos").display());
+        } else {
+            anlage::export::write_measured(&rows, &out)?;
+            println!("wrote {} (measured from images)", out.display());
+        }
+        anlage::export::write_measured_profiles(&profiles, &beside("profiles"))?;
+        println!("wrote {} (profiles along the axis)", beside("profiles").display());
+    }
+    if !failures.is_empty() {
+        println!("could not measure {} of {} images:", failures.len(), images.len());
+        for (p, why) in &failures {
+            println!("  {}: {why}", p.display());
+        }
+        bail!(measure::MeasureError::Batch { failed: failures.len(), total: images.len() });
+    }
     Ok(())
 }
 
-/// Mean and sd per boundary over images: boundaries grouped by gene,
-/// direction and order along the axis.
-fn aggregate(rows: &[MeasuredRow], folder: &Path, time: &Option<String>) -> Vec<MeasuredRow> {
-    let mut groups: Vec<((String, String, usize), Vec<f64>)> = Vec::new();
-    let mut seen: HashMap<(String, String, String), usize> = HashMap::new();
-    for r in rows {
-        let k = seen.entry((r.sample.clone(), r.gene.clone(), r.direction.clone())).or_insert(0);
-        let key = (r.gene.clone(), r.direction.clone(), *k);
-        *k += 1;
-        match groups.iter_mut().find(|(g, _)| *g == key) {
-            Some((_, v)) => v.push(r.position_pct),
-            None => groups.push((key, vec![r.position_pct])),
-        }
-    }
-    let sample = folder.file_name().map_or_else(|| "batch".into(), |s| s.to_string_lossy().into_owned());
-    groups
-        .into_iter()
-        .map(|((gene, direction, _), v)| {
-            let n = v.len() as f64;
-            let mean = v.iter().sum::<f64>() / n;
-            let sd =
-                if v.len() > 1 { (v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt() } else { 0.0 };
-            MeasuredRow {
-                sample: sample.clone(),
-                time_min: parse_time(time),
-                gene,
-                direction,
-                position_pct: mean,
-                sd_pct: Some(sd),
-                n: Some(v.len() as u32),
-            }
-        })
-        .collect()
-}
-
 /// `anlage compare`.
-pub fn compare_verb(run_dir: &Path, measured: &Path, stages: &[String], out: &Option<PathBuf>) -> anyhow::Result<()> {
+pub fn compare_verb(
+    run_dir: &Path,
+    measured: &Path,
+    stages: &[String],
+    sd_floor: f64,
+    out: &Option<PathBuf>,
+) -> anyhow::Result<()> {
     let mut map = HashMap::new();
     for s in stages {
         let (label, min) = s.split_once('=').ok_or_else(|| bad_option("--stage", s, "write LABEL=MINUTES"))?;
-        let min: f64 =
-            min.trim().parse().map_err(|_| bad_option("--stage", s, "write LABEL=MINUTES with a number of minutes"))?;
+        let min: f64 = min
+            .trim()
+            .parse()
+            .ok()
+            .filter(|m: &f64| m.is_finite() && *m >= 0.0)
+            .ok_or_else(|| bad_option("--stage", s, "write LABEL=MINUTES with a number of minutes >= 0"))?;
         map.insert(label.trim().to_string(), min);
     }
+    if !(sd_floor.is_finite() && sd_floor >= 0.0) {
+        bail!(bad_option("--sd-floor", &sd_floor.to_string(), "give a number >= 0, % of the length"));
+    }
     let saved = anlage::run_dir::load(run_dir)?;
-    let rows = compare::read_measured(measured, &map)?;
+    let rows = compare::read_measured(measured, &map, "--stage LABEL=MINUTES")?;
     let rec = &saved.recording;
-    let cmp = compare::compare(rec, &rows)?;
+    compare::check_genes(measured, &rows, &rec.genes)?;
+    let cmp = compare::compare(rec, &rows, sd_floor)?;
     let dir = out.clone().unwrap_or_else(|| run_dir.to_path_buf());
     std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
     anlage::export::write_comparison(&cmp, &dir.join("comparison.csv"))?;
@@ -203,6 +258,31 @@ pub fn compare_verb(run_dir: &Path, measured: &Path, stages: &[String], out: &Op
             cmp.rows.iter().filter(|r| r.status == "matched").count()
         ),
         None => println!("no boundary could be matched"),
+    }
+    if cmp.raised_sds > 0 {
+        println!(
+            "note: {} sd(s) below the resolution or the floor ({sd_floor} % of length) were raised to it for z",
+            cmp.raised_sds
+        );
+    }
+    if cmp.at_last_snapshot > 0 {
+        println!(
+            "note: {} row(s) give no time and were compared at the last snapshot, t = {} min",
+            cmp.at_last_snapshot,
+            rec.times[rec.times.len() - 1]
+        );
+    }
+    let rms = |r: Option<f64>| r.map_or_else(|| "-".into(), |x| format!("{x:.2} %"));
+    for h in &cmp.mirror {
+        println!(
+            "warning: {} (t = {} min) matches much better read the other way round: {} matched, rms {} mirrored; {} matched, rms {} as given. Was its head taken at the wrong end? Check its picture, and measure with --head or --head-high.",
+            h.sample,
+            h.time_min,
+            h.mirrored.0,
+            rms(h.mirrored.1),
+            h.as_given.0,
+            rms(h.as_given.1)
+        );
     }
     println!("wrote {}", dir.join("comparison.csv").display());
     Ok(())

@@ -1,6 +1,9 @@
 //! Measuring stained-embryo images (synthetic images, invented data).
 
-use anlage::measure::{self, Channel, Head, Planes, profile::profile_line, synth};
+use anlage::measure::{
+    self, Channel, HeadRule, ImageMeasurement, MeasureError, MeasureOptions, Outline, Planes, Side,
+    profile::profile_line, synth,
+};
 use approx::assert_relative_eq;
 use serde::Deserialize;
 
@@ -39,6 +42,22 @@ fn profile_line_matches_scikit_image() {
     }
 }
 
+/// Options reading `channels` with the head rule `head`, stain contrast detected, outline from all planes.
+fn opts(channels: &[Channel], head: HeadRule) -> MeasureOptions {
+    MeasureOptions { channels: channels.to_vec(), head, contrast: None, outline: Outline::AllPlanes }
+}
+
+fn auto() -> HeadRule {
+    HeadRule::Guess { gene: None }
+}
+
+/// Measures and expects exactly one embryo.
+fn one(p: &Planes, channels: &[Channel], head: HeadRule) -> Result<measure::EmbryoMeasurement, MeasureError> {
+    let m: ImageMeasurement = measure::measure(p, &opts(channels, head))?;
+    assert_eq!(m.embryos.len(), 1, "{:?}", m.skipped);
+    Ok(m.embryos.into_iter().next().unwrap())
+}
+
 fn planes_of(planes: Vec<Vec<f64>>, o: &synth::SynthOptions) -> Planes {
     Planes { width: o.width, height: o.height, planes, bits: 16, path: "synthetic.png".into() }
 }
@@ -69,7 +88,7 @@ fn axis_and_length_of_rotated_ellipses() {
     for (k, angle) in [0.0, 17.0, 45.0, 73.0, -30.0, 90.0].iter().enumerate() {
         let o = options(*angle, k as u64);
         let p = planes_of(synth::synthesize(&o, 2, &two_domains), &o);
-        let m = measure::measure(&p, &[Channel { gene: "amber".into(), plane: 0 }], Head::Auto).unwrap();
+        let m = one(&p, &[Channel { gene: "amber".into(), plane: 0 }], auto()).unwrap();
         let mut d = (m.embryo.angle_deg() - angle).rem_euclid(180.0);
         if d > 90.0 {
             d = 180.0 - d;
@@ -88,7 +107,7 @@ fn known_boundaries_are_recovered() {
         let o = options(*angle, 10 + k as u64);
         let p = planes_of(synth::synthesize(&o, 2, &two_domains), &o);
         let channels = [Channel { gene: "amber".into(), plane: 0 }, Channel { gene: "cobalt".into(), plane: 1 }];
-        let m = measure::measure(&p, &channels, Head::Auto).unwrap();
+        let m = one(&p, &channels, auto()).unwrap();
         assert_eq!(m.boundaries.len(), 2, "{angle}: {:?}", m.boundaries);
         let amber = m.boundaries.iter().find(|b| b.gene == "amber").unwrap();
         let cobalt = m.boundaries.iter().find(|b| b.gene == "cobalt").unwrap();
@@ -112,7 +131,7 @@ fn sixteen_and_eight_bit_agree() {
         std::fs::write(&path, synth::png(&planes, o.width, o.height, bits).unwrap()).unwrap();
         let p = measure::load(&path).unwrap();
         assert_eq!((p.bits, p.planes.len()), (bits, 3));
-        found.push(measure::measure(&p, &channels, Head::Auto).unwrap().boundaries);
+        found.push(one(&p, &channels, auto()).unwrap().boundaries);
     }
     assert_eq!(found[0].len(), found[1].len());
     for (a, b) in found[0].iter().zip(&found[1]) {
@@ -128,11 +147,12 @@ fn bad_images_are_refused_clearly() {
     let black = dir.join("black.png");
     std::fs::write(&black, synth::png(&[vec![0.0; 64 * 48]], 64, 48, 8).unwrap()).unwrap();
     let p = measure::load(&black).unwrap();
-    let err = measure::measure(&p, &[Channel { gene: "amber".into(), plane: 0 }], Head::Left).unwrap_err().to_string();
-    assert!(err.contains("no embryo found"), "{err}");
+    let left = HeadRule::Given(Side::Left);
+    let err = one(&p, &[Channel { gene: "amber".into(), plane: 0 }], left.clone()).unwrap_err().to_string();
+    assert!(err.contains("no embryo measured: nothing stands out from the background"), "{err}");
     let o = options(0.0, 1);
     let p = planes_of(synth::synthesize(&o, 2, &two_domains), &o);
-    let err = measure::measure(&p, &[Channel { gene: "amber".into(), plane: 5 }], Head::Left).unwrap_err().to_string();
+    let err = one(&p, &[Channel { gene: "amber".into(), plane: 5 }], left).unwrap_err().to_string();
     assert!(err.contains("channel 5 does not exist: the image has 2 channel(s)"), "{err}");
     let junk = dir.join("junk.png");
     std::fs::write(&junk, b"not an image").unwrap();
@@ -151,6 +171,8 @@ fn write(dir: &std::path::Path, name: &str, text: &str) -> std::path::PathBuf {
 #[test]
 fn compare_self_is_zero_and_shift_is_exact() {
     use anlage::compare::{compare, read_measured};
+    let read_measured =
+        |p: &std::path::Path, s: &std::collections::HashMap<String, f64>| read_measured(p, s, "--stage");
     let rec = crate::common::run(&crate::common::load("patterns/ribbon.toml")).recording;
     let last = rec.times.len() - 1;
     let sim = anlage::readout::boundaries_at(&rec, last).unwrap();
@@ -170,11 +192,11 @@ fn compare_self_is_zero_and_shift_is_exact() {
         t
     };
     let own = read_measured(&write(&dir, "own.csv", &table(0.0)), &Default::default()).unwrap();
-    let c = compare(&rec, &own).unwrap();
+    let c = compare(&rec, &own, 0.5).unwrap();
     assert_eq!(c.rmse_pct, Some(0.0));
     assert!(c.rows.iter().all(|r| r.status == "matched" && r.difference_pct == Some(0.0)));
     let shifted = read_measured(&write(&dir, "shifted.csv", &table(1.25)), &Default::default()).unwrap();
-    let c = compare(&rec, &shifted).unwrap();
+    let c = compare(&rec, &shifted, 0.5).unwrap();
     for r in &c.rows {
         assert_relative_eq!(r.difference_pct.unwrap(), -1.25, epsilon = 1e-9);
         assert_relative_eq!(r.z.unwrap(), -2.5, epsilon = 1e-9);
@@ -182,14 +204,17 @@ fn compare_self_is_zero_and_shift_is_exact() {
     assert_relative_eq!(c.rmse_pct.unwrap(), 1.25, epsilon = 1e-9);
     // A boundary found on one side only is listed as such.
     let extra = format!("{}e1,,amber,rising,80,,\n", table(0.0));
-    let c = compare(&rec, &read_measured(&write(&dir, "extra.csv", &extra), &Default::default()).unwrap()).unwrap();
+    let c =
+        compare(&rec, &read_measured(&write(&dir, "extra.csv", &extra), &Default::default()).unwrap(), 0.5).unwrap();
     assert_eq!(c.rows.iter().filter(|r| r.status == "measured only").count(), 1);
 }
 
 /// Bad tables name the file, line and column.
 #[test]
 fn bad_measured_tables_are_refused_clearly() {
-    use anlage::compare::read_measured;
+    let read_measured = |p: &std::path::Path, s: &std::collections::HashMap<String, f64>| {
+        anlage::compare::read_measured(p, s, "--stage LABEL=MINUTES")
+    };
     let dir = std::env::temp_dir().join(format!("anlage-badtable-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     let stages = [("late".to_string(), 200.0)].into_iter().collect();
@@ -208,7 +233,7 @@ fn bad_measured_tables_are_refused_clearly() {
         (
             "stage.csv",
             "sample,time,gene,direction,position_pct\ne1,early,amber,rising,40\n",
-            "column `time` is `early`; give minutes, or map this stage label with --stage",
+            "column `time` is `early`; map this stage label to minutes (--stage LABEL=MINUTES)",
         ),
         ("empty.csv", "sample,gene,direction,position_pct\n", "the table has no rows"),
         (
@@ -245,7 +270,7 @@ fn bad_measured_tables_are_refused_clearly() {
         &stages,
     )
     .unwrap();
-    assert_eq!(ok[0].time_min, Some(200.0));
+    assert_eq!((ok[0].time_min, ok[0].stage.as_deref(), ok[0].at_min), (None, Some("late"), Some(200.0)));
 }
 
 /// A 16-bit TIFF gives the same boundaries as the 16-bit PNG of the same image.
@@ -261,9 +286,9 @@ fn tiff_reads_like_png() {
     let tif = dir.join("e.tif");
     img.save(&tif).unwrap();
     let channels = [Channel { gene: "amber".into(), plane: 0 }, Channel { gene: "cobalt".into(), plane: 1 }];
-    let a = measure::measure(&measure::load(&png).unwrap(), &channels, Head::Auto).unwrap().boundaries;
+    let a = one(&measure::load(&png).unwrap(), &channels, auto()).unwrap().boundaries;
     let t = measure::load(&tif).unwrap();
     assert_eq!(t.bits, 16);
-    let b = measure::measure(&t, &channels, Head::Auto).unwrap().boundaries;
+    let b = one(&t, &channels, auto()).unwrap().boundaries;
     assert_eq!(a, b);
 }

@@ -13,7 +13,7 @@ use std::fs::File;
 use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 
-pub use compare_tables::{write_comparison, write_measured};
+pub use compare_tables::{write_comparison, write_measured, write_measured_profiles, write_rows};
 pub use fit_tables::{
     write_correlation, write_fit, write_profiles as write_fit_profiles, write_residuals, write_trace,
 };

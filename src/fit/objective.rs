@@ -1,9 +1,10 @@
 //! The fit objective: a weighted sum of squared boundary differences over
 //! every genotype, `Σ ((x_sim − x_meas)/σ)²`, positions in % of the axis.
 //!
-//! σ is the measured standard error: `sd_pct/√n` when the table gives n,
-//! `sd_pct` without n, and 1 % of the axis when the table gives no sd (common
-//! practice, no source). A measured boundary the model does not make, and a
+//! σ is the measured standard error: `sd/√n` when the table gives n, `sd`
+//! without n, and 1 % of the axis when the table gives no sd (common
+//! practice, no source). The sd is first raised to the row's resolution and
+//! the floor `sd_floor_pct` ([`crate::compare::floored_sd`]). A measured boundary the model does not make, and a
 //! simulated boundary of a measured gene and direction that no measurement
 //! matches, each cost a residual of [`PENALTY_PCT`]/σ, as if half an axis off.
 
@@ -40,22 +41,23 @@ pub struct Residual {
     pub value: f64,
 }
 
-fn sigma(row: &MeasuredRow) -> f64 {
-    match (row.sd_pct, row.n) {
+/// σ of one measured row, % (see the module doc).
+pub fn sigma(row: &MeasuredRow, floor: f64) -> f64 {
+    match (crate::compare::floored_sd(row, floor), row.n) {
         (Some(sd), Some(n)) if sd > 0.0 && n > 0 => sd / (n as f64).sqrt(),
-        (Some(sd), None) if sd > 0.0 => sd,
+        (Some(sd), _) if sd > 0.0 => sd,
         _ => DEFAULT_SD_PCT,
     }
 }
 
 /// Residuals of one genotype for a model with the free parameters set.
-fn genotype_residuals(model: &Model, g: &Genotype) -> Result<Vec<Residual>, integrate::StepError> {
+fn genotype_residuals(model: &Model, g: &Genotype, floor: f64) -> Result<Vec<Residual>, integrate::StepError> {
     let model = match &g.mutant {
         Some(m) => model.with_mutant(m),
         None => model.clone(),
     };
     let until = model.clock.until_min;
-    let time_of = |r: &MeasuredRow| r.time_min.unwrap_or(until);
+    let time_of = |r: &MeasuredRow| r.at_min.unwrap_or(until);
     let mut times: Vec<f64> = g.rows.iter().map(time_of).collect();
     times.sort_by(f64::total_cmp);
     times.dedup();
@@ -89,7 +91,7 @@ fn genotype_residuals(model: &Model, g: &Genotype) -> Result<Vec<Residual>, inte
         // Pair each measured boundary with the nearest unused simulated one.
         let mut used = vec![false; sim.len()];
         for m in &measured {
-            let s = sigma(m);
+            let s = sigma(m, floor);
             let nearest = (0..sim.len())
                 .filter(|&k| !used[k])
                 .min_by(|&a, &b| (sim[a] - m.position_pct).abs().total_cmp(&(sim[b] - m.position_pct).abs()));
@@ -101,7 +103,7 @@ fn genotype_residuals(model: &Model, g: &Genotype) -> Result<Vec<Residual>, inte
                 None => out.push(base(Some(m), None, s, PENALTY_PCT / s)),
             }
         }
-        let s = measured.iter().map(|m| sigma(m)).fold(f64::INFINITY, f64::min);
+        let s = measured.iter().map(|m| sigma(m, floor)).fold(f64::INFINITY, f64::min);
         for (k, x) in sim.iter().enumerate() {
             if !used[k] {
                 out.push(base(None, Some(*x), s, PENALTY_PCT / s));
@@ -117,7 +119,7 @@ pub fn residuals(problem: &FitProblem, values: &[f64]) -> Option<Vec<Residual>> 
     let model = problem.model_at(values);
     let mut all = Vec::new();
     for g in &problem.genotypes {
-        all.extend(genotype_residuals(&model, g).ok()?);
+        all.extend(genotype_residuals(&model, g, problem.sd_floor_pct).ok()?);
     }
     Some(all)
 }

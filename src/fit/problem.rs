@@ -40,6 +40,9 @@ struct FitSpec {
     seed: Option<u64>,
     evaluations: Option<usize>,
     restarts: Option<usize>,
+    sd_floor_pct: Option<f64>,
+    #[serde(default)]
+    stages: HashMap<String, f64>,
     #[serde(default)]
     profile: Vec<String>,
     #[serde(default)]
@@ -129,6 +132,9 @@ pub struct FitProblem {
     pub restarts: usize,
     /// Indices of the free parameters whose profile likelihood is wanted.
     pub profile: Vec<usize>,
+    /// Smallest sd taken at face value, % of length (raised to a row's
+    /// resolution where that is larger).
+    pub sd_floor_pct: f64,
 }
 
 impl FitProblem {
@@ -235,10 +241,16 @@ impl FitProblem {
                 })?;
                 Some(m.clone())
             };
-            let rows = read_measured(&dir.join(&ds.table), &HashMap::new())?;
+            let table = dir.join(&ds.table);
+            let rows = read_measured(&table, &spec.stages, "stages = { LABEL = MINUTES } in [fit]")?;
+            crate::compare::check_genes(
+                &table,
+                &rows,
+                &model.genes.iter().map(|g| g.name.clone()).collect::<Vec<_>>(),
+            )?;
             let times = model.clock.snapshot_times();
             for r in &rows {
-                if let Some(t) = r.time_min
+                if let Some(t) = r.at_min
                     && !times.iter().any(|&s| crate::screen::same_time(s, t))
                 {
                     return Err(src
@@ -252,6 +264,18 @@ impl FitProblem {
             }
         }
         let evaluations = spec.evaluations.unwrap_or(200 * params.len()).max(10);
+        let sd_floor_pct = spec.sd_floor_pct.unwrap_or(crate::compare::DEFAULT_SD_FLOOR_PCT);
+        if !(sd_floor_pct.is_finite() && sd_floor_pct >= 0.0) {
+            return Err(src
+                .invalid(
+                    &span,
+                    "sd_floor_pct",
+                    "fit.sd_floor_pct".into(),
+                    format!("is {sd_floor_pct}"),
+                    "give a number >= 0, % of the length",
+                )
+                .into());
+        }
         let mut profile = Vec::new();
         for name in &spec.profile {
             let k = params.iter().position(|p| &p.name == name).ok_or_else(|| {
@@ -274,6 +298,7 @@ impl FitProblem {
             evaluations,
             restarts: spec.restarts.unwrap_or(1).max(1),
             profile,
+            sd_floor_pct,
         })
     }
 

@@ -48,3 +48,16 @@ pub fn load(path: &Path) -> Result<Planes, MeasureError> {
     }
     Ok(Planes { width, height, planes, bits, path: path.to_path_buf() })
 }
+
+/// Reads a mask image the size `want` (width, height): a pixel is embryo when
+/// any of its colour channels is non-zero.
+///
+/// # Errors
+/// [`MeasureError`] if the file cannot be read or has another size.
+pub fn load_mask(path: &Path, want: (usize, usize)) -> Result<Vec<bool>, MeasureError> {
+    let m = load(path)?;
+    if (m.width, m.height) != want {
+        return Err(MeasureError::SizeMismatch { path: path.to_path_buf(), got: (m.width, m.height), want });
+    }
+    Ok((0..m.width * m.height).map(|i| m.planes.iter().any(|p| p[i] > 0.0)).collect())
+}

@@ -1,29 +1,43 @@
-//! Measuring boundaries in stained-embryo images: find the embryo (summed
-//! channels above the background of the image border, largest region, holes
-//! filled), its long
-//! axis (principal axes) and length, sample each channel along the axis in a
-//! strip around the midline, subtract the background (median outside the
-//! embryo), normalise, and read half-maximum crossings with sub-pixel
-//! interpolation, in % of embryo length from the head end.
+//! Measuring boundaries in stained-embryo images.
+//!
+//! 1. **Background and signal** ([`background`]): whether the stain is bright
+//!    on dark (fluorescence) or dark on light (bright-field; given, or detected
+//!    and reported); a quadratic background surface and its noise, estimated
+//!    away from the embryos; each plane's stain signal above it (intensity, or
+//!    optical density for absorbing stains).
+//! 2. **Outline** ([`outline`]): from a mask image, from an outline plane (a
+//!    nuclear counterstain), or from every plane together; smoothed, detected
+//!    at 5 background sd and grown to half of the dimmest tissue, so that
+//!    faint unstained tissue counts as embryo. Every region is an embryo
+//!    candidate: those cut by the image edge are skipped, and outlines that do
+//!    not look like an embryo (area, elongation, ellipse fit) are refused,
+//!    each with its reason.
+//! 3. **Axis and poles**: principal axes of the outline; each pole where the
+//!    outline signal falls to half its local level.
+//! 4. **Reading** ([`read`]): which end is the head (given, or guessed with a
+//!    confidence); each gene sampled along the axis in a strip around the
+//!    midline, normalised, and its half-level crossings in % of the length
+//!    from the head.
 
-pub mod embryo;
+pub mod background;
+pub mod batch;
 pub mod image;
+pub mod outline;
 pub mod profile;
+pub mod read;
 pub mod synth;
 
 use std::path::PathBuf;
 
+use rayon::prelude::*;
 use serde::Serialize;
 
-pub use embryo::Embryo;
-pub use image::{Planes, load};
+pub use background::Contrast;
+pub use image::{Planes, load, load_mask};
+pub use outline::{Embryo, Shape};
+pub use read::{GeneReading, HeadCall, HeadRule, POLE_FRACTION, STRIP_FRACTION, Side};
 
-/// Strip width as a fraction of the embryo's height (common practice, no source).
-pub const STRIP_FRACTION: f64 = 0.2;
-
-/// Fraction of the length at each pole where no boundary is read, because the
-/// embryo's edge dims every channel there (common practice, no source).
-pub const POLE_FRACTION: f64 = 0.03;
+use background::{SMOOTH_PX, border_band, contrast_counts, decide_contrast, median_and_sd, signal, smooth, thin};
 
 /// An image or table that cannot be measured.
 #[derive(Debug, thiserror::Error)]
@@ -42,12 +56,12 @@ pub enum MeasureError {
         /// File.
         path: PathBuf,
     },
-    /// No embryo-like region.
-    #[error("{}: no embryo found ({why}); check that the embryo is brighter than the background and fully inside the image", path.display())]
+    /// No embryo that could be measured.
+    #[error("{}: no embryo measured: {why}", path.display())]
     NoEmbryo {
         /// File.
         path: PathBuf,
-        /// What failed.
+        /// What failed, for each candidate.
         why: String,
     },
     /// A channel index past the image's channels.
@@ -60,8 +74,8 @@ pub enum MeasureError {
         /// Present.
         count: usize,
     },
-    /// Channel files of different sizes.
-    #[error("{}: is {got:?} px but the first channel file is {want:?} px; give channel files of one size", path.display())]
+    /// Channel or mask files of different sizes.
+    #[error("{}: is {got:?} px but the image is {want:?} px; give files of one size", path.display())]
     SizeMismatch {
         /// File.
         path: PathBuf,
@@ -70,17 +84,35 @@ pub enum MeasureError {
         /// Expected.
         want: (usize, usize),
     },
-}
-
-/// Which end of the embryo is the head (0 %).
-#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
-pub enum Head {
-    /// The end with the smaller image x.
-    Left,
-    /// The end with the larger image x.
-    Right,
-    /// The end where the first channel is brighter (a heuristic for a head-high gene).
-    Auto,
+    /// The stain's contrast could not be told.
+    #[error(
+        "{}: cannot tell whether the stain is bright on a dark background or dark on a light one ({bright} px clearly brighter than the background, {dark} px clearly darker); give --stain bright or --stain dark",
+        path.display()
+    )]
+    Contrast {
+        /// File.
+        path: PathBuf,
+        /// Pixels clearly brighter.
+        bright: usize,
+        /// Pixels clearly darker.
+        dark: usize,
+    },
+    /// The head-high gene is not read.
+    #[error("--head-high names `{gene}`, which is not among the channels read ({known}); name one of them")]
+    HeadGene {
+        /// The gene named.
+        gene: String,
+        /// The channels' genes.
+        known: String,
+    },
+    /// Some images of a batch could not be measured.
+    #[error("{failed} of {total} images could not be measured (listed above); the table holds the others")]
+    Batch {
+        /// Images that failed.
+        failed: usize,
+        /// Images tried.
+        total: usize,
+    },
 }
 
 /// A channel to read: a plane of the image, named by a gene.
@@ -90,6 +122,30 @@ pub struct Channel {
     pub gene: String,
     /// Plane index (into all planes given, in file order).
     pub plane: usize,
+}
+
+/// Where the embryo's outline comes from.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Outline {
+    /// Every plane together (each in units of its own background noise).
+    AllPlanes,
+    /// One plane, e.g. a nuclear counterstain that fills the whole embryo.
+    Plane(usize),
+    /// A mask image supplied by the user (non-zero pixels are embryo).
+    Mask(Vec<bool>),
+}
+
+/// How to measure an image.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MeasureOptions {
+    /// Genes to read.
+    pub channels: Vec<Channel>,
+    /// Which end is the head.
+    pub head: HeadRule,
+    /// The stain's contrast (None: detected).
+    pub contrast: Option<Contrast>,
+    /// Where the outline comes from.
+    pub outline: Outline,
 }
 
 /// One measured boundary.
@@ -103,113 +159,270 @@ pub struct MeasuredBoundary {
     pub position_pct: f64,
 }
 
-/// Everything measured in one image.
+/// One embryo measured.
 #[derive(Debug, Clone)]
-pub struct Measurement {
-    /// The embryo found.
+pub struct EmbryoMeasurement {
+    /// Number in the image (1-based, top to bottom, then left to right).
+    pub number: usize,
+    /// Geometry of the outline.
     pub embryo: Embryo,
-    /// Length between the refined poles, px.
+    /// How embryo-like the outline is.
+    pub shape: Shape,
+    /// Length between the poles, px.
     pub length_px: f64,
-    /// Head and tail ends (column, row).
+    /// Head and tail poles (column, row).
     pub head_tail: [(f64, f64); 2],
     /// Strip width, px.
     pub strip_px: usize,
-    /// The embryo's pixels.
-    pub mask: Vec<bool>,
-    /// Normalised profile per channel, head to tail (0 … 1).
-    pub profiles: Vec<Vec<f64>>,
-    /// Boundaries found.
+    /// Which end was taken as the head, and how.
+    pub head: HeadCall,
+    /// Each channel read, in the order given.
+    pub genes: Vec<GeneReading>,
+    /// Every boundary found, by gene in channel order.
     pub boundaries: Vec<MeasuredBoundary>,
 }
 
-/// Measures the boundaries of `channels` in `planes`.
+impl EmbryoMeasurement {
+    /// One pixel in % of the length: the measurement's resolution.
+    pub fn resolution_pct(&self) -> f64 {
+        100.0 / self.length_px
+    }
+    /// What a reader should be warned about, in words (empty when nothing).
+    pub fn flags(&self) -> Vec<String> {
+        let mut out = Vec::new();
+        if self.head.weak {
+            out.push(format!(
+                "weak head guess (confidence {:.2}); give --head or check the picture",
+                self.head.confidence.unwrap_or(0.0)
+            ));
+        }
+        for g in self.genes.iter().filter(|g| !g.patterned) {
+            out.push(format!("{}: no pattern (its stain barely varies along the axis)", g.gene));
+        }
+        out
+    }
+}
+
+/// A candidate region that was not measured.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Skipped {
+    /// Number in the image.
+    pub number: usize,
+    /// Centroid (column, row).
+    pub centre: (f64, f64),
+    /// Why, in words.
+    pub reason: String,
+    /// True when cut by the image edge (a note), false when refused.
+    pub cut: bool,
+}
+
+/// Everything measured in one image.
+#[derive(Debug, Clone)]
+pub struct ImageMeasurement {
+    /// How the stain shows.
+    pub contrast: Contrast,
+    /// How that was decided, in words.
+    pub contrast_how: String,
+    /// Where the outline came from, in words.
+    pub outline_how: String,
+    /// Embryos measured.
+    pub embryos: Vec<EmbryoMeasurement>,
+    /// Candidates not measured.
+    pub skipped: Vec<Skipped>,
+    /// Per pixel: 0 outside, else the number of the candidate it belongs to.
+    pub labels: Vec<u32>,
+    /// Regions too small to be embryos, ignored.
+    pub specks: usize,
+}
+
+/// Background pixels used for fits: at most this many (evenly strided).
+const FIT_PIXELS: usize = 200_000;
+/// Background pixels keep this far from anything detected, px.
+const BACKGROUND_CLEARANCE_PX: f64 = 10.0;
+
+/// Measures the boundaries of `opts.channels` in `planes`.
 ///
 /// # Errors
-/// [`MeasureError`] when a channel is missing or no embryo is found.
-pub fn measure(planes: &Planes, channels: &[Channel], head: Head) -> Result<Measurement, MeasureError> {
+/// [`MeasureError`] when a channel is missing, the contrast cannot be told,
+/// or no embryo could be measured (with each candidate's reason).
+pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasurement, MeasureError> {
     let (w, h) = (planes.width, planes.height);
-    for c in channels {
-        if c.plane >= planes.planes.len() {
-            return Err(MeasureError::NoChannel {
-                path: planes.path.clone(),
-                index: c.plane,
-                count: planes.planes.len(),
-            });
+    let path = &planes.path;
+    let count = planes.planes.len();
+    let plane_of = |index: usize| {
+        (index < count).then_some(index).ok_or(MeasureError::NoChannel { path: path.clone(), index, count })
+    };
+    for c in &opts.channels {
+        plane_of(c.plane)?;
+    }
+    if let Outline::Plane(k) = opts.outline {
+        plane_of(k)?;
+    }
+    if let Outline::Mask(m) = &opts.outline
+        && m.len() != w * h
+    {
+        return Err(MeasureError::SizeMismatch { path: path.clone(), got: (m.len(), 1), want: (w, h) });
+    }
+    let no = |why: String| MeasureError::NoEmbryo { path: path.clone(), why };
+    if w < 16 || h < 16 || opts.channels.is_empty() {
+        return Err(no(format!("the image is only {w}×{h} px")));
+    }
+    let head_gene = match &opts.head {
+        HeadRule::Guess { gene: Some(g) } => {
+            Some(opts.channels.iter().find(|c| &c.gene == g).ok_or_else(|| MeasureError::HeadGene {
+                gene: g.clone(),
+                known: opts.channels.iter().map(|c| c.gene.as_str()).collect::<Vec<_>>().join(", "),
+            })?)
+        }
+        HeadRule::Guess { gene: None } => opts.channels.first(),
+        HeadRule::Given(_) => None,
+    };
+    let mut set = thin(border_band(w, h, (w.min(h) / 40).max(3)), FIT_PIXELS);
+    let (contrast, contrast_how) = match opts.contrast {
+        Some(c) => (c, "given".to_string()),
+        None => {
+            let (bright, dark) = contrast_counts(&planes.planes, w, &set);
+            if bright.max(dark) < outline::MIN_AREA_PX {
+                return Err(no("nothing stands out from the background".into()));
+            }
+            let c = decide_contrast(bright, dark).ok_or(MeasureError::Contrast { path: path.clone(), bright, dark })?;
+            (c, format!("detected: {bright} px clearly brighter than the background, {dark} px clearly darker"))
+        }
+    };
+    // Half a grey level of the file: the quantisation floor.
+    let step = if planes.bits >= 32 { 1e-6 } else { 1.0 / ((1u64 << planes.bits) - 1) as f64 };
+    let quantisation_sd = step / 12f64.sqrt();
+    let mut signals: Vec<(Vec<f64>, f64)> = Vec::new();
+    let mut o = Vec::new();
+    let mut seg = outline::Segmentation { regions: Vec::new(), detected: Vec::new(), specks: 0 };
+    for _round in 0..2 {
+        signals = planes
+            .planes
+            .par_iter()
+            .map(|p| {
+                let (s, sd) = signal(p, w, &set, contrast, 0.5 * step);
+                (s, sd.max(quantisation_sd))
+            })
+            .collect();
+        let weighted = |k: usize| signals[k].0.iter().map(|v| v / signals[k].1).collect::<Vec<f64>>();
+        o = match &opts.outline {
+            Outline::Mask(m) => smooth(&m.iter().map(|v| f64::from(u8::from(*v))).collect::<Vec<_>>(), w, 1.0),
+            Outline::Plane(k) => smooth(&weighted(*k), w, SMOOTH_PX),
+            Outline::AllPlanes => {
+                let mut sum = vec![0.0; w * h];
+                for k in 0..count {
+                    sum.iter_mut().zip(weighted(k)).for_each(|(s, v)| *s += v);
+                }
+                smooth(&sum, w, SMOOTH_PX)
+            }
+        };
+        seg = match &opts.outline {
+            Outline::Mask(m) => {
+                let l = outline::label(m, w);
+                let specks = l.regions.iter().filter(|r| r.len() < outline::MIN_AREA_PX).count();
+                let regions = l.regions.into_iter().filter(|r| r.len() >= outline::MIN_AREA_PX).collect();
+                outline::Segmentation { regions, detected: m.clone(), specks }
+            }
+            _ => {
+                let on_set: Vec<f64> = set.iter().map(|&i| o[i]).collect();
+                let top = o.iter().fold(0.0f64, |a, v| a.max(v.abs()));
+                let noise = median_and_sd(&on_set).1.max(1e-3 * top).max(1e-12);
+                outline::segment(&o, w, noise)
+            }
+        };
+        // The next round fits the background away from everything detected.
+        let clear: Vec<bool> = seg.detected.iter().map(|d| !d).collect();
+        let distance = outline::distance_to_outside(&clear, w);
+        let away: Vec<usize> = (0..w * h).filter(|&i| distance[i] > BACKGROUND_CLEARANCE_PX).collect();
+        if away.len() >= set.len().min(2000) {
+            set = thin(away, FIT_PIXELS);
         }
     }
-    let no = |why: &str| MeasureError::NoEmbryo { path: planes.path.clone(), why: why.into() };
-    let total: Vec<f64> = (0..w * h).map(|i| planes.planes.iter().map(|p| p[i]).sum()).collect();
-    let (raw, residual) = embryo::foreground(&total, w);
-    let region = embryo::fill_holes(&embryo::largest_region(&raw, w), w);
-    let e = embryo::principal_axes(&region, w).ok_or_else(|| no("the image has no contrast"))?;
-    if e.area < 50 || e.area * 10 > 9 * w * h {
-        return Err(no(&format!("the largest bright region has {} of {} pixels", e.area, w * h)));
-    }
-    let touches =
-        region.iter().enumerate().any(|(i, m)| *m && (i % w == 0 || i / w == 0 || i % w == w - 1 || i / w == h - 1));
-    if touches {
-        return Err(no("the bright region touches the image border"));
-    }
-    let strip_px = ((STRIP_FRACTION * e.height()).round() as usize).max(1);
-    let [a, b] = embryo::refine_poles(&residual, w, &e, strip_px);
-    let length_px = (b.0 - a.0).hypot(b.1 - a.1);
-    let sample = |plane: &[f64], from: (f64, f64), to: (f64, f64)| {
-        profile::profile_line(plane, w, h, (from.1, from.0), (to.1, to.0), strip_px)
+    let outline_how = match &opts.outline {
+        Outline::AllPlanes => "all planes".to_string(),
+        Outline::Plane(k) => format!("plane {k}"),
+        Outline::Mask(_) => "mask".to_string(),
     };
-    let head_first = match head {
-        Head::Left => a.0 <= b.0,
-        Head::Right => a.0 > b.0,
-        Head::Auto => {
-            let p = sample(&planes.planes[channels.first().map_or(0, |c| c.plane)], a, b);
-            let k = (p.len() / 5).max(1);
-            p[..k].iter().sum::<f64>() >= p[p.len() - k..].iter().sum::<f64>()
+    // Number the candidates top to bottom (in quarters of the height), then left to right.
+    let mut candidates: Vec<(Embryo, &Vec<usize>)> =
+        seg.regions.iter().filter_map(|r| outline::principal_axes(r, w).map(|e| (e, r))).collect();
+    candidates.sort_by(|(a, _), (b, _)| {
+        let band = |e: &Embryo| (4.0 * e.cy / h as f64).floor();
+        band(a).total_cmp(&band(b)).then(a.cx.total_cmp(&b.cx))
+    });
+    let mut labels = vec![0u32; w * h];
+    let mut embryos = Vec::new();
+    let mut skipped = Vec::new();
+    for (k, (e, pixels)) in candidates.iter().enumerate() {
+        let number = k + 1;
+        for &i in pixels.iter() {
+            labels[i] = number as u32;
         }
-    };
-    let (from, to) = if head_first { (a, b) } else { (b, a) };
-    let mut profiles = Vec::new();
-    let mut boundaries = Vec::new();
-    for c in channels {
-        let p = normalise(&smooth(&sample(&planes.planes[c.plane], from, to)));
-        let n = p.len();
-        let step = 100.0 / (n - 1) as f64;
-        // The poles are not read: there the embryo's edge dims every channel.
-        let (k0, k1) = (
-            (POLE_FRACTION * (n - 1) as f64).ceil() as usize,
-            ((1.0 - POLE_FRACTION) * (n - 1) as f64).floor() as usize,
+        let skip = |reason: String, cut: bool| Skipped { number, centre: (e.cx, e.cy), reason, cut };
+        let touches = pixels.iter().any(|&i| i % w == 0 || i / w == 0 || i % w == w - 1 || i / w == h - 1);
+        if touches {
+            skipped.push(skip("cut by the image edge: not measured".into(), true));
+            continue;
+        }
+        let shape = outline::shape(pixels, e, w, h);
+        if let Some(why) = outline::implausible(&shape, e) {
+            skipped.push(skip(format!("refused: {why}"), false));
+            continue;
+        }
+        let [a, b] = match outline::place_poles(&o, w, e) {
+            Ok(p) => p,
+            Err(end) => {
+                skipped.push(skip(
+                    format!("refused: its end near ({:.0}, {:.0}) px has no clear edge", end.0, end.1),
+                    false,
+                ));
+                continue;
+            }
+        };
+        let strip_px = ((STRIP_FRACTION * e.height()).round() as usize).max(1);
+        let sample = |plane: usize, from: (f64, f64), to: (f64, f64)| {
+            profile::profile_line(&signals[plane].0, w, h, (from.1, from.0), (to.1, to.0), strip_px)
+        };
+        let guess = head_gene.map(|c| read::read_gene(&c.gene, sample(c.plane, a, b)));
+        let decided = read::decide_head(
+            &opts.head,
+            a,
+            b,
+            guess.as_ref().map(|g| (g.gene.as_str(), g.level.as_slice(), g.patterned)),
         );
-        for x in crate::readout::profile_boundaries(&p[k0..=k1], step, false) {
-            boundaries.push(MeasuredBoundary {
-                gene: c.gene.clone(),
-                direction: if x.rising { "rising" } else { "falling" },
-                position_pct: x.position_um - 0.5 * step + k0 as f64 * step,
-            });
-        }
-        profiles.push(p);
+        let (a_first, head) = match decided {
+            Ok(d) => d,
+            Err(why) => {
+                skipped.push(skip(format!("refused: {why}"), false));
+                continue;
+            }
+        };
+        let (from, to) = if a_first { (a, b) } else { (b, a) };
+        let genes: Vec<GeneReading> =
+            opts.channels.iter().map(|c| read::read_gene(&c.gene, sample(c.plane, from, to))).collect();
+        let boundaries = genes.iter().flat_map(|g| g.boundaries.iter().cloned()).collect();
+        embryos.push(EmbryoMeasurement {
+            number,
+            embryo: *e,
+            shape,
+            length_px: (to.0 - from.0).hypot(to.1 - from.1),
+            head_tail: [from, to],
+            strip_px,
+            head,
+            genes,
+            boundaries,
+        });
     }
-    Ok(Measurement { embryo: e, length_px, head_tail: [from, to], strip_px, mask: region, profiles, boundaries })
-}
-
-/// 5-point moving mean (shorter at the ends): symmetric, so it moves no crossing.
-fn smooth(p: &[f64]) -> Vec<f64> {
-    (0..p.len())
-        .map(|i| {
-            let (lo, hi) = (i.saturating_sub(2), (i + 3).min(p.len()));
-            p[lo..hi].iter().sum::<f64>() / (hi - lo) as f64
-        })
-        .collect()
-}
-
-/// Background-subtracted and normalised to [0, 1]: the background is the
-/// embryo's own baseline (2nd percentile of the profile), the top its 98th
-/// percentile, robust to noise (common practice, no source).
-fn normalise(p: &[f64]) -> Vec<f64> {
-    let mut sorted = p.to_vec();
-    sorted.sort_by(f64::total_cmp);
-    let q = |f: f64| sorted[((sorted.len() - 1) as f64 * f).round() as usize];
-    let (lo, hi) = (q(0.02), q(0.98));
-    // Less than 5 % of full scale between baseline and top: no pattern to read.
-    if !(hi - lo > 0.05) {
-        return vec![0.0; p.len()];
+    if embryos.is_empty() {
+        let why = if skipped.is_empty() {
+            format!(
+                "nothing stands out from the background as {}; check the image and --stain",
+                if contrast == Contrast::Bright { "brighter" } else { "darker" }
+            )
+        } else {
+            skipped.iter().map(|s| format!("candidate {}: {}", s.number, s.reason)).collect::<Vec<_>>().join("; ")
+        };
+        return Err(no(why));
     }
-    p.iter().map(|v| ((v - lo) / (hi - lo)).clamp(0.0, 1.0)).collect()
+    Ok(ImageMeasurement { contrast, contrast_how, outline_how, embryos, skipped, labels, specks: seg.specks })
 }

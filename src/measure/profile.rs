@@ -16,7 +16,7 @@ pub fn bilinear(plane: &[f64], width: usize, height: usize, row: f64, col: f64) 
 }
 
 /// Mean intensity profile from `src` to `dst` ((row, col) each) over a line
-/// `linewidth` pixels wide.
+/// `linewidth` pixels wide, ⌈|dst − src| + 1⌉ points.
 pub fn profile_line(
     plane: &[f64],
     width: usize,
@@ -25,9 +25,22 @@ pub fn profile_line(
     dst: (f64, f64),
     linewidth: usize,
 ) -> Vec<f64> {
+    let n = ((dst.0 - src.0).hypot(dst.1 - src.1) + 1.0).ceil() as usize;
+    profile_line_n(plane, width, height, src, dst, linewidth, n)
+}
+
+/// [`profile_line`] with `n` points from `src` to `dst` inclusive.
+pub fn profile_line_n(
+    plane: &[f64],
+    width: usize,
+    height: usize,
+    src: (f64, f64),
+    dst: (f64, f64),
+    linewidth: usize,
+    n: usize,
+) -> Vec<f64> {
     let (dr, dc) = (dst.0 - src.0, dst.1 - src.1);
     let theta = dr.atan2(dc);
-    let n = (dr.hypot(dc) + 1.0).ceil() as usize;
     let lw = linewidth.max(1);
     let row_w = (lw as f64 - 1.0) * theta.cos() / 2.0;
     let col_w = (lw as f64 - 1.0) * (-theta).sin() / 2.0;

@@ -6,21 +6,41 @@ use super::canvas::{Align, Canvas};
 use super::profiles::profiles_with_axes;
 use crate::compare::Comparison;
 use crate::integrate::{ReadBackError, Recording};
-use crate::measure::{Measurement, Planes};
+use crate::measure::{EmbryoMeasurement, ImageMeasurement, Planes};
 
 /// The image (first three planes as red, green, blue, each stretched to its
-/// range) with the embryo's outline, its axis from head (H) to tail, the strip
-/// that was read and each boundary as a tick across the axis, labelled.
-pub fn check_picture(p: &Planes, m: &Measurement, genes: &[(String, [u8; 3])]) -> Canvas {
+/// range) with every candidate's outline and number: measured embryos in
+/// white with their axis from head (H) to tail, the strip that was read and
+/// each boundary as a tick across the axis, labelled; embryos cut by the
+/// edge in grey, refused outlines dashed; below, how the stain and outline
+/// were found, the head of each embryo and every reason for a skip.
+pub fn check_picture(p: &Planes, m: &ImageMeasurement, genes: &[(String, [u8; 3])]) -> Canvas {
     // Shown about 720 px wide: small images enlarged (at most 3×), large ones reduced.
     let scale = (720.0 / p.width as f64).min(3.0);
     let (w, h) = ((p.width as f64 * scale).round() as u32, (p.height as f64 * scale).round() as u32);
-    let mut c = Canvas::new(w, h + 40, [0, 0, 0]);
+    let mut notes = vec![format!(
+        "{}: stain {} ({}); outline from {}",
+        p.path.file_name().map_or_else(String::new, |n| n.to_string_lossy().into_owned()),
+        m.contrast.describe(),
+        if m.contrast_how == "given" { "given" } else { "detected" },
+        m.outline_how
+    )];
+    for e in &m.embryos {
+        let confidence = e.head.confidence.map_or_else(String::new, |c| format!(", confidence {c:.2}"));
+        let weak = if e.head.weak { " WEAK: check the head" } else { "" };
+        notes.push(format!("{}: head (H) {}{confidence}{weak}", e.number, e.head.how));
+    }
+    for s in &m.skipped {
+        notes.push(format!("{}: {}", s.number, s.reason));
+    }
+    let footer = 14 + 17 * notes.len() as u32;
+    let mut c = Canvas::new(w, h + footer, [0, 0, 0]);
     let ranges: Vec<(f64, f64)> = p
         .planes
         .iter()
         .map(|pl| pl.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(l, hi), v| (l.min(*v), hi.max(*v))))
         .collect();
+    let skipped = |k: u32| m.skipped.iter().find(|s| s.number as u32 == k);
     for y in 0..h {
         for x in 0..w {
             let (sx, sy) = (((x as f64 + 0.5) / scale) as usize, ((y as f64 + 0.5) / scale) as usize);
@@ -34,23 +54,58 @@ pub fn check_picture(p: &Planes, m: &Measurement, genes: &[(String, [u8; 3])]) -
                 rgb = [rgb[0]; 3];
             }
             let i = sy * p.width + sx;
-            let edge = m.mask[i]
+            let k = m.labels[i];
+            let other = |j: usize| m.labels[j] != k;
+            let edge = k != 0
                 && (sx == 0
                     || sy == 0
-                    || !m.mask[i - 1]
-                    || !m.mask[i - p.width]
                     || sx + 1 == p.width
-                    || !m.mask[i + 1]);
-            c.put(x, y, if edge { [255, 255, 255] } else { rgb });
+                    || sy + 1 == p.height
+                    || other(i - 1)
+                    || other(i - p.width)
+                    || other(i + 1)
+                    || other(i + p.width));
+            let colour = match (edge, skipped(k)) {
+                (false, _) => rgb,
+                (true, None) => [255, 255, 255],
+                (true, Some(s)) if s.cut => [150, 150, 150],
+                // Refused: dashed white and black.
+                (true, Some(_)) => {
+                    if (x / 6 + y / 6) % 2 == 0 {
+                        [255, 255, 255]
+                    } else {
+                        [0, 0, 0]
+                    }
+                }
+            };
+            c.put(x, y, colour);
         }
     }
     let s = scale as f32;
-    let [(hx, hy), (tx, ty)] = m.head_tail;
+    for e in &m.embryos {
+        draw_embryo(&mut c, e, s, genes);
+    }
+    for sk in &m.skipped {
+        let (x, y) = (sk.centre.0 as f32 * s, sk.centre.1 as f32 * s);
+        let label = format!("{}: {}", sk.number, if sk.cut { "cut by edge" } else { "refused" });
+        let lw = Canvas::text_width(13.0, &label);
+        c.rect(x - lw / 2.0 - 3.0, y - 12.0, lw + 6.0, 17.0, [0, 0, 0]);
+        c.text(x, y, 13.0, [255, 255, 255], Align::Centre, &label);
+    }
+    for (k, note) in notes.iter().enumerate() {
+        c.text(8.0, h as f32 + 20.0 + 17.0 * k as f32, 12.0, [200, 200, 200], Align::Left, note);
+    }
+    c
+}
+
+/// Axis, strip, head mark, number and boundary ticks of one measured embryo.
+fn draw_embryo(c: &mut Canvas, e: &EmbryoMeasurement, s: f32, genes: &[(String, [u8; 3])]) {
+    let [(hx, hy), (tx, ty)] = e.head_tail;
     let (hx, hy, tx, ty) = (hx as f32 * s, hy as f32 * s, tx as f32 * s, ty as f32 * s);
     let len = (tx - hx).hypot(ty - hy).max(1.0);
     let (ux, uy) = ((tx - hx) / len, (ty - hy) / len);
     let (nx, ny) = (-uy, ux);
-    let half = m.strip_px as f32 * s / 2.0;
+    let half = e.strip_px as f32 * s / 2.0;
     c.line(hx, hy, tx, ty, 1.5, [255, 255, 255]);
     for side in [-1.0f32, 1.0] {
         c.polyline(
@@ -61,14 +116,21 @@ pub fn check_picture(p: &Planes, m: &Measurement, genes: &[(String, [u8; 3])]) -
             Some([4.0, 4.0]),
         );
     }
-    c.text(hx - 14.0 * ux, hy - 14.0 * uy + 5.0, 14.0, [255, 255, 255], Align::Centre, "H");
-    for (k, b) in m.boundaries.iter().enumerate() {
+    let head = if e.head.weak { "H?" } else { "H" };
+    c.text(hx - 16.0 * ux, hy - 16.0 * uy + 5.0, 14.0, [255, 255, 255], Align::Centre, head);
+    let (mx, my) = (tx + 18.0 * ux, ty + 18.0 * uy + 6.0);
+    let number = e.number.to_string();
+    let nw = Canvas::text_width(16.0, &number);
+    c.rect(mx - nw / 2.0 - 4.0, my - 15.0, nw + 8.0, 20.0, [0, 0, 0]);
+    c.text(mx, my, 16.0, [255, 255, 255], Align::Centre, &number);
+    for (k, b) in e.boundaries.iter().enumerate() {
         let color = genes.iter().find(|(g, _)| g == &b.gene).map_or([255, 255, 255], |(_, c)| *c);
         let f = b.position_pct as f32 / 100.0;
         let (x, y) = (hx + f * (tx - hx), hy + f * (ty - hy));
         let tick = half + 10.0;
         c.line(x - tick * nx, y - tick * ny, x + tick * nx, y + tick * ny, 2.5, color);
-        let off = tick + 12.0 + 12.0 * (k % 2) as f32;
+        // Labels alternate sides of the axis, so neighbours do not overlap.
+        let off = (tick + 14.0) * if k % 2 == 0 { 1.0 } else { -1.0 };
         let (lx, ly) = (x + off * nx, y + off * ny + 4.0);
         let label = format!("{} {:.1}%", b.gene, b.position_pct);
         // On a dark backing: the stain under the label can be any colour.
@@ -76,10 +138,6 @@ pub fn check_picture(p: &Planes, m: &Measurement, genes: &[(String, [u8; 3])]) -
         c.rect(lx - lw / 2.0 - 3.0, ly - 11.0, lw + 6.0, 15.0, [0, 0, 0]);
         c.text(lx, ly, 12.0, color, Align::Centre, &label);
     }
-    let name = p.path.file_name().map_or_else(String::new, |n| n.to_string_lossy().into_owned());
-    let note = format!("{name}: outline, axis from head (H), strip read ({} px), boundaries", m.strip_px);
-    c.text(8.0, h as f32 + 26.0, 12.0, [200, 200, 200], Align::Left, &note);
-    c
 }
 
 /// Simulated profiles at snapshot `s` with each measured boundary of that

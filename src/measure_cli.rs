@@ -100,7 +100,7 @@ fn measure_image(args: &MeasureArgs, path: &Path) -> anyhow::Result<ImageMeasure
     let check_path = path.with_file_name(format!("{}_check.png", stem_of(path)));
     anlage::export::write_atomic(&check_path, |w| w.write_all(&check.png()?))?;
     let how = if m.contrast_how == "given" { "given".to_string() } else { m.contrast_how.clone() };
-    println!("{}: stain {} ({how}); outline from {}", path.display(), m.contrast.describe(), m.outline_how);
+    println!("{}: stain {}, {how}; outline from {}", path.display(), m.contrast.describe(), m.outline_how);
     for e in &m.embryos {
         let (hx, hy) = e.head_tail[0];
         let confidence = e.head.confidence.map_or_else(String::new, |c| format!(", confidence {c:.2}"));
@@ -165,7 +165,10 @@ pub fn measure_verb(args: &MeasureArgs) -> anyhow::Result<()> {
             image.with_file_name(format!("{}_boundaries.csv", stem_of(image)))
         }
     });
-    let beside = |what: &str| out.with_file_name(format!("{}_{what}.csv", stem_of(&out)));
+    // Beside the table: <table>_embryos.csv, <table>_profiles.csv (<image>_profiles.csv by default).
+    let base = stem_of(&out);
+    let base = if args.out.is_none() && !folder { stem_of(image) } else { base };
+    let beside = |what: &str| out.with_file_name(format!("{base}_{what}.csv"));
     if !names.is_empty() {
         if folder {
             let sample = image.file_name().map_or_else(|| "batch".into(), |s| s.to_string_lossy().into_owned());

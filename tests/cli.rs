@@ -1,20 +1,9 @@
 //! The command line: outputs, determinism across thread counts, exit codes.
 
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::process::Command;
 
-use crate::common::root;
-
-fn anlage(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_anlage")).args(args).output().expect("run anlage")
-}
-
-fn temp_dir(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("anlage-test-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
+use crate::common::{anlage, root, run_into, temp_dir};
 
 /// A fresh test folder `name` holding `file` with `text`; returns (folder, file).
 fn model_in_temp(name: &str, file: &str, text: &str) -> (PathBuf, PathBuf) {
@@ -22,13 +11,6 @@ fn model_in_temp(name: &str, file: &str, text: &str) -> (PathBuf, PathBuf) {
     let path = dir.join(file);
     std::fs::write(&path, text).unwrap();
     (dir, path)
-}
-
-fn run_into(model: &str, out: &Path, threads: usize) {
-    let model = root().join(model);
-    let o =
-        anlage(&["run", model.to_str().unwrap(), "-o", out.to_str().unwrap(), "--threads", &threads.to_string(), "-q"]);
-    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
 }
 
 fn summary(dir: &Path) -> serde_json::Value {

@@ -1,6 +1,7 @@
 //! Helpers shared by the integration tests.
 
 use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
 
 use anlage::model::{Model, Stepping};
 use anlage::{Run, RunOptions, simulate};
@@ -48,4 +49,25 @@ pub fn bisect(mut lo: f64, mut hi: f64, iterations: usize, below: impl Fn(f64) -
         if below(mid) { lo = mid } else { hi = mid }
     }
     0.5 * (lo + hi)
+}
+
+/// Runs the `anlage` binary with `args`.
+pub fn anlage(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_anlage")).args(args).output().expect("run anlage")
+}
+
+/// A fresh, empty test folder for this process.
+pub fn temp_dir(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("anlage-test-{}-{name}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+/// Runs a bundled model into `out` quietly with `threads` threads.
+pub fn run_into(model: &str, out: &Path, threads: usize) {
+    let model = root().join(model);
+    let o =
+        anlage(&["run", model.to_str().unwrap(), "-o", out.to_str().unwrap(), "--threads", &threads.to_string(), "-q"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
 }

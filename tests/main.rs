@@ -3,6 +3,7 @@
 mod analytic;
 mod cli;
 mod common;
+mod compare;
 mod convergence;
 mod demos;
 mod fit;

@@ -128,3 +128,24 @@ pub fn residuals(problem: &FitProblem, values: &[f64]) -> Option<Vec<Residual>> 
 pub fn objective(problem: &FitProblem, values: &[f64]) -> f64 {
     residuals(problem, values).map_or(f64::INFINITY, |r| r.iter().map(|r| r.value * r.value).sum())
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// σ is the standard error sd/√n of the floored sd: an sd below the
+    /// floor (or the row's resolution) is raised first; no sd gives 1 %.
+    #[test]
+    fn sigma_uses_the_floored_sd() {
+        let row = |sd: Option<f64>, n: Option<u32>, res: Option<f64>| MeasuredRow {
+            sd_pct: sd,
+            n,
+            resolution_pct: res,
+            ..Default::default()
+        };
+        assert!((sigma(&row(Some(0.0023), Some(4), None), 0.5) - 0.25).abs() < 1e-12);
+        assert!((sigma(&row(Some(0.0), Some(1), Some(0.8)), 0.5) - 0.8).abs() < 1e-12);
+        assert!((sigma(&row(Some(2.0), Some(4), None), 0.5) - 1.0).abs() < 1e-12);
+        assert_eq!(sigma(&row(None, Some(4), None), 0.5), DEFAULT_SD_PCT);
+    }
+}

@@ -6,7 +6,7 @@ use super::canvas::{Align, Canvas};
 use super::profiles::profiles_with_axes;
 use crate::compare::Comparison;
 use crate::integrate::{ReadBackError, Recording};
-use crate::measure::{EmbryoMeasurement, ImageMeasurement, Planes};
+use crate::measure::{Contrast, EmbryoMeasurement, ImageMeasurement, Planes};
 
 /// The image (first three planes as red, green, blue, each stretched to its
 /// range) with every candidate's outline and number: measured embryos in
@@ -41,6 +41,8 @@ pub fn check_picture(p: &Planes, m: &ImageMeasurement, genes: &[(String, [u8; 3]
         .map(|pl| pl.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(l, hi), v| (l.min(*v), hi.max(*v))))
         .collect();
     let skipped = |k: u32| m.skipped.iter().find(|s| s.number as u32 == k);
+    // Lines in white over a dark (fluorescent) image, black over a light one.
+    let ink = if m.contrast == Contrast::Dark { [0, 0, 0] } else { [255, 255, 255] };
     for y in 0..h {
         for x in 0..w {
             let (sx, sy) = (((x as f64 + 0.5) / scale) as usize, ((y as f64 + 0.5) / scale) as usize);
@@ -67,7 +69,7 @@ pub fn check_picture(p: &Planes, m: &ImageMeasurement, genes: &[(String, [u8; 3]
                     || other(i + p.width));
             let colour = match (edge, skipped(k)) {
                 (false, _) => rgb,
-                (true, None) => [255, 255, 255],
+                (true, None) => ink,
                 (true, Some(s)) if s.cut => [150, 150, 150],
                 // Refused: dashed white and black.
                 (true, Some(_)) => {
@@ -83,7 +85,7 @@ pub fn check_picture(p: &Planes, m: &ImageMeasurement, genes: &[(String, [u8; 3]
     }
     let s = scale as f32;
     for e in &m.embryos {
-        draw_embryo(&mut c, e, s, genes);
+        draw_embryo(&mut c, e, s, genes, ink);
     }
     for sk in &m.skipped {
         let (x, y) = (sk.centre.0 as f32 * s, sk.centre.1 as f32 * s);
@@ -99,14 +101,14 @@ pub fn check_picture(p: &Planes, m: &ImageMeasurement, genes: &[(String, [u8; 3]
 }
 
 /// Axis, strip, head mark, number and boundary ticks of one measured embryo.
-fn draw_embryo(c: &mut Canvas, e: &EmbryoMeasurement, s: f32, genes: &[(String, [u8; 3])]) {
+fn draw_embryo(c: &mut Canvas, e: &EmbryoMeasurement, s: f32, genes: &[(String, [u8; 3])], ink: [u8; 3]) {
     let [(hx, hy), (tx, ty)] = e.head_tail;
     let (hx, hy, tx, ty) = (hx as f32 * s, hy as f32 * s, tx as f32 * s, ty as f32 * s);
     let len = (tx - hx).hypot(ty - hy).max(1.0);
     let (ux, uy) = ((tx - hx) / len, (ty - hy) / len);
     let (nx, ny) = (-uy, ux);
     let half = e.strip_px as f32 * s / 2.0;
-    c.line(hx, hy, tx, ty, 1.5, [255, 255, 255]);
+    c.line(hx, hy, tx, ty, 1.5, ink);
     for side in [-1.0f32, 1.0] {
         c.polyline(
             &[(hx + side * half * nx, hy + side * half * ny), (tx + side * half * nx, ty + side * half * ny)],
@@ -117,7 +119,10 @@ fn draw_embryo(c: &mut Canvas, e: &EmbryoMeasurement, s: f32, genes: &[(String, 
         );
     }
     let head = if e.head.weak { "H?" } else { "H" };
-    c.text(hx - 16.0 * ux, hy - 16.0 * uy + 5.0, 14.0, [255, 255, 255], Align::Centre, head);
+    let (lx, ly) = (hx - 18.0 * ux, hy - 18.0 * uy + 6.0);
+    let hw = Canvas::text_width(14.0, head);
+    c.rect(lx - hw / 2.0 - 3.0, ly - 13.0, hw + 6.0, 18.0, [0, 0, 0]);
+    c.text(lx, ly, 14.0, [255, 255, 255], Align::Centre, head);
     let (mx, my) = (tx + 18.0 * ux, ty + 18.0 * uy + 6.0);
     let number = e.number.to_string();
     let nw = Canvas::text_width(16.0, &number);

@@ -6,6 +6,7 @@ mod common;
 mod convergence;
 mod demos;
 mod fit;
+mod imaging;
 mod interrupt;
 mod measure;
 mod phase;

@@ -7,6 +7,7 @@ mod compare;
 mod convergence;
 mod demos;
 mod fit;
+mod imaging;
 mod interrupt;
 mod measure;
 mod phase;

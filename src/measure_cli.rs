@@ -102,10 +102,10 @@ fn measure_image(args: &MeasureArgs, path: &Path) -> anyhow::Result<ImageMeasure
     let how = if m.contrast_how == "given" { "given".to_string() } else { m.contrast_how.clone() };
     println!("{}: stain {}, {how}; outline from {}", path.display(), m.contrast.describe(), m.outline_how);
     for e in &m.embryos {
-        let (hx, hy) = e.head_tail[0];
+        let ((hx, hy), (tx, ty)) = (e.head_tail[0], e.head_tail[1]);
         let confidence = e.head.confidence.map_or_else(String::new, |c| format!(", confidence {c:.2}"));
         println!(
-            "  embryo {}: {:.0} px long at {:.1}°; head at ({hx:.0}, {hy:.0}) px, {}{confidence}",
+            "  embryo {}: {:.1} px long at {:.1}°, head ({hx:.1}, {hy:.1}) px to tail ({tx:.1}, {ty:.1}) px; head {}{confidence}",
             e.number,
             e.length_px,
             e.embryo.angle_deg(),
@@ -120,6 +120,9 @@ fn measure_image(args: &MeasureArgs, path: &Path) -> anyhow::Result<ImageMeasure
     }
     for s in &m.skipped {
         println!("  embryo {}: {}", s.number, s.reason);
+    }
+    if let Some(e) = m.none_measured(path) {
+        bail!(e);
     }
     Ok(m)
 }

@@ -54,6 +54,9 @@ fn auto() -> HeadRule {
 /// Measures and expects exactly one embryo.
 fn one(p: &Planes, channels: &[Channel], head: HeadRule) -> Result<measure::EmbryoMeasurement, MeasureError> {
     let m: ImageMeasurement = measure::measure(p, &opts(channels, head))?;
+    if let Some(e) = m.none_measured(&p.path) {
+        return Err(e);
+    }
     assert_eq!(m.embryos.len(), 1, "{:?}", m.skipped);
     Ok(m.embryos.into_iter().next().unwrap())
 }
@@ -291,4 +294,98 @@ fn tiff_reads_like_png() {
     assert_eq!(t.bits, 16);
     let b = one(&t, &channels, auto()).unwrap().boundaries;
     assert_eq!(a, b);
+}
+
+/// A grey image of filled shapes (each inside test given as a closure) on a
+/// dark background, with a smooth edge (Gaussian blur σ 1.5 px via the
+/// synthetic blur) and deterministic noise: tissue 0.3, background 0.05.
+fn shapes(w: usize, h: usize, inside: &dyn Fn(f64, f64) -> bool) -> Planes {
+    let o = synth::SynthOptions {
+        width: w,
+        height: h,
+        semi_axes: (1.0, 1.0),
+        angle_deg: 0.0,
+        blur_px: 0.0,
+        noise: 0.0,
+        seed: 0,
+    };
+    let plane: Vec<f64> = (0..w * h)
+        .map(|i| {
+            let (x, y) = ((i % w) as f64, (i / w) as f64);
+            let noise = 0.01 * (((i * 2654435761) % 1000) as f64 / 1000.0 - 0.5);
+            if inside(x, y) { 0.3 + noise } else { 0.05 + noise }
+        })
+        .collect();
+    planes_of(vec![plane], &o)
+}
+
+fn in_ellipse(x: f64, y: f64, c: (f64, f64), a: f64, b: f64, angle_deg: f64) -> bool {
+    let (ca, sa) = (angle_deg.to_radians().cos(), angle_deg.to_radians().sin());
+    let (dx, dy) = (x - c.0, y - c.1);
+    let (u, v) = (dx * ca + dy * sa, -dx * sa + dy * ca);
+    (u / a).powi(2) + (v / b).powi(2) <= 1.0
+}
+
+/// Outlines that do not look like an embryo are refused with the reason
+/// (README, "Compare with stained embryos": plausibility limits); never
+/// measured as if they were one.
+#[test]
+fn issue_18_implausible_outlines_are_refused_with_reasons() {
+    let amber = [Channel { gene: "amber".into(), plane: 0 }];
+    for (name, inside, want) in [
+        (
+            "two embryos side by side, touching",
+            Box::new(|x, y| {
+                in_ellipse(x, y, (200.0, 105.0), 130.0, 42.0, 0.0) || in_ellipse(x, y, (200.0, 188.0), 130.0, 42.0, 0.0)
+            }) as Box<dyn Fn(f64, f64) -> bool>,
+            "fits an ellipse poorly",
+        ),
+        ("a round cell", Box::new(|x, y| in_ellipse(x, y, (200.0, 150.0), 70.0, 66.0, 0.0)), "nearly round"),
+        ("a fibre", Box::new(|x, y| in_ellipse(x, y, (200.0, 150.0), 160.0, 9.0, 25.0)), "thin streak"),
+        ("a speck-sized embryo", Box::new(|x, y| in_ellipse(x, y, (200.0, 150.0), 17.0, 7.0, 10.0)), "too small"),
+    ] {
+        let p = shapes(400, 300, &*inside);
+        let m = measure::measure(&p, &opts(&amber, HeadRule::Given(Side::Left)));
+        let why = match m {
+            Ok(m) => {
+                assert!(m.embryos.is_empty(), "{name}: measured");
+                m.none_measured(&p.path).unwrap().to_string()
+            }
+            Err(e) => e.to_string(),
+        };
+        assert!(why.contains("refused") && why.contains(want), "{name}: {why}");
+    }
+}
+
+/// `--time` with a stage label keeps the label in the table's `stage` column
+/// (no number in `time_min`); a folder with an unreadable image measures the
+/// others, lists the bad one with its reason and exits with 2.
+#[test]
+fn issue_18_stage_labels_and_a_broken_image_in_a_batch() {
+    use crate::common::{anlage, temp_dir};
+    let dir = temp_dir("batch");
+    for k in 0..2 {
+        let o = options(15.0 * k as f64, 40 + k);
+        let planes = synth::synthesize(&o, 2, &two_domains);
+        std::fs::write(dir.join(format!("e{k}.png")), synth::png(&planes, o.width, o.height, 16).unwrap()).unwrap();
+    }
+    std::fs::write(dir.join("e9.png"), b"\x89PNG but cut short").unwrap();
+    let out =
+        anlage(&["measure", dir.to_str().unwrap(), "--channel", "0=amber", "--channel", "1=cobalt", "--time", "st14"]);
+    let (stdout, stderr) = (String::from_utf8_lossy(&out.stdout), String::from_utf8_lossy(&out.stderr));
+    assert_eq!(out.status.code(), Some(2), "{stdout}{stderr}");
+    assert!(
+        stdout.contains("could not measure 1 of 3 images:")
+            && stdout.contains("e9.png: ")
+            && stdout.contains("cannot read the image"),
+        "{stdout}"
+    );
+    assert!(stderr.contains("1 of 3 images could not be measured"), "{stderr}");
+    let rows =
+        anlage::compare::read_measured(&dir.join("measured.csv"), &[("st14".to_string(), 200.0)].into(), "").unwrap();
+    assert_eq!(rows.len(), 2);
+    assert!(rows.iter().all(|r| r.stage.as_deref() == Some("st14") && r.time_min.is_none() && r.n == Some(2)));
+    let embryos = std::fs::read_to_string(dir.join("measured_embryos.csv")).unwrap();
+    assert!(embryos.lines().nth(1).unwrap().starts_with("e0,1,,st14,amber,falling,"), "{embryos}");
+    assert!(dir.join("measured_profiles.csv").is_file() && dir.join("e1_check.png").is_file());
 }

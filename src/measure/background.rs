@@ -171,6 +171,93 @@ pub fn border_band(width: usize, height: usize, band: usize) -> Vec<usize> {
         .collect()
 }
 
+/// Pieces the border band is cut into for [`background_border`].
+pub const BORDER_PIECES: usize = 32;
+
+/// Noise sd of a plane from differences of horizontal neighbours within
+/// `set` (both pixels in it): 1.4826·median|Δ|/√2. Smooth changes of the
+/// background and the edges of the few regions the set crosses hardly move it.
+pub fn difference_noise(plane: &[f64], width: usize, set: &[usize]) -> f64 {
+    let mut inside = vec![false; plane.len()];
+    set.iter().for_each(|&i| inside[i] = true);
+    let mut d: Vec<f64> = set
+        .iter()
+        .filter(|&&i| (i + 1) % width != 0 && inside[i + 1])
+        .map(|&i| (plane[i + 1] - plane[i]).abs())
+        .collect();
+    MAD_TO_SD * median(&mut d) / std::f64::consts::SQRT_2
+}
+
+/// The part of the border band (`band` px wide) that is background. The band
+/// is cut into [`BORDER_PIECES`] pieces along the perimeter; a quadratic
+/// surface is fitted to the pieces' medians, and the piece farthest from it
+/// is dropped while it is more than 3 noise sd off (noise from
+/// [`difference_noise`]) and more than 12 pieces remain. An embryo cut by the
+/// image edge covers some pieces: they are dropped, where a fit to the whole
+/// band would bend towards them (common practice, no source).
+pub fn background_border(plane: &[f64], width: usize, band: usize) -> Vec<usize> {
+    let height = plane.len() / width;
+    let all = border_band(width, height, band);
+    let perimeter = 2.0 * (width + height) as f64;
+    // Position along the perimeter, clockwise from the top-left corner.
+    let along = |i: usize| {
+        let (x, y) = ((i % width) as f64, (i / width) as f64);
+        let (w, h) = (width as f64, height as f64);
+        let d = [y, w - 1.0 - x, h - 1.0 - y, x];
+        let side = (0..4).min_by(|&a, &b| d[a].total_cmp(&d[b])).unwrap_or(0);
+        match side {
+            0 => x,
+            1 => w + y,
+            2 => w + h + (w - 1.0 - x),
+            _ => 2.0 * w + h + (h - 1.0 - y),
+        }
+    };
+    let mut pieces: Vec<Vec<usize>> = vec![Vec::new(); BORDER_PIECES];
+    for &i in &all {
+        let k = ((along(i) / perimeter * BORDER_PIECES as f64) as usize).min(BORDER_PIECES - 1);
+        pieces[k].push(i);
+    }
+    pieces.retain(|p| p.len() >= 8);
+    let noise = difference_noise(plane, width, &all).max(1e-12);
+    let surface = Surface { coef: [0.0; 6], width, height };
+    let centre = |p: &Vec<usize>| {
+        let n = p.len() as f64;
+        let (sx, sy) = p.iter().fold((0.0, 0.0), |(a, b), &i| (a + (i % width) as f64, b + (i / width) as f64));
+        ((sx / n).round() as usize, (sy / n).round() as usize)
+    };
+    let points: Vec<((usize, usize), f64)> = pieces
+        .iter()
+        .map(|p| {
+            let mut v: Vec<f64> = p.iter().map(|&i| plane[i]).collect();
+            (centre(p), median(&mut v))
+        })
+        .collect();
+    let mut keep: Vec<usize> = (0..points.len()).collect();
+    while keep.len() > 12 {
+        let mut ata = nalgebra::Matrix6::<f64>::zeros();
+        let mut atb = nalgebra::Vector6::<f64>::zeros();
+        for &k in &keep {
+            let ((x, y), v) = points[k];
+            let r = nalgebra::Vector6::from(surface.basis(x, y));
+            ata += r * r.transpose();
+            atb += r * v;
+        }
+        let Some(c) = ata.lu().solve(&atb) else { break };
+        let fitted = Surface { coef: [c[0], c[1], c[2], c[3], c[4], c[5]], width, height };
+        let (worst, off) = keep
+            .iter()
+            .map(|&k| (k, (points[k].1 - fitted.at(points[k].0.0, points[k].0.1)).abs()))
+            .fold((usize::MAX, 0.0), |a, b| if b.1 > a.1 { b } else { a });
+        if off <= 3.0 * noise {
+            break;
+        }
+        keep.retain(|&k| k != worst);
+    }
+    let mut out: Vec<usize> = keep.iter().flat_map(|&k| pieces[k].iter().copied()).collect();
+    out.sort_unstable();
+    out
+}
+
 /// At most `limit` of `set`, evenly strided (deterministic), so that fits on
 /// large images stay cheap.
 pub fn thin(set: Vec<usize>, limit: usize) -> Vec<usize> {

@@ -37,7 +37,7 @@ pub use image::{Planes, load, load_mask};
 pub use outline::{Embryo, Shape};
 pub use read::{GeneReading, HeadCall, HeadRule, POLE_FRACTION, STRIP_FRACTION, Side};
 
-use background::{SMOOTH_PX, border_band, contrast_counts, decide_contrast, median_and_sd, signal, smooth, thin};
+use background::{SMOOTH_PX, background_border, contrast_counts, decide_contrast, median_and_sd, signal, smooth, thin};
 
 /// An image or table that cannot be measured.
 #[derive(Debug, thiserror::Error)]
@@ -235,16 +235,34 @@ pub struct ImageMeasurement {
     pub specks: usize,
 }
 
+impl ImageMeasurement {
+    /// An error when no embryo was measured, naming each candidate's reason.
+    pub fn none_measured(&self, path: &std::path::Path) -> Option<MeasureError> {
+        self.embryos.is_empty().then(|| MeasureError::NoEmbryo {
+            path: path.to_path_buf(),
+            why: self
+                .skipped
+                .iter()
+                .map(|s| format!("candidate {}: {}", s.number, s.reason))
+                .collect::<Vec<_>>()
+                .join("; "),
+        })
+    }
+}
+
 /// Background pixels used for fits: at most this many (evenly strided).
 const FIT_PIXELS: usize = 200_000;
 /// Background pixels keep this far from anything detected, px.
 const BACKGROUND_CLEARANCE_PX: f64 = 10.0;
 
-/// Measures the boundaries of `opts.channels` in `planes`.
+/// Measures the boundaries of `opts.channels` in `planes`. Every candidate
+/// found is either measured or listed in [`ImageMeasurement::skipped`] with
+/// its reason; [`ImageMeasurement::none_measured`] turns an image where none
+/// was measured into an error.
 ///
 /// # Errors
 /// [`MeasureError`] when a channel is missing, the contrast cannot be told,
-/// or no embryo could be measured (with each candidate's reason).
+/// or nothing stands out from the background.
 pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasurement, MeasureError> {
     let (w, h) = (planes.width, planes.height);
     let path = &planes.path;
@@ -277,7 +295,9 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
         HeadRule::Guess { gene: None } => opts.channels.first(),
         HeadRule::Given(_) => None,
     };
-    let mut set = thin(border_band(w, h, (w.min(h) / 40).max(3)), FIT_PIXELS);
+    // The border's background, from the mean of the planes.
+    let mean: Vec<f64> = (0..w * h).map(|i| planes.planes.iter().map(|p| p[i]).sum::<f64>() / count as f64).collect();
+    let mut set = thin(background_border(&mean, w, (w.min(h) / 40).max(3)), FIT_PIXELS);
     let (contrast, contrast_how) = match opts.contrast {
         Some(c) => (c, "given".to_string()),
         None => {
@@ -294,7 +314,8 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
     let quantisation_sd = step / 12f64.sqrt();
     let mut signals: Vec<(Vec<f64>, f64)> = Vec::new();
     let mut o = Vec::new();
-    let mut seg = outline::Segmentation { regions: Vec::new(), detected: Vec::new(), specks: 0 };
+    let mut raw: Vec<f64> = Vec::new();
+    let mut seg = outline::Segmentation { regions: Vec::new(), edges: Vec::new(), detected: Vec::new(), specks: 0 };
     for _round in 0..2 {
         signals = planes
             .planes
@@ -305,23 +326,25 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
             })
             .collect();
         let weighted = |k: usize| signals[k].0.iter().map(|v| v / signals[k].1).collect::<Vec<f64>>();
-        o = match &opts.outline {
-            Outline::Mask(m) => smooth(&m.iter().map(|v| f64::from(u8::from(*v))).collect::<Vec<_>>(), w, 1.0),
-            Outline::Plane(k) => smooth(&weighted(*k), w, SMOOTH_PX),
+        raw = match &opts.outline {
+            Outline::Mask(m) => m.iter().map(|v| f64::from(u8::from(*v))).collect(),
+            Outline::Plane(k) => weighted(*k),
             Outline::AllPlanes => {
                 let mut sum = vec![0.0; w * h];
                 for k in 0..count {
                     sum.iter_mut().zip(weighted(k)).for_each(|(s, v)| *s += v);
                 }
-                smooth(&sum, w, SMOOTH_PX)
+                sum
             }
         };
+        o = smooth(&raw, w, if matches!(opts.outline, Outline::Mask(_)) { 1.0 } else { SMOOTH_PX });
         seg = match &opts.outline {
             Outline::Mask(m) => {
                 let l = outline::label(m, w);
                 let specks = l.regions.iter().filter(|r| r.len() < outline::MIN_AREA_PX).count();
-                let regions = l.regions.into_iter().filter(|r| r.len() >= outline::MIN_AREA_PX).collect();
-                outline::Segmentation { regions, detected: m.clone(), specks }
+                let regions: Vec<_> = l.regions.into_iter().filter(|r| r.len() >= outline::MIN_AREA_PX).collect();
+                let edges = vec![0.5; regions.len()];
+                outline::Segmentation { regions, edges, detected: m.clone(), specks }
             }
             _ => {
                 let on_set: Vec<f64> = set.iter().map(|&i| o[i]).collect();
@@ -344,16 +367,20 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
         Outline::Mask(_) => "mask".to_string(),
     };
     // Number the candidates top to bottom (in quarters of the height), then left to right.
-    let mut candidates: Vec<(Embryo, &Vec<usize>)> =
-        seg.regions.iter().filter_map(|r| outline::principal_axes(r, w).map(|e| (e, r))).collect();
-    candidates.sort_by(|(a, _), (b, _)| {
+    let mut candidates: Vec<(Embryo, &Vec<usize>, f64)> = seg
+        .regions
+        .iter()
+        .zip(&seg.edges)
+        .filter_map(|(r, edge)| outline::principal_axes(r, w).map(|e| (e, r, *edge)))
+        .collect();
+    candidates.sort_by(|(a, _, _), (b, _, _)| {
         let band = |e: &Embryo| (4.0 * e.cy / h as f64).floor();
         band(a).total_cmp(&band(b)).then(a.cx.total_cmp(&b.cx))
     });
     let mut labels = vec![0u32; w * h];
     let mut embryos = Vec::new();
     let mut skipped = Vec::new();
-    for (k, (e, pixels)) in candidates.iter().enumerate() {
+    for (k, (e, pixels, edge)) in candidates.iter().enumerate() {
         let number = k + 1;
         for &i in pixels.iter() {
             labels[i] = number as u32;
@@ -369,7 +396,7 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
             skipped.push(skip(format!("refused: {why}"), false));
             continue;
         }
-        let [a, b] = match outline::place_poles(&o, w, e) {
+        let [a, b] = match outline::place_poles(&o, w, e, *edge) {
             Ok(p) => p,
             Err(end) => {
                 skipped.push(skip(
@@ -413,16 +440,11 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
             boundaries,
         });
     }
-    if embryos.is_empty() {
-        let why = if skipped.is_empty() {
-            format!(
-                "nothing stands out from the background as {}; check the image and --stain",
-                if contrast == Contrast::Bright { "brighter" } else { "darker" }
-            )
-        } else {
-            skipped.iter().map(|s| format!("candidate {}: {}", s.number, s.reason)).collect::<Vec<_>>().join("; ")
-        };
-        return Err(no(why));
+    if embryos.is_empty() && skipped.is_empty() {
+        return Err(no(format!(
+            "nothing stands out from the background as {}; check the image and --stain",
+            if contrast == Contrast::Bright { "brighter" } else { "darker" }
+        )));
     }
     Ok(ImageMeasurement { contrast, contrast_how, outline_how, embryos, skipped, labels, specks: seg.specks })
 }

@@ -153,6 +153,8 @@ pub struct Segmentation {
     /// Candidate embryos: pixel lists (holes filled), each at least
     /// [`MIN_AREA_PX`].
     pub regions: Vec<Vec<usize>>,
+    /// The level of `o` at each region's edge.
+    pub edges: Vec<f64>,
     /// Every pixel above the detection threshold, specks included (kept out
     /// of the background estimate).
     pub detected: Vec<bool>,
@@ -160,84 +162,118 @@ pub struct Segmentation {
     pub specks: usize,
 }
 
+/// Depth of the cores that seed one embryo each, px: touching or nearly
+/// touching embryos are joined by thin bridges, which this much erosion cuts
+/// (common practice, no source).
+pub const CORE_DEPTH_PX: f64 = 4.0;
+/// Smallest core that seeds an embryo, px.
+pub const MIN_CORE_PX: usize = 30;
+
 /// Thresholds the smoothed outline signal `o` (background sd `noise`).
 ///
-/// Regions are detected at [`DETECT_SD`]·noise. Each is then grown to its
-/// edge: half of its dimmest tissue (the 10th percentile of `o` more than
-/// 4 px inside it), so that the edge sits at the half-maximum of blurred
-/// unstained tissue however bright the stain elsewhere, and never below
-/// [`EDGE_MIN_SD`]·noise. Regions that grow into each other become one.
+/// Pixels above [`DETECT_SD`]·noise are detected. Within each detected
+/// patch, the pixels above its edge level (below) have cores (pixels at
+/// least [`CORE_DEPTH_PX`] inside) that seed one region each, and every region
+/// is flooded outwards in order of falling `o` (a marker-controlled
+/// watershed: Beucher & Meyer 1993, from memory), down to its own edge
+/// level: half of its dimmest tissue (the 10th percentile of `o` over its
+/// core), never below [`EDGE_MIN_SD`]·noise. So the edge sits at the
+/// half-maximum of blurred unstained tissue however bright the stain
+/// elsewhere, and embryos that nearly touch are split along the valley
+/// between them. A detected patch without a core (a streak) is a region of
+/// its own, to be judged by [`implausible`]; holes are filled.
 pub fn segment(o: &[f64], width: usize, noise: f64) -> Segmentation {
     let height = o.len() / width;
     let noise = noise.max(1e-12);
     let detected: Vec<bool> = o.iter().map(|v| *v > DETECT_SD * noise).collect();
-    let found = label(&detected, width);
+    // Each detected patch at its own edge level, so that blur between two
+    // near embryos does not join their cores.
     let depth = distance_to_outside(&detected, width);
+    let mut level = vec![false; o.len()];
+    for patch in label(&detected, width).regions {
+        let mut inner: Vec<f64> = patch.iter().filter(|&&i| depth[i] >= CORE_DEPTH_PX).map(|&i| o[i]).collect();
+        if inner.is_empty() {
+            continue;
+        }
+        let edge = (0.5 * quantile(&mut inner, 0.1)).max(EDGE_MIN_SD * noise);
+        patch.iter().filter(|&&i| o[i] > edge).for_each(|&i| level[i] = true);
+    }
+    let depth = distance_to_outside(&level, width);
+    let cores = label(&depth.iter().map(|d| *d >= CORE_DEPTH_PX).collect::<Vec<_>>(), width);
     let mut owner = vec![0u32; o.len()];
-    let mut parent: Vec<usize> = Vec::new();
+    let mut edges: Vec<f64> = Vec::new();
+    let mut heap = std::collections::BinaryHeap::new();
+    for core in cores.regions.iter().filter(|c| c.len() >= MIN_CORE_PX) {
+        let mut values: Vec<f64> = core.iter().map(|&i| o[i]).collect();
+        edges.push((0.5 * quantile(&mut values, 0.1)).max(EDGE_MIN_SD * noise));
+        for &i in core {
+            owner[i] = edges.len() as u32;
+            heap.push(Flood(o[i], i));
+        }
+    }
+    while let Some(Flood(_, i)) = heap.pop() {
+        let k = owner[i];
+        for j in neighbours(i, width, height) {
+            if owner[j] == 0 && o[j] > edges[k as usize - 1] {
+                owner[j] = k;
+                heap.push(Flood(o[j], j));
+            }
+        }
+    }
+    let mut masks: Vec<Vec<bool>> = vec![vec![false; o.len()]; edges.len()];
+    for (i, &k) in owner.iter().enumerate() {
+        if k > 0 {
+            masks[k as usize - 1][i] = true;
+        }
+    }
+    // Detected patches no core reached.
     let mut specks = 0;
-    let mut queue = VecDeque::new();
-    for pixels in &found.regions {
-        if pixels.len() < MIN_AREA_PX {
+    for patch in label(&detected, width).regions {
+        if patch.iter().any(|&i| owner[i] != 0) {
+            continue;
+        }
+        if patch.len() < MIN_AREA_PX {
             specks += 1;
             continue;
         }
-        let k = parent.len();
-        parent.push(k);
-        let mut inner: Vec<f64> = pixels.iter().filter(|&&i| depth[i] >= 4.0).map(|&i| o[i]).collect();
-        if inner.len() < 20 {
-            inner = pixels.iter().map(|&i| o[i]).collect();
-        }
-        let floor = quantile(&mut inner, 0.1);
-        let edge = (0.5 * floor).max(EDGE_MIN_SD * noise);
-        for &i in pixels {
-            if owner[i] == 0 {
-                owner[i] = k as u32 + 1;
-                queue.push_back(i);
-            }
-        }
-        while let Some(i) = queue.pop_front() {
-            for j in neighbours(i, width, height) {
-                if o[j] <= edge {
-                    continue;
-                }
-                if owner[j] == 0 {
-                    owner[j] = k as u32 + 1;
-                    queue.push_back(j);
-                } else if owner[j] != k as u32 + 1 {
-                    // Grown into another region: the two are one.
-                    let (a, b) = (root(&mut parent, owner[j] as usize - 1), root(&mut parent, k));
-                    parent[a.max(b)] = a.min(b);
-                }
-            }
+        let mut m = vec![false; o.len()];
+        patch.iter().for_each(|&i| m[i] = true);
+        masks.push(m);
+        edges.push(DETECT_SD * noise);
+    }
+    let mut regions = Vec::new();
+    let mut kept = Vec::new();
+    for (m, edge) in masks.iter().zip(&edges) {
+        let r: Vec<usize> = fill_holes(m, width).iter().enumerate().filter(|(_, v)| **v).map(|(i, _)| i).collect();
+        if r.len() < MIN_AREA_PX {
+            specks += 1;
+        } else {
+            regions.push(r);
+            kept.push(*edge);
         }
     }
-    let mut merged: Vec<Vec<bool>> = Vec::new();
-    let mut slot = vec![usize::MAX; parent.len()];
-    for (i, &w) in owner.iter().enumerate() {
-        if w == 0 {
-            continue;
-        }
-        let r = root(&mut parent, w as usize - 1);
-        if slot[r] == usize::MAX {
-            slot[r] = merged.len();
-            merged.push(vec![false; o.len()]);
-        }
-        merged[slot[r]][i] = true;
-    }
-    let regions = merged
-        .iter()
-        .map(|m| fill_holes(m, width).iter().enumerate().filter(|(_, v)| **v).map(|(i, _)| i).collect())
-        .collect();
-    Segmentation { regions, detected, specks }
+    Segmentation { regions, edges: kept, detected, specks }
 }
 
-fn root(parent: &mut [usize], mut k: usize) -> usize {
-    while parent[k] != k {
-        parent[k] = parent[parent[k]];
-        k = parent[k];
+/// A pixel waiting to flood its neighbours, ordered by its value (highest first).
+struct Flood(f64, usize);
+
+impl PartialEq for Flood {
+    fn eq(&self, other: &Self) -> bool {
+        self.cmp(other) == std::cmp::Ordering::Equal
     }
-    k
+}
+impl Eq for Flood {}
+impl PartialOrd for Flood {
+    fn partial_cmp(&self, other: &Self) -> Option<std::cmp::Ordering> {
+        Some(self.cmp(other))
+    }
+}
+impl Ord for Flood {
+    fn cmp(&self, other: &Self) -> std::cmp::Ordering {
+        // Ties broken by pixel index, so the flooding is deterministic.
+        self.0.total_cmp(&other.0).then(other.1.cmp(&self.1))
+    }
 }
 
 /// An embryo's geometry from its pixels: centroid and second central moments.
@@ -410,47 +446,69 @@ pub fn implausible(s: &Shape, e: &Embryo) -> Option<String> {
 /// Width of the strip along the axis in which the poles are placed, px.
 pub const POLE_STRIP_PX: usize = 3;
 
-/// Places the two poles of the long axis: along the axis (in a strip
-/// [`POLE_STRIP_PX`] wide, 4 samples per px), each pole is where the
-/// smoothed outline signal `o` falls to half of its local interior level (the
-/// median between 2 and 8 % of the length inside that pole), interpolated
-/// between samples. The crossing must stay below half for the next 2 px, so
-/// noise inside the embryo cannot stop the search early. Half of the local
-/// level puts the pole at the edge of the blurred embryo, however the stain
-/// or illumination varies elsewhere (common practice, no source).
+/// Places the two poles of the long axis. Along the axis (in a strip
+/// [`POLE_STRIP_PX`] wide, 4 samples per px, from 20 % of the length inside
+/// each end of the equivalent ellipse to 10 % beyond it) the smoothed outline
+/// signal `o` is read from the inside out, and the first place where it falls
+/// below the region's edge level `edge` (half its dimmest tissue) for good
+/// marks the edge roughly. The pole is the steepest descent of the signal nearest to
+/// that place (within 8 px), found to a fraction of a sample by a parabola
+/// through the slope: the middle of the blurred edge, wherever the stain is
+/// bright or faint near the pole (common practice, no source). The ends of the
+/// equivalent ellipse only start the search, because a bulging or pointed
+/// outline puts them several pixels off.
 ///
 /// Returns the poles (column, row) in the order of `e.ends()`, or the end
 /// whose edge could not be found.
-pub fn place_poles(o: &[f64], width: usize, e: &Embryo) -> Result<[(f64, f64); 2], (f64, f64)> {
+pub fn place_poles(o: &[f64], width: usize, e: &Embryo, edge: f64) -> Result<[(f64, f64); 2], (f64, f64)> {
     let height = o.len() / width;
     let [a, b] = e.ends();
     let len = e.length();
     let mut out = [a, b];
     for (k, (pole, other)) in [(a, b), (b, a)].into_iter().enumerate() {
-        // From 20 % inside this pole to 10 % beyond it.
         let dir = ((pole.0 - other.0) / len, (pole.1 - other.1) / len);
         let at = |t: f64| (pole.0 + t * dir.0, pole.1 + t * dir.1);
         let (t0, t1) = (-0.2 * len, 0.1 * len);
         let n = (4.0 * (t1 - t0)).ceil() as usize + 1;
         let (from, to) = (at(t0), at(t1));
-        let p = profile_line_n(o, width, height, (from.1, from.0), (to.1, to.0), POLE_STRIP_PX, n);
-        let t_of = |i: usize| t0 + (t1 - t0) * i as f64 / (n - 1) as f64;
-        let mut interior: Vec<f64> =
-            (0..n).filter(|&i| (-0.08 * len..=-0.02 * len).contains(&t_of(i))).map(|i| p[i]).collect();
-        if interior.is_empty() {
-            return Err(pole);
-        }
-        let half = 0.5 * quantile(&mut interior, 0.5);
-        if half.is_nan() || half <= 0.0 {
-            return Err(pole);
-        }
-        let start = (0..n).find(|&i| t_of(i) >= -0.05 * len).unwrap_or(0);
-        let stays_below = |i: usize| p[i + 1..(i + 9).min(n)].iter().all(|v| *v < half);
-        let Some(i) = (start..n - 1).find(|&i| p[i] >= half && p[i + 1] < half && stays_below(i)) else {
+        let raw = profile_line_n(o, width, height, (from.1, from.0), (to.1, to.0), POLE_STRIP_PX, n);
+        let step = (t1 - t0) / (n - 1) as f64;
+        // Gaussian of 1 px (4 samples) before the slope is taken.
+        let p: Vec<f64> = (0..n)
+            .map(|i| {
+                let (lo, hi) = (i.saturating_sub(12), (i + 13).min(n));
+                let (mut sum, mut weight) = (0.0, 0.0);
+                for (j, v) in raw.iter().enumerate().take(hi).skip(lo) {
+                    let w = (-((j as f64 - i as f64) / 4.0).powi(2) / 2.0).exp();
+                    sum += w * v;
+                    weight += w;
+                }
+                sum / weight
+            })
+            .collect();
+        // First fall below the edge level, going out from 20 % inside, with
+        // 2 px below it beyond (a neighbour farther out is never reached).
+        let Some(coarse) =
+            (0..n.saturating_sub(9)).find(|&i| p[i] >= edge && p[i + 1..i + 9].iter().all(|v| *v < edge))
+        else {
             return Err(pole);
         };
-        let f = (p[i] - half) / (p[i] - p[i + 1]);
-        out[k] = at(t_of(i) + f * (t_of(i + 1) - t_of(i)));
+        let slope = |i: usize| p[(i + 1).min(n - 1)] - p[i.saturating_sub(1)];
+        let reach = 32usize;
+        let is_descent =
+            |i: usize| i > 0 && i + 1 < n && slope(i) < 0.0 && slope(i) <= slope(i - 1) && slope(i) <= slope(i + 1);
+        let window = coarse.saturating_sub(reach)..(coarse + reach + 1).min(n);
+        let strongest = window.clone().map(slope).fold(0.0f64, f64::min);
+        // The nearest clear descent: at least 15 % as steep as the steepest nearby.
+        let Some(j) =
+            window.filter(|&i| is_descent(i) && slope(i) <= 0.15 * strongest).min_by_key(|&i| i.abs_diff(coarse))
+        else {
+            return Err(pole);
+        };
+        let (d0, d1, d2) = (slope(j - 1), slope(j), slope(j + 1));
+        let curvature = d0 - 2.0 * d1 + d2;
+        let shift = if curvature.abs() > 1e-300 { (0.5 * (d0 - d2) / curvature).clamp(-1.0, 1.0) } else { 0.0 };
+        out[k] = at(t0 + (j as f64 + shift) * step);
     }
     Ok(out)
 }

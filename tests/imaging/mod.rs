@@ -1,1 +1,6 @@
+//! Synthetic stained-embryo images with known truth (invented data), and
+//! `measure` scored against them.
+
+pub mod accuracy;
 pub mod generator;
+mod measuring;

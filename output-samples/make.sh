@@ -17,7 +17,7 @@ for model in patterns/*.toml; do
     # back and scored against it (see README, "Compare with stained embryos").
     rm -rf demo-data/stained
     "$bin" synthesize "$out" -o demo-data/stained --count 3 > /dev/null
-    "$bin" measure demo-data/stained --channel 0=amber --channel 1=cobalt --time 240 > /dev/null
+    "$bin" measure demo-data/stained --channel 0=amber --channel 1=cobalt --head-high amber --time 240 > /dev/null
     "$bin" compare "$out" demo-data/stained/measured.csv -o "$out" > /dev/null
     "$bin" basins "$out" --width 560 > /dev/null
     "$bin" screen "$model" --knockouts --dosage --width 560 -o "$out/screen" > /dev/null

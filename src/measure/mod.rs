@@ -195,6 +195,11 @@ impl EmbryoMeasurement {
                 "weak head guess (confidence {:.2}); give --head or check the picture",
                 self.head.confidence.unwrap_or(0.0)
             ));
+        } else if self.head.assumed {
+            out.push(
+                "head end assumed from the first channel; state --head-high GENE or --head SIDE to make it certain"
+                    .into(),
+            );
         }
         for g in self.genes.iter().filter(|g| !g.patterned) {
             out.push(format!("{}: no pattern (its stain barely varies along the axis)", g.gene));

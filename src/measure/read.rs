@@ -66,6 +66,9 @@ pub struct HeadCall {
     pub confidence: Option<f64>,
     /// A guess too weak to trust (confidence below [`WEAK_HEAD`]).
     pub weak: bool,
+    /// A guess from the first channel, which the user did not state to be
+    /// head-high: right only if it is.
+    pub assumed: bool,
 }
 
 /// Mean of the normalised level over the first and last fifth of the read range.
@@ -111,7 +114,10 @@ pub fn decide_head(
                 Side::Left | Side::Top => d > 0.0,
                 Side::Right | Side::Bottom => d < 0.0,
             };
-            Ok((a_first, HeadCall { how: format!("given: {}", side.name()), confidence: None, weak: false }))
+            Ok((
+                a_first,
+                HeadCall { how: format!("given: {}", side.name()), confidence: None, weak: false, assumed: false },
+            ))
         }
         HeadRule::Guess { gene } => {
             let Some((name, level, patterned)) = guess_level else {
@@ -126,6 +132,7 @@ pub fn decide_head(
                     how: format!("guessed: {name} higher there ({stated})"),
                     confidence: Some(confidence),
                     weak: confidence < WEAK_HEAD,
+                    assumed: gene.is_none(),
                 },
             ))
         }
@@ -267,7 +274,10 @@ mod tests {
         let rule = HeadRule::Guess { gene: None };
         let falling: Vec<f64> = (0..200).map(|i| if i < 80 { 1.0 } else { 0.0 }).collect();
         let (a_first, call) = decide_head(&rule, (0.0, 0.0), (199.0, 0.0), Some(("amber", &falling, true))).unwrap();
-        assert!(a_first && !call.weak && call.confidence.unwrap() > 0.99);
+        assert!(a_first && !call.weak && call.assumed && call.confidence.unwrap() > 0.99);
+        let stated = HeadRule::Guess { gene: Some("amber".into()) };
+        let (_, call) = decide_head(&stated, (0.0, 0.0), (199.0, 0.0), Some(("amber", &falling, true))).unwrap();
+        assert!(!call.assumed && call.how.contains("stated head-high"));
         let stripe: Vec<f64> = (0..200).map(|i| if (90..110).contains(&i) { 1.0 } else { 0.0 }).collect();
         let (_, call) = decide_head(&rule, (0.0, 0.0), (199.0, 0.0), Some(("amber", &stripe, true))).unwrap();
         assert!(call.weak, "{call:?}");

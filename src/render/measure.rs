@@ -27,7 +27,13 @@ pub fn check_picture(p: &Planes, m: &ImageMeasurement, genes: &[(String, [u8; 3]
     )];
     for e in &m.embryos {
         let confidence = e.head.confidence.map_or_else(String::new, |c| format!(", confidence {c:.2}"));
-        let weak = if e.head.weak { " WEAK: check the head" } else { "" };
+        let weak = if e.head.weak {
+            " WEAK: check the head"
+        } else if e.head.assumed {
+            " (assumed)"
+        } else {
+            ""
+        };
         notes.push(format!("{}: head (H) {}{confidence}{weak}", e.number, e.head.how));
     }
     for s in &m.skipped {
@@ -118,7 +124,7 @@ fn draw_embryo(c: &mut Canvas, e: &EmbryoMeasurement, s: f32, genes: &[(String, 
             Some([4.0, 4.0]),
         );
     }
-    let head = if e.head.weak { "H?" } else { "H" };
+    let head = if e.head.weak || e.head.assumed { "H?" } else { "H" };
     let (lx, ly) = (hx - 18.0 * ux, hy - 18.0 * uy + 6.0);
     let hw = Canvas::text_width(14.0, head);
     c.rect(lx - hw / 2.0 - 3.0, ly - 13.0, hw + 6.0, 18.0, [0, 0, 0]);

@@ -26,7 +26,7 @@ pub struct CaseResult {
     pub extra: usize,
     /// Embryos whose head was taken at the wrong end.
     pub flips: usize,
-    /// Of those, flips not flagged as a weak guess.
+    /// Of those, flips not flagged (as a weak guess, or one assumed from the first channel).
     pub silent_flips: usize,
     /// Embryos cut by the frame and skipped, as they should be.
     pub cut_skipped: usize,
@@ -117,7 +117,7 @@ pub fn evaluate(case: &Case, dir: &Path) -> CaseResult {
         let (hx, hy) = e.head_tail[0];
         if (hx - t.head.0).hypot(hy - t.head.1) > (hx - t.tail.0).hypot(hy - t.tail.1) {
             r.flips += 1;
-            if !e.head.weak {
+            if !e.head.weak && !e.head.assumed {
                 r.silent_flips += 1;
             }
             r.missed += t.boundaries.len();

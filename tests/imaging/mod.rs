@@ -3,4 +3,5 @@
 
 pub mod accuracy;
 pub mod generator;
+#[cfg(test)]
 mod measuring;

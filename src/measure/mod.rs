@@ -319,7 +319,6 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
     let quantisation_sd = step / 12f64.sqrt();
     let mut signals: Vec<(Vec<f64>, f64)> = Vec::new();
     let mut o = Vec::new();
-    let mut raw: Vec<f64> = Vec::new();
     let mut seg = outline::Segmentation { regions: Vec::new(), edges: Vec::new(), detected: Vec::new(), specks: 0 };
     for _round in 0..2 {
         signals = planes
@@ -331,7 +330,7 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
             })
             .collect();
         let weighted = |k: usize| signals[k].0.iter().map(|v| v / signals[k].1).collect::<Vec<f64>>();
-        raw = match &opts.outline {
+        let raw: Vec<f64> = match &opts.outline {
             Outline::Mask(m) => m.iter().map(|v| f64::from(u8::from(*v))).collect(),
             Outline::Plane(k) => weighted(*k),
             Outline::AllPlanes => {

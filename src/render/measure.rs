@@ -152,7 +152,8 @@ fn draw_embryo(c: &mut Canvas, e: &EmbryoMeasurement, s: f32, genes: &[(String, 
 }
 
 /// Simulated profiles at snapshot `s` with each measured boundary of that
-/// time as a band of ±1 sd (a line where no sd is given), in the gene's colour.
+/// time as a band of ±1 sd as used for z (the floored sd; a line where no sd
+/// is given), in the gene's colour.
 ///
 /// # Errors
 /// [`ReadBackError`] if a streamed snapshot cannot be read back.
@@ -165,7 +166,7 @@ pub fn comparison_overlay(rec: &Recording, s: usize, cmp: &Comparison, style: &S
         let Some(m) = r.measured_pct else { continue };
         let color = rec.genes.iter().position(|g| g == &r.gene).map_or(style.background.ink(), |g| style.colors[g]);
         let (top, bottom) = (a.top, a.top + a.height);
-        match r.sd_pct.filter(|sd| *sd > 0.0) {
+        match r.sd_used_pct.filter(|sd| *sd > 0.0) {
             Some(sd) => {
                 let (x0, x1) = (a.px(m - sd), a.px(m + sd));
                 c.polyline(&[((x0 + x1) / 2.0, top), ((x0 + x1) / 2.0, bottom)], (x1 - x0).max(2.0), color, 70, None);
@@ -173,7 +174,7 @@ pub fn comparison_overlay(rec: &Recording, s: usize, cmp: &Comparison, style: &S
             None => c.polyline(&[(a.px(m), top), (a.px(m), bottom)], 2.0, color, 150, None),
         }
     }
-    let note = "bands: measured boundaries ±1 sd (lines: no sd given); curves and dotted lines: simulated";
+    let note = "bands: measured boundaries ±1 sd used for z (floored; lines: no sd); curves, dotted lines: simulated";
     c.rect(0.0, c.height() as f32 - 26.0, c.width() as f32, 26.0, style.background.rgb());
     c.text(64.0, c.height() as f32 - 10.0, 12.0, style.background.muted(), Align::Left, note);
     Ok(c)

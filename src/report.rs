@@ -85,12 +85,17 @@ pub fn describe(m: &Model) -> String {
     let _ = writeln!(s, "genes     {}", m.genes.len());
     for gene in &m.genes {
         let [r, gg, b] = gene.color;
+        let law = match &gene.rate {
+            Some(rate) => format!("rate {rate}"),
+            None => format!("production {} a.u./min, decay {} /min", gene.production, gene.decay),
+        };
         let _ = writeln!(
             s,
-            "  {:<12} production {} a.u./min, decay {} /min, diffusion {} µm²/min, colour #{r:02x}{gg:02x}{b:02x}",
-            gene.name, gene.production, gene.decay, gene.diffusion
+            "  {:<12} {law}, diffusion {} µm²/min, colour #{r:02x}{gg:02x}{b:02x}",
+            gene.name, gene.diffusion
         );
     }
+
     let _ = writeln!(s, "gradients {}", m.gradients.len());
     for gr in &m.gradients {
         let shape = match gr.shape {

@@ -160,3 +160,56 @@ fn command_line_mutants_are_checked() {
         assert!(err.starts_with("--mutant:1:") && err.contains(want), "{text}: {err}");
     }
 }
+
+/// The French flag with its morphogen made by a gene written as a rate
+/// expression, `dm/dt = s·e^(−x/λ) − k·m` (no diffusion): at steady state
+/// m = (s/k)·e^(−x/λ), so the flag's boundary sits at x* = λ·ln(s/(k·K)).
+fn french_flag_by_rate() -> Model {
+    parse(
+        "title = \"French flag, morphogen by rate\"\n[tissue]\nnuclei = [400]\nspacing_um = 1.0\n\
+         [clock]\nuntil_min = 60.0\ntolerance = 1e-9\nsnapshot_every_min = 60.0\n\
+         [[gene]]\nname = \"morph\"\nrate = \"s * exp(-x / 50) - k * morph\"\n\
+         [[gene]]\nname = \"flag\"\nrate = \"morph^8 / (1 + morph^8) - flag\"\n\
+         [circuit]\nkinetics = \"rates\"\nparameters = { s = 8.0, k = 1.0, unused = 3.0 }\n",
+    )
+}
+
+/// Issue 19, item 1: mutants of genes written as rate expressions.
+/// - A knock-out holds the gene at zero: the flag, which needs the morphogen, is lost.
+/// - A named constant can be scaled: k × 2 moves the flag's boundary by −λ ln 2
+///   (from x* = λ ln(s/(kK)); Wolpert 1969), within 1 %.
+/// - Scaling a field the expression does not use is refused, naming field and gene.
+/// - Sensitivity lists the constants and not the unused fields.
+#[test]
+fn issue_19_mutants_of_rate_law_genes() {
+    let model = french_flag_by_rate();
+    let wt = final_boundaries(&model).unwrap();
+    let flag = wt.iter().find(|b| b.gene == "flag").unwrap();
+    assert_relative_eq!(flag.position_um, 50.0 * 8f64.ln(), max_relative = 2e-3);
+    let ko = screen::families(&model, true, false, false);
+    let s = run_screen(&model, &ko, true).unwrap();
+    let ko_morph = &s.shifts[0];
+    assert!(ko_morph.iter().all(|r| r.status != "moved"), "{ko_morph:?}");
+    assert!(ko_morph.iter().any(|r| r.gene == "flag" && r.mutant_um.is_none()), "{ko_morph:?}");
+    let k2 = model.parse_mutant(r#"{ name = "k x2", scale = { k = 2.0 } }"#).unwrap();
+    let s = run_screen(&model, &[k2], true).unwrap();
+    let shift = s.shifts[0].iter().find(|r| r.gene == "flag").unwrap().shift_um.unwrap();
+    assert_relative_eq!(shift, -50.0 * 2f64.ln(), max_relative = 1e-2);
+    for (text, want) in [
+        (
+            r#"{ name = "a", scale = { "morph.decay" = 2.0 } }"#,
+            "`morph.decay` has no effect: `morph` is written as a rate expression",
+        ),
+        (r#"{ name = "b", scale = { "morph.production" = 2.0 } }"#, "scale the constants it uses instead (s, k)"),
+        (r#"{ name = "c", scale = { unused = 2.0 } }"#, "no rate expression uses the constant `unused`"),
+    ] {
+        let err = model.parse_mutant(text).unwrap_err().to_string();
+        assert!(err.contains(want), "{text}: {err}");
+    }
+    let names: Vec<String> = model.parameters().iter().map(|p| model.param_name(*p)).collect();
+    assert!(names.contains(&"s".to_string()) && names.contains(&"k".to_string()), "{names:?}");
+    assert!(!names.iter().any(|n| n.ends_with(".production") || n.ends_with(".decay") || n == "unused"), "{names:?}");
+    // In a Hill circuit, bias (a sigmoid parameter) changes nothing either.
+    let err = french_flag().parse_mutant(r#"{ name = "d", scale = { "flag.bias" = 2.0 } }"#).unwrap_err().to_string();
+    assert!(err.contains("bias belongs to sigmoid kinetics"), "{err}");
+}

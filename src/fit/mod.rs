@@ -245,6 +245,16 @@ pub fn fitted_model_text(problem: &FitProblem, values: &[f64], objective: f64) -
             Param::Gene(i, _) => (("gene", None), i),
             Param::Gradient(k, _) => (("gradient", None), k),
             Param::Link(k, _) => (("circuit", Some("link")), k),
+            Param::Constant(k) => {
+                let name = &problem.model.circuit.parameters[k].0;
+                let constants = doc
+                    .get_mut("circuit")
+                    .and_then(|c| c.get_mut("parameters"))
+                    .and_then(|t| t.as_table_mut())
+                    .ok_or("missing circuit parameters")?;
+                constants.insert(name.clone(), toml::Value::Float(*v));
+                continue;
+            }
         };
         let key = p.param.key();
         let mut table = doc.get_mut(array.0).ok_or("missing table")?;

@@ -172,9 +172,14 @@ impl FitProblem {
                     "name",
                     field("name"),
                     format!("`{}`: {why}", ps.name),
-                    "name a parameter as gene.production, gradient.peak or from->to.threshold",
+                    "name a parameter as gene.production, gradient.peak, from->to.threshold or a constant of the rate expressions",
                 )
             })?;
+            if let Some(why) = model.no_effect(param) {
+                return Err(src
+                    .invalid(&span, "name", field("name"), why, "fit a parameter the simulation uses")
+                    .into());
+            }
             let log = match ps.scale.as_deref() {
                 None | Some("linear") => false,
                 Some("log") => true,

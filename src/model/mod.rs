@@ -6,6 +6,7 @@
 
 mod error;
 mod mutant;
+mod param;
 mod source;
 pub mod spec;
 mod validate;
@@ -14,7 +15,8 @@ mod validate_circuit;
 use std::path::{Path, PathBuf};
 
 pub use error::ModelError;
-pub use mutant::{Ectopic, Edit, GeneParam, GradientParam, LinkParam, Mutant, Param};
+pub use mutant::{Ectopic, Edit, Mutant};
+pub use param::{GeneParam, GradientParam, LinkParam, Param, names_in};
 pub use source::Source;
 pub use validate::PALETTE;
 pub use validate_circuit::parse_color;

@@ -15,6 +15,53 @@ fn gib(bytes: u64) -> String {
     }
 }
 
+/// The longest stable fixed step along a trial run ([`anlage::integrate::safety::trial`]),
+/// and a warning when the model's fixed step is longer.
+fn trial_lines(s: &mut String, m: &Model) {
+    let over = |t: &anlage::integrate::safety::Trial| {
+        if t.until_min >= m.clock.until_min {
+            "the whole run".to_string()
+        } else {
+            format!("its first {} min", t.until_min)
+        }
+    };
+    match anlage::integrate::safety::trial(m) {
+        Ok(t) if t.stable_step.is_finite() => {
+            let _ = writeln!(
+                s,
+                "stability along a trial run ({} error-controlled steps over {}): fixed steps must stay below {:.3e} min \
+                 (the limit is met at t = {:.1} min, nucleus {})",
+                t.steps,
+                over(&t),
+                t.stable_step,
+                t.at_min,
+                t.nucleus
+            );
+            if let anlage::model::Stepping::Fixed { step_min } = m.clock.stepping
+                && step_min > t.stable_step
+            {
+                let _ = writeln!(
+                    s,
+                    "warning   step_min = {step_min} min is above that: the run would go unstable and be stopped; \
+                     take step_min <= {:.3e} min or error-controlled steps",
+                    0.9 * t.stable_step
+                );
+            }
+        }
+        Ok(t) => {
+            let _ = writeln!(
+                s,
+                "stability along a trial run ({} steps over {}): no limit on fixed steps found",
+                t.steps,
+                over(&t)
+            );
+        }
+        Err(e) => {
+            let _ = writeln!(s, "warning   a trial run failed: {e}");
+        }
+    }
+}
+
 /// What `anlage check` prints.
 pub fn describe(m: &Model) -> String {
     let mut s = String::new();
@@ -60,14 +107,6 @@ pub fn describe(m: &Model) -> String {
             "stiffness fastest reaction rate {rate:.3e} /min at the start: steps stay below ~{k_max:.3e} min, \
              so at least ~{at_least:.0} steps"
         );
-        if let anlage::model::Stepping::Fixed { step_min } = m.clock.stepping
-            && step_min > k_max
-        {
-            let _ = writeln!(
-                s,
-                "warning   step_min = {step_min} is above that limit; the run is likely to blow up: take step_min <= {k_max:.3e}"
-            );
-        }
         // Throughput of the engine, order of magnitude (benches/engine.rs).
         let seconds = at_least * g.len() as f64 * m.genes.len() as f64 / 1e8;
         if seconds > 3600.0 {
@@ -77,6 +116,11 @@ pub fn describe(m: &Model) -> String {
                  time span: check the rates' units (per minute) or shorten until_min",
                 seconds / 3600.0
             );
+        }
+        if seconds < 60.0 {
+            trial_lines(&mut s, m);
+        } else {
+            let _ = writeln!(s, "stability not tried along a run: it would take too long here");
         }
     }
     let streamed = if m.streams_recording() { " (streamed to disk)" } else { "" };

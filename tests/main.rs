@@ -15,6 +15,7 @@ mod phase;
 mod pictures;
 mod properties;
 mod rates;
+mod safety;
 mod screen;
 
 mod validation;

@@ -7,6 +7,7 @@ mod ark;
 mod checkpoint;
 mod reactions;
 mod recording;
+pub mod safety;
 mod stepper;
 
 use ndarray::Array2;
@@ -46,6 +47,24 @@ pub enum StepError {
         what: String,
         /// The value found.
         value: f64,
+    },
+    /// A fixed step too long for the model (an unstable mode, or levels
+    /// that the rate law cannot make negative going negative).
+    #[error(
+        "the fixed step of {step_min} min is too long for this model: at t = {t_min:.4} min, in nucleus {nucleus}, {why}. \
+         Nothing was written. Take step_min <= {advice:.4e} min, or error-controlled steps (clock.tolerance = 1e-6)"
+    )]
+    UnsafeStep {
+        /// Time, min.
+        t_min: f64,
+        /// The step, min.
+        step_min: f64,
+        /// Nucleus.
+        nucleus: usize,
+        /// What is wrong.
+        why: String,
+        /// A step that would do, min.
+        advice: f64,
     },
     /// A streamed snapshot could not be written.
     #[error("the recording could not be streamed to disk: {0}; free disk space in the output folder")]
@@ -134,6 +153,10 @@ pub fn forcing(model: &Model) -> Forcing {
     Forcing { clamps: model.clamps.clone(), source }
 }
 
+/// Fixed-step runs check their step ([`safety::check`]) after the first step,
+/// every this many steps and at every snapshot.
+pub const SAFETY_EVERY: usize = 20;
+
 /// Integrates a model from its initial state to `clock.until_min`, calling
 /// `snapshot(t, state)` at t = 0 and at every snapshot time.
 ///
@@ -183,6 +206,9 @@ pub fn integrate_from(
         Stepping::Fixed { step_min } => {
             let total = model.clock.fixed_steps().expect("fixed stepping");
             stepper.accept_every_step();
+            let held: Vec<bool> = model.clamps.iter().map(Option::is_some).collect();
+            let signed: Vec<bool> = model.genes.iter().map(|g| g.rate.is_some()).collect();
+            let names: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
             while progress.steps_taken < total {
                 let n = progress.steps_taken + 1;
                 let t_new = n as f64 * step_min;
@@ -191,7 +217,25 @@ pub fn integrate_from(
                 stats.count(step_min);
                 progress.steps_taken = n;
                 let next = progress.next_snapshot;
-                if next < times.len() && (t_new >= times[next] - 0.5 * step_min || n == total) {
+                let at_snapshot = next < times.len() && (t_new >= times[next] - 0.5 * step_min || n == total);
+                if n == 1 || n % SAFETY_EVERY == 0 || at_snapshot {
+                    let u = stepper.state();
+                    let m = tissue.inputs_with_state(t_new, u);
+                    if let Some(bad) =
+                        safety::check(kinetics, model.clock.scheme, step_min, u, &m, &held, &signed, &names)
+                    {
+                        let advice = if bad.stable_step.is_finite() { 0.9 * bad.stable_step } else { 0.25 * step_min };
+                        let why = bad.why;
+                        return Err(StepError::UnsafeStep {
+                            t_min: t_new,
+                            step_min,
+                            nucleus: bad.nucleus,
+                            why,
+                            advice,
+                        });
+                    }
+                }
+                if at_snapshot {
                     snapshot(times[next], stepper.state());
                     progress.next_snapshot += 1;
                 }

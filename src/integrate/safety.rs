@@ -1,0 +1,289 @@
+//! Is a fixed step safe? The reactions are stepped explicitly, so a step k
+//! is stable only while k·λ lies in the explicit scheme's stability region
+//! for every eigenvalue λ of the reaction Jacobian ∂f/∂u of every nucleus —
+//! along the whole trajectory, not only at the start (a sharpening boundary
+//! or a switching nucleus can be much stiffer than the initial state).
+//!
+//! Regions (test equation y′ = λy taken explicitly, z = kλ):
+//! - SBDF2: the roots ζ of `3ζ² − (4 + 4z)ζ + (1 + 2z) = 0`; on the negative
+//!   real axis stable up to z = −4/3 (Ascher, Ruuth & Wetton 1995, SIAM J.
+//!   Numer. Anal. 32:797, the SBDF scheme; the edge derived here).
+//! - ARK4(3)6L\[2\]SA: `R(z) = 1 + z bᵀ(I − zA)⁻¹𝟙` of the explicit tableau
+//!   (Kennedy & Carpenter 2003, Appl. Numer. Math. 44:139; edge −4.2345 on the
+//!   real axis, computed by tests/reference/ark4_tableau.py).
+//!
+//! A nucleus's mode counts as unstable when its amplification per step
+//! exceeds 1 + [`SLACK`]; modes that grow in the exact solution too
+//! (Re λ ≥ 0) are the dynamics, not the step, and are not judged.
+
+use nalgebra::{Complex, DMatrix};
+use ndarray::Array2;
+
+use super::ark;
+use crate::kinetics::Kinetics;
+use crate::model::Scheme;
+
+/// Growth per step tolerated for a decaying mode (0.1 %): the weak growth of
+/// modes close to the imaginary axis, which any explicit scheme shows, is
+/// not called unstable.
+pub const SLACK: f64 = 1e-3;
+
+/// Largest amplification per step of the explicit part at z = kλ.
+pub fn amplification(scheme: Scheme, z: Complex<f64>) -> f64 {
+    match scheme {
+        Scheme::Sbdf2 => {
+            let one = Complex::new(1.0, 0.0);
+            let b = (one + z) * 4.0;
+            let c = (one + z * 2.0) * 3.0;
+            let root = (b * b - c * 4.0).sqrt();
+            ((b + root) / 6.0).norm().max(((b - root) / 6.0).norm())
+        }
+        Scheme::Ark4 => {
+            let mut g = [Complex::new(0.0, 0.0); 6];
+            for i in 0..6 {
+                let sum: Complex<f64> = (0..i).map(|j| g[j] * ark::AE[i][j]).sum();
+                g[i] = Complex::new(1.0, 0.0) + z * sum;
+            }
+            let bg: Complex<f64> = (0..6).map(|i| g[i] * ark::B[i]).sum();
+            (Complex::new(1.0, 0.0) + z * bg).norm()
+        }
+    }
+}
+
+/// True when step `k` is stable for the mode λ (always for Re λ ≥ 0).
+pub fn stable(scheme: Scheme, lambda: Complex<f64>, k: f64) -> bool {
+    lambda.re >= 0.0 || amplification(scheme, lambda * k) <= 1.0 + SLACK
+}
+
+/// The longest step that is stable for λ and for every shorter step: scanned
+/// in 2 % increments of k·|λ| from 0, then bisected; infinite for Re λ ≥ 0.
+pub fn stable_step(scheme: Scheme, lambda: Complex<f64>) -> f64 {
+    if lambda.re >= 0.0 || lambda.norm() == 0.0 {
+        return f64::INFINITY;
+    }
+    let unit = 1.0 / lambda.norm();
+    let (mut good, mut k) = (0.0, 0.02 * unit);
+    while k * lambda.norm() < 20.0 {
+        if !stable(scheme, lambda, k) {
+            let mut bad = k;
+            for _ in 0..50 {
+                let mid = 0.5 * (good + bad);
+                if stable(scheme, lambda, mid) { good = mid } else { bad = mid }
+            }
+            return good;
+        }
+        good = k;
+        k += 0.02 * unit;
+    }
+    f64::INFINITY
+}
+
+/// What makes a fixed step unsafe at a state.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Unsafe {
+    /// Nucleus.
+    pub nucleus: usize,
+    /// In words: the unstable mode, or the negative level.
+    pub why: String,
+    /// A step that would be stable for that nucleus, min (∞ when the cause
+    /// is not a stability limit).
+    pub stable_step: f64,
+}
+
+/// Nuclei whose Jacobians are examined at most: evenly spread over the tissue.
+pub const SAMPLE: usize = 4096;
+
+/// Checks step `k` at state `u` [gene, nucleus] with inputs `m` [input,
+/// nucleus]: every eigenvalue of the reaction Jacobian of (up to [`SAMPLE`])
+/// nuclei must be in the scheme's region (held genes excluded), and no gene
+/// that cannot go negative (`signed[g]` false) may fall below −1 % of its
+/// largest level. Returns the first problem, the nucleus with the shortest
+/// stable step first; `names` are the genes' names, for the message.
+#[allow(clippy::too_many_arguments)]
+pub fn check(
+    kinetics: &dyn Kinetics,
+    scheme: Scheme,
+    k: f64,
+    u: &Array2<f64>,
+    m: &Array2<f64>,
+    held: &[bool],
+    signed: &[bool],
+    names: &[String],
+) -> Option<Unsafe> {
+    let (genes, n) = u.dim();
+    for g in (0..genes).filter(|&g| !signed[g] && !held[g]) {
+        let row = u.row(g);
+        let top = row.iter().copied().fold(0.0f64, f64::max);
+        if let Some((i, v)) = row.iter().enumerate().find(|(_, v)| **v < -0.01 * top.max(1e-12)) {
+            return Some(Unsafe {
+                nucleus: i,
+                why: format!(
+                    "gene `{}` went negative ({v:.3e}; its top is {top:.3e}), which its rate law cannot do",
+                    names[g]
+                ),
+                stable_step: f64::INFINITY,
+            });
+        }
+    }
+    let stride = n.div_ceil(SAMPLE).max(1);
+    let mut jac = vec![0.0; genes * genes];
+    let mut worst: Option<Unsafe> = None;
+    for i in (0..n).step_by(stride) {
+        let ui: Vec<f64> = u.column(i).to_vec();
+        let mi: Vec<f64> = m.column(i).to_vec();
+        kinetics.jacobian(&ui, &mi, &mut jac);
+        let mut a = DMatrix::from_row_slice(genes, genes, &jac);
+        for (g, h) in held.iter().enumerate() {
+            if *h {
+                a.row_mut(g).fill(0.0);
+            }
+        }
+        if a.iter().any(|v| !v.is_finite()) {
+            continue;
+        }
+        for lambda in a.complex_eigenvalues().iter() {
+            if stable(scheme, *lambda, k) {
+                continue;
+            }
+            let step = stable_step(scheme, *lambda);
+            if worst.as_ref().is_none_or(|w| step < w.stable_step) {
+                worst = Some(Unsafe {
+                    nucleus: i,
+                    why: format!(
+                        "its reactions have a mode λ = {:.3e}{:+.3e}i /min, which this step amplifies {:.3}-fold each step",
+                        lambda.re,
+                        lambda.im,
+                        amplification(scheme, lambda * k)
+                    ),
+                    stable_step: step,
+                });
+            }
+        }
+    }
+    worst
+}
+
+/// The shortest stable step over the (up to `sample`) nuclei of state `u`:
+/// (step, nucleus), ∞ when nothing limits it.
+pub fn shortest_stable_step(
+    kinetics: &dyn Kinetics,
+    scheme: Scheme,
+    u: &Array2<f64>,
+    m: &Array2<f64>,
+    held: &[bool],
+    sample: usize,
+) -> (f64, usize) {
+    let (genes, n) = u.dim();
+    let mut jac = vec![0.0; genes * genes];
+    let mut best = (f64::INFINITY, 0);
+    for i in (0..n).step_by(n.div_ceil(sample).max(1)) {
+        let ui: Vec<f64> = u.column(i).to_vec();
+        let mi: Vec<f64> = m.column(i).to_vec();
+        kinetics.jacobian(&ui, &mi, &mut jac);
+        let mut a = DMatrix::from_row_slice(genes, genes, &jac);
+        for (g, h) in held.iter().enumerate() {
+            if *h {
+                a.row_mut(g).fill(0.0);
+            }
+        }
+        if a.iter().any(|v| !v.is_finite()) {
+            continue;
+        }
+        for lambda in a.complex_eigenvalues().iter() {
+            let k = stable_step(scheme, *lambda);
+            if k < best.0 {
+                best = (k, i);
+            }
+        }
+    }
+    best
+}
+
+/// What a trial run found about fixed steps.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Trial {
+    /// The longest fixed step that stays stable along the trial, min (∞: no limit found).
+    pub stable_step: f64,
+    /// When that limit was met, min.
+    pub at_min: f64,
+    /// Where.
+    pub nucleus: usize,
+    /// How far the trial ran, min.
+    pub until_min: f64,
+    /// Steps it took.
+    pub steps: usize,
+}
+
+/// Nuclei·genes up to which the trial covers the whole run; bigger models
+/// run the first tenth of it.
+pub const WHOLE_TRIAL: usize = 20_000;
+
+/// Runs the model with loose error control (tolerance 1e-4) — over the whole
+/// run when it is small (≤ [`WHOLE_TRIAL`] nuclei·genes), else over its first
+/// tenth — and finds, at every accepted step, the longest fixed step the
+/// reactions allow (256 nuclei sampled): what `check` reports, because the
+/// Jacobian at the start can allow far longer steps than later states.
+///
+/// # Errors
+/// [`super::StepError`] when the trial run itself fails.
+pub fn trial(model: &crate::model::Model) -> Result<Trial, super::StepError> {
+    use crate::model::Stepping;
+    let mut m = model.clone();
+    let size = m.grid.len() * m.genes.len();
+    if size > WHOLE_TRIAL {
+        let every = m.clock.snapshot_every_min;
+        m.clock.until_min = ((0.1 * m.clock.until_min / every).ceil() * every).min(m.clock.until_min);
+    }
+    m.clock.stepping = Stepping::Adaptive { rtol: 1e-4, atol: 1e-4, max_step_min: m.clock.snapshot_every_min };
+    let kinetics = crate::kinetics::build(&m);
+    let tissue = crate::tissue::Tissue::new(&m);
+    let held: Vec<bool> = m.clamps.iter().map(Option::is_some).collect();
+    let mut found =
+        Trial { stable_step: f64::INFINITY, at_min: 0.0, nucleus: 0, until_min: m.clock.until_min, steps: 0 };
+    let scheme = m.clock.scheme;
+    let stats = super::integrate_from(
+        &m,
+        kinetics.as_ref(),
+        &tissue,
+        true,
+        None,
+        |_, _| {},
+        |stepper, _, _| {
+            let u = stepper.state();
+            let inputs = tissue.inputs_with_state(stepper.time(), u);
+            let (k, i) = shortest_stable_step(kinetics.as_ref(), scheme, u, &inputs, &held, 256);
+            if k < found.stable_step {
+                found = Trial { stable_step: k, at_min: stepper.time(), nucleus: i, ..found };
+            }
+        },
+    )?;
+    found.steps = stats.steps;
+    Ok(found)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// On the negative real axis the regions end at k|λ| = 4/3 (SBDF2) and
+    /// 4.2345 (ARK4(3)6L[2]SA's explicit tableau); see the module doc.
+    #[test]
+    fn real_axis_edges() {
+        let minus_one = Complex::new(-1.0, 0.0);
+        assert!((stable_step(Scheme::Sbdf2, minus_one) - 4.0 / 3.0).abs() < 2e-3);
+        assert!((stable_step(Scheme::Ark4, minus_one) - 4.2345).abs() < 2e-3);
+        assert!((stable_step(Scheme::Sbdf2, Complex::new(-0.5, 0.0)) - 8.0 / 3.0).abs() < 4e-3);
+        assert_eq!(stable_step(Scheme::Sbdf2, Complex::new(0.3, 1.0)), f64::INFINITY);
+    }
+
+    /// A fourth-order scheme's R(z) matches eᶻ to O(z⁵) near 0; SBDF2's
+    /// principal root to O(z³).
+    #[test]
+    fn amplification_matches_the_exponential_near_zero() {
+        for z in [Complex::new(-0.01, 0.0), Complex::new(-0.005, 0.008), Complex::new(0.0, 0.01)] {
+            let exact = z.exp().norm();
+            assert!((amplification(Scheme::Ark4, z) - exact).abs() < 1e-9, "{z}");
+            assert!((amplification(Scheme::Sbdf2, z) - exact).abs() < 1e-5, "{z}");
+        }
+    }
+}

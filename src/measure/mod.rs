@@ -180,6 +180,8 @@ pub struct EmbryoMeasurement {
     pub genes: Vec<GeneReading>,
     /// Every boundary found, by gene in channel order.
     pub boundaries: Vec<MeasuredBoundary>,
+    /// Warnings about the outline, in words.
+    pub notes: Vec<String>,
 }
 
 impl EmbryoMeasurement {
@@ -189,7 +191,7 @@ impl EmbryoMeasurement {
     }
     /// What a reader should be warned about, in words (empty when nothing).
     pub fn flags(&self) -> Vec<String> {
-        let mut out = Vec::new();
+        let mut out = self.notes.clone();
         if self.head.weak {
             out.push(format!(
                 "weak head guess (confidence {:.2}); give --head or check the picture",
@@ -400,6 +402,28 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
             skipped.push(skip(format!("refused: {why}"), false));
             continue;
         }
+        // Something attached: near a pole it changes the length (refused);
+        // on a side it barely moves the axis (flagged).
+        let mut notes = Vec::new();
+        let (depth, at) = outline::deepest_dent(pixels, w, h);
+        if depth > outline::DENT_PX.max(outline::DENT_FRACTION * e.height()) {
+            let along = ((at.0 - e.cx) * e.axis.0 + (at.1 - e.cy) * e.axis.1) / e.length();
+            if along.abs() > 0.3 {
+                skipped.push(skip(
+                    format!(
+                        "refused: its outline has a dent {depth:.0} px deep near its end, at ({:.0}, {:.0}) px: something is \
+                         attached there (a cell, debris, another embryo) and would lengthen it; outline it alone with --mask",
+                        at.0, at.1
+                    ),
+                    false,
+                ));
+                continue;
+            }
+            notes.push(format!(
+                "its outline has a dent {depth:.0} px deep on its side at ({:.0}, {:.0}) px: something is attached; check the picture",
+                at.0, at.1
+            ));
+        }
         let [a, b] = match outline::place_poles(&o, w, e, *edge) {
             Ok(p) => p,
             Err(end) => {
@@ -442,6 +466,7 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
             head,
             genes,
             boundaries,
+            notes,
         });
     }
     if embryos.is_empty() && skipped.is_empty() {

@@ -13,6 +13,10 @@ use super::profile::profile_line_n;
 pub const DETECT_SD: f64 = 5.0;
 /// The edge may not sit lower than this many background sd.
 pub const EDGE_MIN_SD: f64 = 3.0;
+/// The quantile of a region's interior taken as its dimmest tissue: low, so
+/// that faint unstained tissue covering only a few per cent of an embryo (a
+/// gap between domains, an unstained cap) still sets the edge.
+pub const DIMMEST: f64 = 0.01;
 /// Regions smaller than this are specks (debris, noise), not embryos, px.
 pub const MIN_AREA_PX: usize = 300;
 
@@ -176,7 +180,7 @@ pub const MIN_CORE_PX: usize = 30;
 /// least [`CORE_DEPTH_PX`] inside) that seed one region each, and every region
 /// is flooded outwards in order of falling `o` (a marker-controlled
 /// watershed: Beucher & Meyer 1993, from memory), down to its own edge
-/// level: half of its dimmest tissue (the 10th percentile of `o` over its
+/// level: half of its dimmest tissue (the [`DIMMEST`] quantile of `o` over its
 /// core), never below [`EDGE_MIN_SD`]·noise. So the edge sits at the
 /// half-maximum of blurred unstained tissue however bright the stain
 /// elsewhere, and embryos that nearly touch are split along the valley
@@ -195,7 +199,7 @@ pub fn segment(o: &[f64], width: usize, noise: f64) -> Segmentation {
         if inner.is_empty() {
             continue;
         }
-        let edge = (0.5 * quantile(&mut inner, 0.1)).max(EDGE_MIN_SD * noise);
+        let edge = (0.5 * quantile(&mut inner, DIMMEST)).max(EDGE_MIN_SD * noise);
         patch.iter().filter(|&&i| o[i] > edge).for_each(|&i| level[i] = true);
     }
     let depth = distance_to_outside(&level, width);
@@ -205,7 +209,7 @@ pub fn segment(o: &[f64], width: usize, noise: f64) -> Segmentation {
     let mut heap = std::collections::BinaryHeap::new();
     for core in cores.regions.iter().filter(|c| c.len() >= MIN_CORE_PX) {
         let mut values: Vec<f64> = core.iter().map(|&i| o[i]).collect();
-        edges.push((0.5 * quantile(&mut values, 0.1)).max(EDGE_MIN_SD * noise));
+        edges.push((0.5 * quantile(&mut values, DIMMEST)).max(EDGE_MIN_SD * noise));
         for &i in core {
             owner[i] = edges.len() as u32;
             heap.push(Flood(o[i], i));
@@ -443,6 +447,58 @@ pub fn implausible(s: &Shape, e: &Embryo) -> Option<String> {
     None
 }
 
+/// The deepest dent in an outline: the convex hull of its pixels (Andrew's
+/// monotone chain) is filled, and the deepest hull pixel outside the outline
+/// — its distance to the outline, px — is returned with its position. An
+/// embryo is convex but for the pixel grid; a cell or debris stuck to it
+/// leaves a dent where the two meet.
+pub fn deepest_dent(pixels: &[usize], width: usize, height: usize) -> (f64, (f64, f64)) {
+    let mut pts: Vec<(i64, i64)> = pixels.iter().map(|&i| ((i % width) as i64, (i / width) as i64)).collect();
+    pts.sort_unstable();
+    let cross = |o: (i64, i64), a: (i64, i64), b: (i64, i64)| (a.0 - o.0) * (b.1 - o.1) - (a.1 - o.1) * (b.0 - o.0);
+    let mut hull: Vec<(i64, i64)> = Vec::new();
+    for pass in 0..2 {
+        let start = hull.len();
+        let iter: Box<dyn Iterator<Item = &(i64, i64)>> =
+            if pass == 0 { Box::new(pts.iter()) } else { Box::new(pts.iter().rev()) };
+        for &p in iter {
+            while hull.len() >= start + 2 && cross(hull[hull.len() - 2], hull[hull.len() - 1], p) <= 0 {
+                hull.pop();
+            }
+            hull.push(p);
+        }
+        hull.pop();
+    }
+    if hull.len() < 3 {
+        return (0.0, (0.0, 0.0));
+    }
+    let inside_hull = |x: i64, y: i64| (0..hull.len()).all(|k| cross(hull[k], hull[(k + 1) % hull.len()], (x, y)) >= 0);
+    let mut outside = vec![true; width * height];
+    for &i in pixels {
+        outside[i] = false;
+    }
+    // Distance of every pixel to the outline.
+    let distance = distance_to_outside(&outside, width);
+    let (x0, x1) = (pts.iter().map(|p| p.0).min().unwrap_or(0), pts.iter().map(|p| p.0).max().unwrap_or(0));
+    let (y0, y1) = (pts.iter().map(|p| p.1).min().unwrap_or(0), pts.iter().map(|p| p.1).max().unwrap_or(0));
+    let mut best = (0.0, (0.0, 0.0));
+    for y in y0..=y1 {
+        for x in x0..=x1 {
+            let i = y as usize * width + x as usize;
+            if outside[i] && distance[i] > best.0 && inside_hull(x, y) {
+                best = (distance[i], (x as f64, y as f64));
+            }
+        }
+    }
+    best
+}
+
+/// A dent deeper than this many px, and than [`DENT_FRACTION`] of the
+/// height, means something is attached (common practice, no source).
+pub const DENT_PX: f64 = 5.0;
+/// A dent deeper than this fraction of the height (and [`DENT_PX`]).
+pub const DENT_FRACTION: f64 = 0.03;
+
 /// Width of the strip along the axis in which the poles are placed, px.
 pub const POLE_STRIP_PX: usize = 3;
 
@@ -570,6 +626,22 @@ mod tests {
         let streak = ellipse(w, h, (200.0, 150.0), 150.0, 8.0, 20.0);
         let e = principal_axes(&streak, w).unwrap();
         assert!(implausible(&shape(&streak, &e, w, h), &e).unwrap().contains("streak"));
+    }
+
+    /// A round cell stuck to one pole leaves a dent where it meets the
+    /// embryo; a plain ellipse has none deeper than the pixel grid.
+    #[test]
+    fn a_cell_at_the_pole_leaves_a_dent() {
+        let (w, h) = (500, 300);
+        let plain = ellipse(w, h, (220.0, 150.0), 160.0, 60.0, 10.0);
+        assert!(deepest_dent(&plain, w, h).0 < 2.0);
+        let (c, s) = (10f64.to_radians().cos(), 10f64.to_radians().sin());
+        let mut stuck = plain.clone();
+        stuck.extend(ellipse(w, h, (220.0 + 175.0 * c, 150.0 + 175.0 * s), 22.0, 22.0, 0.0));
+        stuck.sort_unstable();
+        stuck.dedup();
+        let (depth, at) = deepest_dent(&stuck, w, h);
+        assert!(depth > 5.0 && at.0 > 330.0, "{depth} at {at:?}");
     }
 
     /// The chamfer distance of a pixel in a wide band is its distance to the

@@ -105,49 +105,88 @@ pub fn smooth(plane: &[f64], width: usize, sigma: f64) -> Vec<f64> {
     out
 }
 
-/// A fitted quadratic background surface.
-#[derive(Debug, Clone, Copy, PartialEq)]
+/// A fitted polynomial background surface, `Σ c_ij x^i y^j` over
+/// i + j ≤ degree, x and y scaled to [−½, ½].
+#[derive(Debug, Clone, PartialEq)]
 pub struct Surface {
-    coef: [f64; 6],
+    coef: Vec<f64>,
+    degree: usize,
     width: usize,
     height: usize,
 }
 
 impl Surface {
-    fn basis(&self, x: usize, y: usize) -> [f64; 6] {
+    fn new(degree: usize, width: usize, height: usize) -> Surface {
+        Surface { coef: vec![0.0; terms(degree)], degree, width, height }
+    }
+    fn basis(&self, x: usize, y: usize, out: &mut [f64]) {
         let u = x as f64 / self.width.max(2) as f64 - 0.5;
         let v = y as f64 / self.height.max(2) as f64 - 0.5;
-        [1.0, u, v, u * u, u * v, v * v]
+        let mut k = 0;
+        for total in 0..=self.degree {
+            for j in 0..=total {
+                out[k] = u.powi((total - j) as i32) * v.powi(j as i32);
+                k += 1;
+            }
+        }
     }
     /// B at column x, row y.
     pub fn at(&self, x: usize, y: usize) -> f64 {
-        self.basis(x, y).iter().zip(&self.coef).map(|(b, c)| b * c).sum()
+        let mut b = [0.0; 28];
+        self.basis(x, y, &mut b);
+        b.iter().zip(&self.coef).map(|(b, c)| b * c).sum()
     }
 }
 
-/// Fits the background surface to `plane` over the pixels `set` (indices),
-/// robustly: twice more without the points farther than 3.5 robust sd.
-/// Returns the surface and the robust sd of its residuals on the set.
-pub fn fit_surface(plane: &[f64], width: usize, set: &[usize]) -> (Surface, f64) {
+/// Number of terms of a surface of `degree` (at most 6).
+fn terms(degree: usize) -> usize {
+    (degree + 1) * (degree + 2) / 2
+}
+
+/// Degree of the background surface fitted to the border alone: a quadratic,
+/// which holds a tilt and a radial fall-off `I₀(1 − c·r²)` exactly.
+pub const BORDER_DEGREE: usize = 2;
+/// Degree of the surface fitted to every pixel away from the embryos: a
+/// quartic, which also follows the steeper, non-quadratic fall-off of strong
+/// vignetting (cos⁴, Gaussian) under the embryo.
+pub const FULL_DEGREE: usize = 4;
+
+/// Fits a background surface of `degree` to `plane` over the pixels `set`
+/// (indices), robustly: twice more without the points farther than 3.5
+/// robust sd. Returns the surface and the robust sd of its residuals on the set.
+pub fn fit_surface(plane: &[f64], width: usize, set: &[usize], degree: usize) -> (Surface, f64) {
     let height = plane.len() / width;
-    let mut s = Surface { coef: [0.0; 6], width, height };
+    let mut s = Surface::new(degree, width, height);
+    let n = terms(degree);
     let mut keep: Vec<usize> = set.to_vec();
     let mut sd = 0.0;
+    let mut b = vec![0.0; n];
     for round in 0..3 {
-        let mut ata = nalgebra::Matrix6::<f64>::zeros();
-        let mut atb = nalgebra::Vector6::<f64>::zeros();
+        let mut ata = nalgebra::DMatrix::<f64>::zeros(n, n);
+        let mut atb = nalgebra::DVector::<f64>::zeros(n);
         for &i in &keep {
-            let r = nalgebra::Vector6::from(s.basis(i % width, i / width));
-            ata += r * r.transpose();
-            atb += r * plane[i];
+            s.basis(i % width, i / width, &mut b);
+            for r in 0..n {
+                atb[r] += b[r] * plane[i];
+                for c in 0..=r {
+                    ata[(r, c)] += b[r] * b[c];
+                }
+            }
         }
-        // A set too small or degenerate for a quadratic falls back to its median.
-        let coef = if keep.len() >= 60 { ata.lu().solve(&atb) } else { None };
+        for r in 0..n {
+            for c in r + 1..n {
+                ata[(r, c)] = ata[(c, r)];
+            }
+        }
+        // A set too small or degenerate for the surface falls back to its median.
+        let coef = if keep.len() >= 10 * n { ata.lu().solve(&atb) } else { None };
         s.coef = match coef {
-            Some(c) => [c[0], c[1], c[2], c[3], c[4], c[5]],
+            Some(c) => c.iter().copied().collect(),
             None => {
                 let mut v: Vec<f64> = keep.iter().map(|&i| plane[i]).collect();
-                [median(&mut v), 0.0, 0.0, 0.0, 0.0, 0.0]
+                let mut c = vec![0.0; n];
+                c[0] = median(&mut v);
+                c
             }
         };
         let residuals: Vec<f64> = set.iter().map(|&i| plane[i] - s.at(i % width, i / width)).collect();
@@ -219,7 +258,8 @@ pub fn background_border(plane: &[f64], width: usize, band: usize) -> Vec<usize>
     }
     pieces.retain(|p| p.len() >= 8);
     let noise = difference_noise(plane, width, &all).max(1e-12);
-    let surface = Surface { coef: [0.0; 6], width, height };
+    let surface = Surface::new(BORDER_DEGREE, width, height);
+    let n = terms(BORDER_DEGREE);
     let centre = |p: &Vec<usize>| {
         let n = p.len() as f64;
         let (sx, sy) = p.iter().fold((0.0, 0.0), |(a, b), &i| (a + (i % width) as f64, b + (i / width) as f64));
@@ -233,17 +273,19 @@ pub fn background_border(plane: &[f64], width: usize, band: usize) -> Vec<usize>
         })
         .collect();
     let mut keep: Vec<usize> = (0..points.len()).collect();
+    let mut b = vec![0.0; n];
     while keep.len() > 12 {
-        let mut ata = nalgebra::Matrix6::<f64>::zeros();
-        let mut atb = nalgebra::Vector6::<f64>::zeros();
+        let mut ata = nalgebra::DMatrix::<f64>::zeros(n, n);
+        let mut atb = nalgebra::DVector::<f64>::zeros(n);
         for &k in &keep {
             let ((x, y), v) = points[k];
-            let r = nalgebra::Vector6::from(surface.basis(x, y));
-            ata += r * r.transpose();
+            surface.basis(x, y, &mut b);
+            let r = nalgebra::DVector::from_column_slice(&b);
+            ata += &r * r.transpose();
             atb += r * v;
         }
         let Some(c) = ata.lu().solve(&atb) else { break };
-        let fitted = Surface { coef: [c[0], c[1], c[2], c[3], c[4], c[5]], width, height };
+        let fitted = Surface { coef: c.iter().copied().collect(), ..surface.clone() };
         let (worst, off) = keep
             .iter()
             .map(|&k| (k, (points[k].1 - fitted.at(points[k].0.0, points[k].0.1)).abs()))
@@ -274,7 +316,7 @@ pub fn thin(set: Vec<usize>, limit: usize) -> Vec<usize> {
 pub fn contrast_counts(planes: &[Vec<f64>], width: usize, set: &[usize]) -> (usize, usize) {
     let n = planes[0].len();
     let mean: Vec<f64> = (0..n).map(|i| planes.iter().map(|p| p[i]).sum::<f64>() / planes.len() as f64).collect();
-    let (surface, _) = fit_surface(&mean, width, set);
+    let (surface, _) = fit_surface(&mean, width, set, BORDER_DEGREE);
     let residual: Vec<f64> = (0..n).map(|i| mean[i] - surface.at(i % width, i / width)).collect();
     let sm = smooth(&residual, width, SMOOTH_PX);
     let on_set: Vec<f64> = set.iter().map(|&i| sm[i]).collect();
@@ -297,11 +339,19 @@ pub fn decide_contrast(bright: usize, dark: usize) -> Option<Contrast> {
     }
 }
 
-/// A plane's stain signal above its background surface (fitted to `set`):
-/// `v − B` for bright stains, `−log₁₀(v/B)` for dark ones (v floored at
-/// `floor`, half a grey level). Returns the signal and its robust sd on `set`.
-pub fn signal(plane: &[f64], width: usize, set: &[usize], contrast: Contrast, floor: f64) -> (Vec<f64>, f64) {
-    let (surface, _) = fit_surface(plane, width, set);
+/// A plane's stain signal above its background surface (of `degree`, fitted
+/// to `set`): `v − B` for bright stains, `−log₁₀(v/B)` for dark ones (v
+/// floored at `floor`, half a grey level). Returns the signal and its robust
+/// sd on `set`.
+pub fn signal(
+    plane: &[f64],
+    width: usize,
+    set: &[usize],
+    contrast: Contrast,
+    floor: f64,
+    degree: usize,
+) -> (Vec<f64>, f64) {
+    let (surface, _) = fit_surface(plane, width, set, degree);
     let out: Vec<f64> = plane
         .iter()
         .enumerate()
@@ -351,7 +401,7 @@ mod tests {
         let mut rng = rand_pcg::Pcg64::seed_from_u64(5);
         let normal = Normal::new(0.0, 0.01).unwrap();
         let plane: Vec<f64> = (0..w * h).map(|i| truth(i % w, i / w) + normal.sample(&mut rng)).collect();
-        let (s, sd) = fit_surface(&plane, w, &border_band(w, h, 6));
+        let (s, sd) = fit_surface(&plane, w, &border_band(w, h, 6), BORDER_DEGREE);
         assert!((sd - 0.01).abs() < 0.001, "{sd}");
         for (x, y) in [(150, 100), (60, 40), (240, 160)] {
             assert!((s.at(x, y) - truth(x, y)).abs() < 0.002, "({x}, {y}): {} vs {}", s.at(x, y), truth(x, y));
@@ -386,7 +436,7 @@ mod tests {
                 lamp(x, y) * if inside { 10f64.powf(-0.4) } else { 1.0 }
             })
             .collect();
-        let (od, _) = signal(&plane, w, &border_band(w, h, 5), Contrast::Dark, 1e-4);
+        let (od, _) = signal(&plane, w, &border_band(w, h, 5), Contrast::Dark, 1e-4, BORDER_DEGREE);
         assert!((od[40 * w + 60] - 0.4).abs() < 1e-6, "{}", od[40 * w + 60]);
         assert!((od[30 * w + 35] - 0.4).abs() < 1e-6, "{}", od[30 * w + 35]);
         assert!(od[5 * w + 5].abs() < 1e-6);

@@ -242,6 +242,29 @@ pub struct ImageMeasurement {
     pub specks: usize,
 }
 
+/// Largest-scale residual of the background taken as even: smoothed over
+/// 10 px, the background's left-over should shrink to about 2/10 of its
+/// 2-px noise (white noise, variance ∝ 1/σ²); above [`UNEVEN`] it holds
+/// structure the fitted surface misses (uneven lighting, a glow, a bubble).
+pub const UNEVEN: f64 = 0.4;
+
+/// The ratio of [`UNEVEN`] when it is exceeded, from pixels more than 35 px
+/// away from anything `o` detects (so the embryos' own light does not
+/// count); None when even, or when too few such pixels remain to tell.
+fn uneven_background(raw: &[f64], width: usize, o: &[f64], noise: f64) -> Option<f64> {
+    let clear: Vec<bool> = o.iter().map(|v| *v <= outline::DETECT_SD * noise).collect();
+    let distance = outline::distance_to_outside(&clear, width);
+    let far: Vec<usize> = (0..raw.len()).filter(|&i| distance[i] > 35.0).collect();
+    if far.len() < 2000 {
+        return None;
+    }
+    let broad = smooth(raw, width, 10.0);
+    let on: Vec<f64> = far.iter().map(|&i| broad[i]).collect();
+    let near: Vec<f64> = far.iter().map(|&i| o[i]).collect();
+    let ratio = median_and_sd(&on).1 / median_and_sd(&near).1.max(1e-12);
+    (ratio > UNEVEN).then_some(ratio)
+}
+
 impl ImageMeasurement {
     /// An error when no embryo was measured, naming each candidate's reason.
     pub fn none_measured(&self, path: &std::path::Path) -> Option<MeasureError> {
@@ -321,13 +344,17 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
     let quantisation_sd = step / 12f64.sqrt();
     let mut signals: Vec<(Vec<f64>, f64)> = Vec::new();
     let mut o = Vec::new();
+    let mut uneven = None;
     let mut seg = outline::Segmentation { regions: Vec::new(), edges: Vec::new(), detected: Vec::new(), specks: 0 };
-    for _round in 0..2 {
+    // Three rounds: the border's quadratic, then quartics fitted away from
+    // what the round before detected.
+    for round in 0..3 {
+        let degree = if round == 0 { background::BORDER_DEGREE } else { background::FULL_DEGREE };
         signals = planes
             .planes
             .par_iter()
             .map(|p| {
-                let (s, sd) = signal(p, w, &set, contrast, 0.5 * step);
+                let (s, sd) = signal(p, w, &set, contrast, 0.5 * step, degree);
                 (s, sd.max(quantisation_sd))
             })
             .collect();
@@ -356,6 +383,9 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
                 let on_set: Vec<f64> = set.iter().map(|&i| o[i]).collect();
                 let top = o.iter().fold(0.0f64, |a, v| a.max(v.abs()));
                 let noise = median_and_sd(&on_set).1.max(1e-3 * top).max(1e-12);
+                if round == 2 {
+                    uneven = uneven_background(&raw, w, &o, noise);
+                }
                 outline::segment(&o, w, noise)
             }
         };
@@ -366,6 +396,13 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
         if away.len() >= set.len().min(2000) {
             set = thin(away, FIT_PIXELS);
         }
+    }
+    if let Some(ratio) = uneven {
+        return Err(no(format!(
+            "the background is uneven on a scale its fitted surface does not follow (smoothed over 10 px, what is \
+             left of it is {ratio:.2} of the 2-px noise; an evenly lit image gives about 0.25): correct the illumination \
+             (flat-field) or outline the embryos with --mask"
+        )));
     }
     let outline_how = match &opts.outline {
         Outline::AllPlanes => "all planes".to_string(),

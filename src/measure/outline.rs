@@ -500,7 +500,7 @@ pub const DENT_PX: f64 = 5.0;
 pub const DENT_FRACTION: f64 = 0.03;
 
 /// Width of the strip along the axis in which the poles are placed, px.
-pub const POLE_STRIP_PX: usize = 3;
+pub const POLE_STRIP_PX: usize = 5;
 
 /// Places the two poles of the long axis. Along the axis (in a strip
 /// [`POLE_STRIP_PX`] wide, 4 samples per px, from 20 % of the length inside

@@ -488,3 +488,23 @@ fn issue_18_attached_cells_and_uneven_backgrounds() {
     let err = measure::measure(&drawn(600, 400, &[&glow]), &opts(&amber, HeadRule::Given(Side::Left))).unwrap_err();
     assert!(err.to_string().contains("background is uneven"), "{err}");
 }
+
+/// A frame rotated in an editor, its corners padded with exact black: the
+/// padding is not background, the frame is not an embryo, and the embryo in
+/// it is measured (before, the whole frame was measured as one embryo with
+/// exit 0). An embryo touching the padding counts as cut.
+#[test]
+fn issue_18_padded_frame_is_not_an_embryo() {
+    let (w, h) = (560, 360);
+    let stain = |x: f64, y: f64| along(x - 30.0, y - 30.0).map_or(0.12, |p| if p < 38.0 { 0.6 } else { 0.2 });
+    let mut p = drawn(w, h, &[&stain]);
+    let corner = |x: f64, y: f64| y < 0.35 * (90.0 - x) + 30.0 || (w as f64 - x) + (h as f64 - y) < 150.0;
+    for (i, v) in p.planes[0].iter_mut().enumerate() {
+        if corner((i % w) as f64, (i / w) as f64) {
+            *v = 0.0;
+        }
+    }
+    let e = one(&p, &[Channel { gene: "amber".into(), plane: 0 }], HeadRule::Given(Side::Left)).unwrap();
+    assert!((e.length_px - 400.0).abs() < 3.0, "{}", e.length_px);
+    assert!((e.boundaries[0].position_pct - 38.0).abs() < 0.5, "{:?}", e.boundaries);
+}

@@ -236,7 +236,13 @@ pub fn difference_noise(plane: &[f64], width: usize, set: &[usize]) -> f64 {
 /// band would bend towards them (common practice, no source).
 pub fn background_border(plane: &[f64], width: usize, band: usize) -> Vec<usize> {
     let height = plane.len() / width;
-    let all = border_band(width, height, band);
+    background_of_band(plane, width, border_band(width, height, band))
+}
+
+/// [`background_border`] for any band of pixels along the picture's edge
+/// (`all`, e.g. the edge of a padded frame).
+pub fn background_of_band(plane: &[f64], width: usize, all: Vec<usize>) -> Vec<usize> {
+    let height = plane.len() / width;
     let perimeter = 2.0 * (width + height) as f64;
     // Position along the perimeter, clockwise from the top-left corner.
     let along = |i: usize| {
@@ -312,8 +318,9 @@ pub fn thin(set: Vec<usize>, limit: usize) -> Vec<usize> {
 
 /// Counts, in the mean of the planes, the pixels clearly brighter and clearly
 /// darker than the background: after fitting the surface to `set`, the
-/// smoothed residual above +6 and below −6 smoothed sd.
-pub fn contrast_counts(planes: &[Vec<f64>], width: usize, set: &[usize]) -> (usize, usize) {
+/// smoothed residual above +6 and below −6 smoothed sd (pixels of `padding`
+/// not counted).
+pub fn contrast_counts(planes: &[Vec<f64>], width: usize, set: &[usize], padding: Option<&[bool]>) -> (usize, usize) {
     let n = planes[0].len();
     let mean: Vec<f64> = (0..n).map(|i| planes.iter().map(|p| p[i]).sum::<f64>() / planes.len() as f64).collect();
     let (surface, _) = fit_surface(&mean, width, set, BORDER_DEGREE);
@@ -322,8 +329,9 @@ pub fn contrast_counts(planes: &[Vec<f64>], width: usize, set: &[usize]) -> (usi
     let on_set: Vec<f64> = set.iter().map(|&i| sm[i]).collect();
     let (m, s) = median_and_sd(&on_set);
     let s = s.max(1e-9);
-    let bright = sm.iter().filter(|v| **v - m > 6.0 * s).count();
-    let dark = sm.iter().filter(|v| m - **v > 6.0 * s).count();
+    let framed = |i: &usize| !padding.is_some_and(|p| p[*i]);
+    let bright = (0..n).filter(framed).filter(|&i| sm[i] - m > 6.0 * s).count();
+    let dark = (0..n).filter(framed).filter(|&i| m - sm[i] > 6.0 * s).count();
     (bright, dark)
 }
 

@@ -21,6 +21,7 @@
 
 pub mod background;
 pub mod batch;
+pub mod frame;
 pub mod image;
 pub mod outline;
 pub mod profile;
@@ -251,8 +252,9 @@ pub const UNEVEN: f64 = 0.4;
 /// The ratio of [`UNEVEN`] when it is exceeded, from pixels more than 35 px
 /// away from anything `o` detects (so the embryos' own light does not
 /// count); None when even, or when too few such pixels remain to tell.
-fn uneven_background(raw: &[f64], width: usize, o: &[f64], noise: f64) -> Option<f64> {
-    let clear: Vec<bool> = o.iter().map(|v| *v <= outline::DETECT_SD * noise).collect();
+fn uneven_background(raw: &[f64], width: usize, o: &[f64], noise: f64, pad: Option<&[bool]>) -> Option<f64> {
+    let clear: Vec<bool> =
+        o.iter().enumerate().map(|(i, v)| *v <= outline::DETECT_SD * noise && !pad.is_some_and(|p| p[i])).collect();
     let distance = outline::distance_to_outside(&clear, width);
     let far: Vec<usize> = (0..raw.len()).filter(|&i| distance[i] > 35.0).collect();
     if far.len() < 2000 {
@@ -325,13 +327,34 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
         HeadRule::Guess { gene: None } => opts.channels.first(),
         HeadRule::Given(_) => None,
     };
+    // Padding around a rotated or shifted frame is not background.
+    let pad = frame::padding(&planes.planes, w);
+    let filled = pad.as_ref().map(|p| frame::fill(&planes.planes, w, p));
+    let image: &[Vec<f64>] = filled.as_deref().unwrap_or(&planes.planes);
+    let in_frame = |set: Vec<usize>| -> Vec<usize> {
+        match &pad {
+            Some(p) => set.into_iter().filter(|&i| !p[i]).collect(),
+            None => set,
+        }
+    };
     // The border's background, from the mean of the planes.
-    let mean: Vec<f64> = (0..w * h).map(|i| planes.planes.iter().map(|p| p[i]).sum::<f64>() / count as f64).collect();
-    let mut set = thin(background_border(&mean, w, (w.min(h) / 40).max(3)), FIT_PIXELS);
+    let mean: Vec<f64> = (0..w * h).map(|i| image.iter().map(|p| p[i]).sum::<f64>() / count as f64).collect();
+    let band = (w.min(h) / 40).max(3);
+    let edge = match &pad {
+        // Inside a padded frame, the band along the frame's own edge.
+        Some(p) => {
+            let inside: Vec<bool> = p.iter().map(|x| !x).collect();
+            let depth = outline::distance_to_outside(&inside, w);
+            let along_frame = (0..w * h).filter(|&i| !p[i] && depth[i] <= band as f64).collect();
+            background::background_of_band(&mean, w, along_frame)
+        }
+        None => background_border(&mean, w, band),
+    };
+    let mut set = thin(edge, FIT_PIXELS);
     let (contrast, contrast_how) = match opts.contrast {
         Some(c) => (c, "given".to_string()),
         None => {
-            let (bright, dark) = contrast_counts(&planes.planes, w, &set);
+            let (bright, dark) = contrast_counts(image, w, &set, pad.as_deref());
             if bright.max(dark) < outline::MIN_AREA_PX {
                 return Err(no("nothing stands out from the background".into()));
             }
@@ -350,8 +373,7 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
     // what the round before detected.
     for round in 0..3 {
         let degree = if round == 0 { background::BORDER_DEGREE } else { background::FULL_DEGREE };
-        signals = planes
-            .planes
+        signals = image
             .par_iter()
             .map(|p| {
                 let (s, sd) = signal(p, w, &set, contrast, 0.5 * step, degree);
@@ -384,7 +406,7 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
                 let top = o.iter().fold(0.0f64, |a, v| a.max(v.abs()));
                 let noise = median_and_sd(&on_set).1.max(1e-3 * top).max(1e-12);
                 if round == 2 {
-                    uneven = uneven_background(&raw, w, &o, noise);
+                    uneven = uneven_background(&raw, w, &o, noise, pad.as_deref());
                 }
                 outline::segment(&o, w, noise)
             }
@@ -393,6 +415,7 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
         let clear: Vec<bool> = seg.detected.iter().map(|d| !d).collect();
         let distance = outline::distance_to_outside(&clear, w);
         let away: Vec<usize> = (0..w * h).filter(|&i| distance[i] > BACKGROUND_CLEARANCE_PX).collect();
+        let away = in_frame(away);
         if away.len() >= set.len().min(2000) {
             set = thin(away, FIT_PIXELS);
         }
@@ -429,7 +452,13 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
             labels[i] = number as u32;
         }
         let skip = |reason: String, cut: bool| Skipped { number, centre: (e.cx, e.cy), reason, cut };
-        let touches = pixels.iter().any(|&i| i % w == 0 || i / w == 0 || i % w == w - 1 || i / w == h - 1);
+        let touches = pixels.iter().any(|&i| {
+            i % w == 0
+                || i / w == 0
+                || i % w == w - 1
+                || i / w == h - 1
+                || pad.as_ref().is_some_and(|p| frame::touches(p, w, i))
+        });
         if touches {
             skipped.push(skip("cut by the image edge: not measured".into(), true));
             continue;

@@ -22,6 +22,7 @@
 pub mod background;
 pub mod batch;
 pub mod frame;
+pub mod geometry;
 pub mod image;
 pub mod outline;
 pub mod profile;
@@ -34,8 +35,8 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 pub use background::Contrast;
+pub use geometry::{Embryo, Shape};
 pub use image::{Planes, load, load_mask};
-pub use outline::{Embryo, Shape};
 pub use read::{GeneReading, HeadCall, HeadRule, POLE_FRACTION, STRIP_FRACTION, Side};
 
 use background::{SMOOTH_PX, background_border, contrast_counts, decide_contrast, median_and_sd, signal, smooth, thin};
@@ -437,7 +438,7 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
         .regions
         .iter()
         .zip(&seg.edges)
-        .filter_map(|(r, edge)| outline::principal_axes(r, w).map(|e| (e, r, *edge)))
+        .filter_map(|(r, edge)| geometry::principal_axes(r, w).map(|e| (e, r, *edge)))
         .collect();
     candidates.sort_by(|(a, _, _), (b, _, _)| {
         let band = |e: &Embryo| (4.0 * e.cy / h as f64).floor();
@@ -463,16 +464,16 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
             skipped.push(skip("cut by the image edge: not measured".into(), true));
             continue;
         }
-        let shape = outline::shape(pixels, e, w, h);
-        if let Some(why) = outline::implausible(&shape, e) {
+        let shape = geometry::shape(pixels, e, w, h);
+        if let Some(why) = geometry::implausible(&shape, e) {
             skipped.push(skip(format!("refused: {why}"), false));
             continue;
         }
         // Something attached: near a pole it changes the length (refused);
         // on a side it barely moves the axis (flagged).
         let mut notes = Vec::new();
-        let (depth, at) = outline::deepest_dent(pixels, w, h);
-        if depth > outline::DENT_PX.max(outline::DENT_FRACTION * e.height()) {
+        let (depth, at) = geometry::deepest_dent(pixels, w, h);
+        if depth > geometry::DENT_PX.max(geometry::DENT_FRACTION * e.height()) {
             let along = ((at.0 - e.cx) * e.axis.0 + (at.1 - e.cy) * e.axis.1) / e.length();
             if along.abs() > 0.3 {
                 skipped.push(skip(
@@ -490,7 +491,7 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
                 at.0, at.1
             ));
         }
-        let [a, b] = match outline::place_poles(&o, w, e, *edge) {
+        let [a, b] = match geometry::place_poles(&o, w, e, *edge) {
             Ok(p) => p,
             Err(end) => {
                 skipped.push(skip(

@@ -16,6 +16,19 @@ use anlage::run_dir::RunDirError;
 use cli::{Cli, Command};
 
 fn main() -> ExitCode {
+    // A reader that stops early (`anlage … | head`) closes standard output:
+    // stop with exit 1 and say so, instead of a panic's backtrace.
+    let default_hook = std::panic::take_hook();
+    std::panic::set_hook(Box::new(move |info| {
+        let message = info.payload_as_str().unwrap_or("");
+        if message.contains("failed printing to stdout") {
+            eprintln!(
+                "anlage: standard output was closed before the command finished; stopped (outputs may be incomplete)"
+            );
+            std::process::exit(1);
+        }
+        default_hook(info);
+    }));
     let cli = Cli::parse();
     match run(&cli) {
         Ok(()) => ExitCode::SUCCESS,

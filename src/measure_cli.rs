@@ -25,22 +25,34 @@ fn planes_and_channels(
     outline: Option<&str>,
 ) -> anyhow::Result<(Planes, Vec<Channel>, Option<usize>)> {
     let mut planes = measure::load(image)?;
+    // A plane of the image (a number), or a file beside the image (FILE or FILE:PLANE).
     let plane_of = |what: &str, planes: &mut Planes| -> anyhow::Result<usize> {
-        match what.trim().parse::<usize>() {
-            Ok(k) => Ok(k),
-            Err(_) => {
-                let extra = measure::load(&image.with_file_name(what.trim()))?;
-                if (extra.width, extra.height) != (planes.width, planes.height) {
-                    bail!(measure::MeasureError::SizeMismatch {
-                        path: extra.path,
-                        got: (extra.width, extra.height),
-                        want: (planes.width, planes.height)
-                    });
-                }
-                planes.planes.push(extra.planes[0].clone());
-                Ok(planes.planes.len() - 1)
-            }
+        let what = what.trim();
+        if let Ok(k) = what.parse::<usize>() {
+            return Ok(k);
         }
+        let (file, pick) = match what.rsplit_once(':').map(|(f, k)| (f, k.parse::<usize>())) {
+            Some((f, Ok(k))) => (f, Some(k)),
+            _ => (what, None),
+        };
+        let extra = measure::load(&image.with_file_name(file))?;
+        if (extra.width, extra.height) != (planes.width, planes.height) {
+            bail!(measure::MeasureError::SizeMismatch {
+                path: extra.path,
+                got: (extra.width, extra.height),
+                want: (planes.width, planes.height)
+            });
+        }
+        let plane = match pick {
+            Some(k) => extra.planes.get(k).ok_or(measure::MeasureError::NoChannel {
+                path: extra.path.clone(),
+                index: k,
+                count: extra.planes.len(),
+            })?,
+            None => extra.single_plane()?,
+        };
+        planes.planes.push(plane.to_vec());
+        Ok(planes.planes.len() - 1)
     };
     let mut channels = Vec::new();
     for spec in specs {
@@ -50,6 +62,9 @@ fn planes_and_channels(
             bail!(bad_option("--channel", spec, "name the gene after the ="));
         }
         let plane = plane_of(what, &mut planes)?;
+        if channels.iter().any(|c: &Channel| c.gene == gene.trim()) {
+            bail!(bad_option("--channel", spec, "name each gene once (one plane per gene)"));
+        }
         channels.push(Channel { gene: gene.trim().to_string(), plane });
     }
     let outline = outline.map(|o| plane_of(o, &mut planes)).transpose()?;
@@ -121,6 +136,7 @@ fn measure_image(args: &MeasureArgs, path: &Path) -> anyhow::Result<ImageMeasure
     for s in &m.skipped {
         println!("  embryo {}: {}", s.number, s.reason);
     }
+    println!("  check picture: {}", check_path.display());
     if let Some(e) = m.none_measured(path) {
         bail!(e);
     }
@@ -138,13 +154,24 @@ pub fn measure_verb(args: &MeasureArgs) -> anyhow::Result<()> {
             .filter(|p| !stem_of(p).ends_with("_mask"))
             .collect();
         if v.is_empty() {
-            bail!(measure::MeasureError::Empty { path: image.to_path_buf() });
+            bail!(bad_option("IMAGE", &image.display().to_string(), "the folder holds no PNG or TIFF images"));
         }
         v
     } else {
         vec![image.to_path_buf()]
     };
     let when = batch::When::parse(args.time.as_deref());
+    if when.time_min.is_some_and(|t| t < 0.0) {
+        bail!(bad_option("--time", args.time.as_deref().unwrap_or(""), "give minutes >= 0, or a stage label"));
+    }
+    if let Some(o) = &args.out {
+        let image_like = o
+            .extension()
+            .is_some_and(|x| ["png", "tif", "tiff"].contains(&x.to_string_lossy().to_lowercase().as_str()));
+        if image_like || images.iter().any(|i| i == o) {
+            bail!(bad_option("--out", &o.display().to_string(), "name a .csv table; it must not be one of the images"));
+        }
+    }
     let (mut rows, mut profiles, mut names, mut failures) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
     for path in &images {
         match measure_image(args, path) {
@@ -222,15 +249,18 @@ pub fn compare_verb(
             .ok()
             .filter(|m: &f64| m.is_finite() && *m >= 0.0)
             .ok_or_else(|| bad_option("--stage", s, "write LABEL=MINUTES with a number of minutes >= 0"))?;
-        map.insert(label.trim().to_string(), min);
+        if map.insert(label.trim().to_string(), min).is_some() {
+            bail!(bad_option("--stage", s, "map each stage label once"));
+        }
     }
-    if !(sd_floor.is_finite() && sd_floor >= 0.0) {
-        bail!(bad_option("--sd-floor", &sd_floor.to_string(), "give a number >= 0, % of the length"));
+    if !(sd_floor.is_finite() && sd_floor > 0.0) {
+        bail!(bad_option("--sd-floor", &sd_floor.to_string(), "give a number > 0, % of the length"));
     }
     let saved = anlage::run_dir::load(run_dir)?;
     let rows = compare::read_measured(measured, &map, "--stage LABEL=MINUTES")?;
     let rec = &saved.recording;
     compare::check_genes(measured, &rows, &rec.genes)?;
+    compare::check_times(measured, &rows, &rec.times)?;
     let cmp = compare::compare(rec, &rows, sd_floor)?;
     let dir = out.clone().unwrap_or_else(|| run_dir.to_path_buf());
     std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;

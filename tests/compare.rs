@@ -134,3 +134,25 @@ fn issue_18_a_flipped_embryo_is_suspected() {
     let (_, out, _) = compare(&dir, &shifted, &[]);
     assert!(!out.contains("other way round"), "{out}");
 }
+
+/// Times after the run ends, a repeated stage, and a zero sd floor are
+/// refused (exit 2) instead of being compared at the last snapshot or giving
+/// z = ∞.
+#[test]
+fn issue_18_times_outside_the_run_and_a_zero_floor_are_refused() {
+    let dir = ribbon("cmp-times");
+    let late = table(&dir, "late.csv", "sample,time_min,gene,direction,position_pct\na,9999,amber,falling,47\n");
+    let (code, _, err) = compare(&dir, &late, &[]);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("late.csv:2: column `time_min` is `9999`; the run ends at 240 min"), "{err}");
+    let staged = table(&dir, "st.csv", "sample,stage,gene,direction,position_pct\na,st14,amber,falling,47\n");
+    let (code, _, err) = compare(&dir, &staged, &["--stage", "st14=1e6"]);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("column `stage` is `st14 (= 1000000 min)`"), "{err}");
+    let (code, _, err) = compare(&dir, &staged, &["--stage", "st14=100", "--stage", "st14=200"]);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("map each stage label once"), "{err}");
+    let (code, _, err) = compare(&dir, &staged, &["--stage", "st14=100", "--sd-floor", "0"]);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("give a number > 0"), "{err}");
+}

@@ -508,3 +508,29 @@ fn issue_18_padded_frame_is_not_an_embryo() {
     assert!((e.length_px - 400.0).abs() < 3.0, "{}", e.length_px);
     assert!((e.boundaries[0].position_pct - 38.0).abs() < 0.5, "{:?}", e.boundaries);
 }
+
+/// Doubtful pictures are flagged, not trusted: a stained band with no
+/// tissue visible (the outline may be the stain itself), a stain clipped at
+/// the top of the range, and a mask that does not lie on the embryo.
+#[test]
+fn issue_18_doubtful_pictures_are_flagged() {
+    let amber = [Channel { gene: "amber".into(), plane: 0 }];
+    let band = |x: f64, y: f64| along(x, y).map_or(0.05, |p| if (30.0..75.0).contains(&p) { 0.5 } else { 0.05 });
+    let e = one(&drawn(500, 300, &[&band]), &amber, HeadRule::Given(Side::Left)).unwrap();
+    assert!(e.flags().iter().any(|f| f.contains("the outline is the stain itself")), "{:?}", e.flags());
+    let clipped = |x: f64, y: f64| along(x, y).map_or(0.05, |p| if p < 40.0 { 1.2 } else { 0.3 });
+    let e = one(&drawn(500, 300, &[&clipped]), &amber, HeadRule::Given(Side::Left)).unwrap();
+    assert!(e.flags().iter().any(|f| f.contains("saturated")), "{:?}", e.flags());
+    let stain = |x: f64, y: f64| along(x, y).map_or(0.05, |p| if p < 40.0 { 0.6 } else { 0.3 });
+    let p = drawn(560, 300, &[&stain]);
+    let shifted: Vec<bool> =
+        (0..560 * 300).map(|i| along((i % 560) as f64 - 50.0, (i / 560) as f64).is_some()).collect();
+    let o = MeasureOptions { outline: Outline::Mask(shifted), ..opts(&amber, HeadRule::Given(Side::Left)) };
+    let m = measure::measure(&p, &o).unwrap();
+    assert!(m.embryos[0].flags().iter().any(|f| f.contains("beyond the mask")), "{:?}", m.embryos[0].flags());
+    let aligned: Vec<bool> = (0..560 * 300).map(|i| along((i % 560) as f64, (i / 560) as f64).is_some()).collect();
+    let o = MeasureOptions { outline: Outline::Mask(aligned), ..opts(&amber, HeadRule::Given(Side::Left)) };
+    let m = measure::measure(&p, &o).unwrap();
+    assert!(m.embryos[0].flags().is_empty(), "{:?}", m.embryos[0].flags());
+    assert!((m.embryos[0].boundaries[0].position_pct - 40.0).abs() < 0.5);
+}

@@ -15,7 +15,7 @@ use crate::integrate::{ReadBackError, Recording};
 use crate::readout::{Boundary, boundaries_at};
 use crate::screen::match_boundaries;
 
-pub use table::{CompareError, MeasuredRow, check_genes, read_measured};
+pub use table::{CompareError, MeasuredRow, check_genes, check_times, read_measured};
 
 /// The smallest sd taken at face value, % of the length (common practice, no
 /// source): boundary positions read from stained embryos are rarely
@@ -34,7 +34,7 @@ pub fn floored_sd(row: &MeasuredRow, floor: f64) -> Option<f64> {
 }
 
 /// One line of a comparison.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Default)]
 pub struct ComparisonRow {
     /// Sample.
     pub sample: String,

@@ -238,6 +238,33 @@ pub fn check_genes(path: &Path, rows: &[MeasuredRow], genes: &[String]) -> Resul
     }
 }
 
+/// Checks that every row's time lies within the run (`times`, the snapshot
+/// times in min): no later than half a snapshot interval after the last.
+///
+/// # Errors
+/// [`CompareError::BadValue`] for the first row that does not.
+pub fn check_times(path: &Path, rows: &[MeasuredRow], times: &[f64]) -> Result<(), CompareError> {
+    let last = times.last().copied().unwrap_or(0.0);
+    let every = if times.len() > 1 { times[1] - times[0] } else { 0.0 };
+    match rows.iter().find(|r| r.at_min.is_some_and(|t| t > last + 0.5 * every)) {
+        Some(r) => {
+            let t = r.at_min.unwrap_or(0.0);
+            let (column, value) = match (&r.time_min, &r.stage) {
+                (Some(_), _) | (None, None) => ("time_min", t.to_string()),
+                (None, Some(stage)) => ("stage", format!("{stage} (= {t} min)")),
+            };
+            Err(bad(
+                path,
+                r.line,
+                column,
+                &value,
+                &format!("the run ends at {last} min; give a time within it, or run the model longer"),
+            ))
+        }
+        None => Ok(()),
+    }
+}
+
 fn bad(path: &Path, line: usize, column: &str, value: &str, fix: &str) -> CompareError {
     CompareError::BadValue {
         path: path.to_path_buf(),

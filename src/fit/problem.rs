@@ -270,14 +270,14 @@ impl FitProblem {
         }
         let evaluations = spec.evaluations.unwrap_or(200 * params.len()).max(10);
         let sd_floor_pct = spec.sd_floor_pct.unwrap_or(crate::compare::DEFAULT_SD_FLOOR_PCT);
-        if !(sd_floor_pct.is_finite() && sd_floor_pct >= 0.0) {
+        if !(sd_floor_pct.is_finite() && sd_floor_pct > 0.0) {
             return Err(src
                 .invalid(
                     &span,
                     "sd_floor_pct",
                     "fit.sd_floor_pct".into(),
                     format!("is {sd_floor_pct}"),
-                    "give a number >= 0, % of the length",
+                    "give a number > 0, % of the length",
                 )
                 .into());
         }

@@ -92,7 +92,9 @@ pub const SAME_BOUNDARY_PCT: f64 = 5.0;
 /// have (k) sets k groups, whose centres are the mean positions over the
 /// embryos that have exactly k. Every boundary of every embryo joins the
 /// nearest group within [`SAME_BOUNDARY_PCT`]; one that is farther from all
-/// is left out and reported, and so is a group that some embryos lack.
+/// is left out and reported, and so is a group that some embryos lack, one
+/// whose positions spread over more than [`SAME_BOUNDARY_PCT`], and one with
+/// embryos whose head was assumed or weakly guessed (flag column).
 /// The sd is the sample sd (n − 1), empty for a single embryo.
 ///
 /// `embryos` names every embryo measured (some may have no boundary at all).
@@ -130,7 +132,7 @@ pub fn aggregate(rows: &[MeasuredRow], embryos: &[String], sample: &str) -> (Vec
         let reference: Vec<&Vec<f64>> = per.iter().filter(|(_, v)| v.len() == k).map(|(_, v)| v).collect();
         let centres: Vec<f64> =
             (0..k).map(|j| reference.iter().map(|v| v[j]).sum::<f64>() / reference.len() as f64).collect();
-        let mut groups: Vec<Vec<f64>> = vec![Vec::new(); k];
+        let mut groups: Vec<Vec<(f64, &str)>> = vec![Vec::new(); k];
         for (e, v) in &per {
             let mut taken = vec![false; k];
             for x in v {
@@ -140,7 +142,7 @@ pub fn aggregate(rows: &[MeasuredRow], embryos: &[String], sample: &str) -> (Vec
                 match nearest {
                     Some(j) => {
                         taken[j] = true;
-                        groups[j].push(*x);
+                        groups[j].push((*x, *e));
                     }
                     None => notes.push(format!(
                         "{e}: {gene} {direction} at {x:.2} % matches no boundary that most embryos have; left out of the means"
@@ -148,13 +150,32 @@ pub fn aggregate(rows: &[MeasuredRow], embryos: &[String], sample: &str) -> (Vec
                 }
             }
         }
-        for (j, g) in groups.iter().enumerate() {
+        for members in &groups {
+            let g: Vec<f64> = members.iter().map(|m| m.0).collect();
             let n = g.len() as f64;
             let mean = g.iter().sum::<f64>() / n;
             let sd = (g.len() > 1).then(|| (g.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt());
-            let flag = (g.len() < embryos.len()).then(|| format!("found in {} of {} embryos", g.len(), embryos.len()));
+            let mut flags = Vec::new();
+            if g.len() < embryos.len() {
+                flags.push(format!("found in {} of {} embryos", g.len(), embryos.len()));
+            }
+            let spread =
+                g.iter().copied().fold(f64::NEG_INFINITY, f64::max) - g.iter().copied().fold(f64::INFINITY, f64::min);
+            if spread > SAME_BOUNDARY_PCT {
+                flags.push(format!("spread over {spread:.1} % across embryos: check that it is one boundary"));
+            }
+            let unsure = members
+                .iter()
+                .filter(|m| {
+                    rows.iter().any(|r| r.sample == m.1 && r.flag.as_deref().is_some_and(|f| f.contains("head")))
+                })
+                .count();
+            if unsure > 0 {
+                flags.push(format!("head assumed or weakly guessed in {unsure} of them"));
+            }
+            let flag = (!flags.is_empty()).then(|| flags.join("; "));
             if let Some(f) = &flag {
-                notes.push(format!("{gene} {direction} near {:.1} %: {f}", centres[j]));
+                notes.push(format!("{gene} {direction} at {mean:.1} %: {f}"));
             }
             let first = rows.iter().find(|r| r.gene == gene);
             let res: Vec<f64> = rows.iter().filter_map(|r| r.resolution_pct).collect();
@@ -184,7 +205,7 @@ pub fn aggregate(rows: &[MeasuredRow], embryos: &[String], sample: &str) -> (Vec
 pub const PROFILE_STEP_PCT: f64 = 0.25;
 
 /// One sample of a measured profile.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Default)]
 pub struct ProfileRow {
     /// Sample.
     pub sample: String,

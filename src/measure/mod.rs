@@ -21,6 +21,7 @@
 
 pub mod background;
 pub mod batch;
+pub mod checks;
 pub mod frame;
 pub mod geometry;
 pub mod image;
@@ -51,6 +52,20 @@ pub enum MeasureError {
         path: PathBuf,
         /// Decoder's reason.
         reason: String,
+    },
+    /// Too many pixels to measure.
+    #[error(
+        "{}: is {width}×{height} px, more than the {} megapixels measure reads; crop or bin the image first",
+        path.display(),
+        image::MAX_PIXELS / 1_000_000
+    )]
+    TooLarge {
+        /// File.
+        path: PathBuf,
+        /// Width, px.
+        width: usize,
+        /// Height, px.
+        height: usize,
     },
     /// No pixels.
     #[error("{}: the image is empty", path.display())]
@@ -85,6 +100,17 @@ pub enum MeasureError {
         got: (usize, usize),
         /// Expected.
         want: (usize, usize),
+    },
+    /// A file given for one channel holds several different planes.
+    #[error(
+        "{}: has {count} colour planes that differ, so which one is the channel is unclear; give a single-plane (grey) file, or pick a plane with FILE:PLANE=gene (planes numbered from 0)",
+        path.display()
+    )]
+    ManyPlanes {
+        /// File.
+        path: PathBuf,
+        /// Planes in it.
+        count: usize,
     },
     /// The stain's contrast could not be told.
     #[error(
@@ -421,6 +447,11 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
             set = thin(away, FIT_PIXELS);
         }
     }
+    if matches!(contrast, Contrast::Dark)
+        && let Some(why) = checks::clipped_background(image, &set, step)
+    {
+        return Err(no(why));
+    }
     if let Some(ratio) = uneven {
         return Err(no(format!(
             "the background is uneven on a scale its fitted surface does not follow (smoothed over 10 px, what is \
@@ -523,6 +554,12 @@ pub fn measure(planes: &Planes, opts: &MeasureOptions) -> Result<ImageMeasuremen
         let genes: Vec<GeneReading> =
             opts.channels.iter().map(|c| read::read_gene(&c.gene, sample(c.plane, from, to))).collect();
         let boundaries = genes.iter().flat_map(|g| g.boundaries.iter().cloned()).collect();
+        notes.extend(checks::saturated(image, pixels, &opts.channels, contrast, step));
+        match &opts.outline {
+            Outline::Mask(_) => notes.extend(checks::beyond_mask(&signals, w, pixels, (e.cx, e.cy))),
+            Outline::AllPlanes => notes.extend(checks::maybe_the_stain(&genes)),
+            Outline::Plane(_) => {}
+        }
         embryos.push(EmbryoMeasurement {
             number,
             embryo: *e,

@@ -24,6 +24,10 @@ pub enum Command {
         /// Model file (TOML); not needed with --resume.
         #[arg(required_unless_present = "resume")]
         model: Option<PathBuf>,
+        /// The level that defines a gene's boundaries, GENE=max:F (fraction of its maximum),
+        /// GENE=level:A (a.u.) or GENE=capacity:F (fraction of p/d); GENE `*` for every gene (repeatable).
+        #[arg(long = "boundary-level", value_name = "GENE=SPEC", conflicts_with = "resume")]
+        boundary_levels: Vec<String>,
         /// Output folder (default: `<model name>_run` next to the model file).
         #[arg(short, long)]
         out: Option<PathBuf>,

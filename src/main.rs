@@ -95,6 +95,7 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
         }
         Command::Run {
             model: path,
+            boundary_levels,
             out,
             threads,
             quiet,
@@ -130,7 +131,15 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
                 }
                 None => {
                     let path = path.as_ref().expect("clap requires MODEL without --resume");
-                    (Model::load(path)?, None, out.clone().unwrap_or_else(|| default_out(path)))
+                    let mut model = Model::load(path)?;
+                    for spec in boundary_levels {
+                        model.set_boundary_level(spec).map_err(|fix| StyleError::OutOfRange {
+                            option: "--boundary-level".into(),
+                            value: spec.clone(),
+                            fix,
+                        })?;
+                    }
+                    (model, None, out.clone().unwrap_or_else(|| default_out(path)))
                 }
             };
             let style_options = look.options();

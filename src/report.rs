@@ -135,8 +135,10 @@ pub fn describe(m: &Model) -> String {
         };
         let _ = writeln!(
             s,
-            "  {:<12} {law}, diffusion {} µm²/min, colour #{r:02x}{gg:02x}{b:02x}",
-            gene.name, gene.diffusion
+            "  {:<12} {law}, diffusion {} µm²/min, colour #{r:02x}{gg:02x}{b:02x}, boundaries at {}",
+            gene.name,
+            gene.diffusion,
+            gene.boundary.describe()
         );
     }
 

@@ -41,6 +41,9 @@ struct SummaryIn {
     colors: Vec<String>,
     snapshot_times_min: Vec<f64>,
     expression_floor: Vec<f64>,
+    /// Absent from runs written before boundary levels could be chosen: half maximum.
+    #[serde(default)]
+    boundary_levels: Option<Vec<crate::model::Level>>,
 }
 
 /// A run read back from its folder.
@@ -79,6 +82,10 @@ pub fn load(dir: &Path) -> Result<SavedRun, RunDirError> {
     if colors.len() != s.genes.len() || s.expression_floor.len() != s.genes.len() {
         return Err(bad(&summary_path, "one colour and one expression floor per gene expected".into()));
     }
+    let levels = s.boundary_levels.clone().unwrap_or_else(|| vec![crate::model::Level::HALF_MAX; s.genes.len()]);
+    if levels.len() != s.genes.len() {
+        return Err(bad(&summary_path, "one boundary level per gene expected".into()));
+    }
     let npy_path = dir.join("states.npy");
     let file = File::open(&npy_path).map_err(|source| RunDirError::Read { path: npy_path.clone(), source })?;
     let all = ArrayD::<f64>::read_npy(file).map_err(|e| bad(&npy_path, e.to_string()))?;
@@ -96,6 +103,7 @@ pub fn load(dir: &Path) -> Result<SavedRun, RunDirError> {
         .map_err(|e| bad(&npy_path, e.to_string()))?;
     Ok(SavedRun {
         title: s.title,
-        recording: Recording::with_states(grid, s.genes, colors, s.snapshot_times_min, states, s.expression_floor),
+        recording: Recording::with_states(grid, s.genes, colors, s.snapshot_times_min, states, s.expression_floor)
+            .with_levels(levels),
     })
 }

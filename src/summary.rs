@@ -30,6 +30,8 @@ pub struct Summary {
     pub snapshot_times_min: Vec<f64>,
     /// Per gene, the level below which it counts as not expressed (no boundaries), a.u.
     pub expression_floor: Vec<f64>,
+    /// Per gene, the level that defines its boundaries: `{"fraction_of_max": f}` or `{"absolute": a.u.}`.
+    pub boundary_levels: Vec<crate::model::Level>,
     /// Axis length, µm.
     pub axis_length_um: f64,
     /// Gene names in state order.
@@ -90,6 +92,7 @@ impl Summary {
             colors: rec.colors.iter().map(|[r, g, b]| format!("#{r:02x}{g:02x}{b:02x}")).collect(),
             snapshot_times_min: rec.times.clone(),
             expression_floor: rec.floor.clone(),
+            boundary_levels: rec.levels.clone(),
             axis_length_um: model.grid.length_um(),
             genes: rec.genes.clone(),
             stepping: stepping_text(&model.clock),

@@ -213,3 +213,41 @@ fn issue_19_mutants_of_rate_law_genes() {
     let err = french_flag().parse_mutant(r#"{ name = "d", scale = { "flag.bias" = 2.0 } }"#).unwrap_err().to_string();
     assert!(err.contains("bias belongs to sigmoid kinetics"), "{err}");
 }
+
+/// Issue 19, item 4: the level that defines a boundary can be chosen. A
+/// read-out gene (Hill, n = 4, K = 0.5) of an exponential gradient (peak 1,
+/// λ = 50 µm) doubled in amplitude: read at half of its capacity p/d — where the
+/// Hill term is ½, i.e. m = K — its boundary moves by exactly λ ln 2 = 34.66
+/// µm (Wolpert 1969; x* = λ ln(peak/K)). Read at half of its own maximum
+/// (the default) it moves less, because that maximum grows with the dose too.
+#[test]
+fn issue_19_boundary_levels_threshold_readout() {
+    let text = |level: &str| {
+        format!(
+            "title = \"read-out\"\n[tissue]\nnuclei = [600]\nspacing_um = 1.0\n\
+             [clock]\nuntil_min = 60.0\ntolerance = 1e-9\nsnapshot_every_min = 60.0\n\
+             [[gradient]]\nname = \"morphogen\"\nshape = \"exponential\"\nfrom = \"left\"\npeak = 1.0\ndecay_length_um = 50.0\n\
+             [[gene]]\nname = \"flag\"\nproduction = 1.0\ndecay = 1.0\n{level}\n\
+             [circuit]\nkinetics = \"hill\"\n\
+             [[circuit.link]]\nfrom = \"morphogen\"\nto = \"flag\"\nsign = \"+\"\nthreshold = 0.5\nhill = 4\n"
+        )
+    };
+    let shift = |model: &Model| {
+        let s = run_screen(model, &[peak_times(2.0)], true).unwrap();
+        s.shifts[0][0].shift_um.unwrap()
+    };
+    let by_capacity = parse(&text("boundary_level = { of_capacity = 0.5 }"));
+    let wt = final_boundaries(&by_capacity).unwrap();
+    assert_relative_eq!(wt[0].position_um, 50.0 * 2f64.ln(), max_relative = 5e-3);
+    assert_relative_eq!(shift(&by_capacity), 50.0 * 2f64.ln(), max_relative = 5e-3);
+    let half_max = shift(&parse(&text("")));
+    assert!((half_max - 50.0 * 2f64.ln()).abs() > 0.5, "{half_max}");
+    // The same level set from outside (as `run --boundary-level flag=capacity:0.5` does).
+    let mut by_option = parse(&text(""));
+    by_option.set_boundary_level("flag=capacity:0.5").unwrap();
+    assert_relative_eq!(shift(&by_option), shift(&by_capacity), max_relative = 1e-12);
+    let mut absolute = parse(&text(""));
+    absolute.set_boundary_level("*=level:0.5").unwrap();
+    assert_relative_eq!(shift(&absolute), 50.0 * 2f64.ln(), max_relative = 5e-3);
+    assert!(parse(&text("")).set_boundary_level("plum=max:0.3").unwrap_err().contains("no gene `plum`"));
+}

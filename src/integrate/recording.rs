@@ -35,6 +35,9 @@ pub struct Recording {
     /// (no boundaries or domains are read), a.u.: [`EXPRESSION_FLOOR`] × its
     /// capacity p/d; 0 where there is no capacity (no decay).
     pub floor: Vec<f64>,
+    /// Per gene, the level that defines its boundaries and domains (half of
+    /// its maximum unless the model says otherwise).
+    pub levels: Vec<crate::readout::Level>,
 }
 
 #[derive(Debug)]
@@ -118,6 +121,13 @@ impl Recording {
                 .map(|g| if g.decay > 0.0 { EXPRESSION_FLOOR * g.production / g.decay } else { 0.0 })
                 .collect(),
         )
+        .with_levels(model.genes.iter().map(|g| g.boundary).collect())
+    }
+
+    /// The same recording with these boundary levels (one per gene).
+    pub fn with_levels(mut self, levels: Vec<crate::readout::Level>) -> Recording {
+        self.levels = levels;
+        self
     }
 
     /// A recording of given states (one per time), held in memory.
@@ -129,7 +139,8 @@ impl Recording {
         states: Vec<Array2<f64>>,
         floor: Vec<f64>,
     ) -> Recording {
-        Recording { grid, genes, colors, times, store: Store::Memory(states), floor }
+        let levels = vec![crate::readout::Level::HALF_MAX; genes.len()];
+        Recording { grid, genes, colors, times, store: Store::Memory(states), floor, levels }
     }
 
     /// Streams the snapshots to come to an unnamed scratch file in `dir`

@@ -5,6 +5,7 @@
 //! right sign, and the clock fits the snapshots.
 
 mod error;
+mod level;
 mod mutant;
 mod param;
 mod source;
@@ -15,6 +16,7 @@ mod validate_circuit;
 use std::path::{Path, PathBuf};
 
 pub use error::ModelError;
+pub use level::{BLANK, Level};
 pub use mutant::{Ectopic, Edit, Mutant};
 pub use param::{GeneParam, GradientParam, LinkParam, Param, names_in};
 pub use source::Source;
@@ -379,6 +381,8 @@ pub struct Gene {
     pub bias: f64,
     /// Rate expression replacing the circuit's rate law for this gene (checked).
     pub rate: Option<String>,
+    /// The level that defines its boundaries and domains (default half of its maximum).
+    pub boundary: Level,
 }
 
 /// What regulates a link.

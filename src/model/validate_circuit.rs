@@ -6,7 +6,8 @@ use std::ops::Range;
 
 use toml::Spanned;
 
-use super::spec::{GeneSpec, LinkSpec};
+use super::Level;
+use super::spec::{BoundaryLevelSpec, GeneSpec, LinkSpec};
 use super::validate::{Checker, PALETTE};
 use super::{
     Circuit, Combine, Gene, Gradient, Grid, Initial, KineticsKind, Link, LinkEffect, ModelError, Regulator, Source,
@@ -94,6 +95,7 @@ pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Sou
         }
     };
     let bias = c.finite("bias", spec.bias.unwrap_or(0.0))?;
+    let boundary = boundary_level(&c, spec, production, decay)?;
     Ok(Gene {
         name: spec.name.clone(),
         color,
@@ -105,7 +107,34 @@ pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Sou
         combine,
         bias,
         rate: spec.rate.clone(),
+        boundary,
     })
+}
+
+/// The gene's boundary level, checked; a fraction of capacity becomes the
+/// absolute level f·p/d.
+fn boundary_level(c: &Checker, spec: &GeneSpec, production: f64, decay: f64) -> Result<Level, ModelError> {
+    let key = "boundary_level";
+    let fix = "write a fraction of the maximum (0 < f < 1), { absolute = LEVEL } or { of_capacity = f }";
+    match &spec.boundary_level {
+        None => Ok(Level::HALF_MAX),
+        Some(BoundaryLevelSpec::Fraction(f)) if f.is_finite() && *f > 0.0 && *f < 1.0 => Ok(Level::FractionOfMax(*f)),
+        Some(BoundaryLevelSpec::Fraction(f)) => Err(c.fail(key, format!("is {f}"), fix)),
+        Some(BoundaryLevelSpec::Table(t)) => match (t.absolute, t.of_capacity) {
+            (Some(v), None) if v.is_finite() && v > 0.0 => Ok(Level::Absolute(v)),
+            (None, Some(f)) if f.is_finite() && f > 0.0 && f <= 1.0 => {
+                if spec.rate.is_some() || !(production > 0.0 && decay > 0.0) {
+                    return Err(c.fail(
+                        key,
+                        "asks for a fraction of the capacity p/d, which this gene does not have".into(),
+                        "give { absolute = LEVEL } instead (a gene with a rate expression or no decay has no capacity)",
+                    ));
+                }
+                Ok(Level::Absolute(f * production / decay))
+            }
+            (a, f) => Err(c.fail(key, format!("has absolute = {a:?}, of_capacity = {f:?}"), fix)),
+        },
+    }
 }
 
 /// Parses `#rrggbb`.

@@ -1,7 +1,9 @@
 //! Readouts from a [`Recording`]: boundaries and domains along the axis.
 //!
-//! A boundary is where a gene's profile crosses half of its maximum (at that
-//! snapshot), located between nuclei by linear interpolation. On a sheet the
+//! A boundary is where a gene's profile crosses its boundary level (by
+//! default half of its maximum at that snapshot; a model can set another
+//! fraction of the maximum, an absolute level, or a fraction of the gene's
+//! capacity p/d), located between nuclei by linear interpolation. On a sheet the
 //! profile is the mean over a central strip of rows (see
 //! [`Recording::midline_rows`]). Positions are reported in
 //! µm from the left edge and in % of the axis length L = nx·h (the trade's
@@ -9,7 +11,7 @@
 
 mod profile;
 
-pub use profile::{Crossing, Span, profile_boundaries, profile_domains};
+pub use profile::{Crossing, Level, Span, boundaries_at_level, domains_at_level, profile_boundaries, profile_domains};
 
 use serde::Serialize;
 
@@ -63,7 +65,7 @@ fn per_gene<F, T>(
     rec: &Recording,
     s: usize,
     profiles: &[Vec<f64>],
-    read: impl Fn(&[f64], f64, bool) -> Vec<F>,
+    read: impl Fn(&[f64], Level, f64, bool) -> Vec<F>,
     make: impl Fn(f64, &str, F, f64) -> T,
 ) -> Vec<T> {
     let grid = &rec.grid;
@@ -73,7 +75,8 @@ fn per_gene<F, T>(
         if profile.iter().copied().fold(f64::NEG_INFINITY, f64::max) < rec.floor.get(g).copied().unwrap_or(0.0) {
             continue; // not expressed
         }
-        for found in read(profile, grid.spacing_um, periodic) {
+        let at = rec.levels.get(g).copied().unwrap_or_default();
+        for found in read(profile, at, grid.spacing_um, periodic) {
             out.push(make(rec.times[s], name, found, grid.length_um()));
         }
     }
@@ -105,7 +108,7 @@ pub fn final_boundaries(rec: &Recording) -> Vec<Boundary> {
 
 /// Boundaries of every gene in `profiles`, snapshot `s`.
 fn boundaries_in(rec: &Recording, s: usize, profiles: &[Vec<f64>]) -> Vec<Boundary> {
-    per_gene(rec, s, profiles, profile_boundaries, |time_min, gene, c: Crossing, length| Boundary {
+    per_gene(rec, s, profiles, boundaries_at_level, |time_min, gene, c: Crossing, length| Boundary {
         time_min,
         gene: gene.to_string(),
         direction: if c.rising { "rising" } else { "falling" },
@@ -131,7 +134,7 @@ pub fn final_domains(rec: &Recording) -> Vec<Domain> {
 
 /// Domains of every gene in `profiles`, snapshot `s`.
 fn domains_in(rec: &Recording, s: usize, profiles: &[Vec<f64>]) -> Vec<Domain> {
-    per_gene(rec, s, profiles, profile_domains, |time_min, gene, d: Span, length| Domain {
+    per_gene(rec, s, profiles, domains_at_level, |time_min, gene, d: Span, length| Domain {
         time_min,
         gene: gene.to_string(),
         start_um: d.start_um,

@@ -4,8 +4,7 @@
 //! "high" when p_i ≥ θ. A crossing between i and i+1 lies at
 //! `x_i + h·(θ − p_i)/(p_{i+1} − p_i)`.
 
-/// Below this maximum a profile is treated as blank (no boundaries), a.u.
-pub const BLANK: f64 = 1e-9;
+pub use crate::model::Level;
 
 /// One half-maximum crossing.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -31,9 +30,9 @@ pub struct Span {
     pub width_um: f64,
 }
 
-fn level(profile: &[f64]) -> Option<f64> {
+fn level(profile: &[f64], at: Level) -> Option<(f64, f64)> {
     let max = profile.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-    (max.is_finite() && max > BLANK).then_some(0.5 * max)
+    at.threshold(max).map(|theta| (theta, max))
 }
 
 /// Position where the segment i → i+1 (indices mod n) crosses `theta`, µm.
@@ -45,10 +44,14 @@ fn cross_at(profile: &[f64], i: usize, theta: f64, h: f64) -> f64 {
 
 /// Every half-maximum crossing of `profile` (spacing `h` µm).
 pub fn profile_boundaries(profile: &[f64], h: f64, periodic: bool) -> Vec<Crossing> {
-    let Some(theta) = level(profile) else {
+    boundaries_at_level(profile, Level::HALF_MAX, h, periodic)
+}
+
+/// Every crossing of `profile` (spacing `h` µm) through the level `at`.
+pub fn boundaries_at_level(profile: &[f64], at: Level, h: f64, periodic: bool) -> Vec<Crossing> {
+    let Some((theta, max)) = level(profile, at) else {
         return Vec::new();
     };
-    let max = 2.0 * theta;
     let n = profile.len();
     let segments = if periodic { n } else { n - 1 };
     let mut out = Vec::new();
@@ -70,7 +73,12 @@ pub fn profile_boundaries(profile: &[f64], h: f64, periodic: bool) -> Vec<Crossi
 
 /// Every run of nuclei at or above half maximum.
 pub fn profile_domains(profile: &[f64], h: f64, periodic: bool) -> Vec<Span> {
-    let Some(theta) = level(profile) else {
+    domains_at_level(profile, Level::HALF_MAX, h, periodic)
+}
+
+/// Every run of nuclei at or above the level `at`.
+pub fn domains_at_level(profile: &[f64], at: Level, h: f64, periodic: bool) -> Vec<Span> {
+    let Some((theta, _)) = level(profile, at) else {
         return Vec::new();
     };
     let n = profile.len();

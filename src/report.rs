@@ -273,21 +273,23 @@ pub fn screen(s: &anlage::screen::Screen, dir: &Path) -> String {
     let _ = writeln!(out, "{} mutants screened (model predictions)", s.mutants.len());
     let _ = writeln!(
         out,
-        "  {:<28} {:<10} {:<8} {:>8} {:>8} {:>8}  status",
-        "mutant", "gene", "dir", "wt %", "mut %", "shift"
+        "  {:<28} {:<10} {:<8} {:>8} {:>8} {:>8} {:>9}  status",
+        "mutant", "gene", "dir", "wt %", "mut %", "shift %", "shift µm"
     );
     let pct = |v: Option<f64>| v.map_or_else(|| "-".to_string(), |x| format!("{x:.2}"));
     for r in rows.iter().take(40) {
         let _ = writeln!(
             out,
-            "  {:<28} {:<10} {:<8} {:>8} {:>8} {:>8}  {}",
+            "  {:<28} {:<10} {:<8} {:>8} {:>8} {:>8} {:>9}  {}{}",
             r.mutant,
             r.gene,
             r.direction,
             pct(r.wild_type_pct),
             pct(r.mutant_pct),
             pct(r.shift_pct),
-            r.status
+            pct(r.shift_um),
+            r.status,
+            r.reason.as_ref().map_or_else(String::new, |why| format!(": {why}"))
         );
     }
     if rows.len() > 40 {

@@ -90,15 +90,16 @@ fn knock_outs_remove_or_keep_boundaries() {
     let s = run_screen(&with_bystander, &screen::families(&with_bystander, true, false, false), false).unwrap();
     let ko = |name: &str| &s.shifts[s.mutants.iter().position(|m| m == name).unwrap()];
     let amber_ko = ko("ko:amber");
-    assert!(amber_ko.iter().filter(|r| r.gene != "jade").all(|r| r.status == "lost"), "{amber_ko:#?}");
+    let gone = [screen::outcome::GENE_LOST, screen::outcome::GENE_FILLS];
+    assert!(amber_ko.iter().filter(|r| r.gene != "jade").all(|r| gone.contains(&r.status.as_str())), "{amber_ko:#?}");
     let jade_ko = ko("ko:jade");
     // Unchanged to within the integration error: with error-controlled steps
     // the knocked-out gene changes the step sequence, so not bit for bit.
     for r in jade_ko.iter().filter(|r| r.gene != "jade") {
-        assert_eq!(r.status, "moved", "{r:?}");
+        assert_eq!(r.status, screen::outcome::UNCHANGED, "{r:?}");
         assert!(r.shift_um.unwrap().abs() < 1e-6, "{r:?}");
     }
-    assert!(jade_ko.iter().any(|r| r.gene == "jade" && r.status == "lost"));
+    assert!(jade_ko.iter().any(|r| r.gene == "jade" && r.status == screen::outcome::GENE_LOST));
 }
 
 /// Ectopic amber in the tail (70–90 % of the axis, at a rate that keeps it
@@ -115,12 +116,12 @@ fn ectopic_expression_gains_a_stripe() {
     let s = run_screen(&ribbon, &[m], false).unwrap();
     let gained: Vec<f64> = s.shifts[0]
         .iter()
-        .filter(|r| r.status == "gained" && r.gene == "amber")
+        .filter(|r| r.status == screen::outcome::NEW && r.gene == "amber")
         .map(|r| r.mutant_pct.unwrap())
         .collect();
     assert_eq!(gained.len(), 2, "{:#?}", s.shifts[0]);
     assert!((gained[0] - 70.0).abs() < 3.0 && (gained[1] - 90.0).abs() < 3.0, "{gained:?}");
-    let head = s.shifts[0].iter().find(|r| r.gene == "amber" && r.status == "moved").unwrap();
+    let head = s.shifts[0].iter().find(|r| r.gene == "amber" && r.wild_type_pct.is_some()).unwrap();
     assert!(head.shift_pct.unwrap().abs() < 1.0, "{head:?}");
 }
 
@@ -129,7 +130,7 @@ fn ectopic_expression_gains_a_stripe() {
 fn parallel_and_serial_screens_agree() {
     let ribbon = load("patterns/ribbon.toml");
     let fam = screen::families(&ribbon, true, true, true);
-    assert_eq!(fam.len(), 2 + 3 + 4);
+    assert_eq!(fam.len(), 2 + 3 + 2 * 2 + 4);
     let a = run_screen(&ribbon, &fam, true).unwrap();
     let b = run_screen(&ribbon, &fam, false).unwrap();
     assert_eq!(a.shifts, b.shifts);
@@ -250,4 +251,33 @@ fn issue_19_boundary_levels_threshold_readout() {
     absolute.set_boundary_level("*=level:0.5").unwrap();
     assert_relative_eq!(shift(&absolute), 50.0 * 2f64.ln(), max_relative = 5e-3);
     assert!(parse(&text("")).set_boundary_level("plum=max:0.3").unwrap_err().contains("no gene `plum`"));
+}
+
+/// Issue 19, item 5: screen outcomes say what happened. On the ribbon a
+/// knock-out of amber loses amber everywhere and lets cobalt fill the
+/// embryo (not two identical "lost"); ectopic amber in the tail leaves the
+/// head boundary unchanged (not "moved 0.00") and makes new boundaries;
+/// a mutant whose run fails says so, with the reason in its own column.
+#[test]
+fn issue_19_screen_outcomes_in_words() {
+    let ribbon = load("patterns/ribbon.toml");
+    let ko = screen::families(&ribbon, true, false, false);
+    let s = run_screen(&ribbon, &ko, true).unwrap();
+    let status = |m: usize, gene: &str| s.shifts[m].iter().find(|r| r.gene == gene).unwrap().status.clone();
+    assert_eq!(status(0, "amber"), screen::outcome::GENE_LOST);
+    assert_eq!(status(0, "cobalt"), screen::outcome::GENE_FILLS);
+    let tail = ribbon.mutants.iter().find(|m| m.name == "amber in the tail").unwrap().clone();
+    let s = run_screen(&ribbon, &[tail], true).unwrap();
+    assert!(s.shifts[0].iter().filter(|r| r.wild_type_pct.is_some()).all(|r| r.status == screen::outcome::UNCHANGED));
+    assert!(s.shifts[0].iter().any(|r| r.status == screen::outcome::NEW));
+    // Fixed steps of 0.05 min, and a mutant whose amber decays 1000 times faster: the step is unsafe.
+    let mut fixed = ribbon.clone();
+    fixed.clock.stepping = anlage::model::Stepping::Fixed { step_min: 0.05 };
+    let fast = fixed.parse_mutant(r#"{ name = "fast", scale = { "amber.decay" = 1000.0 } }"#).unwrap();
+    let s = run_screen(&fixed, &[fast], true).unwrap();
+    assert_eq!(s.shifts[0][0].status, screen::outcome::FAILED);
+    assert!(s.shifts[0][0].reason.as_deref().unwrap().contains("too long for this model"), "{:?}", s.shifts[0][0]);
+    // Dosage covers genes as well as gradients.
+    let names: Vec<String> = screen::families(&ribbon, false, false, true).iter().map(|m| m.name.clone()).collect();
+    assert!(names.contains(&"amber.production x0.5".to_string()) && names.contains(&"head.peak x2".to_string()));
 }

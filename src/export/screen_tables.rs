@@ -6,31 +6,14 @@ use super::{ExportError, opt, write_atomic};
 use crate::screen::{Screen, SensitivityRow};
 
 /// `shifts.csv`: `mutant, gene, direction, wild_type_um, wild_type_pct,
-/// mutant_um, mutant_pct, shift_um, shift_pct, status` (moved, lost, gained, failed: …).
+/// mutant_um, mutant_pct, shift_um, shift_pct, status, reason` (status: see
+/// [`crate::screen::outcome`]; reason: why a mutant failed).
 ///
 /// # Errors
 /// [`ExportError`] if the file cannot be written.
 pub fn write_shifts(s: &Screen, path: &Path) -> Result<(), ExportError> {
-    write_atomic(path, |w| {
-        writeln!(w, "mutant,gene,direction,wild_type_um,wild_type_pct,mutant_um,mutant_pct,shift_um,shift_pct,status")?;
-        for r in s.shifts.iter().flatten() {
-            writeln!(
-                w,
-                "{},{},{},{},{},{},{},{},{},{}",
-                quote(&r.mutant),
-                r.gene,
-                r.direction,
-                opt(r.wild_type_um),
-                opt(r.wild_type_pct),
-                opt(r.mutant_um),
-                opt(r.mutant_pct),
-                opt(r.shift_um),
-                opt(r.shift_pct),
-                quote(&r.status)
-            )?;
-        }
-        Ok(())
-    })
+    let rows: Vec<crate::screen::Shift> = s.shifts.iter().flatten().cloned().collect();
+    super::write_rows(&rows, path)
 }
 
 /// `sensitivity.csv`: `parameter, value, gene, direction, position_pct,
@@ -57,9 +40,4 @@ pub fn write_sensitivity(rows: &[SensitivityRow], path: &Path) -> Result<(), Exp
         }
         Ok(())
     })
-}
-
-/// CSV field: quoted when it holds a comma or quote.
-fn quote(s: &str) -> String {
-    if s.contains([',', '"', '\n']) { format!("\"{}\"", s.replace('"', "\"\"")) } else { s.to_string() }
 }

@@ -48,7 +48,7 @@ pub fn same_time(a: f64, b: f64) -> bool {
 }
 
 /// How one boundary moved in a mutant.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Default)]
 pub struct Shift {
     /// Mutant name.
     pub mutant: String,
@@ -68,8 +68,97 @@ pub struct Shift {
     pub shift_um: Option<f64>,
     /// Mutant − wild type, % of axis length.
     pub shift_pct: Option<f64>,
-    /// "moved" (matched), "lost", "gained", or "failed: …".
+    /// What happened: see [`Outcome`] (as its words); "moved", "lost" and
+    /// "gained" straight from [`match_boundaries`].
     pub status: String,
+    /// Why a mutant failed (status "failed").
+    pub reason: Option<String>,
+}
+
+/// A boundary whose shift is smaller than this, % of the axis length, is
+/// "unchanged": it rounds to 0.00 % in the tables (common practice, no source).
+pub const UNCHANGED_PCT: f64 = 0.005;
+
+/// What a mutant did to one boundary, in words for the tables.
+pub mod outcome {
+    /// Matched, moved by at least [`super::UNCHANGED_PCT`].
+    pub const MOVED: &str = "moved";
+    /// Matched, moved by less than [`super::UNCHANGED_PCT`].
+    pub const UNCHANGED: &str = "unchanged";
+    /// The gene is below its expression floor everywhere.
+    pub const GENE_LOST: &str = "gene lost everywhere";
+    /// The gene is above its boundary level everywhere.
+    pub const GENE_FILLS: &str = "gene expanded to fill";
+    /// The gene keeps a pattern, but not this boundary.
+    pub const BOUNDARY_LOST: &str = "boundary lost";
+    /// A boundary the wild type does not have.
+    pub const NEW: &str = "new boundary";
+    /// The mutant's run failed (see the reason).
+    pub const FAILED: &str = "failed";
+}
+
+/// How a gene ends up in a run.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum GeneState {
+    /// Below its expression floor everywhere.
+    NotExpressed,
+    /// At or above its boundary level everywhere.
+    Everywhere,
+    /// Crosses its level somewhere.
+    Patterned,
+}
+
+/// Boundaries and per-gene states of a model's final state (one thread,
+/// only the last snapshot kept).
+///
+/// # Errors
+/// [`StepError`] if the run fails.
+pub fn final_outcome(model: &Model) -> Result<(Vec<Boundary>, Vec<GeneState>), StepError> {
+    let tissue = crate::tissue::Tissue::new(model);
+    let kinetics = crate::kinetics::build(model);
+    let mut rec = Recording::for_model(model);
+    let until = model.clock.until_min;
+    integrate::integrate(model, kinetics.as_ref(), &tissue, false, |t, state| {
+        if same_time(until, t) {
+            let _ = rec.push(t, state);
+        }
+    })?;
+    let last = rec.times.len() - 1;
+    let profiles = rec.axis_profiles(last, 0..rec.genes.len())?;
+    let states = profiles
+        .iter()
+        .enumerate()
+        .map(|(g, p)| {
+            let max = p.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+            let min = p.iter().copied().fold(f64::INFINITY, f64::min);
+            match rec.levels[g].threshold(max) {
+                _ if max < rec.floor[g] => GeneState::NotExpressed,
+                None => GeneState::NotExpressed,
+                Some(theta) if min >= theta => GeneState::Everywhere,
+                Some(_) => GeneState::Patterned,
+            }
+        })
+        .collect();
+    Ok((boundaries_at(&rec, last)?, states))
+}
+
+/// Renames the raw statuses of [`match_boundaries`] by what happened:
+/// unchanged or moved; for a lost boundary, whether its gene vanished, filled
+/// the tissue or only lost that boundary; gained as new.
+pub fn describe_outcomes(shifts: &mut [Shift], genes: &[String], states: &[GeneState]) {
+    for sh in shifts {
+        let state = genes.iter().position(|g| g == &sh.gene).and_then(|g| states.get(g)).copied();
+        sh.status = match (sh.status.as_str(), state) {
+            ("moved", _) if sh.shift_pct.is_some_and(|d| d.abs() < UNCHANGED_PCT) => outcome::UNCHANGED,
+            ("moved", _) => outcome::MOVED,
+            ("lost", Some(GeneState::NotExpressed)) => outcome::GENE_LOST,
+            ("lost", Some(GeneState::Everywhere)) => outcome::GENE_FILLS,
+            ("lost", _) => outcome::BOUNDARY_LOST,
+            ("gained", _) => outcome::NEW,
+            (other, _) => other,
+        }
+        .to_string();
+    }
 }
 
 /// Pairs mutant boundaries with wild-type ones of the same gene and direction,
@@ -106,6 +195,7 @@ pub fn match_boundaries(mutant: &str, wt: &[Boundary], mt: &[Boundary]) -> Vec<S
             shift_um: w.zip(m).map(|(a, b)| b.position_um - a.position_um),
             shift_pct: w.zip(m).map(|(a, b)| b.position_pct - a.position_pct),
             status: status.to_string(),
+            reason: None,
         }
     };
     let mut out: Vec<Shift> = Vec::new();
@@ -141,20 +231,19 @@ pub struct Screen {
 /// [`StepError`] if the wild type itself fails; a failing mutant is reported in its rows.
 pub fn run_screen(model: &Model, mutants: &[Mutant], parallel: bool) -> Result<Screen, StepError> {
     let wild_type = final_boundaries(model)?;
+    let genes: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
     let one = |m: &Mutant| -> Vec<Shift> {
-        match final_boundaries(&model.with_mutant(m)) {
-            Ok(b) => match_boundaries(&m.name, &wild_type, &b),
+        match final_outcome(&model.with_mutant(m)) {
+            Ok((b, states)) => {
+                let mut shifts = match_boundaries(&m.name, &wild_type, &b);
+                describe_outcomes(&mut shifts, &genes, &states);
+                shifts
+            }
             Err(e) => vec![Shift {
                 mutant: m.name.clone(),
-                gene: String::new(),
-                direction: String::new(),
-                wild_type_um: None,
-                wild_type_pct: None,
-                mutant_um: None,
-                mutant_pct: None,
-                shift_um: None,
-                shift_pct: None,
-                status: format!("failed: {e}"),
+                status: outcome::FAILED.into(),
+                reason: Some(e.to_string()),
+                ..Shift::default()
             }],
         }
     };
@@ -164,8 +253,9 @@ pub fn run_screen(model: &Model, mutants: &[Mutant], parallel: bool) -> Result<S
 }
 
 /// Generated mutant families: every single knock-out (`ko:gene`), every link
-/// removal (`del:from->to`), and a dosage series of each gradient's peak
-/// (`gradient.peak x0.25` … `x4`).
+/// removal (`del:from->to`), and dosage: each gene's production halved and
+/// doubled (`gene.production x0.5`, `x2`: heterozygote and overexpression)
+/// and each gradient's peak from ×0.25 to ×4 (`gradient.peak x0.25` … `x4`).
 pub fn families(model: &Model, knockouts: bool, link_removals: bool, dosage: bool) -> Vec<Mutant> {
     let mut out = Vec::new();
     if knockouts {
@@ -179,6 +269,15 @@ pub fn families(model: &Model, knockouts: bool, link_removals: bool, dosage: boo
         }
     }
     if dosage {
+        for (g, gene) in model.genes.iter().enumerate() {
+            let p = Param::Gene(g, crate::model::GeneParam::Production);
+            if model.no_effect(p).is_some() {
+                continue;
+            }
+            for f in [0.5, 2.0] {
+                out.push(Mutant { name: format!("{}.production x{f}", gene.name), edits: vec![Edit::Scale(p, f)] });
+            }
+        }
         for (k, g) in model.gradients.iter().enumerate() {
             for f in [0.25, 0.5, 2.0, 4.0] {
                 out.push(Mutant {

@@ -304,13 +304,21 @@ pub fn sensitivity(rows: &[anlage::screen::SensitivityRow], dir: &Path) -> Strin
     let mut out = String::new();
     let mut sorted: Vec<&anlage::screen::SensitivityRow> = rows.iter().filter(|r| r.d_pct_per_ln.is_some()).collect();
     sorted.sort_by(|a, b| b.d_pct_per_ln.unwrap_or(0.0).abs().total_cmp(&a.d_pct_per_ln.unwrap_or(0.0).abs()));
-    let step = rows.first().map_or(0.0, |r| r.step_ln);
-    let _ =
-        writeln!(out, "boundary sensitivities, d position / d ln parameter (step {step} in ln p; model predictions):");
+    let _ = writeln!(
+        out,
+        "boundary sensitivities, d position / d ln parameter (model predictions; pinned: a secant over the jumps):"
+    );
     for r in sorted.iter().take(12) {
+        let how = match r.kind.as_str() {
+            "pinned" => {
+                format!("pinned, secant over ±{} in ln p; jumps at {}", r.step_ln, r.jumps_at.replace(';', ", "))
+            }
+            "smooth" => format!("smooth, step {} checked against twice that", r.step_ln),
+            other => format!("{other}: steps {} and twice that disagree", r.step_ln),
+        };
         let _ = writeln!(
             out,
-            "  {:<30} {:<10} {:<8} at {:>6.2} %: {:>+8.3} % length ({:>+8.2} µm) per unit ln p",
+            "  {:<30} {:<10} {:<8} at {:>6.2} %: {:>+8.3} % length ({:>+8.2} µm) per unit ln p  [{how}]",
             r.parameter,
             r.gene,
             r.direction,

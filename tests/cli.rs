@@ -209,7 +209,10 @@ fn screen_and_sensitivity_write_their_outputs() {
     assert!(shifts.starts_with(
         "mutant,gene,direction,wild_type_um,wild_type_pct,mutant_um,mutant_pct,shift_um,shift_pct,status,reason\n"
     ));
-    assert!(shifts.lines().any(|l| l.starts_with("ko:amber,amber,falling,") && l.ends_with(",gene lost everywhere,")), "{shifts}");
+    assert!(
+        shifts.lines().any(|l| l.starts_with("ko:amber,amber,falling,") && l.ends_with(",gene lost everywhere,")),
+        "{shifts}"
+    );
     assert!(shifts.lines().any(|l| l.starts_with("no feedback,")), "{shifts}");
     for name in ["shifts.png", "pair_head_x2.gif"] {
         assert!(out.join(name).is_file(), "{name}");

@@ -2,7 +2,7 @@
 
 use std::path::Path;
 
-use super::{ExportError, opt, write_atomic};
+use super::ExportError;
 use crate::screen::{Screen, SensitivityRow};
 
 /// `shifts.csv`: `mutant, gene, direction, wild_type_um, wild_type_pct,
@@ -16,28 +16,12 @@ pub fn write_shifts(s: &Screen, path: &Path) -> Result<(), ExportError> {
     super::write_rows(&rows, path)
 }
 
-/// `sensitivity.csv`: `parameter, value, gene, direction, position_pct,
-/// d_um_per_ln, d_pct_per_ln, step_ln`.
+/// `sensitivity.csv`: `parameter, value, gene, direction, position_pct, kind,
+/// d_um_per_ln, d_pct_per_ln, step_ln, jumps_at` (kind: smooth, pinned,
+/// unresolved or lost; see [`crate::screen::sensitivity`]).
 ///
 /// # Errors
 /// [`ExportError`] if the file cannot be written.
 pub fn write_sensitivity(rows: &[SensitivityRow], path: &Path) -> Result<(), ExportError> {
-    write_atomic(path, |w| {
-        writeln!(w, "parameter,value,gene,direction,position_pct,d_um_per_ln,d_pct_per_ln,step_ln")?;
-        for r in rows {
-            writeln!(
-                w,
-                "{},{},{},{},{},{},{},{}",
-                r.parameter,
-                r.value,
-                r.gene,
-                r.direction,
-                r.position_pct,
-                opt(r.d_um_per_ln),
-                opt(r.d_pct_per_ln),
-                r.step_ln
-            )?;
-        }
-        Ok(())
-    })
+    super::write_rows(rows, path)
 }

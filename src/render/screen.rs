@@ -122,7 +122,7 @@ pub fn sensitivity_map(rows: &[SensitivityRow], style: &Style) -> Canvas {
         }
     }
     let label_w = params.iter().map(|p| Canvas::text_width(12.0, p)).fold(60.0, f32::max);
-    let (left, top) = (label_w + 24.0, 96.0);
+    let (left, top) = (label_w + 24.0, 106.0);
     let cell_w = ((style.width.max(480) as f32 - left - 24.0) / cols.len().max(1) as f32).clamp(60.0, 140.0);
     let cell_h = 20.0;
     let width = (left + cell_w * cols.len() as f32 + 24.0).max(640.0) as u32;
@@ -141,10 +141,15 @@ pub fn sensitivity_map(rows: &[SensitivityRow], style: &Style) -> Canvas {
             let x = left + cell_w * j as f32;
             let r =
                 rows.iter().find(|r| &r.parameter == p && &r.gene == g && &r.direction == d && r.position_pct == *pos);
-            match r.and_then(|r| r.d_pct_per_ln) {
-                Some(v) => {
+            match r.and_then(|r| r.d_pct_per_ln.map(|v| (v, r.kind.as_str()))) {
+                Some((v, kind)) => {
                     c.rect(x + 1.0, y + 1.0, cell_w - 2.0, cell_h - 2.0, diverging(v / max));
-                    c.text(x + cell_w / 2.0, y + 14.0, 11.0, [20, 20, 20], Align::Centre, &format!("{v:+.2}"));
+                    let mark = match kind {
+                        "pinned" => " p",
+                        "unresolved" => " ?",
+                        _ => "",
+                    };
+                    c.text(x + cell_w / 2.0, y + 14.0, 11.0, [20, 20, 20], Align::Centre, &format!("{v:+.2}{mark}"));
                 }
                 None => {
                     c.rect(x + 1.0, y + 1.0, cell_w - 2.0, cell_h - 2.0, bg.muted());
@@ -153,16 +158,14 @@ pub fn sensitivity_map(rows: &[SensitivityRow], style: &Style) -> Canvas {
             }
         }
     }
-    let step = rows.first().map_or(0.0, |r| r.step_ln);
     title_and_label(&mut c, 16.0, width as f32 - 24.0, 26.0, bg, &format!("{}: boundary sensitivity", style.title));
-    c.text(
-        16.0,
-        46.0,
-        12.0,
-        bg.muted(),
-        Align::Left,
-        &format!("d position / d ln parameter, % length (central differences, step {step} in ln p)"),
-    );
+    let lines = [
+        "d position / d ln parameter, % length: central differences, the step checked against twice it",
+        "p: pinned, moves in jumps of one nucleus (a secant over the jumps); ?: the two steps disagree",
+    ];
+    for (k, line) in lines.iter().enumerate() {
+        c.text(16.0, 46.0 + 15.0 * k as f32, 12.0, bg.muted(), Align::Left, line);
+    }
     let yb = height as f32 - 40.0;
     for k in 0..160 {
         c.rect(left + k as f32, yb, 1.0, 12.0, diverging(k as f64 / 79.5 - 1.0));

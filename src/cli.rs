@@ -191,6 +191,12 @@ pub enum Command {
         /// Gene shown in landscape.png (default: the first).
         #[arg(long)]
         gene: Option<String>,
+        /// Analyse every N-th snapshot (and the last).
+        #[arg(long, value_name = "N", default_value_t = 1, conflicts_with = "at")]
+        every: usize,
+        /// Analyse the snapshots nearest these times, min (comma-separated).
+        #[arg(long, value_name = "MIN,…", value_delimiter = ',', num_args = 1)]
+        at: Vec<f64>,
         /// How pictures look.
         #[command(flatten)]
         look: Look,

@@ -181,7 +181,7 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             }
             Ok(())
         }
-        Command::Basins { source, out, with_influx, gene, look } => {
+        Command::Basins { source, out, with_influx, gene, every, at, look } => {
             let (model, rec, dir) = model_and_recording(source, out.as_deref())?;
             let style = Style::with_options(&rec, &model.title, &look.options())?;
             let gene = match gene {
@@ -192,7 +192,27 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
                 })?,
                 None => 0,
             };
-            let opts = anlage::phase::BasinOptions { with_influx: *with_influx, ..Default::default() };
+            if *every == 0 || at.iter().any(|t| !(t.is_finite() && *t >= 0.0)) {
+                return Err(StyleError::OutOfRange {
+                    option: if *every == 0 { "--every".into() } else { "--at".into() },
+                    value: if *every == 0 { "0".into() } else { format!("{at:?}") },
+                    fix: "give --every N with N >= 1, or --at with times >= 0 (min)".into(),
+                }
+                .into());
+            }
+            let opts = anlage::phase::BasinOptions {
+                with_influx: *with_influx,
+                every: *every,
+                at_min: at.clone(),
+                ..Default::default()
+            };
+            let count = opts.snapshots(&rec.times).len();
+            if count > 500 {
+                eprintln!(
+                    "note: analysing {count} snapshots × {} nuclei; --every N or --at T1,T2,… analyses fewer",
+                    rec.grid.len()
+                );
+            }
             let report = anlage::write_basins(&model, &rec, &opts, &style, gene, &dir)
                 .with_context(|| format!("writing basins to {}", dir.display()))?;
             print!("{}", report::basins(&report, &rec, &dir));

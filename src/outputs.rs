@@ -146,7 +146,14 @@ pub fn write_basins(
     dir: &Path,
 ) -> Result<BasinReport, WriteError> {
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
-    let analysis = crate::phase::analyse(model, rec, opts)?;
+    let bar = indicatif::ProgressBar::new(opts.snapshots(&rec.times).len() as u64);
+    bar.set_style(
+        indicatif::ProgressStyle::with_template("{bar:40} {pos}/{len} snapshots' fates, {elapsed}")
+            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+    );
+    let analysis =
+        crate::phase::basins::analyse_with_progress(model, rec, opts, &|done, _| bar.set_position(done as u64))?;
+    bar.finish_and_clear();
     let last = rec.times.len() - 1;
     let hi: Vec<f64> = rec.max_levels(0..rec.len())?.into_iter().map(|m| 1.2 * m.max(1e-3)).collect();
     let landscape = crate::phase::landscape(model, rec.times[last], &hi);

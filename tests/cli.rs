@@ -153,6 +153,20 @@ fn basins_and_portrait_from_a_run_folder() {
     for name in ["attractors.csv", "basins.png", "landscape.png"] {
         assert!(out.join(name).is_file(), "{name}");
     }
+    // Fewer snapshots (issue 19.6): every 20th and the last, or those nearest given times.
+    let o = anlage(&["basins", out.to_str().unwrap(), "--every", "20"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let times = |text: &str| {
+        let mut t: Vec<String> = text.lines().skip(1).map(|l| l.split(',').next().unwrap().to_string()).collect();
+        t.dedup();
+        t
+    };
+    assert_eq!(times(&std::fs::read_to_string(out.join("basins.csv")).unwrap()), ["0", "80", "160", "240"]);
+    let o = anlage(&["basins", out.to_str().unwrap(), "--at", "101,239"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert_eq!(times(&std::fs::read_to_string(out.join("basins.csv")).unwrap()), ["100", "240"]);
+    let o = anlage(&["basins", out.to_str().unwrap(), "--every", "0"]);
+    assert_eq!(o.status.code(), Some(2));
     let pic = out.join("p.png");
     let o = anlage(&[
         "portrait",

@@ -225,6 +225,53 @@ fn brusselator_limit_cycle_period() {
     }
 }
 
+/// Issue 19, item 6: at integrator tolerance 1e-10 the period, located by
+/// events on the dense output, agrees with SciPy's (DOP853, rtol 1e-12,
+/// tests/reference/phase.py) to 1e-7 relative.
+#[test]
+fn issue_19_brusselator_period_to_1e_minus_7() {
+    let r = reference();
+    let sys = Brusselator { a: 1.0, b: 3.0 };
+    let fp = phase::fixed::fixed_point_at(&sys, vec![1.0, 3.0]);
+    match phase::fate_with(&sys, &[1.2, 3.0], &[fp], 1e-6, 400.0, 1e-10) {
+        Fate::Cycle { period_min, .. } => assert_relative_eq!(period_min, r.brusselator_period, max_relative = 1e-7),
+        other => panic!("expected a cycle, got {other:?}"),
+    }
+}
+
+/// The symmetric toggle switch (a = 3, n = 3; Gardner, Cantor & Collins
+/// 2000) from 1e-7 off its saddle, on the side of high v: the state lingers
+/// near the saddle for longer than the first horizon, and the horizon grows
+/// until it settles on the v-high attractor (was "unresolved").
+#[test]
+fn issue_19_a_start_next_to_the_saddle_settles() {
+    struct Toggle;
+    impl System for Toggle {
+        fn dim(&self) -> usize {
+            2
+        }
+        fn rates(&self, u: &[f64], out: &mut [f64]) {
+            out[0] = 3.0 / (1.0 + u[1].powi(3)) - u[0];
+            out[1] = 3.0 / (1.0 + u[0].powi(3)) - u[1];
+        }
+        fn jacobian(&self, u: &[f64], jac: &mut [f64]) {
+            jac[0] = -1.0;
+            jac[1] = -9.0 * u[1].powi(2) / (1.0 + u[1].powi(3)).powi(2);
+            jac[2] = -9.0 * u[0].powi(2) / (1.0 + u[0].powi(3)).powi(2);
+            jac[3] = -1.0;
+        }
+    }
+    let starts: Vec<Vec<f64>> = vec![vec![0.1, 2.9], vec![2.9, 0.1], vec![1.2, 1.2]];
+    let points = phase::find_fixed_points(&Toggle, &starts, 1e-12, true);
+    let saddle = points.iter().find(|p| !p.kind.is_stable()).unwrap().x.clone();
+    let high_v = points.iter().position(|p| p.kind.is_stable() && p.x[1] > p.x[0]).unwrap();
+    // A horizon of 10 min (the decay rate is 1/min) is too short to leave the saddle.
+    match phase::fate(&Toggle, &[saddle[0], saddle[1] + 1e-7], &points, 1e-6, 10.0) {
+        Fate::Point(k) => assert_eq!(k, high_v),
+        other => panic!("expected the v-high attractor, got {other:?}"),
+    }
+}
+
 /// Ribbon demo: nuclei on either side of the boundary end in different
 /// attractors (amber-on head side, cobalt-on tail side), and the continuation
 /// in position finds the fold where the row switches from one to two

@@ -9,23 +9,49 @@ use rayon::prelude::*;
 
 use super::fixed::{FixedPoint, box_starts, find_fixed_points};
 use super::flow::{Fate, fate};
-use super::system::Frozen;
+use super::system::{Frozen, System};
 use crate::integrate::{ReadBackError, Recording};
 use crate::model::Model;
 use crate::tissue::{Tissue, laplacian};
 
 /// Options of the basin analysis.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct BasinOptions {
     /// Freeze the diffusion influx D∇²u of each snapshot as a constant term too.
     pub with_influx: bool,
     /// Quasi-random Newton starts added to the grid of starts in each nucleus.
     pub extra_starts: usize,
+    /// Analyse every this many snapshots (and always the last); 1: all.
+    pub every: usize,
+    /// Analyse the snapshots nearest these times, min, instead (empty: use `every`).
+    pub at_min: Vec<f64>,
 }
 
 impl Default for BasinOptions {
     fn default() -> Self {
-        BasinOptions { with_influx: false, extra_starts: 30 }
+        BasinOptions { with_influx: false, extra_starts: 30, every: 1, at_min: Vec::new() }
+    }
+}
+
+impl BasinOptions {
+    /// The snapshot indices of `times` to analyse, in order, without repeats.
+    pub fn snapshots(&self, times: &[f64]) -> Vec<usize> {
+        let last = times.len() - 1;
+        let mut out: Vec<usize> = if self.at_min.is_empty() {
+            (0..times.len()).filter(|s| s % self.every.max(1) == 0 || *s == last).collect()
+        } else {
+            self.at_min
+                .iter()
+                .map(|&t| {
+                    (0..times.len())
+                        .min_by(|&a, &b| (times[a] - t).abs().total_cmp(&(times[b] - t).abs()))
+                        .unwrap_or(last)
+                })
+                .collect()
+        };
+        out.sort_unstable();
+        out.dedup();
+        out
     }
 }
 
@@ -84,11 +110,31 @@ fn key(inputs: &[f64], influx: &[f64]) -> Vec<u64> {
 /// One nucleus at one snapshot: its frozen inputs, diffusive influx and state.
 type NucleusAt = (Vec<f64>, Vec<f64>, Vec<f64>);
 
-/// Analyses every nucleus at every snapshot of a run of `model`.
+/// Analyses every nucleus at the chosen snapshots of a run of `model`
+/// ([`BasinOptions::snapshots`]).
 ///
 /// # Errors
 /// [`ReadBackError`] if a streamed snapshot cannot be read back.
 pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> Result<BasinAnalysis, ReadBackError> {
+    analyse_with_progress(model, rec, opts, &|_, _| {})
+}
+
+/// [`analyse`], calling `progress(done, total)` as snapshots' fates are found.
+///
+/// Each nucleus's fate is followed for 60 time constants of its slowest
+/// decaying mode — the smaller of the genes' slowest decay rate and the
+/// slowest |Re λ| of the Jacobian at its state — and longer while it has not
+/// settled ([`super::flow::fate_with`]: up to [`super::HORIZON_GROWTH`] ×).
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn analyse_with_progress(
+    model: &Model,
+    rec: &Recording,
+    opts: &BasinOptions,
+    progress: &(dyn Fn(usize, usize) + Sync),
+) -> Result<BasinAnalysis, ReadBackError> {
+    let chosen = opts.snapshots(&rec.times);
     let kinetics = crate::kinetics::build(model);
     let tissue = Tissue::new(model);
     let (n_genes, n) = (rec.genes.len(), rec.grid.len());
@@ -105,14 +151,13 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> Result<Ba
     let scale = hi.iter().copied().fold(0.0, f64::max);
     let tol = 1e-10 * model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
     let slowest = model.genes.iter().map(|g| g.decay).filter(|d| *d > 0.0).fold(f64::INFINITY, f64::min);
-    let horizon = if slowest.is_finite() { 60.0 / slowest } else { 60.0 * model.clock.until_min };
+    let slowest = if slowest.is_finite() { slowest } else { 1.0 / model.clock.until_min };
 
     // Frozen inputs and state of every (snapshot, nucleus), each snapshot read once.
-    let frozen: Vec<Vec<NucleusAt>> = rec
-        .times
+    let frozen: Vec<Vec<NucleusAt>> = chosen
         .iter()
-        .enumerate()
-        .map(|(s, &t)| {
+        .map(|&s| {
+            let t = rec.times[s];
             let state = rec.state(s)?;
             let m = tissue.inputs_with_state(t, &state);
             let influx: Vec<Vec<f64>> = (0..n_genes)
@@ -169,14 +214,23 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> Result<Ba
         })
         .collect();
 
+    let done = std::sync::atomic::AtomicUsize::new(0);
     let basins: Vec<Vec<NucleusBasin>> = frozen
         .par_iter()
         .map(|row| {
-            row.iter()
+            let out = row
+                .iter()
                 .map(|(m, q, state)| {
                     let points = points_of[&key(m, q)].clone();
                     let sys = Frozen { kinetics: kinetics.as_ref(), inputs: m.clone(), influx: q.clone() };
-                    let f = fate(&sys, state, &points, 1e-4 * scale, horizon);
+                    let mut jac = vec![0.0; n_genes * n_genes];
+                    sys.jacobian(state, &mut jac);
+                    let rate = super::fixed::eigenvalues(&jac, n_genes)
+                        .iter()
+                        .map(|l| l.re.abs())
+                        .filter(|r| *r > 1e-9 * slowest)
+                        .fold(slowest, f64::min);
+                    let f = fate(&sys, state, &points, 1e-4 * scale, 60.0 / rate.max(1e-3 * slowest));
                     let (label, distance) = match &f {
                         Fate::Point(k) => {
                             let p = &points[*k];
@@ -188,7 +242,9 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> Result<Ba
                     };
                     NucleusBasin { points, fate: f, label, distance }
                 })
-                .collect()
+                .collect();
+            progress(done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1, chosen.len());
+            out
         })
         .collect();
     let mut labels: Vec<String> = Vec::new();
@@ -198,7 +254,7 @@ pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> Result<Ba
         }
     }
     Ok(BasinAnalysis {
-        times: rec.times.clone(),
+        times: chosen.iter().map(|&s| rec.times[s]).collect(),
         basins,
         frozen: if opts.with_influx { "gradients+influx" } else { "gradients" },
         on_level,

@@ -57,6 +57,12 @@ impl<'a> Integrator<'a> {
         Integrator { sys, tol, max_step, k: std::array::from_fn(|_| vec![0.0; n]), y: vec![0.0; n], err: vec![0.0; n] }
     }
 
+    /// The rates at the start and at the end of the last accepted step
+    /// (the first and the seventh stage: the pair is "first same as last").
+    pub fn end_slopes(&self) -> (&[f64], &[f64]) {
+        (&self.k[0], &self.k[6])
+    }
+
     /// Advances `x` by one accepted step from a trial step `h`; returns the step
     /// taken and the next trial step. Negative `h` integrates backwards.
     pub fn step(&mut self, x: &mut [f64], h: f64) -> (f64, f64) {
@@ -90,61 +96,145 @@ impl<'a> Integrator<'a> {
     }
 }
 
-/// Integrates the isolated dynamics from `x0` for at most `t_max` min and says
-/// where they end: within `radius` (max-norm) of a stable point of `points`
-/// (when the state also moves slower than `radius` per unit time), or on a
-/// limit cycle, detected from upward crossings of the first coordinate through
-/// the middle of its range over the last part of the run: three successive
-/// periods equal to 1e-3 relative give the period (crossing times linearly
-/// interpolated between steps; steps at most 1/200 of the run apart).
-pub fn fate(sys: &dyn System, x0: &[f64], points: &[FixedPoint], radius: f64, t_max: f64) -> Fate {
+/// How far the time allowed for a fate grows beyond its first horizon.
+pub const HORIZON_GROWTH: f64 = 64.0;
+
+/// [`fate_with`] at tolerance 1e-8.
+pub fn fate(sys: &dyn System, x0: &[f64], points: &[FixedPoint], radius: f64, horizon: f64) -> Fate {
+    fate_with(sys, x0, points, radius, horizon, 1e-8)
+}
+
+/// One accepted step of the first coordinate: its ends, values and slopes.
+#[derive(Clone, Copy)]
+struct Step {
+    t0: f64,
+    t1: f64,
+    x0: f64,
+    x1: f64,
+    f0: f64,
+    f1: f64,
+}
+
+impl Step {
+    /// The cubic Hermite interpolant through both ends (values and slopes),
+    /// at time t: third order, and exact at the step's ends.
+    fn at(&self, t: f64) -> f64 {
+        let h = self.t1 - self.t0;
+        let s = (t - self.t0) / h;
+        let (s2, s3) = (s * s, s * s * s);
+        (2.0 * s3 - 3.0 * s2 + 1.0) * self.x0
+            + (s3 - 2.0 * s2 + s) * h * self.f0
+            + (-2.0 * s3 + 3.0 * s2) * self.x1
+            + (s3 - s2) * h * self.f1
+    }
+    /// The time the first coordinate rises through `level` in this step, if it does.
+    fn rises_through(&self, level: f64) -> Option<f64> {
+        if !(self.x0 < level && self.x1 >= level) {
+            return None;
+        }
+        let (mut a, mut b) = (self.t0, self.t1);
+        for _ in 0..80 {
+            let mid = 0.5 * (a + b);
+            if self.at(mid) < level { a = mid } else { b = mid }
+        }
+        Some(0.5 * (a + b))
+    }
+}
+
+/// Integrates the isolated dynamics from `x0` (Dormand–Prince at relative
+/// and absolute tolerance `tol`) and says where they end:
+/// - within `radius` (max-norm) of a stable point of `points`, once the
+///   state also moves slower than `radius` per unit time;
+/// - or on a limit cycle, from upward crossings of the first coordinate
+///   through the middle of its range over the second half of the time so
+///   far: three successive periods equal to 1e-3 relative. The crossings are
+///   located on each step's cubic Hermite interpolant (event location on
+///   the dense output), and the run goes on until two successive periods
+///   agree to 10·`tol` relative (at most 200 more), so the period is as
+///   accurate as the integration;
+/// - unresolved when neither happens within `horizon` min, doubled while
+///   neither is seen, up to [`HORIZON_GROWTH`] × `horizon`.
+pub fn fate_with(sys: &dyn System, x0: &[f64], points: &[FixedPoint], radius: f64, horizon: f64, tol: f64) -> Fate {
     let n = sys.dim();
     let mut x = x0.to_vec();
     let mut rates = vec![0.0; n];
-    let mut integ = Integrator::new(sys, 1e-8, t_max / 2000.0);
-    let (mut t, mut h) = (0.0, t_max * 1e-6);
+    let mut integ = Integrator::new(sys, tol, horizon / 2000.0);
+    let (mut t, mut h) = (0.0, horizon * 1e-6);
     let near = |x: &[f64], p: &FixedPoint| x.iter().zip(&p.x).all(|(a, b)| (a - b).abs() <= radius);
-    let mut trace: Vec<(f64, f64)> = Vec::new();
-    while t < t_max {
-        let (taken, next) = integ.step(&mut x, h.min(t_max - t));
-        t += taken;
-        h = next;
-        if let Some(k) = points.iter().position(|p| p.kind.is_stable() && near(&x, p)) {
-            sys.rates(&x, &mut rates);
-            if rates.iter().all(|r| r.abs() <= radius) {
-                return Fate::Point(k);
+    let mut steps: Vec<Step> = Vec::new();
+    let mut t_end = horizon;
+    loop {
+        while t < t_end {
+            let start = x[0];
+            let (taken, next) = integ.step(&mut x, h.min(t_end - t));
+            let (f0, f1) = (integ.end_slopes().0[0], integ.end_slopes().1[0]);
+            steps.push(Step { t0: t, t1: t + taken, x0: start, x1: x[0], f0, f1 });
+            t += taken;
+            h = next;
+            if let Some(k) = points.iter().position(|p| p.kind.is_stable() && near(&x, p)) {
+                sys.rates(&x, &mut rates);
+                if rates.iter().all(|r| r.abs() <= radius) {
+                    return Fate::Point(k);
+                }
+            }
+            if !x.iter().all(|v| v.is_finite()) {
+                return Fate::Unresolved;
             }
         }
-        if t > 0.5 * t_max {
-            trace.push((t, x[0]));
+        steps.retain(|s| s.t0 >= 0.5 * t_end);
+        if let Some((level, amplitude)) = cycle_level(&steps) {
+            // Keep going until the period stops changing.
+            let mut crossings: Vec<f64> = steps.iter().filter_map(|s| s.rises_through(level)).collect();
+            let mut periods = 0;
+            while periods < 200 {
+                let start = x[0];
+                let (taken, next) = integ.step(&mut x, h);
+                let (f0, f1) = (integ.end_slopes().0[0], integ.end_slopes().1[0]);
+                let step = Step { t0: t, t1: t + taken, x0: start, x1: x[0], f0, f1 };
+                t += taken;
+                h = next;
+                if !x.iter().all(|v| v.is_finite()) {
+                    return Fate::Unresolved;
+                }
+                if let Some(c) = step.rises_through(level) {
+                    crossings.push(c);
+                    periods += 1;
+                    let k = crossings.len();
+                    if k >= 3 {
+                        let (p1, p2) = (crossings[k - 1] - crossings[k - 2], crossings[k - 2] - crossings[k - 3]);
+                        if (p1 - p2).abs() <= 10.0 * tol * p1 {
+                            return Fate::Cycle { period_min: p1, amplitude };
+                        }
+                    }
+                }
+            }
+            let k = crossings.len();
+            return Fate::Cycle { period_min: crossings[k - 1] - crossings[k - 2], amplitude };
         }
-        if !x.iter().all(|v| v.is_finite()) {
+        if t_end >= HORIZON_GROWTH * horizon {
             return Fate::Unresolved;
         }
+        t_end *= 2.0;
     }
-    cycle_from_trace(&trace).unwrap_or(Fate::Unresolved)
 }
 
-/// Period of an oscillation from (t, x) samples: upward crossings of the
-/// midpoint of the range; needs three equal successive periods.
-pub fn cycle_from_trace(trace: &[(f64, f64)]) -> Option<Fate> {
-    let (lo, hi) = trace.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), (_, v)| (l.min(*v), h.max(*v)));
+/// The middle of the first coordinate's range over `steps` and the range,
+/// when its upward crossings there show an oscillation (at least four, the
+/// last three periods equal to 1e-3 relative).
+fn cycle_level(steps: &[Step]) -> Option<(f64, f64)> {
+    let (lo, hi) = steps.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), s| (l.min(s.x1), h.max(s.x1)));
     if !(hi - lo > 1e-9 * (1.0 + hi.abs())) {
         return None;
     }
     let mid = 0.5 * (lo + hi);
-    let crossings: Vec<f64> = trace
-        .windows(2)
-        .filter(|w| w[0].1 < mid && w[1].1 >= mid)
-        .map(|w| w[0].0 + (mid - w[0].1) / (w[1].1 - w[0].1) * (w[1].0 - w[0].0))
-        .collect();
+    let crossings: Vec<f64> = steps.iter().filter_map(|s| s.rises_through(mid)).collect();
     if crossings.len() < 4 {
         return None;
     }
     let periods: Vec<f64> = crossings.windows(2).map(|w| w[1] - w[0]).collect();
     let last = &periods[periods.len() - 3..];
     let mean = last.iter().sum::<f64>() / 3.0;
-    last.iter().all(|p| (p - mean).abs() <= 1e-3 * mean).then_some(Fate::Cycle { period_min: mean, amplitude: hi - lo })
+    last.iter().all(|p| (p - mean).abs() <= 1e-3 * mean).then_some((mid, hi - lo))
 }
 
 #[cfg(test)]

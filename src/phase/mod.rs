@@ -20,7 +20,7 @@ pub use basins::{BasinAnalysis, BasinOptions, Commitment, NucleusBasin, analyse}
 pub use continuation::{Branch, BranchPoint, Fold, continue_branch};
 
 pub use fixed::{FixedPoint, Kind, box_starts, find_fixed_points};
-pub use flow::{Fate, fate};
+pub use flow::{Fate, HORIZON_GROWTH, fate, fate_with};
 pub use landscape::{Landscape, PositionFamily, landscape};
 pub use portrait::{PortraitData, portrait_data};
 

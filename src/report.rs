@@ -62,6 +62,16 @@ fn trial_lines(s: &mut String, m: &Model) {
     }
 }
 
+/// A long expression cut to its first 200 characters, with the length said.
+fn shorten(text: &str) -> String {
+    let n = text.chars().count();
+    if n <= 200 {
+        text.to_string()
+    } else {
+        format!("{}… ({n} characters)", text.chars().take(200).collect::<String>())
+    }
+}
+
 /// What `anlage check` prints.
 pub fn describe(m: &Model) -> String {
     let mut s = String::new();
@@ -130,7 +140,7 @@ pub fn describe(m: &Model) -> String {
     for gene in &m.genes {
         let [r, gg, b] = gene.color;
         let law = match &gene.rate {
-            Some(rate) => format!("rate {rate}"),
+            Some(rate) => format!("rate {}", shorten(rate)),
             None => format!("production {} a.u./min, decay {} /min", gene.production, gene.decay),
         };
         let _ = writeln!(
@@ -176,7 +186,7 @@ pub fn describe(m: &Model) -> String {
         let _ = writeln!(s, "  parameter {name} = {v}");
     }
     for g in m.genes.iter().filter(|g| g.rate.is_some()) {
-        let _ = writeln!(s, "  d{}/dt = {} + diffusion", g.name, g.rate.as_deref().unwrap_or(""));
+        let _ = writeln!(s, "  d{}/dt = {} + diffusion", g.name, shorten(g.rate.as_deref().unwrap_or("")));
     }
     for l in &m.circuit.links {
         let from = match l.from {

@@ -62,6 +62,21 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
                 )
             })?;
             neighbours |= e.reads_input(&|k| k >= gradients.len() + 2);
+            // The expression and every derivative must compile within the stack limit.
+            let e = crate::kinetics::expr::simplify(e);
+            let fits = |x: &crate::kinetics::expr::Expr| crate::kinetics::expr::Program::compile(x).is_some();
+            if !fits(&e) || !(0..genes.len()).all(|j| fits(&e.derivative(j))) {
+                return Err(src.invalid(
+                    &gs.span(),
+                    "rate",
+                    format!("gene[{i}] `{}`.rate", g.name),
+                    format!(
+                        "the expression (or its derivative) needs more than {} intermediate values at once",
+                        crate::kinetics::expr::MAX_DEPTH
+                    ),
+                    "write it flatter: fewer nested powers and parentheses, or part of it as a constant",
+                ));
+            }
         }
     }
     circuit.neighbours = neighbours;

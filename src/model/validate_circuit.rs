@@ -19,6 +19,17 @@ fn read_initial_file(c: &Checker, name: &str, grid: &Grid) -> Result<Vec<f64>, M
     use ndarray_npy::ReadNpyExt;
     let path = c.src.file().parent().map_or_else(|| name.into(), |dir| dir.join(name));
     let fix = "give an NPY file of float64 levels, one per nucleus (shape [nuclei] or [ny, nx])";
+    // The header's shape is checked before any array is allocated: a small
+    // file can claim an array that would not fit in memory.
+    let shape = npy_shape(&path).map_err(|why| c.fail("initial_file", format!("`{}` {why}", path.display()), fix))?;
+    let claimed: u128 = shape.iter().map(|d| *d as u128).product();
+    if claimed != grid.len() as u128 {
+        return Err(c.fail(
+            "initial_file",
+            format!("`{}` has shape {shape:?} but the tissue is {} x {} nuclei", path.display(), grid.ny, grid.nx),
+            fix,
+        ));
+    }
     let file = std::fs::File::open(&path)
         .map_err(|e| c.fail("initial_file", format!("`{}` cannot be opened: {e}", path.display()), fix))?;
     let array = ndarray::ArrayD::<f64>::read_npy(std::io::BufReader::new(file))
@@ -39,6 +50,36 @@ fn read_initial_file(c: &Checker, name: &str, grid: &Grid) -> Result<Vec<f64>, M
     Ok(array.iter().copied().collect())
 }
 
+/// The shape an NPY file's header states, read from at most its first 64 KiB.
+fn npy_shape(path: &std::path::Path) -> Result<Vec<u64>, String> {
+    use std::io::Read;
+    let mut head = Vec::new();
+    std::fs::File::open(path)
+        .and_then(|f| f.take(65_536).read_to_end(&mut head))
+        .map_err(|e| format!("cannot be opened: {e}"))?;
+    if head.len() < 12 || &head[..6] != b"\x93NUMPY" {
+        return Err("is not an NPY file".into());
+    }
+    let (start, len) = if head[6] == 1 {
+        (10, u16::from_le_bytes([head[8], head[9]]) as usize)
+    } else {
+        (12, u32::from_le_bytes([head[8], head[9], head[10], head[11]]) as usize)
+    };
+    let text = head.get(start..start + len).ok_or("has a header longer than its first 64 KiB")?;
+    let text = String::from_utf8_lossy(text);
+    let inside = text
+        .split_once("'shape':")
+        .and_then(|(_, rest)| rest.split_once('(').and_then(|(_, r)| r.split_once(')')))
+        .map(|(dims, _)| dims.to_string())
+        .ok_or("has no shape in its header")?;
+    inside
+        .split(',')
+        .map(str::trim)
+        .filter(|d| !d.is_empty())
+        .map(|d| d.parse::<u64>().map_err(|_| format!("has a shape entry `{d}` that is not a whole number")))
+        .collect()
+}
+
 pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Source) -> Result<Gene, ModelError> {
     let spec = g.get_ref();
     let c = Checker { src, span: g.span(), prefix: format!("gene[{i}] `{}`.", spec.name) };
@@ -49,6 +90,13 @@ pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Sou
     let decay = c.non_negative("decay", c.required("decay", spec.decay.or(needed), why)?, "1/min")?;
     let diffusion = c.non_negative("diffusion", spec.diffusion.unwrap_or(0.0), "µm²/min")?;
     let initial_noise = c.non_negative("initial_noise", spec.initial_noise.unwrap_or(0.0), "a.u.")?;
+    if initial_noise > 1e100 {
+        return Err(c.fail(
+            "initial_noise",
+            format!("is {initial_noise:e}, beyond any level a simulation can hold"),
+            "give a noise amplitude of the order of the genes' levels",
+        ));
+    }
     let profile = match (&spec.initial_profile, &spec.initial_file) {
         (Some(_), Some(_)) => {
             return Err(c.fail(

@@ -98,12 +98,13 @@ impl Expr {
             Expr::Num(_) | Expr::Input(_) => num(0.0),
             Expr::Gene(i) => num(if *i == g { 1.0 } else { 0.0 }),
             Expr::Neg(a) => simplify(Expr::Neg(Box::new(a.derivative(g)))),
+            Expr::Bin(op @ (Op::Add | Op::Sub), a, b) => bin(*op, a.derivative(g), b.derivative(g)),
             Expr::Bin(op, a, b) => {
-                let (a, b) = (a.as_ref().clone(), b.as_ref().clone());
+                // The factors are cloned only where the rule needs them.
                 let (da, db) = (a.derivative(g), b.derivative(g));
+                let (a, b) = (a.as_ref().clone(), b.as_ref().clone());
                 match op {
-                    Op::Add => bin(Op::Add, da, db),
-                    Op::Sub => bin(Op::Sub, da, db),
+                    Op::Add | Op::Sub => unreachable!("handled above"),
                     Op::Mul => bin(Op::Add, bin(Op::Mul, da, b.clone()), bin(Op::Mul, a, db)),
                     Op::Div => bin(
                         Op::Div,

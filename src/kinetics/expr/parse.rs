@@ -37,13 +37,25 @@ enum Tok {
 struct Lexer {
     toks: Vec<(Tok, usize)>,
     pos: usize,
+    /// Nesting of parentheses, signs, powers and calls so far.
+    depth: usize,
 }
+
+/// Longest rate expression read, characters.
+pub const MAX_CHARS: usize = 4_000_000;
+/// Deepest nesting of parentheses, signs, powers and function calls.
+pub const MAX_NESTING: usize = 64;
+/// Sums and products of more terms than this are built as balanced trees
+/// (depth log₂ n instead of n), so long expressions cost time and memory in
+/// proportion to their length; shorter ones keep left-to-right order.
+const BALANCE_ABOVE: usize = 8;
 
 fn lex(text: &str) -> Result<Vec<(Tok, usize)>, ParseError> {
     let chars: Vec<(usize, char)> = text.char_indices().collect();
     let mut out = Vec::new();
     let mut i = 0;
-    let col = |k: usize| text[..chars.get(k).map_or(text.len(), |c| c.0)].chars().count() + 1;
+    // `chars` is indexed by character, so the k-th character is in column k + 1.
+    let col = |k: usize| k + 1;
     while i < chars.len() {
         let c = chars[i].1;
         if c.is_whitespace() {
@@ -125,7 +137,16 @@ fn describe(t: &Tok) -> String {
 /// # Errors
 /// [`ParseError`] at the column of the first problem.
 pub fn parse(text: &str, names: &dyn Names) -> Result<Expr, ParseError> {
-    let mut lx = Lexer { toks: lex(text)?, pos: 0 };
+    let length = text.chars().count();
+    if length > MAX_CHARS {
+        return Err(ParseError {
+            column: MAX_CHARS,
+            message: format!(
+                "the expression is {length} characters long, more than {MAX_CHARS}; split it into genes or constants"
+            ),
+        });
+    }
+    let mut lx = Lexer { toks: lex(text)?, pos: 0, depth: 0 };
     let e = expr(&mut lx, names)?;
     match lx.peek() {
         (Tok::End, _) => Ok(e),
@@ -136,36 +157,101 @@ pub fn parse(text: &str, names: &dyn Names) -> Result<Expr, ParseError> {
     }
 }
 
+impl Lexer {
+    /// One level deeper; refused past [`MAX_NESTING`].
+    fn descend(&mut self) -> Result<(), ParseError> {
+        self.depth += 1;
+        if self.depth > MAX_NESTING {
+            return Err(ParseError {
+                column: self.peek().1,
+                message: format!(
+                    "the expression nests more than {MAX_NESTING} levels deep (parentheses, signs, powers, calls); write it flatter"
+                ),
+            });
+        }
+        Ok(())
+    }
+    fn ascend(&mut self) {
+        self.depth -= 1;
+    }
+}
+
+/// Combines `items` with `op` left to right, or as a balanced tree when
+/// there are more than [`BALANCE_ABOVE`].
+fn combine(op: Op, mut items: Vec<Expr>) -> Expr {
+    if items.len() <= BALANCE_ABOVE {
+        let mut it = items.into_iter();
+        let first = it.next().expect("at least one term");
+        return it.fold(first, |acc, e| Expr::Bin(op, Box::new(acc), Box::new(e)));
+    }
+    while items.len() > 1 {
+        let mut next = Vec::with_capacity(items.len().div_ceil(2));
+        let mut it = items.into_iter();
+        while let Some(a) = it.next() {
+            match it.next() {
+                Some(b) => next.push(Expr::Bin(op, Box::new(a), Box::new(b))),
+                None => next.push(a),
+            }
+        }
+        items = next;
+    }
+    items.pop().expect("one left")
+}
+
 fn expr(lx: &mut Lexer, names: &dyn Names) -> Result<Expr, ParseError> {
-    let mut left = term(lx, names)?;
+    let first = term(lx, names)?;
+    let mut rest: Vec<(char, Expr)> = Vec::new();
     while let (Tok::Sym(c @ ('+' | '-')), _) = lx.peek().clone() {
         lx.next();
-        let right = term(lx, names)?;
-        left = Expr::Bin(if c == '+' { Op::Add } else { Op::Sub }, Box::new(left), Box::new(right));
+        rest.push((c, term(lx, names)?));
     }
-    Ok(left)
+    if rest.len() < BALANCE_ABOVE {
+        return Ok(rest.into_iter().fold(first, |left, (c, right)| {
+            Expr::Bin(if c == '+' { Op::Add } else { Op::Sub }, Box::new(left), Box::new(right))
+        }));
+    }
+    // A long sum: a − b + c … = a + (−b) + c …, balanced.
+    let mut terms = vec![first];
+    terms.extend(rest.into_iter().map(|(c, e)| if c == '+' { e } else { Expr::Neg(Box::new(e)) }));
+    Ok(combine(Op::Add, terms))
 }
 
 fn term(lx: &mut Lexer, names: &dyn Names) -> Result<Expr, ParseError> {
-    let mut left = unary(lx, names)?;
+    let first = unary(lx, names)?;
+    let mut rest: Vec<(char, Expr)> = Vec::new();
     while let (Tok::Sym(c @ ('*' | '/')), _) = lx.peek().clone() {
         lx.next();
-        let right = unary(lx, names)?;
-        left = Expr::Bin(if c == '*' { Op::Mul } else { Op::Div }, Box::new(left), Box::new(right));
+        rest.push((c, unary(lx, names)?));
     }
-    Ok(left)
+    if rest.len() < BALANCE_ABOVE {
+        return Ok(rest.into_iter().fold(first, |left, (c, right)| {
+            Expr::Bin(if c == '*' { Op::Mul } else { Op::Div }, Box::new(left), Box::new(right))
+        }));
+    }
+    // A long product: a / b · c … = (a · c …) / (b · …), each side balanced.
+    let (mut num, mut den) = (vec![first], Vec::new());
+    for (c, e) in rest {
+        if c == '*' { num.push(e) } else { den.push(e) }
+    }
+    let top = combine(Op::Mul, num);
+    Ok(if den.is_empty() { top } else { Expr::Bin(Op::Div, Box::new(top), Box::new(combine(Op::Mul, den))) })
 }
 
 fn unary(lx: &mut Lexer, names: &dyn Names) -> Result<Expr, ParseError> {
-    if let (Tok::Sym('-'), _) = lx.peek() {
-        lx.next();
-        return Ok(Expr::Neg(Box::new(unary(lx, names)?)));
-    }
-    if let (Tok::Sym('+'), _) = lx.peek() {
-        lx.next();
-        return unary(lx, names);
-    }
-    power(lx, names)
+    lx.descend()?;
+    let e = match lx.peek() {
+        (Tok::Sym('-'), _) => {
+            lx.next();
+            unary(lx, names).map(|e| Expr::Neg(Box::new(e)))
+        }
+        (Tok::Sym('+'), _) => {
+            lx.next();
+            unary(lx, names)
+        }
+        _ => power(lx, names),
+    };
+    lx.ascend();
+    e
 }
 
 fn power(lx: &mut Lexer, names: &dyn Names) -> Result<Expr, ParseError> {
@@ -182,19 +268,23 @@ fn atom(lx: &mut Lexer, names: &dyn Names) -> Result<Expr, ParseError> {
     match lx.next() {
         (Tok::Num(v), _) => Ok(Expr::Num(v)),
         (Tok::Sym('('), _) => {
+            lx.descend()?;
             let e = expr(lx, names)?;
             lx.expect(')')?;
+            lx.ascend();
             Ok(e)
         }
         (Tok::Name(n), column) => {
             if let (Tok::Sym('('), _) = lx.peek() {
                 lx.next();
+                lx.descend()?;
                 let mut args = vec![expr(lx, names)?];
                 while let (Tok::Sym(','), _) = lx.peek() {
                     lx.next();
                     args.push(expr(lx, names)?);
                 }
                 lx.expect(')')?;
+                lx.ascend();
                 if n == "neighbours" {
                     return match args.as_slice() {
                         [Expr::Gene(g)] => names

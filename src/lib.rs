@@ -41,6 +41,7 @@
 
 pub mod compare;
 pub mod export;
+pub mod files;
 pub mod fit;
 pub mod integrate;
 pub mod kinetics;

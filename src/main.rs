@@ -127,6 +127,7 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
                 Some(dir) => {
                     let checkpoint = anlage::integrate::Checkpoint::read(&dir.join(CHECKPOINT))?;
                     let model = Model::from_toml(&checkpoint.model_text, &checkpoint.model_path)?;
+                    checkpoint.check_fits(&model, &dir.join(CHECKPOINT))?;
                     (model, Some(checkpoint), out.clone().unwrap_or_else(|| dir.clone()))
                 }
                 None => {

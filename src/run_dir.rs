@@ -61,7 +61,7 @@ pub struct SavedRun {
 /// [`RunDirError`] naming the file that is missing or malformed.
 pub fn load(dir: &Path) -> Result<SavedRun, RunDirError> {
     let summary_path = dir.join("summary.json");
-    let text = std::fs::read_to_string(&summary_path)
+    let text = crate::files::read_text(&summary_path, crate::files::MAX_TABLE_BYTES)
         .map_err(|source| RunDirError::Read { path: summary_path.clone(), source })?;
     let bad = |path: &Path, problem: String| RunDirError::Malformed { path: path.to_path_buf(), problem };
     let s: SummaryIn = serde_json::from_str(&text).map_err(|e| bad(&summary_path, e.to_string()))?;

@@ -113,8 +113,8 @@ pub fn read_measured(
     stages: &HashMap<String, f64>,
     stage_fix: &str,
 ) -> Result<Vec<MeasuredRow>, CompareError> {
-    let text =
-        std::fs::read_to_string(path).map_err(|source| CompareError::Read { path: path.to_path_buf(), source })?;
+    let text = crate::files::read_text(path, crate::files::MAX_TABLE_BYTES)
+        .map_err(|source| CompareError::Read { path: path.to_path_buf(), source })?;
     let mut reader = csv::ReaderBuilder::new().trim(csv::Trim::All).from_reader(text.as_bytes());
     let headers =
         reader.headers().map_err(|e| bad(path, 1, "header", &e.to_string(), "write a CSV header line"))?.clone();

@@ -14,7 +14,26 @@ use serde::{Deserialize, Serialize};
 
 use super::StepStats;
 
-const MAGIC: &str = "anlage-checkpoint 1";
+/// The first line of a checkpoint: the format and its version. Version 2
+/// ends with the SHA-256 of everything after this line.
+const MAGIC: &str = "anlage-checkpoint 2";
+
+/// Writes through to `inner` and hashes what it writes.
+struct Hashing<'a> {
+    inner: &'a mut dyn Write,
+    hasher: sha2::Sha256,
+}
+
+impl Write for Hashing<'_> {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        let n = self.inner.write(buf)?;
+        sha2::Digest::update(&mut self.hasher, &buf[..n]);
+        Ok(n)
+    }
+    fn flush(&mut self) -> std::io::Result<()> {
+        self.inner.flush()
+    }
+}
 
 /// The integrator's state: levels and rates at the last three accepted steps.
 #[derive(Debug, Clone, PartialEq)]
@@ -133,8 +152,9 @@ impl CheckpointParts<'_> {
             shape: [s.u[0].nrows(), s.u[0].ncols()],
         };
         writeln!(w, "{MAGIC}")?;
-        serde_json::to_writer(&mut *w, &header)?;
-        writeln!(w)?;
+        let mut h = Hashing { inner: w, hasher: <sha2::Sha256 as sha2::Digest>::new() };
+        serde_json::to_writer(&mut h, &header)?;
+        writeln!(h)?;
         let write = |w: &mut dyn Write, a: &Array2<f64>| -> std::io::Result<()> {
             for v in a.iter() {
                 w.write_all(&v.to_le_bytes())?;
@@ -142,17 +162,40 @@ impl CheckpointParts<'_> {
             Ok(())
         };
         for a in s.u.iter().chain(s.f.iter()) {
-            write(w, a)?;
+            write(&mut h, a)?;
         }
         for state in self.recording.states() {
             let state = state.map_err(std::io::Error::other)?;
-            write(w, &state)?;
+            write(&mut h, &state)?;
         }
-        Ok(())
+        let digest = sha2::Digest::finalize(h.hasher);
+        h.inner.write_all(&digest)
     }
 }
 
 impl Checkpoint {
+    /// Checks that the saved arrays have the shape `model` needs (genes × nuclei).
+    ///
+    /// # Errors
+    /// [`CheckpointError`] when they do not (a damaged or edited checkpoint).
+    pub fn check_fits(&self, model: &crate::model::Model, path: &Path) -> Result<(), CheckpointError> {
+        let want = (model.genes.len(), model.grid.len());
+        let all = self.stepper.u.iter().chain(&self.stepper.f).chain(&self.states);
+        match all.map(|a| a.dim()).find(|d| *d != want) {
+            Some(got) => Err(CheckpointError {
+                path: path.to_path_buf(),
+                problem: format!("holds arrays of {got:?} (genes, nuclei) but its model has {want:?}"),
+                fix: "the checkpoint is damaged or was edited; start the run again".into(),
+            }),
+            None if self.times.len() != self.states.len() => Err(CheckpointError {
+                path: path.to_path_buf(),
+                problem: "holds a different number of snapshot times and snapshots".into(),
+                fix: "the checkpoint is damaged or was edited; start the run again".into(),
+            }),
+            None => Ok(()),
+        }
+    }
+
     /// Reads a checkpoint file.
     ///
     /// # Errors
@@ -164,25 +207,52 @@ impl Checkpoint {
             fix: "resume from the folder of a run started with --checkpoint-every, or start the run again".into(),
         };
         let file = std::fs::File::open(path).map_err(|e| fail(format!("cannot be opened: {e}")))?;
+        let size = file.metadata().map_err(|e| fail(e.to_string()))?.len();
         let mut r = std::io::BufReader::new(file);
         let mut line = String::new();
-        r.read_line(&mut line).map_err(|e| fail(e.to_string()))?;
+        (&mut r).take(64).read_line(&mut line).map_err(|e| fail(e.to_string()))?;
         if line.trim_end() != MAGIC {
-            return Err(fail("is not an anlage checkpoint (version 1)".into()));
+            return Err(fail(format!(
+                "is not an anlage checkpoint of format version 2 (its first line is `{}`)",
+                line.trim_end().chars().take(40).collect::<String>()
+            )));
         }
+        let magic_len = line.len() as u64;
         line.clear();
-        r.read_line(&mut line).map_err(|e| fail(e.to_string()))?;
+        // The header holds the model's text: at most 64 MiB.
+        (&mut r).take(64 << 20).read_line(&mut line).map_err(|e| fail(e.to_string()))?;
         let h: Header = serde_json::from_str(&line).map_err(|e| fail(format!("has a damaged header: {e}")))?;
+        let mut hasher = <sha2::Sha256 as sha2::Digest>::new();
+        sha2::Digest::update(&mut hasher, line.as_bytes());
         let [g, n] = h.shape;
+        // Its size must be what the header says, before anything is allocated.
+        let arrays = (5 + h.times.len() as u128) * g as u128 * n as u128 * 8;
+        let want = magic_len as u128 + line.len() as u128 + arrays + 32;
+        if want != size as u128 {
+            return Err(fail(format!(
+                "is {size} bytes but its header describes {want}: it is {}",
+                if (size as u128) < want {
+                    "cut short or its header is damaged"
+                } else {
+                    "longer than its content (damaged)"
+                }
+            )));
+        }
         let mut read_array = || -> Result<Array2<f64>, CheckpointError> {
             let mut bytes = vec![0u8; g * n * 8];
             r.read_exact(&mut bytes).map_err(|_| fail("is cut short".into()))?;
+            sha2::Digest::update(&mut hasher, &bytes);
             let values = bytes.chunks_exact(8).map(|c| f64::from_le_bytes(c.try_into().expect("8 bytes"))).collect();
             Ok(Array2::from_shape_vec((g, n), values).expect("shape from the header"))
         };
         let u = [read_array()?, read_array()?, read_array()?];
         let f = [read_array()?, read_array()?];
         let states = (0..h.times.len()).map(|_| read_array()).collect::<Result<Vec<_>, _>>()?;
+        let mut stored = [0u8; 32];
+        r.read_exact(&mut stored).map_err(|_| fail("is cut short".into()))?;
+        if sha2::Digest::finalize(hasher).as_slice() != stored {
+            return Err(fail("is damaged: its checksum (SHA-256) does not match its content".into()));
+        }
         Ok(Checkpoint {
             model_text: h.model_text,
             model_path: h.model_path,
@@ -254,5 +324,56 @@ mod tests {
             assert_eq!(back.times, vec![x]);
             assert_eq!(back.states, vec![state(y)]);
         }
+    }
+
+    /// A checkpoint with a flipped bit, extra bytes at its end, a cut-short
+    /// end or an edited shape is refused with a reason, never read as if whole.
+    #[test]
+    fn damaged_checkpoints_are_refused() {
+        let grid = Grid { nx: 3, ny: 1, spacing_um: 1.0, edges: Edges::Sealed };
+        let state = |v: f64| Array2::from_elem((1, 3), v);
+        let stepper = StepperState {
+            t: 1.0,
+            history: 3,
+            k1: 0.1,
+            k2: 0.1,
+            u: [state(1.0), state(2.0), state(3.0)],
+            f: [state(4.0), state(5.0)],
+        };
+        let recording = crate::Recording::with_states(
+            grid,
+            vec!["g".into()],
+            vec![[0, 0, 0]],
+            vec![0.0],
+            vec![state(0.5)],
+            vec![0.0],
+        );
+        let parts = CheckpointParts {
+            model_text: "text",
+            model_path: Path::new("m.toml"),
+            stepper: &stepper,
+            progress: Progress { next_snapshot: 1, steps_taken: 0, next_step_min: 0.1 },
+            stats: StepStats::default(),
+            recording: &recording,
+        };
+        let mut good = Vec::new();
+        parts.write(&mut good).unwrap();
+        let file = std::env::temp_dir().join(format!("anlage-checkpoint-damaged-{}", std::process::id()));
+        let read = |bytes: &[u8]| {
+            std::fs::write(&file, bytes).unwrap();
+            Checkpoint::read(&file).map(|_| ()).map_err(|e| e.problem)
+        };
+        assert_eq!(read(&good), Ok(()));
+        let mut flipped = good.clone();
+        let at = flipped.len() - 60;
+        flipped[at] ^= 0x10;
+        assert!(read(&flipped).unwrap_err().contains("checksum"));
+        let mut longer = good.clone();
+        longer.extend_from_slice(b"junk");
+        assert!(read(&longer).unwrap_err().contains("longer than its content"));
+        assert!(read(&good[..good.len() - 9]).unwrap_err().contains("cut short"));
+        let edited = String::from_utf8_lossy(&good).replacen("\"shape\":[1,3]", "\"shape\":[100000,100000000]", 1);
+        assert!(read(edited.as_bytes()).unwrap_err().contains("bytes but its header describes"));
+        std::fs::remove_file(&file).unwrap();
     }
 }

@@ -88,8 +88,8 @@ impl Model {
     /// # Errors
     /// [`ModelError`] naming the file, line, column and field of the first problem.
     pub fn load(path: &Path) -> Result<Model, ModelError> {
-        let text =
-            std::fs::read_to_string(path).map_err(|source| ModelError::Read { file: path.to_path_buf(), source })?;
+        let text = crate::files::read_text(path, crate::files::MAX_MODEL_BYTES)
+            .map_err(|source| ModelError::Read { file: path.to_path_buf(), source })?;
         Model::from_toml(&text, path)
     }
 

@@ -118,6 +118,9 @@ pub struct Checkpointing {
     pub every: std::time::Duration,
     /// A checkpoint of this model to continue from.
     pub resume: Option<integrate::Checkpoint>,
+    /// Set (by a signal handler) to stop: a checkpoint is written at the next
+    /// accepted step and the run ends with [`StepError::Stopped`].
+    pub stop: Option<std::sync::Arc<std::sync::atomic::AtomicBool>>,
 }
 
 /// [`simulate`] with checkpoints: saves the run every `every` of wall time and
@@ -181,9 +184,10 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
             }
         },
         |stepper, progress, stats| {
-            let Some(plan) = plan else { return };
-            if last_saved.elapsed() < plan.every {
-                return;
+            let Some(plan) = plan else { return true };
+            let stopping = plan.stop.as_ref().is_some_and(|s| s.load(std::sync::atomic::Ordering::Relaxed));
+            if last_saved.elapsed() < plan.every && !stopping {
+                return true;
             }
             let rec = recording.borrow();
             let saved = stepper.save();
@@ -202,6 +206,7 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
                 warned = true;
             }
             last_saved = Instant::now();
+            !stopping
         },
     );
     if let Some(bar) = bar {

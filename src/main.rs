@@ -149,16 +149,34 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             let streams = *stream || model.streams_recording();
             let options =
                 anlage::RunOptions { parallel: true, progress: !quiet, stream_to: streams.then(|| dir.clone()) };
-            let plan = (checkpoint_every.is_some() || checkpoint.is_some()).then(|| anlage::Checkpointing {
+            // With checkpoints on, SIGTERM (a cluster's scheduler ending a job)
+            // and SIGINT (Ctrl-C) save the run and stop it cleanly.
+            let stop = std::sync::Arc::new(std::sync::atomic::AtomicBool::new(false));
+            let checkpointing = checkpoint_every.is_some() || checkpoint.is_some();
+            if checkpointing {
+                for signal in [signal_hook::consts::SIGTERM, signal_hook::consts::SIGINT] {
+                    signal_hook::flag::register(signal, stop.clone()).context("installing the signal handler")?;
+                }
+            }
+            let plan = checkpointing.then(|| anlage::Checkpointing {
                 file: dir.join(CHECKPOINT),
                 every: checkpoint_every.unwrap_or(std::time::Duration::MAX),
                 resume: checkpoint,
+                stop: Some(stop.clone()),
             });
             if plan.is_some() || streams {
                 std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
             }
-            let run = anlage::simulate_with(&model, &options, plan.as_ref())
-                .with_context(|| format!("simulating {}", model.file.display()))?;
+            let run = match anlage::simulate_with(&model, &options, plan.as_ref()) {
+                Err(e @ anlage::StepError::Stopped { .. }) => {
+                    anyhow::bail!(
+                        "{e}: the run was saved to {}; continue it with `anlage run --resume {}`",
+                        dir.join(CHECKPOINT).display(),
+                        dir.display()
+                    )
+                }
+                other => other.with_context(|| format!("simulating {}", model.file.display()))?,
+            };
             let checksum = anlage::reference::checksum(run.recording.final_state());
             let solve_seconds = start.elapsed().as_secs_f64().min(fastest);
             let summary = anlage::write_run(&model, &run, &dir, &style_options, !no_pictures)

@@ -134,7 +134,10 @@ fn error_control_holds_steps_and_lands_on_snapshots() {
         false,
         None,
         |t, _| snapshots.push(t),
-        |s, _, _| steps.push((s.last_step(), s.time())),
+        |s, _, _| {
+            steps.push((s.last_step(), s.time()));
+            true
+        },
     )
     .unwrap();
     let changed = steps.windows(2).filter(|w| w[0].0 != w[1].0).count();
@@ -230,6 +233,7 @@ fn ark4_runs_resume_to_the_same_bytes() {
             if stats.steps == 37 {
                 saved = Some((s.save(), progress, stats));
             }
+            true
         },
     )
     .unwrap();
@@ -251,7 +255,7 @@ fn ark4_runs_resume_to_the_same_bytes() {
         false,
         Some(&checkpoint),
         |t, u| resumed.push((t, u.clone())),
-        |_, _, _| {},
+        |_, _, _| true,
     )
     .unwrap();
     assert!(end.steps > 37 && resumed.len() > 10, "{end:?}");

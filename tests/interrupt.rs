@@ -169,3 +169,40 @@ fn resume_without_checkpoint_is_refused() {
     let err = String::from_utf8_lossy(&o.stderr);
     assert!(err.contains("checkpoint.bin: cannot be opened") && err.contains("--checkpoint-every"), "{err}");
 }
+
+/// SIGTERM (how a cluster's scheduler ends a job) with checkpoints on saves
+/// the run at the next step and stops with exit 1 and a message saying how
+/// to continue; `--resume` then writes the same bytes as an uninterrupted run.
+#[test]
+fn sigterm_saves_a_checkpoint_and_stops_cleanly() {
+    let base = std::env::temp_dir().join(format!("anlage-test-{}-sigterm", std::process::id()));
+    let (full, cut) = (base.join("full"), base.join("cut"));
+    let _ = std::fs::remove_dir_all(&base);
+    std::fs::create_dir_all(&base).unwrap();
+    // The ribbon with tiny fixed steps: a run of a few seconds.
+    let text = std::fs::read_to_string(root().join("patterns/ribbon.toml")).unwrap();
+    let model = base.join("slow.toml");
+    std::fs::write(&model, text.replace("tolerance = 1e-6 ", "step_min = 0.0005 ")).unwrap();
+    let exe = env!("CARGO_BIN_EXE_anlage");
+    let m = model.to_str().unwrap();
+    assert!(Command::new(exe).args(["run", m, "-q", "-o", full.to_str().unwrap()]).status().unwrap().success());
+    // Checkpoints every hour: the only one is the one the signal asks for.
+    let child = Command::new(exe)
+        .args(["run", m, "-q", "-o", cut.to_str().unwrap(), "--checkpoint-every", "1h"])
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    std::thread::sleep(Duration::from_millis(300));
+    assert!(Command::new("kill").args(["-TERM", &child.id().to_string()]).status().unwrap().success());
+    let o = child.wait_with_output().unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(err.contains("on request (a signal)") && err.contains("--resume"), "{err}");
+    assert!(cut.join("checkpoint.bin").exists() && !cut.join("summary.json").exists());
+    let o = Command::new(exe).args(["run", "--resume", cut.to_str().unwrap(), "-q"]).output().unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    for file in ["states.npy", "boundaries.csv", "summary.json"] {
+        assert_eq!(std::fs::read(full.join(file)).unwrap(), std::fs::read(cut.join(file)).unwrap(), "{file}");
+    }
+    std::fs::remove_dir_all(&base).unwrap();
+}

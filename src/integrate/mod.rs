@@ -66,6 +66,12 @@ pub enum StepError {
         /// A step that would do, min.
         advice: f64,
     },
+    /// Stopped on request (a signal), at this time.
+    #[error("stopped at t = {t_min:.4} min on request (a signal)")]
+    Stopped {
+        /// Time reached, min.
+        t_min: f64,
+    },
     /// A streamed snapshot could not be written.
     #[error("the recording could not be streamed to disk: {0}; free disk space in the output folder")]
     Recording(String),
@@ -169,12 +175,13 @@ pub fn integrate(
     parallel: bool,
     snapshot: impl FnMut(f64, &Array2<f64>),
 ) -> Result<StepStats, StepError> {
-    integrate_from(model, kinetics, tissue, parallel, None, snapshot, |_, _, _| {})
+    integrate_from(model, kinetics, tissue, parallel, None, snapshot, |_, _, _| true)
 }
 
 /// [`integrate`], optionally continuing from a checkpoint (whose snapshots the
 /// caller has already recorded), and calling `accepted(stepper, progress,
-/// stats)` after every accepted step, where a checkpoint may be taken.
+/// stats)` after every accepted step, where a checkpoint may be taken; when
+/// it returns false the run stops with [`StepError::Stopped`].
 ///
 /// # Errors
 /// [`StepError`] when the state stops being finite or steps collapse.
@@ -185,7 +192,7 @@ pub fn integrate_from(
     parallel: bool,
     resume: Option<&Checkpoint>,
     mut snapshot: impl FnMut(f64, &Array2<f64>),
-    mut accepted: impl FnMut(&Stepper, Progress, StepStats),
+    mut accepted: impl FnMut(&Stepper, Progress, StepStats) -> bool,
 ) -> Result<StepStats, StepError> {
     let names = model.genes.iter().map(|g| g.name.clone()).collect();
     let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
@@ -239,7 +246,9 @@ pub fn integrate_from(
                     snapshot(times[next], stepper.state());
                     progress.next_snapshot += 1;
                 }
-                accepted(&stepper, progress, stats);
+                if !accepted(&stepper, progress, stats) {
+                    return Err(StepError::Stopped { t_min: stepper.time() });
+                }
             }
         }
         Stepping::Adaptive { rtol, atol, max_step_min } => {
@@ -306,7 +315,9 @@ pub fn integrate_from(
                             return Err(StepError::StepCollapse { t_min: stepper.time(), step_min: k_try, error: err });
                         }
                     }
-                    accepted(&stepper, progress, stats);
+                    if !accepted(&stepper, progress, stats) {
+                        return Err(StepError::Stopped { t_min: stepper.time() });
+                    }
                 }
                 snapshot(target, stepper.state());
                 progress.next_snapshot += 1;

@@ -255,6 +255,7 @@ pub fn trial(model: &crate::model::Model) -> Result<Trial, super::StepError> {
             if k < found.stable_step {
                 found = Trial { stable_step: k, at_min: stepper.time(), nucleus: i, ..found };
             }
+            true
         },
     )?;
     found.steps = stats.steps;

@@ -199,7 +199,7 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
                 stats,
                 recording: &rec,
             };
-            if let Err(e) = export::write_atomic(&plan.file, |w| checkpoint.write(w))
+            if let Err(e) = export::write_atomic_durable(&plan.file, |w| checkpoint.write(w))
                 && !warned
             {
                 eprintln!("anlage: warning: checkpoint not written: {e}");

@@ -164,9 +164,9 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
                 resume: checkpoint,
                 stop: Some(stop.clone()),
             });
-            if plan.is_some() || streams {
-                std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
-            }
+            // The output folder is reserved (created, checked writable, marked
+            // busy) before anything is simulated, so a bad folder costs nothing.
+            let _reserved = anlage::export::folder::reserve(&dir)?;
             let run = match anlage::simulate_with(&model, &options, plan.as_ref()) {
                 Err(e @ anlage::StepError::Stopped { .. }) => {
                     anyhow::bail!(
@@ -382,8 +382,13 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
             let boundaries = anlage::readout::find_boundaries(rec)?;
             let written = anlage::write_pictures(rec, &boundaries, &style, &dir, *kind)?;
-            for path in written {
+            for path in &written {
                 println!("wrote {}", path.display());
+            }
+            if &dir == run_dir {
+                let names: Vec<String> =
+                    written.iter().filter_map(|p| p.file_name().map(|n| n.to_string_lossy().into_owned())).collect();
+                anlage::export::folder::add_to_manifest(&dir, &names)?;
             }
             Ok(())
         }

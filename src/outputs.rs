@@ -23,12 +23,16 @@ pub fn write_run(
     let style = render::Style::with_options(&run.recording, &model.title, style_options)?;
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
     export::remove_stale_temps(dir);
+    // From here until the new manifest, the folder's set is incomplete.
+    export::folder::unmark(dir);
     let rec = &run.recording;
     let (boundaries, domains) = readout::find_boundaries_and_domains(rec)?;
     let path = |name: &str| -> PathBuf { dir.join(name) };
+    let mut written: Vec<String> = vec!["profiles.csv".into()];
     export::write_profiles(rec, &path("profiles.csv"))?;
     if rec.grid.is_sheet() {
         export::write_sheet(rec, &path("final_sheet.csv"))?;
+        written.push("final_sheet.csv".into());
     }
     export::write_states_npy(rec, &path("states.npy"))?;
     export::write_boundaries(&boundaries, &path("boundaries.csv"))?;
@@ -36,12 +40,35 @@ pub fn write_run(
     let summary = Summary::new(model, run);
     export::write_json(&summary, &path("summary.json"))?;
     export::write_atomic(&path("model.toml"), |w| w.write_all(model.text.as_bytes()))?;
-
+    written.extend(["states.npy", "boundaries.csv", "domains.csv", "summary.json", "model.toml"].map(String::from));
     if pictures {
-        write_pictures(rec, &boundaries, &style, dir, PictureKind::All)?;
+        for p in write_pictures(rec, &boundaries, &style, dir, PictureKind::All)? {
+            written.extend(p.file_name().map(|n| n.to_string_lossy().into_owned()));
+        }
     }
+    // Outputs of an earlier run of another kind (a sheet's table, pictures
+    // not drawn this time) would pass for this run's: they go.
+    for stale in RUN_OUTPUTS.iter().filter(|n| !written.iter().any(|w| w == *n)) {
+        let _ = std::fs::remove_file(path(stale));
+    }
+    export::folder::write_manifest(dir, &written)?;
     Ok(summary)
 }
+
+/// Every file `anlage run` can write into its folder (besides the manifest).
+pub const RUN_OUTPUTS: [&str; 11] = [
+    "profiles.csv",
+    "final_sheet.csv",
+    "states.npy",
+    "boundaries.csv",
+    "domains.csv",
+    "summary.json",
+    "model.toml",
+    "kymograph.png",
+    "pattern.png",
+    "profiles.png",
+    "pattern.gif",
+];
 
 /// Outputs that could not be written.
 #[derive(Debug, thiserror::Error)]

@@ -23,6 +23,14 @@ pub enum RunDirError {
         /// Cause.
         source: std::io::Error,
     },
+    /// The folder's output set is not complete (no manifest, or files missing or changed).
+    #[error("{}: the run's outputs are not complete: {why}; run the model again to rewrite the folder", dir.display())]
+    Incomplete {
+        /// The folder.
+        dir: PathBuf,
+        /// What is missing or changed.
+        why: String,
+    },
     /// A file is there but not as `anlage run` writes it.
     #[error("{}: {problem}; run the model again to rewrite the folder", path.display())]
     Malformed {
@@ -55,12 +63,23 @@ pub struct SavedRun {
     pub recording: Recording,
 }
 
-/// Reads `summary.json` and `states.npy` from `dir`.
+/// Reads `summary.json` and `states.npy` from `dir`, after checking its
+/// manifest: every file there with its size, and these two and `model.toml`
+/// with their SHA-256.
 ///
 /// # Errors
-/// [`RunDirError`] naming the file that is missing or malformed.
+/// [`RunDirError`] naming the file that is missing, changed or malformed.
 pub fn load(dir: &Path) -> Result<SavedRun, RunDirError> {
     let summary_path = dir.join("summary.json");
+    if !dir.is_dir() {
+        return Err(RunDirError::Read {
+            path: dir.to_path_buf(),
+            source: std::io::Error::new(std::io::ErrorKind::NotFound, "no such folder"),
+        });
+    }
+    if let Some(why) = crate::export::folder::incomplete(dir, &["summary.json", "states.npy", "model.toml"]) {
+        return Err(RunDirError::Incomplete { dir: dir.to_path_buf(), why });
+    }
     let text = crate::files::read_text(&summary_path, crate::files::MAX_TABLE_BYTES)
         .map_err(|source| RunDirError::Read { path: summary_path.clone(), source })?;
     let bad = |path: &Path, problem: String| RunDirError::Malformed { path: path.to_path_buf(), problem };

@@ -5,6 +5,7 @@
 
 mod compare_tables;
 mod fit_tables;
+pub mod folder;
 mod phase_tables;
 mod screen_tables;
 mod tables;
@@ -51,11 +52,34 @@ pub enum ExportError {
 }
 
 /// Writes `path` atomically: `body` writes into a temporary file beside it,
-/// which is flushed, synced and renamed over `path`; on failure it is removed.
+/// which is flushed and renamed over `path`; on failure it is removed. A
+/// killed process leaves either the old file or the new one, never half of
+/// one. The data reach the disk when the set is complete
+/// ([`folder::write_manifest`] syncs once), not file by file.
 ///
 /// # Errors
 /// [`ExportError::Io`] for any file-system failure.
 pub fn write_atomic(path: &Path, body: impl FnOnce(&mut dyn Write) -> std::io::Result<()>) -> Result<(), ExportError> {
+    write_renamed(path, body, false)
+}
+
+/// [`write_atomic`], and the file is synced to disk before it is renamed
+/// (for checkpoints, which must survive a crash of the machine).
+///
+/// # Errors
+/// [`ExportError::Io`] for any file-system failure.
+pub fn write_atomic_durable(
+    path: &Path,
+    body: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
+) -> Result<(), ExportError> {
+    write_renamed(path, body, true)
+}
+
+fn write_renamed(
+    path: &Path,
+    body: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
+    durable: bool,
+) -> Result<(), ExportError> {
     let io = |source| ExportError::Io { path: path.to_path_buf(), source };
     let name = path.file_name().map_or_else(|| "out".into(), |n| n.to_string_lossy().into_owned());
     let tmp = path.with_file_name(temp_name(&name, std::process::id()));
@@ -64,7 +88,9 @@ pub fn write_atomic(path: &Path, body: impl FnOnce(&mut dyn Write) -> std::io::R
         let mut w = BufWriter::new(file);
         body(&mut w)?;
         let file = w.into_inner().map_err(|e| e.into_error())?;
-        file.sync_all()?;
+        if durable {
+            file.sync_all()?;
+        }
         std::fs::rename(&tmp, path)
     })();
     if result.is_err() {

@@ -360,3 +360,44 @@ fn blow_up_inside_a_step_names_where_it_was_met() {
         assert!(!dir.join("out").join("summary.json").exists(), "{scheme}: no summary for a run that blew up");
     }
 }
+
+/// Issue 20: a run marks its output set complete with a manifest written
+/// last; readers refuse a folder whose manifest is missing or whose states
+/// changed; an earlier run's outputs of another kind are removed; an
+/// unwritable output folder is found before anything is simulated.
+#[test]
+fn issue_20_run_folders_are_complete_or_refused() {
+    let out = temp_dir("manifest");
+    run_into("patterns/sheet.toml", &out, 2);
+    assert!(out.join("final_sheet.csv").is_file() && out.join("manifest.json").is_file());
+    run_into("patterns/ribbon.toml", &out, 2);
+    assert!(!out.join("final_sheet.csv").exists(), "a sheet's table stays beside a row's outputs");
+    let render = || anlage(&["render", out.to_str().unwrap(), "--kind", "profiles"]);
+    assert!(render().status.success());
+    // Redrawn pictures stay part of the set.
+    assert!(render().status.success());
+    let mut states = std::fs::read(out.join("states.npy")).unwrap();
+    let last = states.len() - 1;
+    states[last] ^= 1;
+    std::fs::write(out.join("states.npy"), &states).unwrap();
+    let o = render();
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("states.npy has changed since the run wrote it"));
+    std::fs::remove_file(out.join("manifest.json")).unwrap();
+    let o = anlage(&["basins", out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        String::from_utf8_lossy(&o.stderr).contains("has no manifest.json"),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    // A folder that cannot be created (its parent is a file): refused before simulating.
+    let blocker = out.join("a_file");
+    std::fs::write(&blocker, "x").unwrap();
+    let model = root().join("patterns/ribbon.toml");
+    let start = std::time::Instant::now();
+    let o = anlage(&["run", model.to_str().unwrap(), "-q", "-o", blocker.join("run").to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("cannot write"), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(start.elapsed() < std::time::Duration::from_secs(5));
+}

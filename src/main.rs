@@ -164,6 +164,14 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
                 resume: checkpoint,
                 stop: Some(stop.clone()),
             });
+            let seconds = anlage::integrate::least_seconds(&model);
+            if seconds > 60.0 && !quiet {
+                eprintln!(
+                    "anlage: note: a long run: at least ~{:.0} steps, about {} of computing (`anlage check` says more)",
+                    anlage::integrate::least_steps(&model),
+                    report::duration(seconds)
+                );
+            }
             // The output folder is reserved (created, checked writable, marked
             // busy) before anything is simulated, so a bad folder costs nothing.
             let _reserved = anlage::export::folder::reserve(&dir)?;

@@ -62,6 +62,19 @@ fn trial_lines(s: &mut String, m: &Model) {
     }
 }
 
+/// Seconds in words: "0.2 s", "3.1 min", "2.5 h", "4.0 days".
+pub fn duration(seconds: f64) -> String {
+    if seconds < 60.0 {
+        format!("{seconds:.1} s")
+    } else if seconds < 3600.0 {
+        format!("{:.1} min", seconds / 60.0)
+    } else if seconds < 86_400.0 {
+        format!("{:.1} h", seconds / 3600.0)
+    } else {
+        format!("{:.1} days", seconds / 86_400.0)
+    }
+}
+
 /// A long expression cut to its first 200 characters, with the length said.
 fn shorten(text: &str) -> String {
     let n = text.chars().count();
@@ -108,30 +121,40 @@ pub fn describe(m: &Model) -> String {
             let _ = writeln!(s, "steps     chosen as the run goes (error-controlled)");
         }
     }
-    let rate = anlage::integrate::reaction_stiffness(m);
+    // The Jacobian of a large circuit is too big to examine nucleus by nucleus.
+    let large = m.genes.len() > anlage::integrate::safety::MAX_GENES_CHECKED;
+    let rate = if large { 0.0 } else { anlage::integrate::reaction_stiffness(m) };
     if rate > 0.0 {
         let k_max = anlage::integrate::explicit_stability(m.clock.scheme) / rate;
-        let at_least = (m.clock.until_min / k_max).ceil();
         let _ = writeln!(
             s,
-            "stiffness fastest reaction rate {rate:.3e} /min at the start: steps stay below ~{k_max:.3e} min, \
-             so at least ~{at_least:.0} steps"
+            "stiffness fastest reaction rate {rate:.3e} /min at the start: steps stay below ~{k_max:.3e} min"
         );
-        // Throughput of the engine, order of magnitude (benches/engine.rs).
-        let seconds = at_least * g.len() as f64 * m.genes.len() as f64 / 1e8;
-        if seconds > 3600.0 {
-            let _ = writeln!(
-                s,
-                "warning   at least ~{:.1} h of computing on this model's grid; the reactions are too fast for the \
-                 time span: check the rates' units (per minute) or shorten until_min",
-                seconds / 3600.0
-            );
-        }
-        if seconds < 60.0 {
-            trial_lines(&mut s, m);
-        } else {
-            let _ = writeln!(s, "stability not tried along a run: it would take too long here");
-        }
+    }
+    let at_least = anlage::integrate::least_steps(m);
+    let seconds = anlage::integrate::least_seconds(m);
+    let _ = writeln!(s, "work      at least ~{at_least:.0} steps, ~{} of computing", duration(seconds));
+    if seconds > 60.0 {
+        let _ = writeln!(
+            s,
+            "warning   a long run: at least ~{at_least:.0} steps over {} nuclei and {} genes ({} at about {:.0e} \
+             nucleus·gene·steps per second); check the rates' units (per minute), the step and until_min",
+            g.len(),
+            m.genes.len(),
+            duration(seconds),
+            anlage::integrate::THROUGHPUT
+        );
+    }
+    if large {
+        let _ = writeln!(
+            s,
+            "stability not tried along a run: circuits of more than {} genes are checked for negative levels only",
+            anlage::integrate::safety::MAX_GENES_CHECKED
+        );
+    } else if seconds < 60.0 {
+        trial_lines(&mut s, m);
+    } else {
+        let _ = writeln!(s, "stability not tried along a run: it would take too long here");
     }
     let streamed = if m.streams_recording() { " (streamed to disk)" } else { "" };
     let _ =

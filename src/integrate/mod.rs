@@ -342,6 +342,31 @@ fn first_step(stepper: &Stepper, rtol: f64, atol: f64, max_step: f64) -> f64 {
     k.min(1e-3 * max_step).max(1e-12 * max_step)
 }
 
+/// The engine's throughput, nucleus·gene·steps per second: an order of
+/// magnitude (`cargo bench --bench engine`), for warnings about long runs.
+pub const THROUGHPUT: f64 = 1e8;
+
+/// A lower bound on the steps a run of `model` takes: its fixed steps, or
+/// for error control the larger of `until / max_step` and `until` over the
+/// stable step of the initial reaction rates (circuits of up to
+/// [`safety::MAX_GENES_CHECKED`] genes).
+pub fn least_steps(model: &Model) -> f64 {
+    let until = model.clock.until_min;
+    match model.clock.stepping {
+        Stepping::Fixed { step_min } => (until / step_min).ceil(),
+        Stepping::Adaptive { max_step_min, .. } => {
+            let by_cap = (until / max_step_min).ceil();
+            let rate = if model.genes.len() > safety::MAX_GENES_CHECKED { 0.0 } else { reaction_stiffness(model) };
+            if rate > 0.0 { by_cap.max((until * rate / explicit_stability(model.clock.scheme)).ceil()) } else { by_cap }
+        }
+    }
+}
+
+/// Seconds of computing a run of `model` takes at least, at [`THROUGHPUT`].
+pub fn least_seconds(model: &Model) -> f64 {
+    least_steps(model) * model.grid.len() as f64 * model.genes.len() as f64 / THROUGHPUT
+}
+
 /// Largest `k·|λ|` on the negative real axis for which a scheme's explicit
 /// (reaction) part is stable: 4/3 for SBDF2 (see [`reaction_stiffness`]),
 /// 4.23 for ARK4(3)6L\[2\]SA (see `ark::EXPLICIT_STABILITY`).

@@ -153,7 +153,35 @@ impl Model {
 
     /// A parameter's value.
     pub fn param_value(&self, p: Param) -> Option<f64> {
-        self.clone().param_mut(p).map(|v| *v)
+        match p {
+            Param::Constant(k) => self.circuit.parameters.get(k).map(|(_, v)| *v),
+            Param::Gene(g, q) => {
+                let gene = self.genes.get(g)?;
+                Some(match q {
+                    GeneParam::Production => gene.production,
+                    GeneParam::Decay => gene.decay,
+                    GeneParam::Diffusion => gene.diffusion,
+                    GeneParam::Bias => gene.bias,
+                })
+            }
+            Param::Gradient(k, q) => {
+                let g = self.gradients.get(k)?;
+                match (q, &g.shape) {
+                    (GradientParam::Peak, _) => Some(g.peak),
+                    (GradientParam::Baseline, _) => Some(g.baseline),
+                    (GradientParam::DecayLength, Shape::Exponential { decay_length_um }) => Some(*decay_length_um),
+                    (GradientParam::Length, Shape::Linear { length_um }) => Some(*length_um),
+                    (GradientParam::Width, Shape::Step { width_um }) => Some(*width_um),
+                    _ => None,
+                }
+            }
+            Param::Link(k, q) => match (q, &self.circuit.links.get(k)?.effect) {
+                (LinkParam::Threshold, LinkEffect::Hill { threshold, .. }) => Some(*threshold),
+                (LinkParam::Hill, LinkEffect::Hill { hill, .. }) => Some(*hill),
+                (LinkParam::Weight, LinkEffect::Weight(w)) => Some(*w),
+                _ => None,
+            },
+        }
     }
 
     /// Reads `gene.production`, `gradient.peak`, `from->to.threshold`, … or

@@ -10,12 +10,16 @@ use super::ModelError;
 pub struct Source<'a> {
     file: PathBuf,
     text: &'a str,
+    /// Byte offset of the start of each line, so that a location is found by
+    /// a binary search, not a scan of the text before it.
+    line_starts: Vec<usize>,
 }
 
 impl<'a> Source<'a> {
     /// Wraps the text of `file`.
     pub fn new(file: &Path, text: &'a str) -> Self {
-        Source { file: file.to_path_buf(), text }
+        let line_starts = std::iter::once(0).chain(text.match_indices('\n').map(|(i, _)| i + 1)).collect();
+        Source { file: file.to_path_buf(), text, line_starts }
     }
 
     /// The text.
@@ -31,10 +35,9 @@ impl<'a> Source<'a> {
     /// 1-based line and column of a byte offset.
     pub fn line_col(&self, offset: usize) -> (usize, usize) {
         let offset = offset.min(self.text.len());
-        let before = &self.text[..offset];
-        let line = before.matches('\n').count() + 1;
-        let line_start = before.rfind('\n').map_or(0, |i| i + 1);
-        let column = before[line_start..].chars().count() + 1;
+        let line = self.line_starts.partition_point(|&s| s <= offset);
+        let line_start = self.line_starts[line - 1];
+        let column = self.text[line_start..offset].chars().count() + 1;
         (line, column)
     }
 

@@ -80,6 +80,9 @@ fn npy_shape(path: &std::path::Path) -> Result<Vec<u64>, String> {
         .collect()
 }
 
+/// Largest D/h² a gene may have, per minute.
+pub const MAX_HOPS_PER_MIN: f64 = 1e9;
+
 pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Source) -> Result<Gene, ModelError> {
     let spec = g.get_ref();
     let c = Checker { src, span: g.span(), prefix: format!("gene[{i}] `{}`.", spec.name) };
@@ -89,6 +92,19 @@ pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Sou
         c.non_negative("production", c.required("production", spec.production.or(needed), why)?, "a.u./min")?;
     let decay = c.non_negative("decay", c.required("decay", spec.decay.or(needed), why)?, "1/min")?;
     let diffusion = c.non_negative("diffusion", spec.diffusion.unwrap_or(0.0), "µm²/min")?;
+    // D/h² is how often a molecule hops between neighbours per minute; past
+    // 1e9 the units are wrong, and the solve would overflow.
+    let hops = diffusion / (grid.spacing_um * grid.spacing_um);
+    if hops > MAX_HOPS_PER_MIN {
+        return Err(c.fail(
+            "diffusion",
+            format!(
+                "is {diffusion:e} µm²/min over a spacing of {:e} µm: D/h² = {hops:.1e} per minute, past any tissue",
+                grid.spacing_um
+            ),
+            "check the units: diffusion in µm²/min (typically 0.01–100) and tissue.spacing_um in µm (typically 1–20)",
+        ));
+    }
     let initial_noise = c.non_negative("initial_noise", spec.initial_noise.unwrap_or(0.0), "a.u.")?;
     if initial_noise > 1e100 {
         return Err(c.fail(
@@ -250,6 +266,8 @@ pub(super) fn check_circuit(
         }
         names.join(", ")
     };
+    let gene_at: HashMap<&str, usize> = genes.iter().enumerate().map(|(i, g)| (g.name.as_str(), i)).collect();
+    let gradient_at: HashMap<&str, usize> = gradients.iter().enumerate().map(|(i, g)| (g.name.as_str(), i)).collect();
     let mut links = Vec::with_capacity(spec.link.len());
     let mut seen: HashMap<(Regulator, usize), Range<usize>> = HashMap::new();
     for (i, ls) in spec.link.iter().enumerate() {
@@ -267,14 +285,14 @@ pub(super) fn check_circuit(
                 known: known(kind),
             }
         };
-        let from = if let Some(k) = genes.iter().position(|g| g.name == l.from) {
+        let from = if let Some(&k) = gene_at.get(l.from.as_str()) {
             Regulator::Gene(k)
-        } else if let Some(k) = gradients.iter().position(|g| g.name == l.from) {
+        } else if let Some(&k) = gradient_at.get(l.from.as_str()) {
             Regulator::Gradient(k)
         } else {
             return Err(unknown("from", &l.from, "gene or gradient"));
         };
-        let to = genes.iter().position(|g| g.name == l.to).ok_or_else(|| unknown("to", &l.to, "gene"))?;
+        let to = gene_at.get(l.to.as_str()).copied().ok_or_else(|| unknown("to", &l.to, "gene"))?;
         if kinetics == KineticsKind::Rates || genes[to].rate.is_some() {
             return Err(lc.fail(
                 "to",

@@ -7,6 +7,9 @@ mod compare;
 mod convergence;
 mod demos;
 mod fit;
+#[allow(dead_code)] // also the core of examples/fuzz_models.rs
+mod fuzz_core;
+mod hostile;
 mod imaging;
 mod interrupt;
 mod measure;

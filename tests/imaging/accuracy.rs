@@ -16,7 +16,8 @@ use super::generator::{Case, EmbryoTruth};
 pub struct CaseResult {
     /// Case name.
     pub name: String,
-    /// Its description.
+    /// Its description (printed by the bench).
+    #[allow(dead_code)]
     pub description: String,
     /// |measured − true| of each true boundary found, % of length.
     pub errors: Vec<f64>,

@@ -186,7 +186,10 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
         |stepper, progress, stats| {
             let Some(plan) = plan else { return true };
             let stopping = plan.stop.as_ref().is_some_and(|s| s.load(std::sync::atomic::Ordering::Relaxed));
-            if last_saved.elapsed() < plan.every && !stopping {
+            // The last step is saved too, so that a run stopped while its
+            // outputs are written resumes without simulating again.
+            let last = stepper.time() >= model.clock.until_min * (1.0 - 1e-12);
+            if last_saved.elapsed() < plan.every && !stopping && !last {
                 return true;
             }
             let rec = recording.borrow();

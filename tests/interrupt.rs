@@ -193,6 +193,10 @@ fn sigterm_saves_a_checkpoint_and_stops_cleanly() {
         .spawn()
         .unwrap();
     std::thread::sleep(Duration::from_millis(300));
+    // While it runs, its folder is reserved: a second run into it is refused at once.
+    let o = Command::new(exe).args(["run", m, "-q", "-o", cut.to_str().unwrap()]).output().unwrap();
+    assert_eq!(o.status.code(), Some(1));
+    assert!(String::from_utf8_lossy(&o.stderr).contains(&format!("another anlage process (pid {})", child.id())));
     assert!(Command::new("kill").args(["-TERM", &child.id().to_string()]).status().unwrap().success());
     let o = child.wait_with_output().unwrap();
     let err = String::from_utf8_lossy(&o.stderr);

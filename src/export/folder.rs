@@ -173,6 +173,16 @@ impl Drop for Reservation {
     }
 }
 
+/// Whether process `pid` is a running (not dead, not a zombie) anlage
+/// process; without `/proc`, any marker counts as stale.
+fn running_anlage(pid: u32) -> bool {
+    let Ok(stat) = std::fs::read_to_string(format!("/proc/{pid}/stat")) else { return false };
+    // "pid (comm) state …": the state follows the last ')'.
+    let state = stat.rsplit_once(')').and_then(|(_, rest)| rest.split_whitespace().next());
+    let comm = std::fs::read_to_string(format!("/proc/{pid}/comm")).unwrap_or_default();
+    state.is_some_and(|s| s != "Z" && s != "X") && comm.trim().starts_with("anlage")
+}
+
 /// Reserves `dir` before a long computation writes into it.
 ///
 /// # Errors
@@ -185,7 +195,7 @@ pub fn reserve(dir: &Path) -> Result<Reservation, ExportError> {
     if let Ok(text) = std::fs::read_to_string(&marker)
         && let Ok(pid) = text.trim().parse::<u32>()
         && pid != std::process::id()
-        && Path::new(&format!("/proc/{pid}")).exists()
+        && running_anlage(pid)
     {
         return Err(ExportError::Content {
             path: dir.to_path_buf(),
@@ -224,8 +234,9 @@ mod tests {
         std::fs::remove_dir_all(&dir).unwrap();
     }
 
-    /// A folder held by a running process (this test's parent stands in) is
-    /// refused; the marker goes when the reservation is dropped.
+    /// The marker goes when the reservation is dropped; a marker of a process
+    /// that is not a running anlage is stale and does not block. (A folder
+    /// held by a running anlage is refused: tested from the command line.)
     #[test]
     fn busy_folders_are_refused() {
         let dir = std::env::temp_dir().join(format!("anlage-busy-{}", std::process::id()));
@@ -235,11 +246,10 @@ mod tests {
             assert!(dir.join(BUSY).exists());
         }
         assert!(!dir.join(BUSY).exists());
+        // A marker left by a process that is gone (or is not anlage) is stale.
         let parent = std::os::unix::process::parent_id();
         std::fs::write(dir.join(BUSY), parent.to_string()).unwrap();
-        if Path::new("/proc/self").exists() {
-            assert!(reserve(&dir).unwrap_err().to_string().contains(&format!("pid {parent}")));
-        }
+        assert!(reserve(&dir).is_ok());
         std::fs::remove_dir_all(&dir).unwrap();
     }
 }

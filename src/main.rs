@@ -183,7 +183,7 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
                         dir.display()
                     )
                 }
-                other => other.with_context(|| format!("simulating {}", model.file.display()))?,
+                other => other.with_context(|| format!("simulating {} (nothing was written)", model.file.display()))?,
             };
             let checksum = anlage::reference::checksum(run.recording.final_state());
             let solve_seconds = start.elapsed().as_secs_f64().min(fastest);

@@ -42,7 +42,7 @@ fn trial_lines(s: &mut String, m: &Model) {
             {
                 let _ = writeln!(
                     s,
-                    "warning   step_min = {step_min} min is above that: the run would go unstable and be stopped; \
+                    "warning   step_min = {step_min} min is above that: the run may go unstable (it is stopped if it does); \
                      take step_min <= {:.3e} min or error-controlled steps",
                     0.9 * t.stable_step
                 );
@@ -128,7 +128,7 @@ pub fn describe(m: &Model) -> String {
         let k_max = anlage::integrate::explicit_stability(m.clock.scheme) / rate;
         let _ = writeln!(
             s,
-            "stiffness fastest reaction rate {rate:.3e} /min at the start: steps stay below ~{k_max:.3e} min"
+            "stiffness fastest reaction rate {rate:.3e} /min at the start (a decay that fast alone allows fixed steps up to ~{k_max:.3e} min)"
         );
     }
     let at_least = anlage::integrate::least_steps(m);

@@ -289,3 +289,28 @@ fn issue_19_screen_outcomes_in_words() {
     let names: Vec<String> = screen::families(&ribbon, false, false, true).iter().map(|m| m.name.clone()).collect();
     assert!(names.contains(&"amber.production x0.5".to_string()) && names.contains(&"head.peak x2".to_string()));
 }
+
+/// Issue 19 (a trial's finding): a smooth boundary that happens to move
+/// about one nucleus spacing per scan step (0.025 in ln p) sits near whole
+/// spacings at every scan point, and was called pinned. Here r = s·m(x)/k at
+/// steady state with m = e^(−x/λ), read at the absolute level 1: x* =
+/// λ·ln(s/k), so dx*/d ln s = λ = 100 µm = 40 spacings per unit ln p,
+/// exactly one spacing per scan step (x* follows from the steady state
+/// directly; Wolpert 1969, J. Theor. Biol. 25:1, for the threshold reading).
+#[test]
+fn issue_19_a_smooth_boundary_moving_a_spacing_per_scan_step_is_smooth() {
+    let m = parse(
+        "title = \"one spacing per step\"\n[tissue]\nnuclei = [200]\nspacing_um = 2.5\n\
+         [clock]\nuntil_min = 300.0\ntolerance = 1e-9\nsnapshot_every_min = 300.0\n\
+         [[gradient]]\nname = \"head\"\nshape = \"exponential\"\nfrom = \"left\"\npeak = 1.0\ndecay_length_um = 100.0\n\
+         [[gene]]\nname = \"russet\"\nrate = \"s * head - k * russet\"\nboundary_level = { absolute = 1.0 }\n\
+         [circuit]\nkinetics = \"rates\"\nparameters = { s = 4.0, k = 0.2 }\n",
+    );
+    let rows = screen::sensitivity(&m, screen::SENSITIVITY_STEP, true).unwrap();
+    let s = rows.iter().find(|r| r.parameter == "s").unwrap();
+    assert_eq!(s.kind, "smooth", "{rows:#?}");
+    assert_relative_eq!(s.d_um_per_ln.unwrap(), 100.0, max_relative = 2e-2);
+    let k = rows.iter().find(|r| r.parameter == "k").unwrap();
+    assert_eq!(k.kind, "smooth", "{rows:#?}");
+    assert_relative_eq!(k.d_um_per_ln.unwrap(), -100.0, max_relative = 2e-2);
+}

@@ -52,7 +52,7 @@ pub enum StepError {
     /// that the rate law cannot make negative going negative).
     #[error(
         "the fixed step of {step_min} min is too long for this model: at t = {t_min:.4} min, in nucleus {nucleus}, {why}. \
-         Nothing was written. Take step_min <= {advice:.4e} min, or error-controlled steps (clock.tolerance = 1e-6)"
+         Take step_min <= {advice:.4e} min, or error-controlled steps (clock.tolerance = 1e-6)"
     )]
     UnsafeStep {
         /// Time, min.
@@ -216,6 +216,7 @@ pub fn integrate_from(
             let held: Vec<bool> = model.clamps.iter().map(Option::is_some).collect();
             let signed: Vec<bool> = model.genes.iter().map(|g| g.rate.is_some()).collect();
             let names: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
+            let mut flagged = false;
             while progress.steps_taken < total {
                 let n = progress.steps_taken + 1;
                 let t_new = n as f64 * step_min;
@@ -228,18 +229,36 @@ pub fn integrate_from(
                 if n == 1 || n % SAFETY_EVERY == 0 || at_snapshot {
                     let u = stepper.state();
                     let m = tissue.inputs_with_state(t_new, u);
-                    if let Some(bad) =
-                        safety::check(kinetics, model.clock.scheme, step_min, u, &m, &held, &signed, &names)
-                    {
-                        let advice = if bad.stable_step.is_finite() { 0.9 * bad.stable_step } else { 0.25 * step_min };
-                        let why = bad.why;
-                        return Err(StepError::UnsafeStep {
-                            t_min: t_new,
-                            step_min,
-                            nucleus: bad.nucleus,
-                            why,
-                            advice,
-                        });
+                    match safety::check(
+                        kinetics,
+                        model.clock.scheme,
+                        step_min,
+                        model.clock.until_min,
+                        u,
+                        &m,
+                        &held,
+                        &signed,
+                        &names,
+                    ) {
+                        // An unstable mode seen at two checks in a row (a brief
+                        // excursion does no harm), or a negative level at once.
+                        Some(bad) if bad.negative || flagged => {
+                            let at_state = if bad.stable_step.is_finite() { bad.stable_step } else { step_min };
+                            // Along a loose error-controlled trial the whole run's limit shows,
+                            // not only that of a state the long step has already spoiled.
+                            let along = safety::trial(model).map_or(f64::INFINITY, |t| t.stable_step);
+                            let advice = 0.9 * if along < step_min { along } else { at_state.min(0.25 * step_min) };
+                            let why = bad.why;
+                            return Err(StepError::UnsafeStep {
+                                t_min: t_new,
+                                step_min,
+                                nucleus: bad.nucleus,
+                                why,
+                                advice,
+                            });
+                        }
+                        Some(_) => flagged = true,
+                        None => flagged = false,
                     }
                 }
                 if at_snapshot {

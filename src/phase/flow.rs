@@ -139,7 +139,39 @@ impl Step {
         }
         Some(0.5 * (a + b))
     }
+    /// The extremes of the first coordinate over this step: at its ends and
+    /// where the interpolant's slope (a quadratic) vanishes inside it.
+    fn extremes(&self) -> (f64, f64) {
+        let h = self.t1 - self.t0;
+        // d/ds of the Hermite cubic: a s² + b s + c.
+        let (dx, m0, m1) = (self.x1 - self.x0, h * self.f0, h * self.f1);
+        let a = 3.0 * (m0 + m1 - 2.0 * dx);
+        let b = 2.0 * (3.0 * dx - 2.0 * m0 - m1);
+        let c = m0;
+        let (mut lo, mut hi) = (self.x0.min(self.x1), self.x0.max(self.x1));
+        let mut visit = |s: f64| {
+            if s > 0.0 && s < 1.0 {
+                let v = self.at(self.t0 + s * h);
+                lo = lo.min(v);
+                hi = hi.max(v);
+            }
+        };
+        if a.abs() > 1e-300 {
+            let disc = b * b - 4.0 * a * c;
+            if disc >= 0.0 {
+                let r = disc.sqrt();
+                visit((-b + r) / (2.0 * a));
+                visit((-b - r) / (2.0 * a));
+            }
+        } else if b.abs() > 1e-300 {
+            visit(-c / b);
+        }
+        (lo, hi)
+    }
 }
+
+/// Accepted steps allowed for one fate before it is called unresolved.
+pub const MAX_STEPS: usize = 2_000_000;
 
 /// Integrates the isolated dynamics from `x0` (Dormand–Prince at relative
 /// and absolute tolerance `tol`) and says where they end:
@@ -147,13 +179,17 @@ impl Step {
 ///   state also moves slower than `radius` per unit time;
 /// - or on a limit cycle, from upward crossings of the first coordinate
 ///   through the middle of its range over the second half of the time so
-///   far: three successive periods equal to 1e-3 relative. The crossings are
+///   far: three successive periods equal to 1e-3 relative, and amplitudes
+///   (peak to peak per cycle) that are not dying away. The crossings are
 ///   located on each step's cubic Hermite interpolant (event location on
 ///   the dense output), and the run goes on until two successive periods
-///   agree to 10·`tol` relative (at most 200 more), so the period is as
-///   accurate as the integration;
+///   agree to 10·`tol` relative and the amplitude has settled (at most 200
+///   more cycles), so the period is as accurate as the integration. An
+///   oscillation whose amplitude shrinks geometrically towards zero (a
+///   stable focus, however slowly it decays) is not a cycle: the run goes on;
 /// - unresolved when neither happens within `horizon` min, doubled while
-///   neither is seen, up to [`HORIZON_GROWTH`] × `horizon`.
+///   neither is seen, up to [`HORIZON_GROWTH`] × `horizon`, or within
+///   [`MAX_STEPS`] steps.
 pub fn fate_with(sys: &dyn System, x0: &[f64], points: &[FixedPoint], radius: f64, horizon: f64, tol: f64) -> Fate {
     let n = sys.dim();
     let mut x = x0.to_vec();
@@ -162,6 +198,7 @@ pub fn fate_with(sys: &dyn System, x0: &[f64], points: &[FixedPoint], radius: f6
     let (mut t, mut h) = (0.0, horizon * 1e-6);
     let near = |x: &[f64], p: &FixedPoint| x.iter().zip(&p.x).all(|(a, b)| (a - b).abs() <= radius);
     let mut steps: Vec<Step> = Vec::new();
+    let mut taken_steps = 0usize;
     let mut t_end = horizon;
     loop {
         while t < t_end {
@@ -171,45 +208,65 @@ pub fn fate_with(sys: &dyn System, x0: &[f64], points: &[FixedPoint], radius: f6
             steps.push(Step { t0: t, t1: t + taken, x0: start, x1: x[0], f0, f1 });
             t += taken;
             h = next;
+            taken_steps += 1;
             if let Some(k) = points.iter().position(|p| p.kind.is_stable() && near(&x, p)) {
                 sys.rates(&x, &mut rates);
                 if rates.iter().all(|r| r.abs() <= radius) {
                     return Fate::Point(k);
                 }
             }
-            if !x.iter().all(|v| v.is_finite()) {
+            if !x.iter().all(|v| v.is_finite()) || taken_steps > MAX_STEPS {
                 return Fate::Unresolved;
             }
         }
         steps.retain(|s| s.t0 >= 0.5 * t_end);
         if let Some((level, amplitude)) = cycle_level(&steps) {
-            // Keep going until the period stops changing.
+            // Keep going until the period and the amplitude stop changing.
             let mut crossings: Vec<f64> = steps.iter().filter_map(|s| s.rises_through(level)).collect();
+            let mut amplitudes = cycle_amplitudes(&steps, &crossings);
+            let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
             let mut periods = 0;
-            while periods < 200 {
+            let last_period = crossings[crossings.len() - 1] - crossings[crossings.len() - 2];
+            let mut settled = None;
+            while periods < 200 && t - crossings[crossings.len() - 1] < 10.0 * last_period {
                 let start = x[0];
                 let (taken, next) = integ.step(&mut x, h);
                 let (f0, f1) = (integ.end_slopes().0[0], integ.end_slopes().1[0]);
                 let step = Step { t0: t, t1: t + taken, x0: start, x1: x[0], f0, f1 };
                 t += taken;
                 h = next;
-                if !x.iter().all(|v| v.is_finite()) {
+                taken_steps += 1;
+                if !x.iter().all(|v| v.is_finite()) || taken_steps > MAX_STEPS {
                     return Fate::Unresolved;
                 }
+                let (a, b) = step.extremes();
+                (lo, hi) = (lo.min(a), hi.max(b));
                 if let Some(c) = step.rises_through(level) {
                     crossings.push(c);
+                    amplitudes.push(hi - lo);
+                    (lo, hi) = (f64::INFINITY, f64::NEG_INFINITY);
                     periods += 1;
                     let k = crossings.len();
-                    if k >= 3 {
+                    settled = amplitude_settled(&amplitudes);
+                    if settled == Some(false) {
+                        break;
+                    }
+                    if k >= 3 && settled == Some(true) {
                         let (p1, p2) = (crossings[k - 1] - crossings[k - 2], crossings[k - 2] - crossings[k - 3]);
                         if (p1 - p2).abs() <= 10.0 * tol * p1 {
-                            return Fate::Cycle { period_min: p1, amplitude };
+                            return Fate::Cycle { period_min: p1, amplitude: amplitudes[amplitudes.len() - 1] };
                         }
                     }
                 }
             }
-            let k = crossings.len();
-            return Fate::Cycle { period_min: crossings[k - 1] - crossings[k - 2], amplitude };
+            if settled != Some(false) && t - crossings[crossings.len() - 1] < 10.0 * last_period {
+                let k = crossings.len();
+                let amplitude = amplitudes.last().copied().unwrap_or(amplitude);
+                return Fate::Cycle { period_min: crossings[k - 1] - crossings[k - 2], amplitude };
+            }
+            // Dying away (or stopped): an ordinary run towards a point again.
+            steps.clear();
+            t_end = t;
         }
         if t_end >= HORIZON_GROWTH * horizon {
             return Fate::Unresolved;
@@ -218,9 +275,52 @@ pub fn fate_with(sys: &dyn System, x0: &[f64], points: &[FixedPoint], radius: f6
     }
 }
 
+/// Peak-to-peak range of the first coordinate over each cycle between
+/// successive crossings (times, ascending) of `steps`.
+fn cycle_amplitudes(steps: &[Step], crossings: &[f64]) -> Vec<f64> {
+    crossings
+        .windows(2)
+        .map(|w| {
+            let (lo, hi) = steps
+                .iter()
+                .filter(|s| s.t1 > w[0] && s.t0 < w[1])
+                .map(Step::extremes)
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), (a, b)| (l.min(a), h.max(b)));
+            hi - lo
+        })
+        .collect()
+}
+
+/// Whether per-cycle amplitudes `a` (oldest first) have settled on a cycle
+/// (Some(true)), are dying away towards a point (Some(false)), or cannot
+/// tell yet (None). From the last three: when they change geometrically
+/// (ratio r of successive changes in (0, 1)), Aitken's extrapolation
+/// a∞ = a₁ + d₁·r/(1 − r) gives their limit (Aitken 1926, Proc. R. Soc.
+/// Edinb. 46:289); a limit below 5 % of the last amplitude is a decay to a
+/// point; a last change below 1e-6 relative (after one below 1e-5) is a
+/// settled cycle.
+fn amplitude_settled(a: &[f64]) -> Option<bool> {
+    let k = a.len();
+    if k < 3 {
+        return None;
+    }
+    let (a1, a2, a3) = (a[k - 1], a[k - 2], a[k - 3]);
+    let (d1, d2) = (a1 - a2, a2 - a3);
+    if d1.abs() <= 1e-6 * a1 && d2.abs() <= 1e-5 * a1 {
+        return Some(true);
+    }
+    if d1 < 0.0 && d2 < 0.0 {
+        let r = d1 / d2;
+        if r > 0.0 && r < 1.0 && a1 + d1 * r / (1.0 - r) < 0.05 * a1 {
+            return Some(false);
+        }
+    }
+    None
+}
+
 /// The middle of the first coordinate's range over `steps` and the range,
 /// when its upward crossings there show an oscillation (at least four, the
-/// last three periods equal to 1e-3 relative).
+/// last three periods equal to 1e-3 relative) that is not dying away.
 fn cycle_level(steps: &[Step]) -> Option<(f64, f64)> {
     let (lo, hi) = steps.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), s| (l.min(s.x1), h.max(s.x1)));
     if !(hi - lo > 1e-9 * (1.0 + hi.abs())) {
@@ -234,7 +334,8 @@ fn cycle_level(steps: &[Step]) -> Option<(f64, f64)> {
     let periods: Vec<f64> = crossings.windows(2).map(|w| w[1] - w[0]).collect();
     let last = &periods[periods.len() - 3..];
     let mean = last.iter().sum::<f64>() / 3.0;
-    last.iter().all(|p| (p - mean).abs() <= 1e-3 * mean).then_some((mid, hi - lo))
+    let regular = last.iter().all(|p| (p - mean).abs() <= 1e-3 * mean);
+    (regular && amplitude_settled(&cycle_amplitudes(steps, &crossings)) != Some(false)).then_some((mid, hi - lo))
 }
 
 #[cfg(test)]
@@ -298,6 +399,49 @@ mod tests {
             Fate::Cycle { period_min, amplitude } => {
                 assert_relative_eq!(period_min, 2.0 * std::f64::consts::PI, max_relative = 1e-4);
                 assert_relative_eq!(amplitude, 2.0, max_relative = 1e-3);
+            }
+            other => panic!("{other:?}"),
+        }
+    }
+
+    /// Brusselator u' = A − (B+1)u + u²v, v' = Bu − u²v (Prigogine & Lefever
+    /// 1968, J. Chem. Phys. 48:1695): fixed point (A, B/A), a Hopf
+    /// bifurcation at B = 1 + A² (Strogatz, Nonlinear Dynamics and Chaos,
+    /// 1994, §8.3).
+    struct Bruss(f64);
+    impl System for Bruss {
+        fn dim(&self) -> usize {
+            2
+        }
+        fn rates(&self, u: &[f64], out: &mut [f64]) {
+            out[0] = 1.0 - (self.0 + 1.0) * u[0] + u[0] * u[0] * u[1];
+            out[1] = self.0 * u[0] - u[0] * u[0] * u[1];
+        }
+        fn jacobian(&self, u: &[f64], jac: &mut [f64]) {
+            jac.copy_from_slice(&[
+                -(self.0 + 1.0) + 2.0 * u[0] * u[1],
+                u[0] * u[0],
+                self.0 - 2.0 * u[0] * u[1],
+                -u[0] * u[0],
+            ]);
+        }
+    }
+
+    /// Just below the Hopf point (B = 1.99, A = 1) the fixed point is a stable
+    /// focus with Re λ = (B − 1 − A²)/2 = −0.005 /min: the oscillation dies
+    /// away by only 3 % per cycle. That is a point, not a cycle, and the
+    /// answer comes back (no hang).
+    #[test]
+    fn a_slowly_decaying_focus_is_a_point_not_a_cycle() {
+        let sys = Bruss(1.99);
+        let p = crate::phase::fixed::fixed_point_at(&sys, vec![1.0, 1.99]);
+        assert!(p.kind.is_stable());
+        let fate = fate_with(&sys, &[0.90366682, 2.03346343], &[p], 1e-4, 200.0, 1e-8);
+        assert_eq!(fate, Fate::Point(0));
+        // Just above it (B = 2.1) the cycle is born and found.
+        match fate_with(&Bruss(2.1), &[0.9, 2.0], &[], 1e-4, 200.0, 1e-8) {
+            Fate::Cycle { period_min, .. } => {
+                assert!((period_min - 2.0 * std::f64::consts::PI).abs() < 0.3, "{period_min}")
             }
             other => panic!("{other:?}"),
         }

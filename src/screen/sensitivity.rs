@@ -8,8 +8,10 @@
 //! offsets u of ln p across ±[`SCAN_LN`]:
 //! - **pinned** when it moves by at least half a nucleus spacing over the
 //!   scan, yet every position stays within 0.2 spacing of the wild type's
-//!   plus a whole number of spacings (it moves in jumps of whole nuclei and
-//!   hardly in between): the parameter values where the boundary jumps are found by
+//!   plus a whole number of spacings, and it both rests (moves less than 0.2
+//!   spacing between some neighbouring scan points) and jumps (by at least
+//!   half a spacing between others): it moves in jumps of whole nuclei and
+//!   hardly in between; the parameter values where the boundary jumps are found by
 //!   bisection (to 1e-4 in ln p), and the sensitivity is the secant
 //!   `(x(+Δ) − x(−Δ)) / 2Δ` over a range Δ that spans at least two jumps
 //!   (widened from ±0.1 up to ±0.8 in ln p);
@@ -124,7 +126,13 @@ fn rows_for(model: &Model, p: Param, wt: &[Boundary], step_ln: f64) -> Vec<Sensi
             xs.iter().copied().fold(f64::NEG_INFINITY, f64::max) - xs.iter().copied().fold(f64::INFINITY, f64::min);
         let off_grid =
             xs.iter().map(|x| (x - x0) - spacing * ((x - x0) / spacing).round()).fold(0.0f64, |a, r| a.max(r.abs()));
-        if range >= 0.5 * spacing && off_grid < 0.2 * spacing {
+        // A pinned boundary rests between jumps: some neighbouring scan
+        // points show no movement. (A smooth boundary that happens to move
+        // about one spacing per scan step is also near whole spacings.)
+        let steps: Vec<f64> = xs.windows(2).map(|w| (w[1] - w[0]).abs()).collect();
+        let rests = steps.iter().any(|d| *d < 0.2 * spacing);
+        let jumps = steps.iter().any(|d| *d >= 0.5 * spacing);
+        if range >= 0.5 * spacing && off_grid < 0.2 * spacing && rests && jumps {
             // Pinned: widen the secant until it spans two jumps.
             let mut half = SCAN_LN;
             let mut jumps = jumps_in(&grid, &xs, spacing, &x_at);

@@ -98,7 +98,7 @@ pub enum Command {
         /// Add every single link removal.
         #[arg(long)]
         link_removals: bool,
-        /// Add a dosage series of each gradient's peak (x0.25, x0.5, x2, x4).
+        /// Add dosage series: each gene's production x0.5 and x2 (one copy, an extra copy) and each gradient's peak x0.25, x0.5, x2, x4.
         #[arg(long)]
         dosage: bool,
         /// Also animate the wild type beside this mutant (its name).

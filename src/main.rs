@@ -227,6 +227,16 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
                 }
                 .into());
             }
+            let last = rec.times.last().copied().unwrap_or(0.0);
+            let every_snapshot = rec.times.windows(2).map(|w| w[1] - w[0]).fold(0.0f64, f64::max);
+            if let Some(t) = at.iter().find(|t| **t > last + 0.5 * every_snapshot) {
+                return Err(StyleError::OutOfRange {
+                    option: "--at".into(),
+                    value: format!("{t}"),
+                    fix: format!("the run ends at t = {last} min; give times up to that"),
+                }
+                .into());
+            }
             let opts = anlage::phase::BasinOptions {
                 with_influx: *with_influx,
                 every: *every,

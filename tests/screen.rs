@@ -313,4 +313,9 @@ fn issue_19_a_smooth_boundary_moving_a_spacing_per_scan_step_is_smooth() {
     let k = rows.iter().find(|r| r.parameter == "k").unwrap();
     assert_eq!(k.kind, "smooth", "{rows:#?}");
     assert_relative_eq!(k.d_um_per_ln.unwrap(), -100.0, max_relative = 2e-2);
+    // A hundredfold less synthesis: russet peaks at 0.2, below its absolute
+    // level everywhere, which the screen says in those words (not "boundary lost").
+    let low = m.parse_mutant(r#"{ name = "low", scale = { "s" = 0.01 } }"#).unwrap();
+    let s = run_screen(&m, &[low], true).unwrap();
+    assert_eq!(s.shifts[0][0].status, screen::outcome::GENE_BELOW, "{:?}", s.shifts[0]);
 }

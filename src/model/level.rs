@@ -48,7 +48,7 @@ impl Default for Level {
 impl super::Model {
     /// Sets boundary levels from `GENE=SPEC`, SPEC one of `max:F` (a fraction
     /// 0 < F < 1 of the gene's maximum), `level:A` (a.u., > 0) or `capacity:F`
-    /// (0 < F ≤ 1 of its capacity p/d); GENE `*` sets every gene.
+    /// (0 < F < 1 of its capacity p/d, a fixed level); GENE `*` sets every gene.
     ///
     /// # Errors
     /// How to write it, when the text is not understood or the gene unknown.
@@ -69,7 +69,7 @@ impl super::Model {
             self.genes[g].boundary = match kind.trim() {
                 "max" if v > 0.0 && v < 1.0 => Level::FractionOfMax(v),
                 "level" if v.is_finite() && v > 0.0 => Level::Absolute(v),
-                "capacity" if v > 0.0 && v <= 1.0 => {
+                "capacity" if v > 0.0 && v < 1.0 => {
                     if gene.rate.is_some() || !(gene.production > 0.0 && gene.decay > 0.0) {
                         return Err(format!("`{}` has no capacity p/d; give level:A instead", gene.name));
                     }

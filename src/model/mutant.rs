@@ -155,7 +155,15 @@ pub(super) fn check_mutant(
         if !(level.is_finite() && *level >= 0.0) {
             return Err(fail("clamp", format!("level for `{name}` is {level}"), "give a finite level >= 0"));
         }
-        edits.push(Edit::Clamp(gene("clamp", name)?, *level));
+        let g = gene("clamp", name)?;
+        if edits.contains(&Edit::KnockOut(g)) {
+            return Err(fail(
+                "clamp",
+                format!("holds `{name}`, which the mutant also knocks out"),
+                "keep one: knock_out (no production) or clamp (a fixed level)",
+            ));
+        }
+        edits.push(Edit::Clamp(g, *level));
     }
     for e in &spec.ectopic {
         let g = gene("ectopic", &e.gene)?;

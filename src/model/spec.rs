@@ -164,28 +164,9 @@ pub struct GeneSpec {
     pub bias: Option<f64>,
     /// The level that defines this gene's boundaries: a fraction of its
     /// maximum (a number, default 0.5), `{ absolute = 2.0 }` (a.u.) or
-    /// `{ of_capacity = 0.5 }` (a fraction of p/d).
-    pub boundary_level: Option<BoundaryLevelSpec>,
-}
-
-/// `boundary_level`: a number (fraction of the maximum) or a table.
-#[derive(Debug, Clone, Deserialize)]
-#[serde(untagged)]
-pub enum BoundaryLevelSpec {
-    /// Fraction of the gene's maximum at each time.
-    Fraction(f64),
-    /// `{ absolute = … }` or `{ of_capacity = … }`.
-    Table(BoundaryLevelTable),
-}
-
-/// The table form of `boundary_level`.
-#[derive(Debug, Clone, Deserialize)]
-#[serde(deny_unknown_fields)]
-pub struct BoundaryLevelTable {
-    /// A fixed level, a.u.
-    pub absolute: Option<f64>,
-    /// A fraction of the gene's capacity p/d.
-    pub of_capacity: Option<f64>,
+    /// `{ of_capacity = 0.5 }` (a fraction of p/d); read as a TOML value and
+    /// checked by hand, so that a mistake gets a message in these words.
+    pub boundary_level: Option<toml::Value>,
 }
 
 /// `[circuit]`

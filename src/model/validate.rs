@@ -132,6 +132,16 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
     Ok(model)
 }
 
+/// What a name means in rate expressions when no gene, gradient or
+/// parameter may take it: `x` (position, µm) and `t` (time, min).
+pub(super) fn reserved(name: &str) -> Option<&'static str> {
+    match name {
+        "x" => Some("the position, µm"),
+        "t" => Some("the time, min"),
+        _ => None,
+    }
+}
+
 fn claim_name(
     names: &mut HashMap<String, (&'static str, Range<usize>)>,
     name: &str,
@@ -148,6 +158,16 @@ fn claim_name(
             field: format!("{kind}.name"),
             problem: format!("is `{name}`, not a usable name"),
             fix: "use a non-empty name without spaces or commas".into(),
+        });
+    }
+    if let Some(meaning) = reserved(name) {
+        return Err(ModelError::Invalid {
+            file: src.file(),
+            line,
+            column,
+            field: format!("{kind}.name"),
+            problem: format!("is `{name}`, which rate expressions read as {meaning}"),
+            fix: "choose another name".into(),
         });
     }
     if let Some((first_kind, first)) = names.get(name) {

@@ -7,7 +7,7 @@ use std::ops::Range;
 use toml::Spanned;
 
 use super::Level;
-use super::spec::{BoundaryLevelSpec, GeneSpec, LinkSpec};
+use super::spec::{GeneSpec, LinkSpec};
 use super::validate::{Checker, PALETTE};
 use super::{
     Circuit, Combine, Gene, Gradient, Grid, Initial, KineticsKind, Link, LinkEffect, ModelError, Regulator, Source,
@@ -176,28 +176,59 @@ pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Sou
 }
 
 /// The gene's boundary level, checked; a fraction of capacity becomes the
-/// absolute level f·p/d.
+/// absolute level f·p/d of the model as written (a fixed level: mutants that
+/// change p or d do not move it, as a detection threshold would not move).
 fn boundary_level(c: &Checker, spec: &GeneSpec, production: f64, decay: f64) -> Result<Level, ModelError> {
+    use toml::Value;
     let key = "boundary_level";
-    let fix = "write a fraction of the maximum (0 < f < 1), { absolute = LEVEL } or { of_capacity = f }";
-    match &spec.boundary_level {
-        None => Ok(Level::HALF_MAX),
-        Some(BoundaryLevelSpec::Fraction(f)) if f.is_finite() && *f > 0.0 && *f < 1.0 => Ok(Level::FractionOfMax(*f)),
-        Some(BoundaryLevelSpec::Fraction(f)) => Err(c.fail(key, format!("is {f}"), fix)),
-        Some(BoundaryLevelSpec::Table(t)) => match (t.absolute, t.of_capacity) {
-            (Some(v), None) if v.is_finite() && v > 0.0 => Ok(Level::Absolute(v)),
-            (None, Some(f)) if f.is_finite() && f > 0.0 && f <= 1.0 => {
-                if spec.rate.is_some() || !(production > 0.0 && decay > 0.0) {
-                    return Err(c.fail(
-                        key,
-                        "asks for a fraction of the capacity p/d, which this gene does not have".into(),
-                        "give { absolute = LEVEL } instead (a gene with a rate expression or no decay has no capacity)",
-                    ));
-                }
-                Ok(Level::Absolute(f * production / decay))
+    let fix = "write a fraction of the maximum (0 < f < 1), { absolute = LEVEL } (LEVEL > 0, a.u.) \
+               or { of_capacity = f } (0 < f < 1)";
+    let number = |v: &Value| match v {
+        Value::Float(f) => Some(*f),
+        Value::Integer(i) => Some(*i as f64),
+        _ => None,
+    };
+    let Some(value) = &spec.boundary_level else { return Ok(Level::HALF_MAX) };
+    if let Some(f) = number(value) {
+        if f.is_finite() && f > 0.0 && f < 1.0 {
+            return Ok(Level::FractionOfMax(f));
+        }
+        return Err(c.fail(key, format!("is {f}, not a fraction between 0 and 1"), fix));
+    }
+    let Value::Table(t) = value else {
+        return Err(c.fail(key, format!("is {value}, neither a number nor a table"), fix));
+    };
+    if let Some(other) = t.keys().find(|k| !matches!(k.as_str(), "absolute" | "of_capacity")) {
+        return Err(c.fail(key, format!("has an unknown key `{other}`"), fix));
+    }
+    let read = |name: &str| -> Result<Option<f64>, ModelError> {
+        match t.get(name) {
+            None => Ok(None),
+            Some(v) => {
+                number(v).map(Some).ok_or_else(|| c.fail(key, format!("has {name} = {v}, which is not a number"), fix))
             }
-            (a, f) => Err(c.fail(key, format!("has absolute = {a:?}, of_capacity = {f:?}"), fix)),
-        },
+        }
+    };
+    match (read("absolute")?, read("of_capacity")?) {
+        (Some(v), None) if v.is_finite() && v > 0.0 => Ok(Level::Absolute(v)),
+        (Some(v), None) => Err(c.fail(key, format!("has absolute = {v}, which is not above 0"), fix)),
+        (None, Some(f)) if f.is_finite() && f > 0.0 && f < 1.0 => {
+            if spec.rate.is_some() || !(production > 0.0 && decay > 0.0) {
+                return Err(c.fail(
+                    key,
+                    "asks for a fraction of the capacity p/d, which this gene does not have".into(),
+                    "give { absolute = LEVEL } instead (a gene with a rate expression or no decay has no capacity)",
+                ));
+            }
+            Ok(Level::Absolute(f * production / decay))
+        }
+        (None, Some(f)) => Err(c.fail(
+            key,
+            format!("has of_capacity = {f}, not between 0 and 1"),
+            "a level at or above the capacity p/d is never crossed; take a fraction 0 < f < 1",
+        )),
+        (None, None) => Err(c.fail(key, "is an empty table".into(), fix)),
+        (Some(_), Some(_)) => Err(c.fail(key, "gives both absolute and of_capacity".into(), "keep one of them")),
     }
 }
 
@@ -239,6 +270,13 @@ pub(super) fn check_circuit(
                 "parameters",
                 format!("has the name `{name}`"),
                 "name parameters with letters, digits and _, unlike any gene or gradient",
+            ));
+        }
+        if let Some(meaning) = super::validate::reserved(name) {
+            return Err(c.fail(
+                "parameters",
+                format!("has the name `{name}`, which rate expressions read as {meaning}"),
+                "choose another name",
             ));
         }
         parameters.push((name.clone(), c.finite("parameters", *v)?));

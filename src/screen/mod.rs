@@ -89,6 +89,8 @@ pub mod outcome {
     pub const GENE_LOST: &str = "gene lost everywhere";
     /// The gene is above its boundary level everywhere.
     pub const GENE_FILLS: &str = "gene expanded to fill";
+    /// The gene is expressed, but below its (absolute) boundary level everywhere.
+    pub const GENE_BELOW: &str = "gene below its level everywhere";
     /// The gene keeps a pattern, but not this boundary.
     pub const BOUNDARY_LOST: &str = "boundary lost";
     /// A boundary the wild type does not have.
@@ -104,6 +106,9 @@ pub enum GeneState {
     NotExpressed,
     /// At or above its boundary level everywhere.
     Everywhere,
+    /// Expressed, but below its boundary level everywhere (an absolute
+    /// level that the profile never reaches).
+    Below,
     /// Crosses its level somewhere.
     Patterned,
 }
@@ -135,6 +140,7 @@ pub fn final_outcome(model: &Model) -> Result<(Vec<Boundary>, Vec<GeneState>), S
                 _ if max < rec.floor[g] => GeneState::NotExpressed,
                 None => GeneState::NotExpressed,
                 Some(theta) if min >= theta => GeneState::Everywhere,
+                Some(theta) if max < theta => GeneState::Below,
                 Some(_) => GeneState::Patterned,
             }
         })
@@ -153,6 +159,7 @@ pub fn describe_outcomes(shifts: &mut [Shift], genes: &[String], states: &[GeneS
             ("moved", _) => outcome::MOVED,
             ("lost", Some(GeneState::NotExpressed)) => outcome::GENE_LOST,
             ("lost", Some(GeneState::Everywhere)) => outcome::GENE_FILLS,
+            ("lost", Some(GeneState::Below)) => outcome::GENE_BELOW,
             ("lost", _) => outcome::BOUNDARY_LOST,
             ("gained", _) => outcome::NEW,
             (other, _) => other,

@@ -303,6 +303,8 @@ pub fn write_fit(
     export::write_residuals(result, &dir.join("fit_residuals.csv"))?;
     export::write_correlation(problem, result, &dir.join("fit_correlation.csv"))?;
     export::write_fit_profiles(problem, result, &dir.join("fit_profiles.csv"))?;
+    export::write_starts(problem, result, &dir.join("fit_starts.csv"))?;
+    export::write_combinations(problem, result, &dir.join("fit_combinations.csv"))?;
     let text = crate::fit::fitted_model_text(problem, &result.values(), result.objective)
         .map_err(|message| export::ExportError::Content { path: dir.join("fitted.toml"), message })?;
     export::write_atomic(&dir.join("fitted.toml"), |w| w.write_all(text.as_bytes()))?;

@@ -367,45 +367,89 @@ pub fn sensitivity(rows: &[anlage::screen::SensitivityRow], dir: &Path) -> Strin
 /// What `anlage fit` prints.
 pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, seconds: f64, dir: &Path) -> String {
     let mut s = String::new();
-    let evals = r.search.evaluations;
+    let evals = r.evaluations;
     let _ = writeln!(
         s,
-        "{}: {evals} evaluations in {seconds:.1} s ({:.0} per second)",
+        "{}: {evals} evaluations in {seconds:.1} s ({:.0} per second), {} start{}",
         problem.model.title,
-        evals as f64 / seconds.max(1e-9)
+        evals as f64 / seconds.max(1e-9),
+        r.starts.len(),
+        if r.starts.len() == 1 { "" } else { "s" }
     );
-    let n = r.residuals.len();
+    for line in &r.convergence.lines {
+        let _ = writeln!(s, "  {line}");
+    }
+    if r.convergence.converged {
+        let _ = writeln!(s, "converged");
+    } else {
+        let _ = writeln!(
+            s,
+            "NOT CONVERGED: the values below may not be the best fit; raise `evaluations` in [fit] (now {}) or give more `starts`",
+            problem.evaluations
+        );
+    }
+    let n = r.residuals.iter().filter(|x| x.measured_pct.is_some()).count();
+    let quality = match r.p_value {
+        Some(p) => format!(
+            "; noise of the stated size alone gives a value this large with probability {p:.3} (χ² with {} degrees of freedom)",
+            r.dof
+        ),
+        None => "; no degrees of freedom are left to judge it".to_string(),
+    };
     let _ = writeln!(
         s,
-        "objective {:.4} over {n} boundaries and {} parameters; for noise of the stated size expect about {} ± {:.1}",
+        "objective {:.4} over {n} measured boundaries and {} parameters{quality}",
         r.objective,
-        problem.params.len(),
-        r.dof,
-        (2.0 * r.dof as f64).sqrt()
+        problem.params.len()
     );
-    let _ = writeln!(s, "{:<28} {:>12} {:>27}  note", "parameter", "value", "approx. 95 % interval");
-    for (p, e) in problem.params.iter().zip(&r.estimates) {
-        let interval = e.interval.map_or_else(|| "not available".to_string(), |(a, b)| format!("{a:.4} … {b:.4}"));
-        let note = if e.at_bound {
-            "at a bound: poorly determined"
-        } else if !e.determined {
-            "wide: poorly determined"
-        } else {
-            ""
-        };
-        let _ = writeln!(s, "{:<28} {:>12.5} {:>27}  {note}", p.name, e.value, interval);
+    if r.p_value.is_some_and(|p| p < 0.01) {
+        let _ = writeln!(
+            s,
+            "POOR FIT: the model misses the measured boundaries by more than their stated errors (see fit_residuals.csv)"
+        );
     }
-    for p in &r.profiles {
-        let inside: Vec<f64> = p.points.iter().filter(|(_, f)| f - r.objective < 3.84).map(|(v, _)| *v).collect();
-        let name = &problem.params[p.param].name;
-        match (inside.first(), inside.last()) {
-            (Some(a), Some(b)) => {
-                let _ = writeln!(s, "profile of {name}: within 3.84 of the best for {a:.4} … {b:.4} (grid points)");
-            }
-            _ => {
-                let _ = writeln!(s, "profile of {name}: no grid point within 3.84 of the best");
-            }
+    let _ = writeln!(
+        s,
+        "{:<28} {:>12} {:>29} {:>27}  note",
+        "parameter", "value", "95 % interval (profile)", "approx. (curvature)"
+    );
+    for (p, e) in problem.params.iter().zip(&r.estimates) {
+        let side = |v: f64, closed: bool| if closed { format!("{v:.4}") } else { format!("[{v:.4}]") };
+        let interval = format!("{} … {}", side(e.interval.0, e.closed.0), side(e.interval.1, e.closed.1));
+        let approx = e.approx.map_or_else(|| "singular".to_string(), |(a, b)| format!("{a:.4} … {b:.4}"));
+        let mut notes = Vec::new();
+        if e.at_bound {
+            notes.push("at a bound of its range");
         }
+        match e.closed {
+            (false, false) => notes.push("not determined on either side"),
+            (false, true) => notes.push("not determined below"),
+            (true, false) => notes.push("not determined above"),
+            _ => {}
+        }
+        if e.in_weak {
+            notes.push("in a combination the data do not fix");
+        }
+        let note =
+            if e.determined { "determined".to_string() } else { format!("poorly determined: {}", notes.join("; ")) };
+        let _ = writeln!(s, "{:<28} {:>12.5} {:>29} {:>27}  {note}", p.name, e.value, interval, approx);
+    }
+    if r.estimates.iter().any(|e| !(e.closed.0 && e.closed.1)) {
+        let _ = writeln!(
+            s,
+            "[value]: the profile stays within 3.84 of the best up to the search bound, not determined on that side"
+        );
+    }
+    for c in &r.weak {
+        let _ = writeln!(s, "combination: {}", c.text);
+    }
+    let worst = r.residuals.iter().max_by(|a, b| a.value.abs().total_cmp(&b.value.abs()));
+    if let Some(w) = worst {
+        let _ = writeln!(
+            s,
+            "largest residual: {} {} {} at t = {} min: {:+.2} σ (all in fit_residuals.csv)",
+            w.genotype, w.gene, w.direction, w.time_min, w.value
+        );
     }
     let missing = r.residuals.iter().filter(|x| x.measured_pct.is_none() || x.simulated_pct.is_none()).count();
     if missing > 0 {
@@ -413,8 +457,8 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, second
     }
     let _ = writeln!(
         s,
-        "A good fit is a hypothesis consistent with these data, not proof of the mechanism; intervals come from the \
-         local curvature and are approximate.\noutputs in {}",
+        "A good fit is a hypothesis consistent with these data, not proof of the mechanism. The 95 % intervals are \
+         profile likelihoods (the others re-fitted at each value); the curvature ones are approximate.\noutputs in {}",
         dir.display()
     );
     s

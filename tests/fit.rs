@@ -86,7 +86,7 @@ fn objective_is_zero_at_the_truth_and_a_fit_there_stays() {
 
 /// Parameter recovery: from boundaries made by the model itself with noise
 /// of a known size (sd 1.5 % per embryo, 8 embryos), the fit puts each true
-/// parameter inside its approximate 95 % interval, and the objective is
+/// parameter inside its 95 % profile-likelihood interval, and the objective is
 /// consistent with χ² on 4 − 2 = 2 degrees of freedom (below its 99.9 %
 /// point, 13.8; common practice, no source). Repeated over three noise draws.
 #[test]
@@ -96,10 +96,12 @@ fn fit_recovers_known_parameters_within_intervals() {
         let r = fit(&problem, true, &mut |_, _| {});
         assert_eq!(r.residuals.len(), 4);
         assert!(r.objective < 13.8, "seed {seed}: objective {}", r.objective);
+        assert_eq!(r.dof, 2);
+        assert!(r.p_value.is_some_and(|p| p > 1e-3), "{:?}", r.p_value);
         for (e, truth) in r.estimates.iter().zip([TRUE_LAMBDA, TRUE_K]) {
-            let (lo, hi) = e.interval.expect("curvature available");
+            let (lo, hi) = e.interval;
             assert!(lo <= truth && truth <= hi, "seed {seed}: {truth} outside [{lo}, {hi}] (best {})", e.value);
-            assert!(e.determined, "seed {seed}: {e:?}");
+            assert!(e.determined && e.closed == (true, true), "seed {seed}: {e:?}");
         }
         let c = r.correlation.as_ref().unwrap();
         assert!((c[0][0] - 1.0).abs() < 1e-9 && (c[0][1] - c[1][0]).abs() < 1e-9 && c[0][1].abs() <= 1.0);
@@ -122,8 +124,17 @@ fn fit_cli_is_deterministic_and_its_model_runs() {
         assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
         outs.push(out);
     }
-    for name in ["fit.csv", "fit_trace.csv", "fit_residuals.csv", "fitted.toml", "fit_trace.png", "fit_boundaries.png"]
-    {
+    for name in [
+        "fit.csv",
+        "fit_trace.csv",
+        "fit_residuals.csv",
+        "fitted.toml",
+        "fit_trace.png",
+        "fit_boundaries.png",
+        "fit_starts.csv",
+        "fit_profiles.csv",
+        "fit_combinations.csv",
+    ] {
         let (a, b) = (std::fs::read(outs[0].join(name)).unwrap(), std::fs::read(outs[1].join(name)).unwrap());
         assert!(a == b, "{name} differs between 1 and 2 threads");
     }
@@ -163,24 +174,147 @@ fn bad_fit_sections_are_refused_with_the_line() {
     assert!(FitProblem::from_model(&none).unwrap_err().to_string().contains("there is no [fit] section"));
 }
 
-/// Profile likelihood of λ (Venzon & Moolgavkar 1988; Raue et al. 2009): the
-/// re-fitted objective is lowest near the best fit, never below the best
-/// objective by more than the re-fit's slack, rises past the 95 % line 3.84 at
-/// both ends of its grid, and its 95 % region contains the true value.
+/// Profile likelihood (Venzon & Moolgavkar 1988; Raue et al. 2009): at each
+/// end of λ's 95 % interval the objective re-minimised over K (checked here
+/// by an independent one-dimensional scan of K, not the fit's own polish)
+/// crosses 3.84 above the best: below it just inside the end, above it just
+/// outside (0.5 µm either way; the ribbon's boundary is pinned between nuclei,
+/// so the profile is a staircase and the crossing is often a jump). No
+/// profile point falls below the best.
 #[test]
-fn profile_likelihood_brackets_the_truth() {
-    let (_, mut problem) = recovery_problem("profile", 1.5, 23, 1200);
-    problem.profile = vec![0];
+fn profile_bounds_sit_where_the_refitted_objective_rises_by_3_84() {
+    let (_, problem) = recovery_problem("profile", 1.5, 23, 1200);
     let r = fit(&problem, true, &mut |_, _| {});
-    let p = &r.profiles[0];
-    assert_eq!(p.points.len(), 9);
-    let (lowest_at, lowest) = p.points.iter().copied().min_by(|a, b| a.1.total_cmp(&b.1)).unwrap();
-    assert!(lowest >= r.objective - 1.0, "profile {lowest} far below the fit {}", r.objective);
-    let step = p.points[1].0 - p.points[0].0;
-    assert!((lowest_at - r.estimates[0].value).abs() <= 1.01 * step, "lowest at {lowest_at}");
-    assert!(p.points[0].1 - r.objective > 3.84 && p.points[8].1 - r.objective > 3.84, "{p:?}");
-    assert!(p.points.windows(2).all(|w| w[0].0 < w[1].0));
-    let inside: Vec<f64> = p.points.iter().filter(|(_, f)| f - r.objective < 3.84).map(|(v, _)| *v).collect();
-    let (lo, hi) = (inside[0] - step, inside[inside.len() - 1] + step);
-    assert!(lo <= TRUE_LAMBDA && TRUE_LAMBDA <= hi, "{TRUE_LAMBDA} outside [{lo}, {hi}]");
+    let e = &r.estimates[0];
+    assert!(e.closed == (true, true), "{e:?}");
+    assert!(r.profiles[0].points.iter().all(|(_, f)| *f >= r.objective - 1e-6 * (1.0 + r.objective)));
+    let k = &problem.params[1];
+    let profiled = |lambda: f64| {
+        // A dense scan of K in the unit range, then a golden-section refinement.
+        let f = |z: f64| objective::objective(&problem, &[lambda, k.value(z)]);
+        let best = (0..=400).map(|i| i as f64 / 400.0).min_by(|a, b| f(*a).total_cmp(&f(*b))).unwrap();
+        let (mut a, mut b) = ((best - 0.0025).max(0.0), (best + 0.0025).min(1.0));
+        for _ in 0..40 {
+            let (c, d) = (b - 0.618 * (b - a), a + 0.618 * (b - a));
+            if f(c) < f(d) { b = d } else { a = c }
+        }
+        f(0.5 * (a + b)).min(f(best))
+    };
+    for (end, outward) in [(e.interval.0, -1.0), (e.interval.1, 1.0)] {
+        let inside = profiled(end - outward * 0.5) - r.objective;
+        let outside = profiled(end + outward * 0.5) - r.objective;
+        assert!(inside < 3.84 + 0.3 && outside > 3.84 - 0.3, "at λ = {end}: {inside} inside, {outside} outside");
+    }
+}
+
+/// The local polish on NIST's nonlinear-regression reference problem Misra1a
+/// (y = b₁(1 − e^(−b₂x)), 14 points; NIST Statistical Reference Datasets,
+/// certified values to 11 digits, quoted from memory and confirmed by SciPy's
+/// least_squares in tests/reference/misra1a.py): from NIST's first start
+/// (500, 1e-4) it lands on the certified b₁, b₂ and residual sum of squares,
+/// and s·√((JᵀJ)⁻¹) from its slopes gives the certified standard errors.
+#[test]
+fn polish_reproduces_nist_misra1a() {
+    use anlage::fit::lsq;
+    let reference: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(root().join("tests/reference/misra1a.json")).unwrap()).unwrap();
+    let column =
+        |k: &str| -> Vec<f64> { reference[k].as_array().unwrap().iter().map(|v| v.as_f64().unwrap()).collect() };
+    let (x, y) = (column("x"), column("y"));
+    let cert = |k: &str| reference["certified"][k].as_f64().unwrap();
+    // b₁ on [100, 600], b₂ on [1e-5, 1e-3], both linear.
+    let b1 = |u: f64| 100.0 + 500.0 * u;
+    let b2 = |u: f64| 1e-5 + (1e-3 - 1e-5) * u;
+    let res = |u: &[f64]| {
+        Some(x.iter().zip(&y).map(|(x, y)| b1(u[0]) * (1.0 - (-b2(u[1]) * x).exp()) - y).collect::<Vec<f64>>())
+    };
+    let start = [(500.0 - 100.0) / 500.0, (1e-4 - 1e-5) / (1e-3 - 1e-5)];
+    let h = lsq::stair_steps(&res, &start, 14, &[1e-12; 14], false).unwrap();
+    let p = lsq::polish(&res, &start, &[0, 1], &h, false);
+    assert!(p.converged, "{p:?}");
+    assert!((b1(p.u[0]) / cert("b1") - 1.0).abs() < 1e-6, "b1 {}", b1(p.u[0]));
+    assert!((b2(p.u[1]) / cert("b2") - 1.0).abs() < 1e-6, "b2 {}", b2(p.u[1]));
+    assert!((p.value / cert("rss") - 1.0).abs() < 1e-9, "rss {}", p.value);
+    let jac = lsq::regression_slopes(&res, &p.u, 14, &h, false).unwrap();
+    let cov = lsq::covariance(&jac).unwrap();
+    let s2 = p.value / 12.0;
+    let se1 = 500.0 * (s2 * cov[(0, 0)]).sqrt();
+    let se2 = (1e-3 - 1e-5) * (s2 * cov[(1, 1)]).sqrt();
+    assert!((se1 / cert("sd_b1") - 1.0).abs() < 1e-4, "sd b1 {se1}");
+    assert!((se2 / cert("sd_b2") - 1.0).abs() < 1e-4, "sd b2 {se2}");
+}
+
+/// The ribbon's boundaries depend on cobalt's production p and the
+/// cobalt → amber threshold K only through p/K (cobalt's level scales with p,
+/// the Hill term reads c/K, and each boundary sits at half its gene's
+/// maximum): scaling both by 0.6 moves no boundary (checked first). Fitting
+/// both to noise-free data of the truth must say that only the ratio is
+/// determined, and call neither parameter determined.
+#[test]
+fn an_exact_trade_off_is_named_and_neither_partner_is_determined() {
+    let dir = std::env::temp_dir().join(format!("anlage-fit-{}-ratio", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    write_table(&dir, "wt", None, 0.0, 1);
+    write_table(&dir, "x2", Some("head x2"), 0.0, 2);
+    let truth = Model::from_toml(&ribbon_with(TRUE_LAMBDA, TRUE_K), Path::new("t.toml")).unwrap();
+    let scaled = truth
+        .parse_mutant(r#"{ name = "both", scale = { "cobalt.production" = 0.6, "cobalt->amber.threshold" = 0.6 } }"#)
+        .unwrap();
+    let (a, b) = (
+        anlage::screen::final_boundaries(&truth).unwrap(),
+        anlage::screen::final_boundaries(&truth.with_mutant(&scaled)).unwrap(),
+    );
+    assert_eq!(a.len(), b.len());
+    assert!(a.iter().zip(&b).all(|(a, b)| (a.position_pct - b.position_pct).abs() < 1e-6), "{a:?} {b:?}");
+    let text = format!(
+        "{}\n[fit]\nseed = 2\nevaluations = 300\n\
+         [[fit.parameter]]\nname = \"cobalt.production\"\nmin = 0.3\nmax = 3.0\nscale = \"log\"\n\
+         [[fit.parameter]]\nname = \"cobalt->amber.threshold\"\nmin = 0.5\nmax = 8.0\nscale = \"log\"\n\
+         [[fit.data]]\ntable = \"wt.csv\"\n[[fit.data]]\ntable = \"x2.csv\"\ngenotype = \"head x2\"\n",
+        ribbon_with(TRUE_LAMBDA, TRUE_K)
+    );
+    let path = dir.join("fit.toml");
+    std::fs::write(&path, text).unwrap();
+    let problem = FitProblem::from_model(&Model::load(&path).unwrap()).unwrap();
+    let r = fit(&problem, true, &mut |_, _| {});
+    assert!(r.objective < 1e-6, "{}", r.objective);
+    assert_eq!(r.weak.len(), 1, "{:?}", r.weak);
+    assert!(
+        r.weak[0].text.contains("only the ratio cobalt.production / cobalt->amber.threshold is determined"),
+        "{}",
+        r.weak[0].text
+    );
+    assert!(r.estimates.iter().all(|e| !e.determined && e.in_weak), "{:?}", r.estimates);
+    // Along the ratio p/K = 0.4 the profile of p stays flat over its whole
+    // range (K can follow: 0.75 … 7.5 lies inside [0.5, 8]), so it is open on
+    // both sides; that of K rises only where p meets its bounds, at
+    // K = 0.3/0.4 = 0.75 and 3.0/0.4 = 7.5.
+    let (p, k) = (&r.estimates[0], &r.estimates[1]);
+    assert_eq!(p.closed, (false, false), "{p:?}");
+    assert!((p.interval.0 - 0.3).abs() < 1e-9 && (p.interval.1 - 3.0).abs() < 1e-9, "{p:?}");
+    assert!((k.interval.0 / 0.75 - 1.0).abs() < 0.03 && (k.interval.1 / 7.5 - 1.0).abs() < 0.03, "{k:?}");
+}
+
+/// A global search stopped by its budget while the objective still falls is
+/// reported as not converged, in the result and in the report's words.
+#[test]
+fn a_search_stopped_by_its_budget_while_improving_says_so() {
+    let (path, mut problem) = recovery_problem("budget", 0.5, 3, 80);
+    for p in &mut problem.params {
+        p.start = p.max;
+    }
+    let r = fit(&problem, true, &mut |_, _| {});
+    let (quarter, end) = r.convergence.still_improving.expect("still improving");
+    assert!(quarter - end > anlage::fit::quality::STILL_IMPROVING);
+    assert!(!r.convergence.converged);
+    assert!(r.convergence.lines[0].contains("it was still improving"), "{:?}", r.convergence.lines);
+    let exe = env!("CARGO_BIN_EXE_anlage");
+    let text = std::fs::read_to_string(&path).unwrap().replace("evaluations = 80", "evaluations = 80\nstarts = 1");
+    std::fs::write(&path, text).unwrap();
+    let o = std::process::Command::new(exe)
+        .args(["fit", path.to_str().unwrap(), "-o", path.with_file_name("out").to_str().unwrap()])
+        .output()
+        .unwrap();
+    let out = String::from_utf8_lossy(&o.stdout);
+    assert!(o.status.success() && out.contains("NOT CONVERGED"), "{out}");
 }

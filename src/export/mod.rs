@@ -16,7 +16,8 @@ use std::path::{Path, PathBuf};
 
 pub use compare_tables::{write_comparison, write_measured, write_measured_profiles, write_rows};
 pub use fit_tables::{
-    write_correlation, write_fit, write_profiles as write_fit_profiles, write_residuals, write_trace,
+    write_combinations, write_correlation, write_fit, write_profiles as write_fit_profiles, write_residuals,
+    write_starts, write_trace,
 };
 pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
 pub use screen_tables::{write_sensitivity, write_shifts};

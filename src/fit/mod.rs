@@ -2,32 +2,36 @@
 //! simulated boundaries where the embryos show them, in the wild type and
 //! mutants at once, and how well the data pin each one down.
 //!
-//! Global search by differential evolution ([`optimise`]) on the weighted
-//! least-squares objective ([`objective`]); then the local curvature:
-//! with `J = ∂r/∂u` (residuals over parameters scaled to the unit range,
-//! least-squares slopes over offsets wide enough to move a boundary by a few
-//! nuclei, since boundaries of sharp switches move in nucleus-sized jumps), the Gauss–Newton approximation `H ≈ JᵀJ` to half the
-//! Hessian of Σr² gives the covariance `(JᵀJ)⁻¹` and 95 % intervals
-//! `u ± 1.96 σ_u` (Bates & Watts 1988, Nonlinear Regression Analysis and Its
-//! Applications, §2.3). Intervals come from a linearisation: approximate.
+//! 1. Global search by differential evolution ([`optimise`]) on the
+//!    weighted least-squares objective ([`objective`]), from one or several
+//!    seeds (starts);
+//! 2. a local polish of each start's best point by bounded
+//!    Levenberg–Marquardt ([`lsq::polish`]);
+//! 3. at the best point: slopes J = ∂r/∂u over steps wide enough to move a
+//!    boundary by a few nuclei (boundaries of sharp switches move in
+//!    nucleus-sized jumps); the curvature interval u ± 1.96·√((JᵀJ)⁻¹)ⱼⱼ
+//!    (approximate: a linearisation; Bates & Watts 1988, Nonlinear Regression
+//!    Analysis and Its Applications, §2.3); the combinations of parameters
+//!    the data do not fix (eigenvectors of JᵀJ);
+//! 4. for every parameter, the profile-likelihood interval: each bound where
+//!    the objective, re-minimised over the other parameters, rises 3.84
+//!    above the best ([`lsq::profile_bound`]).
 
+pub mod lsq;
 pub mod objective;
 pub mod optimise;
 pub mod problem;
+pub mod quality;
 
-use nalgebra::DMatrix;
+use rayon::prelude::*;
 
+pub use lsq::{Bound, Polish, Weak};
 pub use objective::Residual;
 pub use optimise::{DeOptions, DeResult};
 pub use problem::{FitProblem, FitSetupError, FreeParam, WILD_TYPE};
+pub use quality::{Combination, Convergence, Start, describe_combination};
 
-/// The 97.5 % point of the standard normal (two-sided 95 %).
-const Z95: f64 = 1.959_963_984_540_054;
-/// First half-width of the slope offsets, in units of the search range (common practice, no source).
-const STEP: f64 = 1e-4;
-/// Largest half-width, in units of the search range.
-const MAX_STEP: f64 = 0.1;
-/// Nuclei some boundary must move across ±h to set the half-width h (common practice, no source).
+/// Nuclei some boundary must move across ±h to set a slope step h (common practice, no source).
 const STAIRS: f64 = 3.0;
 
 /// What a fit found for one parameter.
@@ -35,11 +39,17 @@ const STAIRS: f64 = 3.0;
 pub struct Estimate {
     /// Best value.
     pub value: f64,
-    /// Approximate 95 % interval (None when the curvature is singular).
-    pub interval: Option<(f64, f64)>,
+    /// Profile-likelihood 95 % interval (values); an open side ends at the search bound.
+    pub interval: (f64, f64),
+    /// Whether the profile crossed 3.84 below and above the best value.
+    pub closed: (bool, bool),
+    /// Curvature (Laplace) 95 % interval, approximate (None when JᵀJ is singular).
+    pub approx: Option<(f64, f64)>,
     /// Within 0.1 % of the search range of a bound.
     pub at_bound: bool,
-    /// The interval stays inside the search range and the parameter is not at a bound.
+    /// Part of a combination the data do not fix.
+    pub in_weak: bool,
+    /// Both profile sides closed, not at a bound, in no weak combination.
     pub determined: bool,
 }
 
@@ -52,20 +62,29 @@ pub struct FitResult {
     pub objective: f64,
     /// The residuals there.
     pub residuals: Vec<Residual>,
-    /// Optimiser record.
+    /// The global search of the best start.
     pub search: DeResult,
-    /// Correlation matrix of the parameters (None when the curvature is singular).
+    /// Every start.
+    pub starts: Vec<Start>,
+    /// How the search ended, in numbers and words.
+    pub convergence: Convergence,
+    /// Correlation matrix of the parameters from the curvature (None when singular).
     pub correlation: Option<Vec<Vec<f64>>>,
-    /// Degrees of freedom: residuals − parameters.
+    /// Degrees of freedom: measured boundaries − parameters.
     pub dof: usize,
-    /// Profile likelihoods of the parameters asked for in `[fit] profile`.
+    /// P(χ² with `dof` degrees of freedom ≥ objective): how often noise of the
+    /// stated size alone would give a fit this poor (None without degrees of freedom).
+    pub p_value: Option<f64>,
+    /// Combinations of parameters that the data do not fix.
+    pub weak: Vec<Combination>,
+    /// The profile of every parameter: (parameter, value, objective) at each point tried.
     pub profiles: Vec<Profile>,
+    /// Objective evaluations, all stages.
+    pub evaluations: usize,
 }
 
 /// The profile of one parameter: at each fixed value, the objective minimised
-/// over the other free parameters. Where it stays within 3.84 (the 95 % point
-/// of χ² with one degree of freedom) of the best objective is the
-/// profile-likelihood interval (Venzon & Moolgavkar 1988, Appl. Statist.
+/// over the other free parameters (Venzon & Moolgavkar 1988, Appl. Statist.
 /// 37:87; Raue et al. 2009, Bioinformatics 25:1923).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Profile {
@@ -75,11 +94,6 @@ pub struct Profile {
     pub points: Vec<(f64, f64)>,
 }
 
-/// Points of each profile.
-const PROFILE_POINTS: usize = 9;
-/// 95 % point of χ² with one degree of freedom.
-const CHI2_95: f64 = 3.841_458_820_694_124;
-
 impl FitResult {
     /// The best values, in parameter order.
     pub fn values(&self) -> Vec<f64> {
@@ -87,149 +101,155 @@ impl FitResult {
     }
 }
 
-/// Runs the fit; `report(evaluations, best objective)` after each generation.
+/// The residual function of a problem on the unit cube.
+fn residual_fn(problem: &FitProblem) -> impl Fn(&[f64]) -> Option<Vec<f64>> + Sync + '_ {
+    move |u: &[f64]| objective::residuals(problem, &problem.values(u)).map(|r| r.iter().map(|x| x.value).collect())
+}
+
+/// Runs the fit; `report(evaluations, best objective)` after each generation
+/// of the global search.
 pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f64)) -> FitResult {
     let dim = problem.params.len();
+    let res = residual_fn(problem);
     let f = |u: &[f64]| objective::objective(problem, &problem.values(u));
     let start: Vec<f64> = problem.params.iter().map(|p| p.unit(p.start)).collect();
-    let opts = DeOptions { seed: problem.seed, evaluations: problem.evaluations, restarts: problem.restarts, parallel };
-    let search = optimise::minimise(dim, &f, Some(&start), &opts, report);
-    let best = problem.values(&search.best);
-    let residuals = objective::residuals(problem, &best).unwrap_or_default();
-    let objective = residuals.iter().map(|r| r.value * r.value).sum();
-    let cov = covariance(problem, &search.best, &residuals);
-    let estimates = problem
-        .params
-        .iter()
-        .enumerate()
-        .map(|(j, p)| {
-            let u = search.best[j];
-            let at_bound = !(1e-3..=1.0 - 1e-3).contains(&u);
-            let (interval, inside) = match &cov {
-                Some(c) if c[(j, j)] >= 0.0 => {
-                    let half = Z95 * c[(j, j)].sqrt();
-                    (Some((p.value(u - half), p.value(u + half))), u - half >= 0.0 && u + half <= 1.0)
-                }
-                _ => (None, false),
-            };
-            Estimate { value: best[j], interval, at_bound, determined: inside && !at_bound }
+    let first_steps = vec![lsq::FIRST_STEP; dim];
+    let all: Vec<usize> = (0..dim).collect();
+    let mut evaluations = 0;
+    let mut starts = Vec::new();
+    let mut searches = Vec::new();
+    for k in 0..problem.starts.max(1) {
+        let seed = problem.seed.wrapping_add(k as u64);
+        let opts = DeOptions { seed, evaluations: problem.evaluations, restarts: problem.restarts, parallel };
+        let search = optimise::minimise(dim, &f, Some(&start), &opts, report);
+        evaluations += search.evaluations;
+        // The polish starts with short slope steps; the stair-wide steps are
+        // found at the end, where they matter for the intervals.
+        let steps = lsq::stair_steps(
+            &res,
+            &search.best,
+            residual_count(&res, &search.best),
+            &min_move(problem, &search.best),
+            parallel,
+        )
+        .unwrap_or_else(|| first_steps.clone());
+        let polish = lsq::polish(&res, &search.best, &all, &steps, parallel);
+        evaluations += polish.evaluations;
+        starts.push(Start::new(seed, &search, polish, problem));
+        searches.push(search);
+    }
+    let best_start = (0..starts.len()).min_by(|&a, &b| starts[a].value.total_cmp(&starts[b].value)).unwrap_or(0);
+    let search = searches.swap_remove(best_start);
+    let mut u = starts[best_start].polish.u.clone();
+    let mut notes = Vec::new();
+    // Profiles re-optimise around the best point; one that finds a lower
+    // objective shows the minimum was missed: start again from there (twice at most).
+    let mut round = 0;
+    let (objective, residuals, steps, jac, bounds) = loop {
+        let residuals = objective::residuals(problem, &problem.values(&u)).unwrap_or_default();
+        let objective: f64 = residuals.iter().map(|r| r.value * r.value).sum();
+        let n = residuals.len();
+        let steps =
+            lsq::stair_steps(&res, &u, n, &min_move(problem, &u), parallel).unwrap_or_else(|| first_steps.clone());
+        let jac = lsq::regression_slopes(&res, &u, n, &steps, parallel);
+        evaluations += dim * 10;
+        let cov = jac.as_ref().and_then(lsq::covariance);
+        let tasks: Vec<(usize, f64)> = (0..dim).flat_map(|j| [(j, -1.0), (j, 1.0)]).collect();
+        let one = |&(j, dir): &(usize, f64)| {
+            let first = cov.as_ref().map_or(0.02, |c| c[(j, j)].sqrt());
+            lsq::profile_bound(&res, &u, objective, j, dir, &steps, first)
+        };
+        let bounds: Vec<Bound> =
+            if parallel { tasks.par_iter().map(one).collect() } else { tasks.iter().map(one).collect() };
+        evaluations += bounds.iter().map(|b| b.evaluations).sum::<usize>();
+        let better = bounds.iter().filter_map(|b| b.better.as_ref()).min_by(|a, b| a.0.total_cmp(&b.0)).cloned();
+        match better {
+            Some((value, at)) if round < 2 => {
+                notes.push(format!(
+                    "a profile found a lower objective ({value:.4} < {objective:.4}): the search had missed the minimum; \
+                     polished again from there"
+                ));
+                let p = lsq::polish(&res, &at, &all, &steps, parallel);
+                evaluations += p.evaluations;
+                u = p.u;
+                round += 1;
+            }
+            _ => break (objective, residuals, steps, jac, bounds),
+        }
+    };
+    let _ = steps;
+    let cov = jac.as_ref().and_then(lsq::covariance);
+    let weak_dirs = jac.as_ref().map(|j| lsq::weak_combinations(j, 1.0)).unwrap_or_default();
+    let weak: Vec<Combination> = weak_dirs.iter().map(|w| Combination::new(w, problem, &u)).collect();
+    let estimates = (0..dim)
+        .map(|j| {
+            let p = &problem.params[j];
+            let (lo, hi) = (&bounds[2 * j], &bounds[2 * j + 1]);
+            let at_bound = !(1e-3..=1.0 - 1e-3).contains(&u[j]);
+            let approx = cov.as_ref().map(|c| {
+                let half = lsq::Z95 * c[(j, j)].sqrt();
+                (p.value(u[j] - half), p.value(u[j] + half))
+            });
+            let in_weak = weak.iter().any(|w| w.members.contains(&j));
+            Estimate {
+                value: p.value(u[j]),
+                interval: (p.value(lo.u), p.value(hi.u)),
+                closed: (lo.closed, hi.closed),
+                approx,
+                at_bound,
+                in_weak,
+                determined: lo.closed && hi.closed && !at_bound && !in_weak,
+            }
+        })
+        .collect();
+    let profiles = (0..dim)
+        .map(|j| {
+            let mut points: Vec<(f64, f64)> = bounds[2 * j]
+                .points
+                .iter()
+                .chain(&bounds[2 * j + 1].points)
+                .chain(std::iter::once(&(u[j], objective)))
+                .map(|&(z, f)| (problem.params[j].value(z), f))
+                .collect();
+            points.sort_by(|a, b| a.0.total_cmp(&b.0));
+            Profile { param: j, points }
         })
         .collect();
     let correlation = cov
         .as_ref()
         .map(|c| (0..dim).map(|i| (0..dim).map(|j| c[(i, j)] / (c[(i, i)] * c[(j, j)]).sqrt()).collect()).collect());
-    let profiles =
-        problem.profile.iter().map(|&j| profile(problem, &search.best, objective, j, &cov, parallel)).collect();
+    let measured = residuals.iter().filter(|r| r.measured_pct.is_some()).count();
+    let dof = measured.saturating_sub(dim);
+    let convergence = Convergence::judge(&search, &starts, best_start, notes);
     FitResult {
         estimates,
         objective,
-        dof: residuals.len().saturating_sub(dim),
+        p_value: quality::chi2_survival(objective, dof),
+        dof,
         residuals,
         search,
+        starts,
+        convergence,
         correlation,
+        weak,
         profiles,
+        evaluations,
     }
 }
 
-/// The profile of parameter `j` around the best point `u`: a grid over ±3σ
-/// (at least ±5 % of the search range, widened until the ends rise past the
-/// 95 % line), the others re-fitted at each point by a short
-/// differential-evolution search started from the best point.
-fn profile(
-    problem: &FitProblem,
-    u: &[f64],
-    best: f64,
-    j: usize,
-    cov: &Option<DMatrix<f64>>,
-    parallel: bool,
-) -> Profile {
-    let dim = u.len();
-    let others: Vec<f64> = u.iter().enumerate().filter(|(k, _)| *k != j).map(|(_, v)| *v).collect();
-    let at = |k: usize, fixed: f64| -> f64 {
-        if dim == 1 {
-            return objective::objective(problem, &problem.values(&[fixed]));
-        }
-        let f = |rest: &[f64]| {
-            let mut v = rest.to_vec();
-            v.insert(j, fixed);
-            objective::objective(problem, &problem.values(&v))
-        };
-        let opts = DeOptions {
-            seed: problem.seed.wrapping_add(1 + k as u64),
-            evaluations: (problem.evaluations / 10).max(40 * dim),
-            restarts: 1,
-            parallel,
-        };
-        optimise::minimise(dim - 1, &f, Some(&others), &opts, &mut |_, _| {}).value
-    };
-    // Widen the grid (up to three doublings) until both ends rise past the
-    // 95 % line or reach the bounds: boundaries that move in nucleus-sized
-    // jumps can leave the profile flatter than the curvature suggests.
-    let mut half = cov.as_ref().map_or(0.05, |c| (3.0 * c[(j, j)].max(0.0).sqrt()).max(0.05));
-    let mut points = Vec::new();
-    for _ in 0..4 {
-        let (lo, hi) = ((u[j] - half).max(0.0), (u[j] + half).min(1.0));
-        points = (0..PROFILE_POINTS)
-            .map(|k| {
-                let fixed = lo + (hi - lo) * k as f64 / (PROFILE_POINTS - 1) as f64;
-                (problem.params[j].value(fixed), at(k, fixed))
-            })
-            .collect::<Vec<_>>();
-        let open_low = lo > 0.0 && points[0].1 - best < CHI2_95;
-        let open_high = hi < 1.0 && points[PROFILE_POINTS - 1].1 - best < CHI2_95;
-        if !(open_low || open_high) {
-            break;
-        }
-        half *= 2.0;
-    }
-    Profile { param: j, points }
+fn residual_count(res: &lsq::Res, u: &[f64]) -> usize {
+    res(u).map_or(0, |r| r.len())
 }
 
-/// `(JᵀJ)⁻¹` in unit-range coordinates at `u`, or None if a residual appears
-/// or disappears within the difference step, or the matrix is singular.
-fn covariance(problem: &FitProblem, u: &[f64], at: &[Residual]) -> Option<DMatrix<f64>> {
-    let dim = u.len();
-    let n = at.len();
-    let mut jac = DMatrix::<f64>::zeros(n, dim);
+/// The change of each residual that counts as a boundary moving by
+/// [`STAIRS`] nuclei: STAIRS × (one nucleus, % of the axis) / σᵢ.
+fn min_move(problem: &FitProblem, u: &[f64]) -> Vec<f64> {
     let nucleus_pct = 100.0 / problem.model.grid.nx as f64;
-    for j in 0..dim {
-        // Boundaries of a sharp switch move in nucleus-sized jumps, so the
-        // residuals are staircases in each parameter. The slope is the
-        // least-squares slope over offsets ±h/2, ±h, ±2h, with h grown until
-        // some boundary moves by several nuclei across ±h (a regression over
-        // several stairs instead of the derivative of one).
-        let residuals_at = |offset: f64| -> Option<(f64, Vec<f64>)> {
-            let z = (u[j] + offset).clamp(0.0, 1.0);
-            let mut v = u.to_vec();
-            v[j] = z;
-            let r = objective::residuals(problem, &problem.values(&v))?;
-            (r.len() == n).then(|| (z - u[j], r.iter().map(|x| x.value).collect()))
-        };
-        let mut h = STEP;
-        loop {
-            let (_, a) = residuals_at(-h)?;
-            let (_, b) = residuals_at(h)?;
-            let moved_pct = a.iter().zip(&b).zip(at).map(|((a, b), r)| (b - a).abs() * r.sigma_pct).fold(0.0, f64::max);
-            if moved_pct >= STAIRS * nucleus_pct || h >= MAX_STEP {
-                break;
-            }
-            h *= 2.0;
-        }
-        let samples: Vec<(f64, Vec<f64>)> =
-            [-2.0, -1.0, -0.5, 0.5, 1.0, 2.0].iter().map(|m| residuals_at(m * h)).collect::<Option<_>>()?;
-        let mean_d = samples.iter().map(|s| s.0).sum::<f64>() / samples.len() as f64;
-        let sxx: f64 = samples.iter().map(|s| (s.0 - mean_d).powi(2)).sum();
-        if sxx <= 0.0 {
-            return None;
-        }
-        for i in 0..n {
-            let mean_r = samples.iter().map(|s| s.1[i]).sum::<f64>() / samples.len() as f64;
-            jac[(i, j)] = samples.iter().map(|s| (s.0 - mean_d) * (s.1[i] - mean_r)).sum::<f64>() / sxx;
-        }
-    }
-    let h = jac.transpose() * &jac;
-    let inv = h.try_inverse()?;
-    inv.iter().all(|v| v.is_finite()).then_some(inv)
+    objective::residuals(problem, &problem.values(u))
+        .unwrap_or_default()
+        .iter()
+        .map(|r| STAIRS * nucleus_pct / r.sigma_pct)
+        .collect()
 }
 
 /// The model file with the fitted values written in: valid input for `anlage

@@ -4,9 +4,15 @@
 //! σ is the measured standard error: `sd/√n` when the table gives n, `sd`
 //! without n, and 1 % of the axis when the table gives no sd (common
 //! practice, no source). The sd is first raised to the row's resolution and
-//! the floor `sd_floor_pct` ([`crate::compare::floored_sd`]). A measured boundary the model does not make, and a
-//! simulated boundary of a measured gene and direction that no measurement
-//! matches, each cost a residual of [`PENALTY_PCT`]/σ, as if half an axis off.
+//! the floor `sd_floor_pct` ([`crate::compare::floored_sd`]).
+//!
+//! Penalties ([`pair`]): within one genotype, measured boundaries are grouped
+//! by gene, direction and time, and so are the simulated ones. A measured
+//! boundary with no simulated partner in its group, and a simulated boundary
+//! left over in a group that has measurements, each cost a residual of
+//! [`PENALTY_PCT`]/σ, as if half an axis off. Simulated boundaries of a
+//! gene, direction or time that was not measured in that genotype cost
+//! nothing: the data say nothing about them.
 
 use crate::compare::MeasuredRow;
 use crate::integrate;
@@ -88,29 +94,46 @@ fn genotype_residuals(model: &Model, g: &Genotype, floor: f64) -> Result<Vec<Res
             sigma_pct,
             value,
         };
-        // Pair each measured boundary with the nearest unused simulated one.
-        let mut used = vec![false; sim.len()];
-        for m in &measured {
-            let s = sigma(m, floor);
-            let nearest = (0..sim.len())
-                .filter(|&k| !used[k])
-                .min_by(|&a, &b| (sim[a] - m.position_pct).abs().total_cmp(&(sim[b] - m.position_pct).abs()));
-            match nearest {
-                Some(k) => {
-                    used[k] = true;
-                    out.push(base(Some(m), Some(sim[k]), s, (sim[k] - m.position_pct) / s));
-                }
-                None => out.push(base(Some(m), None, s, PENALTY_PCT / s)),
-            }
-        }
-        let s = measured.iter().map(|m| sigma(m, floor)).fold(f64::INFINITY, f64::min);
-        for (k, x) in sim.iter().enumerate() {
-            if !used[k] {
-                out.push(base(None, Some(*x), s, PENALTY_PCT / s));
-            }
+        for (m, x, sigma_pct, value) in pair(&measured, &sim, floor) {
+            out.push(base(m, x, sigma_pct, value));
         }
     }
     Ok(out)
+}
+
+/// Pairs the measured boundaries of one gene, direction and time (sorted
+/// along the axis) with the simulated ones `sim`: each measured boundary
+/// with the nearest unused simulated one, residual (x_sim − x_meas)/σ; a
+/// measured boundary left without a partner costs [`PENALTY_PCT`]/σ, and so
+/// does a simulated one left over (σ the smallest of the group's). Returns
+/// (measured, simulated, σ, residual) for each.
+pub fn pair<'a>(
+    measured: &[&'a MeasuredRow],
+    sim: &[f64],
+    floor: f64,
+) -> Vec<(Option<&'a MeasuredRow>, Option<f64>, f64, f64)> {
+    let mut out = Vec::new();
+    let mut used = vec![false; sim.len()];
+    for m in measured {
+        let s = sigma(m, floor);
+        let nearest = (0..sim.len())
+            .filter(|&k| !used[k])
+            .min_by(|&a, &b| (sim[a] - m.position_pct).abs().total_cmp(&(sim[b] - m.position_pct).abs()));
+        match nearest {
+            Some(k) => {
+                used[k] = true;
+                out.push((Some(*m), Some(sim[k]), s, (sim[k] - m.position_pct) / s));
+            }
+            None => out.push((Some(*m), None, s, PENALTY_PCT / s)),
+        }
+    }
+    let s = measured.iter().map(|m| sigma(m, floor)).fold(f64::INFINITY, f64::min);
+    for (k, x) in sim.iter().enumerate() {
+        if !used[k] {
+            out.push((None, Some(*x), s, PENALTY_PCT / s));
+        }
+    }
+    out
 }
 
 /// Every residual at parameter values `values` (in the order of the free
@@ -132,6 +155,24 @@ pub fn objective(problem: &FitProblem, values: &[f64]) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The penalties as documented: two measured boundaries against one
+    /// simulated one leave the farther measurement without a partner (50/σ);
+    /// one measured against two simulated leaves the farther simulated one
+    /// over (50/σ, σ of the group). Hand-computed (common practice, no source).
+    #[test]
+    fn missing_and_extra_boundaries_are_penalised() {
+        let row = |x: f64| MeasuredRow { position_pct: x, sd_pct: Some(2.0), n: Some(4), ..Default::default() };
+        let (a, b) = (row(30.0), row(60.0));
+        let got = pair(&[&a, &b], &[31.0], 0.5);
+        assert_eq!(got.len(), 2);
+        assert_eq!((got[0].1, got[0].2, got[0].3), (Some(31.0), 1.0, 1.0));
+        assert_eq!((got[1].1, got[1].3), (None, PENALTY_PCT));
+        let got = pair(&[&b], &[58.0, 20.0], 0.5);
+        assert_eq!(got.len(), 2);
+        assert_eq!((got[0].1, got[0].3), (Some(58.0), -2.0));
+        assert!(got[1].0.is_none() && got[1].1 == Some(20.0) && got[1].3 == PENALTY_PCT);
+    }
 
     /// σ is the standard error sd/√n of the floored sd: an sd below the
     /// floor (or the row's resolution) is raised first; no sd gives 1 %.

@@ -31,7 +31,14 @@ pub struct DeResult {
     pub trace: Vec<(usize, f64)>,
     /// Evaluations used.
     pub evaluations: usize,
+    /// True when the last restart stopped because its population converged
+    /// (objectives within [`SPREAD`]·(1 + S) of each other), false when
+    /// the budget ran out.
+    pub converged: bool,
 }
+
+/// Relative spread of the population's objectives at which a search stops.
+pub const SPREAD: f64 = 1e-9;
 
 /// Crossover rate (common practice; Storn & Price 1997 recommend 0.9 for
 /// non-separable problems).
@@ -57,7 +64,8 @@ pub fn minimise(
         if opts.parallel { points.par_iter().map(one).collect() } else { points.iter().map(one).collect() }
     };
     let mut used = 0;
-    let mut best = DeResult { best: vec![0.5; dim], value: f64::INFINITY, trace: Vec::new(), evaluations: 0 };
+    let mut best =
+        DeResult { best: vec![0.5; dim], value: f64::INFINITY, trace: Vec::new(), evaluations: 0, converged: false };
     for restart in 0..opts.restarts.max(1) {
         if used >= opts.evaluations {
             break;
@@ -80,8 +88,9 @@ pub fn minimise(
             best.trace.push((used, best.value));
             report(used, best.value);
             let f_worst = fit.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-            let converged = f_worst - f_best <= 1e-12 * (1.0 + f_best.abs());
+            let converged = f_worst - f_best <= SPREAD * (1.0 + f_best.abs());
             if used + np > budget_end || converged {
+                best.converged = converged;
                 break;
             }
             // Dither: one scale factor per generation in [0.5, 1] (Das et al.

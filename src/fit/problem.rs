@@ -6,7 +6,7 @@
 //! seed = 1                 # optimiser seed (default 0)
 //! evaluations = 3000       # budget of objective evaluations (default 200 per parameter)
 //! restarts = 1             # independent restarts sharing the budget (default 1)
-//! profile = ["amber.production"]  # profile likelihoods wanted (default none)
+//! starts = 1              # independent starts (seeds seed, seed+1, …), each with the whole budget
 //! [[fit.parameter]]
 //! name = "amber.production"  # any parameter a mutant can scale
 //! min = 0.5
@@ -43,8 +43,7 @@ struct FitSpec {
     sd_floor_pct: Option<f64>,
     #[serde(default)]
     stages: HashMap<String, f64>,
-    #[serde(default)]
-    profile: Vec<String>,
+    starts: Option<usize>,
     #[serde(default)]
     parameter: Vec<Spanned<ParamSpec>>,
     #[serde(default)]
@@ -130,8 +129,9 @@ pub struct FitProblem {
     pub evaluations: usize,
     /// Independent restarts.
     pub restarts: usize,
-    /// Indices of the free parameters whose profile likelihood is wanted.
-    pub profile: Vec<usize>,
+    /// Independent starts of the global search (seeds `seed`, `seed + 1`, …),
+    /// each with the whole budget, each polished.
+    pub starts: usize,
     /// Smallest sd taken at face value, % of length (raised to a row's
     /// resolution where that is larger).
     pub sd_floor_pct: f64,
@@ -281,19 +281,11 @@ impl FitProblem {
                 )
                 .into());
         }
-        let mut profile = Vec::new();
-        for name in &spec.profile {
-            let k = params.iter().position(|p| &p.name == name).ok_or_else(|| {
-                let known: Vec<&str> = params.iter().map(|p| p.name.as_str()).collect();
-                src.invalid(
-                    &span,
-                    "profile",
-                    "fit.profile".into(),
-                    format!("names `{name}`, which is not free (free: {})", known.join(", ")),
-                    "list names of [[fit.parameter]] entries",
-                )
-            })?;
-            profile.push(k);
+        let starts = spec.starts.unwrap_or(1);
+        if !(1..=64).contains(&starts) {
+            return Err(src
+                .invalid(&span, "starts", "fit.starts".into(), format!("is {starts}"), "give 1 to 64 starts")
+                .into());
         }
         Ok(FitProblem {
             model: model.clone(),
@@ -302,7 +294,7 @@ impl FitProblem {
             seed: spec.seed.unwrap_or(0),
             evaluations,
             restarts: spec.restarts.unwrap_or(1).max(1),
-            profile,
+            starts,
             sd_floor_pct,
         })
     }

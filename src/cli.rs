@@ -136,6 +136,9 @@ pub enum Command {
         /// Worker threads (default: all cores). Results are identical for any count.
         #[arg(long)]
         threads: Option<usize>,
+        /// Independent starts of the global search (seeds seed, seed+1, …; overrides `starts` in [fit]).
+        #[arg(long, value_name = "N")]
+        starts: Option<usize>,
         /// White picture background.
         #[arg(long)]
         light: bool,

@@ -354,15 +354,21 @@ fn run(cli: &Cli) -> anyhow::Result<()> {
             print!("{}", report::sensitivity(&rows, &dir));
             Ok(())
         }
-        Command::Fit { model: path, out, threads, light, quiet } => {
+        Command::Fit { model: path, out, threads, starts, light, quiet } => {
             if let Some(n) = threads {
                 rayon::ThreadPoolBuilder::new().num_threads((*n).max(1)).build_global().context("setting threads")?;
             }
             let model = Model::load(path)?;
-            let problem = anlage::fit::FitProblem::from_model(&model)?;
+            let mut problem = anlage::fit::FitProblem::from_model(&model)?;
+            if let Some(n) = starts {
+                if !(1..=64).contains(n) {
+                    anyhow::bail!("--starts is {n}; give 1 to 64 starts");
+                }
+                problem.starts = *n;
+            }
             let start = std::time::Instant::now();
             let bar = (!quiet).then(|| {
-                let bar = indicatif::ProgressBar::new(problem.evaluations as u64);
+                let bar = indicatif::ProgressBar::new((problem.evaluations * problem.starts) as u64);
                 bar.set_style(
                     indicatif::ProgressStyle::with_template("{bar:40} {pos}/{len} evaluations, best {msg}, {elapsed}")
                         .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),

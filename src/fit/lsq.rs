@@ -384,6 +384,8 @@ pub fn profile_bound(res: &Res, best: &[f64], best_value: f64, j: usize, dir: f6
         if f >= target {
             break (z_out, f);
         }
+        // Points beyond were re-fitted from too far away: forget them.
+        points.retain(|(z, _)| dir * (z - z_in) <= 0.0);
         points.push((z_out, f));
         if tries >= MAX_PROFILE_POINTS {
             // Out of re-fits before a confirmed crossing: not closed.

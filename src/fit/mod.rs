@@ -121,7 +121,8 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
     for k in 0..problem.starts.max(1) {
         let seed = problem.seed.wrapping_add(k as u64);
         let opts = DeOptions { seed, evaluations: problem.evaluations, restarts: problem.restarts, parallel };
-        let search = optimise::minimise(dim, &f, Some(&start), &opts, report);
+        let offset = k * problem.evaluations;
+        let search = optimise::minimise(dim, &f, Some(&start), &opts, &mut |n, b| report(offset + n, b));
         evaluations += search.evaluations;
         // The polish starts with short slope steps; the stair-wide steps are
         // found at the end, where they matter for the intervals.

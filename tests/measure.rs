@@ -296,11 +296,10 @@ fn tiff_reads_like_png() {
     assert_eq!(a, b);
 }
 
-/// A grey image of filled shapes (each inside test given as a closure) on a
-/// dark background, with a smooth edge (Gaussian blur σ 1.5 px via the
-/// synthetic blur) and deterministic noise: tissue 0.3, background 0.05.
-fn shapes(w: usize, h: usize, inside: &dyn Fn(f64, f64) -> bool) -> Planes {
-    let o = synth::SynthOptions {
+/// Synthesis options that add nothing (no blur, no noise): the tests draw
+/// the planes themselves.
+fn plain_options(w: usize, h: usize) -> synth::SynthOptions {
+    synth::SynthOptions {
         width: w,
         height: h,
         semi_axes: (1.0, 1.0),
@@ -308,7 +307,14 @@ fn shapes(w: usize, h: usize, inside: &dyn Fn(f64, f64) -> bool) -> Planes {
         blur_px: 0.0,
         noise: 0.0,
         seed: 0,
-    };
+    }
+}
+
+/// A grey image of filled shapes (each inside test given as a closure) on a
+/// dark background, with a smooth edge (Gaussian blur σ 1.5 px via the
+/// synthetic blur) and deterministic noise: tissue 0.3, background 0.05.
+fn shapes(w: usize, h: usize, inside: &dyn Fn(f64, f64) -> bool) -> Planes {
+    let o = plain_options(w, h);
     let plane: Vec<f64> = (0..w * h)
         .map(|i| {
             let (x, y) = ((i % w) as f64, (i / w) as f64);
@@ -393,15 +399,7 @@ fn issue_18_stage_labels_and_a_broken_image_in_a_batch() {
 /// Planes drawn from functions of (x, y) plus deterministic noise of sd ≈
 /// 0.01 (uniform, from a hash of the pixel and plane), 16-bit.
 fn drawn(w: usize, h: usize, planes: &[&dyn Fn(f64, f64) -> f64]) -> Planes {
-    let o = synth::SynthOptions {
-        width: w,
-        height: h,
-        semi_axes: (1.0, 1.0),
-        angle_deg: 0.0,
-        blur_px: 0.0,
-        noise: 0.0,
-        seed: 0,
-    };
+    let o = plain_options(w, h);
     let planes = planes
         .iter()
         .enumerate()

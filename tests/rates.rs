@@ -80,7 +80,7 @@ fn symbolic_jacobian_matches_differences() {
 
 fn brusselator(a: f64, b: f64) -> anlage::model::Model {
     parse(&format!(
-        "{ROW}[[gene]]\nname = \"x\"\nrate = \"A - (B + 1) * x + x^2 * y\"\n[[gene]]\nname = \"y\"\nrate = \"B * x - x^2 * y\"\n\
+        "{ROW}[[gene]]\nname = \"u\"\nrate = \"A - (B + 1) * u + u^2 * v\"\n[[gene]]\nname = \"v\"\nrate = \"B * u - u^2 * v\"\n\
          [circuit]\nkinetics = \"rates\"\nparameters = {{ A = {a:?}, B = {b:?} }}\n"
     ))
 }

@@ -153,10 +153,39 @@ pub fn check(
     if genes > MAX_GENES_CHECKED {
         return None;
     }
-    let stride = n.div_ceil(SAMPLE).max(1);
-    let mut jac = vec![0.0; genes * genes];
     let mut worst: Option<Unsafe> = None;
-    for i in (0..n).step_by(stride) {
+    each_mode(kinetics, u, m, held, SAMPLE, |i, lambda| {
+        if stable(scheme, lambda, k, horizon) {
+            return;
+        }
+        let step = stable_step(scheme, lambda, horizon);
+        if worst.as_ref().is_none_or(|w| step < w.stable_step) {
+            worst = Some(Unsafe {
+                nucleus: i,
+                why: describe(scheme, lambda, k, horizon),
+                stable_step: step,
+                negative: false,
+            });
+        }
+    });
+    worst
+}
+
+/// Calls `visit(nucleus, λ)` for every eigenvalue λ of the reaction
+/// Jacobian of up to `sample` nuclei (evenly spread) of state `u` [gene,
+/// nucleus] with inputs `m`; the rows of held genes are zeroed, and nuclei
+/// with a non-finite Jacobian are skipped.
+fn each_mode(
+    kinetics: &dyn Kinetics,
+    u: &Array2<f64>,
+    m: &Array2<f64>,
+    held: &[bool],
+    sample: usize,
+    mut visit: impl FnMut(usize, Complex<f64>),
+) {
+    let (genes, n) = u.dim();
+    let mut jac = vec![0.0; genes * genes];
+    for i in (0..n).step_by(n.div_ceil(sample).max(1)) {
         let ui: Vec<f64> = u.column(i).to_vec();
         let mi: Vec<f64> = m.column(i).to_vec();
         kinetics.jacobian(&ui, &mi, &mut jac);
@@ -170,21 +199,9 @@ pub fn check(
             continue;
         }
         for lambda in a.complex_eigenvalues().iter() {
-            if stable(scheme, *lambda, k, horizon) {
-                continue;
-            }
-            let step = stable_step(scheme, *lambda, horizon);
-            if worst.as_ref().is_none_or(|w| step < w.stable_step) {
-                worst = Some(Unsafe {
-                    nucleus: i,
-                    why: describe(scheme, *lambda, k, horizon),
-                    stable_step: step,
-                    negative: false,
-                });
-            }
+            visit(i, *lambda);
         }
     }
-    worst
 }
 
 /// The unstable mode in words: its amplification per step and, when that is
@@ -214,29 +231,13 @@ pub fn shortest_stable_step(
     held: &[bool],
     sample: usize,
 ) -> (f64, usize) {
-    let (genes, n) = u.dim();
-    let mut jac = vec![0.0; genes * genes];
     let mut best = (f64::INFINITY, 0);
-    for i in (0..n).step_by(n.div_ceil(sample).max(1)) {
-        let ui: Vec<f64> = u.column(i).to_vec();
-        let mi: Vec<f64> = m.column(i).to_vec();
-        kinetics.jacobian(&ui, &mi, &mut jac);
-        let mut a = DMatrix::from_row_slice(genes, genes, &jac);
-        for (g, h) in held.iter().enumerate() {
-            if *h {
-                a.row_mut(g).fill(0.0);
-            }
+    each_mode(kinetics, u, m, held, sample, |i, lambda| {
+        let k = stable_step(scheme, lambda, horizon);
+        if k < best.0 {
+            best = (k, i);
         }
-        if a.iter().any(|v| !v.is_finite()) {
-            continue;
-        }
-        for lambda in a.complex_eigenvalues().iter() {
-            let k = stable_step(scheme, *lambda, horizon);
-            if k < best.0 {
-                best = (k, i);
-            }
-        }
-    }
+    });
     best
 }
 

@@ -146,7 +146,7 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
     // Profiles re-optimise around the best point; one that finds a lower
     // objective shows the minimum was missed: start again from there (twice at most).
     let mut round = 0;
-    let (objective, residuals, steps, jac, bounds) = loop {
+    let (objective, residuals, steps, jac, bounds, missed) = loop {
         let residuals = objective::residuals(problem, &problem.values(&u)).unwrap_or_default();
         let objective: f64 = residuals.iter().map(|r| r.value * r.value).sum();
         let n = residuals.len();
@@ -175,7 +175,7 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
                 u = p.u;
                 round += 1;
             }
-            _ => break (objective, residuals, steps, jac, bounds),
+            other => break (objective, residuals, steps, jac, bounds, other.is_some()),
         }
     };
     let _ = steps;
@@ -221,7 +221,10 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
         .map(|c| (0..dim).map(|i| (0..dim).map(|j| c[(i, j)] / (c[(i, i)] * c[(j, j)]).sqrt()).collect()).collect());
     let measured = residuals.iter().filter(|r| r.measured_pct.is_some()).count();
     let dof = measured.saturating_sub(dim);
-    let convergence = Convergence::judge(&search, &starts, best_start, notes);
+    if missed {
+        notes.push("a profile still found a lower objective after two re-polishes".to_string());
+    }
+    let convergence = Convergence::judge(&search, &starts, best_start, missed, notes);
     FitResult {
         estimates,
         objective,

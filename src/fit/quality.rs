@@ -52,7 +52,11 @@ pub struct Convergence {
     pub still_improving: Option<(f64, f64)>,
     /// All starts reached the best objective within [`STARTS_AGREE`].
     pub starts_agree: bool,
-    /// The polish converged, the search was not still improving, and the starts agree.
+    /// The polish converged, the starts agree, and no profile found a lower
+    /// objective: a minimum, at least locally.
+    pub local: bool,
+    /// [`Self::local`], and the global search was not still improving when
+    /// its budget ran out: the fit has converged.
     pub converged: bool,
     /// The story, one line each.
     pub lines: Vec<String>,
@@ -60,8 +64,9 @@ pub struct Convergence {
 
 impl Convergence {
     /// Judges the search of the best start, its polish and the other starts;
-    /// `notes` are added as they are.
-    pub fn judge(search: &DeResult, starts: &[Start], best: usize, notes: Vec<String>) -> Convergence {
+    /// `missed`: a profile still found a lower objective after the last
+    /// re-polish; `notes` are added as they are.
+    pub fn judge(search: &DeResult, starts: &[Start], best: usize, missed: bool, notes: Vec<String>) -> Convergence {
         let mut lines = Vec::new();
         let total = search.evaluations;
         let still_improving = if search.converged {
@@ -106,8 +111,9 @@ impl Convergence {
             ));
         }
         lines.extend(notes);
-        let converged = p.converged && still_improving.is_none() && starts_agree;
-        Convergence { still_improving, starts_agree, converged, lines }
+        let local = p.converged && starts_agree && !missed;
+        let converged = local && still_improving.is_none();
+        Convergence { still_improving, starts_agree, local, converged, lines }
     }
 }
 

@@ -134,7 +134,7 @@ pub fn check(
     signed: &[bool],
     names: &[String],
 ) -> Option<Unsafe> {
-    let (genes, n) = u.dim();
+    let genes = u.nrows();
     for g in (0..genes).filter(|&g| !signed[g] && !held[g]) {
         let row = u.row(g);
         let top = row.iter().copied().fold(0.0f64, f64::max);

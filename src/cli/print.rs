@@ -381,6 +381,13 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, second
     }
     if r.convergence.converged {
         let _ = writeln!(s, "converged");
+    } else if r.convergence.local {
+        let _ = writeln!(
+            s,
+            "CONVERGED LOCALLY ONLY: the polish reached a minimum, but the global search was still improving when its \
+             budget ran out, so a better region may exist; raise `evaluations` in [fit] (now {}) or give more `starts` to check",
+            problem.evaluations
+        );
     } else {
         let _ = writeln!(
             s,

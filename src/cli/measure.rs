@@ -11,7 +11,7 @@ use anlage::measure::{
 };
 use anlage::render::{Style, StyleError};
 
-use crate::cli::{HeadArg, MeasureArgs, StainArg};
+use super::args::{CompareArgs, HeadArg, MeasureArgs, StainArg, SynthesizeArgs};
 
 fn bad_option(option: &str, value: &str, fix: &str) -> anyhow::Error {
     StyleError::OutOfRange { option: option.into(), value: value.into(), fix: fix.into() }.into()
@@ -366,4 +366,21 @@ pub fn synthesize_verb(run_dir: &Path, out: &Path, count: usize, seed: u64) -> a
     anlage::export::write_atomic(&out.join("README.txt"), |w| w.write_all(note.as_bytes()))?;
     println!("wrote {count} synthetic images (invented data) to {}", out.display());
     Ok(())
+}
+
+/// `anlage measure`.
+pub fn measure(args: &MeasureArgs) -> anyhow::Result<()> {
+    measure_verb(args)
+}
+
+/// `anlage compare`.
+pub fn compare(args: &CompareArgs) -> anyhow::Result<()> {
+    let CompareArgs { run_dir, measured, stages, sd_floor, out } = args;
+    compare_verb(run_dir, measured, stages, *sd_floor, out)
+}
+
+/// `anlage synthesize`.
+pub fn synthesize(args: &SynthesizeArgs) -> anyhow::Result<()> {
+    let SynthesizeArgs { run_dir, out, count, seed } = args;
+    synthesize_verb(run_dir, out, *count, *seed)
 }

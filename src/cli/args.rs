@@ -1,0 +1,395 @@
+//! Command-line arguments.
+
+use std::path::PathBuf;
+
+use clap::{Args, Parser, Subcommand};
+
+use anlage::PictureKind;
+use anlage::render::StyleOptions;
+
+/// anlage: simulate how gene circuits pattern rows and sheets of nuclei.
+#[derive(Debug, Parser)]
+#[command(name = "anlage", version, about, propagate_version = true)]
+pub struct Cli {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// Verbs.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Simulate a model; write tables, states, a summary and pictures.
+    Run(RunArgs),
+    /// Validate a model and describe what it holds, without simulating.
+    Check(CheckArgs),
+    /// Redraw the pictures of a finished run from its folder, without simulating.
+    Render(RenderArgs),
+    /// Predict where boundaries move: the wild type and every mutant (model
+    /// file, --mutant, generated families), in parallel.
+    Screen(ScreenArgs),
+    /// Which parameter moves which boundary: d position / d ln parameter for all.
+    Sensitivity(SensitivityArgs),
+    /// Fit the free parameters of the model's [fit] section to measured boundaries of the wild type and
+    /// mutants: global search, approximate intervals, correlations and the fitted model file.
+    Fit(FitArgs),
+    /// Measure boundaries in stained-embryo images (PNG or TIFF, 8/16-bit);
+    /// a folder gives one table with mean and sd per boundary.
+    Measure(MeasureArgs),
+    /// Score a run against a measured-boundary table.
+    Compare(CompareArgs),
+    /// Draw synthetic stained-embryo images from a run's last snapshot (invented
+    /// data, for demos and for testing `measure`).
+    Synthesize(SynthesizeArgs),
+    /// Phase space of every nucleus: fixed points, basins over time, commitment,
+    /// attractors along the axis (isolated nucleus: inputs frozen).
+    Basins(BasinsArgs),
+    /// Phase portrait of one nucleus in the plane of two genes.
+    Portrait(PortraitArgs),
+}
+
+/// Arguments of `run`.
+#[derive(Debug, Args)]
+pub struct RunArgs {
+    /// Model file (TOML); not needed with --resume.
+    #[arg(required_unless_present = "resume")]
+    pub model: Option<PathBuf>,
+    /// The level that defines a gene's boundaries, GENE=max:F (fraction of its maximum),
+    /// GENE=level:A (a.u.) or GENE=capacity:F (fraction of p/d); GENE `*` for every gene (repeatable).
+    #[arg(long = "boundary-level", value_name = "GENE=SPEC", conflicts_with = "resume")]
+    pub boundary_levels: Vec<String>,
+    /// Output folder (default: `<model name>_run` next to the model file).
+    #[arg(short, long)]
+    pub out: Option<PathBuf>,
+    /// Worker threads (default: all cores). Results are identical for any count.
+    #[arg(long)]
+    pub threads: Option<usize>,
+    /// Print nothing but errors.
+    #[arg(short, long)]
+    pub quiet: bool,
+    /// Write tables, states and the summary but no pictures.
+    #[arg(long)]
+    pub no_pictures: bool,
+    /// Save the run every so often (wall time: 90s, 10m, 2h) as OUT/checkpoint.bin, to continue
+    /// with --resume after a crash; removed when the run finishes.
+    #[arg(long, value_name = "TIME", value_parser = parse_wall_time)]
+    pub checkpoint_every: Option<std::time::Duration>,
+    /// Continue the run whose checkpoint is in this folder (outputs go there too); the result is
+    /// byte for byte that of an uninterrupted run.
+    #[arg(long, value_name = "DIR", conflicts_with = "model")]
+    pub resume: Option<PathBuf>,
+    /// Write each snapshot to disk as it is taken instead of keeping it in memory (automatic
+    /// when the recording would pass 256 MiB).
+    #[arg(long)]
+    pub stream: bool,
+    /// Print one JSON line: solve time (loading the model, set-up and all steps), steps and the sum of
+    /// the final state (for comparing implementations).
+    #[arg(long)]
+    pub timing: bool,
+    /// With --timing: solve this many times in one process and report the fastest solve (each one
+    /// loads the model again), as a benchmark peer reporting its best of several repeats does.
+    #[arg(long, value_name = "N", default_value_t = 1, requires = "timing", conflicts_with = "resume")]
+    pub repeat: usize,
+    /// How pictures look.
+    #[command(flatten)]
+    pub look: Look,
+}
+
+/// Arguments of `check`.
+#[derive(Debug, Args)]
+pub struct CheckArgs {
+    /// Model file (TOML).
+    pub model: PathBuf,
+}
+
+/// Arguments of `render`.
+#[derive(Debug, Args)]
+pub struct RenderArgs {
+    /// Folder written by `anlage run`.
+    pub run_dir: PathBuf,
+    /// Which picture.
+    #[arg(long, value_enum, default_value = "all")]
+    pub kind: PictureKind,
+    /// Output folder (default: the run folder).
+    #[arg(short, long)]
+    pub out: Option<PathBuf>,
+    /// How pictures look.
+    #[command(flatten)]
+    pub look: Look,
+}
+
+/// Arguments of `screen`.
+#[derive(Debug, Args)]
+pub struct ScreenArgs {
+    /// Model file (TOML).
+    pub model: PathBuf,
+    /// Extra mutant, as a TOML inline table, e.g.
+    /// '{ name = "het", scale = { "amber.production" = 0.5 } }' (repeatable).
+    #[arg(long = "mutant")]
+    pub mutants: Vec<String>,
+    /// Add every single knock-out.
+    #[arg(long)]
+    pub knockouts: bool,
+    /// Add every single link removal.
+    #[arg(long)]
+    pub link_removals: bool,
+    /// Add dosage series: each gene's production x0.5 and x2 (one copy, an extra copy) and each gradient's peak x0.25, x0.5, x2, x4.
+    #[arg(long)]
+    pub dosage: bool,
+    /// Also animate the wild type beside this mutant (its name).
+    #[arg(long)]
+    pub animate: Option<String>,
+    /// Output folder (default: `<model name>_screen` next to the model file).
+    #[arg(short, long)]
+    pub out: Option<PathBuf>,
+    /// How pictures look.
+    #[command(flatten)]
+    pub look: Look,
+}
+
+/// Arguments of `sensitivity`.
+#[derive(Debug, Args)]
+pub struct SensitivityArgs {
+    /// Model file (TOML).
+    pub model: PathBuf,
+    /// Step in ln(parameter) for the central differences (default 0.01).
+    #[arg(long, default_value_t = anlage::screen::SENSITIVITY_STEP)]
+    pub step: f64,
+    /// Output folder (default: `<model name>_screen` next to the model file).
+    #[arg(short, long)]
+    pub out: Option<PathBuf>,
+    /// How pictures look.
+    #[command(flatten)]
+    pub look: Look,
+}
+
+/// Arguments of `fit`.
+#[derive(Debug, Args)]
+pub struct FitArgs {
+    /// Model file (TOML) with a [fit] section.
+    pub model: PathBuf,
+    /// Output folder (default: `<model name>_fit` next to the model file).
+    #[arg(short, long)]
+    pub out: Option<PathBuf>,
+    /// Worker threads (default: all cores). Results are identical for any count.
+    #[arg(long)]
+    pub threads: Option<usize>,
+    /// Independent starts of the global search (seeds seed, seed+1, …; overrides `starts` in [fit]).
+    #[arg(long, value_name = "N")]
+    pub starts: Option<usize>,
+    /// White picture background.
+    #[arg(long)]
+    pub light: bool,
+    /// Print nothing but errors.
+    #[arg(short, long)]
+    pub quiet: bool,
+}
+
+/// Arguments of `compare`.
+#[derive(Debug, Args)]
+pub struct CompareArgs {
+    /// Folder written by `anlage run`.
+    pub run_dir: PathBuf,
+    /// Measured-boundary table (CSV).
+    pub measured: PathBuf,
+    /// Stage label in minutes, LABEL=MINUTES (repeatable).
+    #[arg(long = "stage")]
+    pub stages: Vec<String>,
+    /// Smallest sd taken at face value, % of length (raised to each row's resolution if that is larger).
+    #[arg(long, default_value_t = anlage::compare::DEFAULT_SD_FLOOR_PCT)]
+    pub sd_floor: f64,
+    /// Output folder (default: the run folder).
+    #[arg(short, long)]
+    pub out: Option<PathBuf>,
+}
+
+/// Arguments of `synthesize`.
+#[derive(Debug, Args)]
+pub struct SynthesizeArgs {
+    /// Folder written by `anlage run` (a row).
+    pub run_dir: PathBuf,
+    /// Output folder.
+    #[arg(short, long)]
+    pub out: PathBuf,
+    /// Number of images (each rotated, blurred and noised differently).
+    #[arg(long, default_value_t = 3)]
+    pub count: usize,
+    /// Seed.
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+}
+
+/// Arguments of `basins`.
+#[derive(Debug, Args)]
+pub struct BasinsArgs {
+    /// Model file (simulated first) or a folder written by `anlage run`.
+    pub source: PathBuf,
+    /// Output folder (default: the run folder, or `<model name>_run`).
+    #[arg(short, long)]
+    pub out: Option<PathBuf>,
+    /// Also freeze each snapshot's diffusion influx D∇²u as a constant term.
+    #[arg(long)]
+    pub with_influx: bool,
+    /// Gene shown in landscape.png (default: the first).
+    #[arg(long)]
+    pub gene: Option<String>,
+    /// Analyse every N-th snapshot (and the last).
+    #[arg(long, value_name = "N", default_value_t = 1, conflicts_with = "at")]
+    pub every: usize,
+    /// Analyse the snapshots nearest these times, min (comma-separated).
+    #[arg(long, value_name = "MIN,…", value_delimiter = ',', num_args = 1)]
+    pub at: Vec<f64>,
+    /// How pictures look.
+    #[command(flatten)]
+    pub look: Look,
+}
+
+/// Arguments of `portrait`.
+#[derive(Debug, Args)]
+pub struct PortraitArgs {
+    /// Model file (simulated first) or a folder written by `anlage run`.
+    pub source: PathBuf,
+    /// Nucleus index (row-major on a sheet).
+    #[arg(long)]
+    pub nucleus: usize,
+    /// The two genes of the plane, e.g. amber,cobalt.
+    #[arg(long, value_delimiter = ',', num_args = 1)]
+    pub genes: Vec<String>,
+    /// Freeze the inputs at the snapshot nearest this time, min (default: the last).
+    #[arg(long)]
+    pub time: Option<f64>,
+    /// Output picture (default: portrait_n<N>_<A>_<B>.png in the run folder).
+    #[arg(short, long)]
+    pub out: Option<PathBuf>,
+    /// White background.
+    #[arg(long)]
+    pub light: bool,
+    /// Picture width, px.
+    #[arg(long)]
+    pub width: Option<u32>,
+    /// Also animate all nuclei moving over the portrait (`<name>_cloud.gif`).
+    #[arg(long)]
+    pub cloud: bool,
+}
+
+/// Picture options shared by `run` and `render`.
+#[derive(Debug, Args, Clone, Default)]
+pub struct Look {
+    /// Genes to show, comma-separated (default: all).
+    #[arg(long, value_delimiter = ',')]
+    pub genes: Option<Vec<String>>,
+    /// Gene colour, GENE=#rrggbb (repeatable).
+    #[arg(long = "color")]
+    pub colors: Vec<String>,
+    /// White background: genes darken like stains instead of adding like fluorescence.
+    #[arg(long)]
+    pub light: bool,
+    /// Draw the one gene chosen with --genes as a heat map (perceptually uniform colours).
+    #[arg(long)]
+    pub heatmap: bool,
+    /// Picture width, px (320–4096; default 720).
+    #[arg(long)]
+    pub width: Option<u32>,
+    /// Animation frames per second (default 10).
+    #[arg(long)]
+    pub fps: Option<u32>,
+    /// First time shown, min.
+    #[arg(long = "from")]
+    pub from_min: Option<f64>,
+    /// Last time shown, min.
+    #[arg(long = "to")]
+    pub to_min: Option<f64>,
+}
+
+impl Look {
+    /// As library options.
+    pub fn options(&self) -> StyleOptions {
+        StyleOptions {
+            genes: self.genes.clone(),
+            colors: self.colors.clone(),
+            light: self.light,
+            width: self.width,
+            fps: self.fps,
+            from_min: self.from_min,
+            to_min: self.to_min,
+            heatmap: self.heatmap,
+        }
+    }
+}
+
+/// Parses a wall time such as `90s`, `10m`, `2h` or `250ms` (a bare number is seconds).
+fn parse_wall_time(text: &str) -> Result<std::time::Duration, String> {
+    let t = text.trim();
+    let (number, scale) = if let Some(n) = t.strip_suffix("ms") {
+        (n, 1e-3)
+    } else if let Some(n) = t.strip_suffix('s') {
+        (n, 1.0)
+    } else if let Some(n) = t.strip_suffix('m') {
+        (n, 60.0)
+    } else if let Some(n) = t.strip_suffix('h') {
+        (n, 3600.0)
+    } else {
+        (t, 1.0)
+    };
+    match number.trim().parse::<f64>() {
+        Ok(v) if v.is_finite() && v >= 0.0 => Ok(std::time::Duration::from_secs_f64(v * scale)),
+        _ => Err(format!("`{text}` is not a wall time; write e.g. 90s, 10m or 2h")),
+    }
+}
+
+/// Which end of each embryo is the head.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum HeadArg {
+    /// The end with the smaller image column.
+    Left,
+    /// The end with the larger image column.
+    Right,
+    /// The end with the smaller image row.
+    Top,
+    /// The end with the larger image row.
+    Bottom,
+    /// Guessed: the end where the head-high gene (--head-high, else the first channel) is higher.
+    Auto,
+}
+
+/// How the stain shows against the background.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum StainArg {
+    /// Brighter than the background (fluorescence).
+    Bright,
+    /// Darker than a light background (bright-field, chromogenic); read as optical density.
+    Dark,
+    /// Detected from the image, and reported.
+    Auto,
+}
+
+/// `anlage measure`.
+#[derive(Debug, Args)]
+pub struct MeasureArgs {
+    /// An image, or a folder of images.
+    pub image: PathBuf,
+    /// Channel to read: PLANE=gene (plane of the image, from 0) or FILE=gene (repeatable).
+    #[arg(long = "channel", required = true)]
+    pub channels: Vec<String>,
+    /// Which end is the head.
+    #[arg(long, value_enum, default_value = "auto")]
+    pub head: HeadArg,
+    /// With --head auto: the gene that is higher at the head (default: the first channel, assumed).
+    #[arg(long)]
+    pub head_high: Option<String>,
+    /// Bright stain on a dark background, dark on light, or detect.
+    #[arg(long, value_enum, default_value = "auto")]
+    pub stain: StainArg,
+    /// Outline from one plane (PLANE or FILE), e.g. a nuclear counterstain (default: all planes).
+    #[arg(long, conflicts_with = "mask")]
+    pub outline: Option<String>,
+    /// Outline from a mask image (non-zero = embryo); `{stem}` in the name stands for each image's name.
+    #[arg(long)]
+    pub mask: Option<String>,
+    /// Time of the embryos: minutes, or a stage label (kept as written).
+    #[arg(long)]
+    pub time: Option<String>,
+    /// Output table (default: <image>_boundaries.csv, or measured.csv in the folder).
+    #[arg(short, long)]
+    pub out: Option<PathBuf>,
+}

@@ -1,0 +1,31 @@
+//! The command line: the arguments ([`args`]), one file per group of verbs
+//! (each verb a function of its arguments), what they print ([`print`]) and
+//! the helpers they share ([`common`]). The science is in the library.
+
+mod args;
+mod common;
+mod fit;
+mod measure;
+mod phase;
+mod print;
+mod run;
+mod screen;
+
+pub use args::{Cli, Command};
+
+/// Runs the verb.
+pub fn dispatch(cli: &Cli) -> anyhow::Result<()> {
+    match &cli.command {
+        Command::Check(a) => run::check(a),
+        Command::Run(a) => run::run(a),
+        Command::Render(a) => run::render(a),
+        Command::Basins(a) => phase::basins(a),
+        Command::Portrait(a) => phase::portrait(a),
+        Command::Screen(a) => screen::screen(a),
+        Command::Sensitivity(a) => screen::sensitivity(a),
+        Command::Fit(a) => fit::fit(a),
+        Command::Measure(a) => measure::measure(a),
+        Command::Compare(a) => measure::compare(a),
+        Command::Synthesize(a) => measure::synthesize(a),
+    }
+}

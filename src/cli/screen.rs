@@ -1,0 +1,66 @@
+//! `screen` and `sensitivity`: mutants and parameters.
+
+use anyhow::Context;
+
+use anlage::model::Model;
+use anlage::render::{Style, StyleError};
+
+use super::args::*;
+use super::common::*;
+use super::print;
+
+/// `anlage screen`.
+pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
+    let ScreenArgs { model: path, mutants, knockouts, link_removals, dosage, animate, out, look } = args;
+    let model = Model::load(path)?;
+    let mut list = model.mutants.clone();
+    for text in mutants {
+        list.push(model.parse_mutant(text)?);
+    }
+    list.extend(anlage::screen::families(&model, *knockouts, *link_removals, *dosage));
+    if list.is_empty() {
+        anyhow::bail!(StyleError::OutOfRange {
+            option: "mutants".into(),
+            value: "none".into(),
+            fix: "declare [[mutant]] tables, give --mutant, or ask for --knockouts, --link-removals or --dosage".into(),
+        });
+    }
+    let chosen = match animate {
+        Some(name) => Some(list.iter().find(|m| &m.name == name).cloned().ok_or_else(|| StyleError::OutOfRange {
+            option: "--animate".into(),
+            value: name.clone(),
+            fix: format!(
+                "name one of the mutants: {}",
+                list.iter().map(|m| m.name.as_str()).collect::<Vec<_>>().join(", ")
+            ),
+        })?),
+        None => None,
+    };
+    let planned = planned_recording(&model);
+    let style = Style::with_options(&planned, &model.title, &look.options())?;
+    let dir = out.clone().unwrap_or_else(|| sibling(path, "screen"));
+    let screen = anlage::write_screen(&model, &list, &style, &dir, chosen.as_ref(), true)
+        .with_context(|| format!("screening {}", path.display()))?;
+    print!("{}", print::screen(&screen, &dir));
+    Ok(())
+}
+
+/// `anlage sensitivity`.
+pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
+    let SensitivityArgs { model: path, step, out, look } = args;
+    let model = Model::load(path)?;
+    if !(step.is_finite() && *step > 0.0 && *step < 1.0) {
+        anyhow::bail!(StyleError::OutOfRange {
+            option: "--step".into(),
+            value: step.to_string(),
+            fix: "give a step in ln(parameter) between 0 and 1, e.g. 0.01".into(),
+        });
+    }
+    let planned = planned_recording(&model);
+    let style = Style::with_options(&planned, &model.title, &look.options())?;
+    let dir = out.clone().unwrap_or_else(|| sibling(path, "screen"));
+    let rows = anlage::write_sensitivity(&model, *step, &style, &dir, true)
+        .with_context(|| format!("sensitivity of {}", path.display()))?;
+    print!("{}", print::sensitivity(&rows, &dir));
+    Ok(())
+}

@@ -28,8 +28,9 @@ pub fn write_run(
     let rec = &run.recording;
     let (boundaries, domains) = readout::find_boundaries_and_domains(rec)?;
     let path = |name: &str| -> PathBuf { dir.join(name) };
-    let mut written: Vec<String> = vec!["profiles.csv".into()];
+    let mut written: Vec<String> = vec!["profiles.csv".into(), "profiles_long.csv".into()];
     export::write_profiles(rec, &path("profiles.csv"))?;
+    export::write_profiles_long(rec, &path("profiles_long.csv"))?;
     if rec.grid.is_sheet() {
         export::write_sheet(rec, &path("final_sheet.csv"))?;
         written.push("final_sheet.csv".into());
@@ -56,8 +57,9 @@ pub fn write_run(
 }
 
 /// Every file `anlage run` can write into its folder (besides the manifest).
-pub const RUN_OUTPUTS: [&str; 11] = [
+pub const RUN_OUTPUTS: [&str; 12] = [
     "profiles.csv",
+    "profiles_long.csv",
     "final_sheet.csv",
     "states.npy",
     "boundaries.csv",

@@ -38,6 +38,17 @@ fn run_writes_every_output_and_prints_boundaries() {
     let profiles = std::fs::read_to_string(out.join("profiles.csv")).unwrap();
     assert!(profiles.starts_with("time_min,nucleus,x_um,x_pct,amber,cobalt\n"));
     assert_eq!(profiles.lines().count(), 1 + 61 * 100);
+    // The long table holds the same numbers, one gene per row.
+    let long = std::fs::read_to_string(out.join("profiles_long.csv")).unwrap();
+    assert!(long.starts_with("time_min,nucleus,x_um,x_pct,gene,level\n"));
+    let wide: Vec<Vec<&str>> = profiles.lines().skip(1).map(|l| l.split(',').collect()).collect();
+    let rows: Vec<Vec<&str>> = long.lines().skip(1).map(|l| l.split(',').collect()).collect();
+    assert_eq!(rows.len(), 2 * wide.len());
+    for (k, r) in rows.iter().enumerate() {
+        let (w, g) = (&wide[k / 2], k % 2);
+        assert_eq!(&r[..4], &w[..4]);
+        assert_eq!((r[4], r[5]), (["amber", "cobalt"][g], w[4 + g]));
+    }
     let boundaries = std::fs::read_to_string(out.join("boundaries.csv")).unwrap();
     assert!(boundaries.starts_with("time_min,gene,direction,position_um,position_pct,steepness_per_um,width_um\n"));
     let summary = summary(&out);

@@ -21,7 +21,7 @@ pub use fit_tables::{
 };
 pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
 pub use screen_tables::{write_sensitivity, write_shifts};
-pub use tables::{write_boundaries, write_domains, write_profiles, write_sheet};
+pub use tables::{write_boundaries, write_domains, write_profiles, write_profiles_long, write_sheet};
 
 /// A table cell for an optional value: empty when absent.
 pub(crate) fn opt<T: ToString>(v: Option<T>) -> String {

@@ -37,6 +37,32 @@ pub fn write_profiles(rec: &Recording, path: &Path) -> Result<(), ExportError> {
     })
 }
 
+/// `profiles_long.csv`: the same values as [`write_profiles`] in tidy (long)
+/// form, one row per time, position and gene: `time_min, nucleus, x_um,
+/// x_pct, gene, level` (`column` for `nucleus` on a sheet), for programs that
+/// plot from long tables without reshaping.
+///
+/// # Errors
+/// [`ExportError`] if the file cannot be written.
+pub fn write_profiles_long(rec: &Recording, path: &Path) -> Result<(), ExportError> {
+    let grid = rec.grid;
+    write_atomic(path, |w| {
+        let index = if grid.is_sheet() { "column" } else { "nucleus" };
+        writeln!(w, "time_min,{index},x_um,x_pct,gene,level")?;
+        for (s, t) in rec.times.iter().enumerate() {
+            let profiles = rec.axis_profiles(s, 0..rec.genes.len()).map_err(std::io::Error::other)?;
+            for ix in 0..grid.nx {
+                let x = grid.x_um(ix);
+                let pct = 100.0 * x / grid.length_um();
+                for (g, p) in rec.genes.iter().zip(&profiles) {
+                    writeln!(w, "{t},{ix},{x},{pct},{g},{}", p[ix])?;
+                }
+            }
+        }
+        Ok(())
+    })
+}
+
 /// `final_sheet.csv` (sheets): `ix, iy, x_um, y_um, <gene>...` at the last snapshot.
 ///
 /// # Errors

@@ -247,6 +247,18 @@ fn screen_and_sensitivity_write_their_outputs() {
     let sens = std::fs::read_to_string(out.join("sensitivity.csv")).unwrap();
     assert_eq!(sens.lines().count(), 1 + 14 * 2, "14 parameters x 2 boundaries");
     assert!(out.join("sensitivity.png").is_file());
+    // --json: the same rows as the tables, one document on standard output.
+    let o = anlage(&["sensitivity", m, "-o", out.to_str().unwrap(), "--json"]);
+    let doc: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!((doc["kind"].as_str(), doc["model_prediction"].as_bool()), (Some("sensitivity"), Some(true)));
+    assert_eq!(doc["rows"].as_array().unwrap().len(), 14 * 2);
+    let o = anlage(&["screen", m, "--knockouts", "-o", out.join("ko").to_str().unwrap(), "--json"]);
+    let doc: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let csv = std::fs::read_to_string(out.join("ko/shifts.csv")).unwrap();
+    let rows: usize = doc["mutants"].as_array().unwrap().iter().map(|m| m["shifts"].as_array().unwrap().len()).sum();
+    assert_eq!(rows, csv.lines().count() - 1);
+    let amber = doc["mutants"].as_array().unwrap().iter().find(|m| m["name"] == "ko:amber").unwrap();
+    assert_eq!(amber["shifts"][0]["status"], "gene lost everywhere");
     let o = anlage(&["screen", m, "--mutant", r#"{ name = "x", knock_out = ["plum"] }"#]);
     assert_eq!(o.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&o.stderr).contains("unknown gene `plum`"));

@@ -138,6 +138,18 @@ fn fit_cli_is_deterministic_and_its_model_runs() {
         let (a, b) = (std::fs::read(outs[0].join(name)).unwrap(), std::fs::read(outs[1].join(name)).unwrap());
         assert!(a == b, "{name} differs between 1 and 2 threads");
     }
+    // --json: the values of fit.csv, and the verdict, on standard output.
+    let o = std::process::Command::new(exe)
+        .args(["fit", model.to_str().unwrap(), "--json", "-o", model.with_file_name("outj").to_str().unwrap()])
+        .output()
+        .unwrap();
+    let doc: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let table = std::fs::read_to_string(outs[0].join("fit.csv")).unwrap();
+    for (k, line) in table.lines().skip(1).enumerate() {
+        let value: f64 = line.split(',').nth(1).unwrap().parse().unwrap();
+        assert_eq!(doc["parameters"][k]["value"].as_f64(), Some(value));
+    }
+    assert!(["converged", "converged locally only", "not converged"].contains(&doc["verdict"].as_str().unwrap()));
     let fitted = outs[0].join("fitted.toml");
     let run = outs[0].join("run");
     let o = std::process::Command::new(exe)

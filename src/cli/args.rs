@@ -145,6 +145,9 @@ pub struct ScreenArgs {
     /// How pictures look.
     #[command(flatten)]
     pub look: Look,
+    /// Print what was found as one JSON document on standard output instead of the report.
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// Arguments of `sensitivity`.
@@ -161,6 +164,9 @@ pub struct SensitivityArgs {
     /// How pictures look.
     #[command(flatten)]
     pub look: Look,
+    /// Print what was found as one JSON document on standard output instead of the report.
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// Arguments of `fit`.
@@ -183,6 +189,9 @@ pub struct FitArgs {
     /// Print nothing but errors.
     #[arg(short, long)]
     pub quiet: bool,
+    /// Print what was found as one JSON document on standard output instead of the report.
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// Arguments of `compare`.

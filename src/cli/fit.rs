@@ -10,7 +10,7 @@ use super::print;
 
 /// `anlage fit`.
 pub fn fit(args: &FitArgs) -> anyhow::Result<()> {
-    let FitArgs { model: path, out, threads, starts, light, quiet } = args;
+    let FitArgs { model: path, out, threads, starts, light, quiet, json } = args;
     if let Some(n) = threads {
         rayon::ThreadPoolBuilder::new().num_threads((*n).max(1)).build_global().context("setting threads")?;
     }
@@ -43,7 +43,9 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<()> {
     let dir = out.clone().unwrap_or_else(|| sibling(path, "fit"));
     let bg = if *light { anlage::render::Background::Light } else { anlage::render::Background::Dark };
     anlage::write_fit(&problem, &result, bg, &dir).with_context(|| format!("writing the fit to {}", dir.display()))?;
-    if !quiet {
+    if *json {
+        println!("{}", super::json::fit(&problem, &result, &dir));
+    } else if !quiet {
         print!("{}", print::fit(&problem, &result, start.elapsed().as_secs_f64(), &dir));
     }
     Ok(())

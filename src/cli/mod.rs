@@ -5,6 +5,7 @@
 mod args;
 mod common;
 mod fit;
+mod json;
 mod measure;
 mod phase;
 mod print;

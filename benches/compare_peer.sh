@@ -26,14 +26,16 @@ exe=target/release/anlage
 out=$(mktemp -d)
 trap 'rm -rf "$out"' EXIT
 
-# measure NAME PEER_ARGS... -- MODEL : appends one JSON line per side to $out/rows
+# measure NAME PEER_ARGS... -- MODEL [ANLAGE_ARGS...] : appends one JSON line per side to $out/rows
 measure() {
   local name=$1; shift
   local args=()
   while [ "$1" != -- ]; do args+=("$1"); shift; done
   local model=$2
+  shift 2
+  local extra=("$@")
   /usr/bin/time -v -o "$out/peer.time" python3 "$peer" "${args[@]}" --repeat "$repeats" > "$out/peer.json"
-  /usr/bin/time -v -o "$out/anlage.time" "$exe" run "$model" --no-pictures --timing --repeat "$repeats" -o "$out/run" > "$out/anlage.json"
+  /usr/bin/time -v -o "$out/anlage.time" "$exe" run "$model" --no-pictures --timing --repeat "$repeats" -o "$out/run" "${extra[@]}" > "$out/anlage.json"
   python3 - "$name" "$out" "$repeats" >> "$out/rows" <<'PY'
 import json, re, sys
 name, out, repeats = sys.argv[1], sys.argv[2], int(sys.argv[3])
@@ -50,6 +52,7 @@ PY
 
 measure P1 p1 --nuclei 100 --steps 1000 -- "$work/p1_100_1000.toml"
 measure P1 p1 --nuclei 100000 --steps 1000 -- "$work/p1_100000_1000.toml"
+measure "P1 (anlage 1 thread)" p1 --nuclei 100000 --steps 1000 -- "$work/p1_100000_1000.toml" --threads 1
 measure P2 p2 --n 512 --steps "$p2_steps" -- "$work/p2_512_$p2_steps.toml"
 measure "P2 (peer 2 workers)" p2 --n 512 --steps "$p2_steps" --workers 2 -- "$work/p2_512_$p2_steps.toml"
 

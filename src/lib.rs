@@ -123,6 +123,11 @@ pub struct Checkpointing {
     pub stop: Option<std::sync::Arc<std::sync::atomic::AtomicBool>>,
 }
 
+/// Locks a mutex, also after a panic elsewhere left it poisoned.
+fn lock<T>(m: &std::sync::Mutex<T>) -> std::sync::MutexGuard<'_, T> {
+    m.lock().unwrap_or_else(std::sync::PoisonError::into_inner)
+}
+
 /// [`simulate`] with checkpoints: saves the run every `every` of wall time and
 /// can continue from a checkpoint; a resumed run gives the same bytes as an
 /// uninterrupted one. A checkpoint that cannot be written is reported on
@@ -151,7 +156,9 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
         }
     }
     let mut write_error = None;
-    let recording = std::cell::RefCell::new(recording);
+    // Shared by the two callbacks, which may run on a worker of the pool.
+    let recording = std::sync::Mutex::new(recording);
+
     let bar = if options.progress {
         let bar = indicatif::ProgressBar::new(model.snapshot_count() as u64);
         bar.set_style(
@@ -160,7 +167,7 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
             )
             .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
         );
-        bar.set_position(recording.borrow().times.len() as u64);
+        bar.set_position(lock(&recording).times.len() as u64);
         Some(bar)
     } else {
         None
@@ -175,7 +182,7 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
         options.parallel,
         resume,
         |t, state| {
-            if let Err(e) = recording.borrow_mut().push(t, state) {
+            if let Err(e) = lock(&recording).push(t, state) {
                 write_error.get_or_insert(e);
             }
             if let Some(bar) = &bar {
@@ -192,7 +199,7 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
             if last_saved.elapsed() < plan.every && !stopping && !last {
                 return true;
             }
-            let rec = recording.borrow();
+            let rec = lock(&recording);
             let saved = stepper.save();
             let checkpoint = integrate::CheckpointParts {
                 model_text: &model.text,
@@ -218,6 +225,6 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
     if let Some(e) = write_error {
         return Err(StepError::Recording(format!("writing a snapshot to the scratch file: {e}")));
     }
-    let recording = recording.into_inner();
+    let recording = recording.into_inner().unwrap_or_else(std::sync::PoisonError::into_inner);
     Ok(Run { recording, stats: stats?, wall_time_s: start.elapsed().as_secs_f64() })
 }

@@ -160,8 +160,10 @@ pub fn forcing(model: &Model) -> Forcing {
 }
 
 /// Fixed-step runs check their step ([`safety::check`]) after the first step,
-/// every this many steps and at every snapshot.
-pub const SAFETY_EVERY: usize = 20;
+/// every this many steps and at every snapshot (before anything is kept:
+/// outputs are made of snapshots, and an instability that grows faster
+/// makes the state non-finite or negative, which stops the run anyway).
+pub const SAFETY_EVERY: usize = 100;
 
 /// Integrates a model from its initial state to `clock.until_min`, calling
 /// `snapshot(t, state)` at t = 0 and at every snapshot time.
@@ -236,7 +238,10 @@ fn integrate_on_worker(
             let held: Vec<bool> = model.clamps.iter().map(Option::is_some).collect();
             let signed: Vec<bool> = model.genes.iter().map(|g| g.rate.is_some()).collect();
             let names: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
-            let mut flagged = false;
+            let mut flagged: Option<usize> = None;
+            let mut round = 0;
+            let mut scores = Vec::new();
+            let rho = safety::safe_disk(model.clock.scheme, step_min, model.clock.until_min);
             while progress.steps_taken < total {
                 let n = progress.steps_taken + 1;
                 let t_new = n as f64 * step_min;
@@ -249,6 +254,8 @@ fn integrate_on_worker(
                 if n == 1 || n % SAFETY_EVERY == 0 || at_snapshot {
                     let u = stepper.state();
                     let m = tissue.inputs_with_state(t_new, u);
+                    let nuclei = safety::picks(u, stepper.rates(), round, flagged, &mut scores);
+                    round += 1;
                     match safety::check(
                         kinetics,
                         model.clock.scheme,
@@ -259,10 +266,13 @@ fn integrate_on_worker(
                         &held,
                         &signed,
                         &names,
+                        &nuclei,
+                        rho,
                     ) {
                         // An unstable mode seen at two checks in a row (a brief
-                        // excursion does no harm), or a negative level at once.
-                        Some(bad) if bad.negative || flagged => {
+                        // excursion does no harm; the flagged nucleus is examined
+                        // again), or a negative level at once.
+                        Some(bad) if bad.negative || flagged.is_some() => {
                             let at_state = if bad.stable_step.is_finite() { bad.stable_step } else { step_min };
                             // Along a loose error-controlled trial the whole run's limit shows,
                             // not only that of a state the long step has already spoiled.
@@ -277,8 +287,8 @@ fn integrate_on_worker(
                                 advice,
                             });
                         }
-                        Some(_) => flagged = true,
-                        None => flagged = false,
+                        Some(bad) => flagged = Some(bad.nucleus),
+                        None => flagged = None,
                     }
                 }
                 if at_snapshot {

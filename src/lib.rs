@@ -59,7 +59,7 @@ mod summary;
 pub mod tissue;
 pub use summary::stepping_text as summary_stepping_text;
 mod outputs;
-mod wide;
+mod simd;
 pub use outputs::{BasinReport, PictureKind, WriteError, write_basins, write_pictures, write_portrait, write_run};
 pub use outputs::{write_fit, write_screen, write_sensitivity};
 

@@ -92,7 +92,7 @@ pub struct RunArgs {
     pub repeat: usize,
     /// How pictures look.
     #[command(flatten)]
-    pub look: Look,
+    pub look: PictureArgs,
 }
 
 /// Arguments of `check`.
@@ -115,7 +115,7 @@ pub struct RenderArgs {
     pub out: Option<PathBuf>,
     /// How pictures look.
     #[command(flatten)]
-    pub look: Look,
+    pub look: PictureArgs,
 }
 
 /// Arguments of `screen`.
@@ -144,7 +144,7 @@ pub struct ScreenArgs {
     pub out: Option<PathBuf>,
     /// How pictures look.
     #[command(flatten)]
-    pub look: Look,
+    pub look: PictureArgs,
     /// Print what was found as one JSON document on standard output instead of the report.
     #[arg(long)]
     pub json: bool,
@@ -163,7 +163,7 @@ pub struct SensitivityArgs {
     pub out: Option<PathBuf>,
     /// How pictures look.
     #[command(flatten)]
-    pub look: Look,
+    pub look: PictureArgs,
     /// Print what was found as one JSON document on standard output instead of the report.
     #[arg(long)]
     pub json: bool,
@@ -250,7 +250,7 @@ pub struct BasinsArgs {
     pub at: Vec<f64>,
     /// How pictures look.
     #[command(flatten)]
-    pub look: Look,
+    pub look: PictureArgs,
 }
 
 /// Arguments of `portrait`.
@@ -283,7 +283,7 @@ pub struct PortraitArgs {
 
 /// Picture options shared by `run` and `render`.
 #[derive(Debug, Args, Clone, Default)]
-pub struct Look {
+pub struct PictureArgs {
     /// Genes to show, comma-separated (default: all).
     #[arg(long, value_delimiter = ',')]
     pub genes: Option<Vec<String>>,
@@ -310,7 +310,7 @@ pub struct Look {
     pub to_min: Option<f64>,
 }
 
-impl Look {
+impl PictureArgs {
     /// As library options.
     pub fn options(&self) -> StyleOptions {
         StyleOptions {

@@ -7,11 +7,11 @@ use anyhow::Context;
 use anlage::model::Model;
 
 pub fn default_out(model: &Path) -> PathBuf {
-    sibling(model, "run")
+    beside_model(model, "run")
 }
 
 /// `<model stem>_<what>` next to the model file.
-pub fn sibling(model: &Path, what: &str) -> PathBuf {
+pub fn beside_model(model: &Path, what: &str) -> PathBuf {
     let stem = model.file_stem().map_or_else(|| "model".into(), |s| s.to_string_lossy().into_owned());
     model.with_file_name(format!("{stem}_{what}"))
 }

@@ -40,7 +40,7 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<()> {
     if let Some(bar) = bar {
         bar.finish_and_clear();
     }
-    let dir = out.clone().unwrap_or_else(|| sibling(path, "fit"));
+    let dir = out.clone().unwrap_or_else(|| beside_model(path, "fit"));
     let bg = if *light { anlage::render::Background::Light } else { anlage::render::Background::Dark };
     anlage::write_fit(&problem, &result, bg, &dir).with_context(|| format!("writing the fit to {}", dir.display()))?;
     if *json {

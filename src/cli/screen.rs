@@ -38,7 +38,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     };
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
-    let dir = out.clone().unwrap_or_else(|| sibling(path, "screen"));
+    let dir = out.clone().unwrap_or_else(|| beside_model(path, "screen"));
     let screen = anlage::write_screen(&model, &list, &style, &dir, chosen.as_ref(), true)
         .with_context(|| format!("screening {}", path.display()))?;
     if *json {
@@ -62,7 +62,7 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
     }
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
-    let dir = out.clone().unwrap_or_else(|| sibling(path, "screen"));
+    let dir = out.clone().unwrap_or_else(|| beside_model(path, "screen"));
     let rows = anlage::write_sensitivity(&model, *step, &style, &dir, true)
         .with_context(|| format!("sensitivity of {}", path.display()))?;
     if *json {

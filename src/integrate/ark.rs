@@ -17,8 +17,8 @@ use ndarray::Array2;
 
 use super::StepError;
 use super::reactions::Reactions;
+use crate::simd::with_avx2;
 use crate::tissue::Diffusion;
-use crate::wide::with_avx2;
 
 /// Stages.
 const S: usize = 6;
@@ -259,13 +259,13 @@ impl Ark {
         if self.failed.is_some() {
             return f64::INFINITY;
         }
-        let (mut top, mut tame) = (0.0f64, true);
+        let (mut top, mut finite) = (0.0f64, true);
         for ((&e, &u), &r) in flat(&self.err).iter().zip(flat(u)).zip(flat(trial)) {
             let v = (e / (atol + rtol * u.abs().max(r.abs()))).abs();
-            tame &= v <= f64::MAX;
+            finite &= v <= f64::MAX;
             top = top.max(v);
         }
-        if tame { top } else { f64::INFINITY }
+        if finite { top } else { f64::INFINITY }
     }
 }
 

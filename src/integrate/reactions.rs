@@ -7,15 +7,15 @@ use rayon::prelude::*;
 
 use super::StepError;
 use crate::kinetics::{CHUNK, Kinetics};
+use crate::simd::with_avx2;
 use crate::tissue::Tissue;
-use crate::wide::with_avx2;
 
 /// |u| above this counts as a blow-up, a.u.
 const BLOW_UP: f64 = 1e100;
 
 /// True if every value is finite and below [`BLOW_UP`] in size (a
 /// branch-free scan over each contiguous row, so it vectorises).
-fn tame(v: ndarray::ArrayView2<f64>) -> bool {
+fn all_bounded(v: ndarray::ArrayView2<f64>) -> bool {
     with_avx2(
         #[inline(always)]
         || {
@@ -90,7 +90,7 @@ impl<'a> Reactions<'a> {
             (usize, (ndarray::ArrayViewMut2<'v, f64>, (ndarray::ArrayView2<'v, f64>, ndarray::ArrayView2<'v, f64>)));
         let chunk = |(c, (mut out, (u, m))): Chunk| {
             kinetics.rates(u.view(), m, out.view_mut());
-            if tame(u) && tame(out.view()) { None } else { Some(c) }
+            if all_bounded(u) && all_bounded(out.view()) { None } else { Some(c) }
         };
         let outs = f.axis_chunks_iter_mut(ax, CHUNK);
         let us = u.axis_chunks_iter(ax, CHUNK);

@@ -21,8 +21,8 @@ use super::ark::Ark;
 use super::reactions::Reactions;
 use crate::kinetics::{CHUNK, Kinetics};
 use crate::model::Scheme;
+use crate::simd::with_avx2;
 use crate::tissue::{Diffusion, Rhs, Tissue};
-use crate::wide::with_avx2;
 
 /// Below this many values, work is done on one thread.
 const PARALLEL_MIN: usize = 8192;
@@ -46,7 +46,7 @@ fn error_max_plain(r: &[f64], u: &[f64], u1: &[f64], u2: &[f64], w: [f64; 4], rt
         let e = c * (r - (wn * u + wn1 * u1 + wn2 * u2)) / (atol + rtol * u.abs().max(r.abs()));
         e.abs()
     };
-    let (mut top, mut tame) = ([0.0f64; LANES], [true; LANES]);
+    let (mut top, mut finite) = ([0.0f64; LANES], [true; LANES]);
     let n = r.len();
     let (u, u1, u2) = (&u[..n], &u1[..n], &u2[..n]);
     fn lanes(s: &[f64]) -> impl Iterator<Item = &[f64; LANES]> {
@@ -55,16 +55,16 @@ fn error_max_plain(r: &[f64], u: &[f64], u1: &[f64], u2: &[f64], w: [f64; 4], rt
     for (((r, u), u1), u2) in lanes(r).zip(lanes(u)).zip(lanes(u1)).zip(lanes(u2)) {
         for l in 0..LANES {
             let e = term(r[l], u[l], u1[l], u2[l]);
-            tame[l] &= e <= f64::MAX;
+            finite[l] &= e <= f64::MAX;
             top[l] = top[l].max(e);
         }
     }
     for i in n / LANES * LANES..n {
         let e = term(r[i], u[i], u1[i], u2[i]);
-        tame[0] &= e <= f64::MAX;
+        finite[0] &= e <= f64::MAX;
         top[0] = top[0].max(e);
     }
-    if tame.iter().all(|&t| t) { top.into_iter().fold(0.0, f64::max) } else { f64::INFINITY }
+    if finite.iter().all(|&t| t) { top.into_iter().fold(0.0, f64::max) } else { f64::INFINITY }
 }
 
 /// The integrator's state and working arrays; nothing is allocated per step.
@@ -88,7 +88,7 @@ pub struct Stepper<'a> {
     /// The fourth-order scheme's working arrays, when it is the scheme.
     ark: Option<Box<Ark>>,
     /// Every attempt is accepted and no error is estimated (see [`Self::accept_every_step`]).
-    lean: bool,
+    accepts_every_step: bool,
 }
 
 /// Changes to the plain reaction–diffusion system made by mutants.
@@ -131,7 +131,7 @@ impl<'a> Stepper<'a> {
             k1: 0.0,
             k2: 0.0,
             ark: None,
-            lean: false,
+            accepts_every_step: false,
         };
         s.reactions.clamp(&mut s.u);
         s.reactions.eval(s.t, &s.u, &mut s.f)?;
@@ -230,7 +230,7 @@ impl<'a> Stepper<'a> {
     /// nuclei and more this decides how much stays in cache. Results are
     /// bit-identical. ARK steps then skip their error estimate.
     pub fn accept_every_step(&mut self) {
-        self.lean = true;
+        self.accepts_every_step = true;
         if let Some(ark) = &mut self.ark {
             ark.estimate = false;
         }
@@ -249,12 +249,12 @@ impl<'a> Stepper<'a> {
             self.diffusion.solve(&mut self.trial, 1.0, k, parallel);
         } else {
             let w = k / self.k1;
-            if self.lean {
+            if self.accepts_every_step {
                 std::mem::swap(&mut self.trial, &mut self.u1);
             }
             let rhs = Rhs {
                 u: self.u.as_slice().expect("standard layout"),
-                u1: if self.lean { None } else { Some(self.u1.as_slice().expect("standard layout")) },
+                u1: if self.accepts_every_step { None } else { Some(self.u1.as_slice().expect("standard layout")) },
                 f: self.f.as_slice().expect("standard layout"),
                 f1: self.f1.as_slice().expect("standard layout"),
                 c: [(1.0 + w) * (1.0 + w), w * w, k * (1.0 + w), 1.0 + w, w],
@@ -278,7 +278,7 @@ impl<'a> Stepper<'a> {
     ///
     /// With the ARK scheme: its embedded estimate (`ark::Ark::error_norm`).
     pub fn error_norm(&self, k: f64, rtol: f64, atol: f64) -> f64 {
-        assert!(!self.lean, "no error estimate after accept_every_step");
+        assert!(!self.accepts_every_step, "no error estimate after accept_every_step");
         if let Some(ark) = &self.ark {
             return ark.error_norm(&self.u, &self.trial, rtol, atol);
         }
@@ -338,7 +338,7 @@ impl<'a> Stepper<'a> {
             ark.apply_diffusion(&self.diffusion, &self.reactions, &self.u);
             return Ok(());
         }
-        if !self.lean {
+        if !self.accepts_every_step {
             std::mem::swap(&mut self.u2, &mut self.u1);
         }
         std::mem::swap(&mut self.u1, &mut self.u);
@@ -346,7 +346,7 @@ impl<'a> Stepper<'a> {
         std::mem::swap(&mut self.f1, &mut self.f);
         self.k2 = self.k1;
         self.k1 = k;
-        self.history = (self.history + 1).min(if self.lean { 2 } else { 3 });
+        self.history = (self.history + 1).min(if self.accepts_every_step { 2 } else { 3 });
         self.t = t_new;
         self.reactions.eval(self.t, &self.u, &mut self.f)
     }

@@ -218,7 +218,7 @@ impl Kinetics for HillKinetics {
                 const { std::cell::RefCell::new(Scratch { num: [0.0; CHUNK], den: [0.0; CHUNK], sum: [0.0; CHUNK] }) };
         }
         SCRATCH.with_borrow_mut(|scratch| {
-            crate::wide::with_avx2(
+            crate::simd::with_avx2(
                 #[inline(always)]
                 || self.all_genes(u, m, out, scratch),
             )

@@ -177,7 +177,7 @@ fn sweep_strip(
     off: f64,
     row_of: &dyn Fn(usize) -> usize,
 ) {
-    crate::wide::with_avx2(
+    crate::simd::with_avx2(
         #[inline(always)]
         || sweep_strip_body(b, m, inv_w, off, row_of),
     )

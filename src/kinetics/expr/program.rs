@@ -81,7 +81,7 @@ impl Program {
                 const { std::cell::RefCell::new([[0.0; CHUNK]; MAX_DEPTH]) };
         }
         STACK.with_borrow_mut(|stack| {
-            crate::wide::with_avx2(
+            crate::simd::with_avx2(
                 #[inline(always)]
                 || self.run_with(gene, input, len, out, stack),
             )

@@ -10,11 +10,11 @@ pub(crate) fn with_avx2<R>(f: impl FnOnce() -> R) -> R {
     #[cfg(target_arch = "x86_64")]
     if std::arch::is_x86_feature_detected!("avx2") {
         #[target_feature(enable = "avx2")]
-        fn wide<R>(f: impl FnOnce() -> R) -> R {
+        fn avx2_copy<R>(f: impl FnOnce() -> R) -> R {
             f()
         }
         // SAFETY: the CPU was just checked for AVX2.
-        return unsafe { wide(f) };
+        return unsafe { avx2_copy(f) };
     }
     f()
 }

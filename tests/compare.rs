@@ -88,6 +88,16 @@ fn issue_18_unknown_gene_is_refused() {
     assert!(err.contains("m.csv:3: gene `plum` is not in the model (its genes: amber, cobalt)"), "{err}");
 }
 
+/// n = 0 embryos is refused with the row (a trial found it taken as one embryo).
+#[test]
+fn zero_embryos_are_refused() {
+    let dir = ribbon("cmp-n0");
+    let t = table(&dir, "m.csv", "sample,gene,direction,position_pct,sd_pct,n\na,amber,falling,47,1.0,0\n");
+    let (code, _, err) = compare(&dir, &t, &[]);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("m.csv:2") && err.contains("give the number of embryos (1 or more)"), "{err}");
+}
+
 /// A stage label is kept in the table and must be mapped to minutes: without
 /// `--stage` the comparison is refused (never silently made at the last
 /// snapshot); with it, the row is compared at that time.

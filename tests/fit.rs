@@ -331,3 +331,30 @@ fn a_search_stopped_by_its_budget_while_improving_says_so() {
     let out = String::from_utf8_lossy(&o.stdout);
     assert!(o.status.success() && out.contains(verdict) && !out.contains("\nconverged\n"), "{out}");
 }
+
+/// When the model cannot fit the data (here the mutant's amber and cobalt
+/// boundaries, which the ribbon's toggle keeps together, are measured 10 %
+/// apart), the fit says POOR FIT and calls no parameter determined: the 3.84
+/// rule assumes the model is right (a trial found tight "determined"
+/// intervals on a poor fit).
+#[test]
+fn a_poor_fit_determines_nothing() {
+    let (path, _) = recovery_problem("poor", 0.0, 9, 400);
+    let table = path.with_file_name("x2.csv");
+    let text = std::fs::read_to_string(&table).unwrap();
+    let moved: Vec<String> = text
+        .lines()
+        .map(|l| {
+            let mut cells: Vec<String> = l.split(',').map(String::from).collect();
+            if let Ok(x) = cells[4].parse::<f64>() {
+                cells[4] = format!("{}", if cells[2] == "amber" { x - 5.0 } else { x + 5.0 });
+            }
+            cells.join(",")
+        })
+        .collect();
+    std::fs::write(&table, moved.join("\n") + "\n").unwrap();
+    let problem = FitProblem::from_model(&Model::load(&path).unwrap()).unwrap();
+    let r = fit(&problem, true, &mut |_, _| {});
+    assert!(r.p_value.is_some_and(|p| p < anlage::fit::quality::POOR_FIT), "{:?} {}", r.p_value, r.objective);
+    assert!(r.estimates.iter().all(|e| !e.determined), "{:?}", r.estimates);
+}

@@ -409,7 +409,7 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, second
         r.objective,
         problem.params.len()
     );
-    if r.p_value.is_some_and(|p| p < 0.01) {
+    if r.p_value.is_some_and(|p| p < anlage::fit::quality::POOR_FIT) {
         let _ = writeln!(
             s,
             "POOR FIT: the model misses the measured boundaries by more than their stated errors (see fit_residuals.csv)"
@@ -460,7 +460,11 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, second
     }
     let missing = r.residuals.iter().filter(|x| x.measured_pct.is_none() || x.simulated_pct.is_none()).count();
     if missing > 0 {
-        let _ = writeln!(s, "{missing} boundaries missing or extra in the fitted model (penalised)");
+        let _ = writeln!(
+            s,
+            "{missing} {} missing or extra in the fitted model (penalised)",
+            if missing == 1 { "boundary" } else { "boundaries" }
+        );
     }
     let _ = writeln!(
         s,

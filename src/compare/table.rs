@@ -178,11 +178,14 @@ pub fn read_measured(
         }
         let sd_pct = optional("sd_pct", "give a number >= 0 or leave it empty", &|x| x >= 0.0)?;
         let n = field("n");
-        let n = if n.is_empty() {
-            None
-        } else {
-            Some(n.parse::<u32>().map_err(|_| bad(path, line, "n", &n, "give a whole number or leave it empty"))?)
-        };
+        let n =
+            if n.is_empty() {
+                None
+            } else {
+                Some(n.parse::<u32>().ok().filter(|v| *v >= 1).ok_or_else(|| {
+                    bad(path, line, "n", &n, "give the number of embryos (1 or more) or leave it empty")
+                })?)
+            };
         let embryo = field("embryo");
         let embryo = if embryo.is_empty() {
             None

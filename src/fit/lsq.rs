@@ -301,8 +301,8 @@ pub struct Bound {
 /// are re-optimised by [`polish`], started from the previous profile
 /// point and moved by a linear predictor from the last two (continuation).
 /// Steps outward, from `first` (the curvature's σ, say) and doubling,
-/// bracket the crossing of S_best + 3.84; bisection then narrows it to 1e-3
-/// of the range. The point just outside is then re-fitted once more from
+/// bracket the crossing of S_best + 3.84; bisection then narrows it to 0.1 %
+/// of its distance from the best value. The point just outside is then re-fitted once more from
 /// the nearest inside point (a re-fit started far from the valley can fail
 /// and look like a rise); if it turns out inside, the search goes on from
 /// there. The crossing is interpolated linearly within the last bracket. At
@@ -336,7 +336,7 @@ pub fn profile_bound(res: &Res, best: &[f64], best_value: f64, j: usize, dir: f6
             _ => u_in.to_vec(),
         }
     };
-    let first = first.clamp(0.002, 0.25);
+    let first = first.clamp(1e-9, 0.25);
     let mut step = first;
     let mut tries = 0;
     let (z_out, f_out) = loop {
@@ -363,7 +363,9 @@ pub fn profile_bound(res: &Res, best: &[f64], best_value: f64, j: usize, dir: f6
             return Bound { u: z_in, closed: false, better, points, evaluations };
         };
         // Bisect, each re-fit started from the nearest inside point.
-        while (z_out - z_in).abs() > 1e-3 && tries < MAX_PROFILE_POINTS {
+        // To 0.1 % of the crossing's distance from the best value, however
+        // wide the search range.
+        while (z_out - z_in).abs() > (1e-3 * (z_out - best[j]).abs()).max(1e-12) && tries < MAX_PROFILE_POINTS {
             tries += 1;
             let mid = 0.5 * (z_in + z_out);
             let (f, u) = at(mid, &predict(mid, z_in, &u_in, &prev));
@@ -438,9 +440,17 @@ pub fn weak_combinations(jac: &DMatrix<f64>, limit: f64) -> Vec<Weak> {
     out
 }
 
-/// (JᵀJ)⁻¹, or None when it is singular.
+/// (JᵀJ)⁻¹, or None when it is singular: an eigenvalue at or below 1e-12 of
+/// the largest (a parameter or combination the residuals do not feel, whose
+/// rounding-level slopes would give meaningless variances and correlations).
 pub fn covariance(jac: &DMatrix<f64>) -> Option<DMatrix<f64>> {
-    let inv = (jac.transpose() * jac).try_inverse()?;
+    let a = jac.transpose() * jac;
+    let eig = SymmetricEigen::new(a.clone()).eigenvalues;
+    let top = eig.iter().copied().fold(0.0f64, f64::max);
+    if !(top > 0.0) || eig.iter().any(|&e| e <= 1e-12 * top) {
+        return None;
+    }
+    let inv = a.try_inverse()?;
     (inv.iter().all(|v| v.is_finite()) && (0..inv.nrows()).all(|k| inv[(k, k)] >= 0.0)).then_some(inv)
 }
 
@@ -475,6 +485,18 @@ mod tests {
             assert!(bound.closed);
             let want = b + dir * Z95 * se_b;
             assert!((p(bound.u) - want).abs() < 1e-3, "{} vs {want}", p(bound.u));
+        }
+        // The same with a search range 10,000 times wider than the interval
+        // (a trial found such intervals 9× too narrow): the bound is still
+        // within 0.1 % of the half-width, whatever the first step.
+        let q = |u: f64| -1e4 + 2e4 * u;
+        let wide = |u: &[f64]| Some(xs.iter().zip(&ys).map(|(x, y)| q(u[0]) + q(u[1]) * x - y).collect::<Vec<f64>>());
+        let hw = stair_steps(&wide, &[0.5, 0.5], 5, &[1e-12; 5], false).unwrap();
+        let fw = polish(&wide, &[0.5, 0.5], &[0, 1], &hw, false);
+        for (dir, first) in [(-1.0, 0.02), (1.0, 1e-7)] {
+            let bound = profile_bound(&wide, &fw.u, fw.value, 1, dir, &hw, first);
+            let want = b + dir * Z95 * se_b;
+            assert!(bound.closed && (q(bound.u) - want).abs() < 1e-3 * Z95 * se_b, "{} vs {want}", q(bound.u));
         }
     }
 

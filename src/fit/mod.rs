@@ -182,6 +182,16 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
     let cov = jac.as_ref().and_then(lsq::covariance);
     let weak_dirs = jac.as_ref().map(|j| lsq::weak_combinations(j, 1.0)).unwrap_or_default();
     let weak: Vec<Combination> = weak_dirs.iter().map(|w| Combination::new(w, problem, &u)).collect();
+    if missed {
+        notes.push("a profile still found a lower objective after two re-polishes".to_string());
+    }
+    let convergence = Convergence::judge(&search, &starts, best_start, missed, notes);
+    let measured = residuals.iter().filter(|r| r.measured_pct.is_some()).count();
+    let dof = measured.saturating_sub(dim);
+    let p_value = quality::chi2_survival(objective, dof);
+    // The 3.84 rule holds for the right model at its minimum: nothing is
+    // called determined when the fit has not converged or fits poorly.
+    let trusted = convergence.local && p_value.is_none_or(|p| p >= quality::POOR_FIT);
     let estimates = (0..dim)
         .map(|j| {
             let p = &problem.params[j];
@@ -194,12 +204,12 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
             let in_weak = weak.iter().any(|w| w.members.contains(&j));
             Estimate {
                 value: p.value(u[j]),
-                interval: (p.value(lo.u), p.value(hi.u)),
+                interval: (p.value(lo.u).clamp(p.min, p.max), p.value(hi.u).clamp(p.min, p.max)),
                 closed: (lo.closed, hi.closed),
                 approx,
                 at_bound,
                 in_weak,
-                determined: lo.closed && hi.closed && !at_bound && !in_weak,
+                determined: trusted && lo.closed && hi.closed && !at_bound && !in_weak,
             }
         })
         .collect();
@@ -219,16 +229,10 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
     let correlation = cov
         .as_ref()
         .map(|c| (0..dim).map(|i| (0..dim).map(|j| c[(i, j)] / (c[(i, i)] * c[(j, j)]).sqrt()).collect()).collect());
-    let measured = residuals.iter().filter(|r| r.measured_pct.is_some()).count();
-    let dof = measured.saturating_sub(dim);
-    if missed {
-        notes.push("a profile still found a lower objective after two re-polishes".to_string());
-    }
-    let convergence = Convergence::judge(&search, &starts, best_start, missed, notes);
     FitResult {
         estimates,
         objective,
-        p_value: quality::chi2_survival(objective, dof),
+        p_value,
         dof,
         residuals,
         search,

@@ -9,6 +9,9 @@ use super::problem::FitProblem;
 /// Improvement of the best objective over the last quarter of a search's
 /// budget that counts as "still improving" (χ² units; common practice, no source).
 pub const STILL_IMPROVING: f64 = 0.1;
+/// Below this χ² probability the fit is called poor (the model misses the
+/// data by more than their stated errors; common practice, no source).
+pub const POOR_FIT: f64 = 0.01;
 /// Starts whose objectives are within this of the best (χ² units) agree.
 pub const STARTS_AGREE: f64 = 0.1;
 

@@ -98,6 +98,22 @@ fn zero_embryos_are_refused() {
     assert!(err.contains("m.csv:2") && err.contains("give the number of embryos (1 or more)"), "{err}");
 }
 
+/// A row whose time and mapped stage disagree, and a ragged row, are refused
+/// with the line and plain words (a trial found the first silently taken at
+/// the time and the second reported as a parser's message).
+#[test]
+fn conflicting_times_and_ragged_rows_are_refused() {
+    let dir = ribbon("cmp-conflict");
+    let t = table(&dir, "m.csv", "sample,time_min,stage,gene,direction,position_pct\na,120,late,amber,falling,47\n");
+    let (code, _, err) = compare(&dir, &t, &["--stage", "late=240"]);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("m.csv:2") && err.contains("stage `late` is mapped to 240 min"), "{err}");
+    let t = table(&dir, "r.csv", "sample,gene,direction,position_pct\na,amber,falling,47\nb,amber,47\n");
+    let (code, _, err) = compare(&dir, &t, &[]);
+    assert_eq!(code, Some(2), "{err}");
+    assert!(err.contains("r.csv:3: the row has 3 fields where the header has 4"), "{err}");
+}
+
 /// A stage label is kept in the table and must be mapped to minutes: without
 /// `--stage` the comparison is refused (never silently made at the last
 /// snapshot); with it, the row is compared at that time.

@@ -45,6 +45,10 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, dir: &
             json!({
                 "name": p.name,
                 "value": e.value,
+                "start": p.start,
+                "min": p.min,
+                "max": p.max,
+                "scale": if p.log { "log" } else { "linear" },
                 "profile_interval": [e.interval.0, e.interval.1],
                 "low_open": !e.closed.0,
                 "high_open": !e.closed.1,
@@ -66,8 +70,11 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, dir: &
             })
         })
         .collect();
-    let combinations: Vec<Value> =
-        r.weak.iter().map(|w| json!({ "meaning": w.text, "half_width_of_range": w.half_width })).collect();
+    let combinations: Vec<Value> = r
+        .weak
+        .iter()
+        .map(|w| json!({ "meaning": w.text, "half_width_of_range": w.half_width, "direction": w.direction }))
+        .collect();
     json!({
         "kind": "fit",
         "verdict": verdict,
@@ -76,7 +83,11 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, dir: &
         "degrees_of_freedom": r.dof,
         "p_value": r.p_value,
         "evaluations": r.evaluations,
-        "starts": r.starts.iter().map(|s| json!({ "seed": s.seed, "objective": s.value, "values": s.values })).collect::<Vec<_>>(),
+        "starts": r.starts.iter().map(|s| json!({
+            "seed": s.seed, "search_objective": s.search_value, "search_converged": s.search_converged,
+            "objective": s.value, "polish_converged": s.polish.converged, "polish": s.polish.reason, "values": s.values,
+        })).collect::<Vec<_>>(),
+        "correlation": r.correlation,
         "parameters": parameters,
         "combinations": combinations,
         "residuals": residuals,

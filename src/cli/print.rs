@@ -458,6 +458,21 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, second
             w.genotype, w.gene, w.direction, w.time_min, w.value
         );
     }
+    let raised = problem
+        .genotypes
+        .iter()
+        .flat_map(|g| &g.rows)
+        .filter(|row| row.sd_pct.is_some_and(|sd| anlage::compare::floored_sd(row, problem.sd_floor_pct) > Some(sd)))
+        .count();
+    if raised > 0 {
+        let _ = writeln!(
+            s,
+            "{raised} measured {} an sd below the floor (sd_floor_pct = {} %, or the row's resolution) and {} raised to it",
+            if raised == 1 { "row had" } else { "rows had" },
+            problem.sd_floor_pct,
+            if raised == 1 { "was" } else { "were" }
+        );
+    }
     let missing = r.residuals.iter().filter(|x| x.measured_pct.is_none() || x.simulated_pct.is_none()).count();
     if missing > 0 {
         let _ = writeln!(

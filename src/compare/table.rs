@@ -45,6 +45,18 @@ pub enum CompareError {
         /// How to fix.
         fix: String,
     },
+    /// A row with another number of fields than the header.
+    #[error("{}:{line}: the row has {found} fields where the header has {expected}; give every row as many fields as the header (empty ones as ,,)", path.display())]
+    Ragged {
+        /// File.
+        path: PathBuf,
+        /// Line (1-based, the header is line 1).
+        line: usize,
+        /// Fields in the row.
+        found: u64,
+        /// Fields in the header.
+        expected: u64,
+    },
     /// A table with no rows.
     #[error("{}: the table has no rows", path.display())]
     Empty {
@@ -126,8 +138,12 @@ pub fn read_measured(
     let mut rows = Vec::new();
     for (k, rec) in reader.records().enumerate() {
         let line = k + 2;
-        let rec =
-            rec.map_err(|e| bad(path, line, "row", &e.to_string(), "give every row as many fields as the header"))?;
+        let rec = rec.map_err(|e| match e.kind() {
+            csv::ErrorKind::UnequalLengths { expected_len, len, .. } => {
+                CompareError::Ragged { path: path.to_path_buf(), line, found: *len, expected: *expected_len }
+            }
+            _ => bad(path, line, "row", &e.to_string(), "give every row as many fields as the header"),
+        })?;
         let field = |name: &str| find(name).and_then(|c| rec.get(c)).unwrap_or("").to_string();
         let optional = |name: &str, fix: &str, ok: &dyn Fn(f64) -> bool| -> Result<Option<f64>, CompareError> {
             let v = field(name);
@@ -196,7 +212,19 @@ pub fn read_measured(
                     .map_err(|_| bad(path, line, "embryo", &embryo, "give a whole number or leave it empty"))?,
             )
         };
-        let at_min = time_min.or_else(|| stage.as_ref().and_then(|s| stages.get(s).copied()));
+        let mapped = stage.as_ref().and_then(|s| stages.get(s).copied());
+        if let (Some(t), Some(m), Some(s)) = (time_min, mapped, &stage)
+            && !crate::screen::same_time(t, m)
+        {
+            return Err(bad(
+                path,
+                line,
+                "time_min",
+                &t.to_string(),
+                &format!("the row's stage `{s}` is mapped to {m} min; give one time, or make them agree"),
+            ));
+        }
+        let at_min = time_min.or(mapped);
         rows.push(MeasuredRow {
             sample: rec.get(c_sample).unwrap_or("").to_string(),
             embryo,

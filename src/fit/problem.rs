@@ -258,8 +258,20 @@ impl FitProblem {
                 if let Some(t) = r.at_min
                     && !times.iter().any(|&s| crate::screen::same_time(s, t))
                 {
+                    let label = r.stage.as_ref().map_or(String::new(), |s| format!(" (stage `{s}`)"));
+                    let problem = if t > model.clock.until_min {
+                        format!(
+                            "`{}` has a boundary at t = {t} min{label}, after the end of the run ({} min)",
+                            ds.table, model.clock.until_min
+                        )
+                    } else {
+                        format!(
+                            "`{}` has a boundary at t = {t} min{label}, which is not a snapshot time of the clock",
+                            ds.table
+                        )
+                    };
                     return Err(src
-                        .invalid(&span, "table", format!("fit.data[{i}].table"), format!("`{}` has a boundary at t = {t} min, which is not a snapshot time of the clock", ds.table), "give times that are snapshot times (multiples of snapshot_every_min), or leave time empty for the end of the run")
+                        .invalid(&span, "table", format!("fit.data[{i}].table"), problem, "give times that are snapshot times (multiples of snapshot_every_min, up to until_min), or leave time empty for the end of the run")
                         .into());
                 }
             }

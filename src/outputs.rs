@@ -314,7 +314,8 @@ pub fn write_fit(
     let trace = render::fit_trace(result, title, background);
     export::write_atomic(&dir.join("fit_trace.png"), |w| w.write_all(&trace.png()?))?;
     let names: Vec<String> = problem.genotypes.iter().map(|g| g.name.clone()).collect();
-    let chart = render::fit_boundaries(result, &names, title, background);
+    let genes: Vec<(String, [u8; 3])> = problem.model.genes.iter().map(|g| (g.name.clone(), g.color)).collect();
+    let chart = render::fit_boundaries(result, &names, &genes, title, background);
     export::write_atomic(&dir.join("fit_boundaries.png"), |w| w.write_all(&chart.png()?))?;
     if !result.profiles.is_empty() {
         let params: Vec<String> = problem.params.iter().map(|p| p.name.clone()).collect();

@@ -45,11 +45,18 @@ pub fn fit_trace(r: &FitResult, title: &str, bg: Background) -> Canvas {
 }
 
 /// One row per genotype: measured boundaries (open circles with ±σ bars) and
-/// the fitted model's (filled), along the axis in %.
-pub fn fit_boundaries(r: &FitResult, genotypes: &[String], title: &str, bg: Background) -> Canvas {
+/// the fitted model's (filled), along the axis in %, each in its gene's
+/// colour (`genes`: name and colour, for the legend).
+pub fn fit_boundaries(
+    r: &FitResult,
+    genotypes: &[String],
+    genes: &[(String, [u8; 3])],
+    title: &str,
+    bg: Background,
+) -> Canvas {
     let row_h = 46.0f32;
     let (w, top) = (720u32, 80.0f32);
-    let h = (top + row_h * genotypes.len().max(1) as f32 + 90.0) as u32;
+    let h = (top + row_h * genotypes.len().max(1) as f32 + 110.0) as u32;
     let mut c = Canvas::new(w, h, bg.rgb());
     c.text(20.0, 28.0, 16.0, bg.ink(), Align::Left, &format!("{title}: fitted vs measured boundaries"));
     c.text(
@@ -70,19 +77,21 @@ pub fn fit_boundaries(r: &FitResult, genotypes: &[String], title: &str, bg: Back
         true,
     );
     axes::draw_x(&mut c, &a, "position along the axis, % (head at 0)", bg);
-    let (measured_c, fitted_c, bad_c) = ([86, 180, 233], [230, 159, 0], [213, 94, 0]);
+    let bad_c = [213, 94, 0];
+    let colour = |gene: &str| genes.iter().find(|(n, _)| n == gene).map_or(bg.ink(), |(_, c)| *c);
     for (k, g) in genotypes.iter().enumerate() {
         let y = a.top + row_h * (k as f32 + 0.5);
         c.text(a.left - 10.0, y + 4.0, 13.0, bg.ink(), Align::Right, g);
         c.line(a.left, y, a.left + a.width, y, 1.0, bg.muted());
         for res in r.residuals.iter().filter(|x| &x.genotype == g) {
+            let gc = colour(&res.gene);
             match (res.measured_pct, res.simulated_pct) {
                 (Some(m), s) => {
                     let (x0, x1) = (a.px((m - res.sigma_pct).max(0.0)), a.px((m + res.sigma_pct).min(100.0)));
-                    c.line(x0, y - 8.0, x1, y - 8.0, 1.5, measured_c);
-                    c.ellipse(a.px(m), y - 8.0, 5.0, 5.0, 1.5, measured_c, None);
+                    c.line(x0, y - 8.0, x1, y - 8.0, 1.5, gc);
+                    c.ellipse(a.px(m), y - 8.0, 5.0, 5.0, 1.5, gc, None);
                     match s {
-                        Some(s) => c.ellipse(a.px(s), y + 8.0, 4.5, 4.5, 1.0, fitted_c, Some(fitted_c)),
+                        Some(s) => c.ellipse(a.px(s), y + 8.0, 4.5, 4.5, 1.0, gc, Some(gc)),
                         None => c.text(a.px(m), y + 13.0, 14.0, bad_c, Align::Centre, "×"),
                     }
                 }
@@ -90,6 +99,14 @@ pub fn fit_boundaries(r: &FitResult, genotypes: &[String], title: &str, bg: Back
                 (None, None) => {}
             }
         }
+    }
+    // Legend: the genes that appear.
+    let mut x = 150.0f32;
+    let y = h as f32 - 18.0;
+    for (name, gc) in genes.iter().filter(|(n, _)| r.residuals.iter().any(|x| &x.gene == n)) {
+        c.ellipse(x + 5.0, y - 4.0, 5.0, 5.0, 1.0, *gc, Some(*gc));
+        c.text(x + 15.0, y, 12.0, bg.ink(), Align::Left, name);
+        x += 30.0 + 7.5 * name.chars().count() as f32;
     }
     c
 }

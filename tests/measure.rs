@@ -253,7 +253,7 @@ fn bad_measured_tables_are_refused_clearly() {
         (
             "ragged.csv",
             "sample,gene,direction,position_pct\ne1,amber,rising\n",
-            "found record with 3 fields, but the previous record has 4 fields",
+            "ragged.csv:2: the row has 3 fields where the header has 4",
         ),
         (
             "blankgene.csv",

@@ -88,6 +88,25 @@ fn issue_18_unknown_gene_is_refused() {
     assert!(err.contains("m.csv:3: gene `plum` is not in the model (its genes: amber, cobalt)"), "{err}");
 }
 
+/// `compare --json`: the rows of comparison.csv and the notes, on standard output.
+#[test]
+fn compare_json_matches_the_table() {
+    let dir = ribbon("cmp-json");
+    let t = table(
+        &dir,
+        "m.csv",
+        "sample,gene,direction,position_pct,sd_pct\na,amber,falling,47.9,0.0\na,cobalt,rising,48.1,1.0\n",
+    );
+    let (code, out, err) = compare(&dir, &t, &["--json"]);
+    assert_eq!(code, Some(0), "{err}");
+    let doc: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!((doc["kind"].as_str(), doc["model_prediction"].as_bool()), (Some("compare"), Some(true)));
+    let rows = comparison_rows(&dir);
+    assert_eq!(doc["rows"].as_array().unwrap().len(), rows.len());
+    assert_eq!(doc["matched"].as_u64(), Some(2));
+    assert_eq!(doc["raised_sds"].as_u64(), Some(1));
+}
+
 /// n = 0 embryos is refused with the row (a trial found it taken as one embryo).
 #[test]
 fn zero_embryos_are_refused() {

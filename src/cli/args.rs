@@ -210,6 +210,9 @@ pub struct CompareArgs {
     /// Output folder (default: the run folder).
     #[arg(short, long)]
     pub out: Option<PathBuf>,
+    /// Print what was found as one JSON document on standard output instead of the report.
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// Arguments of `synthesize`.

@@ -21,6 +21,22 @@ pub fn screen(s: &anlage::screen::Screen, dir: &Path) -> Value {
     })
 }
 
+/// `compare`: the rows of `comparison.csv`, the rms difference, and the
+/// notes (raised sds, rows compared at the last snapshot, mirrored samples).
+pub fn compare(c: &anlage::compare::Comparison, dir: &Path) -> Value {
+    json!({
+        "kind": "compare",
+        "model_prediction": true,
+        "rows": c.rows,
+        "rmse_pct": c.rmse_pct,
+        "matched": c.rows.iter().filter(|r| r.status == "matched").count(),
+        "raised_sds": c.raised_sds,
+        "at_last_snapshot": c.at_last_snapshot,
+        "mirrored_samples": c.mirror,
+        "outputs": dir,
+    })
+}
+
 /// `sensitivity`: the rows of `sensitivity.csv`.
 pub fn sensitivity(rows: &[anlage::screen::SensitivityRow], dir: &Path) -> Value {
     json!({ "kind": "sensitivity", "model_prediction": true, "rows": rows, "outputs": dir })

@@ -239,6 +239,7 @@ pub fn compare_verb(
     stages: &[String],
     sd_floor: f64,
     out: &Option<PathBuf>,
+    json: bool,
 ) -> anyhow::Result<()> {
     let mut map = HashMap::new();
     for s in stages {
@@ -272,6 +273,10 @@ pub fn compare_verb(
     style.title = format!("{}: simulated vs measured", saved.title);
     let overlay = anlage::render::comparison_overlay(rec, s, &cmp, &style)?;
     anlage::export::write_atomic(&dir.join("comparison.png"), |w| w.write_all(&overlay.png()?))?;
+    if json {
+        println!("{}", super::json::compare(&cmp, &dir));
+        return Ok(());
+    }
     println!("simulated (model prediction) vs measured boundaries:");
     for r in &cmp.rows {
         let f = |v: Option<f64>| v.map_or_else(|| "-".into(), |x| format!("{x:.2}"));
@@ -375,8 +380,8 @@ pub fn measure(args: &MeasureArgs) -> anyhow::Result<()> {
 
 /// `anlage compare`.
 pub fn compare(args: &CompareArgs) -> anyhow::Result<()> {
-    let CompareArgs { run_dir, measured, stages, sd_floor, out } = args;
-    compare_verb(run_dir, measured, stages, *sd_floor, out)
+    let CompareArgs { run_dir, measured, stages, sd_floor, out, json } = args;
+    compare_verb(run_dir, measured, stages, *sd_floor, out, *json)
 }
 
 /// `anlage synthesize`.

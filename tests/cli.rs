@@ -424,3 +424,21 @@ fn issue_20_run_folders_are_complete_or_refused() {
     assert!(String::from_utf8_lossy(&o.stderr).contains("cannot write"), "{}", String::from_utf8_lossy(&o.stderr));
     assert!(start.elapsed() < std::time::Duration::from_secs(5));
 }
+
+/// Shell completions and the manual page come from the argument definitions:
+/// every verb is in them.
+#[test]
+fn completions_and_manual_name_every_verb() {
+    let bash = anlage(&["completions", "bash"]);
+    assert!(bash.status.success());
+    let text = String::from_utf8_lossy(&bash.stdout);
+    for verb in ["run", "check", "render", "screen", "sensitivity", "fit", "measure", "compare", "basins", "portrait"] {
+        assert!(text.contains(verb), "{verb} missing from the bash completions");
+    }
+    let man = anlage(&["manual"]);
+    assert!(man.status.success());
+    let roff = String::from_utf8_lossy(&man.stdout);
+    assert!(roff.contains(".TH anlage 1") && roff.contains("sensitivity"), "{roff}");
+    let bad = anlage(&["completions", "cmd"]);
+    assert_eq!(bad.status.code(), Some(2));
+}

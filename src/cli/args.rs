@@ -46,6 +46,10 @@ pub enum Command {
     Basins(BasinsArgs),
     /// Phase portrait of one nucleus in the plane of two genes.
     Portrait(PortraitArgs),
+    /// Print a shell completion script (bash, zsh, fish, elvish or powershell) to standard output.
+    Completions(CompletionsArgs),
+    /// Print the manual page (roff, for `man`) to standard output.
+    Manual,
 }
 
 /// Arguments of `run`.
@@ -213,6 +217,14 @@ pub struct CompareArgs {
     /// Print what was found as one JSON document on standard output instead of the report.
     #[arg(long)]
     pub json: bool,
+}
+
+/// Arguments of `completions`.
+#[derive(Debug, Args)]
+pub struct CompletionsArgs {
+    /// The shell.
+    #[arg(value_enum)]
+    pub shell: clap_complete::Shell,
 }
 
 /// Arguments of `synthesize`.

@@ -28,5 +28,15 @@ pub fn dispatch(cli: &Cli) -> anyhow::Result<()> {
         Command::Measure(a) => measure::measure(a),
         Command::Compare(a) => measure::compare(a),
         Command::Synthesize(a) => measure::synthesize(a),
+        Command::Completions(a) => {
+            let mut cmd = <Cli as clap::CommandFactory>::command();
+            clap_complete::generate(a.shell, &mut cmd, "anlage", &mut std::io::stdout());
+            Ok(())
+        }
+        Command::Manual => {
+            let cmd = <Cli as clap::CommandFactory>::command();
+            clap_mangen::Man::new(cmd).render(&mut std::io::stdout())?;
+            Ok(())
+        }
     }
 }

@@ -143,6 +143,15 @@ pub struct ScreenArgs {
     /// Also animate the wild type beside this mutant (its name).
     #[arg(long)]
     pub animate: Option<String>,
+    /// Output folder, pictures and report form.
+    #[command(flatten)]
+    pub output: ScreenOutputArgs,
+}
+
+/// Where `screen` and `sensitivity` write, how their pictures look, and
+/// whether they print JSON.
+#[derive(Debug, Args)]
+pub struct ScreenOutputArgs {
     /// Output folder (default: `<model name>_screen` next to the model file).
     #[arg(short, long)]
     pub out: Option<PathBuf>,
@@ -162,15 +171,9 @@ pub struct SensitivityArgs {
     /// Step in ln(parameter) for the central differences (default 0.01).
     #[arg(long, default_value_t = anlage::screen::SENSITIVITY_STEP)]
     pub step: f64,
-    /// Output folder (default: `<model name>_screen` next to the model file).
-    #[arg(short, long)]
-    pub out: Option<PathBuf>,
-    /// How pictures look.
+    /// Output folder, pictures and report form.
     #[command(flatten)]
-    pub look: PictureArgs,
-    /// Print what was found as one JSON document on standard output instead of the report.
-    #[arg(long)]
-    pub json: bool,
+    pub output: ScreenOutputArgs,
 }
 
 /// Arguments of `fit`.

@@ -7,6 +7,15 @@ use std::path::Path;
 
 use serde_json::{Value, json};
 
+/// Prints the JSON document when `json` is asked for, else the report.
+pub fn print_either(json: bool, doc: impl FnOnce() -> Value, report: impl FnOnce() -> String) {
+    if json {
+        println!("{}", doc());
+    } else {
+        print!("{}", report());
+    }
+}
+
 /// `screen`: the wild type's final boundaries and, per mutant, each
 /// boundary's shift and status (the rows of `shifts.csv`).
 pub fn screen(s: &anlage::screen::Screen, dir: &Path) -> Value {

@@ -11,7 +11,8 @@ use super::print;
 
 /// `anlage screen`.
 pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
-    let ScreenArgs { model: path, mutants, knockouts, link_removals, dosage, animate, out, look, json } = args;
+    let ScreenArgs { model: path, mutants, knockouts, link_removals, dosage, animate, output } = args;
+    let ScreenOutputArgs { out, look, json } = output;
     let model = Model::load(path)?;
     let mut list = model.mutants.clone();
     for text in mutants {
@@ -41,17 +42,14 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "screen"));
     let screen = anlage::write_screen(&model, &list, &style, &dir, chosen.as_ref(), true)
         .with_context(|| format!("screening {}", path.display()))?;
-    if *json {
-        println!("{}", super::json::screen(&screen, &dir));
-    } else {
-        print!("{}", print::screen(&screen, &dir));
-    }
+    super::json::print_either(*json, || super::json::screen(&screen, &dir), || print::screen(&screen, &dir));
     Ok(())
 }
 
 /// `anlage sensitivity`.
 pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
-    let SensitivityArgs { model: path, step, out, look, json } = args;
+    let SensitivityArgs { model: path, step, output } = args;
+    let ScreenOutputArgs { out, look, json } = output;
     let model = Model::load(path)?;
     if !(step.is_finite() && *step > 0.0 && *step < 1.0) {
         anyhow::bail!(StyleError::OutOfRange {
@@ -65,10 +63,6 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "screen"));
     let rows = anlage::write_sensitivity(&model, *step, &style, &dir, true)
         .with_context(|| format!("sensitivity of {}", path.display()))?;
-    if *json {
-        println!("{}", super::json::sensitivity(&rows, &dir));
-    } else {
-        print!("{}", print::sensitivity(&rows, &dir));
-    }
+    super::json::print_either(*json, || super::json::sensitivity(&rows, &dir), || print::sensitivity(&rows, &dir));
     Ok(())
 }

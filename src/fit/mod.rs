@@ -113,7 +113,6 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
     let res = residual_fn(problem);
     let f = |u: &[f64]| objective::objective(problem, &problem.values(u));
     let start: Vec<f64> = problem.params.iter().map(|p| p.unit(p.start)).collect();
-    let first_steps = vec![lsq::FIRST_STEP; dim];
     let all: Vec<usize> = (0..dim).collect();
     let mut evaluations = 0;
     let mut starts = Vec::new();
@@ -124,16 +123,7 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
         let offset = k * problem.evaluations;
         let search = optimise::minimise(dim, &f, Some(&start), &opts, &mut |n, b| report(offset + n, b));
         evaluations += search.evaluations;
-        // The polish starts with short slope steps; the stair-wide steps are
-        // found at the end, where they matter for the intervals.
-        let steps = lsq::stair_steps(
-            &res,
-            &search.best,
-            residual_count(&res, &search.best),
-            &min_move(problem, &search.best),
-            parallel,
-        )
-        .unwrap_or_else(|| first_steps.clone());
+        let (_, steps) = residuals_and_steps(problem, &res, &search.best, parallel);
         let polish = lsq::polish(&res, &search.best, &all, &steps, parallel);
         evaluations += polish.evaluations;
         starts.push(Start::new(seed, &search, polish, problem));
@@ -146,13 +136,10 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
     // Profiles re-optimise around the best point; one that finds a lower
     // objective shows the minimum was missed: start again from there (twice at most).
     let mut round = 0;
-    let (objective, residuals, steps, jac, bounds, missed) = loop {
-        let residuals = objective::residuals(problem, &problem.values(&u)).unwrap_or_default();
+    let (objective, residuals, jac, cov, bounds, missed) = loop {
+        let (residuals, steps) = residuals_and_steps(problem, &res, &u, parallel);
         let objective: f64 = residuals.iter().map(|r| r.value * r.value).sum();
-        let n = residuals.len();
-        let steps =
-            lsq::stair_steps(&res, &u, n, &min_move(problem, &u), parallel).unwrap_or_else(|| first_steps.clone());
-        let jac = lsq::regression_slopes(&res, &u, n, &steps, parallel);
+        let jac = lsq::regression_slopes(&res, &u, residuals.len(), &steps, parallel);
         evaluations += dim * 10;
         let cov = jac.as_ref().and_then(lsq::covariance);
         let tasks: Vec<(usize, f64)> = (0..dim).flat_map(|j| [(j, -1.0), (j, 1.0)]).collect();
@@ -175,11 +162,9 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
                 u = p.u;
                 round += 1;
             }
-            other => break (objective, residuals, steps, jac, bounds, other.is_some()),
+            other => break (objective, residuals, jac, cov, bounds, other.is_some()),
         }
     };
-    let _ = steps;
-    let cov = jac.as_ref().and_then(lsq::covariance);
     let weak_dirs = jac.as_ref().map(|j| lsq::weak_combinations(j, 1.0)).unwrap_or_default();
     let weak: Vec<Combination> = weak_dirs.iter().map(|w| Combination::new(w, problem, &u)).collect();
     if missed {
@@ -245,19 +230,17 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
     }
 }
 
-fn residual_count(res: &lsq::Res, u: &[f64]) -> usize {
-    res(u).map_or(0, |r| r.len())
-}
-
-/// The change of each residual that counts as a boundary moving by
-/// [`STAIRS`] nuclei: STAIRS × (one nucleus, % of the axis) / σᵢ.
-fn min_move(problem: &FitProblem, u: &[f64]) -> Vec<f64> {
+/// The residuals at `u` and each parameter's slope step there
+/// ([`lsq::stair_steps`]): a step must move some residual by the change that
+/// counts as a boundary moving [`STAIRS`] nuclei, STAIRS × (one nucleus, % of
+/// the axis) / σᵢ; the first step where that cannot be found.
+fn residuals_and_steps(problem: &FitProblem, res: &lsq::Res, u: &[f64], parallel: bool) -> (Vec<Residual>, Vec<f64>) {
+    let residuals = objective::residuals(problem, &problem.values(u)).unwrap_or_default();
     let nucleus_pct = 100.0 / problem.model.grid.nx as f64;
-    objective::residuals(problem, &problem.values(u))
-        .unwrap_or_default()
-        .iter()
-        .map(|r| STAIRS * nucleus_pct / r.sigma_pct)
-        .collect()
+    let min_move: Vec<f64> = residuals.iter().map(|r| STAIRS * nucleus_pct / r.sigma_pct).collect();
+    let steps = lsq::stair_steps(res, u, residuals.len(), &min_move, parallel)
+        .unwrap_or_else(|| vec![lsq::FIRST_STEP; u.len()]);
+    (residuals, steps)
 }
 
 /// The model file with the fitted values written in: valid input for `anlage

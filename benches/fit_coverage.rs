@@ -177,7 +177,10 @@ fn measured_table(bounds: &[anlage::readout::Boundary], rng: &mut rand_pcg::Pcg6
 fn positions(v: &[f64]) -> Vec<f64> {
     let m = Model::from_toml(&model_text(v[0], v[1], v[2]), Path::new("j.toml")).unwrap();
     let h = m.with_mutant(m.mutants.iter().find(|x| x.name == "beacon half").unwrap());
-    let (a, b) = (anlage::screen::final_boundaries(&m).unwrap(), anlage::screen::final_boundaries(&h).unwrap());
+    let (a, b) = (
+        anlage::readout::predicted_final_boundaries(&m).unwrap(),
+        anlage::readout::predicted_final_boundaries(&h).unwrap(),
+    );
     a.iter().chain(&b).map(|b| b.position_pct).collect()
 }
 
@@ -318,8 +321,8 @@ fn main() {
     let all = Instant::now();
     let truth = Model::from_toml(&model_text(TRUE_LAMBDA, TRUE_KT, TRUE_KR), Path::new("truth.toml")).unwrap();
     let half = truth.with_mutant(truth.mutants.iter().find(|m| m.name == "beacon half").unwrap());
-    let wt_bounds = anlage::screen::final_boundaries(&truth).unwrap();
-    let half_bounds = anlage::screen::final_boundaries(&half).unwrap();
+    let wt_bounds = anlage::readout::predicted_final_boundaries(&truth).unwrap();
+    let half_bounds = anlage::readout::predicted_final_boundaries(&half).unwrap();
 
     let mut out = String::new();
     let _ = writeln!(

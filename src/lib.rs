@@ -40,6 +40,7 @@
 #![allow(clippy::needless_range_loop)]
 
 pub mod compare;
+pub mod error;
 pub mod export;
 pub mod files;
 pub mod fit;
@@ -48,45 +49,55 @@ pub mod kinetics;
 pub mod measure;
 pub mod model;
 pub mod phase;
+pub mod progress;
 
 pub mod readout;
 pub mod render;
-pub mod run_dir;
+pub mod run_folder;
 pub mod screen;
 
-pub mod reference;
-mod summary;
-pub mod tissue;
-pub use summary::stepping_text as summary_stepping_text;
 mod outputs;
+pub mod reference;
 mod simd;
-pub use outputs::{BasinReport, PictureKind, WriteError, write_basins, write_pictures, write_portrait, write_run};
+pub mod tissue;
+pub use outputs::{BasinReport, PictureKind, WriteError, write_basins, write_pictures, write_portrait};
 pub use outputs::{write_fit, write_screen, write_sensitivity};
+pub use run_folder::{Summary, write_run};
 
 use std::time::Instant;
 
 pub use integrate::{Recording, STREAM_ABOVE_BYTES, StepError, StepStats};
-pub use summary::Summary;
 
 use model::Model;
 
 /// How to run a simulation.
-#[derive(Debug, Clone, PartialEq, Eq)]
+#[derive(Clone)]
 pub struct RunOptions {
     /// Use rayon inside the run (results are identical either way).
     pub parallel: bool,
-    /// Show a progress bar on stderr when it is a terminal.
-    pub progress: bool,
+    /// Told of each snapshot taken (stage "snapshots", note "t = … min") and
+    /// of checkpoints that could not be written; `None` reports nothing.
+    pub progress: Option<std::sync::Arc<dyn progress::Progress>>,
     /// Stream the snapshots to an unnamed scratch file in this folder as they
     /// are taken, so memory does not grow with them. Without a folder, a
-    /// recording larger than [`model::stream_above_bytes`] streams to the
+    /// recording larger than [`integrate::memory::stream_above_bytes`] streams to the
     /// system's temporary folder (`anlage run` gives its output folder).
     pub stream_to: Option<std::path::PathBuf>,
 }
 
 impl Default for RunOptions {
     fn default() -> Self {
-        RunOptions { parallel: true, progress: false, stream_to: None }
+        RunOptions { parallel: true, progress: None, stream_to: None }
+    }
+}
+
+impl std::fmt::Debug for RunOptions {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("RunOptions")
+            .field("parallel", &self.parallel)
+            .field("progress", &self.progress.is_some())
+            .field("stream_to", &self.stream_to)
+            .finish()
     }
 }
 
@@ -143,7 +154,8 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
     // A recording too large for memory streams even when no folder is given
     // (then to the system's temporary folder), so every caller fits the
     // budget the model was checked against.
-    let scratch = options.stream_to.clone().or_else(|| model.streams_recording().then(std::env::temp_dir));
+    let scratch =
+        options.stream_to.clone().or_else(|| integrate::MemoryPlan::of(model).streams.then(std::env::temp_dir));
     if let Some(dir) = &scratch {
         recording
             .stream_to(dir)
@@ -159,19 +171,9 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
     // Shared by the two callbacks, which may run on a worker of the pool.
     let recording = std::sync::Mutex::new(recording);
 
-    let bar = if options.progress {
-        let bar = indicatif::ProgressBar::new(model.snapshot_count() as u64);
-        bar.set_style(
-            indicatif::ProgressStyle::with_template(
-                "{bar:40} {pos}/{len} snapshots, t = {msg} min, {elapsed} elapsed, ~{eta} left",
-            )
-            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
-        );
-        bar.set_position(lock(&recording).times.len() as u64);
-        Some(bar)
-    } else {
-        None
-    };
+    let report: &dyn progress::Progress = options.progress.as_deref().unwrap_or(&progress::Silent);
+    report.begin("snapshots", model.snapshot_count() as u64);
+    report.advance(lock(&recording).times.len() as u64, "");
     let mut last_saved = Instant::now();
     let model_path = std::path::absolute(&model.file).unwrap_or_else(|_| model.file.clone());
     let mut warned = false;
@@ -182,13 +184,14 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
         options.parallel,
         resume,
         |t, state| {
-            if let Err(e) = lock(&recording).push(t, state) {
-                write_error.get_or_insert(e);
-            }
-            if let Some(bar) = &bar {
-                bar.set_message(format!("{t:.1}"));
-                bar.inc(1);
-            }
+            let taken = {
+                let mut rec = lock(&recording);
+                if let Err(e) = rec.push(t, state) {
+                    write_error.get_or_insert(e);
+                }
+                rec.times.len() as u64
+            };
+            report.advance(taken, &format!("t = {t:.1} min"));
         },
         |stepper, progress, stats| {
             let Some(plan) = plan else { return true };
@@ -212,16 +215,14 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
             if let Err(e) = export::write_atomic_durable(&plan.file, |w| checkpoint.write(w))
                 && !warned
             {
-                eprintln!("anlage: warning: checkpoint not written: {e}");
+                report.warn(&format!("checkpoint not written: {e}"));
                 warned = true;
             }
             last_saved = Instant::now();
             !stopping
         },
     );
-    if let Some(bar) = bar {
-        bar.finish_and_clear();
-    }
+    report.finish();
     if let Some(e) = write_error {
         return Err(StepError::Recording(format!("writing a snapshot to the scratch file: {e}")));
     }

@@ -6,9 +6,7 @@ use std::process::ExitCode;
 
 use clap::Parser;
 
-use anlage::model::ModelError;
-use anlage::render::StyleError;
-use anlage::run_dir::RunDirError;
+use anlage::error::Blame;
 use cli::Cli;
 
 fn main() -> ExitCode {
@@ -30,17 +28,10 @@ fn main() -> ExitCode {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
             eprintln!("anlage: {e:#}");
-            // 2: the input is wrong; 1: the computation or output failed.
-            let bad_input = e.chain().any(|c| {
-                c.is::<ModelError>()
-                    || c.is::<StyleError>()
-                    || c.is::<RunDirError>()
-                    || c.is::<anlage::measure::MeasureError>()
-                    || c.is::<anlage::compare::CompareError>()
-                    || c.is::<anlage::integrate::CheckpointError>()
-                    || c.is::<anlage::fit::FitSetupError>()
-            });
-            if bad_input { ExitCode::from(2) } else { ExitCode::from(1) }
+            // 2: the input is wrong; 1: the computation or output failed
+            // (also for errors of the command line's own, such as a bad --starts).
+            let blame = e.chain().find_map(anlage::error::blame_of).unwrap_or(Blame::Run);
+            ExitCode::from(blame.exit_code())
         }
     }
 }

@@ -1,76 +1,14 @@
-//! Writing a run's outputs into its folder: tables, states, summary and
-//! pictures; and the phase-space outputs of `anlage basins` and `portrait`.
+//! The sets of files the verbs other than `run` write (the run folder is
+//! [`crate::run_folder`]'s): pictures redrawn from a run, basins and
+//! portraits, screens, sensitivities and fits. Each file is written through
+//! [`crate::export`] and appears whole or not at all.
 
 use std::path::{Path, PathBuf};
 
 use crate::model::Model;
 use crate::phase::{BasinAnalysis, BasinOptions, Landscape};
-use crate::{Recording, Run, Summary, export, readout, render};
-
-/// Writes every output of a run into `dir` (created if missing) and returns
-/// the summary; each file appears whole or not at all. Pictures are drawn
-/// with `style_options` (checked before anything is written).
-///
-/// # Errors
-/// [`WriteError`] if a picture option is wrong or a file cannot be written.
-pub fn write_run(
-    model: &Model,
-    run: &Run,
-    dir: &Path,
-    style_options: &render::StyleOptions,
-    pictures: bool,
-) -> Result<Summary, WriteError> {
-    let style = render::Style::with_options(&run.recording, &model.title, style_options)?;
-    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
-    export::remove_stale_temps(dir);
-    // From here until the new manifest, the folder's set is incomplete.
-    export::folder::unmark(dir);
-    let rec = &run.recording;
-    let (boundaries, domains) = readout::find_boundaries_and_domains(rec)?;
-    let path = |name: &str| -> PathBuf { dir.join(name) };
-    let mut written: Vec<String> = vec!["profiles.csv".into(), "profiles_long.csv".into()];
-    export::write_profiles(rec, &path("profiles.csv"))?;
-    export::write_profiles_long(rec, &path("profiles_long.csv"))?;
-    if rec.grid.is_sheet() {
-        export::write_sheet(rec, &path("final_sheet.csv"))?;
-        written.push("final_sheet.csv".into());
-    }
-    export::write_states_npy(rec, &path("states.npy"))?;
-    export::write_boundaries(&boundaries, &path("boundaries.csv"))?;
-    export::write_domains(&domains, &path("domains.csv"))?;
-    let summary = Summary::new(model, run);
-    export::write_json(&summary, &path("summary.json"))?;
-    export::write_atomic(&path("model.toml"), |w| w.write_all(model.text.as_bytes()))?;
-    written.extend(["states.npy", "boundaries.csv", "domains.csv", "summary.json", "model.toml"].map(String::from));
-    if pictures {
-        for p in write_pictures(rec, &boundaries, &style, dir, PictureKind::All)? {
-            written.extend(p.file_name().map(|n| n.to_string_lossy().into_owned()));
-        }
-    }
-    // Outputs of an earlier run of another kind (a sheet's table, pictures
-    // not drawn this time) would pass for this run's: they go.
-    for stale in RUN_OUTPUTS.iter().filter(|n| !written.iter().any(|w| w == *n)) {
-        let _ = std::fs::remove_file(path(stale));
-    }
-    export::folder::write_manifest(dir, &written)?;
-    Ok(summary)
-}
-
-/// Every file `anlage run` can write into its folder (besides the manifest).
-pub const RUN_OUTPUTS: [&str; 12] = [
-    "profiles.csv",
-    "profiles_long.csv",
-    "final_sheet.csv",
-    "states.npy",
-    "boundaries.csv",
-    "domains.csv",
-    "summary.json",
-    "model.toml",
-    "kymograph.png",
-    "pattern.png",
-    "profiles.png",
-    "pattern.gif",
-];
+use crate::progress::Progress;
+use crate::{Recording, export, readout, render};
 
 /// Outputs that could not be written.
 #[derive(Debug, thiserror::Error)]
@@ -90,8 +28,7 @@ pub enum WriteError {
 }
 
 /// Which pictures to draw.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
-
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum PictureKind {
     /// Every picture that fits the tissue.
     All,
@@ -173,16 +110,10 @@ pub fn write_basins(
     style: &render::Style,
     gene: usize,
     dir: &Path,
+    progress: &dyn Progress,
 ) -> Result<BasinReport, WriteError> {
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
-    let bar = indicatif::ProgressBar::new(opts.snapshots(&rec.times).len() as u64);
-    bar.set_style(
-        indicatif::ProgressStyle::with_template("{bar:40} {pos}/{len} snapshots' fates, {elapsed}")
-            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
-    );
-    let analysis =
-        crate::phase::basins::analyse_with_progress(model, rec, opts, &|done, _| bar.set_position(done as u64))?;
-    bar.finish_and_clear();
+    let analysis = crate::phase::basins::analyse_with_progress(model, rec, opts, progress)?;
     let last = rec.times.len() - 1;
     let hi: Vec<f64> = rec.max_levels(0..rec.len())?.into_iter().map(|m| 1.2 * m.max(1e-3)).collect();
     let landscape = crate::phase::landscape(model, rec.times[last], &hi);
@@ -242,8 +173,9 @@ pub fn write_screen(
     dir: &Path,
     animate: Option<&crate::model::Mutant>,
     parallel: bool,
+    progress: &dyn Progress,
 ) -> Result<crate::screen::Screen, WriteError> {
-    let screen = crate::screen::run_screen(model, mutants, parallel)?;
+    let screen = crate::screen::run_screen_with(model, mutants, parallel, progress)?;
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
     export::write_shifts(&screen, &dir.join("shifts.csv"))?;
     let genes: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
@@ -277,8 +209,9 @@ pub fn write_sensitivity(
     style: &render::Style,
     dir: &Path,
     parallel: bool,
+    progress: &dyn Progress,
 ) -> Result<Vec<crate::screen::SensitivityRow>, WriteError> {
-    let rows = crate::screen::sensitivity(model, step_ln, parallel)?;
+    let rows = crate::screen::sensitivity_with(model, step_ln, parallel, progress)?;
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
     export::write_sensitivity(&rows, &dir.join("sensitivity.csv"))?;
     let map = render::sensitivity_map(&rows, style);

@@ -176,6 +176,18 @@ fn basins_and_portrait_from_a_run_folder() {
     let o = anlage(&["basins", out.to_str().unwrap(), "--at", "101,239"]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     assert_eq!(times(&std::fs::read_to_string(out.join("basins.csv")).unwrap()), ["100", "240"]);
+    // --json: the same counts and commitments as the tables, one document on standard output.
+    let o = anlage(&["basins", out.to_str().unwrap(), "--at", "101,239", "--json"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let doc: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!((doc["kind"].as_str(), doc["model_prediction"].as_bool()), (Some("basins"), Some(true)));
+    assert_eq!(doc["times_min"], serde_json::json!([100.0, 240.0]));
+    let commitment = std::fs::read_to_string(out.join("commitment.csv")).unwrap();
+    assert_eq!(doc["commitment"].as_array().unwrap().len(), commitment.lines().count() - 1);
+    let at_end: u64 = doc["attractors"].as_array().unwrap().iter().map(|a| a["nuclei_at_end"].as_u64().unwrap()).sum();
+    assert_eq!(at_end, 100, "every nucleus ends in one attractor");
+    let fold = doc["folds"][0]["position_pct"].as_f64().unwrap();
+    assert!((78.6..78.8).contains(&fold), "the fold the report prints: {fold}");
     let o = anlage(&["basins", out.to_str().unwrap(), "--every", "0"]);
     assert_eq!(o.status.code(), Some(2));
     let pic = out.join("p.png");

@@ -30,7 +30,7 @@ fn write_table(dir: &Path, name: &str, genotype: Option<&str>, sd: f64, seed: u6
         Some(m) => truth.with_mutant(truth.mutants.iter().find(|x| x.name == m).unwrap()),
         None => truth,
     };
-    let bounds = anlage::screen::final_boundaries(&model).unwrap();
+    let bounds = anlage::readout::predicted_final_boundaries(&model).unwrap();
     let mut rng = rand_pcg::Pcg64::seed_from_u64(seed);
     let n = 8usize;
     let mut text = String::from("sample,time,gene,direction,position_pct,sd_pct,n\n");
@@ -273,8 +273,8 @@ fn an_exact_trade_off_is_named_and_neither_partner_is_determined() {
         .parse_mutant(r#"{ name = "both", scale = { "cobalt.production" = 0.6, "cobalt->amber.threshold" = 0.6 } }"#)
         .unwrap();
     let (a, b) = (
-        anlage::screen::final_boundaries(&truth).unwrap(),
-        anlage::screen::final_boundaries(&truth.with_mutant(&scaled)).unwrap(),
+        anlage::readout::predicted_final_boundaries(&truth).unwrap(),
+        anlage::readout::predicted_final_boundaries(&truth.with_mutant(&scaled)).unwrap(),
     );
     assert_eq!(a.len(), b.len());
     assert!(a.iter().zip(&b).all(|(a, b)| (a.position_pct - b.position_pct).abs() < 1e-6), "{a:?} {b:?}");

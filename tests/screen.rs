@@ -1,7 +1,8 @@
 //! Mutant screens and sensitivity.
 
 use anlage::model::{Edit, GradientParam, Model, Mutant, Param};
-use anlage::screen::{self, final_boundaries, run_screen};
+use anlage::readout::predicted_final_boundaries as final_boundaries;
+use anlage::screen::{self, run_screen};
 use approx::assert_relative_eq;
 
 use crate::common::{load, parse};

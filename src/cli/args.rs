@@ -4,7 +4,6 @@ use std::path::PathBuf;
 
 use clap::{Args, Parser, Subcommand};
 
-use anlage::PictureKind;
 use anlage::render::StyleOptions;
 
 /// anlage: simulate how gene circuits pattern rows and sheets of nuclei.
@@ -113,7 +112,7 @@ pub struct RenderArgs {
     pub run_dir: PathBuf,
     /// Which picture.
     #[arg(long, value_enum, default_value = "all")]
-    pub kind: PictureKind,
+    pub kind: KindArg,
     /// Output folder (default: the run folder).
     #[arg(short, long)]
     pub out: Option<PathBuf>,
@@ -269,6 +268,9 @@ pub struct BasinsArgs {
     /// How pictures look.
     #[command(flatten)]
     pub look: PictureArgs,
+    /// Print what was found as one JSON document on standard output instead of the report.
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// Arguments of `portrait`.
@@ -361,6 +363,33 @@ fn parse_wall_time(text: &str) -> Result<std::time::Duration, String> {
     match number.trim().parse::<f64>() {
         Ok(v) if v.is_finite() && v >= 0.0 => Ok(std::time::Duration::from_secs_f64(v * scale)),
         _ => Err(format!("`{text}` is not a wall time; write e.g. 90s, 10m or 2h")),
+    }
+}
+
+/// Which pictures `render` draws.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum KindArg {
+    /// Every picture that fits the tissue.
+    All,
+    /// `kymograph.png` (rows only).
+    Kymograph,
+    /// `pattern.png`, the final state.
+    Pattern,
+    /// `profiles.png`.
+    Profiles,
+    /// `pattern.gif`.
+    Animation,
+}
+
+impl From<KindArg> for anlage::PictureKind {
+    fn from(k: KindArg) -> Self {
+        match k {
+            KindArg::All => anlage::PictureKind::All,
+            KindArg::Kymograph => anlage::PictureKind::Kymograph,
+            KindArg::Pattern => anlage::PictureKind::Pattern,
+            KindArg::Profiles => anlage::PictureKind::Profiles,
+            KindArg::Animation => anlage::PictureKind::Animation,
+        }
     }
 }
 

@@ -30,11 +30,15 @@ pub fn planned_recording(model: &Model) -> anlage::Recording {
 pub fn model_and_recording(source: &Path, out: Option<&Path>) -> anyhow::Result<(Model, anlage::Recording, PathBuf)> {
     if source.is_dir() {
         let model = Model::load(&source.join("model.toml"))?;
-        let saved = anlage::run_dir::load(source)?;
+        let saved = anlage::run_folder::load(source)?;
         Ok((model, saved.recording, out.map_or_else(|| source.to_path_buf(), Path::to_path_buf)))
     } else {
         let model = Model::load(source)?;
-        let options = anlage::RunOptions { parallel: true, progress: true, ..Default::default() };
+        let options = anlage::RunOptions {
+            parallel: true,
+            progress: Some(std::sync::Arc::new(super::bar::Bar::new(false))),
+            ..Default::default()
+        };
         let run = anlage::simulate(&model, &options).with_context(|| format!("simulating {}", source.display()))?;
         Ok((model, run.recording, out.map_or_else(|| default_out(source), Path::to_path_buf)))
     }

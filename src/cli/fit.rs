@@ -3,6 +3,7 @@
 use anyhow::Context;
 
 use anlage::model::Model;
+use anlage::progress::Progress;
 
 use super::args::*;
 use super::common::*;
@@ -18,28 +19,21 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<()> {
     let mut problem = anlage::fit::FitProblem::from_model(&model)?;
     if let Some(n) = starts {
         if !(1..=64).contains(n) {
-            anyhow::bail!("--starts is {n}; give 1 to 64 starts");
+            anyhow::bail!(anlage::render::StyleError::OutOfRange {
+                option: "--starts".into(),
+                value: n.to_string(),
+                fix: "give 1 to 64 starts".into(),
+            });
         }
         problem.starts = *n;
     }
     let start = std::time::Instant::now();
-    let bar = (!quiet).then(|| {
-        let bar = indicatif::ProgressBar::new((problem.evaluations * problem.starts) as u64);
-        bar.set_style(
-            indicatif::ProgressStyle::with_template("{bar:40} {pos}/{len} evaluations, best {msg}, {elapsed}")
-                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
-        );
-        bar
-    });
+    let bar = super::bar::Bar::new(*quiet || *json);
+    bar.begin("evaluations", (problem.evaluations * problem.starts) as u64);
     let result = anlage::fit::fit(&problem, true, &mut |evaluations, best| {
-        if let Some(bar) = &bar {
-            bar.set_position(evaluations as u64);
-            bar.set_message(format!("{best:.4}"));
-        }
+        bar.advance(evaluations as u64, &format!("best {best:.4}"));
     });
-    if let Some(bar) = bar {
-        bar.finish_and_clear();
-    }
+    bar.finish();
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "fit"));
     let bg = if *light { anlage::render::Background::Light } else { anlage::render::Background::Dark };
     anlage::write_fit(&problem, &result, bg, &dir).with_context(|| format!("writing the fit to {}", dir.display()))?;

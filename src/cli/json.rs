@@ -46,6 +46,53 @@ pub fn compare(c: &anlage::compare::Comparison, dir: &Path) -> Value {
     })
 }
 
+/// `basins`: per attractor, how many nuclei end in it and when the last of
+/// them commits; every nucleus's commitment; the folds of the landscape
+/// along the axis; and the files written.
+pub fn basins(r: &anlage::BasinReport, rec: &anlage::Recording, dir: &Path) -> Value {
+    let a = &r.analysis;
+    let last = a.times.len() - 1;
+    let commitment = a.commitment();
+    let attractors: Vec<Value> = a
+        .labels
+        .iter()
+        .map(|label| {
+            let mine = commitment.iter().filter(|c| &c.label == label);
+            json!({
+                "label": label,
+                "nuclei_at_end": a.basins[last].iter().filter(|b| &b.label == label).count(),
+                "last_commitment_min": mine.map(|c| c.time_min).fold(None, |m: Option<f64>, t| Some(m.map_or(t, |m| m.max(t)))),
+            })
+        })
+        .collect();
+    let nuclei: Vec<Value> = commitment
+        .iter()
+        .map(|c| json!({ "nucleus": c.nucleus, "label": c.label, "committed_min": c.time_min }))
+        .collect();
+    let length = rec.grid.length_um();
+    let folds: Vec<Value> = r
+        .landscape
+        .branches
+        .iter()
+        .flat_map(|b| &b.folds)
+        .map(|f| json!({ "position_pct": f.s, "position_um": f.s / 100.0 * length, "levels": f.x }))
+        .collect();
+    let on_level: serde_json::Map<String, Value> =
+        rec.genes.iter().cloned().zip(a.on_level.iter().map(|v| json!(v))).collect();
+    json!({
+        "kind": "basins",
+        "model_prediction": true,
+        "frozen": a.frozen,
+        "times_min": a.times,
+        "on_level": on_level,
+        "attractors": attractors,
+        "commitment": nuclei,
+        "folds": folds,
+        "files": r.files,
+        "outputs": dir,
+    })
+}
+
 /// `sensitivity`: the rows of `sensitivity.csv`.
 pub fn sensitivity(rows: &[anlage::screen::SensitivityRow], dir: &Path) -> Value {
     json!({ "kind": "sensitivity", "model_prediction": true, "rows": rows, "outputs": dir })

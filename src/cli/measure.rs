@@ -257,7 +257,7 @@ pub fn compare_verb(
     if !(sd_floor.is_finite() && sd_floor > 0.0) {
         bail!(bad_option("--sd-floor", &sd_floor.to_string(), "give a number > 0, % of the length"));
     }
-    let saved = anlage::run_dir::load(run_dir)?;
+    let saved = anlage::run_folder::load(run_dir)?;
     let rows = compare::read_measured(measured, &map, "--stage LABEL=MINUTES")?;
     let rec = &saved.recording;
     compare::check_genes(measured, &rows, &rec.genes)?;
@@ -270,7 +270,7 @@ pub fn compare_verb(
         .find(|&s| cmp.rows.iter().any(|r| r.time_min == rec.times[s]))
         .unwrap_or(rec.times.len() - 1);
     let mut style = Style::for_recording(rec);
-    style.title = format!("{}: simulated vs measured", saved.title);
+    style.title = format!("{}: simulated vs measured", saved.summary.title);
     let overlay = anlage::render::comparison_overlay(rec, s, &cmp, &style)?;
     anlage::export::write_atomic(&dir.join("comparison.png"), |w| w.write_all(&overlay.png()?))?;
     if json {
@@ -331,7 +331,7 @@ pub fn compare_verb(
 
 /// `anlage synthesize`.
 pub fn synthesize_verb(run_dir: &Path, out: &Path, count: usize, seed: u64) -> anyhow::Result<()> {
-    let saved = anlage::run_dir::load(run_dir)?;
+    let saved = anlage::run_folder::load(run_dir)?;
     let rec = &saved.recording;
     if rec.grid.is_sheet() {
         bail!(bad_option(

@@ -3,6 +3,7 @@
 //! the helpers they share ([`common`]). The science is in the library.
 
 mod args;
+mod bar;
 mod common;
 mod fit;
 mod json;

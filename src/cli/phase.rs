@@ -12,7 +12,7 @@ use super::print;
 
 /// `anlage basins`.
 pub fn basins(args: &BasinsArgs) -> anyhow::Result<()> {
-    let BasinsArgs { source, out, with_influx, gene, every, at, look } = args;
+    let BasinsArgs { source, out, with_influx, gene, every, at, look, json } = args;
     let (model, rec, dir) = model_and_recording(source, out.as_deref())?;
     let style = Style::with_options(&rec, &model.title, &look.options())?;
     let gene = match gene {
@@ -54,9 +54,13 @@ pub fn basins(args: &BasinsArgs) -> anyhow::Result<()> {
             rec.grid.len()
         );
     }
-    let report = anlage::write_basins(&model, &rec, &opts, &style, gene, &dir)
+    let report = anlage::write_basins(&model, &rec, &opts, &style, gene, &dir, &super::bar::Bar::new(false))
         .with_context(|| format!("writing basins to {}", dir.display()))?;
-    print!("{}", print::basins(&report, &rec, &dir));
+    super::json::print_either(
+        *json,
+        || super::json::basins(&report, &rec, &dir),
+        || print::basins(&report, &rec, &dir),
+    );
     Ok(())
 }
 

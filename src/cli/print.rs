@@ -108,7 +108,7 @@ pub fn describe(m: &Model) -> String {
         m.clock.snapshot_every_min,
         m.snapshot_count()
     );
-    let _ = writeln!(s, "stepping  {}", anlage::summary_stepping_text(&m.clock));
+    let _ = writeln!(s, "stepping  {}", anlage::run_folder::stepping_text(&m.clock));
     match m.clock.fixed_steps() {
         Some(n) => {
             let _ = writeln!(
@@ -156,9 +156,9 @@ pub fn describe(m: &Model) -> String {
     } else {
         let _ = writeln!(s, "stability not tried along a run: it would take too long here");
     }
-    let streamed = if m.streams_recording() { " (streamed to disk)" } else { "" };
-    let _ =
-        writeln!(s, "memory    {} working + {} recording{streamed}", gib(m.working_bytes()), gib(m.recording_bytes()));
+    let plan = anlage::integrate::MemoryPlan::of(m);
+    let streamed = if plan.streams { " (streamed to disk)" } else { "" };
+    let _ = writeln!(s, "memory    {} working + {} recording{streamed}", gib(plan.working), gib(plan.recording));
     let _ = writeln!(s, "genes     {}", m.genes.len());
     for gene in &m.genes {
         let [r, gg, b] = gene.color;
@@ -302,7 +302,7 @@ pub fn portrait(d: &anlage::phase::PortraitData, rec: &anlage::Recording, path: 
 /// What `anlage screen` prints: the moved, lost and gained boundaries (up to 40 rows).
 pub fn screen(s: &anlage::screen::Screen, dir: &Path) -> String {
     let mut out = String::new();
-    let rows: Vec<&anlage::screen::Shift> = s.shifts.iter().flatten().collect();
+    let rows: Vec<&anlage::readout::Shift> = s.shifts.iter().flatten().collect();
     let _ = writeln!(out, "{} mutants screened (model predictions)", s.mutants.len());
     let _ = writeln!(
         out,

@@ -72,8 +72,12 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
     let style_options = look.options();
     // Check the picture options before a long run, against the snapshot times to come.
     Style::with_options(&planned_recording(&model), &model.title, &style_options)?;
-    let streams = *stream || model.streams_recording();
-    let options = anlage::RunOptions { parallel: true, progress: !quiet, stream_to: streams.then(|| dir.clone()) };
+    let streams = *stream || anlage::integrate::MemoryPlan::of(&model).streams;
+    let options = anlage::RunOptions {
+        parallel: true,
+        progress: Some(std::sync::Arc::new(super::bar::Bar::new(*quiet))),
+        stream_to: streams.then(|| dir.clone()),
+    };
     // With checkpoints on, SIGTERM (a cluster's scheduler ending a job)
     // and SIGINT (Ctrl-C) save the run and stop it cleanly.
     let stop = std::sync::Arc::new(std::sync::atomic::AtomicBool::new(false));
@@ -99,7 +103,7 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
     }
     // The output folder is reserved (created, checked writable, marked
     // busy) before anything is simulated, so a bad folder costs nothing.
-    let _reserved = anlage::export::folder::reserve(&dir)?;
+    let _reserved = anlage::run_folder::reserve(&dir)?;
     let run = match anlage::simulate_with(&model, &options, plan.as_ref()) {
         Err(e @ anlage::StepError::Stopped { .. }) => {
             anyhow::bail!(
@@ -137,20 +141,20 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
 /// `anlage render`.
 pub fn render(args: &RenderArgs) -> anyhow::Result<()> {
     let RenderArgs { run_dir, kind, out, look } = args;
-    let saved = anlage::run_dir::load(run_dir)?;
+    let saved = anlage::run_folder::load(run_dir)?;
     let rec = &saved.recording;
-    let style = Style::with_options(rec, &saved.title, &look.options())?;
+    let style = Style::with_options(rec, &saved.summary.title, &look.options())?;
     let dir = out.clone().unwrap_or_else(|| run_dir.clone());
     std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
     let boundaries = anlage::readout::find_boundaries(rec)?;
-    let written = anlage::write_pictures(rec, &boundaries, &style, &dir, *kind)?;
+    let written = anlage::write_pictures(rec, &boundaries, &style, &dir, (*kind).into())?;
     for path in &written {
         println!("wrote {}", path.display());
     }
     if &dir == run_dir {
         let names: Vec<String> =
             written.iter().filter_map(|p| p.file_name().map(|n| n.to_string_lossy().into_owned())).collect();
-        anlage::export::folder::add_to_manifest(&dir, &names)?;
+        anlage::run_folder::add_to_manifest(&dir, &names)?;
     }
     Ok(())
 }

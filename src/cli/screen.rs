@@ -40,7 +40,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "screen"));
-    let screen = anlage::write_screen(&model, &list, &style, &dir, chosen.as_ref(), true)
+    let screen = anlage::write_screen(&model, &list, &style, &dir, chosen.as_ref(), true, &super::bar::Bar::new(*json))
         .with_context(|| format!("screening {}", path.display()))?;
     super::json::print_either(*json, || super::json::screen(&screen, &dir), || print::screen(&screen, &dir));
     Ok(())
@@ -61,7 +61,7 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "screen"));
-    let rows = anlage::write_sensitivity(&model, *step, &style, &dir, true)
+    let rows = anlage::write_sensitivity(&model, *step, &style, &dir, true, &super::bar::Bar::new(*json))
         .with_context(|| format!("sensitivity of {}", path.display()))?;
     super::json::print_either(*json, || super::json::sensitivity(&rows, &dir), || print::sensitivity(&rows, &dir));
     Ok(())

@@ -12,8 +12,8 @@ pub mod table;
 use serde::Serialize;
 
 use crate::integrate::{ReadBackError, Recording};
+use crate::readout::match_boundaries;
 use crate::readout::{Boundary, boundaries_at};
-use crate::screen::match_boundaries;
 
 pub use table::{CompareError, MeasuredRow, check_genes, check_times, read_measured};
 

@@ -214,7 +214,7 @@ pub fn read_measured(
         };
         let mapped = stage.as_ref().and_then(|s| stages.get(s).copied());
         if let (Some(t), Some(m), Some(s)) = (time_min, mapped, &stage)
-            && !crate::screen::same_time(t, m)
+            && !crate::readout::same_time(t, m)
         {
             return Err(bad(
                 path,

@@ -5,7 +5,6 @@
 
 mod compare_tables;
 mod fit_tables;
-pub mod folder;
 mod phase_tables;
 mod screen_tables;
 mod tables;
@@ -56,7 +55,7 @@ pub enum ExportError {
 /// which is flushed and renamed over `path`; on failure it is removed. A
 /// killed process leaves either the old file or the new one, never half of
 /// one. The data reach the disk when the set is complete
-/// ([`folder::write_manifest`] syncs once), not file by file.
+/// ([`crate::run_folder::write_manifest`] syncs once), not file by file.
 ///
 /// # Errors
 /// [`ExportError::Io`] for any file-system failure.

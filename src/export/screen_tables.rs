@@ -12,7 +12,7 @@ use crate::screen::{Screen, SensitivityRow};
 /// # Errors
 /// [`ExportError`] if the file cannot be written.
 pub fn write_shifts(s: &Screen, path: &Path) -> Result<(), ExportError> {
-    let rows: Vec<crate::screen::Shift> = s.shifts.iter().flatten().cloned().collect();
+    let rows: Vec<crate::readout::Shift> = s.shifts.iter().flatten().cloned().collect();
     super::write_rows(&rows, path)
 }
 

@@ -17,7 +17,7 @@
 use crate::compare::MeasuredRow;
 use crate::integrate;
 use crate::model::Model;
-use crate::screen::{boundaries_at_times, same_time};
+use crate::readout::{predicted_boundaries, same_time};
 
 use super::problem::{FitProblem, Genotype};
 
@@ -67,7 +67,7 @@ fn genotype_residuals(model: &Model, g: &Genotype, floor: f64) -> Result<Vec<Res
     let mut times: Vec<f64> = g.rows.iter().map(time_of).collect();
     times.sort_by(f64::total_cmp);
     times.dedup();
-    let simulated = boundaries_at_times(&model, &times)?;
+    let simulated = predicted_boundaries(&model, &times)?;
     let mut out = Vec::new();
     // Groups of the same gene, direction and time, matched in order along the axis.
     let mut keys: Vec<(String, String, f64)> =

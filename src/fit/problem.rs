@@ -256,7 +256,7 @@ impl FitProblem {
             let times = model.clock.snapshot_times();
             for r in &rows {
                 if let Some(t) = r.at_min
-                    && !times.iter().any(|&s| crate::screen::same_time(s, t))
+                    && !times.iter().any(|&s| crate::readout::same_time(s, t))
                 {
                     let label = r.stage.as_ref().map_or(String::new(), |s| format!(" (stage `{s}`)"));
                     let problem = if t > model.clock.until_min {

@@ -5,6 +5,7 @@
 
 mod ark;
 mod checkpoint;
+pub mod memory;
 mod reactions;
 mod recording;
 pub mod safety;
@@ -14,7 +15,8 @@ use ndarray::Array2;
 use rand::{RngExt, SeedableRng};
 
 pub use checkpoint::{Checkpoint, CheckpointError, CheckpointParts, Progress, StepperState};
-pub use recording::{ReadBackError, Recording, STREAM_ABOVE_BYTES};
+pub use memory::{MemoryPlan, STREAM_ABOVE_BYTES};
+pub use recording::{ReadBackError, Recording};
 pub use stepper::{Forcing, Stepper};
 
 use crate::kinetics::Kinetics;

@@ -13,11 +13,6 @@ use ndarray::Array2;
 
 use crate::model::{Grid, Model};
 
-/// A recording above this size is streamed to disk when a scratch folder is
-/// given, bytes (common practice, no source: a quarter of a GiB leaves room
-/// for the integrator's own arrays on an ordinary workstation).
-pub const STREAM_ABOVE_BYTES: u64 = 256 << 20;
-
 /// The recorded history of a run: the state at each snapshot time.
 #[derive(Debug)]
 pub struct Recording {

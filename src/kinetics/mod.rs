@@ -6,15 +6,16 @@
 //! inner loops run over contiguous slices. A new family (e.g. free rate
 //! expressions) implements [`Kinetics`] and is chosen in [`build`].
 
-pub mod expr;
 mod hill;
+mod program;
 mod rates;
 mod sigmoid;
 
 use ndarray::{ArrayView2, ArrayViewMut2};
 
 pub use hill::HillKinetics;
-pub use rates::{ModelNames, RatesKinetics};
+pub use program::Program;
+pub use rates::RatesKinetics;
 pub use sigmoid::SigmoidKinetics;
 
 use crate::model::{KineticsKind, Model, Regulator};

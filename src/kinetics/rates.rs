@@ -5,48 +5,10 @@
 
 use ndarray::{ArrayView2, ArrayViewMut2};
 
-use super::expr::{self, Expr, Names, Program};
+use super::Program;
 use super::{Input, Kinetics};
-use crate::model::{Gene, Gradient, Model};
-
-/// Names an expression may use: genes (levels), gradients (values) and parameters (constants).
-pub struct ModelNames<'a> {
-    /// Genes.
-    pub genes: &'a [Gene],
-    /// Gradients.
-    pub gradients: &'a [Gradient],
-    /// Parameters.
-    pub parameters: &'a [(String, f64)],
-}
-
-impl Names for ModelNames<'_> {
-    fn resolve(&self, name: &str) -> Option<Expr> {
-        if let Some(g) = self.genes.iter().position(|g| g.name == name) {
-            return Some(Expr::Gene(g));
-        }
-        if let Some(k) = self.gradients.iter().position(|g| g.name == name) {
-            return Some(Expr::Input(k));
-        }
-        if let Some((_, v)) = self.parameters.iter().find(|(n, _)| n == name) {
-            return Some(Expr::Num(*v));
-        }
-        match name {
-            "x" => Some(Expr::Input(self.gradients.len())),
-            "t" => Some(Expr::Input(self.gradients.len() + 1)),
-            _ => None,
-        }
-    }
-    fn known(&self) -> String {
-        let mut all: Vec<&str> = self.genes.iter().map(|g| g.name.as_str()).collect();
-        all.extend(self.gradients.iter().map(|g| g.name.as_str()));
-        all.extend(self.parameters.iter().map(|(n, _)| n.as_str()));
-        all.extend(["x", "t"]);
-        all.join(", ")
-    }
-    fn neighbour(&self, gene: usize) -> Option<Expr> {
-        Some(Expr::Input(self.gradients.len() + 2 + gene))
-    }
-}
+use crate::model::Model;
+use crate::model::expr::{self, Expr, ModelNames};
 
 struct GeneRate {
     gene: usize,

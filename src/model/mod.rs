@@ -5,6 +5,7 @@
 //! right sign, and the clock fits the snapshots.
 
 mod error;
+pub mod expr;
 mod level;
 mod mutant;
 mod param;
@@ -22,35 +23,6 @@ pub use param::{GeneParam, GradientParam, LinkParam, Param, names_in};
 pub use source::Source;
 pub use validate::PALETTE;
 pub use validate_circuit::parse_color;
-
-/// Largest working memory a model may ask for before it is refused, bytes.
-pub const MEMORY_BUDGET_BYTES: u64 = 12 << 30;
-
-/// Environment variable that sets the memory budget, GiB.
-pub const MEMORY_BUDGET_VAR: &str = "ANLAGE_MEMORY_GIB";
-
-/// The memory budget, bytes: `ANLAGE_MEMORY_GIB` (a positive number of GiB)
-/// if set, else [`MEMORY_BUDGET_BYTES`].
-///
-/// # Errors
-/// The text of the variable if it is not a positive number.
-pub fn memory_budget_bytes() -> Result<u64, String> {
-    match std::env::var(MEMORY_BUDGET_VAR) {
-        Err(_) => Ok(MEMORY_BUDGET_BYTES),
-        Ok(text) => match text.trim().parse::<f64>() {
-            Ok(gib) if gib.is_finite() && gib > 0.0 => Ok((gib * (1u64 << 30) as f64) as u64),
-            _ => Err(text),
-        },
-    }
-}
-
-/// Recordings larger than this are streamed to a scratch file rather than
-/// held in memory, bytes: [`crate::STREAM_ABOVE_BYTES`], or a quarter of a
-/// smaller memory budget (so a streamed run always fits the budget's check).
-pub fn stream_above_bytes() -> u64 {
-    let budget = memory_budget_bytes().unwrap_or(MEMORY_BUDGET_BYTES);
-    crate::STREAM_ABOVE_BYTES.min(budget / 4)
-}
 
 /// A checked model.
 #[derive(Debug, Clone)]
@@ -111,39 +83,6 @@ impl Model {
     /// Number of snapshots the run records (t = 0 included).
     pub fn snapshot_count(&self) -> usize {
         self.clock.snapshot_times().len()
-    }
-
-    /// Bytes of the whole recording: snapshots × genes × nuclei × 8.
-    pub fn recording_bytes(&self) -> u64 {
-        self.snapshot_count() as u64 * self.genes.len() as u64 * self.grid.len() as u64 * 8
-    }
-
-    /// True if a run of this model streams its recording to a scratch file
-    /// (it is larger than [`stream_above_bytes`]).
-    pub fn streams_recording(&self) -> bool {
-        self.recording_bytes() > stream_above_bytes()
-    }
-
-    /// Bytes a run holds in memory: the working arrays, plus the recording
-    /// unless it is streamed (then a snapshot's worth of buffers at most,
-    /// counted as the stream threshold).
-    pub fn resident_bytes(&self) -> u64 {
-        self.working_bytes() + self.recording_bytes().min(stream_above_bytes())
-    }
-
-    /// Bytes of the integrator's working arrays: state history and rates (7 per
-    /// gene; the ARK scheme adds 13: two per stage, D∇²u, the stage levels and
-    /// the error estimate), input rows (gradients, x, t, neighbour means) and
-    /// the gradient shapes, plus two spare fields for solver scratch.
-    pub fn working_bytes(&self) -> u64 {
-        let per_field = self.grid.len() as u64 * 8;
-        let genes = self.genes.len() as u64;
-        let per_gene = match self.clock.scheme {
-            Scheme::Sbdf2 => 7,
-            Scheme::Ark4 => 7 + 13,
-        };
-        let inputs = self.gradients.len() as u64 + 2 + if self.circuit.neighbours { genes } else { 0 };
-        (per_gene * genes + inputs + self.gradients.len() as u64 + 2) * per_field
     }
 }
 

@@ -48,11 +48,11 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
         None => Circuit { kinetics: KineticsKind::Hill, links: Vec::new(), parameters: Vec::new(), neighbours: false },
     };
     let mut circuit = circuit;
-    let names = crate::kinetics::ModelNames { genes: &genes, gradients: &gradients, parameters: &circuit.parameters };
+    let names = super::expr::ModelNames { genes: &genes, gradients: &gradients, parameters: &circuit.parameters };
     let mut neighbours = false;
     for (i, (gs, g)) in spec.gene.iter().zip(&genes).enumerate() {
         if let Some(text) = &g.rate {
-            let e = crate::kinetics::expr::parse(text, &names).map_err(|e| {
+            let e = super::expr::parse(text, &names).map_err(|e| {
                 src.invalid(
                     &gs.span(),
                     "rate",
@@ -63,8 +63,8 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
             })?;
             neighbours |= e.reads_input(&|k| k >= gradients.len() + 2);
             // The expression and every derivative must compile within the stack limit.
-            let e = crate::kinetics::expr::simplify(e);
-            let fits = |x: &crate::kinetics::expr::Expr| crate::kinetics::expr::Program::compile(x).is_some();
+            let e = super::expr::simplify(e);
+            let fits = |x: &super::expr::Expr| x.stack_depth() <= super::expr::MAX_DEPTH;
             if !fits(&e) || !(0..genes.len()).all(|j| fits(&e.derivative(j))) {
                 return Err(src.invalid(
                     &gs.span(),
@@ -72,7 +72,7 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
                     format!("gene[{i}] `{}`.rate", g.name),
                     format!(
                         "the expression (or its derivative) needs more than {} intermediate values at once",
-                        crate::kinetics::expr::MAX_DEPTH
+                        super::expr::MAX_DEPTH
                     ),
                     "write it flatter: fewer nested powers and parentheses, or part of it as a constant",
                 ));
@@ -117,8 +117,8 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
         let checked = super::mutant::check_mutant(&model, m.get_ref(), &m.span(), src)?;
         model.mutants.push(checked);
     }
-    let needed = model.resident_bytes();
-    let budget = super::memory_budget_bytes().map_err(|text| ModelError::BadBudget { text })?;
+    let needed = crate::integrate::MemoryPlan::of(&model).resident();
+    let budget = crate::integrate::memory::memory_budget_bytes().map_err(|text| ModelError::BadBudget { text })?;
     if needed > budget {
         let (line, column) = src.locate(&spec.tissue.span(), "nuclei");
         return Err(ModelError::TooLarge {

@@ -116,10 +116,10 @@ type NucleusAt = (Vec<f64>, Vec<f64>, Vec<f64>);
 /// # Errors
 /// [`ReadBackError`] if a streamed snapshot cannot be read back.
 pub fn analyse(model: &Model, rec: &Recording, opts: &BasinOptions) -> Result<BasinAnalysis, ReadBackError> {
-    analyse_with_progress(model, rec, opts, &|_, _| {})
+    analyse_with_progress(model, rec, opts, &crate::progress::Silent)
 }
 
-/// [`analyse`], calling `progress(done, total)` as snapshots' fates are found.
+/// [`analyse`], telling `progress` as snapshots' fates are found (stage "snapshots' fates").
 ///
 /// Each nucleus's fate is followed for 60 time constants of its slowest
 /// decaying mode — the smaller of the genes' slowest decay rate and the
@@ -132,7 +132,7 @@ pub fn analyse_with_progress(
     model: &Model,
     rec: &Recording,
     opts: &BasinOptions,
-    progress: &(dyn Fn(usize, usize) + Sync),
+    progress: &dyn crate::progress::Progress,
 ) -> Result<BasinAnalysis, ReadBackError> {
     let chosen = opts.snapshots(&rec.times);
     let kinetics = crate::kinetics::build(model);
@@ -214,7 +214,7 @@ pub fn analyse_with_progress(
         })
         .collect();
 
-    let done = std::sync::atomic::AtomicUsize::new(0);
+    let done = crate::progress::Counter::begin(progress, "snapshots' fates", chosen.len());
     let basins: Vec<Vec<NucleusBasin>> = frozen
         .par_iter()
         .map(|row| {
@@ -243,7 +243,7 @@ pub fn analyse_with_progress(
                     NucleusBasin { points, fate: f, label, distance }
                 })
                 .collect();
-            progress(done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1, chosen.len());
+            done.tick();
             out
         })
         .collect();

@@ -9,23 +9,28 @@
 //! µm from the left edge and in % of the axis length L = nx·h (the trade's
 //! "% egg length").
 
+mod matching;
+mod predicted;
 mod profile;
 
+pub use matching::{Shift, match_boundaries, same_time};
+pub use predicted::{predicted_boundaries, predicted_final_boundaries};
 pub use profile::{Crossing, Level, Span, boundaries_at_level, domains_at_level, profile_boundaries, profile_domains};
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 use crate::integrate::{ReadBackError, Recording};
 
 /// A boundary of one gene at one snapshot.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Boundary {
     /// Snapshot time, min.
     pub time_min: f64,
     /// Gene name.
     pub gene: String,
     /// `"rising"` (low → high going along the axis) or `"falling"`.
-    pub direction: &'static str,
+    #[serde(deserialize_with = "direction_from_text")]
+    pub direction: Word,
     /// Position, µm from the left edge.
     pub position_um: f64,
     /// Position, % of the axis length.
@@ -37,8 +42,22 @@ pub struct Boundary {
     pub width_um: f64,
 }
 
+/// One of a few fixed words. (An alias, so that serde's derive does not
+/// treat the field as borrowed from the input: serde-rs/serde issue 2665.)
+pub type Word = &'static str;
+
+/// Reads a boundary's direction back as one of the two words it can be.
+fn direction_from_text<'de, D: serde::Deserializer<'de>>(d: D) -> Result<&'static str, D::Error> {
+    let text = String::deserialize(d)?;
+    match text.as_str() {
+        "rising" => Ok("rising"),
+        "falling" => Ok("falling"),
+        other => Err(serde::de::Error::custom(format!("direction `{other}` is neither rising nor falling"))),
+    }
+}
+
 /// A domain (a run of nuclei above half maximum) of one gene at one snapshot.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Domain {
     /// Snapshot time, min.
     pub time_min: f64,

@@ -6,74 +6,15 @@
 
 mod sensitivity;
 
-pub use sensitivity::{SENSITIVITY_STEP, SensitivityRow, sensitivity};
+pub use sensitivity::{SENSITIVITY_STEP, SensitivityRow, sensitivity, sensitivity_with};
 
 use rayon::prelude::*;
-use serde::Serialize;
 
 use crate::integrate::{self, Recording, StepError};
 use crate::model::{Edit, GradientParam, Model, Mutant, Param};
-use crate::readout::{Boundary, boundaries_at};
-
-/// Boundaries of a model's final state, simulated on one thread with only the
-/// last snapshot kept.
-///
-/// # Errors
-/// [`StepError`] if the run fails.
-pub fn final_boundaries(model: &Model) -> Result<Vec<Boundary>, StepError> {
-    boundaries_at_times(model, &[model.clock.until_min])
-}
-
-/// Boundaries at the given snapshot times (min), simulated on one thread
-/// keeping only those snapshots; times that are not snapshot times give none.
-///
-/// # Errors
-/// [`StepError`] if the run fails.
-pub fn boundaries_at_times(model: &Model, times: &[f64]) -> Result<Vec<Boundary>, StepError> {
-    let tissue = crate::tissue::Tissue::new(model);
-    let kinetics = crate::kinetics::build(model);
-    let mut rec = Recording::for_model(model);
-    integrate::integrate(model, kinetics.as_ref(), &tissue, false, |t, state| {
-        if times.iter().any(|&w| same_time(w, t)) {
-            // An in-memory recording: pushing cannot fail.
-            let _ = rec.push(t, state);
-        }
-    })?;
-    Ok((0..rec.times.len()).map(|s| boundaries_at(&rec, s)).collect::<Result<Vec<_>, _>>()?.concat())
-}
-
-/// Two times that name the same snapshot (relative 1e-9).
-pub fn same_time(a: f64, b: f64) -> bool {
-    (a - b).abs() <= 1e-9 * a.abs().max(1.0)
-}
-
-/// How one boundary moved in a mutant.
-#[derive(Debug, Clone, PartialEq, Serialize, Default)]
-pub struct Shift {
-    /// Mutant name.
-    pub mutant: String,
-    /// Gene.
-    pub gene: String,
-    /// "rising" or "falling".
-    pub direction: String,
-    /// Wild-type position, µm (None when gained).
-    pub wild_type_um: Option<f64>,
-    /// Wild-type position, % of axis length.
-    pub wild_type_pct: Option<f64>,
-    /// Mutant position, µm (None when lost).
-    pub mutant_um: Option<f64>,
-    /// Mutant position, % of axis length.
-    pub mutant_pct: Option<f64>,
-    /// Mutant − wild type, µm.
-    pub shift_um: Option<f64>,
-    /// Mutant − wild type, % of axis length.
-    pub shift_pct: Option<f64>,
-    /// What happened: see [`Outcome`] (as its words); "moved", "lost" and
-    /// "gained" straight from [`match_boundaries`].
-    pub status: String,
-    /// Why a mutant failed (status "failed").
-    pub reason: Option<String>,
-}
+use crate::readout::{
+    Boundary, Shift, boundaries_at, match_boundaries, predicted_final_boundaries as final_boundaries, same_time,
+};
 
 /// A boundary whose shift is smaller than this, % of the axis length, is
 /// "unchanged": it rounds to 0.00 % in the tables (common practice, no source).
@@ -168,58 +109,6 @@ pub fn describe_outcomes(shifts: &mut [Shift], genes: &[String], states: &[GeneS
     }
 }
 
-/// Pairs mutant boundaries with wild-type ones of the same gene and direction,
-/// nearest first (greedy on distance); the rest are lost or gained.
-pub fn match_boundaries(mutant: &str, wt: &[Boundary], mt: &[Boundary]) -> Vec<Shift> {
-    let mut pairs: Vec<(f64, usize, usize)> = Vec::new();
-    for (i, a) in wt.iter().enumerate() {
-        for (j, b) in mt.iter().enumerate() {
-            if a.gene == b.gene && a.direction == b.direction {
-                pairs.push(((a.position_um - b.position_um).abs(), i, j));
-            }
-        }
-    }
-    pairs.sort_by(|p, q| p.0.total_cmp(&q.0).then(p.1.cmp(&q.1)).then(p.2.cmp(&q.2)));
-    let (mut used_w, mut used_m) = (vec![false; wt.len()], vec![false; mt.len()]);
-    let mut matched: Vec<(usize, usize)> = Vec::new();
-    for (_, i, j) in pairs {
-        if !used_w[i] && !used_m[j] {
-            used_w[i] = true;
-            used_m[j] = true;
-            matched.push((i, j));
-        }
-    }
-    let row = |w: Option<&Boundary>, m: Option<&Boundary>, status: &str| {
-        let any = w.or(m).expect("one side");
-        Shift {
-            mutant: mutant.to_string(),
-            gene: any.gene.clone(),
-            direction: any.direction.to_string(),
-            wild_type_um: w.map(|b| b.position_um),
-            wild_type_pct: w.map(|b| b.position_pct),
-            mutant_um: m.map(|b| b.position_um),
-            mutant_pct: m.map(|b| b.position_pct),
-            shift_um: w.zip(m).map(|(a, b)| b.position_um - a.position_um),
-            shift_pct: w.zip(m).map(|(a, b)| b.position_pct - a.position_pct),
-            status: status.to_string(),
-            reason: None,
-        }
-    };
-    let mut out: Vec<Shift> = Vec::new();
-    for (i, w) in wt.iter().enumerate() {
-        match matched.iter().find(|(a, _)| *a == i) {
-            Some(&(_, j)) => out.push(row(Some(w), Some(&mt[j]), "moved")),
-            None => out.push(row(Some(w), None, "lost")),
-        }
-    }
-    for (j, m) in mt.iter().enumerate() {
-        if !used_m[j] {
-            out.push(row(None, Some(m), "gained"));
-        }
-    }
-    out
-}
-
 /// The result of a screen.
 #[derive(Debug, Clone)]
 pub struct Screen {
@@ -237,10 +126,26 @@ pub struct Screen {
 /// # Errors
 /// [`StepError`] if the wild type itself fails; a failing mutant is reported in its rows.
 pub fn run_screen(model: &Model, mutants: &[Mutant], parallel: bool) -> Result<Screen, StepError> {
+    run_screen_with(model, mutants, parallel, &crate::progress::Silent)
+}
+
+/// [`run_screen`], telling `progress` as mutants finish (stage "mutants").
+///
+/// # Errors
+/// As [`run_screen`].
+pub fn run_screen_with(
+    model: &Model,
+    mutants: &[Mutant],
+    parallel: bool,
+    progress: &dyn crate::progress::Progress,
+) -> Result<Screen, StepError> {
     let wild_type = final_boundaries(model)?;
+    let done = crate::progress::Counter::begin(progress, "mutants", mutants.len());
     let genes: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
     let one = |m: &Mutant| -> Vec<Shift> {
-        match final_outcome(&model.with_mutant(m)) {
+        let outcome = final_outcome(&model.with_mutant(m));
+        done.tick();
+        match outcome {
             Ok((b, states)) => {
                 let mut shifts = match_boundaries(&m.name, &wild_type, &b);
                 describe_outcomes(&mut shifts, &genes, &states);

@@ -26,10 +26,9 @@
 use rayon::prelude::*;
 use serde::Serialize;
 
-use super::final_boundaries;
 use crate::integrate::StepError;
 use crate::model::{Edit, Model, Mutant, Param};
-use crate::readout::Boundary;
+use crate::readout::{Boundary, predicted_final_boundaries as final_boundaries};
 
 /// Default step δ in ln p (a 1 % change each way).
 pub const SENSITIVITY_STEP: f64 = 0.01;
@@ -78,9 +77,27 @@ fn nearest(b: &Boundary, among: &[Boundary]) -> Option<f64> {
 /// # Errors
 /// [`StepError`] if the wild type fails; a perturbed run that fails leaves its row empty.
 pub fn sensitivity(model: &Model, step_ln: f64, parallel: bool) -> Result<Vec<SensitivityRow>, StepError> {
+    sensitivity_with(model, step_ln, parallel, &crate::progress::Silent)
+}
+
+/// [`sensitivity`], telling `progress` as parameters finish (stage "parameters").
+///
+/// # Errors
+/// As [`sensitivity`].
+pub fn sensitivity_with(
+    model: &Model,
+    step_ln: f64,
+    parallel: bool,
+    progress: &dyn crate::progress::Progress,
+) -> Result<Vec<SensitivityRow>, StepError> {
     let wt = final_boundaries(model)?;
     let params = model.parameters();
-    let one = |p: &Param| rows_for(model, *p, &wt, step_ln);
+    let done = crate::progress::Counter::begin(progress, "parameters", params.len());
+    let one = |p: &Param| {
+        let rows = rows_for(model, *p, &wt, step_ln);
+        done.tick();
+        rows
+    };
     let rows: Vec<Vec<SensitivityRow>> =
         if parallel { params.par_iter().map(one).collect() } else { params.iter().map(one).collect() };
     Ok(rows.concat())

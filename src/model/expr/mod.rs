@@ -1,12 +1,17 @@
-//! Rate expressions: parsed once, differentiated symbolically, and compiled to
-//! a stack program that runs over a whole chunk of nuclei per instruction
-//! (structure of arrays), so no expression is interpreted per nucleus.
+//! The grammar of rate expressions: the expression tree, its parser,
+//! symbolic derivatives and constant folding. The kinetics stage compiles
+//! trees into stack programs (`crate::kinetics::Program`); how deep a stack a
+//! tree needs is decided here ([`Expr::stack_depth`]), so that a model is
+//! checked when it is loaded.
 
+mod names;
 mod parse;
-mod program;
 
+pub use names::ModelNames;
 pub use parse::{Names, ParseError, parse};
-pub use program::{MAX_DEPTH, Program};
+
+/// Deepest stack a compiled expression may need (expressions needing more are refused).
+pub const MAX_DEPTH: usize = 24;
 
 /// Binary operators.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -69,6 +74,34 @@ fn bin(op: Op, a: Expr, b: Expr) -> Expr {
 }
 
 impl Expr {
+    /// Registers a postfix evaluation of this tree needs at once, when it is
+    /// evaluated left operand first, a constant operand of a binary operator
+    /// (and an integer power up to 64) is folded into a one-register
+    /// operation, and the k-th argument of a call lands in register `k`.
+    /// This is the compiler's own rule (`crate::kinetics::Program::compile`
+    /// refuses trees deeper than [`MAX_DEPTH`] by it).
+    pub fn stack_depth(&self) -> usize {
+        self.depth_from(0)
+    }
+
+    fn depth_from(&self, depth: usize) -> usize {
+        match self {
+            Expr::Num(_) | Expr::Gene(_) | Expr::Input(_) => depth + 1,
+            Expr::Neg(a) => a.depth_from(depth),
+            Expr::Bin(Op::Pow, a, b) if matches!(**b, Expr::Num(n) if n.fract() == 0.0 && n.abs() <= 64.0) => {
+                a.depth_from(depth)
+            }
+            Expr::Bin(_, a, b) => match (&**a, &**b) {
+                (_, Expr::Num(_)) => a.depth_from(depth),
+                (Expr::Num(_), _) => b.depth_from(depth),
+                _ => a.depth_from(depth).max(b.depth_from(depth + 1)),
+            },
+            Expr::Call(_, args) => {
+                args.iter().enumerate().map(|(k, a)| a.depth_from(depth + k)).fold(depth, usize::max)
+            }
+        }
+    }
+
     /// True if some leaf (number, gene or input) has `leaf(e)`.
     fn any_leaf(&self, leaf: &impl Fn(&Expr) -> bool) -> bool {
         match self {
@@ -186,7 +219,7 @@ pub fn simplify(e: Expr) -> Expr {
     }
 }
 
-fn apply(op: Op, x: f64, y: f64) -> f64 {
+pub(crate) fn apply(op: Op, x: f64, y: f64) -> f64 {
     match op {
         Op::Add => x + y,
         Op::Sub => x - y,
@@ -198,11 +231,11 @@ fn apply(op: Op, x: f64, y: f64) -> f64 {
 
 /// x^y with integer exponents done by repeated multiplication (exact signs).
 #[inline(always)]
-fn pow(x: f64, y: f64) -> f64 {
+pub(crate) fn pow(x: f64, y: f64) -> f64 {
     if y.fract() == 0.0 && y.abs() <= 64.0 { x.powi(y as i32) } else { x.powf(y) }
 }
 
-fn call(f: Func, a: &[f64]) -> f64 {
+pub(crate) fn call(f: Func, a: &[f64]) -> f64 {
     match f {
         Func::Exp => a[0].exp(),
         Func::Ln => a[0].ln(),

@@ -10,7 +10,7 @@ use std::path::{Path, PathBuf};
 use serde::{Deserialize, Serialize};
 use sha2::{Digest, Sha256};
 
-use super::{ExportError, write_atomic};
+use crate::export::{ExportError, write_atomic};
 
 /// The manifest's file name.
 pub const MANIFEST: &str = "manifest.json";

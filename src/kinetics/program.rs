@@ -1,8 +1,8 @@
 //! Compiled rate expressions: postfix code over chunk-wide registers, each
 //! instruction a loop over a contiguous row (so it vectorises).
 
-use super::{Expr, Func, Op, call, pow};
 use crate::kinetics::CHUNK;
+use crate::model::expr::{Expr, Func, MAX_DEPTH, Op, call, pow};
 
 /// An operation on one register.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -34,9 +34,6 @@ enum Ins {
     BinInput(Op, usize),
 }
 
-/// Deepest stack a program may need (expressions nested deeper are refused).
-pub const MAX_DEPTH: usize = 24;
-
 /// A compiled expression: postfix instructions over chunk-wide registers.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Program {
@@ -44,10 +41,15 @@ pub struct Program {
 }
 
 impl Program {
-    /// Compiles an expression; `None` if it needs more than [`MAX_DEPTH`] stack slots.
+    /// Compiles an expression; `None` if it needs more than [`MAX_DEPTH`]
+    /// stack slots ([`Expr::stack_depth`]).
     pub fn compile(e: &Expr) -> Option<Program> {
+        let depth = e.stack_depth();
+        if depth > MAX_DEPTH {
+            return None;
+        }
         let mut code = Vec::new();
-        let depth = emit(e, &mut code, 0);
+        emit(e, &mut code);
         // Peephole: a row pushed only to be combined with the top, or to have
         // one operation applied, is read in place.
         let mut fused = Vec::with_capacity(code.len());
@@ -63,7 +65,7 @@ impl Program {
             fused.push(pair.unwrap_or(code[i]));
             i += if pair.is_some() { 2 } else { 1 };
         }
-        (depth <= MAX_DEPTH).then_some(Program { code: fused })
+        Some(Program { code: fused })
     }
 
     /// Evaluates over a chunk: `gene(i)` and `input(k)` give the chunk's rows;
@@ -235,56 +237,40 @@ fn combine(op: Op, a: &mut [f64], b: &[f64]) {
 }
 
 /// Emits postfix code; returns the stack depth needed.
-fn emit(e: &Expr, code: &mut Vec<Ins>, depth: usize) -> usize {
+fn emit(e: &Expr, code: &mut Vec<Ins>) {
     match e {
-        Expr::Num(v) => {
-            code.push(Ins::Const(*v));
-            depth + 1
-        }
-        Expr::Gene(g) => {
-            code.push(Ins::Gene(*g));
-            depth + 1
-        }
-        Expr::Input(k) => {
-            code.push(Ins::Input(*k));
-            depth + 1
-        }
+        Expr::Num(v) => code.push(Ins::Const(*v)),
+        Expr::Gene(g) => code.push(Ins::Gene(*g)),
+        Expr::Input(k) => code.push(Ins::Input(*k)),
         Expr::Neg(a) => {
-            let d = emit(a, code, depth);
+            emit(a, code);
             code.push(Ins::Un(Unary::Neg));
-            d
         }
         Expr::Bin(Op::Pow, a, b) if matches!(**b, Expr::Num(n) if n.fract() == 0.0 && n.abs() <= 64.0) => {
-            let d = emit(a, code, depth);
+            emit(a, code);
             let Expr::Num(n) = **b else { unreachable!("matched a number") };
             code.push(Ins::Un(Unary::PowI(n as i32)));
-            d
         }
         Expr::Bin(op, a, b) => match (&**a, &**b) {
             (_, Expr::Num(c)) => {
-                let d = emit(a, code, depth);
+                emit(a, code);
                 code.push(Ins::Un(Unary::BinConst(*op, *c)));
-                d
             }
             (Expr::Num(c), _) => {
-                let d = emit(b, code, depth);
+                emit(b, code);
                 code.push(Ins::Un(Unary::ConstBin(*op, *c)));
-                d
             }
             _ => {
-                let da = emit(a, code, depth);
-                let db = emit(b, code, depth + 1);
+                emit(a, code);
+                emit(b, code);
                 code.push(Ins::Bin(*op));
-                da.max(db)
             }
         },
         Expr::Call(f, args) => {
-            let mut d = depth;
-            for (k, a) in args.iter().enumerate() {
-                d = d.max(emit(a, code, depth + k));
+            for a in args {
+                emit(a, code);
             }
             code.push(Ins::Call(*f, args.len()));
-            d
         }
     }
 }

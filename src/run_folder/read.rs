@@ -6,15 +6,14 @@ use std::path::{Path, PathBuf};
 
 use ndarray::{Array2, ArrayD, Axis, IxDyn};
 use ndarray_npy::ReadNpyExt;
-use serde::Deserialize;
 
+use super::{MODEL_COPY, STATES, SUMMARY, Summary};
 use crate::integrate::Recording;
 use crate::model::{Edges, Grid};
-use crate::summary::GridInfo;
 
 /// A run folder that cannot be read back.
 #[derive(Debug, thiserror::Error)]
-pub enum RunDirError {
+pub enum RunFolderError {
     /// A file is missing or unreadable.
     #[error("cannot read {}; is this a folder written by `anlage run`?", path.display())]
     Read {
@@ -41,24 +40,11 @@ pub enum RunDirError {
     },
 }
 
-#[derive(Deserialize)]
-struct SummaryIn {
-    title: String,
-    genes: Vec<String>,
-    grid: GridInfo,
-    colors: Vec<String>,
-    snapshot_times_min: Vec<f64>,
-    expression_floor: Vec<f64>,
-    /// Absent from runs written before boundary levels could be chosen: half maximum.
-    #[serde(default)]
-    boundary_levels: Option<Vec<crate::model::Level>>,
-}
-
 /// A run read back from its folder.
 #[derive(Debug)]
 pub struct SavedRun {
-    /// Model title.
-    pub title: String,
+    /// What `summary.json` says.
+    pub summary: Summary,
     /// The recording.
     pub recording: Recording,
 }
@@ -68,22 +54,22 @@ pub struct SavedRun {
 /// with their SHA-256.
 ///
 /// # Errors
-/// [`RunDirError`] naming the file that is missing, changed or malformed.
-pub fn load(dir: &Path) -> Result<SavedRun, RunDirError> {
-    let summary_path = dir.join("summary.json");
+/// [`RunFolderError`] naming the file that is missing, changed or malformed.
+pub fn load(dir: &Path) -> Result<SavedRun, RunFolderError> {
+    let summary_path = dir.join(SUMMARY);
     if !dir.is_dir() {
-        return Err(RunDirError::Read {
+        return Err(RunFolderError::Read {
             path: dir.to_path_buf(),
             source: std::io::Error::new(std::io::ErrorKind::NotFound, "no such folder"),
         });
     }
-    if let Some(why) = crate::export::folder::incomplete(dir, &["summary.json", "states.npy", "model.toml"]) {
-        return Err(RunDirError::Incomplete { dir: dir.to_path_buf(), why });
+    if let Some(why) = super::incomplete(dir, &[SUMMARY, STATES, MODEL_COPY]) {
+        return Err(RunFolderError::Incomplete { dir: dir.to_path_buf(), why });
     }
     let text = crate::files::read_text(&summary_path, crate::files::MAX_TABLE_BYTES)
-        .map_err(|source| RunDirError::Read { path: summary_path.clone(), source })?;
-    let bad = |path: &Path, problem: String| RunDirError::Malformed { path: path.to_path_buf(), problem };
-    let s: SummaryIn = serde_json::from_str(&text).map_err(|e| bad(&summary_path, e.to_string()))?;
+        .map_err(|source| RunFolderError::Read { path: summary_path.clone(), source })?;
+    let bad = |path: &Path, problem: String| RunFolderError::Malformed { path: path.to_path_buf(), problem };
+    let s: Summary = serde_json::from_str(&text).map_err(|e| bad(&summary_path, e.to_string()))?;
     let edges = match s.grid.edges.as_str() {
         "sealed" => Edges::Sealed,
         "periodic" => Edges::Periodic,
@@ -101,12 +87,16 @@ pub fn load(dir: &Path) -> Result<SavedRun, RunDirError> {
     if colors.len() != s.genes.len() || s.expression_floor.len() != s.genes.len() {
         return Err(bad(&summary_path, "one colour and one expression floor per gene expected".into()));
     }
-    let levels = s.boundary_levels.clone().unwrap_or_else(|| vec![crate::model::Level::HALF_MAX; s.genes.len()]);
+    let levels = if s.boundary_levels.is_empty() {
+        vec![crate::model::Level::HALF_MAX; s.genes.len()]
+    } else {
+        s.boundary_levels.clone()
+    };
     if levels.len() != s.genes.len() {
         return Err(bad(&summary_path, "one boundary level per gene expected".into()));
     }
-    let npy_path = dir.join("states.npy");
-    let file = File::open(&npy_path).map_err(|source| RunDirError::Read { path: npy_path.clone(), source })?;
+    let npy_path = dir.join(STATES);
+    let file = File::open(&npy_path).map_err(|source| RunFolderError::Read { path: npy_path.clone(), source })?;
     let all = ArrayD::<f64>::read_npy(file).map_err(|e| bad(&npy_path, e.to_string()))?;
     let (snaps, genes, nuclei) = (s.snapshot_times_min.len(), s.genes.len(), grid.len());
     let want: Vec<usize> =
@@ -120,9 +110,14 @@ pub fn load(dir: &Path) -> Result<SavedRun, RunDirError> {
         .map(|a| a.into_dimensionality::<ndarray::Ix2>().map(|v| v.to_owned()))
         .collect::<Result<_, _>>()
         .map_err(|e| bad(&npy_path, e.to_string()))?;
-    Ok(SavedRun {
-        title: s.title,
-        recording: Recording::with_states(grid, s.genes, colors, s.snapshot_times_min, states, s.expression_floor)
-            .with_levels(levels),
-    })
+    let recording = Recording::with_states(
+        grid,
+        s.genes.clone(),
+        colors,
+        s.snapshot_times_min.clone(),
+        states,
+        s.expression_floor.clone(),
+    )
+    .with_levels(levels);
+    Ok(SavedRun { summary: s, recording })
 }

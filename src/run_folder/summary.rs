@@ -1,6 +1,7 @@
-//! `summary.json`: what was run, how it went, and the final boundaries and domains.
+//! `summary.json`: what was run, how it went, and the final boundaries and
+//! domains. The one [`Summary`] type is written and read back.
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 use crate::Run;
 use crate::model::{Clock, Edges, Model, Scheme, Stepping};
@@ -8,14 +9,14 @@ use crate::model::{Clock, Edges, Model, Scheme, Stepping};
 use crate::readout::{Boundary, Domain, final_boundaries, final_domains};
 
 /// The summary of one run.
-#[derive(Debug, Clone, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Summary {
     /// Model title.
     pub title: String,
     /// anlage version that made the run.
-    pub anlage_version: &'static str,
+    pub anlage_version: String,
     /// A reminder of what these numbers are.
-    pub note: &'static str,
+    pub note: String,
     /// FNV-1a 64-bit hash of the model file's text, hex: the same hash means the same model.
     pub model_hash: String,
     /// Seed of the initial noise.
@@ -31,6 +32,8 @@ pub struct Summary {
     /// Per gene, the level below which it counts as not expressed (no boundaries), a.u.
     pub expression_floor: Vec<f64>,
     /// Per gene, the level that defines its boundaries: `{"fraction_of_max": f}` or `{"absolute": a.u.}`.
+    /// Absent from runs written before boundary levels could be chosen (read as half maximum).
+    #[serde(default)]
     pub boundary_levels: Vec<crate::model::Level>,
     /// Axis length, µm.
     pub axis_length_um: f64,
@@ -53,7 +56,7 @@ pub struct Summary {
 }
 
 /// The grid of a run, in summary.json.
-#[derive(Debug, Clone, PartialEq, Serialize, serde::Deserialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct GridInfo {
     /// Nuclei along the axis.
     pub nx: usize,
@@ -75,8 +78,8 @@ impl Summary {
         let last = rec.times.len() - 1;
         Summary {
             title: model.title.clone(),
-            anlage_version: env!("CARGO_PKG_VERSION"),
-            note: PREDICTION_NOTE,
+            anlage_version: env!("CARGO_PKG_VERSION").into(),
+            note: PREDICTION_NOTE.into(),
             model_hash: format!("{:016x}", fnv1a(model.text.as_bytes())),
             seed: model.seed,
             tissue: model.grid.shape_text(),
@@ -128,6 +131,22 @@ pub fn stepping_text(clock: &Clock) -> String {
 
 #[cfg(test)]
 mod tests {
+    use super::Summary;
+
+    /// The summary a run writes reads back as the same value: one type both ways.
+    #[test]
+    fn a_summary_reads_back_as_written() {
+        let text = include_str!("../../patterns/ribbon.toml");
+        let model = crate::model::Model::from_toml(text, "ribbon.toml".as_ref()).unwrap();
+        let run = crate::simulate(&model, &crate::RunOptions::default()).unwrap();
+        let written = Summary::new(&model, &run);
+        assert!(!written.final_boundaries.is_empty(), "the test needs a boundary to read back");
+        let json = serde_json::to_string_pretty(&written).unwrap();
+        let read: Summary = serde_json::from_str(&json).unwrap();
+        assert_eq!(read, written);
+        let bad = json.replace("\"rising\"", "\"sideways\"").replace("\"falling\"", "\"sideways\"");
+        assert!(serde_json::from_str::<Summary>(&bad).unwrap_err().to_string().contains("sideways"));
+    }
     /// Published FNV-1a 64 test vectors (the IETF FNV draft's test suite, from memory):
     /// "" → cbf29ce484222325, "a" → af63dc4c8601ec8c, "foobar" → 85944171f73967e8.
     #[test]

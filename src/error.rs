@@ -1,0 +1,109 @@
+//! Whose fault a failure is: the input (exit status 2) or the computation
+//! and its outputs (exit status 1). Every error type of the library says so
+//! through [`Blamed`]; [`blame_of`] finds it for an error of any type.
+
+use std::error::Error;
+
+/// Whose fault a failure is.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Blame {
+    /// The model file, an option, an image or a table given is wrong: fix the input.
+    Input,
+    /// The computation or writing its outputs failed.
+    Run,
+}
+
+impl Blame {
+    /// The command line's exit status: 2 for [`Blame::Input`], 1 for [`Blame::Run`].
+    pub fn exit_code(self) -> u8 {
+        match self {
+            Blame::Input => 2,
+            Blame::Run => 1,
+        }
+    }
+}
+
+/// An error that knows whose fault it is.
+pub trait Blamed {
+    /// Whose fault this error is.
+    fn blame(&self) -> Blame;
+}
+
+macro_rules! blame_all {
+    ($blame:expr => $($t:ty),+) => {
+        $(impl Blamed for $t {
+            fn blame(&self) -> Blame {
+                $blame
+            }
+        })+
+    };
+}
+
+blame_all!(Blame::Input =>
+    crate::model::ModelError,
+    crate::render::StyleError,
+    crate::run_folder::RunFolderError,
+    crate::measure::MeasureError,
+    crate::compare::CompareError,
+    crate::integrate::CheckpointError,
+    crate::fit::FitSetupError
+);
+blame_all!(Blame::Run =>
+    crate::StepError,
+    crate::export::ExportError,
+    crate::integrate::ReadBackError
+);
+
+impl Blamed for crate::WriteError {
+    fn blame(&self) -> Blame {
+        match self {
+            crate::WriteError::Style(e) => e.blame(),
+            crate::WriteError::Export(e) => e.blame(),
+            crate::WriteError::Step(e) => e.blame(),
+            crate::WriteError::ReadBack(e) => e.blame(),
+        }
+    }
+}
+
+/// The blame of `e` if it is one of the library's error types.
+pub fn blame_of(e: &(dyn Error + 'static)) -> Option<Blame> {
+    macro_rules! try_types {
+        ($($t:ty),+) => {
+            $(if let Some(x) = e.downcast_ref::<$t>() {
+                return Some(x.blame());
+            })+
+        };
+    }
+    try_types!(
+        crate::model::ModelError,
+        crate::render::StyleError,
+        crate::run_folder::RunFolderError,
+        crate::measure::MeasureError,
+        crate::compare::CompareError,
+        crate::integrate::CheckpointError,
+        crate::fit::FitSetupError,
+        crate::StepError,
+        crate::export::ExportError,
+        crate::integrate::ReadBackError,
+        crate::WriteError
+    );
+    None
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_picture_option_inside_a_write_error_is_the_input_s_fault() {
+        // thiserror's `transparent` hides the inner error from `source()`,
+        // so the wrapper itself must pass the blame on.
+        let inner =
+            crate::render::StyleError::OutOfRange { option: "--width".into(), value: "3".into(), fix: "x".into() };
+        let e = crate::WriteError::Style(inner);
+        assert_eq!(blame_of(&e), Some(Blame::Input));
+        let io = crate::export::ExportError::Io { path: "x".into(), source: std::io::Error::other("disk full") };
+        assert_eq!(blame_of(&crate::WriteError::Export(io)), Some(Blame::Run));
+        assert_eq!(blame_of(&std::io::Error::other("x")), None);
+    }
+}

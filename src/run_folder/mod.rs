@@ -1,0 +1,103 @@
+//! A run's folder: what `anlage run` writes into it, the summary, the
+//! manifest that marks the set complete, and reading the run back.
+//!
+//! ```text
+//! <run>/profiles.csv, profiles_long.csv, final_sheet.csv (sheets), boundaries.csv, domains.csv
+//!       states.npy   snapshots × genes × nuclei (× rows), f64
+//!       summary.json [`Summary`]: what was run, how it went, final boundaries
+//!       model.toml   the model file as run
+//!       *.png, pattern.gif
+//!       manifest.json every file with its size and SHA-256, written last
+//! ```
+//! Tables and pictures are written through [`crate::export`] (formats) and
+//! [`crate::render`] (pictures); this module decides which files make a run
+//! folder and in what order they become complete.
+
+mod manifest;
+mod read;
+mod summary;
+
+use std::path::{Path, PathBuf};
+
+use crate::model::Model;
+use crate::outputs::{PictureKind, WriteError, write_pictures};
+use crate::{Run, export, readout, render};
+
+pub use manifest::{
+    BUSY, MANIFEST, MANIFEST_FORMAT, Manifest, ManifestEntry, Reservation, add_to_manifest, incomplete, reserve,
+    sha256_of, unmark, write_manifest,
+};
+pub use read::{RunFolderError, SavedRun, load};
+pub use summary::{GridInfo, PREDICTION_NOTE, Summary, fnv1a, stepping_text};
+
+/// The summary's file name.
+pub const SUMMARY: &str = "summary.json";
+/// The states' file name (NumPy `.npy`).
+pub const STATES: &str = "states.npy";
+/// The copy of the model file.
+pub const MODEL_COPY: &str = "model.toml";
+
+/// Writes every output of a run into `dir` (created if missing) and returns
+/// the summary; each file appears whole or not at all. Pictures are drawn
+/// with `style_options` (checked before anything is written).
+///
+/// # Errors
+/// [`WriteError`] if a picture option is wrong or a file cannot be written.
+pub fn write_run(
+    model: &Model,
+    run: &Run,
+    dir: &Path,
+    style_options: &render::StyleOptions,
+    pictures: bool,
+) -> Result<Summary, WriteError> {
+    let style = render::Style::with_options(&run.recording, &model.title, style_options)?;
+    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
+    export::remove_stale_temps(dir);
+    // From here until the new manifest, the folder's set is incomplete.
+    manifest::unmark(dir);
+    let rec = &run.recording;
+    let (boundaries, domains) = readout::find_boundaries_and_domains(rec)?;
+    let path = |name: &str| -> PathBuf { dir.join(name) };
+    let mut written: Vec<String> = vec!["profiles.csv".into(), "profiles_long.csv".into()];
+    export::write_profiles(rec, &path("profiles.csv"))?;
+    export::write_profiles_long(rec, &path("profiles_long.csv"))?;
+    if rec.grid.is_sheet() {
+        export::write_sheet(rec, &path("final_sheet.csv"))?;
+        written.push("final_sheet.csv".into());
+    }
+    export::write_states_npy(rec, &path(STATES))?;
+    export::write_boundaries(&boundaries, &path("boundaries.csv"))?;
+    export::write_domains(&domains, &path("domains.csv"))?;
+    let summary = Summary::new(model, run);
+    export::write_json(&summary, &path(SUMMARY))?;
+    export::write_atomic(&path(MODEL_COPY), |w| w.write_all(model.text.as_bytes()))?;
+    written.extend([STATES, "boundaries.csv", "domains.csv", SUMMARY, MODEL_COPY].map(String::from));
+    if pictures {
+        for p in write_pictures(rec, &boundaries, &style, dir, PictureKind::All)? {
+            written.extend(p.file_name().map(|n| n.to_string_lossy().into_owned()));
+        }
+    }
+    // Outputs of an earlier run of another kind (a sheet's table, pictures
+    // not drawn this time) would pass for this run's: they go.
+    for stale in RUN_OUTPUTS.iter().filter(|n| !written.iter().any(|w| w == *n)) {
+        let _ = std::fs::remove_file(path(stale));
+    }
+    manifest::write_manifest(dir, &written)?;
+    Ok(summary)
+}
+
+/// Every file `anlage run` can write into its folder (besides the manifest).
+pub const RUN_OUTPUTS: [&str; 12] = [
+    "profiles.csv",
+    "profiles_long.csv",
+    "final_sheet.csv",
+    "states.npy",
+    "boundaries.csv",
+    "domains.csv",
+    "summary.json",
+    "model.toml",
+    "kymograph.png",
+    "pattern.png",
+    "profiles.png",
+    "pattern.gif",
+];

@@ -54,6 +54,15 @@ blame_all!(Blame::Run =>
     crate::integrate::ReadBackError
 );
 
+impl Blamed for crate::replicates::ReplicateError {
+    fn blame(&self) -> Blame {
+        match self {
+            crate::replicates::ReplicateError::Unsupported(_) => Blame::Input,
+            _ => Blame::Run,
+        }
+    }
+}
+
 impl Blamed for crate::WriteError {
     fn blame(&self) -> Blame {
         match self {
@@ -61,6 +70,7 @@ impl Blamed for crate::WriteError {
             crate::WriteError::Export(e) => e.blame(),
             crate::WriteError::Step(e) => e.blame(),
             crate::WriteError::ReadBack(e) => e.blame(),
+            crate::WriteError::Replicates(e) => e.blame(),
         }
     }
 }
@@ -85,6 +95,7 @@ pub fn blame_of(e: &(dyn Error + 'static)) -> Option<Blame> {
         crate::StepError,
         crate::export::ExportError,
         crate::integrate::ReadBackError,
+        crate::replicates::ReplicateError,
         crate::WriteError
     );
     None

@@ -25,6 +25,9 @@ pub enum WriteError {
     /// A streamed snapshot could not be read back.
     #[error(transparent)]
     ReadBack(#[from] crate::integrate::ReadBackError),
+    /// Replicate embryos failed.
+    #[error(transparent)]
+    Replicates(#[from] crate::replicates::ReplicateError),
 }
 
 /// Which pictures to draw.
@@ -256,4 +259,55 @@ pub fn write_fit(
         export::write_atomic(&dir.join("fit_profiles.png"), |w| w.write_all(&chart.png()?))?;
     }
     Ok(())
+}
+
+/// Runs `n` replicate embryos and writes `precision.csv`, `widths.csv`,
+/// `decoding.csv`, `embryo_boundaries.csv` (written as the embryos finish)
+/// and `replicates.png` into `dir`; with `attribute`, also reruns the embryos
+/// with each noise source alone and writes `attribution.csv`.
+///
+/// # Errors
+/// [`WriteError`] if an embryo fails or a file cannot be written.
+pub fn write_replicates(
+    model: &Model,
+    n: usize,
+    attribute: bool,
+    style: &render::Style,
+    dir: &Path,
+    progress: &dyn Progress,
+) -> Result<(crate::replicates::Replicates, Vec<crate::replicates::Share>), WriteError> {
+    use crate::replicates::{self, Sources};
+    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
+    let mut outcome = None;
+    export::write_atomic(&dir.join("embryo_boundaries.csv"), |w| {
+        let mut failed = None;
+        let r = replicates::run(model, n, &Sources::all(model), progress, &mut |i, bs| {
+            if failed.is_none()
+                && let Err(e) = export::embryo_rows(i, bs, i == 0, w)
+            {
+                failed = Some(e);
+            }
+        });
+        if let Some(e) = failed {
+            return Err(e);
+        }
+        let ok = r.is_ok();
+        outcome = Some(r);
+        if ok { Ok(()) } else { Err(std::io::Error::other("the embryos failed")) }
+    })
+    .or_else(|e| if matches!(outcome, Some(Err(_))) { Ok(()) } else { Err(e) })?;
+    let all = outcome.expect("the table's body ran")?;
+    export::write_precision(&all, &dir.join("precision.csv"))?;
+    export::write_widths(&all, &dir.join("widths.csv"))?;
+    export::write_decoding(&all, &dir.join("decoding.csv"))?;
+    let shares = if attribute { replicates::attribute(model, n, &all, progress)? } else { Vec::new() };
+    if attribute {
+        export::write_attribution(&shares, &dir.join("attribution.csv"))?;
+    } else {
+        // One from an earlier run would pass for this run's.
+        let _ = std::fs::remove_file(dir.join("attribution.csv"));
+    }
+    let picture = render::replicates_picture(&all, style);
+    export::write_atomic(&dir.join("replicates.png"), |w| w.write_all(&picture.png()?))?;
+    Ok((all, shares))
 }

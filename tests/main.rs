@@ -18,6 +18,7 @@ mod phase;
 mod pictures;
 mod properties;
 mod rates;
+mod replicates;
 mod safety;
 mod screen;
 

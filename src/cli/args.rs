@@ -29,6 +29,9 @@ pub enum Command {
     Screen(ScreenArgs),
     /// Which parameter moves which boundary: d position / d ln parameter for all.
     Sensitivity(SensitivityArgs),
+    /// Replicate embryos with the noise of the model's [noise] section: each
+    /// boundary's mean position and positional error, and the error decoded from all genes.
+    Replicates(ReplicatesArgs),
     /// Fit the free parameters of the model's [fit] section to measured boundaries of the wild type and
     /// mutants: global search, approximate intervals, correlations and the fitted model file.
     Fit(FitArgs),
@@ -171,6 +174,22 @@ pub struct SensitivityArgs {
     #[arg(long, default_value_t = anlage::screen::SENSITIVITY_STEP)]
     pub step: f64,
     /// Output folder, pictures and report form.
+    #[command(flatten)]
+    pub output: ScreenOutputArgs,
+}
+
+/// Arguments of `replicates`.
+#[derive(Debug, Args)]
+pub struct ReplicatesArgs {
+    /// Model file (TOML), usually with a [noise] section.
+    pub model: PathBuf,
+    /// How many embryos (default: noise.replicates, else 100).
+    #[arg(short = 'n', long, value_name = "N")]
+    pub embryos: Option<usize>,
+    /// Also rerun the embryos with each noise source alone: how much of each boundary's variance it explains.
+    #[arg(long)]
+    pub attribute: bool,
+    /// Output folder (default `<model name>_replicates`), pictures and report form.
     #[command(flatten)]
     pub output: ScreenOutputArgs,
 }

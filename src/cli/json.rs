@@ -93,6 +93,53 @@ pub fn basins(r: &anlage::BasinReport, rec: &anlage::Recording, dir: &Path) -> V
     })
 }
 
+/// `replicates`: the rows of `precision.csv` and `widths.csv`, the decoded
+/// error at each final boundary, and the shares of `attribution.csv`.
+pub fn replicates(r: &anlage::replicates::Replicates, shares: &[anlage::replicates::Share], dir: &Path) -> Value {
+    let finite = |v: f64| if v.is_finite() { json!(v) } else { Value::Null };
+    let rows: Vec<Value> = r
+        .boundaries
+        .iter()
+        .map(|b| {
+            json!({
+                "time_min": b.time_min, "gene": b.gene, "direction": b.direction,
+                "reference_um": b.reference_um, "present_fraction": b.present_fraction,
+                "mean_um": finite(b.mean_um), "sd_um": finite(b.sd_um),
+                "mean_pct": finite(b.mean_pct), "sd_pct": finite(b.sd_pct),
+            })
+        })
+        .collect();
+    let last: Vec<Value> = r
+        .final_boundaries()
+        .map(|b| {
+            json!({
+                "gene": b.gene, "direction": b.direction, "mean_um": finite(b.mean_um), "sd_um": finite(b.sd_um),
+                "decoded_sd_um": if b.mean_um.is_finite() { finite(r.decoded_at(b.mean_um)) } else { Value::Null },
+            })
+        })
+        .collect();
+    let widths: Vec<Value> = r
+        .widths
+        .iter()
+        .map(|w| {
+            json!({
+                "gene": w.gene, "reference_width_um": w.reference_width_um, "present_fraction": w.present_fraction,
+                "mean_width_um": finite(w.mean_width_um), "sd_width_um": finite(w.sd_width_um),
+            })
+        })
+        .collect();
+    json!({
+        "kind": "replicates",
+        "model_prediction": true,
+        "embryos": r.n,
+        "final": last,
+        "boundaries": rows,
+        "widths": widths,
+        "attribution": shares,
+        "outputs": dir,
+    })
+}
+
 /// `sensitivity`: the rows of `sensitivity.csv`.
 pub fn sensitivity(rows: &[anlage::screen::SensitivityRow], dir: &Path) -> Value {
     json!({ "kind": "sensitivity", "model_prediction": true, "rows": rows, "outputs": dir })

@@ -489,3 +489,61 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, second
     );
     s
 }
+
+/// What `anlage replicates` prints.
+pub fn replicates(
+    model: &anlage::model::Model,
+    r: &anlage::replicates::Replicates,
+    shares: &[anlage::replicates::Share],
+    dir: &Path,
+) -> String {
+    let mut s = String::new();
+    let _ = writeln!(s, "{} embryos of {} (model prediction)", r.n, model.title);
+    let mut sources: Vec<String> = anlage::replicates::Sources::each(model).into_iter().map(|(name, _)| name).collect();
+    if sources.is_empty() {
+        sources.push("none: every embryo is the same".into());
+    }
+    let _ = writeln!(s, "noise sources: {}", sources.join(", "));
+    let _ = writeln!(s, "final boundaries (mean ± sd over embryos; decoded: from all genes at the mean position):");
+    for b in r.final_boundaries() {
+        let decoded = if b.mean_um.is_finite() { r.decoded_at(b.mean_um) } else { f64::NAN };
+        let _ = writeln!(
+            s,
+            "  {:<10} {:<8} {:>8.2} ± {:<6.2} µm ({:.2} ± {:.2} %)  in {:>5.1} % of embryos  decoded ± {:.2} µm",
+            b.gene,
+            b.direction,
+            b.mean_um,
+            b.sd_um,
+            b.mean_pct,
+            b.sd_pct,
+            100.0 * b.present_fraction,
+            decoded
+        );
+    }
+    for w in &r.widths {
+        let _ = writeln!(
+            s,
+            "  {:<10} domain  width {:.1} ± {:.1} µm (noise-free {:.1} µm)",
+            w.gene, w.mean_width_um, w.sd_width_um, w.reference_width_um
+        );
+    }
+    if let Some(extra) = r.unmatched.last().filter(|n| **n > 0) {
+        let _ = writeln!(s, "  {extra} boundaries in the embryos at the end match none of the noise-free embryo's");
+    }
+    if !shares.is_empty() {
+        let _ = writeln!(s, "variance explained by each source alone:");
+        for sh in shares {
+            let _ = writeln!(
+                s,
+                "  {:<24} {} {}: sd {:.2} µm alone, {:.0} % of the variance",
+                sh.source,
+                sh.gene,
+                sh.direction,
+                sh.sd_alone_um,
+                100.0 * sh.fraction
+            );
+        }
+    }
+    let _ = writeln!(s, "outputs in {}", dir.display());
+    s
+}

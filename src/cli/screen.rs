@@ -66,3 +66,29 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
     super::json::print_either(*json, || super::json::sensitivity(&rows, &dir), || print::sensitivity(&rows, &dir));
     Ok(())
 }
+
+/// `anlage replicates`.
+pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
+    let ReplicatesArgs { model: path, embryos, attribute, output } = args;
+    let ScreenOutputArgs { out, look, json } = output;
+    let model = Model::load(path)?;
+    let n = embryos.unwrap_or(model.noise.replicates);
+    if !(2..=anlage::model::noise::MAX_REPLICATES).contains(&n) {
+        anyhow::bail!(StyleError::OutOfRange {
+            option: "--embryos".into(),
+            value: n.to_string(),
+            fix: format!("give 2 to {} embryos", anlage::model::noise::MAX_REPLICATES),
+        });
+    }
+    let planned = planned_recording(&model);
+    let style = Style::with_options(&planned, &model.title, &look.options())?;
+    let dir = out.clone().unwrap_or_else(|| beside_model(path, "replicates"));
+    let (r, shares) = anlage::write_replicates(&model, n, *attribute, &style, &dir, &super::bar::Bar::new(*json))
+        .with_context(|| format!("replicates of {}", path.display()))?;
+    super::json::print_either(
+        *json,
+        || super::json::replicates(&r, &shares, &dir),
+        || print::replicates(&model, &r, &shares, &dir),
+    );
+    Ok(())
+}

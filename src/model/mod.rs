@@ -8,6 +8,7 @@ mod error;
 pub mod expr;
 mod level;
 mod mutant;
+pub mod noise;
 mod param;
 mod source;
 pub mod spec;
@@ -52,6 +53,8 @@ pub struct Model {
     pub clamps: Vec<Option<f64>>,
     /// Ectopic expression (by a mutant).
     pub ectopic: Vec<Ectopic>,
+    /// How replicate embryos differ (`[noise]`).
+    pub noise: noise::Noise,
 }
 
 impl Model {

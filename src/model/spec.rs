@@ -30,6 +30,8 @@ pub struct ModelSpec {
     /// Mutants: named sets of changes to the wild type.
     #[serde(default)]
     pub mutant: Vec<Spanned<MutantSpec>>,
+    /// How replicate embryos differ (see `super::noise`).
+    pub noise: Option<Spanned<super::noise::NoiseSpec>>,
     /// Parameter fitting (read by `anlage fit`, see `crate::fit`).
     pub fit: Option<toml::Value>,
 }

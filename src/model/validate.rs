@@ -98,7 +98,9 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
         mutants: Vec::new(),
         clamps: vec![None; n_genes],
         ectopic: Vec::new(),
+        noise: super::noise::Noise::default(),
     };
+    model.noise = super::noise::check_noise(&model, spec.noise.as_ref(), src)?;
     let mut seen_mutants: HashMap<String, usize> = HashMap::new();
     for m in &spec.mutant {
         let (line, column) = src.locate(&m.span(), "name");

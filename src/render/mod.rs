@@ -16,6 +16,7 @@ mod pattern;
 mod phase;
 mod portrait;
 mod profiles;
+mod replicates;
 mod screen;
 
 pub use animate::{write_gif, write_pair_gif};
@@ -33,6 +34,7 @@ pub use phase::{basin_kymograph, label_color, landscape_picture};
 pub use portrait::{PortraitData, portrait, write_cloud_gif};
 
 pub use profiles::{chosen_snapshots, profiles};
+pub use replicates::replicates_picture;
 
 use crate::integrate::{ReadBackError, Recording};
 

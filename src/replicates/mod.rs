@@ -1,0 +1,487 @@
+//! Replicate embryos: the same model run many times with the noise of its
+//! `[noise]` section (see [`crate::model::noise`]), and the precision of
+//! every boundary: its mean position and positional error (sd) at every
+//! snapshot, how often it exists, the spread of domain widths, and the
+//! positional error decoded from all genes jointly.
+//!
+//! Embryo i has its own seed, derived from the model's seed and i by
+//! SplitMix64 (Steele, Lea & Flood 2014, OOPSLA, "Fast splittable
+//! pseudorandom number generators"), so any thread count gives the same
+//! bytes. Embryos run in parallel, in blocks of [`BLOCK`]; each block's
+//! readouts are folded into running statistics in embryo order, so memory
+//! does not grow with the number of embryos. Everything here is a model
+//! prediction.
+
+mod stats;
+
+pub use stats::{ProfileStats, Running};
+
+use rand::SeedableRng;
+use rand_distr::{Distribution, StandardNormal};
+use rayon::prelude::*;
+use serde::Serialize;
+
+use crate::model::Model;
+use crate::model::noise::{Law, Variation};
+use crate::progress::{Counter, Progress};
+use crate::readout::{self, Boundary, Domain, match_boundaries};
+use crate::{RunOptions, StepError, simulate};
+
+/// Embryos run in parallel between two folds into the statistics.
+pub const BLOCK: usize = 32;
+
+/// SplitMix64's output function (Steele, Lea & Flood 2014).
+pub fn splitmix64(mut z: u64) -> u64 {
+    z = z.wrapping_add(0x9E37_79B9_7F4A_7C15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+    z ^ (z >> 31)
+}
+
+/// The seed of embryo `i` of a model with seed `seed`.
+pub fn embryo_seed(seed: u64, i: usize) -> u64 {
+    splitmix64(seed ^ splitmix64(i as u64 + 1))
+}
+
+/// Which noise sources are on.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Sources {
+    /// Each gene's `initial_noise`.
+    pub initial: bool,
+    /// Chemical Langevin and additive noise.
+    pub intrinsic: bool,
+    /// Each `[[noise.vary]]` entry, in order.
+    pub vary: Vec<bool>,
+}
+
+impl Sources {
+    /// Every source the model declares.
+    pub fn all(model: &Model) -> Sources {
+        Sources { initial: true, intrinsic: true, vary: vec![true; model.noise.vary.len()] }
+    }
+
+    /// No noise at all: the reference embryo.
+    pub fn none(model: &Model) -> Sources {
+        Sources { initial: false, intrinsic: false, vary: vec![false; model.noise.vary.len()] }
+    }
+
+    /// Each source the model declares, alone, with its name.
+    pub fn each(model: &Model) -> Vec<(String, Sources)> {
+        let mut out = Vec::new();
+        if model.genes.iter().any(|g| g.initial_noise > 0.0) {
+            out.push(("initial levels".to_string(), Sources { initial: true, ..Sources::none(model) }));
+        }
+        if model.noise.is_stochastic() {
+            out.push(("intrinsic".to_string(), Sources { intrinsic: true, ..Sources::none(model) }));
+        }
+        for (k, v) in model.noise.vary.iter().enumerate() {
+            let mut s = Sources::none(model);
+            s.vary[k] = true;
+            out.push((format!("vary {}", v.name), s));
+        }
+        out
+    }
+}
+
+/// The factor a varied parameter is multiplied by in one embryo: mean 1,
+/// coefficient of variation `cv` (see [`Law`]).
+fn factor(v: &Variation, rng: &mut rand_pcg::Pcg64) -> f64 {
+    match v.law {
+        Law::Lognormal => {
+            let s2 = (1.0 + v.cv * v.cv).ln();
+            let z: f64 = StandardNormal.sample(rng);
+            (s2.sqrt() * z - 0.5 * s2).exp()
+        }
+        Law::Normal => loop {
+            let z: f64 = StandardNormal.sample(rng);
+            let f = 1.0 + v.cv * z;
+            if f > 0.0 {
+                break f;
+            }
+        },
+    }
+}
+
+/// Embryo `i`: the model with its own seed and, for the sources that are on,
+/// its own parameter factors. Every factor is drawn whether or not its source
+/// is on, so an embryo has the same factor for a parameter in every
+/// combination of sources.
+pub fn embryo(model: &Model, i: usize, sources: &Sources) -> Model {
+    let mut m = model.clone();
+    m.seed = embryo_seed(model.seed, i);
+    if !sources.initial {
+        m.genes.iter_mut().for_each(|g| g.initial_noise = 0.0);
+    }
+    if !sources.intrinsic {
+        m.noise.molecules_per_unit = None;
+        m.noise.additive.iter_mut().for_each(|a| *a = 0.0);
+    }
+    let mut rng = rand_pcg::Pcg64::seed_from_u64(m.seed ^ 0x5EED_FAC7_0000_0001);
+    for (k, v) in model.noise.vary.iter().enumerate() {
+        let f = factor(v, &mut rng);
+        if sources.vary[k]
+            && let Some(p) = m.param_mut(v.param)
+        {
+            *p *= f;
+        }
+    }
+    m
+}
+
+/// What one embryo gives.
+struct Readout {
+    /// Boundaries at every snapshot.
+    boundaries: Vec<Boundary>,
+    /// Domains at the last snapshot.
+    domains: Vec<Domain>,
+    /// Final profiles along the axis, `[gene][nucleus]`.
+    profiles: Vec<Vec<f64>>,
+}
+
+fn read_one(model: &Model) -> Result<Readout, StepError> {
+    let run = simulate(model, &RunOptions { parallel: false, ..RunOptions::default() })?;
+    let rec = &run.recording;
+    let last = rec.len() - 1;
+    Ok(Readout {
+        boundaries: readout::find_boundaries(rec)?,
+        domains: readout::final_domains(rec),
+        profiles: rec.axis_profiles(last, 0..rec.genes.len())?,
+    })
+}
+
+/// The spread of one boundary of the reference embryo at one snapshot.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BoundaryPrecision {
+    /// Snapshot time, min.
+    pub time_min: f64,
+    /// Gene.
+    pub gene: String,
+    /// "rising" or "falling".
+    pub direction: String,
+    /// The noise-free embryo's position, µm.
+    pub reference_um: f64,
+    /// Fraction of embryos in which this boundary exists.
+    pub present_fraction: f64,
+    /// Mean position over the embryos that have it, µm.
+    pub mean_um: f64,
+    /// Positional error: sd of the position, µm.
+    pub sd_um: f64,
+    /// Mean position, % of the axis length.
+    pub mean_pct: f64,
+    /// Positional error, % of the axis length.
+    pub sd_pct: f64,
+}
+
+/// The spread of the width of one domain of the reference embryo, last snapshot.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct WidthSpread {
+    /// Gene.
+    pub gene: String,
+    /// The noise-free embryo's domain start, µm.
+    pub reference_start_um: f64,
+    /// The noise-free embryo's domain width, µm.
+    pub reference_width_um: f64,
+    /// Fraction of embryos with a domain of this gene whose centre lies within this domain.
+    pub present_fraction: f64,
+    /// Mean width, µm.
+    pub mean_width_um: f64,
+    /// Sd of the width, µm.
+    pub sd_width_um: f64,
+}
+
+/// What the replicates showed.
+#[derive(Debug, Clone)]
+pub struct Replicates {
+    /// Embryos run.
+    pub n: usize,
+    /// Gene names.
+    pub genes: Vec<String>,
+    /// Snapshot times, min.
+    pub times: Vec<f64>,
+    /// Axis length, µm.
+    pub length_um: f64,
+    /// Nucleus spacing along the axis, µm.
+    pub spacing_um: f64,
+    /// Per snapshot and reference boundary.
+    pub boundaries: Vec<BoundaryPrecision>,
+    /// Per snapshot: embryos' boundaries that match none of the reference (count).
+    pub unmatched: Vec<usize>,
+    /// Per domain of the reference embryo at the last snapshot.
+    pub widths: Vec<WidthSpread>,
+    /// Final profiles across embryos.
+    pub profiles: ProfileStats,
+    /// Positional error decoded from all genes at each nucleus, µm ([`ProfileStats::decoded_error_um`]).
+    pub decoded_um: Vec<f64>,
+}
+
+impl Replicates {
+    /// The last snapshot's rows of [`Self::boundaries`].
+    pub fn final_boundaries(&self) -> impl Iterator<Item = &BoundaryPrecision> {
+        let last = self.times.last().copied().unwrap_or(0.0);
+        self.boundaries.iter().filter(move |b| readout::same_time(b.time_min, last))
+    }
+
+    /// The decoded positional error at a position, µm (linear between nuclei).
+    pub fn decoded_at(&self, x_um: f64) -> f64 {
+        let h = self.spacing_um;
+        let f = (x_um / h - 0.5).clamp(0.0, (self.decoded_um.len() - 1) as f64);
+        let i = (f.floor() as usize).min(self.decoded_um.len().saturating_sub(2));
+        let w = f - i as f64;
+        match self.decoded_um.get(i + 1) {
+            Some(next) => (1.0 - w) * self.decoded_um[i] + w * next,
+            None => self.decoded_um[i],
+        }
+    }
+}
+
+/// An embryo that failed, or all of them.
+#[derive(Debug, thiserror::Error)]
+pub enum ReplicateError {
+    /// The model asks for a kind of noise this build cannot simulate.
+    #[error("{0}")]
+    Unsupported(String),
+    /// The noise-free reference embryo failed.
+    #[error("the noise-free embryo failed: {0}")]
+    Reference(StepError),
+    /// Some embryos failed: their statistics would describe only the survivors.
+    #[error(
+        "{failed} of {total} embryos failed (first: embryo {first}: {why}); statistics over the others would be biased, so none are reported — make the noise smaller or the steps safer"
+    )]
+    Embryos {
+        /// How many failed.
+        failed: usize,
+        /// How many were run.
+        total: usize,
+        /// The first that failed.
+        first: usize,
+        /// Why.
+        why: String,
+    },
+}
+
+/// Runs `n` embryos of `model` with the noise `sources` and summarises them.
+/// `each` sees every embryo's boundaries (all snapshots), in embryo order.
+///
+/// # Errors
+/// [`ReplicateError`] if the reference or any embryo fails.
+pub fn run(
+    model: &Model,
+    n: usize,
+    sources: &Sources,
+    progress: &dyn Progress,
+    each: &mut dyn FnMut(usize, &[Boundary]),
+) -> Result<Replicates, ReplicateError> {
+    if sources.intrinsic && model.noise.is_stochastic() {
+        return Err(ReplicateError::Unsupported(
+            "intrinsic noise (noise.molecules_per_unit, noise.additive) is not simulated yet; remove it to run the other sources".into(),
+        ));
+    }
+    let reference = read_one(&embryo(model, 0, &Sources::none(model))).map_err(ReplicateError::Reference)?;
+    let times = model.clock.snapshot_times();
+    let at = |list: &[Boundary], t: f64| -> Vec<Boundary> {
+        list.iter().filter(|b| readout::same_time(b.time_min, t)).cloned().collect()
+    };
+    let reference_at: Vec<Vec<Boundary>> = times.iter().map(|&t| at(&reference.boundaries, t)).collect();
+    let mut positions: Vec<Vec<Running>> = reference_at.iter().map(|r| vec![Running::default(); r.len()]).collect();
+    let mut unmatched = vec![0usize; times.len()];
+    let mut widths = vec![Running::default(); reference.domains.len()];
+    let mut profiles = ProfileStats::new(model.genes.len(), model.grid.nx);
+    let counter = Counter::begin(progress, "embryos", n);
+    let mut failure: Option<(usize, String)> = None;
+    let mut failed = 0;
+    for start in (0..n).step_by(BLOCK) {
+        let block: Vec<Result<Readout, StepError>> = (start..(start + BLOCK).min(n))
+            .into_par_iter()
+            .map(|i| {
+                let r = read_one(&embryo(model, i, sources));
+                counter.tick();
+                r
+            })
+            .collect();
+        for (k, r) in block.into_iter().enumerate() {
+            let i = start + k;
+            let r = match r {
+                Ok(r) => r,
+                Err(e) => {
+                    failed += 1;
+                    failure.get_or_insert((i, e.to_string()));
+                    continue;
+                }
+            };
+            each(i, &r.boundaries);
+            for (s, &t) in times.iter().enumerate() {
+                let mine = at(&r.boundaries, t);
+                let shifts = match_boundaries("", &reference_at[s], &mine);
+                for (j, shift) in shifts.iter().take(reference_at[s].len()).enumerate() {
+                    if let Some(x) = shift.mutant_um {
+                        positions[s][j].push(x);
+                    }
+                }
+                unmatched[s] += shifts.len() - reference_at[s].len();
+            }
+            for (j, d) in reference.domains.iter().enumerate() {
+                let inside = r.domains.iter().find(|e| {
+                    let centre = 0.5 * (e.start_um + e.end_um);
+                    e.gene == d.gene && centre >= d.start_um && centre <= d.end_um
+                });
+                if let Some(e) = inside {
+                    widths[j].push(e.width_um);
+                }
+            }
+            profiles.push(&r.profiles);
+        }
+    }
+    drop(counter);
+    if let Some((first, why)) = failure {
+        return Err(ReplicateError::Embryos { failed, total: n, first, why });
+    }
+    let length = model.grid.length_um();
+    let pct = |um: f64| 100.0 * um / length;
+    let boundaries = times
+        .iter()
+        .zip(&reference_at)
+        .zip(&positions)
+        .flat_map(|((&t, refs), runs)| {
+            refs.iter().zip(runs).map(move |(b, r)| BoundaryPrecision {
+                time_min: t,
+                gene: b.gene.clone(),
+                direction: b.direction.to_string(),
+                reference_um: b.position_um,
+                present_fraction: r.n as f64 / n as f64,
+                mean_um: r.mean(),
+                sd_um: r.sd(),
+                mean_pct: pct(r.mean()),
+                sd_pct: pct(r.sd()),
+            })
+        })
+        .collect();
+    let widths = reference
+        .domains
+        .iter()
+        .zip(&widths)
+        .map(|(d, r)| WidthSpread {
+            gene: d.gene.clone(),
+            reference_start_um: d.start_um,
+            reference_width_um: d.width_um,
+            present_fraction: r.n as f64 / n as f64,
+            mean_width_um: r.mean(),
+            sd_width_um: r.sd(),
+        })
+        .collect();
+    let decoded_um = profiles.decoded_error_um(model.grid.spacing_um);
+    Ok(Replicates {
+        n,
+        genes: model.genes.iter().map(|g| g.name.clone()).collect(),
+        times,
+        length_um: length,
+        spacing_um: model.grid.spacing_um,
+        boundaries,
+        unmatched,
+        widths,
+        profiles,
+        decoded_um,
+    })
+}
+
+/// How much of each final boundary's variance one noise source explains alone.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Share {
+    /// The source ("initial levels", "intrinsic", "vary <parameter>").
+    pub source: String,
+    /// Gene of the boundary.
+    pub gene: String,
+    /// Direction of the boundary.
+    pub direction: String,
+    /// The noise-free position, µm.
+    pub reference_um: f64,
+    /// Positional error with this source alone, µm.
+    pub sd_alone_um: f64,
+    /// Its variance over the variance with every source on.
+    pub fraction: f64,
+}
+
+/// Reruns the embryos with each source alone and compares the variance of
+/// every final boundary with `all` (the run with every source on). The same
+/// embryos are used (common random numbers), so the fractions of
+/// independent sources that add linearly sum to about 1.
+///
+/// # Errors
+/// As [`run`].
+pub fn attribute(
+    model: &Model,
+    n: usize,
+    all: &Replicates,
+    progress: &dyn Progress,
+) -> Result<Vec<Share>, ReplicateError> {
+    let mut out = Vec::new();
+    for (name, sources) in Sources::each(model) {
+        let alone = run(model, n, &sources, progress, &mut |_, _| {})?;
+        for (a, b) in all.final_boundaries().zip(alone.final_boundaries()) {
+            out.push(Share {
+                source: name.clone(),
+                gene: a.gene.clone(),
+                direction: a.direction.clone(),
+                reference_um: a.reference_um,
+                sd_alone_um: b.sd_um,
+                fraction: (b.sd_um * b.sd_um) / (a.sd_um * a.sd_um),
+            });
+        }
+    }
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn variation(cv: f64, law: Law) -> Variation {
+        Variation { name: "cue.peak".into(), param: crate::model::Param::Constant(0), cv, law }
+    }
+
+    /// The lognormal factor: ln f is normal with mean −σ²/2 and sd σ,
+    /// σ² = ln(1 + cv²), so f has mean 1 and the given CV (lognormal moments,
+    /// textbook; e.g. Johnson, Kotz & Balakrishnan 1994, Continuous
+    /// Univariate Distributions vol. 1, ch. 14, from memory). Checked to 4
+    /// standard errors over 10⁵ draws.
+    #[test]
+    fn lognormal_factors_have_mean_one_and_the_asked_cv() {
+        let cv = 0.5;
+        let v = variation(cv, Law::Lognormal);
+        let mut rng = rand_pcg::Pcg64::seed_from_u64(7);
+        let (mut logs, mut fs) = (Running::default(), Running::default());
+        for _ in 0..100_000 {
+            let f = factor(&v, &mut rng);
+            logs.push(f.ln());
+            fs.push(f);
+        }
+        let s = (1.0f64 + cv * cv).ln().sqrt();
+        let n = 1e5f64;
+        assert!((logs.mean() + 0.5 * s * s).abs() < 4.0 * s / n.sqrt(), "{}", logs.mean());
+        assert!((logs.sd() - s).abs() < 4.0 * s / (2.0 * n).sqrt(), "{}", logs.sd());
+        assert!((fs.mean() - 1.0).abs() < 4.0 * cv / n.sqrt(), "{}", fs.mean());
+    }
+
+    /// The normal factor: 1 + cv·z, never ≤ 0; for cv = 0.1 the truncation
+    /// (at z = −10) changes nothing measurable.
+    #[test]
+    fn normal_factors_are_positive_with_the_asked_cv() {
+        let v = variation(0.1, Law::Normal);
+        let mut rng = rand_pcg::Pcg64::seed_from_u64(11);
+        let mut fs = Running::default();
+        for _ in 0..100_000 {
+            let f = factor(&v, &mut rng);
+            assert!(f > 0.0);
+            fs.push(f);
+        }
+        assert!((fs.mean() - 1.0).abs() < 4.0 * 0.1 / 1e5f64.sqrt());
+        assert!((fs.sd() - 0.1).abs() < 4.0 * 0.1 / 2e5f64.sqrt());
+    }
+
+    /// Embryo seeds differ between embryos and between model seeds.
+    #[test]
+    fn embryo_seeds_are_distinct() {
+        let seeds: std::collections::HashSet<u64> =
+            (0..1000).flat_map(|i| [embryo_seed(0, i), embryo_seed(1, i)]).collect();
+        assert_eq!(seeds.len(), 2000);
+    }
+}

@@ -1,0 +1,123 @@
+//! Replicate embryos (issue 23): the spread of a boundary over embryos
+//! against closed forms, the decoded positional error against the direct
+//! spread, and the same bytes on any thread count.
+
+use anlage::progress::Silent;
+use anlage::replicates::{self, Sources};
+
+use crate::common::{anlage, parse, temp_dir};
+
+/// A steep threshold read-out (Hill n = 8, no diffusion, steady state) of an
+/// exponential gradient c(x) = c₀·e^(−x/λ), with the boundary at the fixed
+/// level p/(2d): the gene is half on where c = K, at x* = λ·ln(c₀f/K) for a
+/// peak factor f. With f lognormal of mean 1 and coefficient of variation
+/// cv, ln f is normal with sd σ = √ln(1 + cv²) and mean −σ²/2, so x* has sd
+/// λσ (λ·cv to first order: error propagation, Houchmandzadeh, Wieschaus &
+/// Leibler 2002, Nature 415:798, from memory) and mean λ(ln(c₀/K) − σ²/2).
+fn read_out(cv: f64, embryos: usize) -> String {
+    format!(
+        r#"
+title = "threshold read-out"
+[tissue]
+nuclei = [300]
+spacing_um = 2.0
+[clock]
+until_min = 40.0
+tolerance = 1e-8
+snapshot_every_min = 40.0
+[[gradient]]
+name = "cue"
+shape = "exponential"
+from = "left"
+peak = 1.0
+decay_length_um = 100.0
+[[gene]]
+name = "quill"
+production = 1.0
+decay = 1.0
+boundary_level = {{ absolute = 0.5 }}
+[circuit]
+kinetics = "hill"
+[[circuit.link]]
+from = "cue"
+to = "quill"
+sign = "+"
+threshold = 0.05
+hill = 8
+[noise]
+replicates = {embryos}
+[[noise.vary]]
+parameter = "cue.peak"
+cv = {cv}
+"#
+    )
+}
+
+#[test]
+fn a_lognormal_gradient_peak_spreads_the_boundary_by_lambda_sigma() {
+    let (lambda, cv, n) = (100.0, 0.2, 400);
+    let model = parse(&read_out(cv, n));
+    let r = replicates::run(&model, n, &Sources::all(&model), &Silent, &mut |_, _| {}).unwrap();
+    let b = r.final_boundaries().next().expect("one boundary");
+    assert_eq!(b.present_fraction, 1.0);
+    let sigma = (1.0f64 + cv * cv).ln().sqrt();
+    let want_sd = lambda * sigma;
+    // Standard errors of a normal sample's sd and mean: sd/√(2(n−1)), sd/√n.
+    let se_sd = want_sd / (2.0 * (n as f64 - 1.0)).sqrt();
+    assert!((b.sd_um - want_sd).abs() < 3.0 * se_sd, "sd {} vs λσ = {want_sd} (3 SE = {})", b.sd_um, 3.0 * se_sd);
+    let want_mean = lambda * ((1.0f64 / 0.05).ln() - 0.5 * sigma * sigma);
+    let se_mean = want_sd / (n as f64).sqrt();
+    assert!((b.mean_um - want_mean).abs() < 3.0 * se_mean, "mean {} vs {want_mean}", b.mean_um);
+    // The noise-free embryo sits at λ·ln(c₀/K).
+    assert!((b.reference_um - lambda * 20f64.ln()).abs() < 0.05, "{}", b.reference_um);
+}
+
+/// For one gene whose profile only shifts, the decoded error at the boundary,
+/// σ_g/|g′|, equals the spread of the boundary to first order in the shift
+/// (Dubuis, Tkačik, Wieschaus, Gregor & Bialek 2013, PNAS 110:16301, the
+/// single-gene form, from memory). A small cv keeps the shift (2 µm) well
+/// inside the boundary's width (about 12 µm), where first order holds.
+#[test]
+fn the_decoded_error_of_one_shifting_gene_equals_the_boundary_spread() {
+    let model = parse(&read_out(0.02, 200));
+    let r = replicates::run(&model, 200, &Sources::all(&model), &Silent, &mut |_, _| {}).unwrap();
+    let b = r.final_boundaries().next().unwrap();
+    let decoded = r.decoded_at(b.mean_um);
+    assert!((decoded / b.sd_um - 1.0).abs() < 0.05, "decoded {decoded} vs direct {}", b.sd_um);
+    // Attribution with one source: it explains all the variance.
+    let shares = replicates::attribute(&model, 200, &r, &Silent).unwrap();
+    assert_eq!(shares.len(), 1);
+    assert!((shares[0].fraction - 1.0).abs() < 1e-12, "{shares:?}");
+}
+
+/// Embryo seeds come from the model seed, so one and two threads write the
+/// same bytes; the embryos differ from each other.
+#[test]
+fn replicates_write_the_same_bytes_on_any_thread_count() {
+    let dir = temp_dir("replicates");
+    let model = dir.join("m.toml");
+    std::fs::write(&model, read_out(0.1, 40)).unwrap();
+    let mut outs = Vec::new();
+    for threads in ["1", "2"] {
+        let out = dir.join(format!("t{threads}"));
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_anlage"))
+            .args(["replicates", model.to_str().unwrap(), "-o", out.to_str().unwrap(), "--attribute"])
+            .env("RAYON_NUM_THREADS", threads)
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        outs.push(out);
+    }
+    for name in
+        ["precision.csv", "widths.csv", "decoding.csv", "embryo_boundaries.csv", "attribution.csv", "replicates.png"]
+    {
+        let (a, b) = (std::fs::read(outs[0].join(name)).unwrap(), std::fs::read(outs[1].join(name)).unwrap());
+        assert!(a == b, "{name} differs between 1 and 2 threads");
+    }
+    let rows = std::fs::read_to_string(outs[0].join("embryo_boundaries.csv")).unwrap();
+    let positions: std::collections::BTreeSet<&str> =
+        rows.lines().skip(1).map(|l| l.split(',').nth(4).unwrap()).collect();
+    assert_eq!(positions.len(), 40, "every embryo has its own boundary");
+    let o = anlage(&["replicates", model.to_str().unwrap(), "-o", outs[0].to_str().unwrap(), "-n", "1"]);
+    assert_eq!(o.status.code(), Some(2), "one embryo has no spread");
+}

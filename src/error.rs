@@ -49,19 +49,11 @@ blame_all!(Blame::Input =>
     crate::fit::FitSetupError
 );
 blame_all!(Blame::Run =>
+    crate::replicates::ReplicateError,
     crate::StepError,
     crate::export::ExportError,
     crate::integrate::ReadBackError
 );
-
-impl Blamed for crate::replicates::ReplicateError {
-    fn blame(&self) -> Blame {
-        match self {
-            crate::replicates::ReplicateError::Unsupported(_) => Blame::Input,
-            _ => Blame::Run,
-        }
-    }
-}
 
 impl Blamed for crate::WriteError {
     fn blame(&self) -> Blame {

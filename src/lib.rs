@@ -79,6 +79,10 @@ pub struct RunOptions {
     /// Told of each snapshot taken (stage "snapshots", note "t = … min") and
     /// of checkpoints that could not be written; `None` reports nothing.
     pub progress: Option<std::sync::Arc<dyn progress::Progress>>,
+    /// Simulate the intrinsic noise of the model's `[noise]` section
+    /// ([`integrate::stochastic`]); without it, or for a model without such
+    /// noise, the run is deterministic.
+    pub stochastic: bool,
     /// Stream the snapshots to an unnamed scratch file in this folder as they
     /// are taken, so memory does not grow with them. Without a folder, a
     /// recording larger than [`integrate::memory::stream_above_bytes`] streams to the
@@ -88,7 +92,7 @@ pub struct RunOptions {
 
 impl Default for RunOptions {
     fn default() -> Self {
-        RunOptions { parallel: true, progress: None, stream_to: None }
+        RunOptions { parallel: true, progress: None, stochastic: false, stream_to: None }
     }
 }
 
@@ -97,6 +101,7 @@ impl std::fmt::Debug for RunOptions {
         f.debug_struct("RunOptions")
             .field("parallel", &self.parallel)
             .field("progress", &self.progress.is_some())
+            .field("stochastic", &self.stochastic)
             .field("stream_to", &self.stream_to)
             .finish()
     }
@@ -178,51 +183,64 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
     let mut last_saved = Instant::now();
     let model_path = std::path::absolute(&model.file).unwrap_or_else(|_| model.file.clone());
     let mut warned = false;
-    let stats = integrate::integrate_from(
-        model,
-        kinetics.as_ref(),
-        &tissue,
-        options.parallel,
-        resume,
-        |t, state| {
-            let taken = {
-                let mut rec = lock(&recording);
-                if let Err(e) = rec.push(t, state) {
-                    write_error.get_or_insert(e);
+    let mut on_snapshot = |t: f64, state: &ndarray::Array2<f64>| {
+        let taken = {
+            let mut rec = lock(&recording);
+            if let Err(e) = rec.push(t, state) {
+                write_error.get_or_insert(e);
+            }
+            rec.times.len() as u64
+        };
+        report.advance(taken, &format!("t = {t:.1} min"));
+    };
+    let stochastic = options.stochastic && model.noise.is_stochastic();
+    let stats = if stochastic {
+        // Checkpoints are not taken in stochastic runs (they are short, one embryo of many).
+        integrate::stochastic::integrate_stochastic(
+            model,
+            kinetics.as_ref(),
+            &tissue,
+            options.parallel,
+            &mut on_snapshot,
+        )
+    } else {
+        integrate::integrate_from(
+            model,
+            kinetics.as_ref(),
+            &tissue,
+            options.parallel,
+            resume,
+            &mut on_snapshot,
+            |stepper, progress, stats| {
+                let Some(plan) = plan else { return true };
+                let stopping = plan.stop.as_ref().is_some_and(|s| s.load(std::sync::atomic::Ordering::Relaxed));
+                // The last step is saved too, so that a run stopped while its
+                // outputs are written resumes without simulating again.
+                let last = stepper.time() >= model.clock.until_min * (1.0 - 1e-12);
+                if last_saved.elapsed() < plan.every && !stopping && !last {
+                    return true;
                 }
-                rec.times.len() as u64
-            };
-            report.advance(taken, &format!("t = {t:.1} min"));
-        },
-        |stepper, progress, stats| {
-            let Some(plan) = plan else { return true };
-            let stopping = plan.stop.as_ref().is_some_and(|s| s.load(std::sync::atomic::Ordering::Relaxed));
-            // The last step is saved too, so that a run stopped while its
-            // outputs are written resumes without simulating again.
-            let last = stepper.time() >= model.clock.until_min * (1.0 - 1e-12);
-            if last_saved.elapsed() < plan.every && !stopping && !last {
-                return true;
-            }
-            let rec = lock(&recording);
-            let saved = stepper.save();
-            let checkpoint = integrate::CheckpointParts {
-                model_text: &model.text,
-                model_path: &model_path,
-                stepper: &saved,
-                progress,
-                stats,
-                recording: &rec,
-            };
-            if let Err(e) = export::write_atomic_durable(&plan.file, |w| checkpoint.write(w))
-                && !warned
-            {
-                report.warn(&format!("checkpoint not written: {e}"));
-                warned = true;
-            }
-            last_saved = Instant::now();
-            !stopping
-        },
-    );
+                let rec = lock(&recording);
+                let saved = stepper.save();
+                let checkpoint = integrate::CheckpointParts {
+                    model_text: &model.text,
+                    model_path: &model_path,
+                    stepper: &saved,
+                    progress,
+                    stats,
+                    recording: &rec,
+                };
+                if let Err(e) = export::write_atomic_durable(&plan.file, |w| checkpoint.write(w))
+                    && !warned
+                {
+                    report.warn(&format!("checkpoint not written: {e}"));
+                    warned = true;
+                }
+                last_saved = Instant::now();
+                !stopping
+            },
+        )
+    };
     report.finish();
     if let Some(e) = write_error {
         return Err(StepError::Recording(format!("writing a snapshot to the scratch file: {e}")));

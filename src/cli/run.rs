@@ -76,6 +76,7 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
     let options = anlage::RunOptions {
         parallel: true,
         progress: Some(std::sync::Arc::new(super::bar::Bar::new(*quiet))),
+        stochastic: false,
         stream_to: streams.then(|| dir.clone()),
     };
     // With checkpoints on, SIGTERM (a cluster's scheduler ending a job)

@@ -69,9 +69,27 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
 
 /// `anlage replicates`.
 pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
-    let ReplicatesArgs { model: path, embryos, attribute, output } = args;
+    let ReplicatesArgs { model: path, embryos, attribute, mutant, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
     let model = Model::load(path)?;
+    let model = match mutant {
+        None => model,
+        Some(text) => {
+            let m = match model.mutants.iter().find(|m| &m.name == text) {
+                Some(m) => m.clone(),
+                None if text.trim_start().starts_with('{') => model.parse_mutant(text)?,
+                None => anyhow::bail!(StyleError::OutOfRange {
+                    option: "--mutant".into(),
+                    value: text.clone(),
+                    fix: format!(
+                        "name one of the model's mutants ({}) or write one as {{ name = \"…\", … }}",
+                        model.mutants.iter().map(|m| m.name.as_str()).collect::<Vec<_>>().join(", ")
+                    ),
+                }),
+            };
+            model.with_mutant(&m)
+        }
+    };
     let n = embryos.unwrap_or(model.noise.replicates);
     if !(2..=anlage::model::noise::MAX_REPLICATES).contains(&n) {
         anyhow::bail!(StyleError::OutOfRange {

@@ -10,6 +10,7 @@ mod reactions;
 mod recording;
 pub mod safety;
 mod stepper;
+pub mod stochastic;
 
 use ndarray::Array2;
 use rand::{RngExt, SeedableRng};

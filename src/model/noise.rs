@@ -32,6 +32,8 @@ pub struct NoiseSpec {
     /// Constant noise amplitude per gene, a.u./√min: `{ amber = 0.1 }`.
     #[serde(default)]
     pub additive: std::collections::BTreeMap<String, f64>,
+    /// Fixed step of stochastic runs, min (default: the clock's fixed step).
+    pub step_min: Option<f64>,
     /// Embryo-to-embryo variation of parameters.
     #[serde(default)]
     pub vary: Vec<Spanned<VarySpec>>,
@@ -82,6 +84,8 @@ pub struct Noise {
     pub additive: Vec<f64>,
     /// Parameters varied between embryos.
     pub vary: Vec<Variation>,
+    /// Fixed step of stochastic runs, min (set whenever [`Noise::is_stochastic`]).
+    pub step_min: Option<f64>,
 }
 
 /// Default number of replicate embryos (common practice, no source: enough
@@ -207,7 +211,31 @@ pub(super) fn check_noise(model: &Model, spec: Option<&Spanned<NoiseSpec>>, src:
         };
         vary.push(Variation { name: vs.parameter.clone(), param, cv: vs.cv, law });
     }
-    Ok(Noise { replicates, molecules_per_unit: s.molecules_per_unit, additive, vary })
+    let stochastic = s.molecules_per_unit.is_some() || additive.iter().any(|a| *a > 0.0);
+    let step_min = match (s.step_min, model.clock.stepping) {
+        (Some(k), _) if !(k.is_finite() && k > 0.0 && k <= model.clock.until_min) => {
+            return Err(src.invalid(
+                &span,
+                "step_min",
+                "noise.step_min".into(),
+                format!("is {k}"),
+                &format!("give a step > 0 and at most the run's length ({} min)", model.clock.until_min),
+            ));
+        }
+        (Some(k), _) => Some(k),
+        (None, super::Stepping::Fixed { step_min }) => Some(step_min),
+        (None, super::Stepping::Adaptive { .. }) if stochastic => {
+            return Err(src.invalid(
+                &span,
+                "molecules_per_unit",
+                "noise.step_min".into(),
+                "is missing: stochastic runs take fixed steps, and the clock's steps are error-controlled".into(),
+                "add `step_min = 0.05` (min) to [noise]; halve it and compare to check the results do not change",
+            ));
+        }
+        (None, _) => None,
+    };
+    Ok(Noise { replicates, molecules_per_unit: s.molecules_per_unit, additive, vary, step_min })
 }
 
 fn gene_list(model: &Model) -> String {

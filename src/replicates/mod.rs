@@ -139,7 +139,7 @@ struct Readout {
 }
 
 fn read_one(model: &Model) -> Result<Readout, StepError> {
-    let run = simulate(model, &RunOptions { parallel: false, ..RunOptions::default() })?;
+    let run = simulate(model, &RunOptions { parallel: false, stochastic: true, ..RunOptions::default() })?;
     let rec = &run.recording;
     let last = rec.len() - 1;
     Ok(Readout {
@@ -237,9 +237,6 @@ impl Replicates {
 /// An embryo that failed, or all of them.
 #[derive(Debug, thiserror::Error)]
 pub enum ReplicateError {
-    /// The model asks for a kind of noise this build cannot simulate.
-    #[error("{0}")]
-    Unsupported(String),
     /// The noise-free reference embryo failed.
     #[error("the noise-free embryo failed: {0}")]
     Reference(StepError),
@@ -271,11 +268,6 @@ pub fn run(
     progress: &dyn Progress,
     each: &mut dyn FnMut(usize, &[Boundary]),
 ) -> Result<Replicates, ReplicateError> {
-    if sources.intrinsic && model.noise.is_stochastic() {
-        return Err(ReplicateError::Unsupported(
-            "intrinsic noise (noise.molecules_per_unit, noise.additive) is not simulated yet; remove it to run the other sources".into(),
-        ));
-    }
     let reference = read_one(&embryo(model, 0, &Sources::none(model))).map_err(ReplicateError::Reference)?;
     let times = model.clock.snapshot_times();
     let at = |list: &[Boundary], t: f64| -> Vec<Boundary> {

@@ -62,7 +62,7 @@ pub mod reference;
 mod simd;
 pub mod tissue;
 pub use outputs::{BasinReport, PictureKind, WriteError, write_basins, write_pictures, write_portrait};
-pub use outputs::{write_fit, write_replicates, write_screen, write_sensitivity};
+pub use outputs::{ReplicateJob, ReplicateReport, write_fit, write_replicates, write_screen, write_sensitivity};
 pub use run_folder::{Summary, write_run};
 
 use std::time::Instant;

@@ -261,53 +261,89 @@ pub fn write_fit(
     Ok(())
 }
 
-/// Runs `n` replicate embryos and writes `precision.csv`, `widths.csv`,
+/// What `anlage replicates` is asked to do.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct ReplicateJob {
+    /// Embryos.
+    pub n: usize,
+    /// Also rerun with each noise source alone.
+    pub attribute: bool,
+    /// Also rerun with half the noise step.
+    pub check_step: bool,
+}
+
+/// What `anlage replicates` found.
+#[derive(Debug, Clone)]
+pub struct ReplicateReport {
+    /// The embryos with every noise source.
+    pub replicates: crate::replicates::Replicates,
+    /// Each source alone (when asked).
+    pub shares: Vec<crate::replicates::Share>,
+    /// Half the noise step (when asked, for stochastic models).
+    pub step: Vec<crate::replicates::StepChange>,
+}
+
+/// Runs the replicate embryos and writes `precision.csv`, `widths.csv`,
 /// `decoding.csv`, `embryo_boundaries.csv` (written as the embryos finish)
-/// and `replicates.png` into `dir`; with `attribute`, also reruns the embryos
-/// with each noise source alone and writes `attribution.csv`.
+/// and `replicates.png` into `dir`; with `attribute`, also reruns the
+/// embryos with each noise source alone and writes `attribution.csv`; with
+/// `check_step`, reruns them with half the noise step and writes
+/// `step_check.csv`. A table not asked for this time is removed, so that one
+/// from an earlier run cannot pass for this run's.
 ///
 /// # Errors
 /// [`WriteError`] if an embryo fails or a file cannot be written.
 pub fn write_replicates(
     model: &Model,
-    n: usize,
-    attribute: bool,
+    job: ReplicateJob,
     style: &render::Style,
     dir: &Path,
     progress: &dyn Progress,
-) -> Result<(crate::replicates::Replicates, Vec<crate::replicates::Share>), WriteError> {
+) -> Result<ReplicateReport, WriteError> {
     use crate::replicates::{self, Sources};
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
     let mut outcome = None;
-    export::write_atomic(&dir.join("embryo_boundaries.csv"), |w| {
+    let written = export::write_atomic(&dir.join("embryo_boundaries.csv"), |w| {
         let mut failed = None;
-        let r = replicates::run(model, n, &Sources::all(model), progress, &mut |i, bs| {
+        let r = replicates::run(model, job.n, &Sources::all(model), progress, &mut |i, bs| {
             if failed.is_none()
                 && let Err(e) = export::embryo_rows(i, bs, i == 0, w)
             {
                 failed = Some(e);
             }
         });
-        if let Some(e) = failed {
-            return Err(e);
-        }
         let ok = r.is_ok();
         outcome = Some(r);
-        if ok { Ok(()) } else { Err(std::io::Error::other("the embryos failed")) }
-    })
-    .or_else(|e| if matches!(outcome, Some(Err(_))) { Ok(()) } else { Err(e) })?;
-    let all = outcome.expect("the table's body ran")?;
+        match failed {
+            Some(e) => Err(e),
+            None if ok => Ok(()),
+            // Nothing is kept of a set of embryos that failed.
+            None => Err(std::io::Error::other("the embryos failed")),
+        }
+    });
+    let all = match (outcome, written) {
+        (Some(Err(e)), _) => return Err(e.into()),
+        (_, Err(e)) => return Err(e.into()),
+        (Some(Ok(all)), Ok(())) => all,
+        (None, Ok(())) => unreachable!("the table's body ran"),
+    };
     export::write_precision(&all, &dir.join("precision.csv"))?;
     export::write_widths(&all, &dir.join("widths.csv"))?;
     export::write_decoding(&all, &dir.join("decoding.csv"))?;
-    let shares = if attribute { replicates::attribute(model, n, &all, progress)? } else { Vec::new() };
-    if attribute {
+    let shares = if job.attribute { replicates::attribute(model, job.n, &all, progress)? } else { Vec::new() };
+    let step = if job.check_step { replicates::halved_step(model, job.n, &all, progress)? } else { Vec::new() };
+    for (asked, name) in [(job.attribute, "attribution.csv"), (job.check_step, "step_check.csv")] {
+        if !asked {
+            let _ = std::fs::remove_file(dir.join(name));
+        }
+    }
+    if job.attribute {
         export::write_attribution(&shares, &dir.join("attribution.csv"))?;
-    } else {
-        // One from an earlier run would pass for this run's.
-        let _ = std::fs::remove_file(dir.join("attribution.csv"));
+    }
+    if job.check_step {
+        export::write_step_check(&step, &dir.join("step_check.csv"))?;
     }
     let picture = render::replicates_picture(&all, style);
     export::write_atomic(&dir.join("replicates.png"), |w| w.write_all(&picture.png()?))?;
-    Ok((all, shares))
+    Ok(ReplicateReport { replicates: all, shares, step })
 }

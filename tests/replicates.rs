@@ -203,3 +203,60 @@ fn intrinsic_noise_with_error_controlled_steps_asks_for_a_noise_step() {
     let err = anlage::model::Model::from_toml(text, "noisy.toml".as_ref()).unwrap_err().to_string();
     assert!(err.contains("noise.step_min") && err.contains("fixed steps"), "{err}");
 }
+
+/// `--check-step` sees a noise step that is too large: an intrinsically
+/// noisy read-out whose level variance is σ²/(d(2 − dΔ)) (the AR(1) form
+/// above) spreads its boundary √2.5 ≈ 1.6 times more at dΔ = 1.5 than at
+/// dΔ = 0.75 (the noise is small enough that each embryo's profile crosses
+/// the level once, between two nuclei), far beyond the sampling error of
+/// 400 embryos; at dΔ = 0.02 halving the step changes nothing beyond it.
+/// (21 min is a whole number of every step here: a shortened last step
+/// would mix two variances.)
+#[test]
+fn halving_the_noise_step_flags_a_step_that_is_too_large() {
+    let text = |step: f64| {
+        format!(
+            r#"
+[tissue]
+nuclei = [100]
+spacing_um = 2.0
+[clock]
+until_min = 21.0
+step_min = 0.1
+snapshot_every_min = 21.0
+[[gradient]]
+name = "cue"
+shape = "linear"
+length_um = 200.0
+from = "left"
+peak = 1.0
+[[gene]]
+name = "quill"
+production = 1.0
+decay = 1.0
+initial = 0.5
+boundary_level = {{ absolute = 0.5 }}
+[circuit]
+kinetics = "hill"
+[[circuit.link]]
+from = "cue"
+to = "quill"
+sign = "+"
+threshold = 0.5
+hill = 4
+[noise]
+additive = {{ quill = 0.005 }}
+step_min = {step}
+"#
+        )
+    };
+    let coarse = parse(&text(1.5));
+    let all = replicates::run(&coarse, 400, &Sources::all(&coarse), &Silent, &mut |_, _| {}).unwrap();
+    let change = replicates::halved_step(&coarse, 400, &all, &Silent).unwrap();
+    assert_eq!(change.len(), 1);
+    assert!(!change[0].unchanged, "{change:?}");
+    let fine = parse(&text(0.02));
+    let all = replicates::run(&fine, 400, &Sources::all(&fine), &Silent, &mut |_, _| {}).unwrap();
+    let change = replicates::halved_step(&fine, 400, &all, &Silent).unwrap();
+    assert!(change[0].unchanged, "{change:?}");
+}

@@ -189,6 +189,9 @@ pub struct ReplicatesArgs {
     /// Also rerun the embryos with each noise source alone: how much of each boundary's variance it explains.
     #[arg(long)]
     pub attribute: bool,
+    /// Also rerun the embryos with half the noise step: do the means and spreads change beyond sampling error?
+    #[arg(long)]
+    pub check_step: bool,
     /// Replicates of a mutant: the name of a [[mutant]] in the model, or one written as on `screen --mutant`.
     #[arg(long, value_name = "NAME|'{…}'")]
     pub mutant: Option<String>,

@@ -95,7 +95,8 @@ pub fn basins(r: &anlage::BasinReport, rec: &anlage::Recording, dir: &Path) -> V
 
 /// `replicates`: the rows of `precision.csv` and `widths.csv`, the decoded
 /// error at each final boundary, and the shares of `attribution.csv`.
-pub fn replicates(r: &anlage::replicates::Replicates, shares: &[anlage::replicates::Share], dir: &Path) -> Value {
+pub fn replicates(report: &anlage::ReplicateReport, dir: &Path) -> Value {
+    let (r, shares) = (&report.replicates, &report.shares);
     let finite = |v: f64| if v.is_finite() { json!(v) } else { Value::Null };
     let rows: Vec<Value> = r
         .boundaries
@@ -136,6 +137,7 @@ pub fn replicates(r: &anlage::replicates::Replicates, shares: &[anlage::replicat
         "boundaries": rows,
         "widths": widths,
         "attribution": shares,
+        "step_check": report.step,
         "outputs": dir,
     })
 }

@@ -491,12 +491,8 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, second
 }
 
 /// What `anlage replicates` prints.
-pub fn replicates(
-    model: &anlage::model::Model,
-    r: &anlage::replicates::Replicates,
-    shares: &[anlage::replicates::Share],
-    dir: &Path,
-) -> String {
+pub fn replicates(model: &anlage::model::Model, report: &anlage::ReplicateReport, dir: &Path) -> String {
+    let (r, shares) = (&report.replicates, &report.shares);
     let mut s = String::new();
     let _ = writeln!(s, "{} embryos of {} (model prediction)", r.n, model.title);
     let mut sources: Vec<String> = anlage::replicates::Sources::each(model).into_iter().map(|(name, _)| name).collect();
@@ -541,6 +537,21 @@ pub fn replicates(
                 sh.direction,
                 sh.sd_alone_um,
                 100.0 * sh.fraction
+            );
+        }
+    }
+    if !report.step.is_empty() {
+        let _ = writeln!(s, "with half the noise step:");
+        for c in &report.step {
+            let verdict = if c.unchanged {
+                "unchanged within sampling error"
+            } else {
+                "CHANGED beyond 3 standard errors: make noise.step_min smaller"
+            };
+            let _ = writeln!(
+                s,
+                "  {:<10} {:<8} {:.2} ± {:.2} µm -> {:.2} ± {:.2} µm: {verdict}",
+                c.gene, c.direction, c.mean_um, c.sd_um, c.mean_half_um, c.sd_half_um
             );
         }
     }

@@ -69,7 +69,7 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
 
 /// `anlage replicates`.
 pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
-    let ReplicatesArgs { model: path, embryos, attribute, mutant, output } = args;
+    let ReplicatesArgs { model: path, embryos, attribute, check_step, mutant, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
     let model = Model::load(path)?;
     let model = match mutant {
@@ -101,12 +101,13 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "replicates"));
-    let (r, shares) = anlage::write_replicates(&model, n, *attribute, &style, &dir, &super::bar::Bar::new(*json))
+    let job = anlage::ReplicateJob { n, attribute: *attribute, check_step: *check_step };
+    let report = anlage::write_replicates(&model, job, &style, &dir, &super::bar::Bar::new(*json))
         .with_context(|| format!("replicates of {}", path.display()))?;
     super::json::print_either(
         *json,
-        || super::json::replicates(&r, &shares, &dir),
-        || print::replicates(&model, &r, &shares, &dir),
+        || super::json::replicates(&report, &dir),
+        || print::replicates(&model, &report, &dir),
     );
     Ok(())
 }

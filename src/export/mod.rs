@@ -20,7 +20,9 @@ pub use fit_tables::{
     write_starts, write_trace,
 };
 pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
-pub use replicate_tables::{embryo_rows, write_attribution, write_decoding, write_precision, write_widths};
+pub use replicate_tables::{
+    embryo_rows, write_attribution, write_decoding, write_precision, write_step_check, write_widths,
+};
 pub use screen_tables::{write_sensitivity, write_shifts};
 pub use tables::{write_boundaries, write_domains, write_profiles, write_profiles_long, write_sheet};
 

@@ -9,7 +9,7 @@ use serde::Serialize;
 
 use super::{ExportError, write_atomic};
 use crate::readout::Boundary;
-use crate::replicates::{Replicates, Share};
+use crate::replicates::{Replicates, Share, StepChange};
 
 /// A number in Rust's shortest round-trip form, empty when not finite.
 fn num<S: serde::Serializer>(v: &f64, s: S) -> Result<S::Ok, S::Error> {
@@ -210,6 +210,45 @@ pub fn write_attribution(shares: &[Share], path: &Path) -> Result<(), ExportErro
                 reference_um: s.reference_um,
                 sd_alone_um: s.sd_alone_um,
                 fraction: s.fraction,
+            }),
+            w,
+        )
+    })
+}
+
+#[derive(Serialize)]
+struct StepRow<'a> {
+    gene: &'a str,
+    direction: &'a str,
+    #[serde(serialize_with = "num")]
+    mean_um: f64,
+    #[serde(serialize_with = "num")]
+    mean_half_step_um: f64,
+    #[serde(serialize_with = "num")]
+    sd_um: f64,
+    #[serde(serialize_with = "num")]
+    sd_half_step_um: f64,
+    unchanged: bool,
+}
+
+/// `step_check.csv`: per final boundary, the mean and positional error with
+/// the noise step and with half of it: `gene, direction, mean_um,
+/// mean_half_step_um, sd_um, sd_half_step_um, unchanged` (true when both
+/// differences are within 3 standard errors).
+///
+/// # Errors
+/// [`ExportError`] if the file cannot be written.
+pub fn write_step_check(rows: &[StepChange], path: &Path) -> Result<(), ExportError> {
+    write_atomic(path, |w| {
+        table(
+            rows.iter().map(|c| StepRow {
+                gene: &c.gene,
+                direction: &c.direction,
+                mean_um: c.mean_um,
+                mean_half_step_um: c.mean_half_um,
+                sd_um: c.sd_um,
+                sd_half_step_um: c.sd_half_um,
+                unchanged: c.unchanged,
             }),
             w,
         )

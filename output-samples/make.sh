@@ -29,11 +29,17 @@ for model in patterns/*.toml; do
   if [ "$name" = ring_waves ]; then
     "$bin" render "$out" --kind kymograph --genes cyan --heatmap --width 560 -o "$out/cyan" > /dev/null
   fi
+  if [ "$name" = precision ]; then
+    # Replicate embryos: the wild type (toggle) and the read-out alone.
+    "$bin" replicates "$model" --width 560 --attribute --check-step -o "$out" > /dev/null
+    "$bin" replicates "$model" --width 560 --mutant "read-out alone" -o "$out/read-out-alone" > /dev/null
+    rm -f "$out/embryo_boundaries.csv" "$out/read-out-alone/embryo_boundaries.csv"
+  fi
   if [ "$name" = band ]; then
     # One gene as a heat map.
     "$bin" render "$out" --kind kymograph --genes teal --heatmap --width 560 -o output-samples/band-teal-heatmap > /dev/null
   fi
-  rm -f "$out/states.npy" "$out/profiles.csv" "$out/final_sheet.csv" "$out/attractors.csv" "$out/basins.csv"
+  rm -f "$out/states.npy" "$out/profiles.csv" "$out/profiles_long.csv" "$out/final_sheet.csv" "$out/attractors.csv" "$out/basins.csv" "$out/manifest.json"
   # One animation is enough for the samples (run writes one for every model).
   [ "$name" = ribbon ] || rm -f "$out/pattern.gif"
 

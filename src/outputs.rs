@@ -281,6 +281,8 @@ pub struct ReplicateReport {
     pub shares: Vec<crate::replicates::Share>,
     /// Half the noise step (when asked, for stochastic models).
     pub step: Vec<crate::replicates::StepChange>,
+    /// For a mutant: how it moves each wild-type boundary, embryo by embryo.
+    pub shifts: Vec<crate::replicates::PairedShift>,
 }
 
 /// Runs the replicate embryos and writes `precision.csv`, `widths.csv`,
@@ -288,14 +290,17 @@ pub struct ReplicateReport {
 /// and `replicates.png` into `dir`; with `attribute`, also reruns the
 /// embryos with each noise source alone and writes `attribution.csv`; with
 /// `check_step`, reruns them with half the noise step and writes
-/// `step_check.csv`. A table not asked for this time is removed, so that one
-/// from an earlier run cannot pass for this run's.
+/// `step_check.csv`; given the `wild_type` that `model` is a mutant of, also
+/// runs the same embryos of the wild type and writes `shift.csv` (each
+/// boundary's shift with its standard error). A table not asked for this
+/// time is removed, so that one from an earlier run cannot pass for this run's.
 ///
 /// # Errors
 /// [`WriteError`] if an embryo fails or a file cannot be written.
 pub fn write_replicates(
     model: &Model,
     job: ReplicateJob,
+    wild_type: Option<&Model>,
     style: &render::Style,
     dir: &Path,
     progress: &dyn Progress,
@@ -332,7 +337,16 @@ pub fn write_replicates(
     export::write_decoding(&all, &dir.join("decoding.csv"))?;
     let shares = if job.attribute { replicates::attribute(model, job.n, &all, progress)? } else { Vec::new() };
     let step = if job.check_step { replicates::halved_step(model, job.n, &all, progress)? } else { Vec::new() };
-    for (asked, name) in [(job.attribute, "attribution.csv"), (job.check_step, "step_check.csv")] {
+    let shifts = match wild_type {
+        Some(w) => replicates::paired_shifts(w, model, job.n, progress)?,
+        None => Vec::new(),
+    };
+    if wild_type.is_some() {
+        export::write_shifts_over_embryos(&shifts, &dir.join("shift.csv"))?;
+    }
+    for (asked, name) in
+        [(job.attribute, "attribution.csv"), (job.check_step, "step_check.csv"), (wild_type.is_some(), "shift.csv")]
+    {
         if !asked {
             let _ = std::fs::remove_file(dir.join(name));
         }
@@ -345,5 +359,5 @@ pub fn write_replicates(
     }
     let picture = render::replicates_picture(&all, style);
     export::write_atomic(&dir.join("replicates.png"), |w| w.write_all(&picture.png()?))?;
-    Ok(ReplicateReport { replicates: all, shares, step })
+    Ok(ReplicateReport { replicates: all, shares, step, shifts })
 }

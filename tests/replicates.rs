@@ -260,3 +260,21 @@ step_min = {step}
     let change = replicates::halved_step(&fine, 400, &all, &Silent).unwrap();
     assert!(change[0].unchanged, "{change:?}");
 }
+
+/// A mutant that doubles the gradient's peak moves the threshold boundary
+/// x* = λ·ln(c₀f/K) by exactly λ·ln 2 in every embryo, whatever its factor
+/// f: over the same embryos (common random numbers) the shift is λ·ln 2 with
+/// almost no spread, while the boundary itself spreads by λσ.
+#[test]
+fn a_mutant_s_shift_over_the_same_embryos_has_its_own_small_error() {
+    let wild_type = parse(&read_out(0.2, 100));
+    let m = wild_type.parse_mutant(r#"{ name = "peak x2", scale = { "cue.peak" = 2.0 } }"#).unwrap();
+    let mutant = wild_type.with_mutant(&m);
+    let shifts = replicates::paired_shifts(&wild_type, &mutant, 100, &Silent).unwrap();
+    assert_eq!(shifts.len(), 1);
+    let s = &shifts[0];
+    let want = 100.0 * 2f64.ln();
+    assert!((s.shift_um - want).abs() < 0.2, "shift {} vs λ ln 2 = {want}", s.shift_um);
+    assert!(s.shift_sd_um < 0.2, "paired shifts hardly vary: {}", s.shift_sd_um);
+    assert!(s.wild_type_sd_um > 15.0 && s.mutant_sd_um > 15.0, "{s:?}");
+}

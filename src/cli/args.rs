@@ -154,7 +154,7 @@ pub struct ScreenArgs {
 /// whether they print JSON.
 #[derive(Debug, Args)]
 pub struct ScreenOutputArgs {
-    /// Output folder (default: `<model name>_screen` next to the model file).
+    /// Output folder (default: `<model name>_screen` next to the model file; `_replicates` for replicates).
     #[arg(short, long)]
     pub out: Option<PathBuf>,
     /// How pictures look.

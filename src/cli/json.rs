@@ -138,6 +138,7 @@ pub fn replicates(report: &anlage::ReplicateReport, dir: &Path) -> Value {
         "widths": widths,
         "attribution": shares,
         "step_check": report.step,
+        "shifts": report.shifts,
         "outputs": dir,
     })
 }

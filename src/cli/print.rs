@@ -540,6 +540,16 @@ pub fn replicates(model: &anlage::model::Model, report: &anlage::ReplicateReport
             );
         }
     }
+    if !report.shifts.is_empty() {
+        let _ = writeln!(s, "shift from the wild type over the same embryos (mean ± standard error; spread between embryos):");
+        for c in &report.shifts {
+            let _ = writeln!(
+                s,
+                "  {:<10} {:<8} {:+.2} ± {:.2} µm (sd {:.2} µm); positional error {:.2} -> {:.2} µm",
+                c.gene, c.direction, c.shift_um, c.shift_se_um, c.shift_sd_um, c.wild_type_sd_um, c.mutant_sd_um
+            );
+        }
+    }
     if !report.step.is_empty() {
         let _ = writeln!(s, "with half the noise step:");
         for c in &report.step {

@@ -71,7 +71,8 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
 pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
     let ReplicatesArgs { model: path, embryos, attribute, check_step, mutant, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
-    let model = Model::load(path)?;
+    let wild_type = Model::load(path)?;
+    let model = wild_type.clone();
     let model = match mutant {
         None => model,
         Some(text) => {
@@ -102,7 +103,8 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
     let style = Style::with_options(&planned, &model.title, &look.options())?;
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "replicates"));
     let job = anlage::ReplicateJob { n, attribute: *attribute, check_step: *check_step };
-    let report = anlage::write_replicates(&model, job, &style, &dir, &super::bar::Bar::new(*json))
+    let paired = mutant.is_some().then_some(&wild_type);
+    let report = anlage::write_replicates(&model, job, paired, &style, &dir, &super::bar::Bar::new(*json))
         .with_context(|| format!("replicates of {}", path.display()))?;
     super::json::print_either(
         *json,

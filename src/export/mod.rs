@@ -21,7 +21,8 @@ pub use fit_tables::{
 };
 pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
 pub use replicate_tables::{
-    embryo_rows, write_attribution, write_decoding, write_precision, write_step_check, write_widths,
+    embryo_rows, write_attribution, write_decoding, write_precision, write_shifts_over_embryos, write_step_check,
+    write_widths,
 };
 pub use screen_tables::{write_sensitivity, write_shifts};
 pub use tables::{write_boundaries, write_domains, write_profiles, write_profiles_long, write_sheet};

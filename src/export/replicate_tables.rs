@@ -9,7 +9,7 @@ use serde::Serialize;
 
 use super::{ExportError, write_atomic};
 use crate::readout::Boundary;
-use crate::replicates::{Replicates, Share, StepChange};
+use crate::replicates::{PairedShift, Replicates, Share, StepChange};
 
 /// A number in Rust's shortest round-trip form, empty when not finite.
 fn num<S: serde::Serializer>(v: &f64, s: S) -> Result<S::Ok, S::Error> {
@@ -249,6 +249,58 @@ pub fn write_step_check(rows: &[StepChange], path: &Path) -> Result<(), ExportEr
                 sd_um: c.sd_um,
                 sd_half_step_um: c.sd_half_um,
                 unchanged: c.unchanged,
+            }),
+            w,
+        )
+    })
+}
+
+#[derive(Serialize)]
+struct ShiftRow<'a> {
+    gene: &'a str,
+    direction: &'a str,
+    #[serde(serialize_with = "num")]
+    reference_um: f64,
+    #[serde(serialize_with = "num")]
+    present_fraction: f64,
+    #[serde(serialize_with = "num")]
+    wild_type_mean_um: f64,
+    #[serde(serialize_with = "num")]
+    wild_type_sd_um: f64,
+    #[serde(serialize_with = "num")]
+    mutant_mean_um: f64,
+    #[serde(serialize_with = "num")]
+    mutant_sd_um: f64,
+    #[serde(serialize_with = "num")]
+    shift_um: f64,
+    #[serde(serialize_with = "num")]
+    shift_se_um: f64,
+    #[serde(serialize_with = "num")]
+    shift_sd_um: f64,
+}
+
+/// `shift.csv`: per final boundary of the noise-free wild type, how a mutant
+/// moves it over the same embryos: `gene, direction, reference_um,
+/// present_fraction, wild_type_mean_um, wild_type_sd_um, mutant_mean_um,
+/// mutant_sd_um, shift_um, shift_se_um, shift_sd_um`.
+///
+/// # Errors
+/// [`ExportError`] if the file cannot be written.
+pub fn write_shifts_over_embryos(rows: &[PairedShift], path: &Path) -> Result<(), ExportError> {
+    write_atomic(path, |w| {
+        table(
+            rows.iter().map(|s| ShiftRow {
+                gene: &s.gene,
+                direction: &s.direction,
+                reference_um: s.reference_um,
+                present_fraction: s.present_fraction,
+                wild_type_mean_um: s.wild_type_mean_um,
+                wild_type_sd_um: s.wild_type_sd_um,
+                mutant_mean_um: s.mutant_mean_um,
+                mutant_sd_um: s.mutant_sd_um,
+                shift_um: s.shift_um,
+                shift_se_um: s.shift_se_um,
+                shift_sd_um: s.shift_sd_um,
             }),
             w,
         )

@@ -105,6 +105,7 @@ pub fn replicates(report: &anlage::ReplicateReport, dir: &Path) -> Value {
             json!({
                 "time_min": b.time_min, "gene": b.gene, "direction": b.direction,
                 "reference_um": b.reference_um, "present_fraction": b.present_fraction,
+                "miscounted_fraction": b.miscounted_fraction,
                 "mean_um": finite(b.mean_um), "sd_um": finite(b.sd_um),
                 "mean_pct": finite(b.mean_pct), "sd_pct": finite(b.sd_pct),
             })

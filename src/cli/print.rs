@@ -501,30 +501,45 @@ pub fn replicates(model: &anlage::model::Model, report: &anlage::ReplicateReport
     }
     let _ = writeln!(s, "noise sources: {}", sources.join(", "));
     let _ = writeln!(s, "final boundaries (mean ± sd over embryos; decoded: from all genes at the mean position):");
+    let um = |v: f64| if v.is_finite() { format!("{v:.2}") } else { "—".into() };
     for b in r.final_boundaries() {
         let decoded = if b.mean_um.is_finite() { r.decoded_at(b.mean_um) } else { f64::NAN };
         let _ = writeln!(
             s,
-            "  {:<10} {:<8} {:>8.2} ± {:<6.2} µm ({:.2} ± {:.2} %)  in {:>5.1} % of embryos  decoded ± {:.2} µm",
+            "  {:<10} {:<8} {:>8} ± {:<6} µm ({} ± {} %)  in {:>5.1} % of embryos  decoded ± {} µm",
             b.gene,
             b.direction,
-            b.mean_um,
-            b.sd_um,
-            b.mean_pct,
-            b.sd_pct,
+            um(b.mean_um),
+            um(b.sd_um),
+            um(b.mean_pct),
+            um(b.sd_pct),
             100.0 * b.present_fraction,
-            decoded
+            um(decoded)
         );
     }
     for w in &r.widths {
         let _ = writeln!(
             s,
-            "  {:<10} domain  width {:.1} ± {:.1} µm (noise-free {:.1} µm)",
-            w.gene, w.mean_width_um, w.sd_width_um, w.reference_width_um
+            "  {:<10} domain  width {} ± {} µm (noise-free {:.1} µm)",
+            w.gene,
+            um(w.mean_width_um),
+            um(w.sd_width_um),
+            w.reference_width_um
         );
     }
-    if let Some(extra) = r.unmatched.last().filter(|n| **n > 0) {
-        let _ = writeln!(s, "  {extra} boundaries in the embryos at the end match none of the noise-free embryo's");
+    let ragged: Vec<String> = r
+        .final_boundaries()
+        .filter(|b| b.miscounted_fraction > 0.0)
+        .map(|b| format!("{} {} in {:.1} %", b.gene, b.direction, 100.0 * b.miscounted_fraction))
+        .collect();
+    if !ragged.is_empty() {
+        let _ = writeln!(
+            s,
+            "  NOTE: some embryos have another number of such boundaries than the noise-free embryo ({}): a stripe \
+             lost or gained, or a boundary so ragged that it crosses its level several times; they are left out \
+             of the spread above, which then describes only the others",
+            ragged.join(", ")
+        );
     }
     if !shares.is_empty() {
         let _ = writeln!(s, "variance explained by each source alone:");
@@ -541,7 +556,10 @@ pub fn replicates(model: &anlage::model::Model, report: &anlage::ReplicateReport
         }
     }
     if !report.shifts.is_empty() {
-        let _ = writeln!(s, "shift from the wild type over the same embryos (mean ± standard error; spread between embryos):");
+        let _ = writeln!(
+            s,
+            "shift from the wild type over the same embryos (mean ± standard error; spread between embryos):"
+        );
         for c in &report.shifts {
             let _ = writeln!(
                 s,

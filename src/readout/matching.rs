@@ -89,3 +89,71 @@ pub fn match_boundaries(mutant: &str, wt: &[Boundary], mt: &[Boundary]) -> Vec<S
     }
     out
 }
+
+/// Pairs an embryo's boundaries with a reference's **in order along the
+/// axis**, gene by gene and direction by direction: the k-th rising boundary
+/// of a gene with the reference's k-th. Where the embryo has a different
+/// number of boundaries of that gene and direction than the reference (a
+/// stripe lost or gained, or a ragged boundary that noise makes cross its
+/// level several times), none of them is paired: which one is "the same"
+/// boundary is not defined, and nearest-position pairing would pick
+/// whichever crossing happens to lie closest and understate the spread.
+/// Returns, per reference boundary in order, the embryo's position (µm)
+/// and whether its gene and direction had a different count.
+pub fn pair_in_order(reference: &[Boundary], embryo: &[Boundary]) -> Vec<(Option<f64>, bool)> {
+    let same = |a: &Boundary, b: &Boundary| a.gene == b.gene && a.direction == b.direction;
+    let sorted = |list: &[Boundary], like: &Boundary| -> Vec<f64> {
+        let mut v: Vec<f64> = list.iter().filter(|b| same(b, like)).map(|b| b.position_um).collect();
+        v.sort_by(f64::total_cmp);
+        v
+    };
+    reference
+        .iter()
+        .map(|r| {
+            let (refs, mine) = (sorted(reference, r), sorted(embryo, r));
+            if refs.len() != mine.len() {
+                return (None, true);
+            }
+            // The rank of this reference boundary among its gene's and direction's.
+            let rank = refs.iter().position(|x| *x == r.position_um).expect("r is in the reference");
+            (Some(mine[rank]), false)
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn b(gene: &str, direction: &'static str, x: f64) -> Boundary {
+        Boundary {
+            time_min: 0.0,
+            gene: gene.into(),
+            direction,
+            position_um: x,
+            position_pct: x / 5.0,
+            steepness_per_um: 0.1,
+            width_um: 10.0,
+        }
+    }
+
+    /// A whole stripe pattern shifted by more than half a stripe pairs by
+    /// order (nearest-position pairing would pair each with its neighbour).
+    #[test]
+    fn shifted_stripes_pair_in_order() {
+        let reference = [b("s", "rising", 100.0), b("s", "falling", 140.0), b("s", "rising", 180.0)];
+        let embryo = [b("s", "rising", 165.0), b("s", "falling", 205.0), b("s", "rising", 245.0)];
+        let p = pair_in_order(&reference, &embryo);
+        assert_eq!(p, vec![(Some(165.0), false), (Some(205.0), false), (Some(245.0), false)]);
+    }
+
+    /// A ragged boundary (three crossings for one) is not paired at all.
+    #[test]
+    fn a_ragged_boundary_is_not_paired() {
+        let reference = [b("s", "falling", 100.0), b("t", "rising", 100.0)];
+        let embryo =
+            [b("s", "falling", 90.0), b("s", "rising", 95.0), b("s", "falling", 104.0), b("t", "rising", 97.0)];
+        let p = pair_in_order(&reference, &embryo);
+        assert_eq!(p, vec![(None, true), (Some(97.0), false)]);
+    }
+}

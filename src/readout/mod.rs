@@ -13,7 +13,7 @@ mod matching;
 mod predicted;
 mod profile;
 
-pub use matching::{Shift, match_boundaries, same_time};
+pub use matching::{Shift, match_boundaries, pair_in_order, same_time};
 pub use predicted::{predicted_boundaries, predicted_final_boundaries};
 pub use profile::{Crossing, Level, Span, boundaries_at_level, domains_at_level, profile_boundaries, profile_domains};
 

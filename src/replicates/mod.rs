@@ -24,7 +24,7 @@ use serde::Serialize;
 use crate::model::Model;
 use crate::model::noise::{Law, Variation};
 use crate::progress::{Counter, Progress};
-use crate::readout::{self, Boundary, Domain, match_boundaries};
+use crate::readout::{self, Boundary, Domain, pair_in_order};
 use crate::{RunOptions, StepError, simulate};
 
 /// Embryos run in parallel between two folds into the statistics.
@@ -160,8 +160,14 @@ pub struct BoundaryPrecision {
     pub direction: String,
     /// The noise-free embryo's position, µm.
     pub reference_um: f64,
-    /// Fraction of embryos in which this boundary exists.
+    /// Fraction of embryos in which this boundary exists: the gene has as
+    /// many boundaries of this direction as the noise-free embryo, paired in
+    /// order along the axis ([`readout::pair_in_order`]).
     pub present_fraction: f64,
+    /// Fraction of embryos in which the gene has another number of
+    /// boundaries of this direction (a stripe lost or gained, or a ragged
+    /// boundary crossing its level several times): not counted in the spread.
+    pub miscounted_fraction: f64,
     /// Mean position over the embryos that have it, µm.
     pub mean_um: f64,
     /// Positional error: sd of the position, µm.
@@ -181,7 +187,8 @@ pub struct WidthSpread {
     pub reference_start_um: f64,
     /// The noise-free embryo's domain width, µm.
     pub reference_width_um: f64,
-    /// Fraction of embryos with a domain of this gene whose centre lies within this domain.
+    /// Fraction of embryos in which the gene has as many domains as the
+    /// noise-free embryo (its domains then pair in order along the axis).
     pub present_fraction: f64,
     /// Mean width, µm.
     pub mean_width_um: f64,
@@ -204,8 +211,6 @@ pub struct Replicates {
     pub spacing_um: f64,
     /// Per snapshot and reference boundary.
     pub boundaries: Vec<BoundaryPrecision>,
-    /// Per snapshot: embryos' boundaries that match none of the reference (count).
-    pub unmatched: Vec<usize>,
     /// Per domain of the reference embryo at the last snapshot.
     pub widths: Vec<WidthSpread>,
     /// Final profiles across embryos.
@@ -275,7 +280,7 @@ pub fn run(
     };
     let reference_at: Vec<Vec<Boundary>> = times.iter().map(|&t| at(&reference.boundaries, t)).collect();
     let mut positions: Vec<Vec<Running>> = reference_at.iter().map(|r| vec![Running::default(); r.len()]).collect();
-    let mut unmatched = vec![0usize; times.len()];
+    let mut miscounted: Vec<Vec<usize>> = reference_at.iter().map(|r| vec![0; r.len()]).collect();
     let mut widths = vec![Running::default(); reference.domains.len()];
     let mut profiles = ProfileStats::new(model.genes.len(), model.grid.nx);
     let counter = Counter::begin(progress, "embryos", n);
@@ -303,21 +308,22 @@ pub fn run(
             each(i, &r.boundaries);
             for (s, &t) in times.iter().enumerate() {
                 let mine = at(&r.boundaries, t);
-                let shifts = match_boundaries("", &reference_at[s], &mine);
-                for (j, shift) in shifts.iter().take(reference_at[s].len()).enumerate() {
-                    if let Some(x) = shift.mutant_um {
+                for (j, (x, other_count)) in pair_in_order(&reference_at[s], &mine).into_iter().enumerate() {
+                    if let Some(x) = x {
                         positions[s][j].push(x);
                     }
+                    miscounted[s][j] += usize::from(other_count);
                 }
-                unmatched[s] += shifts.len() - reference_at[s].len();
             }
+            // Domains pair in order too, gene by gene, where the counts agree.
             for (j, d) in reference.domains.iter().enumerate() {
-                let inside = r.domains.iter().find(|e| {
-                    let centre = 0.5 * (e.start_um + e.end_um);
-                    e.gene == d.gene && centre >= d.start_um && centre <= d.end_um
-                });
-                if let Some(e) = inside {
-                    widths[j].push(e.width_um);
+                let of = |list: &[Domain]| -> Vec<f64> {
+                    list.iter().filter(|e| e.gene == d.gene).map(|e| e.width_um).collect()
+                };
+                let (refs, mine) = (of(&reference.domains), of(&r.domains));
+                let rank = reference.domains[..j].iter().filter(|e| e.gene == d.gene).count();
+                if refs.len() == mine.len() {
+                    widths[j].push(mine[rank]);
                 }
             }
             profiles.push(&r.profiles);
@@ -332,14 +338,15 @@ pub fn run(
     let boundaries = times
         .iter()
         .zip(&reference_at)
-        .zip(&positions)
-        .flat_map(|((&t, refs), runs)| {
-            refs.iter().zip(runs).map(move |(b, r)| BoundaryPrecision {
+        .zip(positions.iter().zip(&miscounted))
+        .flat_map(|((&t, refs), (runs, miss))| {
+            refs.iter().zip(runs).zip(miss).map(move |((b, r), m)| BoundaryPrecision {
                 time_min: t,
                 gene: b.gene.clone(),
                 direction: b.direction.to_string(),
                 reference_um: b.position_um,
                 present_fraction: r.n as f64 / n as f64,
+                miscounted_fraction: *m as f64 / n as f64,
                 mean_um: r.mean(),
                 sd_um: r.sd(),
                 mean_pct: pct(r.mean()),
@@ -368,7 +375,6 @@ pub fn run(
         length_um: length,
         spacing_um: model.grid.spacing_um,
         boundaries,
-        unmatched,
         widths,
         profiles,
         decoded_um,
@@ -431,7 +437,9 @@ pub struct PairedShift {
     pub direction: String,
     /// The noise-free wild type's position, µm.
     pub reference_um: f64,
-    /// Fraction of embryos in which both the wild type and the mutant have it.
+    /// Fraction of embryos in which both the wild type and the mutant have it
+    /// (the same number of boundaries of this gene and direction as the
+    /// noise-free wild type, paired in order).
     pub present_fraction: f64,
     /// Mean wild-type position over those embryos, µm.
     pub wild_type_mean_um: f64,
@@ -492,10 +500,10 @@ pub fn paired_shifts(
                     continue;
                 }
             };
-            let on_w = match_boundaries("", &refs, &finals(&w.boundaries));
-            let on_m = match_boundaries("", &refs, &finals(&m.boundaries));
-            for (j, (a, b)) in on_w.iter().zip(&on_m).take(refs.len()).enumerate() {
-                if let (Some(xw), Some(xm)) = (a.mutant_um, b.mutant_um) {
+            let on_w = pair_in_order(&refs, &finals(&w.boundaries));
+            let on_m = pair_in_order(&refs, &finals(&m.boundaries));
+            for (j, (a, b)) in on_w.iter().zip(&on_m).enumerate() {
+                if let (Some(xw), Some(xm)) = (a.0, b.0) {
                     acc[j].0.push(xw);
                     acc[j].1.push(xm);
                     acc[j].2.push(xm - xw);

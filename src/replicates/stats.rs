@@ -99,11 +99,28 @@ impl ProfileStats {
     /// error comes out huge (position cannot be read there) instead of a
     /// ratio of round-off errors; where embryos do not vary but a profile has
     /// a slope, it comes out about ε/|g′|.
+    ///
+    /// Two corrections for a finite number n of embryos and G genes:
+    /// - the inverse of a sample covariance overstates the inverse of the
+    ///   true one by (n − 1)/(n − G − 2) on average (the inverse Wishart
+    ///   mean; Anderson 2003, An Introduction to Multivariate Statistical
+    ///   Analysis, 3rd ed., §7.7, from memory), so the information is scaled
+    ///   by (n − G − 2)/(n − 1); with n < G + 3 nothing can be decoded and
+    ///   every value is NaN;
+    /// - a slope of the mean profile that sampling noise alone could make
+    ///   (|g′| within 3 standard errors, SE² ≈ (varᵢ₊₁ + varᵢ₋₁)/(4h²n),
+    ///   neighbours taken as independent) carries no position: where no
+    ///   gene's slope is larger, the error is infinite (position cannot be
+    ///   read there), not a number that shrinks as embryos are added.
     pub fn decoded_error_um(&self, h_um: f64) -> Vec<f64> {
         let nuclei = self.co.len();
+        let k = self.genes;
+        if self.n < k + 3 {
+            return vec![f64::NAN; nuclei];
+        }
+        let unbias = (self.n - k - 2) as f64 / (self.n - 1) as f64;
         let scale = self.mean.iter().flatten().fold(0.0f64, |m, v| m.max(v.abs())).max(f64::MIN_POSITIVE);
         let floor = (1e-6 * scale).powi(2);
-        let k = self.genes;
         (0..nuclei)
             .map(|i| {
                 let slope = |g: usize| {
@@ -123,6 +140,22 @@ impl ProfileStats {
                     if a == b { v + floor } else { v }
                 });
                 let d = DVector::from_fn(k, |a, _| slope(a));
+                let var = |g: usize, j: usize| self.covariance(j, g, g).max(0.0);
+                let se2 = |g: usize| {
+                    let n = self.n as f64;
+                    if nuclei < 2 {
+                        f64::INFINITY
+                    } else if i == 0 {
+                        (var(g, 0) + var(g, 1)) / (h_um * h_um * n)
+                    } else if i + 1 == nuclei {
+                        (var(g, i) + var(g, i - 1)) / (h_um * h_um * n)
+                    } else {
+                        (var(g, i + 1) + var(g, i - 1)) / (4.0 * h_um * h_um * n)
+                    }
+                };
+                if !(0..k).any(|g| d[g] * d[g] > 9.0 * se2(g) && d[g] != 0.0) {
+                    return f64::INFINITY;
+                }
                 let info = match c.clone().cholesky() {
                     Some(ch) => d.dot(&ch.solve(&d)),
                     None => {
@@ -130,6 +163,7 @@ impl ProfileStats {
                         c.pseudo_inverse(eps).map_or(0.0, |inv| d.dot(&(inv * &d)))
                     }
                 };
+                let info = info * unbias;
                 if info > 0.0 { 1.0 / info.sqrt() } else { f64::INFINITY }
             })
             .collect()
@@ -162,20 +196,24 @@ mod tests {
     fn decoding_two_independent_linear_profiles() {
         let (a1, a2, s1, s2, h) = (0.02, -0.05, 0.1, 0.4, 5.0);
         let nuclei = 20;
-        // Four embryos with deviations (+,+), (+,−), (−,+), (−,−): zero sample
-        // covariance, sample variances d²·4/3.
+        // Eight embryos, deviations (+,+), (+,−), (−,+), (−,−) twice: zero
+        // sample covariance, sample variances d²·8/7.
         let signs = [(1.0, 1.0), (1.0, -1.0), (-1.0, 1.0), (-1.0, -1.0)];
-        let (d1, d2) = (s1 * (0.75f64).sqrt(), s2 * (0.75f64).sqrt());
+        let (d1, d2) = (s1 * (7.0f64 / 8.0).sqrt(), s2 * (7.0f64 / 8.0).sqrt());
         let mut st = ProfileStats::new(2, nuclei);
-        for (e1, e2) in signs {
+        for (e1, e2) in signs.iter().chain(&signs).copied() {
             let g1: Vec<f64> = (0..nuclei).map(|i| a1 * i as f64 * h + 1.0 + e1 * d1).collect();
             let g2: Vec<f64> = (0..nuclei).map(|i| a2 * i as f64 * h + 5.0 + e2 * d2).collect();
             st.push(&[g1, g2]);
         }
         assert!((st.sd(0, 3) - s1).abs() < 1e-12 && (st.sd(1, 3) - s2).abs() < 1e-12);
         assert!(st.covariance(3, 0, 1).abs() < 1e-15);
-        let want = 1.0 / (a1 * a1 / (s1 * s1) + a2 * a2 / (s2 * s2)).sqrt();
-        for e in st.decoded_error_um(h) {
+        // With the inverse-Wishart correction (n − G − 2)/(n − 1) = 4/7.
+        let want = 1.0 / (4.0 / 7.0 * (a1 * a1 / (s1 * s1) + a2 * a2 / (s2 * s2))).sqrt();
+        // (Interior nuclei: at the ends a one-sided slope from 8 embryos is
+        // within its sampling error here, so nothing is decoded there.)
+        for e in &st.decoded_error_um(h)[1..nuclei - 1] {
+            let e = *e;
             // The ε² floor (10⁻¹² of the largest level squared) shifts σ by < 1e-9 relative here.
             assert!((e / want - 1.0).abs() < 1e-9, "{e} vs {want}");
         }
@@ -195,12 +233,26 @@ mod tests {
             sloped.push(&[(0..nuclei).map(|i| 0.1 * i as f64 * h).collect()]);
         }
         let eps = 1e-6 * 0.1 * (nuclei - 1) as f64 * h;
-        assert!((sloped.decoded_error_um(h)[5] / (eps / 0.1) - 1.0).abs() < 1e-6);
+        // Four embryos, one gene: the correction (4 − 1 − 2)/3 = 1/3.
+        assert!((sloped.decoded_error_um(h)[5] / (eps / 0.1 * 3f64.sqrt()) - 1.0).abs() < 1e-6);
         // One gene alone: σ_x = s/|a|.
+        // (eight embryos, correction (8 − 1 − 2)/7 = 5/7).
         let mut one = ProfileStats::new(1, nuclei);
-        for (e1, _) in signs {
+        for (e1, _) in signs.iter().chain(&signs).copied() {
             one.push(&[(0..nuclei).map(|i| a1 * i as f64 * h + e1 * d1).collect()]);
         }
-        assert!((one.decoded_error_um(h)[7] / (s1 / a1.abs()) - 1.0).abs() < 1e-9);
+        assert!((one.decoded_error_um(h)[7] / (s1 / a1.abs() / (5.0f64 / 7.0).sqrt()) - 1.0).abs() < 1e-9);
+        // Too few embryos for two genes: nothing is decoded.
+        let mut few = ProfileStats::new(2, nuclei);
+        for (e1, e2) in signs {
+            few.push(&[vec![e1; nuclei], vec![e2; nuclei]]);
+        }
+        assert!(few.decoded_error_um(h).iter().all(|e| e.is_nan()));
+        // Noise on a flat mean: no slope beyond sampling error, so no position.
+        let mut flat_noise = ProfileStats::new(1, nuclei);
+        for (e1, e2) in signs.iter().chain(&signs).copied() {
+            flat_noise.push(&[(0..nuclei).map(|i| 3.0 + if i % 2 == 0 { e1 } else { e2 } * 0.5).collect()]);
+        }
+        assert!(flat_noise.decoded_error_um(h).iter().all(|e| e.is_infinite()), "{:?}", flat_noise.decoded_error_um(h));
     }
 }

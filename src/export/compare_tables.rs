@@ -1,37 +1,11 @@
-//! Measured-boundary tables, measured profiles and comparisons, written by
-//! the csv crate from typed rows (headers from the field names, quoting
-//! where a cell needs it).
+//! Measured-boundary tables, measured profiles and comparisons (rows written
+//! by [`write_rows`], numbers in the csv crate's own form).
 
 use std::path::Path;
 
-use serde::Serialize;
-
-use super::{ExportError, write_atomic};
+use super::{ExportError, write_rows};
 use crate::compare::{Comparison, MeasuredRow};
 use crate::measure::batch::ProfileRow;
-
-/// Writes `rows` as CSV with a header made from the row type's field names
-/// (the header alone when there are no rows).
-///
-/// # Errors
-/// [`ExportError`] if the file cannot be written.
-pub fn write_rows<T: Serialize + Default>(rows: &[T], path: &Path) -> Result<(), ExportError> {
-    write_atomic(path, |w| {
-        if rows.is_empty() {
-            let mut probe = csv::Writer::from_writer(Vec::new());
-            probe.serialize(T::default()).map_err(std::io::Error::other)?;
-            let text = probe.into_inner().map_err(|e| std::io::Error::other(e.to_string()))?;
-            let header = text.split(|b| *b == b'\n').next().unwrap_or(&[]);
-            w.write_all(header)?;
-            return w.write_all(b"\n");
-        }
-        let mut out = csv::Writer::from_writer(w);
-        for r in rows {
-            out.serialize(r).map_err(std::io::Error::other)?;
-        }
-        out.flush()
-    })
-}
 
 /// A measured-boundary table (columns: see [`crate::compare::table`]).
 ///

@@ -8,19 +8,21 @@ mod fit_tables;
 pub mod folder;
 mod phase_tables;
 mod screen_tables;
+mod table_writer;
 mod tables;
 
 use std::fs::File;
 use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 
-pub use compare_tables::{write_comparison, write_measured, write_measured_profiles, write_rows};
+pub use compare_tables::{write_comparison, write_measured, write_measured_profiles};
 pub use fit_tables::{
     write_combinations, write_correlation, write_fit, write_profiles as write_fit_profiles, write_residuals,
     write_starts, write_trace,
 };
 pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
 pub use screen_tables::{write_sensitivity, write_shifts};
+pub use table_writer::{Cells, TableWriter, header_of, shortest, shortest_opt, write_rows, write_rows_to};
 pub use tables::{write_boundaries, write_domains, write_profiles, write_profiles_long, write_sheet};
 
 /// A table cell for an optional value: empty when absent.

@@ -23,7 +23,10 @@ pub use fit_tables::{
 pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
 pub use screen_tables::{write_sensitivity, write_shifts};
 pub use table_writer::{Cells, TableWriter, header_of, shortest, shortest_opt, write_rows, write_rows_to};
-pub use tables::{write_boundaries, write_domains, write_profiles, write_profiles_long, write_sheet};
+pub use tables::{
+    AxisPoint, BoundaryRow, DomainRow, GeneLevel, SheetPoint, write_boundaries, write_domains, write_profiles,
+    write_profiles_long, write_sheet,
+};
 
 /// A table cell for an optional value: empty when absent.
 pub(crate) fn opt<T: ToString>(v: Option<T>) -> String {

@@ -155,6 +155,15 @@ pub fn write_rows<T: Serialize + Default>(rows: &[T], path: &Path) -> Result<(),
     write_atomic(path, |w| write_rows_to(rows, w))
 }
 
+/// The header `names` with the column `from` renamed `to` (a sheet's
+/// profiles are indexed by `column` where a row's are by `nucleus`).
+pub(crate) fn renamed(mut names: Vec<String>, from: &str, to: &str) -> Vec<String> {
+    for n in names.iter_mut().filter(|n| *n == from) {
+        *n = to.to_string();
+    }
+    names
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -208,5 +217,6 @@ mod tests {
         let mut out = Vec::new();
         write_rows_to::<Probe>(&[], &mut out).unwrap();
         assert_eq!(out, b"name,x_um,y,z\n");
+        assert_eq!(renamed(header_of::<Probe>().unwrap(), "z", "w"), ["name", "x_um", "y", "w"]);
     }
 }

@@ -20,7 +20,10 @@ pub use fit_tables::{
     write_combinations, write_correlation, write_fit, write_profiles as write_fit_profiles, write_residuals,
     write_starts, write_trace,
 };
-pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
+pub use phase_tables::{
+    BasinRow, CommitmentRow, FixedPointRow, FrozenNucleus, LandscapeRow, write_attractors, write_basins,
+    write_commitment, write_landscape,
+};
 pub use screen_tables::{write_sensitivity, write_shifts};
 pub use table_writer::{Cells, TableWriter, header_of, shortest, shortest_opt, write_rows, write_rows_to};
 pub use tables::{

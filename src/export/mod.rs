@@ -17,8 +17,8 @@ use std::path::{Path, PathBuf};
 
 pub use compare_tables::{write_comparison, write_measured, write_measured_profiles};
 pub use fit_tables::{
-    write_combinations, write_correlation, write_fit, write_profiles as write_fit_profiles, write_residuals,
-    write_starts, write_trace,
+    CombinationRow, CorrelationRow, FitRow, ProfilePointRow, ResidualRow, StartRow, TraceRow, write_combinations,
+    write_correlation, write_fit, write_profiles as write_fit_profiles, write_residuals, write_starts, write_trace,
 };
 pub use phase_tables::{
     BasinRow, CommitmentRow, FixedPointRow, FrozenNucleus, LandscapeRow, write_attractors, write_basins,
@@ -30,11 +30,6 @@ pub use tables::{
     AxisPoint, BoundaryRow, DomainRow, GeneLevel, SheetPoint, write_boundaries, write_domains, write_profiles,
     write_profiles_long, write_sheet,
 };
-
-/// A table cell for an optional value: empty when absent.
-pub(crate) fn opt<T: ToString>(v: Option<T>) -> String {
-    v.map_or_else(String::new, |x| x.to_string())
-}
 
 /// An output file that could not be written.
 #[derive(Debug, thiserror::Error)]

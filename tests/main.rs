@@ -20,5 +20,6 @@ mod properties;
 mod rates;
 mod safety;
 mod screen;
+mod tables;
 
 mod validation;

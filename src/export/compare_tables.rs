@@ -15,8 +15,7 @@ pub fn write_measured(rows: &[MeasuredRow], path: &Path) -> Result<(), ExportErr
     write_rows(rows, path)
 }
 
-/// Measured profiles, one row per sample, embryo, gene and position:
-/// `sample, embryo, gene, position_pct, level, signal`.
+/// Measured profiles: one [`ProfileRow`] per sample, embryo, gene and position.
 ///
 /// # Errors
 /// [`ExportError`] if the file cannot be written.
@@ -24,13 +23,21 @@ pub fn write_measured_profiles(rows: &[ProfileRow], path: &Path) -> Result<(), E
     write_rows(rows, path)
 }
 
-/// `comparison.csv`: `sample, time_min, gene, direction, measured_pct, sd_pct,
-/// sd_used_pct, simulated_pct, difference_pct, z, status`.
+/// `comparison.csv`: one [`crate::compare::ComparisonRow`] per pairing and
+/// per boundary found on one side only.
 ///
 /// # Errors
 /// [`ExportError`] if the file cannot be written.
 pub fn write_comparison(c: &Comparison, path: &Path) -> Result<(), ExportError> {
     write_rows(&c.rows, path)
+}
+
+/// The table of [`write_comparison`], into `w` (e.g. standard output).
+///
+/// # Errors
+/// The writer's.
+pub fn write_comparison_to(c: &Comparison, w: impl std::io::Write) -> std::io::Result<()> {
+    super::write_rows_to(&c.rows, w)
 }
 
 #[cfg(test)]

@@ -15,7 +15,7 @@ use std::fs::File;
 use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 
-pub use compare_tables::{write_comparison, write_measured, write_measured_profiles};
+pub use compare_tables::{write_comparison, write_comparison_to, write_measured, write_measured_profiles};
 pub use fit_tables::{
     CombinationRow, CorrelationRow, FitRow, ProfilePointRow, ResidualRow, StartRow, TraceRow, write_combinations,
     write_correlation, write_fit, write_profiles as write_fit_profiles, write_residuals, write_starts, write_trace,
@@ -24,7 +24,7 @@ pub use phase_tables::{
     BasinRow, CommitmentRow, FixedPointRow, FrozenNucleus, LandscapeRow, write_attractors, write_basins,
     write_commitment, write_landscape,
 };
-pub use screen_tables::{write_sensitivity, write_shifts};
+pub use screen_tables::{write_sensitivity, write_shifts, write_shifts_to};
 pub use table_writer::{Cells, TableWriter, header_of, shortest, shortest_opt, write_rows, write_rows_to};
 pub use tables::{
     AxisPoint, BoundaryRow, DomainRow, GeneLevel, SheetPoint, write_boundaries, write_domains, write_profiles,

@@ -1,24 +1,32 @@
 //! Tables of mutant screens and sensitivities (model predictions).
 
+use std::io::Write;
 use std::path::Path;
 
-use super::ExportError;
-use crate::screen::{Screen, SensitivityRow};
+use super::{ExportError, TableWriter, write_atomic};
+use crate::screen::{Screen, SensitivityRow, Shift};
 
-/// `shifts.csv`: `mutant, gene, direction, wild_type_um, wild_type_pct,
-/// mutant_um, mutant_pct, shift_um, shift_pct, status, reason` (status: see
-/// [`crate::screen::outcome`]; reason: why a mutant failed).
+/// `shifts.csv`: one [`Shift`] per boundary of every mutant.
 ///
 /// # Errors
 /// [`ExportError`] if the file cannot be written.
 pub fn write_shifts(s: &Screen, path: &Path) -> Result<(), ExportError> {
-    let rows: Vec<crate::screen::Shift> = s.shifts.iter().flatten().cloned().collect();
-    super::write_rows(&rows, path)
+    write_atomic(path, |w| write_shifts_to(s, w))
 }
 
-/// `sensitivity.csv`: `parameter, value, gene, direction, position_pct, kind,
-/// d_um_per_ln, d_pct_per_ln, step_ln, jumps_at` (kind: smooth, pinned,
-/// unresolved or lost; see [`crate::screen::sensitivity`]).
+/// The table of [`write_shifts`], into `w` (e.g. standard output).
+///
+/// # Errors
+/// The writer's.
+pub fn write_shifts_to(s: &Screen, w: impl Write) -> std::io::Result<()> {
+    let mut table = TableWriter::of::<Shift>(w)?;
+    for shift in s.shifts.iter().flatten() {
+        table.row(shift)?;
+    }
+    table.finish()
+}
+
+/// `sensitivity.csv`: one [`SensitivityRow`] per boundary and parameter.
 ///
 /// # Errors
 /// [`ExportError`] if the file cannot be written.

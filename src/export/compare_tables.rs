@@ -66,4 +66,49 @@ mod tests {
         let back = crate::compare::read_measured(&path, &Default::default(), "").unwrap();
         assert_eq!((back[0].sample.as_str(), back[0].flag.as_deref()), ("e, one", Some("weak, \"head\"")));
     }
+
+    /// Rows of `comparison.csv` and of measured profiles read back as
+    /// written, sample names with commas and quotes included.
+    #[test]
+    fn comparison_and_profile_rows_round_trip() {
+        let row = crate::compare::ComparisonRow {
+            sample: "embryo \"3\", left".into(),
+            time_min: 240.0,
+            gene: "amber".into(),
+            direction: "falling".into(),
+            measured_pct: Some(47.5),
+            sd_pct: None,
+            sd_used_pct: Some(0.5),
+            simulated_pct: Some(47.8),
+            difference_pct: Some(0.30000000000000004),
+            z: Some(0.6),
+            status: "matched".into(),
+        };
+        let c = Comparison {
+            rows: vec![row.clone()],
+            rmse_pct: None,
+            mirror: Vec::new(),
+            raised_sds: 0,
+            at_last_snapshot: 0,
+        };
+        let mut out = Vec::new();
+        write_comparison_to(&c, &mut out).unwrap();
+        let back: Vec<crate::compare::ComparisonRow> =
+            csv::Reader::from_reader(out.as_slice()).deserialize().collect::<Result<_, _>>().unwrap();
+        assert_eq!(back, [row]);
+        let profile = ProfileRow {
+            sample: "a,\"b\"".into(),
+            embryo: 2,
+            gene: "cobalt".into(),
+            position_pct: 0.25,
+            level: 1.0,
+            signal: 1e-7,
+        };
+        out.clear();
+        super::super::write_rows_to(std::slice::from_ref(&profile), &mut out).unwrap();
+        assert!(String::from_utf8(out.clone()).unwrap().ends_with("\"a,\"\"b\"\"\",2,cobalt,0.25,1.0,1e-7\n"));
+        let back: Vec<ProfileRow> =
+            csv::Reader::from_reader(out.as_slice()).deserialize().collect::<Result<_, _>>().unwrap();
+        assert_eq!(back, [profile]);
+    }
 }

@@ -309,10 +309,10 @@ pub fn write_replicates(
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
     let mut outcome = None;
     let written = export::write_atomic(&dir.join("embryo_boundaries.csv"), |w| {
-        let mut failed = None;
+        let mut failed = export::embryo_header(w).err();
         let r = replicates::run(model, job.n, &Sources::all(model), progress, &mut |i, bs| {
             if failed.is_none()
-                && let Err(e) = export::embryo_rows(i, bs, i == 0, w)
+                && let Err(e) = export::embryo_rows(i, bs, w)
             {
                 failed = Some(e);
             }

@@ -21,5 +21,6 @@ mod rates;
 mod replicates;
 mod safety;
 mod screen;
+mod tables;
 
 mod validation;

@@ -154,7 +154,9 @@ pub struct ScreenArgs {
 /// whether they print JSON.
 #[derive(Debug, Args)]
 pub struct ScreenOutputArgs {
-    /// Output folder (default: `<model name>_screen` next to the model file; `_replicates` for replicates).
+    /// Output folder (default: `<model name>_screen` next to the model file; `_replicates` for
+    /// replicates); `-` (screen, sensitivity): the table (shifts.csv or sensitivity.csv) on standard
+    /// output, and nothing written to disk.
     #[arg(short, long)]
     pub out: Option<PathBuf>,
     /// How pictures look.
@@ -238,7 +240,8 @@ pub struct CompareArgs {
     /// Smallest sd taken at face value, % of length (raised to each row's resolution if that is larger).
     #[arg(long, default_value_t = anlage::compare::DEFAULT_SD_FLOOR_PCT)]
     pub sd_floor: f64,
-    /// Output folder (default: the run folder).
+    /// Output folder (default: the run folder); `-`: comparison.csv on standard output, the
+    /// report on standard error, and nothing written to disk.
     #[arg(short, long)]
     pub out: Option<PathBuf>,
     /// Print what was found as one JSON document on standard output instead of the report.
@@ -470,7 +473,9 @@ pub struct MeasureArgs {
     /// Time of the embryos: minutes, or a stage label (kept as written).
     #[arg(long)]
     pub time: Option<String>,
-    /// Output table (default: <image>_boundaries.csv, or measured.csv in the folder).
+    /// Output table (default: <image>_boundaries.csv, or measured.csv in the folder); `-`: the
+    /// table on standard output, the report on standard error, and nothing written to disk (no
+    /// profiles, embryos table or check pictures).
     #[arg(short, long)]
     pub out: Option<PathBuf>,
 }

@@ -46,3 +46,60 @@ pub fn model_and_recording(source: &Path, out: Option<&Path>) -> anyhow::Result<
 
 /// Name of the checkpoint file in a run folder.
 pub const CHECKPOINT: &str = "checkpoint.bin";
+
+/// `-o -`: the verb's main table goes to standard output and nothing is
+/// written to disk.
+pub fn table_to_stdout(out: Option<&Path>) -> bool {
+    out == Some(Path::new("-"))
+}
+
+/// Refuses `-o -` together with `--json`: both would use standard output.
+pub fn refuse_json_with_stdout(out: Option<&Path>, json: bool) -> anyhow::Result<()> {
+    if json && table_to_stdout(out) {
+        anyhow::bail!(anlage::render::StyleError::OutOfRange {
+            option: "-o".into(),
+            value: "-".into(),
+            fix: "-o - and --json both write to standard output; give one of them".into(),
+        });
+    }
+    Ok(())
+}
+
+/// Writes a table to standard output with `write` (for `-o -`).
+pub fn write_table_to_stdout(write: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>) -> anyhow::Result<()> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    write(&mut out).and_then(|()| out.flush()).context("writing the table to standard output")
+}
+
+/// Where a verb's report goes: standard output, or standard error when
+/// standard output carries its table (`-o -`).
+#[derive(Debug, Clone, Copy)]
+pub struct Report {
+    /// Print to standard error.
+    pub to_stderr: bool,
+}
+
+impl Report {
+    /// The report of a verb whose output option is `out`.
+    pub fn for_out(out: Option<&Path>) -> Report {
+        Report { to_stderr: table_to_stdout(out) }
+    }
+
+    /// Prints one line.
+    pub fn line(self, text: std::fmt::Arguments) {
+        if self.to_stderr {
+            eprintln!("{text}");
+        } else {
+            println!("{text}");
+        }
+    }
+}
+
+/// `say!(report, "format", args…)`: one line of a verb's [`Report`].
+macro_rules! say {
+    ($report:expr, $($arg:tt)*) => {
+        $report.line(format_args!($($arg)*))
+    };
+}
+pub(crate) use say;

@@ -12,6 +12,7 @@ use anlage::measure::{
 use anlage::render::{Style, StyleError};
 
 use super::args::{CompareArgs, HeadArg, MeasureArgs, StainArg, SynthesizeArgs};
+use super::common::{Report, refuse_json_with_stdout, say, table_to_stdout, write_table_to_stdout};
 
 fn bad_option(option: &str, value: &str, fix: &str) -> anyhow::Error {
     StyleError::OutOfRange { option: option.into(), value: value.into(), fix: fix.into() }.into()
@@ -111,15 +112,14 @@ fn measure_image(args: &MeasureArgs, path: &Path) -> anyhow::Result<ImageMeasure
     };
     let options = MeasureOptions { channels: channels.clone(), head, contrast, outline };
     let m = measure::measure(&planes, &options)?;
-    let check = anlage::render::check_picture(&planes, &m, &colors_of(&channels));
-    let check_path = path.with_file_name(format!("{}_check.png", stem_of(path)));
-    anlage::export::write_atomic(&check_path, |w| w.write_all(&check.png()?))?;
+    let report = Report::for_out(args.out.as_deref());
     let how = if m.contrast_how == "given" { "given".to_string() } else { m.contrast_how.clone() };
-    println!("{}: stain {}, {how}; outline from {}", path.display(), m.contrast.describe(), m.outline_how);
+    say!(report, "{}: stain {}, {how}; outline from {}", path.display(), m.contrast.describe(), m.outline_how);
     for e in &m.embryos {
         let ((hx, hy), (tx, ty)) = (e.head_tail[0], e.head_tail[1]);
         let confidence = e.head.confidence.map_or_else(String::new, |c| format!(", confidence {c:.2}"));
-        println!(
+        say!(
+            report,
             "  embryo {}: {:.1} px long at {:.1}°, head ({hx:.1}, {hy:.1}) px to tail ({tx:.1}, {ty:.1}) px; head {}{confidence}",
             e.number,
             e.length_px,
@@ -127,16 +127,21 @@ fn measure_image(args: &MeasureArgs, path: &Path) -> anyhow::Result<ImageMeasure
             e.head.how
         );
         for b in &e.boundaries {
-            println!("    {:<12} {:<8} {:>6.2} % of length", b.gene, b.direction, b.position_pct);
+            say!(report, "    {:<12} {:<8} {:>6.2} % of length", b.gene, b.direction, b.position_pct);
         }
         for f in e.flags() {
-            println!("    ! {f}");
+            say!(report, "    ! {f}");
         }
     }
     for s in &m.skipped {
-        println!("  embryo {}: {}", s.number, s.reason);
+        say!(report, "  embryo {}: {}", s.number, s.reason);
     }
-    println!("  check picture: {}", check_path.display());
+    if !table_to_stdout(args.out.as_deref()) {
+        let check = anlage::render::check_picture(&planes, &m, &colors_of(&channels));
+        let check_path = path.with_file_name(format!("{}_check.png", stem_of(path)));
+        anlage::export::write_atomic(&check_path, |w| w.write_all(&check.png()?))?;
+        say!(report, "  check picture: {}", check_path.display());
+    }
     if let Some(e) = m.none_measured(path) {
         bail!(e);
     }
@@ -172,6 +177,7 @@ pub fn measure_verb(args: &MeasureArgs) -> anyhow::Result<()> {
             bail!(bad_option("--out", &o.display().to_string(), "name a .csv table; it must not be one of the images"));
         }
     }
+    let report = Report::for_out(args.out.as_deref());
     let (mut rows, mut profiles, mut names, mut failures) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
     for path in &images {
         match measure_image(args, path) {
@@ -182,7 +188,7 @@ pub fn measure_verb(args: &MeasureArgs) -> anyhow::Result<()> {
                 names.extend(m.embryos.iter().map(|e| batch::sample_name(&stem, &m, e)));
             }
             Err(e) if folder => {
-                println!("{}: NOT MEASURED: {e:#}", path.display());
+                say!(report, "{}: NOT MEASURED: {e:#}", path.display());
                 failures.push((path.clone(), format!("{e:#}")));
             }
             Err(e) => return Err(e),
@@ -200,32 +206,43 @@ pub fn measure_verb(args: &MeasureArgs) -> anyhow::Result<()> {
     let base = if args.out.is_none() && !folder { stem_of(image) } else { base };
     let beside = |what: &str| out.with_file_name(format!("{base}_{what}.csv"));
     if !names.is_empty() {
-        if folder {
+        let aggregated;
+        let table = if folder {
             let sample = image.file_name().map_or_else(|| "batch".into(), |s| s.to_string_lossy().into_owned());
-            let (table, notes) = batch::aggregate(&rows, &names, &sample);
-            anlage::export::write_measured(&table, &out)?;
-            anlage::export::write_measured(&rows, &beside("embryos"))?;
-            println!(
+            let notes;
+            (aggregated, notes) = batch::aggregate(&rows, &names, &sample);
+            say!(
+                report,
                 "{} embryos measured in {} of {} images",
                 names.len(),
                 images.len() - failures.len(),
                 images.len()
             );
             for n in &notes {
-                println!("  note: {n}");
+                say!(report, "  note: {n}");
             }
-            println!("wrote {} (mean and sd per boundary) and {}", out.display(), beside("embryos").display());
+            &aggregated
         } else {
-            anlage::export::write_measured(&rows, &out)?;
-            println!("wrote {} (measured from images)", out.display());
+            &rows
+        };
+        if table_to_stdout(args.out.as_deref()) {
+            write_table_to_stdout(|w| anlage::export::write_rows_to(table, w))?;
+        } else {
+            anlage::export::write_measured(table, &out)?;
+            if folder {
+                anlage::export::write_measured(&rows, &beside("embryos"))?;
+                say!(report, "wrote {} (mean and sd per boundary) and {}", out.display(), beside("embryos").display());
+            } else {
+                say!(report, "wrote {} (measured from images)", out.display());
+            }
+            anlage::export::write_measured_profiles(&profiles, &beside("profiles"))?;
+            say!(report, "wrote {} (profiles along the axis)", beside("profiles").display());
         }
-        anlage::export::write_measured_profiles(&profiles, &beside("profiles"))?;
-        println!("wrote {} (profiles along the axis)", beside("profiles").display());
     }
     if !failures.is_empty() {
-        println!("could not measure {} of {} images:", failures.len(), images.len());
+        say!(report, "could not measure {} of {} images:", failures.len(), images.len());
         for (p, why) in &failures {
-            println!("  {}: {why}", p.display());
+            say!(report, "  {}: {why}", p.display());
         }
         bail!(measure::MeasureError::Batch { failed: failures.len(), total: images.len() });
     }
@@ -241,6 +258,9 @@ pub fn compare_verb(
     out: &Option<PathBuf>,
     json: bool,
 ) -> anyhow::Result<()> {
+    refuse_json_with_stdout(out.as_deref(), json)?;
+    let to_stdout = table_to_stdout(out.as_deref());
+    let report = Report::for_out(out.as_deref());
     let mut map = HashMap::new();
     for s in stages {
         let (label, min) = s.split_once('=').ok_or_else(|| bad_option("--stage", s, "write LABEL=MINUTES"))?;
@@ -264,23 +284,28 @@ pub fn compare_verb(
     compare::check_times(measured, &rows, &rec.times)?;
     let cmp = compare::compare(rec, &rows, sd_floor)?;
     let dir = out.clone().unwrap_or_else(|| run_dir.to_path_buf());
-    std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
-    anlage::export::write_comparison(&cmp, &dir.join("comparison.csv"))?;
-    let s = (0..rec.times.len())
-        .find(|&s| cmp.rows.iter().any(|r| r.time_min == rec.times[s]))
-        .unwrap_or(rec.times.len() - 1);
-    let mut style = Style::for_recording(rec);
-    style.title = format!("{}: simulated vs measured", saved.summary.title);
-    let overlay = anlage::render::comparison_overlay(rec, s, &cmp, &style)?;
-    anlage::export::write_atomic(&dir.join("comparison.png"), |w| w.write_all(&overlay.png()?))?;
+    if to_stdout {
+        write_table_to_stdout(|w| anlage::export::write_comparison_to(&cmp, w))?;
+    } else {
+        std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
+        anlage::export::write_comparison(&cmp, &dir.join("comparison.csv"))?;
+        let s = (0..rec.times.len())
+            .find(|&s| cmp.rows.iter().any(|r| r.time_min == rec.times[s]))
+            .unwrap_or(rec.times.len() - 1);
+        let mut style = Style::for_recording(rec);
+        style.title = format!("{}: simulated vs measured", saved.summary.title);
+        let overlay = anlage::render::comparison_overlay(rec, s, &cmp, &style)?;
+        anlage::export::write_atomic(&dir.join("comparison.png"), |w| w.write_all(&overlay.png()?))?;
+    }
     if json {
         println!("{}", super::json::compare(&cmp, &dir));
         return Ok(());
     }
-    println!("simulated (model prediction) vs measured boundaries:");
+    say!(report, "simulated (model prediction) vs measured boundaries:");
     for r in &cmp.rows {
         let f = |v: Option<f64>| v.map_or_else(|| "-".into(), |x| format!("{x:.2}"));
-        println!(
+        say!(
+            report,
             "  {:<10} t = {:<6} {:<10} {:<8} measured {:>7} sim {:>7} diff {:>7} z {:>6}  {}",
             r.sample,
             r.time_min,
@@ -294,20 +319,23 @@ pub fn compare_verb(
         );
     }
     match cmp.rmse_pct {
-        Some(e) => println!(
+        Some(e) => say!(
+            report,
             "root-mean-square difference: {e:.3} % of axis length over {} matched boundaries",
             cmp.rows.iter().filter(|r| r.status == "matched").count()
         ),
-        None => println!("no boundary could be matched"),
+        None => say!(report, "no boundary could be matched"),
     }
     if cmp.raised_sds > 0 {
-        println!(
+        say!(
+            report,
             "note: {} sd(s) below the resolution or the floor ({sd_floor} % of length) were raised to it for z",
             cmp.raised_sds
         );
     }
     if cmp.at_last_snapshot > 0 {
-        println!(
+        say!(
+            report,
             "note: {} row(s) give no time and were compared at the last snapshot, t = {} min",
             cmp.at_last_snapshot,
             rec.times[rec.times.len() - 1]
@@ -315,7 +343,8 @@ pub fn compare_verb(
     }
     let rms = |r: Option<f64>| r.map_or_else(|| "-".into(), |x| format!("{x:.2} %"));
     for h in &cmp.mirror {
-        println!(
+        say!(
+            report,
             "warning: {} (t = {} min) matches much better read the other way round: {} matched, rms {} mirrored; {} matched, rms {} as given. Was its head taken at the wrong end? Check its picture, and measure with --head or --head-high.",
             h.sample,
             h.time_min,
@@ -325,7 +354,9 @@ pub fn compare_verb(
             rms(h.as_given.1)
         );
     }
-    println!("wrote {}", dir.join("comparison.csv").display());
+    if !to_stdout {
+        say!(report, "wrote {}", dir.join("comparison.csv").display());
+    }
     Ok(())
 }
 

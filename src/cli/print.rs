@@ -501,7 +501,15 @@ pub fn replicates(model: &anlage::model::Model, report: &anlage::ReplicateReport
     }
     let _ = writeln!(s, "noise sources: {}", sources.join(", "));
     let _ = writeln!(s, "final boundaries (mean ± sd over embryos; decoded: from all genes at the mean position):");
-    let um = |v: f64| if v.is_finite() { format!("{v:.2}") } else { "—".into() };
+    let um = |v: f64| {
+        if v.is_finite() {
+            format!("{v:.2}")
+        } else if v == f64::INFINITY {
+            "∞".into()
+        } else {
+            "—".into()
+        }
+    };
     for b in r.final_boundaries() {
         let decoded = if b.mean_um.is_finite() { r.decoded_at(b.mean_um) } else { f64::NAN };
         let _ = writeln!(

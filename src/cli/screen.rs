@@ -37,8 +37,21 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
         })?),
         None => None,
     };
+    refuse_json_with_stdout(out.as_deref(), *json)?;
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
+    if table_to_stdout(out.as_deref()) {
+        if let Some(name) = animate {
+            anyhow::bail!(StyleError::OutOfRange {
+                option: "--animate".into(),
+                value: name.clone(),
+                fix: "it writes a picture, and -o - writes nothing to disk; give an output folder".into(),
+            });
+        }
+        let screen =
+            anlage::screen::run_screen(&model, &list, true).with_context(|| format!("screening {}", path.display()))?;
+        return write_table_to_stdout(|w| anlage::export::write_shifts_to(&screen, w));
+    }
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "screen"));
     let screen = anlage::write_screen(&model, &list, &style, &dir, chosen.as_ref(), true, &super::bar::Bar::new(*json))
         .with_context(|| format!("screening {}", path.display()))?;
@@ -58,8 +71,14 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
             fix: "give a step in ln(parameter) between 0 and 1, e.g. 0.01".into(),
         });
     }
+    refuse_json_with_stdout(out.as_deref(), *json)?;
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
+    if table_to_stdout(out.as_deref()) {
+        let rows = anlage::screen::sensitivity(&model, *step, true)
+            .with_context(|| format!("sensitivity of {}", path.display()))?;
+        return write_table_to_stdout(|w| anlage::export::write_rows_to(&rows, w));
+    }
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "screen"));
     let rows = anlage::write_sensitivity(&model, *step, &style, &dir, true, &super::bar::Bar::new(*json))
         .with_context(|| format!("sensitivity of {}", path.display()))?;

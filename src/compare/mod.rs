@@ -33,8 +33,9 @@ pub fn floored_sd(row: &MeasuredRow, floor: f64) -> Option<f64> {
     row.sd_pct.map(|sd| sd.max(sd_floor(row, floor)))
 }
 
-/// One line of a comparison.
-#[derive(Debug, Clone, PartialEq, Serialize, Default)]
+/// One line of a comparison: a row of `comparison.csv` (numbers in the csv
+/// crate's form; an empty cell for None).
+#[derive(Debug, Clone, PartialEq, Serialize, serde::Deserialize, Default)]
 pub struct ComparisonRow {
     /// Sample.
     pub sample: String,

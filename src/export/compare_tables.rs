@@ -1,37 +1,11 @@
-//! Measured-boundary tables, measured profiles and comparisons, written by
-//! the csv crate from typed rows (headers from the field names, quoting
-//! where a cell needs it).
+//! Measured-boundary tables, measured profiles and comparisons (rows written
+//! by [`write_rows`], numbers in the csv crate's own form).
 
 use std::path::Path;
 
-use serde::Serialize;
-
-use super::{ExportError, write_atomic};
+use super::{ExportError, write_rows};
 use crate::compare::{Comparison, MeasuredRow};
 use crate::measure::batch::ProfileRow;
-
-/// Writes `rows` as CSV with a header made from the row type's field names
-/// (the header alone when there are no rows).
-///
-/// # Errors
-/// [`ExportError`] if the file cannot be written.
-pub fn write_rows<T: Serialize + Default>(rows: &[T], path: &Path) -> Result<(), ExportError> {
-    write_atomic(path, |w| {
-        if rows.is_empty() {
-            let mut probe = csv::Writer::from_writer(Vec::new());
-            probe.serialize(T::default()).map_err(std::io::Error::other)?;
-            let text = probe.into_inner().map_err(|e| std::io::Error::other(e.to_string()))?;
-            let header = text.split(|b| *b == b'\n').next().unwrap_or(&[]);
-            w.write_all(header)?;
-            return w.write_all(b"\n");
-        }
-        let mut out = csv::Writer::from_writer(w);
-        for r in rows {
-            out.serialize(r).map_err(std::io::Error::other)?;
-        }
-        out.flush()
-    })
-}
 
 /// A measured-boundary table (columns: see [`crate::compare::table`]).
 ///
@@ -41,8 +15,7 @@ pub fn write_measured(rows: &[MeasuredRow], path: &Path) -> Result<(), ExportErr
     write_rows(rows, path)
 }
 
-/// Measured profiles, one row per sample, embryo, gene and position:
-/// `sample, embryo, gene, position_pct, level, signal`.
+/// Measured profiles: one [`ProfileRow`] per sample, embryo, gene and position.
 ///
 /// # Errors
 /// [`ExportError`] if the file cannot be written.
@@ -50,13 +23,21 @@ pub fn write_measured_profiles(rows: &[ProfileRow], path: &Path) -> Result<(), E
     write_rows(rows, path)
 }
 
-/// `comparison.csv`: `sample, time_min, gene, direction, measured_pct, sd_pct,
-/// sd_used_pct, simulated_pct, difference_pct, z, status`.
+/// `comparison.csv`: one [`crate::compare::ComparisonRow`] per pairing and
+/// per boundary found on one side only.
 ///
 /// # Errors
 /// [`ExportError`] if the file cannot be written.
 pub fn write_comparison(c: &Comparison, path: &Path) -> Result<(), ExportError> {
     write_rows(&c.rows, path)
+}
+
+/// The table of [`write_comparison`], into `w` (e.g. standard output).
+///
+/// # Errors
+/// The writer's.
+pub fn write_comparison_to(c: &Comparison, w: impl std::io::Write) -> std::io::Result<()> {
+    super::write_rows_to(&c.rows, w)
 }
 
 #[cfg(test)]
@@ -84,5 +65,50 @@ mod tests {
         write_measured(std::slice::from_ref(&row), &path).unwrap();
         let back = crate::compare::read_measured(&path, &Default::default(), "").unwrap();
         assert_eq!((back[0].sample.as_str(), back[0].flag.as_deref()), ("e, one", Some("weak, \"head\"")));
+    }
+
+    /// Rows of `comparison.csv` and of measured profiles read back as
+    /// written, sample names with commas and quotes included.
+    #[test]
+    fn comparison_and_profile_rows_round_trip() {
+        let row = crate::compare::ComparisonRow {
+            sample: "embryo \"3\", left".into(),
+            time_min: 240.0,
+            gene: "amber".into(),
+            direction: "falling".into(),
+            measured_pct: Some(47.5),
+            sd_pct: None,
+            sd_used_pct: Some(0.5),
+            simulated_pct: Some(47.8),
+            difference_pct: Some(0.30000000000000004),
+            z: Some(0.6),
+            status: "matched".into(),
+        };
+        let c = Comparison {
+            rows: vec![row.clone()],
+            rmse_pct: None,
+            mirror: Vec::new(),
+            raised_sds: 0,
+            at_last_snapshot: 0,
+        };
+        let mut out = Vec::new();
+        write_comparison_to(&c, &mut out).unwrap();
+        let back: Vec<crate::compare::ComparisonRow> =
+            csv::Reader::from_reader(out.as_slice()).deserialize().collect::<Result<_, _>>().unwrap();
+        assert_eq!(back, [row]);
+        let profile = ProfileRow {
+            sample: "a,\"b\"".into(),
+            embryo: 2,
+            gene: "cobalt".into(),
+            position_pct: 0.25,
+            level: 1.0,
+            signal: 1e-7,
+        };
+        out.clear();
+        super::super::write_rows_to(std::slice::from_ref(&profile), &mut out).unwrap();
+        assert!(String::from_utf8(out.clone()).unwrap().ends_with("\"a,\"\"b\"\"\",2,cobalt,0.25,1.0,1e-7\n"));
+        let back: Vec<ProfileRow> =
+            csv::Reader::from_reader(out.as_slice()).deserialize().collect::<Result<_, _>>().unwrap();
+        assert_eq!(back, [profile]);
     }
 }

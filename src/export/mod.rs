@@ -8,29 +8,32 @@ mod fit_tables;
 mod phase_tables;
 mod replicate_tables;
 mod screen_tables;
+mod table_writer;
 mod tables;
 
 use std::fs::File;
 use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 
-pub use compare_tables::{write_comparison, write_measured, write_measured_profiles, write_rows};
+pub use compare_tables::{write_comparison, write_comparison_to, write_measured, write_measured_profiles};
 pub use fit_tables::{
-    write_combinations, write_correlation, write_fit, write_profiles as write_fit_profiles, write_residuals,
-    write_starts, write_trace,
+    CombinationRow, CorrelationRow, FitRow, ProfilePointRow, ResidualRow, StartRow, TraceRow, write_combinations,
+    write_correlation, write_fit, write_profiles as write_fit_profiles, write_residuals, write_starts, write_trace,
 };
-pub use phase_tables::{write_attractors, write_basins, write_commitment, write_landscape};
+pub use phase_tables::{
+    BasinRow, CommitmentRow, FixedPointRow, FrozenNucleus, LandscapeRow, write_attractors, write_basins,
+    write_commitment, write_landscape,
+};
 pub use replicate_tables::{
-    embryo_rows, write_attribution, write_decoding, write_precision, write_shifts_over_embryos, write_step_check,
-    write_widths,
+    embryo_header, embryo_rows, write_attribution, write_decoding, write_precision, write_shifts_over_embryos,
+    write_step_check, write_widths,
 };
-pub use screen_tables::{write_sensitivity, write_shifts};
-pub use tables::{write_boundaries, write_domains, write_profiles, write_profiles_long, write_sheet};
-
-/// A table cell for an optional value: empty when absent.
-pub(crate) fn opt<T: ToString>(v: Option<T>) -> String {
-    v.map_or_else(String::new, |x| x.to_string())
-}
+pub use screen_tables::{write_sensitivity, write_shifts, write_shifts_to};
+pub use table_writer::{Cells, TableWriter, header_of, shortest, shortest_opt, write_rows, write_rows_to};
+pub use tables::{
+    AxisPoint, BoundaryRow, DomainRow, GeneLevel, SheetPoint, write_boundaries, write_domains, write_profiles,
+    write_profiles_long, write_sheet,
+};
 
 /// An output file that could not be written.
 #[derive(Debug, thiserror::Error)]

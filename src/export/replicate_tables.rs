@@ -1,31 +1,32 @@
-//! Tables of `anlage replicates`, written by the csv crate from typed rows.
-//! Numbers are Rust's shortest round-trip form; a value that does not exist
-//! (a boundary no embryo has) is an empty field.
+//! Tables of `anlage replicates`, through the table writer from typed rows.
+//! Numbers are Rust's shortest round-trip form ([`super::shortest`]); a
+//! value that does not exist (a boundary no embryo has) is an empty cell.
 
 use std::io::Write;
 use std::path::Path;
 
 use serde::Serialize;
 
-use super::{ExportError, write_atomic};
+use super::{ExportError, TableWriter, shortest_opt, write_atomic};
 use crate::readout::Boundary;
 use crate::replicates::{PairedShift, Replicates, Share, StepChange};
 
 /// A number in Rust's shortest round-trip form, empty when not finite.
 fn num<S: serde::Serializer>(v: &f64, s: S) -> Result<S::Ok, S::Error> {
-    if v.is_finite() { s.serialize_str(&v.to_string()) } else { s.serialize_str("") }
+    shortest_opt(&v.is_finite().then_some(*v), s)
 }
 
-fn table<R: Serialize>(rows: impl IntoIterator<Item = R>, w: &mut dyn Write) -> std::io::Result<()> {
-    let mut out = csv::Writer::from_writer(w);
+/// A whole table: the header (also with no rows), then the rows.
+fn table<R: Serialize + Default>(rows: impl IntoIterator<Item = R>, w: &mut dyn Write) -> std::io::Result<()> {
+    let mut out = TableWriter::of::<R>(w)?;
     for r in rows {
-        out.serialize(r).map_err(std::io::Error::other)?;
+        out.row(r)?;
     }
-    out.flush()
+    out.finish()
 }
 
 /// One embryo's boundary in `embryo_boundaries.csv`.
-#[derive(Serialize)]
+#[derive(Serialize, Default)]
 struct EmbryoRow<'a> {
     embryo: usize,
     #[serde(serialize_with = "num")]
@@ -38,14 +39,22 @@ struct EmbryoRow<'a> {
     position_pct: f64,
 }
 
-/// Writes one embryo's boundaries (all snapshots) as rows of
-/// `embryo_boundaries.csv`: `embryo, time_min, gene, direction, position_um,
-/// position_pct`; with `header`, the header line first.
+/// The header line of `embryo_boundaries.csv`: `embryo, time_min, gene,
+/// direction, position_um, position_pct`.
 ///
 /// # Errors
 /// The writer's error.
-pub fn embryo_rows(embryo: usize, bs: &[Boundary], header: bool, w: &mut dyn Write) -> std::io::Result<()> {
-    let mut out = csv::WriterBuilder::new().has_headers(header).from_writer(w);
+pub fn embryo_header(w: &mut dyn Write) -> std::io::Result<()> {
+    TableWriter::of::<EmbryoRow>(w)?.finish()
+}
+
+/// Writes one embryo's boundaries (all snapshots) as rows of
+/// `embryo_boundaries.csv` (after [`embryo_header`]).
+///
+/// # Errors
+/// The writer's error.
+pub fn embryo_rows(embryo: usize, bs: &[Boundary], w: &mut dyn Write) -> std::io::Result<()> {
+    let mut out = csv::WriterBuilder::new().has_headers(false).from_writer(w);
     for b in bs {
         out.serialize(EmbryoRow {
             embryo,
@@ -60,7 +69,7 @@ pub fn embryo_rows(embryo: usize, bs: &[Boundary], header: bool, w: &mut dyn Wri
     out.flush()
 }
 
-#[derive(Serialize)]
+#[derive(Serialize, Default)]
 struct PrecisionRow<'a> {
     #[serde(serialize_with = "num")]
     time_min: f64,
@@ -118,7 +127,7 @@ pub fn write_precision(r: &Replicates, path: &Path) -> Result<(), ExportError> {
     })
 }
 
-#[derive(Serialize)]
+#[derive(Serialize, Default)]
 struct WidthRow<'a> {
     gene: &'a str,
     #[serde(serialize_with = "num")]
@@ -155,22 +164,23 @@ pub fn write_widths(r: &Replicates, path: &Path) -> Result<(), ExportError> {
     })
 }
 
-/// `decoding.csv`: per nucleus at the last snapshot: `nucleus, x_um, x_pct,
-/// decoded_sd_um`, then `<gene>_mean, <gene>_sd` for every gene (a.u.);
-/// the decoded error is empty where position cannot be read (no gene has a
-/// slope).
+/// `decoding.csv`: per nucleus at the last snapshot (on a sheet, per
+/// column of the central strip's mean, as every profile of a sheet):
+/// `nucleus` (`column`), `x_um, x_pct, decoded_sd_um`, then `<gene>_mean,
+/// <gene>_sd` for every gene (a.u.); the decoded error is empty where
+/// position cannot be read.
 ///
 /// # Errors
 /// [`ExportError`] if the file cannot be written.
 pub fn write_decoding(r: &Replicates, path: &Path) -> Result<(), ExportError> {
     write_atomic(path, |w| {
-        let mut out = csv::Writer::from_writer(w);
-        let mut header: Vec<String> = ["nucleus", "x_um", "x_pct", "decoded_sd_um"].map(String::from).to_vec();
+        let index = if r.sheet { "column" } else { "nucleus" };
+        let mut header: Vec<String> = [index, "x_um", "x_pct", "decoded_sd_um"].map(String::from).to_vec();
         for g in &r.genes {
             header.push(format!("{g}_mean"));
             header.push(format!("{g}_sd"));
         }
-        out.write_record(&header).map_err(std::io::Error::other)?;
+        let mut out = TableWriter::new(w, &header)?;
         let text = |v: f64| if v.is_finite() { v.to_string() } else { String::new() };
         for (i, d) in r.decoded_um.iter().enumerate() {
             let x = (i as f64 + 0.5) * r.spacing_um;
@@ -179,13 +189,13 @@ pub fn write_decoding(r: &Replicates, path: &Path) -> Result<(), ExportError> {
                 row.push(text(r.profiles.mean[g][i]));
                 row.push(text(r.profiles.sd(g, i)));
             }
-            out.write_record(&row).map_err(std::io::Error::other)?;
+            out.row(&row)?;
         }
-        out.flush()
+        out.finish()
     })
 }
 
-#[derive(Serialize)]
+#[derive(Serialize, Default)]
 struct ShareRow<'a> {
     source: &'a str,
     gene: &'a str,
@@ -220,7 +230,7 @@ pub fn write_attribution(shares: &[Share], path: &Path) -> Result<(), ExportErro
     })
 }
 
-#[derive(Serialize)]
+#[derive(Serialize, Default)]
 struct StepRow<'a> {
     gene: &'a str,
     direction: &'a str,
@@ -259,7 +269,7 @@ pub fn write_step_check(rows: &[StepChange], path: &Path) -> Result<(), ExportEr
     })
 }
 
-#[derive(Serialize)]
+#[derive(Serialize, Default)]
 struct ShiftRow<'a> {
     gene: &'a str,
     direction: &'a str,
@@ -326,8 +336,9 @@ mod tests {
             width_um: 10.0,
         };
         let mut buf = Vec::new();
-        super::embryo_rows(3, &[b.clone()], true, &mut buf).unwrap();
-        super::embryo_rows(4, &[b], false, &mut buf).unwrap();
+        super::embryo_header(&mut buf).unwrap();
+        super::embryo_rows(3, &[b.clone()], &mut buf).unwrap();
+        super::embryo_rows(4, &[b], &mut buf).unwrap();
         let mut rd = csv::Reader::from_reader(buf.as_slice());
         assert_eq!(
             rd.headers().unwrap().iter().collect::<Vec<_>>(),

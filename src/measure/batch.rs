@@ -204,8 +204,9 @@ pub fn aggregate(rows: &[MeasuredRow], embryos: &[String], sample: &str) -> (Vec
 /// Positions of the exported profiles: every 0.25 % of the length.
 pub const PROFILE_STEP_PCT: f64 = 0.25;
 
-/// One sample of a measured profile.
-#[derive(Debug, Clone, PartialEq, Serialize, Default)]
+/// One sample of a measured profile: a row of `<image>_profiles.csv` or
+/// `measured_profiles.csv` (numbers in the csv crate's form).
+#[derive(Debug, Clone, PartialEq, Serialize, serde::Deserialize, Default)]
 pub struct ProfileRow {
     /// Sample.
     pub sample: String,

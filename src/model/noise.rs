@@ -169,6 +169,15 @@ pub(super) fn check_noise(model: &Model, spec: Option<&Spanned<NoiseSpec>>, src:
         let param = model.parse_param(&vs.parameter).map_err(|why| {
             src.invalid(&vspan, "parameter", field("parameter"), why, "name a parameter as in a mutant's `scale`")
         })?;
+        if model.clone().param_mut(param).is_none_or(|v| *v == 0.0) {
+            return Err(src.invalid(
+                &vspan,
+                "parameter",
+                field("parameter"),
+                "is 0 in this model, so a factor cannot change it".into(),
+                "vary a parameter that is not 0, or give it a value first",
+            ));
+        }
         if vary.iter().any(|w| w.param == param) {
             return Err(src.invalid(
                 &vspan,
@@ -235,6 +244,26 @@ pub(super) fn check_noise(model: &Model, spec: Option<&Spanned<NoiseSpec>>, src:
         }
         (None, _) => None,
     };
+    // A shortened last step before a snapshot would mix two step sizes in
+    // the spread at that snapshot.
+    if let Some(k) = step_min.filter(|_| stochastic) {
+        let whole = |span_min: f64| {
+            let steps = span_min / k;
+            (steps - steps.round()).abs() <= 1e-9 * steps.max(1.0)
+        };
+        let (every, until) = (model.clock.snapshot_every_min, model.clock.until_min);
+        if !whole(every) || !whole(until) {
+            return Err(src.invalid(
+                &span,
+                if s.step_min.is_some() { "step_min" } else { "molecules_per_unit" },
+                "noise.step_min".into(),
+                format!(
+                    "is {k} min; it must divide both the snapshot interval ({every} min) and the run ({until} min)"
+                ),
+                "choose a step that divides it (a shortened step before each snapshot would mix two step sizes)",
+            ));
+        }
+    }
     Ok(Noise { replicates, molecules_per_unit: s.molecules_per_unit, additive, vary, step_min })
 }
 

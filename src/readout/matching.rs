@@ -10,8 +10,9 @@ pub fn same_time(a: f64, b: f64) -> bool {
     (a - b).abs() <= 1e-9 * a.abs().max(1.0)
 }
 
-/// How one boundary moved in a mutant.
-#[derive(Debug, Clone, PartialEq, Serialize, Default)]
+/// How one boundary moved in a mutant: a row of `shifts.csv` (numbers in
+/// the csv crate's form, `5.0`; an empty cell for None).
+#[derive(Debug, Clone, PartialEq, Serialize, serde::Deserialize, Default)]
 pub struct Shift {
     /// Mutant name.
     pub mutant: String,

@@ -76,9 +76,44 @@ pub fn replicates_picture(r: &Replicates, style: &Style) -> Canvas {
     };
     let top2 = top1 + h1 + gap;
     let b2 = Axes::along_axis(left, top2, right, width, h2, (0.0, cap), false);
-    let pts: Vec<(f32, f32)> =
-        r.decoded_um.iter().enumerate().map(|(i, v)| (b2.px(pct(i)), b2.py(v.min(cap)))).collect();
-    c.polyline(&pts, 2.0, bg.ink(), 220, None);
+    // The decoded line, broken where nothing can be decoded; values above the
+    // cap run along the top, dashed, and a note says so.
+    let mut run: Vec<(f32, f32)> = Vec::new();
+    let mut clipped_run: Vec<(f32, f32)> = Vec::new();
+    let mut any_clipped = false;
+    for (i, v) in r.decoded_um.iter().enumerate() {
+        let x = b2.px(pct(i));
+        if v.is_nan() {
+            c.polyline(&run, 2.0, bg.ink(), 220, None);
+            c.polyline(&clipped_run, 1.5, bg.muted(), 220, Some([4.0, 3.0]));
+            run.clear();
+            clipped_run.clear();
+            continue;
+        }
+        if *v > cap {
+            any_clipped = true;
+            clipped_run.push((x, b2.py(cap)));
+            if let Some(&last) = run.last() {
+                run.push((x, b2.py(cap)));
+                c.polyline(&run, 2.0, bg.ink(), 220, None);
+                run.clear();
+                clipped_run.insert(0, last);
+            }
+        } else {
+            if let Some(&last) = clipped_run.last() {
+                c.polyline(&clipped_run, 1.5, bg.muted(), 220, Some([4.0, 3.0]));
+                clipped_run.clear();
+                run.push(last);
+            }
+            run.push((x, b2.py(*v)));
+        }
+    }
+    c.polyline(&run, 2.0, bg.ink(), 220, None);
+    c.polyline(&clipped_run, 1.5, bg.muted(), 220, Some([4.0, 3.0]));
+    if any_clipped {
+        let note = format!("dashed along the top: above {cap:.3} µm (off the scale, or position cannot be read)");
+        c.text(left, c.height() as f32 - 10.0, 12.0, bg.muted(), Align::Left, &note);
+    }
     for b in &last {
         let Some(g) = style.genes.iter().copied().find(|&g| r.genes[g] == b.gene) else { continue };
         if b.sd_um.is_finite() && b.mean_um.is_finite() {
@@ -100,9 +135,10 @@ pub fn replicates_picture(r: &Replicates, style: &Style) -> Canvas {
         14.0,
         bg.ink(),
         Align::Left,
-        "positional error (µm): line decoded from all genes, dots each boundary's sd",
+        "positional error (µm): line decoded from all genes; dots: each boundary's sd",
     );
-    title_and_label(&mut c, left, width as f32 - right, 24.0, bg, &format!("{}: {} embryos", style.title, r.n));
+    let strip = if r.sheet { ", central strip mean" } else { "" };
+    title_and_label(&mut c, left, width as f32 - right, 24.0, bg, &format!("{}: {} embryos{strip}", style.title, r.n));
     // The legend, right-aligned on the line of the level label.
     let item = |g: usize| 17.0 + Canvas::text_width(13.0, &r.genes[g]) + 16.0;
     let mut pen = width as f32 - right - style.genes.iter().map(|&g| item(g)).sum::<f32>() + 16.0;

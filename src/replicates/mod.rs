@@ -209,6 +209,9 @@ pub struct Replicates {
     pub length_um: f64,
     /// Nucleus spacing along the axis, µm.
     pub spacing_um: f64,
+    /// True on a sheet: profiles, boundaries and spreads are those of the
+    /// mean over the central strip of rows (as every readout of a sheet).
+    pub sheet: bool,
     /// Per snapshot and reference boundary.
     pub boundaries: Vec<BoundaryPrecision>,
     /// Per domain of the reference embryo at the last snapshot.
@@ -226,15 +229,20 @@ impl Replicates {
         self.boundaries.iter().filter(move |b| readout::same_time(b.time_min, last))
     }
 
-    /// The decoded positional error at a position, µm (linear between nuclei).
+    /// The decoded positional error at a position, µm: linear between the
+    /// two nearest nuclei, or the nearer one's value where either is not
+    /// finite (nothing decoded, or position not readable).
     pub fn decoded_at(&self, x_um: f64) -> f64 {
         let h = self.spacing_um;
         let f = (x_um / h - 0.5).clamp(0.0, (self.decoded_um.len() - 1) as f64);
         let i = (f.floor() as usize).min(self.decoded_um.len().saturating_sub(2));
         let w = f - i as f64;
         match self.decoded_um.get(i + 1) {
-            Some(next) => (1.0 - w) * self.decoded_um[i] + w * next,
-            None => self.decoded_um[i],
+            Some(next) if next.is_finite() && self.decoded_um[i].is_finite() => {
+                (1.0 - w) * self.decoded_um[i] + w * next
+            }
+            Some(next) if w > 0.5 => *next,
+            _ => self.decoded_um[i],
         }
     }
 }
@@ -374,6 +382,7 @@ pub fn run(
         times,
         length_um: length,
         spacing_um: model.grid.spacing_um,
+        sheet: model.grid.is_sheet(),
         boundaries,
         widths,
         profiles,

@@ -37,12 +37,13 @@ pub const SCAN_LN: f64 = 0.1;
 /// Widest secant range for a pinned boundary, ln p.
 pub const MAX_SECANT_LN: f64 = 0.8;
 
-/// How one wild-type boundary responds to one parameter.
-#[derive(Debug, Clone, PartialEq, Serialize, Default)]
+/// How one wild-type boundary responds to one parameter: a row of
+/// `sensitivity.csv` (numbers in the csv crate's form; an empty cell for None).
+#[derive(Debug, Clone, PartialEq, Serialize, serde::Deserialize, Default)]
 pub struct SensitivityRow {
     /// Parameter name.
     pub parameter: String,
-    /// Its wild-type value.
+    /// Its wild-type value, in the unit of its key in the model file.
     pub value: f64,
     /// Gene of the boundary.
     pub gene: String,

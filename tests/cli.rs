@@ -291,6 +291,24 @@ fn synthesize_measure_compare_round_trip() {
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     assert!(imgs.join("embryo_01_check.png").is_file());
     let table = std::fs::read_to_string(imgs.join("measured.csv")).unwrap();
+    // --json: the same rows as measured.csv on standard output, the report on standard error.
+    let o = anlage(&[
+        "measure",
+        imgs.to_str().unwrap(),
+        "--channel",
+        "0=amber",
+        "--channel",
+        "1=cobalt",
+        "--time",
+        "240",
+        "--json",
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let doc: serde_json::Value = serde_json::from_slice(&o.stdout).expect("one JSON document");
+    assert_eq!((doc["kind"].as_str(), doc["model_prediction"].as_bool()), (Some("measure"), Some(false)));
+    assert_eq!(doc["boundaries"].as_array().unwrap().len(), table.lines().count() - 1);
+    assert_eq!(doc["embryos"], 2);
+    assert!(String::from_utf8_lossy(&o.stderr).contains("embryos measured"));
     assert_eq!(table.lines().count(), 3, "{table}");
     let o = anlage(&["compare", out.to_str().unwrap(), imgs.join("measured.csv").to_str().unwrap()]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));

@@ -478,4 +478,7 @@ pub struct MeasureArgs {
     /// profiles, embryos table or check pictures).
     #[arg(short, long)]
     pub out: Option<PathBuf>,
+    /// Print what was measured as one JSON document on standard output (the report goes to standard error).
+    #[arg(long)]
+    pub json: bool,
 }

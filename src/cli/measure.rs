@@ -112,7 +112,7 @@ fn measure_image(args: &MeasureArgs, path: &Path) -> anyhow::Result<ImageMeasure
     };
     let options = MeasureOptions { channels: channels.clone(), head, contrast, outline };
     let m = measure::measure(&planes, &options)?;
-    let report = Report::for_out(args.out.as_deref());
+    let report = Report { to_stderr: Report::for_out(args.out.as_deref()).to_stderr || args.json };
     let how = if m.contrast_how == "given" { "given".to_string() } else { m.contrast_how.clone() };
     say!(report, "{}: stain {}, {how}; outline from {}", path.display(), m.contrast.describe(), m.outline_how);
     for e in &m.embryos {
@@ -177,8 +177,12 @@ pub fn measure_verb(args: &MeasureArgs) -> anyhow::Result<()> {
             bail!(bad_option("--out", &o.display().to_string(), "name a .csv table; it must not be one of the images"));
         }
     }
-    let report = Report::for_out(args.out.as_deref());
+    refuse_json_with_stdout(args.out.as_deref(), args.json)?;
+    let report = Report { to_stderr: Report::for_out(args.out.as_deref()).to_stderr || args.json };
     let (mut rows, mut profiles, mut names, mut failures) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+    let mut notes_seen: Vec<String> = Vec::new();
+    let mut written: Vec<PathBuf> = Vec::new();
+    let mut aggregated_rows = None;
     for path in &images {
         match measure_image(args, path) {
             Ok(m) => {
@@ -221,6 +225,8 @@ pub fn measure_verb(args: &MeasureArgs) -> anyhow::Result<()> {
             for n in &notes {
                 say!(report, "  note: {n}");
             }
+            notes_seen.extend(notes.iter().map(|n| n.to_string()));
+            aggregated_rows = Some(aggregated.clone());
             &aggregated
         } else {
             &rows
@@ -229,15 +235,36 @@ pub fn measure_verb(args: &MeasureArgs) -> anyhow::Result<()> {
             write_table_to_stdout(|w| anlage::export::write_rows_to(table, w))?;
         } else {
             anlage::export::write_measured(table, &out)?;
+            written.push(out.clone());
             if folder {
                 anlage::export::write_measured(&rows, &beside("embryos"))?;
+                written.push(beside("embryos"));
                 say!(report, "wrote {} (mean and sd per boundary) and {}", out.display(), beside("embryos").display());
             } else {
                 say!(report, "wrote {} (measured from images)", out.display());
             }
             anlage::export::write_measured_profiles(&profiles, &beside("profiles"))?;
+            written.push(beside("profiles"));
             say!(report, "wrote {} (profiles along the axis)", beside("profiles").display());
         }
+    }
+    if args.json {
+        let failed: Vec<serde_json::Value> =
+            failures.iter().map(|(p, why)| serde_json::json!({ "image": p, "why": why })).collect();
+        println!(
+            "{}",
+            serde_json::json!({
+                "kind": "measure",
+                "model_prediction": false,
+                "images": images.len(),
+                "embryos": names.len(),
+                "boundaries": aggregated_rows.as_ref().unwrap_or(&rows),
+                "embryo_boundaries": if folder { serde_json::json!(rows) } else { serde_json::Value::Null },
+                "notes": notes_seen,
+                "not_measured": failed,
+                "files": written,
+            })
+        );
     }
     if !failures.is_empty() {
         say!(report, "could not measure {} of {} images:", failures.len(), images.len());

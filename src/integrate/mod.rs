@@ -1,13 +1,16 @@
 //! Time integration: IMEX schemes (diffusion implicit, reactions explicit),
-//! second-order SBDF2 (`stepper`, the default) or fourth-order ARK4(3)
-//! (`ark`), with fixed or error-controlled steps, landing exactly on every
+//! each a [`TimeScheme`] in a file of its own — second-order SBDF2
+//! (`sbdf2`, the default) or fourth-order ARK4(3) (`ark4`), registered in
+//! `scheme` — with fixed or error-controlled steps, landing exactly on every
 //! snapshot time.
 
-mod ark;
+mod ark4;
 mod checkpoint;
 mod reactions;
 mod recording;
 pub mod safety;
+mod sbdf2;
+mod scheme;
 mod stepper;
 
 use ndarray::Array2;
@@ -15,15 +18,12 @@ use rand::{RngExt, SeedableRng};
 
 pub use checkpoint::{Checkpoint, CheckpointError, CheckpointParts, Progress, StepperState};
 pub use recording::{ReadBackError, Recording, STREAM_ABOVE_BYTES};
+pub use scheme::{Scheme, TimeScheme};
 pub use stepper::{Forcing, Stepper};
 
 use crate::kinetics::Kinetics;
-use crate::model::{Initial, Model, Scheme, Stepping};
+use crate::model::{Initial, Model, Stepping};
 use crate::tissue::Tissue;
-
-/// Largest growth of the step from one step to the next. Variable-step BDF2
-/// is zero-stable for ratios below 1 + √2 (Grigorieff 1983, Numer. Math. 42:359).
-pub const MAX_STEP_RATIO: f64 = 2.0;
 
 /// Proposed growth factors below this keep the step unchanged.
 const STEP_HOLD: f64 = 1.2;
@@ -406,7 +406,8 @@ pub fn least_steps(model: &Model) -> f64 {
         Stepping::Adaptive { max_step_min, .. } => {
             let by_cap = (until / max_step_min).ceil();
             let rate = if model.genes.len() > safety::MAX_GENES_CHECKED { 0.0 } else { reaction_stiffness(model) };
-            if rate > 0.0 { by_cap.max((until * rate / explicit_stability(model.clock.scheme)).ceil()) } else { by_cap }
+            let edge = model.clock.scheme.explicit_stability();
+            if rate > 0.0 { by_cap.max((until * rate / edge).ceil()) } else { by_cap }
         }
     }
 }
@@ -416,22 +417,12 @@ pub fn least_seconds(model: &Model) -> f64 {
     least_steps(model) * model.grid.len() as f64 * model.genes.len() as f64 / THROUGHPUT
 }
 
-/// Largest `k·|λ|` on the negative real axis for which a scheme's explicit
-/// (reaction) part is stable: 4/3 for SBDF2 (see [`reaction_stiffness`]),
-/// 4.23 for ARK4(3)6L\[2\]SA (see `ark::EXPLICIT_STABILITY`).
-pub fn explicit_stability(scheme: Scheme) -> f64 {
-    match scheme {
-        Scheme::Sbdf2 => 4.0 / 3.0,
-        Scheme::Ark4 => ark::EXPLICIT_STABILITY,
-    }
-}
-
 /// Fastest reaction rate at the start, 1/min: the largest Gershgorin bound
 /// `max_g Σ_j |∂f_g/∂u_j|` of the reaction Jacobian over (up to 1000 evenly
-/// spread) nuclei of the initial state. The explicit reaction part of SBDF2
-/// is stable for `k·|λ| < 4/3` on a real negative eigenvalue λ (the root of
-/// `3ξ² − 4(1+z)ξ + (1+2z)` reaches ξ = −1 at z = kλ = −4/3; derived here, no
-/// source), so steps much longer than `4/(3·rate)` cannot be taken.
+/// spread) nuclei of the initial state. A scheme's explicit reaction part is
+/// stable for `k·|λ|` up to its [`Scheme::explicit_stability`] on a real
+/// negative eigenvalue λ (SBDF2: 4/3), so steps much longer than that over
+/// the rate cannot be taken.
 pub fn reaction_stiffness(model: &Model) -> f64 {
     let kinetics = crate::kinetics::build(model);
     let tissue = Tissue::new(model);

@@ -4,13 +4,8 @@
 //! along the whole trajectory, not only at the start (a sharpening boundary
 //! or a switching nucleus can be much stiffer than the initial state).
 //!
-//! Regions (test equation y′ = λy taken explicitly, z = kλ):
-//! - SBDF2: the roots ζ of `3ζ² − (4 + 4z)ζ + (1 + 2z) = 0`; on the negative
-//!   real axis stable up to z = −4/3 (Ascher, Ruuth & Wetton 1995, SIAM J.
-//!   Numer. Anal. 32:797, the SBDF scheme; the edge derived here).
-//! - ARK4(3)6L\[2\]SA: `R(z) = 1 + z bᵀ(I − zA)⁻¹𝟙` of the explicit tableau
-//!   (Kennedy & Carpenter 2003, Appl. Numer. Math. 44:139; edge −4.2345 on the
-//!   real axis, computed by tests/reference/ark4_tableau.py).
+//! Each scheme's region (test equation y′ = λy taken explicitly, z = kλ) is
+//! given by its amplification, [`super::TimeScheme::amplification`].
 //!
 //! A nucleus's mode counts as unstable when the scheme amplifies it per step
 //! by more than the exact flow does (or by more than 1 for a decaying mode),
@@ -21,9 +16,8 @@
 use nalgebra::{Complex, DMatrix};
 use ndarray::Array2;
 
-use super::ark;
+use super::Scheme;
 use crate::kinetics::Kinetics;
-use crate::model::Scheme;
 
 /// Spurious growth per step tolerated at most (0.1 %).
 pub const SLACK: f64 = 1e-3;
@@ -38,28 +32,6 @@ pub fn slack(k: f64, horizon: f64) -> f64 {
     per_run.min(SLACK.ln_1p()).exp()
 }
 
-/// Largest amplification per step of the explicit part at z = kλ.
-pub fn amplification(scheme: Scheme, z: Complex<f64>) -> f64 {
-    match scheme {
-        Scheme::Sbdf2 => {
-            let one = Complex::new(1.0, 0.0);
-            let b = (one + z) * 4.0;
-            let c = (one + z * 2.0) * 3.0;
-            let root = (b * b - c * 4.0).sqrt();
-            ((b + root) / 6.0).norm().max(((b - root) / 6.0).norm())
-        }
-        Scheme::Ark4 => {
-            let mut g = [Complex::new(0.0, 0.0); 6];
-            for i in 0..6 {
-                let sum: Complex<f64> = (0..i).map(|j| g[j] * ark::AE[i][j]).sum();
-                g[i] = Complex::new(1.0, 0.0) + z * sum;
-            }
-            let bg: Complex<f64> = (0..6).map(|i| g[i] * ark::B[i]).sum();
-            (Complex::new(1.0, 0.0) + z * bg).norm()
-        }
-    }
-}
-
 /// True when step `k` is stable for the mode λ: the scheme amplifies it per
 /// step by no more than the exact flow does (|e^{kλ}|, or 1 for a decaying
 /// mode) times the [`slack`] for a run of `horizon` min. A mode on or near
@@ -67,7 +39,7 @@ pub fn amplification(scheme: Scheme, z: Complex<f64>) -> f64 {
 /// explicit scheme that amplifies it grows the oscillation without bound.
 pub fn stable(scheme: Scheme, lambda: Complex<f64>, k: f64, horizon: f64) -> bool {
     let exact = (lambda.re * k).exp().max(1.0);
-    amplification(scheme, lambda * k) <= exact * slack(k, horizon)
+    scheme.amplification(lambda * k) <= exact * slack(k, horizon)
 }
 
 /// The longest step that is stable for λ and for every shorter step: scanned
@@ -311,7 +283,7 @@ pub fn picks(
 /// The unstable mode in words: its amplification per step and, when that is
 /// close to 1, how far it drifts from the exact flow over the run.
 fn describe(scheme: Scheme, lambda: Complex<f64>, k: f64, horizon: f64) -> String {
-    let amp = amplification(scheme, lambda * k);
+    let amp = scheme.amplification(lambda * k);
     let exact = (lambda.re * k).exp().max(1.0);
     let mut s =
         format!("its reactions have a mode λ = {:.3e}{:+.3e}i /min, which this step amplifies ", lambda.re, lambda.im);
@@ -431,9 +403,9 @@ mod tests {
         let long = stable_step(Scheme::Sbdf2, Complex::new(0.0, 1.0), 200.0);
         assert!(long < spin, "{long} {spin}");
         let k = 0.99 * long;
-        let drift = amplification(Scheme::Sbdf2, Complex::new(0.0, k)).powf(200.0 / k);
+        let drift = Scheme::Sbdf2.amplification(Complex::new(0.0, k)).powf(200.0 / k);
         assert!(drift <= 1.05 + 1e-9 && drift > 1.03, "{drift}");
-        assert!(amplification(Scheme::Sbdf2, Complex::new(0.0, 0.5)) > 1.05);
+        assert!(Scheme::Sbdf2.amplification(Complex::new(0.0, 0.5)) > 1.05);
     }
 
     /// Every eigenvalue inside the safe disk is stable: random points of the
@@ -461,8 +433,8 @@ mod tests {
     fn amplification_matches_the_exponential_near_zero() {
         for z in [Complex::new(-0.01, 0.0), Complex::new(-0.005, 0.008), Complex::new(0.0, 0.01)] {
             let exact = z.exp().norm();
-            assert!((amplification(Scheme::Ark4, z) - exact).abs() < 1e-9, "{z}");
-            assert!((amplification(Scheme::Sbdf2, z) - exact).abs() < 1e-5, "{z}");
+            assert!((Scheme::Ark4.amplification(z) - exact).abs() < 1e-9, "{z}");
+            assert!((Scheme::Sbdf2.amplification(z) - exact).abs() < 1e-5, "{z}");
         }
     }
 }

@@ -16,11 +16,11 @@
 use ndarray::{Array2, Zip};
 use rayon::prelude::*;
 
+use super::Scheme;
 use super::StepError;
-use super::ark::Ark;
+use super::ark4::Ark;
 use super::reactions::Reactions;
 use crate::kinetics::{CHUNK, Kinetics};
-use crate::model::Scheme;
 use crate::simd::with_avx2;
 use crate::tissue::{Diffusion, Rhs, Tissue};
 
@@ -89,6 +89,8 @@ pub struct Stepper<'a> {
     ark: Option<Box<Ark>>,
     /// Every attempt is accepted and no error is estimated (see [`Self::accept_every_step`]).
     accepts_every_step: bool,
+    /// The scheme.
+    scheme: Scheme,
 }
 
 /// Changes to the plain reaction–diffusion system made by mutants.
@@ -132,6 +134,7 @@ impl<'a> Stepper<'a> {
             k2: 0.0,
             ark: None,
             accepts_every_step: false,
+            scheme: Scheme::Sbdf2,
         };
         s.reactions.clamp(&mut s.u);
         s.reactions.eval(s.t, &s.u, &mut s.f)?;
@@ -140,6 +143,7 @@ impl<'a> Stepper<'a> {
 
     /// Steps with `scheme` from now on (SBDF2 unless told).
     pub fn with_scheme(mut self, scheme: Scheme) -> Stepper<'a> {
+        self.scheme = scheme;
         self.ark = match scheme {
             Scheme::Sbdf2 => None,
             Scheme::Ark4 => {
@@ -151,19 +155,14 @@ impl<'a> Stepper<'a> {
         self
     }
 
-    /// Exponent of the step-size controller: the local error estimate
-    /// scales as kᵖ⁺¹, p the order of the lower member of the pair (SBDF2
-    /// against its predictor: p = 2; ARK4(3): p = 3).
+    /// Exponent of the step-size controller ([`Scheme::error_exponent`]).
     pub fn error_exponent(&self) -> f64 {
-        if self.ark.is_some() { 1.0 / 4.0 } else { 1.0 / 3.0 }
+        self.scheme.error_exponent()
     }
 
-    /// Largest growth of the step from one step to the next: SBDF2's
-    /// zero-stability bound (see [`super::MAX_STEP_RATIO`]); 5 for the one-step
-    /// ARK scheme (the usual cap of embedded Runge–Kutta codes, Hairer,
-    /// Nørsett & Wanner, Solving ODEs I, §II.4, "facmax" between 1.5 and 5).
+    /// Largest growth of the step from one step to the next ([`Scheme::max_growth`]).
     pub fn max_growth(&self) -> f64 {
-        if self.ark.is_some() { 5.0 } else { super::MAX_STEP_RATIO }
+        self.scheme.max_growth()
     }
 
     /// Current time, min.

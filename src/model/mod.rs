@@ -15,6 +15,7 @@ mod validate_circuit;
 
 use std::path::{Path, PathBuf};
 
+pub use crate::integrate::Scheme;
 pub use error::ModelError;
 pub use level::{BLANK, Level};
 pub use mutant::{Ectopic, Edit, Mutant};
@@ -131,17 +132,15 @@ impl Model {
         self.working_bytes() + self.recording_bytes().min(stream_above_bytes())
     }
 
-    /// Bytes of the integrator's working arrays: state history and rates (7 per
-    /// gene; the ARK scheme adds 13: two per stage, D∇²u, the stage levels and
-    /// the error estimate), input rows (gradients, x, t, neighbour means) and
-    /// the gradient shapes, plus two spare fields for solver scratch.
+    /// Bytes of the integrator's working arrays: per gene, the stepper's
+    /// state, rates and trial step plus one spare (4) and the scheme's own
+    /// ([`Scheme::arrays_per_gene`]: SBDF2 3, for 7 in all), input rows
+    /// (gradients, x, t, neighbour means) and the gradient shapes, plus two
+    /// spare fields for solver scratch.
     pub fn working_bytes(&self) -> u64 {
         let per_field = self.grid.len() as u64 * 8;
         let genes = self.genes.len() as u64;
-        let per_gene = match self.clock.scheme {
-            Scheme::Sbdf2 => 7,
-            Scheme::Ark4 => 7 + 13,
-        };
+        let per_gene = 4 + self.clock.scheme.arrays_per_gene();
         let inputs = self.gradients.len() as u64 + 2 + if self.circuit.neighbours { genes } else { 0 };
         (per_gene * genes + inputs + self.gradients.len() as u64 + 2) * per_field
     }
@@ -224,29 +223,6 @@ pub enum Stepping {
         /// Largest step, min.
         max_step_min: f64,
     },
-}
-
-/// The IMEX time-stepping scheme (diffusion implicit, reactions explicit).
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
-pub enum Scheme {
-    /// Second-order semi-implicit BDF (SBDF2), one solve and one rate
-    /// evaluation per step; error control by a predictor (Milne's device).
-    #[default]
-    Sbdf2,
-    /// Fourth-order additive Runge–Kutta ARK4(3)6L\[2\]SA (Kennedy & Carpenter
-    /// 2003, Appl. Numer. Math. 44:139), five solves and five rate
-    /// evaluations per step; error control by its embedded third-order pair.
-    Ark4,
-}
-
-impl Scheme {
-    /// Name in model files.
-    pub fn key(self) -> &'static str {
-        match self {
-            Scheme::Sbdf2 => "sbdf2",
-            Scheme::Ark4 => "ark4",
-        }
-    }
 }
 
 /// Time span, snapshots and step control.

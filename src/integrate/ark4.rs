@@ -13,10 +13,12 @@
 //! state is applied explicitly. Every stage solves with the same `γk`, so a
 //! row's tridiagonal factorisation is made once per step size.
 
+use nalgebra::Complex;
 use ndarray::Array2;
 
 use super::StepError;
 use super::reactions::Reactions;
+use super::scheme::TimeScheme;
 use crate::simd::with_avx2;
 use crate::tissue::Diffusion;
 
@@ -84,11 +86,43 @@ pub const B_HAT: [f64; S] = [
 /// Stage times as fractions of the step.
 pub const C: [f64; S] = [0.0, 0.5, 83.0 / 250.0, 31.0 / 50.0, 17.0 / 20.0, 1.0];
 
-/// The explicit part is stable on the negative real axis for `k|λ| ≤ 4.23`
-/// (largest x with |R(−x′)| ≤ 1 on (0, x], R the explicit tableau's stability
-/// function; computed here by tests/reference/ark4_tableau.py, no published
-/// value).
-pub const EXPLICIT_STABILITY: f64 = 4.23;
+/// The ARK4(3)6L\[2\]SA scheme.
+pub struct Ark4;
+
+impl TimeScheme for Ark4 {
+    const KEY: &'static str = "ark4";
+    const NAME: &'static str = "ARK4(3)6L[2]SA";
+    const ADVICE: &'static str =
+        "fourth order: fewer, costlier steps, best with error-controlled steps at tight tolerances";
+    const ORDER: u32 = 4;
+    /// The embedded third-order solution.
+    const ESTIMATE_ORDER: u32 = 3;
+    /// The usual cap of embedded Runge–Kutta codes (Hairer, Nørsett &
+    /// Wanner, Solving ODEs I, §II.4, "facmax" between 1.5 and 5): a one-step
+    /// scheme has no ratio limit of its own.
+    const MAX_GROWTH: f64 = 5.0;
+    /// Stable on the negative real axis for `k|λ| ≤ 4.23` (largest x with
+    /// |R(−x′)| ≤ 1 on (0, x], R the explicit tableau's stability function;
+    /// computed here by tests/reference/ark4_tableau.py, no published value).
+    const EXPLICIT_STABILITY: f64 = 4.23;
+    /// Two per stage after the first (fᴱ, fᴵ), D∇²u, the stage levels and the
+    /// error estimate (13), and, for now, the SBDF2 history the stepper holds (3).
+    const ARRAYS_PER_GENE: u64 = 13 + 3;
+
+    /// `|R(z)|`, `R(z) = 1 + z bᵀ(I − zA)⁻¹𝟙` of the explicit tableau (Kennedy
+    /// & Carpenter 2003, Appl. Numer. Math. 44:139; Hairer & Wanner, Solving
+    /// ODEs II, §IV.2); edge −4.2345 on the real axis (computed by
+    /// tests/reference/ark4_tableau.py).
+    fn amplification(z: Complex<f64>) -> f64 {
+        let mut g = [Complex::new(0.0, 0.0); S];
+        for i in 0..S {
+            let sum: Complex<f64> = (0..i).map(|j| g[j] * AE[i][j]).sum();
+            g[i] = Complex::new(1.0, 0.0) + z * sum;
+        }
+        let bg: Complex<f64> = (0..S).map(|i| g[i] * B[i]).sum();
+        (Complex::new(1.0, 0.0) + z * bg).norm()
+    }
+}
 
 /// ARK working arrays, allocated once.
 pub(super) struct Ark {
@@ -329,12 +363,12 @@ mod tests {
         1.0 + z * dot(&B, &g)
     }
 
-    /// [`EXPLICIT_STABILITY`]: |R(−x)| ≤ 1 for every x up to it, and not
+    /// [`Ark4::EXPLICIT_STABILITY`]: |R(−x)| ≤ 1 for every x up to it, and not
     /// much beyond (tests/reference/ark4_tableau.py finds the edge at 4.2345).
     #[test]
     fn explicit_stability_edge() {
         for i in 1..=4230 {
-            let x = i as f64 * EXPLICIT_STABILITY / 4230.0;
+            let x = i as f64 * Ark4::EXPLICIT_STABILITY / 4230.0;
             assert!(explicit_r(-x).abs() <= 1.0 + 1e-12, "|R(-{x})| = {}", explicit_r(-x).abs());
         }
         assert!(explicit_r(-4.24).abs() > 1.0);

@@ -182,6 +182,7 @@ fn fixed_steps_in_place_give_the_same_bytes_as_the_general_path() {
                 let mut s = Stepper::new(
                     kinetics.as_ref(),
                     &tissue,
+                    anlage::model::Scheme::Sbdf2,
                     &d,
                     names.clone(),
                     initial_state(&model),
@@ -213,7 +214,8 @@ fn fixed_steps_in_place_give_the_same_bytes_as_the_general_path() {
 
 /// An ARK run continued from a checkpoint taken after any accepted step
 /// gives the same bytes as the uninterrupted run: the checkpoint holds the
-/// state, its rates and D∇² of it (the stages are rebuilt from these).
+/// state (its rates and D∇² of it are evaluated again; the stages are
+/// rebuilt from these).
 #[test]
 fn ark4_runs_resume_to_the_same_bytes() {
     use anlage::integrate::{Checkpoint, integrate_from};
@@ -260,4 +262,44 @@ fn ark4_runs_resume_to_the_same_bytes() {
     .unwrap();
     assert!(end.steps > 37 && resumed.len() > 10, "{end:?}");
     assert_eq!(resumed[..], full[full.len() - resumed.len()..]);
+}
+
+/// Checkpoints of format 2, written by anlage before each scheme had a type
+/// of its own (tests/reference/checkpoint_v2.sh: the ribbon with short
+/// steps, stopped by a signal), still resume: the snapshots they hold are an
+/// uninterrupted run's, and continuing from them gives that run's bytes.
+/// Both schemes of that version (the rates and ARK4's D∇²u that format 2
+/// stored are evaluated again). Common practice, no source.
+#[test]
+fn format_2_checkpoints_resume_to_the_same_bytes() {
+    use anlage::integrate::{Checkpoint, integrate, integrate_from};
+    use anlage::model::{Model, Scheme};
+    for scheme in [Scheme::Sbdf2, Scheme::Ark4] {
+        let file = root().join(format!("tests/reference/checkpoint_v2_{}.bin", scheme.key()));
+        let checkpoint = Checkpoint::read(&file).unwrap();
+        let model = Model::from_toml(&checkpoint.model_text, &checkpoint.model_path).unwrap();
+        checkpoint.check_fits(&model, &file).unwrap();
+        assert_eq!((model.clock.scheme, checkpoint.stepper.scheme), (scheme, scheme));
+        let kinetics = anlage::kinetics::build(&model);
+        let tissue = anlage::tissue::Tissue::new(&model);
+        let mut full = Vec::new();
+        integrate(&model, kinetics.as_ref(), &tissue, false, |t, u| full.push((t, u.clone()))).unwrap();
+        let mut resumed: Vec<_> = checkpoint.times.iter().copied().zip(checkpoint.states.iter().cloned()).collect();
+        let held = resumed.len();
+        integrate_from(
+            &model,
+            kinetics.as_ref(),
+            &tissue,
+            false,
+            Some(&checkpoint),
+            |t, u| resumed.push((t, u.clone())),
+            |_, _, _| true,
+        )
+        .unwrap();
+        assert!(held >= 1 && resumed.len() > held, "{scheme:?}: {held} snapshots held, {} in all", resumed.len());
+        assert_eq!(resumed.len(), full.len(), "{scheme:?}");
+        for (i, (a, b)) in resumed.iter().zip(&full).enumerate() {
+            assert!(a == b, "{scheme:?}: snapshot {i} at t = {} differs", b.0);
+        }
+    }
 }

@@ -18,7 +18,7 @@ use rand::{RngExt, SeedableRng};
 
 pub use checkpoint::{Checkpoint, CheckpointError, CheckpointParts, Progress, StepperState};
 pub use recording::{ReadBackError, Recording, STREAM_ABOVE_BYTES};
-pub use scheme::{Scheme, TimeScheme};
+pub use scheme::{History, Scheme, TimeScheme};
 pub use stepper::{Forcing, Stepper};
 
 use crate::kinetics::Kinetics;
@@ -218,12 +218,13 @@ fn integrate_on_worker(
 ) -> Result<StepStats, StepError> {
     let names = model.genes.iter().map(|g| g.name.clone()).collect();
     let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
-    let mut stepper = Stepper::new(kinetics, tissue, &d, names, initial_state(model), 0.0, parallel, forcing(model))?
-        .with_scheme(model.clock.scheme);
+    let scheme = model.clock.scheme;
+    let mut stepper =
+        Stepper::new(kinetics, tissue, scheme, &d, names, initial_state(model), 0.0, parallel, forcing(model))?;
     let times = model.clock.snapshot_times();
     let (mut stats, mut progress) = match resume {
         Some(c) => {
-            stepper.restore(&c.stepper);
+            stepper.restore(&c.stepper)?;
             (c.stats, c.progress)
         }
         None => {
@@ -310,7 +311,7 @@ fn integrate_on_worker(
                     let remaining = target - stepper.time();
                     let mut k_try = progress.next_step_min.min(max_step_min);
                     if stepper.last_step() > 0.0 {
-                        k_try = k_try.min(stepper.max_growth() * stepper.last_step());
+                        k_try = k_try.min(scheme.max_growth() * stepper.last_step());
                     }
                     let mut rejected_here = false;
                     loop {
@@ -332,7 +333,7 @@ fn integrate_on_worker(
                         stepper.attempt(k_try);
                         let err = stepper.error_norm(k_try, rtol, atol);
                         let factor =
-                            if err > 0.0 { 0.9 * err.powf(-stepper.error_exponent()) } else { stepper.max_growth() };
+                            if err > 0.0 { 0.9 * err.powf(-scheme.error_exponent()) } else { scheme.max_growth() };
                         if err <= 1.0 {
                             let t_new = if landing { target } else { stepper.time() + k_try };
                             stepper.accept(k_try, t_new)?;
@@ -343,7 +344,7 @@ fn integrate_on_worker(
                             // small proposed changes; CVODE's threshold is 1.5,
                             // from memory. Ours is 1.2, which keeps the
                             // tol^(2/3) error scaling the tests check).
-                            let mut grow = factor.clamp(0.2, stepper.max_growth());
+                            let mut grow = factor.clamp(0.2, scheme.max_growth());
                             if rejected_here {
                                 // No growth right after a rejection (Hairer,
                                 // Nørsett & Wanner, Solving ODEs I, §II.4, after

@@ -283,7 +283,7 @@ impl TimeLoop<'_, '_> {
             self.progress.steps_taken = n;
             let next = self.progress.next_snapshot;
             let at_snapshot = next < times.len() && steps.reaches(n, times[next]);
-            if n == 1 || n % SAFETY_EVERY == 0 || at_snapshot {
+            if n == 1 || n.is_multiple_of(SAFETY_EVERY) || at_snapshot {
                 let u = stepper.state();
                 let m = tissue.inputs_with_state(t_new, u);
                 let nuclei = safety::picks(u, stepper.rates(), round, flagged, &mut scores);

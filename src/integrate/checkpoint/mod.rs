@@ -355,7 +355,7 @@ mod tests {
     /// array filled from `x` and `y` in turn.
     fn saved(scheme: Scheme, x: f64, y: f64) -> StepperState {
         let state = |v: f64| Array2::from_elem((1, 3), v);
-        let pick = |i: usize| if i % 2 == 0 { x } else { y };
+        let pick = |i: usize| if i.is_multiple_of(2) { x } else { y };
         StepperState {
             scheme,
             t: x,

@@ -6,7 +6,7 @@
 //! each hard case (faint single plane, bright-field, two embryos, one cut by
 //! the frame). Errors are in % of the embryo's length.
 
-#[allow(dead_code)]
+#[allow(dead_code, unused_imports)]
 #[path = "../tests/imaging/mod.rs"]
 mod imaging;
 

@@ -3,7 +3,7 @@
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
-use anlage::model::{Model, Stepping};
+use anlage::model::{Model, Scheme, Stepping};
 use anlage::{Run, RunOptions, simulate};
 
 /// Repository root.
@@ -37,6 +37,13 @@ pub fn with_step(model: &Model, step_min: f64) -> Model {
 pub fn with_tolerance(model: &Model, tol: f64) -> Model {
     let mut m = model.clone();
     m.clock.stepping = Stepping::Adaptive { rtol: tol, atol: tol, max_step_min: m.clock.snapshot_every_min };
+    m
+}
+
+/// The same model with `scheme`.
+pub fn with_scheme(model: &Model, scheme: Scheme) -> Model {
+    let mut m = model.clone();
+    m.clock.scheme = scheme;
     m
 }
 

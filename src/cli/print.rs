@@ -125,7 +125,7 @@ pub fn describe(m: &Model) -> String {
     let large = m.genes.len() > anlage::integrate::safety::MAX_GENES_CHECKED;
     let rate = if large { 0.0 } else { anlage::integrate::reaction_stiffness(m) };
     if rate > 0.0 {
-        let k_max = anlage::integrate::explicit_stability(m.clock.scheme) / rate;
+        let k_max = m.clock.scheme.explicit_stability() / rate;
         let _ = writeln!(
             s,
             "stiffness fastest reaction rate {rate:.3e} /min at the start (a decay that fast alone allows fixed steps up to ~{k_max:.3e} min)"

@@ -2,7 +2,7 @@
 //! and the recording take, whether the recording streams to a scratch file,
 //! and the budget a model must fit (checked when the model is loaded).
 
-use crate::model::{Model, Scheme};
+use crate::model::Model;
 
 /// A recording above this size is streamed to disk when a scratch folder is
 /// given, bytes (common practice, no source: a quarter of a GiB leaves room
@@ -65,17 +65,15 @@ impl MemoryPlan {
     }
 }
 
-/// Bytes of the integrator's working arrays: state history and rates (7 per
-/// gene; the ARK scheme adds 13: two per stage, D∇²u, the stage levels and
-/// the error estimate), input rows (gradients, x, t, neighbour means) and
-/// the gradient shapes, plus two spare fields for solver scratch.
+/// Bytes of the integrator's working arrays: per gene, the stepper's
+/// state, rates and trial step plus one spare (4) and the scheme's own
+/// ([`crate::model::Scheme::arrays_per_gene`]: SBDF2 3, for 7 in all), input
+/// rows (gradients, x, t, neighbour means) and the gradient shapes, plus two
+/// spare fields for solver scratch.
 fn working_bytes(model: &Model) -> u64 {
     let per_field = model.grid.len() as u64 * 8;
     let genes = model.genes.len() as u64;
-    let per_gene = match model.clock.scheme {
-        Scheme::Sbdf2 => 7,
-        Scheme::Ark4 => 7 + 13,
-    };
+    let per_gene = 4 + model.clock.scheme.arrays_per_gene();
     let inputs = model.gradients.len() as u64 + 2 + if model.circuit.neighbours { genes } else { 0 };
     (per_gene * genes + inputs + model.gradients.len() as u64 + 2) * per_field
 }

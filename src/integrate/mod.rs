@@ -1,14 +1,18 @@
 //! Time integration: IMEX schemes (diffusion implicit, reactions explicit),
-//! second-order SBDF2 (`stepper`, the default) or fourth-order ARK4(3)
-//! (`ark`), with fixed or error-controlled steps, landing exactly on every
+//! each a [`TimeScheme`] in a file of its own — second-order SBDF2
+//! (`sbdf2`, the default) or fourth-order ARK4(3) (`ark4`), registered in
+//! `scheme` — with fixed or error-controlled steps, landing exactly on every
 //! snapshot time.
 
-mod ark;
+mod ark4;
 mod checkpoint;
+mod control;
 pub mod memory;
 mod reactions;
 mod recording;
 pub mod safety;
+mod sbdf2;
+mod scheme;
 mod stepper;
 pub mod stochastic;
 
@@ -16,20 +20,15 @@ use ndarray::Array2;
 use rand::{RngExt, SeedableRng};
 
 pub use checkpoint::{Checkpoint, CheckpointError, CheckpointParts, Progress, StepperState};
+pub use control::{ErrorControl, FixedSteps, StepControl, Verdict};
 pub use memory::{MemoryPlan, STREAM_ABOVE_BYTES};
 pub use recording::{ReadBackError, Recording};
+pub use scheme::{History, Scheme, TimeScheme};
 pub use stepper::{Forcing, Stepper};
 
 use crate::kinetics::Kinetics;
-use crate::model::{Initial, Model, Scheme, Stepping};
+use crate::model::{Initial, Model, Stepping};
 use crate::tissue::Tissue;
-
-/// Largest growth of the step from one step to the next. Variable-step BDF2
-/// is zero-stable for ratios below 1 + √2 (Grigorieff 1983, Numer. Math. 42:359).
-pub const MAX_STEP_RATIO: f64 = 2.0;
-
-/// Proposed growth factors below this keep the step unchanged.
-const STEP_HOLD: f64 = 1.2;
 
 /// A run that could not go on.
 #[derive(Debug, thiserror::Error)]
@@ -217,181 +216,173 @@ fn integrate_on_worker(
     parallel: bool,
     resume: Option<&Checkpoint>,
     mut snapshot: impl FnMut(f64, &Array2<f64>),
-    mut accepted: impl FnMut(&Stepper, Progress, StepStats) -> bool,
+    accepted: impl FnMut(&Stepper, Progress, StepStats) -> bool,
 ) -> Result<StepStats, StepError> {
     let names = model.genes.iter().map(|g| g.name.clone()).collect();
     let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
-    let mut stepper = Stepper::new(kinetics, tissue, &d, names, initial_state(model), 0.0, parallel, forcing(model))?
-        .with_scheme(model.clock.scheme);
-    let times = model.clock.snapshot_times();
-    let (mut stats, mut progress) = match resume {
+    let scheme = model.clock.scheme;
+    let mut stepper =
+        Stepper::new(kinetics, tissue, scheme, &d, names, initial_state(model), 0.0, parallel, forcing(model))?;
+    let control = StepControl::new(&model.clock);
+    let (stats, progress) = match resume {
         Some(c) => {
-            stepper.restore(&c.stepper);
+            stepper.restore(&c.stepper)?;
             (c.stats, c.progress)
         }
         None => {
             snapshot(0.0, stepper.state());
-            (StepStats::default(), Progress { next_snapshot: 1, steps_taken: 0, next_step_min: 0.0 })
+            let next_step_min = match control {
+                StepControl::Adaptive(c) => c.first_step(stepper.state(), stepper.rates()),
+                StepControl::Fixed(_) => 0.0,
+            };
+            (StepStats::default(), Progress { next_snapshot: 1, steps_taken: 0, next_step_min })
         }
     };
-    match model.clock.stepping {
-        Stepping::Fixed { step_min } => {
-            let total = model.clock.fixed_steps().expect("fixed stepping");
-            stepper.accept_every_step();
-            let held: Vec<bool> = model.clamps.iter().map(Option::is_some).collect();
-            let signed: Vec<bool> = model.genes.iter().map(|g| g.rate.is_some()).collect();
-            let names: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
-            let mut flagged: Option<usize> = None;
-            let mut round = 0;
-            let mut scores = Vec::new();
-            let rho = safety::safe_disk(model.clock.scheme, step_min, model.clock.until_min);
-            while progress.steps_taken < total {
-                let n = progress.steps_taken + 1;
-                let t_new = n as f64 * step_min;
-                stepper.attempt(step_min);
-                stepper.accept(step_min, t_new)?;
-                stats.count(step_min);
-                progress.steps_taken = n;
-                let next = progress.next_snapshot;
-                let at_snapshot = next < times.len() && (t_new >= times[next] - 0.5 * step_min || n == total);
-                if n == 1 || n % SAFETY_EVERY == 0 || at_snapshot {
-                    let u = stepper.state();
-                    let m = tissue.inputs_with_state(t_new, u);
-                    let nuclei = safety::picks(u, stepper.rates(), round, flagged, &mut scores);
-                    round += 1;
-                    match safety::check(
-                        kinetics,
-                        model.clock.scheme,
-                        step_min,
-                        model.clock.until_min,
-                        u,
-                        &m,
-                        &held,
-                        &signed,
-                        &names,
-                        &nuclei,
-                        rho,
-                    ) {
-                        // An unstable mode seen at two checks in a row (a brief
-                        // excursion does no harm; the flagged nucleus is examined
-                        // again), or a negative level at once.
-                        Some(bad) if bad.negative || flagged.is_some() => {
-                            let at_state = if bad.stable_step.is_finite() { bad.stable_step } else { step_min };
-                            // Along a loose error-controlled trial the whole run's limit shows,
-                            // not only that of a state the long step has already spoiled.
-                            let along = safety::trial(model).map_or(f64::INFINITY, |t| t.stable_step);
-                            let advice = 0.9 * if along < step_min { along } else { at_state.min(0.25 * step_min) };
-                            let why = bad.why;
-                            return Err(StepError::UnsafeStep {
-                                t_min: t_new,
-                                step_min,
-                                nucleus: bad.nucleus,
-                                why,
-                                advice,
-                            });
+    let time_loop = TimeLoop { model, stepper, stats, progress, times: model.clock.snapshot_times() };
+    match control {
+        StepControl::Fixed(steps) => time_loop.fixed(steps, kinetics, tissue, snapshot, accepted),
+        StepControl::Adaptive(control) => time_loop.error_controlled(control, snapshot, accepted),
+    }
+}
+
+/// A time loop in progress.
+struct TimeLoop<'m, 's> {
+    model: &'m Model,
+    stepper: Stepper<'s>,
+    stats: StepStats,
+    progress: Progress,
+    /// Snapshot times, min.
+    times: Vec<f64>,
+}
+
+impl TimeLoop<'_, '_> {
+    /// Fixed steps, every step accepted, with the step checked for safety
+    /// ([`safety::check`]) after the first step, every [`SAFETY_EVERY`] steps
+    /// and at every snapshot.
+    fn fixed(
+        mut self,
+        steps: FixedSteps,
+        kinetics: &dyn Kinetics,
+        tissue: &Tissue,
+        mut snapshot: impl FnMut(f64, &Array2<f64>),
+        mut accepted: impl FnMut(&Stepper, Progress, StepStats) -> bool,
+    ) -> Result<StepStats, StepError> {
+        let (model, times, step_min) = (self.model, &self.times, steps.step_min);
+        let stepper = &mut self.stepper;
+        stepper.accept_every_step();
+        let held: Vec<bool> = model.clamps.iter().map(Option::is_some).collect();
+        let signed: Vec<bool> = model.genes.iter().map(|g| g.rate.is_some()).collect();
+        let names: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
+        let mut flagged: Option<usize> = None;
+        let mut round = 0;
+        let mut scores = Vec::new();
+        let rho = safety::safe_disk(model.clock.scheme, step_min, model.clock.until_min);
+        while self.progress.steps_taken < steps.total {
+            let n = self.progress.steps_taken + 1;
+            let t_new = steps.time_after(n);
+            stepper.attempt(step_min);
+            stepper.accept(step_min, t_new)?;
+            self.stats.count(step_min);
+            self.progress.steps_taken = n;
+            let next = self.progress.next_snapshot;
+            let at_snapshot = next < times.len() && steps.reaches(n, times[next]);
+            if n == 1 || n.is_multiple_of(SAFETY_EVERY) || at_snapshot {
+                let u = stepper.state();
+                let m = tissue.inputs_with_state(t_new, u);
+                let nuclei = safety::picks(u, stepper.rates(), round, flagged, &mut scores);
+                round += 1;
+                match safety::check(
+                    kinetics,
+                    model.clock.scheme,
+                    step_min,
+                    model.clock.until_min,
+                    u,
+                    &m,
+                    &held,
+                    &signed,
+                    &names,
+                    &nuclei,
+                    rho,
+                ) {
+                    // An unstable mode seen at two checks in a row (a brief
+                    // excursion does no harm; the flagged nucleus is examined
+                    // again), or a negative level at once.
+                    Some(bad) if bad.negative || flagged.is_some() => {
+                        let at_state = if bad.stable_step.is_finite() { bad.stable_step } else { step_min };
+                        // Along a loose error-controlled trial the whole run's limit shows,
+                        // not only that of a state the long step has already spoiled.
+                        let along = safety::trial(model).map_or(f64::INFINITY, |t| t.stable_step);
+                        let advice = 0.9 * if along < step_min { along } else { at_state.min(0.25 * step_min) };
+                        let why = bad.why;
+                        return Err(StepError::UnsafeStep {
+                            t_min: t_new,
+                            step_min,
+                            nucleus: bad.nucleus,
+                            why,
+                            advice,
+                        });
+                    }
+                    Some(bad) => flagged = Some(bad.nucleus),
+                    None => flagged = None,
+                }
+            }
+            if at_snapshot {
+                snapshot(times[next], stepper.state());
+                self.progress.next_snapshot += 1;
+            }
+            if !accepted(stepper, self.progress, self.stats) {
+                return Err(StepError::Stopped { t_min: stepper.time() });
+            }
+        }
+        Ok(self.stats)
+    }
+
+    /// Error-controlled steps ([`ErrorControl`]), landing exactly on every
+    /// snapshot time.
+    fn error_controlled(
+        mut self,
+        control: ErrorControl,
+        mut snapshot: impl FnMut(f64, &Array2<f64>),
+        mut accepted: impl FnMut(&Stepper, Progress, StepStats) -> bool,
+    ) -> Result<StepStats, StepError> {
+        let stepper = &mut self.stepper;
+        while self.progress.next_snapshot < self.times.len() {
+            let target = self.times[self.progress.next_snapshot];
+            while target - stepper.time() > 1e-12 * target {
+                let remaining = target - stepper.time();
+                let mut k_try = control.first_try(self.progress.next_step_min, stepper.last_step());
+                let mut rejected_here = false;
+                loop {
+                    let (k, landing) = control.fit(k_try, remaining);
+                    stepper.attempt(k);
+                    let error = stepper.error_norm(k, control.rtol, control.atol);
+                    match control.judge(error, k, landing, rejected_here) {
+                        Verdict::Accept { next_min } => {
+                            let t_new = if landing { target } else { stepper.time() + k };
+                            stepper.accept(k, t_new)?;
+                            self.stats.count(k);
+                            self.progress.next_step_min = next_min;
+                            break;
                         }
-                        Some(bad) => flagged = Some(bad.nucleus),
-                        None => flagged = None,
+                        Verdict::Retry { retry_min } => {
+                            self.stats.rejected += 1;
+                            rejected_here = true;
+                            k_try = retry_min;
+                        }
+                        Verdict::Collapse { step_min } => {
+                            return Err(StepError::StepCollapse { t_min: stepper.time(), step_min, error });
+                        }
                     }
                 }
-                if at_snapshot {
-                    snapshot(times[next], stepper.state());
-                    progress.next_snapshot += 1;
-                }
-                if !accepted(&stepper, progress, stats) {
+                if !accepted(stepper, self.progress, self.stats) {
                     return Err(StepError::Stopped { t_min: stepper.time() });
                 }
             }
+            snapshot(target, stepper.state());
+            self.progress.next_snapshot += 1;
         }
-        Stepping::Adaptive { rtol, atol, max_step_min } => {
-            if resume.is_none() {
-                progress.next_step_min = first_step(&stepper, rtol, atol, max_step_min);
-            }
-            while progress.next_snapshot < times.len() {
-                let target = times[progress.next_snapshot];
-                while target - stepper.time() > 1e-12 * target {
-                    let remaining = target - stepper.time();
-                    let mut k_try = progress.next_step_min.min(max_step_min);
-                    if stepper.last_step() > 0.0 {
-                        k_try = k_try.min(stepper.max_growth() * stepper.last_step());
-                    }
-                    let mut rejected_here = false;
-                    loop {
-                        let landing = k_try >= remaining * (1.0 - 1e-9);
-                        if landing {
-                            k_try = remaining;
-                        } else {
-                            // Equal steps up to the snapshot: a short last
-                            // step would make the next ratio kₙ/kₙ₋₁ large,
-                            // and that step would often be rejected (common
-                            // practice, no source). A step that already
-                            // divides the rest is kept to the bit, so the
-                            // solver's factorisation is kept too.
-                            let n = (remaining / k_try * (1.0 - 1e-9)).ceil();
-                            if (n * k_try - remaining).abs() > 1e-9 * remaining {
-                                k_try = remaining / n;
-                            }
-                        }
-                        stepper.attempt(k_try);
-                        let err = stepper.error_norm(k_try, rtol, atol);
-                        let factor =
-                            if err > 0.0 { 0.9 * err.powf(-stepper.error_exponent()) } else { stepper.max_growth() };
-                        if err <= 1.0 {
-                            let t_new = if landing { target } else { stepper.time() + k_try };
-                            stepper.accept(k_try, t_new)?;
-                            stats.count(k_try);
-                            // Small growth is not worth it: an unchanged step
-                            // keeps the implicit solve's factorisation (common
-                            // practice in BDF codes, which hold the step for
-                            // small proposed changes; CVODE's threshold is 1.5,
-                            // from memory. Ours is 1.2, which keeps the
-                            // tol^(2/3) error scaling the tests check).
-                            let mut grow = factor.clamp(0.2, stepper.max_growth());
-                            if rejected_here {
-                                // No growth right after a rejection (Hairer,
-                                // Nørsett & Wanner, Solving ODEs I, §II.4, after
-                                // Shampine & Watts 1979; from memory). On the
-                                // spots demo, where steps press against the
-                                // reactions' stability limit, it cut the
-                                // attempts from 2279 to 1914.
-                                grow = grow.min(1.0);
-                            }
-                            progress.next_step_min =
-                                if (1.0..STEP_HOLD).contains(&grow) && !landing { k_try } else { k_try * grow };
-                            break;
-                        }
-                        stats.rejected += 1;
-                        rejected_here = true;
-                        k_try *= if factor.is_finite() { factor.clamp(0.1, 0.9) } else { 0.1 };
-                        if k_try < 1e-13 * model.clock.until_min.max(1.0) {
-                            return Err(StepError::StepCollapse { t_min: stepper.time(), step_min: k_try, error: err });
-                        }
-                    }
-                    if !accepted(&stepper, progress, stats) {
-                        return Err(StepError::Stopped { t_min: stepper.time() });
-                    }
-                }
-                snapshot(target, stepper.state());
-                progress.next_snapshot += 1;
-            }
-        }
+        Ok(self.stats)
     }
-    Ok(stats)
-}
-
-/// First step for error control: small enough that the IMEX Euler start
-/// changes no level by more than a tenth of its tolerance (common practice,
-/// after Hairer, Nørsett & Wanner, Solving ODEs I, §II.4), and at most 10⁻³
-/// of the largest step.
-fn first_step(stepper: &Stepper, rtol: f64, atol: f64, max_step: f64) -> f64 {
-    let scale = stepper
-        .state()
-        .iter()
-        .zip(stepper.rates().iter())
-        .map(|(u, f)| f.abs() / (atol + rtol * u.abs()))
-        .fold(0.0f64, f64::max);
-    let k = if scale > 0.0 { 0.1 / scale } else { max_step };
-    k.min(1e-3 * max_step).max(1e-12 * max_step)
 }
 
 /// The engine's throughput, nucleus·gene·steps per second: an order of
@@ -409,7 +400,8 @@ pub fn least_steps(model: &Model) -> f64 {
         Stepping::Adaptive { max_step_min, .. } => {
             let by_cap = (until / max_step_min).ceil();
             let rate = if model.genes.len() > safety::MAX_GENES_CHECKED { 0.0 } else { reaction_stiffness(model) };
-            if rate > 0.0 { by_cap.max((until * rate / explicit_stability(model.clock.scheme)).ceil()) } else { by_cap }
+            let edge = model.clock.scheme.explicit_stability();
+            if rate > 0.0 { by_cap.max((until * rate / edge).ceil()) } else { by_cap }
         }
     }
 }
@@ -419,22 +411,12 @@ pub fn least_seconds(model: &Model) -> f64 {
     least_steps(model) * model.grid.len() as f64 * model.genes.len() as f64 / THROUGHPUT
 }
 
-/// Largest `k·|λ|` on the negative real axis for which a scheme's explicit
-/// (reaction) part is stable: 4/3 for SBDF2 (see [`reaction_stiffness`]),
-/// 4.23 for ARK4(3)6L\[2\]SA (see `ark::EXPLICIT_STABILITY`).
-pub fn explicit_stability(scheme: Scheme) -> f64 {
-    match scheme {
-        Scheme::Sbdf2 => 4.0 / 3.0,
-        Scheme::Ark4 => ark::EXPLICIT_STABILITY,
-    }
-}
-
 /// Fastest reaction rate at the start, 1/min: the largest Gershgorin bound
 /// `max_g Σ_j |∂f_g/∂u_j|` of the reaction Jacobian over (up to 1000 evenly
-/// spread) nuclei of the initial state. The explicit reaction part of SBDF2
-/// is stable for `k·|λ| < 4/3` on a real negative eigenvalue λ (the root of
-/// `3ξ² − 4(1+z)ξ + (1+2z)` reaches ξ = −1 at z = kλ = −4/3; derived here, no
-/// source), so steps much longer than `4/(3·rate)` cannot be taken.
+/// spread) nuclei of the initial state. A scheme's explicit reaction part is
+/// stable for `k·|λ|` up to its [`Scheme::explicit_stability`] on a real
+/// negative eigenvalue λ (SBDF2: 4/3), so steps much longer than that over
+/// the rate cannot be taken.
 pub fn reaction_stiffness(model: &Model) -> f64 {
     let kinetics = crate::kinetics::build(model);
     let tissue = Tissue::new(model);

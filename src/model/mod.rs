@@ -17,6 +17,7 @@ mod validate_circuit;
 
 use std::path::{Path, PathBuf};
 
+pub use crate::integrate::Scheme;
 pub use error::ModelError;
 pub use level::{BLANK, Level};
 pub use mutant::{Ectopic, Edit, Mutant};
@@ -166,29 +167,6 @@ pub enum Stepping {
         /// Largest step, min.
         max_step_min: f64,
     },
-}
-
-/// The IMEX time-stepping scheme (diffusion implicit, reactions explicit).
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
-pub enum Scheme {
-    /// Second-order semi-implicit BDF (SBDF2), one solve and one rate
-    /// evaluation per step; error control by a predictor (Milne's device).
-    #[default]
-    Sbdf2,
-    /// Fourth-order additive Runge–Kutta ARK4(3)6L\[2\]SA (Kennedy & Carpenter
-    /// 2003, Appl. Numer. Math. 44:139), five solves and five rate
-    /// evaluations per step; error control by its embedded third-order pair.
-    Ark4,
-}
-
-impl Scheme {
-    /// Name in model files.
-    pub fn key(self) -> &'static str {
-        match self {
-            Scheme::Sbdf2 => "sbdf2",
-            Scheme::Ark4 => "ark4",
-        }
-    }
 }
 
 /// Time span, snapshots and step control.

@@ -357,16 +357,11 @@ fn check_clock(cl: &Spanned<ClockSpec>, src: &Source) -> Result<Clock, ModelErro
         }
     };
     let scheme = match spec.scheme.as_deref() {
-        None | Some("sbdf2") => Scheme::Sbdf2,
-        Some("ark4") => Scheme::Ark4,
-        Some(other) => {
-            return Err(c.fail(
-                "scheme",
-                format!("is `{other}`"),
-                "use `sbdf2` (second order, the default) or `ark4` (fourth order: fewer, costlier steps, \
-                 best with error-controlled steps at tight tolerances)",
-            ));
-        }
+        None => Scheme::default(),
+        Some(key) => match Scheme::from_key(key) {
+            Some(scheme) => scheme,
+            None => return Err(c.fail("scheme", format!("is `{key}`"), &format!("use {}", Scheme::choices()))),
+        },
     };
     Ok(Clock { until_min, snapshot_every_min, stepping, scheme })
 }

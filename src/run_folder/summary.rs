@@ -4,7 +4,7 @@
 use serde::{Deserialize, Serialize};
 
 use crate::Run;
-use crate::model::{Clock, Edges, Model, Scheme, Stepping};
+use crate::model::{Clock, Edges, Model, Stepping};
 
 use crate::readout::{Boundary, Domain, final_boundaries, final_domains};
 
@@ -117,10 +117,7 @@ pub fn fnv1a(bytes: &[u8]) -> u64 {
 
 /// Human-readable step control.
 pub fn stepping_text(clock: &Clock) -> String {
-    let scheme = match clock.scheme {
-        Scheme::Sbdf2 => "SBDF2",
-        Scheme::Ark4 => "ARK4(3)6L[2]SA",
-    };
+    let scheme = clock.scheme.name();
     match clock.stepping {
         Stepping::Fixed { step_min } => format!("{scheme}, fixed step {step_min} min"),
         Stepping::Adaptive { rtol, atol, max_step_min } => {

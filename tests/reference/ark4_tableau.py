@@ -1,8 +1,9 @@
 #!/usr/bin/env python3
 """ARK4(3)6L[2]SA (Kennedy & Carpenter 2003, Appl. Numer. Math. 44:139):
 order conditions in exact rational arithmetic, and the edge of the explicit
-tableau's stability on the negative real axis, which src/integrate/ark.rs
-keeps as EXPLICIT_STABILITY (4.23) and tests there.
+tableau's stability on the negative real axis, which src/integrate/ark4.rs
+keeps as EXPLICIT_STABILITY (4.23) and tests there, and its amplification of
+a neutral mode on the imaginary axis (tests/safety.rs).
 
 Run:  python3 tests/reference/ark4_tableau.py
 """
@@ -66,3 +67,8 @@ def r(z):
 xs = np.linspace(0, 6, 60001)[1:]
 edge = next(x for x in xs if abs(r(-x)) > 1 + 1e-12)
 print(f"explicit tableau stable on the negative real axis up to k|lambda| = {edge:.4f}")
+for y in (0.1, 1.0):
+    print(f"|R(i*{y})| = 1 - {1 - abs(r(1j * y)):.3e}")
+ys = np.linspace(0, 6, 60001)[1:]
+edge = next(y for y in ys if abs(r(1j * y)) > 1 + 1e-12)
+print(f"explicit tableau damps neutral modes (|R(iy)| <= 1) up to k|lambda| = {edge:.4f}")

@@ -12,11 +12,16 @@
 //! which is exact for the linear implicit part; only `D∇²u` at an accepted
 //! state is applied explicitly. Every stage solves with the same `γk`, so a
 //! row's tridiagonal factorisation is made once per step size.
+//!
+//! A one-step scheme: it has no history. `D∇²u` at the accepted state is
+//! computed again from the state (after a restart from a checkpoint too).
 
+use nalgebra::Complex;
 use ndarray::Array2;
 
 use super::StepError;
 use super::reactions::Reactions;
+use super::scheme::{Accepted, History, Operators, TimeScheme};
 use crate::simd::with_avx2;
 use crate::tissue::Diffusion;
 
@@ -84,16 +89,10 @@ pub const B_HAT: [f64; S] = [
 /// Stage times as fractions of the step.
 pub const C: [f64; S] = [0.0, 0.5, 83.0 / 250.0, 31.0 / 50.0, 17.0 / 20.0, 1.0];
 
-/// The explicit part is stable on the negative real axis for `k|λ| ≤ 4.23`
-/// (largest x with |R(−x′)| ≤ 1 on (0, x], R the explicit tableau's stability
-/// function; computed here by tests/reference/ark4_tableau.py, no published
-/// value).
-pub const EXPLICIT_STABILITY: f64 = 4.23;
-
-/// ARK working arrays, allocated once.
-pub(super) struct Ark {
-    /// `D∇²u` at the current state, a.u./min.
-    pub(super) lu: Array2<f64>,
+/// The ARK4(3)6L\[2\]SA scheme's working arrays, allocated once.
+pub struct Ark4 {
+    /// `D∇²u` at the accepted state, a.u./min.
+    lu: Array2<f64>,
     /// fᴱ and fᴵ of stages 2…6.
     fe: Vec<Array2<f64>>,
     fi: Vec<Array2<f64>>,
@@ -102,9 +101,179 @@ pub(super) struct Ark {
     /// Embedded estimate of the trial's local error, a.u.
     err: Array2<f64>,
     /// Why the last trial could not be completed (a stage blew up).
-    pub(super) failed: Option<StepError>,
+    failed: Option<StepError>,
     /// Whether attempts estimate their error (not with fixed steps).
-    pub(super) estimate: bool,
+    estimate: bool,
+}
+
+impl TimeScheme for Ark4 {
+    const KEY: &'static str = "ark4";
+    const NAME: &'static str = "ARK4(3)6L[2]SA";
+    const ADVICE: &'static str =
+        "fourth order: fewer, costlier steps, best with error-controlled steps at tight tolerances";
+    const ORDER: u32 = 4;
+    /// The embedded third-order solution.
+    const ESTIMATE_ORDER: u32 = 3;
+    /// The usual cap of embedded Runge–Kutta codes (Hairer, Nørsett &
+    /// Wanner, Solving ODEs I, §II.4, "facmax" between 1.5 and 5): a one-step
+    /// scheme has no ratio limit of its own.
+    const MAX_GROWTH: f64 = 5.0;
+    /// Stable on the negative real axis for `k|λ| ≤ 4.23` (largest x with
+    /// |R(−x′)| ≤ 1 on (0, x], R the explicit tableau's stability function;
+    /// computed here by tests/reference/ark4_tableau.py, no published value).
+    const EXPLICIT_STABILITY: f64 = 4.23;
+    /// Two per stage after the first (fᴱ, fᴵ), D∇²u, the stage levels and the
+    /// error estimate.
+    const ARRAYS_PER_GENE: u64 = 13;
+    const HISTORY_NUMBERS: &'static [&'static str] = &[];
+    const HISTORY_ARRAYS: &'static [&'static str] = &[];
+
+    /// `|R(z)|`, `R(z) = 1 + z bᵀ(I − zA)⁻¹𝟙` of the explicit tableau (Kennedy
+    /// & Carpenter 2003, Appl. Numer. Math. 44:139; Hairer & Wanner, Solving
+    /// ODEs II, §IV.2); edge −4.2345 on the real axis (computed by
+    /// tests/reference/ark4_tableau.py).
+    fn amplification(z: Complex<f64>) -> f64 {
+        let mut g = [Complex::new(0.0, 0.0); S];
+        for i in 0..S {
+            let sum: Complex<f64> = (0..i).map(|j| g[j] * AE[i][j]).sum();
+            g[i] = Complex::new(1.0, 0.0) + z * sum;
+        }
+        let bg: Complex<f64> = (0..S).map(|i| g[i] * B[i]).sum();
+        (Complex::new(1.0, 0.0) + z * bg).norm()
+    }
+
+    fn new(now: &Accepted, ops: &Operators) -> Ark4 {
+        let zeros = || Array2::zeros(now.u.dim());
+        let mut ark = Ark4 {
+            lu: zeros(),
+            fe: (1..S).map(|_| zeros()).collect(),
+            fi: (1..S).map(|_| zeros()).collect(),
+            y: zeros(),
+            err: zeros(),
+            failed: None,
+            estimate: true,
+        };
+        ark.apply_diffusion(&ops.diffusion, &ops.reactions, &now.u);
+        ark
+    }
+
+    /// Attempts then skip the error estimate.
+    fn accept_every_step(&mut self) {
+        self.estimate = false;
+    }
+
+    /// One step of `k` from `now`; the error estimate is kept for
+    /// [`TimeScheme::error_norm`]. A stage that blows up is kept in `failed`
+    /// (the trial is then not usable: its error is infinite and accepting it
+    /// fails).
+    fn attempt(&mut self, k: f64, now: &Accepted, ops: &mut Operators, trial: &mut Array2<f64>) {
+        self.failed = None;
+        let gk = GAMMA * k;
+        let parallel = ops.reactions.parallel;
+        for i in 1..S {
+            // Right-hand side of stage i, kept in fᴵᵢ's slot until the solve.
+            let (done_e, rest_e) = self.fe.split_at_mut(i - 1);
+            let (done_i, rest_i) = self.fi.split_at_mut(i - 1);
+            let mut terms = [(0.0, &[][..]); 2 * S];
+            terms[0] = (k * AE[i][0], flat(&now.f));
+            terms[1] = (k * AI[i][0], flat(&self.lu));
+            for j in 1..i {
+                terms[2 * j] = (k * AE[i][j], flat(&done_e[j - 1]));
+                terms[2 * j + 1] = (k * AI[i][j], flat(&done_i[j - 1]));
+            }
+            let rhs = &mut rest_i[0];
+            combine(flat_mut(rhs), Some(flat(&now.u)), &terms[..2 * i], parallel);
+            self.y.assign(rhs);
+            ops.diffusion.solve(&mut self.y, 1.0, gk, parallel);
+            ops.reactions.clamp(&mut self.y);
+            let y = flat(&self.y);
+            let inv_gk = 1.0 / gk;
+            by_blocks(flat_mut(rhs), parallel, |at, r| {
+                r.iter_mut().zip(&y[at..]).for_each(|(r, &y)| *r = (y - *r) * inv_gk);
+            });
+            for (g, _) in ops.reactions.clamps() {
+                rhs.row_mut(g).fill(0.0);
+            }
+            if let Err(e) = ops.reactions.eval(now.t + C[i] * k, &self.y, &mut rest_e[0]) {
+                self.failed = Some(e);
+                return;
+            }
+        }
+        // u¹ and the error estimate from every stage's fᴱ and fᴵ.
+        let stage = |m: usize| match (m / 2, m % 2) {
+            (0, 0) => flat(&now.f),
+            (0, _) => flat(&self.lu),
+            (i, 0) => flat(&self.fe[i - 1]),
+            (i, _) => flat(&self.fi[i - 1]),
+        };
+        let terms: [(f64, &[f64]); 2 * S] = std::array::from_fn(|m| (k * B[m / 2], stage(m)));
+        combine(flat_mut(trial), Some(flat(&now.u)), &terms, parallel);
+        if !self.estimate {
+            return;
+        }
+        let terms: [(f64, &[f64]); 2 * S] = std::array::from_fn(|m| (k * (B[m / 2] - B_HAT[m / 2]), stage(m)));
+        combine(flat_mut(&mut self.err), None, &terms, parallel);
+        // Filter the estimate through the stage solve, so stiff diffusion
+        // modes, which the L-stable main scheme damps but the embedded one
+        // does not, do not shrink the step (the device of Hairer & Wanner,
+        // Solving ODEs II, 2nd ed., §IV.8, for Radau IIA; from memory). On
+        // the spots demo it cut the steps from 2121 to 1665.
+        ops.diffusion.solve(&mut self.err, 1.0, gk, ops.reactions.parallel);
+    }
+
+    /// `max |e| / (atol + rtol·max(|u|, |u¹|))` for the last trial; infinite
+    /// if a stage blew up or any value is not finite.
+    fn error_norm(&self, _k: f64, now: &Accepted, trial: &Array2<f64>, rtol: f64, atol: f64, _parallel: bool) -> f64 {
+        assert!(self.estimate, "no error estimate with fixed steps");
+        if self.failed.is_some() {
+            return f64::INFINITY;
+        }
+        let (mut top, mut finite) = (0.0f64, true);
+        for ((&e, &u), &r) in flat(&self.err).iter().zip(flat(&now.u)).zip(flat(trial)) {
+            let v = (e / (atol + rtol * u.abs().max(r.abs()))).abs();
+            finite &= v <= f64::MAX;
+            top = top.max(v);
+        }
+        if finite { top } else { f64::INFINITY }
+    }
+
+    fn accept(
+        &mut self,
+        k: f64,
+        t_new: f64,
+        now: &mut Accepted,
+        trial: &mut Array2<f64>,
+        ops: &mut Operators,
+    ) -> Result<(), StepError> {
+        if let Some(e) = self.failed.take() {
+            return Err(e);
+        }
+        now.take(trial, k, t_new, &mut ops.reactions)?;
+        self.apply_diffusion(&ops.diffusion, &ops.reactions, &now.u);
+        Ok(())
+    }
+
+    fn held(&self) -> usize {
+        1
+    }
+
+    fn save(&self) -> History {
+        History::default()
+    }
+
+    fn restore(&mut self, _history: &History, now: &Accepted, ops: &Operators) {
+        self.apply_diffusion(&ops.diffusion, &ops.reactions, &now.u);
+    }
+}
+
+impl Ark4 {
+    /// `lu ← D∇²u` (zero for held genes).
+    fn apply_diffusion(&mut self, diffusion: &Diffusion, reactions: &Reactions, u: &Array2<f64>) {
+        diffusion.apply(u, &mut self.lu);
+        for (g, _) in reactions.clamps() {
+            self.lu.row_mut(g).fill(0.0);
+        }
+    }
 }
 
 fn flat(a: &Array2<f64>) -> &[f64] {
@@ -160,113 +329,6 @@ fn combine(out: &mut [f64], base: Option<&[f64]>, terms: &[(f64, &[f64])], paral
             || block(at, out),
         )
     });
-}
-
-impl Ark {
-    pub(super) fn new(dim: (usize, usize)) -> Ark {
-        let zeros = || Array2::zeros(dim);
-        Ark {
-            lu: zeros(),
-            fe: (1..S).map(|_| zeros()).collect(),
-            fi: (1..S).map(|_| zeros()).collect(),
-            y: zeros(),
-            err: zeros(),
-            failed: None,
-            estimate: true,
-        }
-    }
-
-    /// `lu ← D∇²u` (zero for held genes).
-    pub(super) fn apply_diffusion(&mut self, diffusion: &Diffusion, reactions: &Reactions, u: &Array2<f64>) {
-        diffusion.apply(u, &mut self.lu);
-        for (g, _) in reactions.clamps() {
-            self.lu.row_mut(g).fill(0.0);
-        }
-    }
-
-    /// One step of `k` from `(t, u)` with rates `f` there; the result goes to
-    /// `trial` and the error estimate is kept for [`Self::error_norm`]. A stage
-    /// that blows up is kept in `failed` (the trial is then not usable).
-    #[allow(clippy::too_many_arguments)]
-    pub(super) fn attempt(
-        &mut self,
-        k: f64,
-        t: f64,
-        u: &Array2<f64>,
-        f: &Array2<f64>,
-        trial: &mut Array2<f64>,
-        diffusion: &mut Diffusion,
-        reactions: &mut Reactions,
-    ) {
-        self.failed = None;
-        let gk = GAMMA * k;
-        let parallel = reactions.parallel;
-        for i in 1..S {
-            // Right-hand side of stage i, kept in fᴵᵢ's slot until the solve.
-            let (done_e, rest_e) = self.fe.split_at_mut(i - 1);
-            let (done_i, rest_i) = self.fi.split_at_mut(i - 1);
-            let mut terms = [(0.0, &[][..]); 2 * S];
-            terms[0] = (k * AE[i][0], flat(f));
-            terms[1] = (k * AI[i][0], flat(&self.lu));
-            for j in 1..i {
-                terms[2 * j] = (k * AE[i][j], flat(&done_e[j - 1]));
-                terms[2 * j + 1] = (k * AI[i][j], flat(&done_i[j - 1]));
-            }
-            let rhs = &mut rest_i[0];
-            combine(flat_mut(rhs), Some(flat(u)), &terms[..2 * i], parallel);
-            self.y.assign(rhs);
-            diffusion.solve(&mut self.y, 1.0, gk, parallel);
-            reactions.clamp(&mut self.y);
-            let y = flat(&self.y);
-            let inv_gk = 1.0 / gk;
-            by_blocks(flat_mut(rhs), parallel, |at, r| {
-                r.iter_mut().zip(&y[at..]).for_each(|(r, &y)| *r = (y - *r) * inv_gk);
-            });
-            for (g, _) in reactions.clamps() {
-                rhs.row_mut(g).fill(0.0);
-            }
-            if let Err(e) = reactions.eval(t + C[i] * k, &self.y, &mut rest_e[0]) {
-                self.failed = Some(e);
-                return;
-            }
-        }
-        // u¹ and the error estimate from every stage's fᴱ and fᴵ.
-        let stage = |m: usize| match (m / 2, m % 2) {
-            (0, 0) => flat(f),
-            (0, _) => flat(&self.lu),
-            (i, 0) => flat(&self.fe[i - 1]),
-            (i, _) => flat(&self.fi[i - 1]),
-        };
-        let terms: [(f64, &[f64]); 2 * S] = std::array::from_fn(|m| (k * B[m / 2], stage(m)));
-        combine(flat_mut(trial), Some(flat(u)), &terms, parallel);
-        if !self.estimate {
-            return;
-        }
-        let terms: [(f64, &[f64]); 2 * S] = std::array::from_fn(|m| (k * (B[m / 2] - B_HAT[m / 2]), stage(m)));
-        combine(flat_mut(&mut self.err), None, &terms, parallel);
-        // Filter the estimate through the stage solve, so stiff diffusion
-        // modes, which the L-stable main scheme damps but the embedded one
-        // does not, do not shrink the step (the device of Hairer & Wanner,
-        // Solving ODEs II, 2nd ed., §IV.8, for Radau IIA; from memory). On
-        // the spots demo it cut the steps from 2121 to 1665.
-        diffusion.solve(&mut self.err, 1.0, gk, reactions.parallel);
-    }
-
-    /// `max |e| / (atol + rtol·max(|u|, |u¹|))` for the last trial; infinite
-    /// if a stage blew up or any value is not finite.
-    pub(super) fn error_norm(&self, u: &Array2<f64>, trial: &Array2<f64>, rtol: f64, atol: f64) -> f64 {
-        assert!(self.estimate, "no error estimate with fixed steps");
-        if self.failed.is_some() {
-            return f64::INFINITY;
-        }
-        let (mut top, mut finite) = (0.0f64, true);
-        for ((&e, &u), &r) in flat(&self.err).iter().zip(flat(u)).zip(flat(trial)) {
-            let v = (e / (atol + rtol * u.abs().max(r.abs()))).abs();
-            finite &= v <= f64::MAX;
-            top = top.max(v);
-        }
-        if finite { top } else { f64::INFINITY }
-    }
 }
 
 #[cfg(test)]
@@ -329,12 +391,12 @@ mod tests {
         1.0 + z * dot(&B, &g)
     }
 
-    /// [`EXPLICIT_STABILITY`]: |R(−x)| ≤ 1 for every x up to it, and not
+    /// [`Ark4::EXPLICIT_STABILITY`]: |R(−x)| ≤ 1 for every x up to it, and not
     /// much beyond (tests/reference/ark4_tableau.py finds the edge at 4.2345).
     #[test]
     fn explicit_stability_edge() {
         for i in 1..=4230 {
-            let x = i as f64 * EXPLICIT_STABILITY / 4230.0;
+            let x = i as f64 * Ark4::EXPLICIT_STABILITY / 4230.0;
             assert!(explicit_r(-x).abs() <= 1.0 + 1e-12, "|R(-{x})| = {}", explicit_r(-x).abs());
         }
         assert!(explicit_r(-4.24).abs() > 1.0);

@@ -29,30 +29,55 @@ pub trait Blamed {
     fn blame(&self) -> Blame;
 }
 
-macro_rules! blame_all {
-    ($blame:expr => $($t:ty),+) => {
-        $(impl Blamed for $t {
+/// Implements [`Blamed`] for the error types whose every variant has one
+/// blame, and [`blame_of`] over the same list and the types that blame by
+/// variant, so the two cannot drift apart.
+macro_rules! library_errors {
+    (input: [$($input:ty),+], run: [$($run:ty),+], by_variant: [$($variant:ty),+]) => {
+        $(impl Blamed for $input {
             fn blame(&self) -> Blame {
-                $blame
+                Blame::Input
             }
         })+
+        $(impl Blamed for $run {
+            fn blame(&self) -> Blame {
+                Blame::Run
+            }
+        })+
+
+        /// The blame of `e` if it is one of the library's error types.
+        pub fn blame_of(e: &(dyn Error + 'static)) -> Option<Blame> {
+            $(if let Some(x) = e.downcast_ref::<$input>() {
+                return Some(x.blame());
+            })+
+            $(if let Some(x) = e.downcast_ref::<$run>() {
+                return Some(x.blame());
+            })+
+            $(if let Some(x) = e.downcast_ref::<$variant>() {
+                return Some(x.blame());
+            })+
+            None
+        }
     };
 }
 
-blame_all!(Blame::Input =>
-    crate::model::ModelError,
-    crate::render::StyleError,
-    crate::run_folder::RunFolderError,
-    crate::measure::MeasureError,
-    crate::compare::CompareError,
-    crate::integrate::CheckpointError,
-    crate::fit::FitSetupError
-);
-blame_all!(Blame::Run =>
-    crate::replicates::ReplicateError,
-    crate::StepError,
-    crate::export::ExportError,
-    crate::integrate::ReadBackError
+library_errors!(
+    input: [
+        crate::model::ModelError,
+        crate::render::StyleError,
+        crate::run_folder::RunFolderError,
+        crate::measure::MeasureError,
+        crate::compare::CompareError,
+        crate::integrate::CheckpointError,
+        crate::fit::FitSetupError
+    ],
+    run: [
+        crate::replicates::ReplicateError,
+        crate::StepError,
+        crate::export::ExportError,
+        crate::integrate::ReadBackError
+    ],
+    by_variant: [crate::WriteError]
 );
 
 impl Blamed for crate::WriteError {
@@ -65,32 +90,6 @@ impl Blamed for crate::WriteError {
             crate::WriteError::Replicates(e) => e.blame(),
         }
     }
-}
-
-/// The blame of `e` if it is one of the library's error types.
-pub fn blame_of(e: &(dyn Error + 'static)) -> Option<Blame> {
-    macro_rules! try_types {
-        ($($t:ty),+) => {
-            $(if let Some(x) = e.downcast_ref::<$t>() {
-                return Some(x.blame());
-            })+
-        };
-    }
-    try_types!(
-        crate::model::ModelError,
-        crate::render::StyleError,
-        crate::run_folder::RunFolderError,
-        crate::measure::MeasureError,
-        crate::compare::CompareError,
-        crate::integrate::CheckpointError,
-        crate::fit::FitSetupError,
-        crate::StepError,
-        crate::export::ExportError,
-        crate::integrate::ReadBackError,
-        crate::replicates::ReplicateError,
-        crate::WriteError
-    );
-    None
 }
 
 #[cfg(test)]

@@ -59,7 +59,9 @@ pub fn replicates_picture(r: &Replicates, style: &Style) -> Canvas {
         c.polyline(&[(xm, a.top + a.height), (xm, a.top)], 1.0, col, 160, Some([2.0, 3.0]));
     }
     axes::draw(&mut c, &a, "", "", bg);
-    c.text(left - 8.0, top1 - 10.0, 14.0, bg.ink(), Align::Left, "level (a.u.): mean ± 1 sd over embryos");
+    let strip = if r.sheet { ", central strip" } else { "" };
+    let label = format!("level (a.u.): mean ± 1 sd over {} embryos{strip}", r.n);
+    c.text(left - 8.0, top1 - 10.0, 14.0, bg.ink(), Align::Left, &label);
 
     // The positional error: capped at 3 × the largest direct sd (or at 4 ×
     // the smallest decoded value when no boundary has a spread), so that the
@@ -137,8 +139,7 @@ pub fn replicates_picture(r: &Replicates, style: &Style) -> Canvas {
         Align::Left,
         "positional error (µm): line decoded from all genes; dots: each boundary's sd",
     );
-    let strip = if r.sheet { ", central strip mean" } else { "" };
-    title_and_label(&mut c, left, width as f32 - right, 24.0, bg, &format!("{}: {} embryos{strip}", style.title, r.n));
+    title_and_label(&mut c, left, width as f32 - right, 24.0, bg, &style.title);
     // The legend, right-aligned on the line of the level label.
     let item = |g: usize| 17.0 + Canvas::text_width(13.0, &r.genes[g]) + 16.0;
     let mut pen = width as f32 - right - style.genes.iter().map(|&g| item(g)).sum::<f32>() + 16.0;

@@ -110,6 +110,15 @@ fn check_describes_the_model() {
     {
         assert!(text.contains(want), "missing `{want}` in\n{text}");
     }
+    assert!(!text.contains("noise"), "no noise line without a [noise] section:\n{text}");
+    let o = anlage(&["check", root().join("patterns/precision.toml").to_str().unwrap()]);
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        text.contains(
+            "noise     intrinsic, vary head.peak, vary tail.peak (200 embryos by default, stochastic steps of 0.2 min)"
+        ),
+        "{text}"
+    );
 }
 
 #[test]

@@ -159,6 +159,19 @@ pub fn describe(m: &Model) -> String {
     let plan = anlage::integrate::MemoryPlan::of(m);
     let streamed = if plan.streams { " (streamed to disk)" } else { "" };
     let _ = writeln!(s, "memory    {} working + {} recording{streamed}", gib(plan.working), gib(plan.recording));
+    let sources: Vec<String> = anlage::replicates::Sources::each(m).into_iter().map(|(name, _)| name).collect();
+    if !sources.is_empty() {
+        let step = match m.noise.step_min.filter(|_| m.noise.is_stochastic()) {
+            Some(k) => format!(", stochastic steps of {k} min"),
+            None => String::new(),
+        };
+        let _ = writeln!(
+            s,
+            "noise     {} ({} embryos by default{step}): `anlage replicates` runs the embryos; the other verbs run one embryo without intrinsic noise or parameter variation",
+            sources.join(", "),
+            m.noise.replicates
+        );
+    }
     let _ = writeln!(s, "genes     {}", m.genes.len());
     for gene in &m.genes {
         let [r, gg, b] = gene.color;

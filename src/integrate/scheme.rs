@@ -63,7 +63,7 @@ pub struct Operators<'a> {
     pub(super) diffusion: Diffusion,
 }
 
-/// What a scheme's next steps need beyond the [`Accepted`] state, as named
+/// What a scheme's next steps need beyond the accepted state, as named
 /// numbers and arrays (their names: [`Scheme::history_numbers`] and
 /// [`Scheme::history_arrays`]), for checkpoints.
 #[derive(Debug, Clone, PartialEq, Default)]
@@ -133,7 +133,7 @@ pub trait TimeScheme: Sized {
     fn error_norm(&self, k: f64, now: &Accepted, trial: &Array2<f64>, rtol: f64, atol: f64, parallel: bool) -> f64;
 
     /// Makes the last attempt (a step of `k` to `t_new`, min) the accepted
-    /// state (see [`Accepted::take`]) and updates the history.
+    /// state (see `Accepted::take`) and updates the history.
     ///
     /// # Errors
     /// [`StepError::NonFinite`] if the attempt or the new rates blew up.

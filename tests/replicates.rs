@@ -278,3 +278,22 @@ fn a_mutant_s_shift_over_the_same_embryos_has_its_own_small_error() {
     assert!(s.shift_sd_um < 0.2, "paired shifts hardly vary: {}", s.shift_sd_um);
     assert!(s.wild_type_sd_um > 15.0 && s.mutant_sd_um > 15.0, "{s:?}");
 }
+
+/// When the noise-free embryo has no boundary but some embryos form one
+/// (production varied by 30 % around a level the mean profile just misses),
+/// those embryos are counted, not silently dropped.
+#[test]
+fn boundaries_the_noise_free_embryo_lacks_are_counted() {
+    let text = read_out(0.01, 100).replace(
+        "[noise]\nreplicates = 100\n[[noise.vary]]\nparameter = \"cue.peak\"\ncv = 0.01",
+        "[noise]\nreplicates = 100\n[[noise.vary]]\nparameter = \"quill.production\"\ncv = 0.3",
+    );
+    // The level sits above the noise-free plateau (p/d = 1): only embryos
+    // with production factor above 1.05 cross it.
+    let text = text.replace("absolute = 0.5", "absolute = 1.05");
+    let model = parse(&text);
+    let r = replicates::run(&model, 100, &Sources::all(&model), &Silent, &mut |_, _| {}).unwrap();
+    assert_eq!(r.final_boundaries().count(), 0);
+    let share = *r.unreferenced.last().unwrap() as f64 / 100.0;
+    assert!((0.2..0.6).contains(&share), "{share}");
+}

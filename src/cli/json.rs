@@ -134,6 +134,7 @@ pub fn replicates(report: &anlage::ReplicateReport, dir: &Path) -> Value {
         "kind": "replicates",
         "model_prediction": true,
         "embryos": r.n,
+        "unreferenced_at_end": r.unreferenced.last(),
         "final": last,
         "boundaries": rows,
         "widths": widths,

@@ -553,6 +553,14 @@ pub fn replicates(model: &anlage::model::Model, report: &anlage::ReplicateReport
         .filter(|b| b.miscounted_fraction > 0.0)
         .map(|b| format!("{} {} in {:.1} %", b.gene, b.direction, 100.0 * b.miscounted_fraction))
         .collect();
+    if let Some(&extra) = r.unreferenced.last().filter(|n| **n > 0) {
+        let _ = writeln!(
+            s,
+            "  NOTE: {:.1} % of embryos end with a boundary of a gene and direction the noise-free embryo has none of; \
+             it is in embryo_boundaries.csv, not in the lines above",
+            100.0 * extra as f64 / r.n as f64
+        );
+    }
     if !ragged.is_empty() {
         let _ = writeln!(
             s,

@@ -216,6 +216,9 @@ pub struct Replicates {
     pub boundaries: Vec<BoundaryPrecision>,
     /// Per domain of the reference embryo at the last snapshot.
     pub widths: Vec<WidthSpread>,
+    /// Per snapshot: embryos with a boundary of a gene and direction that the
+    /// noise-free embryo has none of then (not in [`Self::boundaries`]).
+    pub unreferenced: Vec<usize>,
     /// Final profiles across embryos.
     pub profiles: ProfileStats,
     /// Positional error decoded from all genes at each nucleus, µm ([`ProfileStats::decoded_error_um`]).
@@ -269,6 +272,46 @@ pub enum ReplicateError {
     },
 }
 
+/// Runs `one(i)` for embryos 0..n in parallel blocks of [`BLOCK`] and hands
+/// each result to `fold` in embryo order (so the statistics do not depend on
+/// the thread count, and at most a block of results is held at a time).
+///
+/// # Errors
+/// [`ReplicateError::Embryos`] if any embryo failed (the others are still folded).
+fn for_each_embryo<T: Send>(
+    n: usize,
+    total: usize,
+    counter: &Counter,
+    one: impl Fn(usize) -> Result<T, StepError> + Sync,
+    mut fold: impl FnMut(usize, T),
+) -> Result<(), ReplicateError> {
+    let mut failure: Option<(usize, String)> = None;
+    let mut failed = 0;
+    for start in (0..n).step_by(BLOCK) {
+        let block: Vec<Result<T, StepError>> = (start..(start + BLOCK).min(n))
+            .into_par_iter()
+            .map(|i| {
+                let r = one(i);
+                counter.tick();
+                r
+            })
+            .collect();
+        for (k, r) in block.into_iter().enumerate() {
+            match r {
+                Ok(r) => fold(start + k, r),
+                Err(e) => {
+                    failed += 1;
+                    failure.get_or_insert((start + k, e.to_string()));
+                }
+            }
+        }
+    }
+    match failure {
+        Some((first, why)) => Err(ReplicateError::Embryos { failed, total, first, why }),
+        None => Ok(()),
+    }
+}
+
 /// Runs `n` embryos of `model` with the noise `sources` and summarises them.
 /// `each` sees every embryo's boundaries (all snapshots), in embryo order.
 ///
@@ -289,33 +332,22 @@ pub fn run(
     let reference_at: Vec<Vec<Boundary>> = times.iter().map(|&t| at(&reference.boundaries, t)).collect();
     let mut positions: Vec<Vec<Running>> = reference_at.iter().map(|r| vec![Running::default(); r.len()]).collect();
     let mut miscounted: Vec<Vec<usize>> = reference_at.iter().map(|r| vec![0; r.len()]).collect();
+    let mut unreferenced = vec![0usize; times.len()];
     let mut widths = vec![Running::default(); reference.domains.len()];
     let mut profiles = ProfileStats::new(model.genes.len(), model.grid.nx);
     let counter = Counter::begin(progress, "embryos", n);
-    let mut failure: Option<(usize, String)> = None;
-    let mut failed = 0;
-    for start in (0..n).step_by(BLOCK) {
-        let block: Vec<Result<Readout, StepError>> = (start..(start + BLOCK).min(n))
-            .into_par_iter()
-            .map(|i| {
-                let r = read_one(&embryo(model, i, sources));
-                counter.tick();
-                r
-            })
-            .collect();
-        for (k, r) in block.into_iter().enumerate() {
-            let i = start + k;
-            let r = match r {
-                Ok(r) => r,
-                Err(e) => {
-                    failed += 1;
-                    failure.get_or_insert((i, e.to_string()));
-                    continue;
-                }
-            };
+    let folded = for_each_embryo(
+        n,
+        n,
+        &counter,
+        |i| read_one(&embryo(model, i, sources)),
+        |i, r| {
             each(i, &r.boundaries);
             for (s, &t) in times.iter().enumerate() {
                 let mine = at(&r.boundaries, t);
+                let known =
+                    |b: &Boundary| reference_at[s].iter().any(|q| q.gene == b.gene && q.direction == b.direction);
+                unreferenced[s] += usize::from(!mine.iter().all(known));
                 for (j, (x, other_count)) in pair_in_order(&reference_at[s], &mine).into_iter().enumerate() {
                     if let Some(x) = x {
                         positions[s][j].push(x);
@@ -335,12 +367,10 @@ pub fn run(
                 }
             }
             profiles.push(&r.profiles);
-        }
-    }
+        },
+    );
     drop(counter);
-    if let Some((first, why)) = failure {
-        return Err(ReplicateError::Embryos { failed, total: n, first, why });
-    }
+    folded?;
     let length = model.grid.length_um();
     let pct = |um: f64| 100.0 * um / length;
     let boundaries = times
@@ -385,6 +415,7 @@ pub fn run(
         sheet: model.grid.is_sheet(),
         boundaries,
         widths,
+        unreferenced,
         profiles,
         decoded_um,
     })
@@ -488,42 +519,21 @@ pub fn paired_shifts(
     let refs = finals(&reference.boundaries);
     let mut acc = vec![(Running::default(), Running::default(), Running::default()); refs.len()];
     let counter = Counter::begin(progress, "embryo pairs", n);
-    let mut failure: Option<(usize, String)> = None;
-    let mut failed = 0;
-    for start in (0..n).step_by(BLOCK) {
-        let block: Vec<Result<(Readout, Readout), StepError>> = (start..(start + BLOCK).min(n))
-            .into_par_iter()
-            .map(|i| {
-                let all = |m: &Model| embryo(m, i, &Sources::all(m));
-                let pair = read_one(&all(wild_type)).and_then(|w| Ok((w, read_one(&all(mutant))?)));
-                counter.tick();
-                pair
-            })
-            .collect();
-        for (k, pair) in block.into_iter().enumerate() {
-            let (w, m) = match pair {
-                Ok(p) => p,
-                Err(e) => {
-                    failed += 1;
-                    failure.get_or_insert((start + k, e.to_string()));
-                    continue;
-                }
-            };
-            let on_w = pair_in_order(&refs, &finals(&w.boundaries));
-            let on_m = pair_in_order(&refs, &finals(&m.boundaries));
-            for (j, (a, b)) in on_w.iter().zip(&on_m).enumerate() {
-                if let (Some(xw), Some(xm)) = (a.0, b.0) {
-                    acc[j].0.push(xw);
-                    acc[j].1.push(xm);
-                    acc[j].2.push(xm - xw);
-                }
+    let all = |m: &Model, i: usize| embryo(m, i, &Sources::all(m));
+    let pair = |i: usize| read_one(&all(wild_type, i)).and_then(|w| Ok((w, read_one(&all(mutant, i))?)));
+    let folded = for_each_embryo(n, 2 * n, &counter, pair, |_, (w, m): (Readout, Readout)| {
+        let on_w = pair_in_order(&refs, &finals(&w.boundaries));
+        let on_m = pair_in_order(&refs, &finals(&m.boundaries));
+        for (j, (a, b)) in on_w.iter().zip(&on_m).enumerate() {
+            if let (Some(xw), Some(xm)) = (a.0, b.0) {
+                acc[j].0.push(xw);
+                acc[j].1.push(xm);
+                acc[j].2.push(xm - xw);
             }
         }
-    }
+    });
     drop(counter);
-    if let Some((first, why)) = failure {
-        return Err(ReplicateError::Embryos { failed, total: 2 * n, first, why });
-    }
+    folded?;
     Ok(refs
         .iter()
         .zip(&acc)

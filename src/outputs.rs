@@ -202,6 +202,29 @@ pub fn write_screen(
     Ok(screen)
 }
 
+/// The table `screen --replicates` writes beside `shifts.csv`.
+pub const SCREEN_REPLICATES: &str = "replicate_shifts.csv";
+
+/// Runs `n` replicate embryos of the wild type and of every mutant with the
+/// same seeds ([`crate::replicates::paired_shifts`]) and writes
+/// [`SCREEN_REPLICATES`] into `dir`: each final boundary's shift with its
+/// 95 % interval and the change of its positional error.
+///
+/// # Errors
+/// [`WriteError`] if an embryo fails or the file cannot be written.
+pub fn write_screen_replicates(
+    model: &Model,
+    mutants: &[crate::model::Mutant],
+    n: usize,
+    dir: &Path,
+    progress: &dyn Progress,
+) -> Result<Vec<crate::replicates::PairedShift>, WriteError> {
+    let models: Vec<(String, Model)> = mutants.iter().map(|m| (m.name.clone(), model.with_mutant(m))).collect();
+    let rows = crate::replicates::paired_shifts(model, &models, n, progress)?;
+    export::write_shifts_over_embryos(&rows, &dir.join(SCREEN_REPLICATES))?;
+    Ok(rows)
+}
+
 /// Computes boundary sensitivities and writes `sensitivity.csv` and `sensitivity.png`.
 ///
 /// # Errors
@@ -290,7 +313,8 @@ pub struct ReplicateReport {
 /// and `replicates.png` into `dir`; with `attribute`, also reruns the
 /// embryos with each noise source alone and writes `attribution.csv`; with
 /// `check_step`, reruns them with half the noise step and writes
-/// `step_check.csv`; given the `wild_type` that `model` is a mutant of, also
+/// `step_check.csv`; given the name of the mutant that `model` is and its
+/// `wild_type`, also
 /// runs the same embryos of the wild type and writes `shift.csv` (each
 /// boundary's shift with its standard error). A table not asked for this
 /// time is removed, so that one from an earlier run cannot pass for this run's.
@@ -300,7 +324,7 @@ pub struct ReplicateReport {
 pub fn write_replicates(
     model: &Model,
     job: ReplicateJob,
-    wild_type: Option<&Model>,
+    wild_type: Option<(&str, &Model)>,
     style: &render::Style,
     dir: &Path,
     progress: &dyn Progress,
@@ -338,7 +362,7 @@ pub fn write_replicates(
     let shares = if job.attribute { replicates::attribute(model, job.n, &all, progress)? } else { Vec::new() };
     let step = if job.check_step { replicates::halved_step(model, job.n, &all, progress)? } else { Vec::new() };
     let shifts = match wild_type {
-        Some(w) => replicates::paired_shifts(w, model, job.n, progress)?,
+        Some((name, w)) => replicates::paired_shifts(w, &[(name.to_string(), model.clone())], job.n, progress)?,
         None => Vec::new(),
     };
     if wild_type.is_some() {

@@ -270,13 +270,40 @@ fn a_mutant_s_shift_over_the_same_embryos_has_its_own_small_error() {
     let wild_type = parse(&read_out(0.2, 100));
     let m = wild_type.parse_mutant(r#"{ name = "peak x2", scale = { "cue.peak" = 2.0 } }"#).unwrap();
     let mutant = wild_type.with_mutant(&m);
-    let shifts = replicates::paired_shifts(&wild_type, &mutant, 100, &Silent).unwrap();
+    let shifts = replicates::paired_shifts(&wild_type, &[(m.name.clone(), mutant)], 100, &Silent).unwrap();
     assert_eq!(shifts.len(), 1);
     let s = &shifts[0];
     let want = 100.0 * 2f64.ln();
     assert!((s.shift_um - want).abs() < 0.2, "shift {} vs λ ln 2 = {want}", s.shift_um);
     assert!(s.shift_sd_um < 0.2, "paired shifts hardly vary: {}", s.shift_sd_um);
     assert!(s.wild_type_sd_um > 15.0 && s.mutant_sd_um > 15.0, "{s:?}");
+    // Its 95 % interval holds λ ln 2, and the precision is unchanged.
+    assert!(s.shift_low_um <= want && want <= s.shift_high_um, "{s:?}");
+    assert_eq!(s.precision, "same", "{s:?}");
+}
+
+/// Halving the gradient's decay length halves the boundary's spread λσ
+/// (x* = λ·ln(c₀f/K), so sd = λ·sd(ln f); error propagation, as above):
+/// the paired sd ratio is 0.5 and reads "more precise"; several mutants in
+/// one call give the same rows as each alone.
+#[test]
+fn a_shorter_gradient_makes_the_boundary_more_precise() {
+    let wild_type = parse(&read_out(0.2, 60));
+    let mutant = |text: &str| {
+        let m = wild_type.parse_mutant(text).unwrap();
+        (m.name.clone(), wild_type.with_mutant(&m))
+    };
+    let short = mutant(r#"{ name = "short", scale = { "cue.decay_length_um" = 0.5 } }"#);
+    let peak = mutant(r#"{ name = "peak x2", scale = { "cue.peak" = 2.0 } }"#);
+    let both = replicates::paired_shifts(&wild_type, &[short.clone(), peak], 60, &Silent).unwrap();
+    assert_eq!(both.len(), 2);
+    let s = &both[0];
+    assert_eq!(s.mutant, "short");
+    assert!((s.sd_ratio - 0.5).abs() < 0.02, "{s:?}");
+    assert!(s.sd_ratio_low < 0.5 && 0.5 < s.sd_ratio_high, "{s:?}");
+    assert_eq!(s.precision, "more precise", "{s:?}");
+    let alone = replicates::paired_shifts(&wild_type, &[short], 60, &Silent).unwrap();
+    assert_eq!(alone[0], both[0]);
 }
 
 /// When the noise-free embryo has no boundary but some embryos form one
@@ -296,4 +323,44 @@ fn boundaries_the_noise_free_embryo_lacks_are_counted() {
     assert_eq!(r.final_boundaries().count(), 0);
     let share = *r.unreferenced.last().unwrap() as f64 / 100.0;
     assert!((0.2..0.6).contains(&share), "{share}");
+}
+
+/// `screen --replicates`: a shorter gradient reads "more precise" and a
+/// doubled peak "same" in replicate_shifts.csv, the table is the same bytes
+/// with 1 and 2 threads, and `-o -` (which writes only shifts.csv) is
+/// refused rather than dropping the replicates silently.
+#[test]
+fn a_screen_with_replicates_reports_precision_per_mutant() {
+    let dir = temp_dir("screen-replicates");
+    let model = dir.join("m.toml");
+    let text = read_out(0.2, 30)
+        + "[[mutant]]\nname = \"short\"\nscale = { \"cue.decay_length_um\" = 0.5 }\n"
+        + "[[mutant]]\nname = \"peak x2\"\nscale = { \"cue.peak\" = 2.0 }\n";
+    std::fs::write(&model, text).unwrap();
+    let mut tables = Vec::new();
+    for threads in ["1", "2"] {
+        let out = dir.join(format!("t{threads}"));
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_anlage"))
+            .args(["screen", model.to_str().unwrap(), "--replicates", "30", "-o", out.to_str().unwrap()])
+            .env("RAYON_NUM_THREADS", threads)
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        tables.push(std::fs::read_to_string(out.join("replicate_shifts.csv")).unwrap());
+    }
+    assert_eq!(tables[0], tables[1]);
+    let mut rdr = csv::Reader::from_reader(tables[0].as_bytes());
+    let header = rdr.headers().unwrap().clone();
+    let col = |name: &str| header.iter().position(|h| h == name).unwrap();
+    let rows: Vec<csv::StringRecord> = rdr.records().map(Result::unwrap).collect();
+    assert_eq!(rows.len(), 2);
+    assert_eq!((&rows[0][col("mutant")], &rows[0][col("precision")]), ("short", "more precise"));
+    assert_eq!((&rows[1][col("mutant")], &rows[1][col("precision")]), ("peak x2", "same"));
+    let o = anlage(&["screen", model.to_str().unwrap(), "--replicates", "30", "-o", "-"]);
+    assert_eq!(o.status.code(), Some(2), "{}", String::from_utf8_lossy(&o.stderr));
+    // A later screen without replicates removes the old table.
+    let out = dir.join("t1");
+    let o = anlage(&["screen", model.to_str().unwrap(), "-o", out.to_str().unwrap()]);
+    assert!(o.status.success());
+    assert!(!out.join("replicate_shifts.csv").exists());
 }

@@ -145,6 +145,11 @@ pub struct ScreenArgs {
     /// Also animate the wild type beside this mutant (its name).
     #[arg(long)]
     pub animate: Option<String>,
+    /// Also run N replicate embryos (the model's [noise]) of the wild type and of every mutant with
+    /// the same seeds: each shift with its 95 % interval, and whether the mutant makes the boundary
+    /// more or less precise (replicate_shifts.csv).
+    #[arg(long, value_name = "N")]
+    pub replicates: Option<usize>,
     /// Output folder, pictures and report form.
     #[command(flatten)]
     pub output: ScreenOutputArgs,

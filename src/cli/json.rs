@@ -18,9 +18,20 @@ pub fn print_either(json: bool, doc: impl FnOnce() -> Value, report: impl FnOnce
 
 /// `screen`: the wild type's final boundaries and, per mutant, each
 /// boundary's shift and status (the rows of `shifts.csv`).
-pub fn screen(s: &anlage::screen::Screen, dir: &Path) -> Value {
-    let mutants: Vec<Value> =
-        s.mutants.iter().zip(&s.shifts).map(|(name, shifts)| json!({ "name": name, "shifts": shifts })).collect();
+pub fn screen(s: &anlage::screen::Screen, paired: Option<&[anlage::replicates::PairedShift]>, dir: &Path) -> Value {
+    let mutants: Vec<Value> = s
+        .mutants
+        .iter()
+        .zip(&s.shifts)
+        .map(|(name, shifts)| {
+            let mut v = json!({ "name": name, "shifts": shifts });
+            if let Some(rows) = paired {
+                let mine: Vec<_> = rows.iter().filter(|r| &r.mutant == name).collect();
+                v["shifts_over_embryos"] = json!(mine);
+            }
+            v
+        })
+        .collect();
     json!({
         "kind": "screen",
         "model_prediction": true,

@@ -313,7 +313,7 @@ pub fn portrait(d: &anlage::phase::PortraitData, rec: &anlage::Recording, path: 
 }
 
 /// What `anlage screen` prints: the moved, lost and gained boundaries (up to 40 rows).
-pub fn screen(s: &anlage::screen::Screen, dir: &Path) -> String {
+pub fn screen(s: &anlage::screen::Screen, paired: Option<&[anlage::replicates::PairedShift]>, dir: &Path) -> String {
     let mut out = String::new();
     let rows: Vec<&anlage::readout::Shift> = s.shifts.iter().flatten().collect();
     let _ = writeln!(out, "{} mutants screened (model predictions)", s.mutants.len());
@@ -340,6 +340,18 @@ pub fn screen(s: &anlage::screen::Screen, dir: &Path) -> String {
     }
     if rows.len() > 40 {
         let _ = writeln!(out, "  ... {} more rows in shifts.csv", rows.len() - 40);
+    }
+    if let Some(paired) = paired {
+        let _ = writeln!(
+            out,
+            "over replicate embryos with the same seeds (shift, 95 % interval; positional error wild type -> mutant, ratio and 95 % interval):"
+        );
+        for r in paired.iter().take(40) {
+            let _ = writeln!(out, "  {:<28} {}", r.mutant, paired_shift_line(r));
+        }
+        if paired.len() > 40 {
+            let _ = writeln!(out, "  ... {} more rows in {}", paired.len() - 40, anlage::SCREEN_REPLICATES);
+        }
     }
     let _ = writeln!(out, "outputs in {}", dir.display());
     out
@@ -587,14 +599,10 @@ pub fn replicates(model: &anlage::model::Model, report: &anlage::ReplicateReport
     if !report.shifts.is_empty() {
         let _ = writeln!(
             s,
-            "shift from the wild type over the same embryos (mean ± standard error; spread between embryos):"
+            "shift from the wild type over the same embryos (mean, 95 % interval; positional error wild type -> mutant, 95 % interval of the ratio):"
         );
         for c in &report.shifts {
-            let _ = writeln!(
-                s,
-                "  {:<10} {:<8} {:+.2} ± {:.2} µm (sd {:.2} µm); positional error {:.2} -> {:.2} µm",
-                c.gene, c.direction, c.shift_um, c.shift_se_um, c.shift_sd_um, c.wild_type_sd_um, c.mutant_sd_um
-            );
+            let _ = writeln!(s, "  {}", paired_shift_line(c));
         }
     }
     if !report.step.is_empty() {
@@ -614,4 +622,27 @@ pub fn replicates(model: &anlage::model::Model, report: &anlage::ReplicateReport
     }
     let _ = writeln!(s, "outputs in {}", dir.display());
     s
+}
+
+/// One mutant boundary's shift and change of precision over paired embryos.
+pub fn paired_shift_line(c: &anlage::replicates::PairedShift) -> String {
+    let precision = if c.precision.is_empty() { "too few embryos to say".to_string() } else { c.precision.clone() };
+    format!(
+        "{:<10} {:<8} {:+.2} µm [{:+.2}, {:+.2}]; {:.2} -> {:.2} µm, ratio {:.2} [{:.2}, {:.2}]: {precision}{}",
+        c.gene,
+        c.direction,
+        c.shift_um,
+        c.shift_low_um,
+        c.shift_high_um,
+        c.wild_type_sd_um,
+        c.mutant_sd_um,
+        c.sd_ratio,
+        c.sd_ratio_low,
+        c.sd_ratio_high,
+        if c.present_fraction < 1.0 {
+            format!(" (in {:.0} % of embryos)", 100.0 * c.present_fraction)
+        } else {
+            String::new()
+        }
+    )
 }

@@ -11,7 +11,7 @@ use super::print;
 
 /// `anlage screen`.
 pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
-    let ScreenArgs { model: path, mutants, knockouts, link_removals, dosage, animate, output } = args;
+    let ScreenArgs { model: path, mutants, knockouts, link_removals, dosage, animate, replicates, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
     let model = Model::load(path)?;
     let mut list = model.mutants.clone();
@@ -38,9 +38,19 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
         None => None,
     };
     refuse_json_with_stdout(out.as_deref(), *json)?;
+    if let Some(n) = replicates {
+        check_embryos(*n)?;
+    }
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
     if table_to_stdout(out.as_deref()) {
+        if let Some(n) = replicates {
+            anyhow::bail!(StyleError::OutOfRange {
+                option: "--replicates".into(),
+                value: n.to_string(),
+                fix: "it writes replicate_shifts.csv beside shifts.csv, and -o - writes only shifts.csv; give an output folder".into(),
+            });
+        }
         if let Some(name) = animate {
             anyhow::bail!(StyleError::OutOfRange {
                 option: "--animate".into(),
@@ -53,9 +63,25 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
         return write_table_to_stdout(|w| anlage::export::write_shifts_to(&screen, w));
     }
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "screen"));
-    let screen = anlage::write_screen(&model, &list, &style, &dir, chosen.as_ref(), true, &super::bar::Bar::new(*json))
+    let bar = super::bar::Bar::new(*json);
+    let screen = anlage::write_screen(&model, &list, &style, &dir, chosen.as_ref(), true, &bar)
         .with_context(|| format!("screening {}", path.display()))?;
-    super::json::print_either(*json, || super::json::screen(&screen, &dir), || print::screen(&screen, &dir));
+    let paired = match replicates {
+        Some(n) => Some(
+            anlage::write_screen_replicates(&model, &list, *n, &dir, &bar)
+                .with_context(|| format!("replicates of the screen of {}", path.display()))?,
+        ),
+        None => {
+            // A table from an earlier screen with replicates must not pass for this one's.
+            let _ = std::fs::remove_file(dir.join(anlage::SCREEN_REPLICATES));
+            None
+        }
+    };
+    super::json::print_either(
+        *json,
+        || super::json::screen(&screen, paired.as_deref(), &dir),
+        || print::screen(&screen, paired.as_deref(), &dir),
+    );
     Ok(())
 }
 
@@ -92,8 +118,8 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
     let ScreenOutputArgs { out, look, json } = output;
     let wild_type = Model::load(path)?;
     let model = wild_type.clone();
-    let model = match mutant {
-        None => model,
+    let (name, model) = match mutant {
+        None => (None, model),
         Some(text) => {
             let m = match model.mutants.iter().find(|m| &m.name == text) {
                 Some(m) => m.clone(),
@@ -107,22 +133,16 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
                     ),
                 }),
             };
-            model.with_mutant(&m)
+            (Some(m.name.clone()), model.with_mutant(&m))
         }
     };
     let n = embryos.unwrap_or(model.noise.replicates);
-    if !(2..=anlage::model::noise::MAX_REPLICATES).contains(&n) {
-        anyhow::bail!(StyleError::OutOfRange {
-            option: "--embryos".into(),
-            value: n.to_string(),
-            fix: format!("give 2 to {} embryos", anlage::model::noise::MAX_REPLICATES),
-        });
-    }
+    check_embryos(n)?;
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "replicates"));
     let job = anlage::ReplicateJob { n, attribute: *attribute, check_step: *check_step };
-    let paired = mutant.is_some().then_some(&wild_type);
+    let paired = name.as_deref().map(|n| (n, &wild_type));
     let report = anlage::write_replicates(&model, job, paired, &style, &dir, &super::bar::Bar::new(*json))
         .with_context(|| format!("replicates of {}", path.display()))?;
     super::json::print_either(
@@ -131,4 +151,16 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
         || print::replicates(&model, &report, &dir),
     );
     Ok(())
+}
+
+/// Refuses a number of embryos outside 2..=MAX_REPLICATES.
+fn check_embryos(n: usize) -> Result<(), StyleError> {
+    if (2..=anlage::model::noise::MAX_REPLICATES).contains(&n) {
+        return Ok(());
+    }
+    Err(StyleError::OutOfRange {
+        option: "embryos".into(),
+        value: n.to_string(),
+        fix: format!("give 2 to {} embryos", anlage::model::noise::MAX_REPLICATES),
+    })
 }

@@ -271,6 +271,7 @@ pub fn write_step_check(rows: &[StepChange], path: &Path) -> Result<(), ExportEr
 
 #[derive(Serialize, Default)]
 struct ShiftRow<'a> {
+    mutant: &'a str,
     gene: &'a str,
     direction: &'a str,
     #[serde(serialize_with = "num")]
@@ -291,12 +292,27 @@ struct ShiftRow<'a> {
     shift_se_um: f64,
     #[serde(serialize_with = "num")]
     shift_sd_um: f64,
+    #[serde(serialize_with = "num")]
+    shift_low_um: f64,
+    #[serde(serialize_with = "num")]
+    shift_high_um: f64,
+    #[serde(serialize_with = "num")]
+    sd_ratio: f64,
+    #[serde(serialize_with = "num")]
+    sd_ratio_low: f64,
+    #[serde(serialize_with = "num")]
+    sd_ratio_high: f64,
+    precision: &'a str,
 }
 
-/// `shift.csv`: per final boundary of the noise-free wild type, how a mutant
-/// moves it over the same embryos: `gene, direction, reference_um,
-/// present_fraction, wild_type_mean_um, wild_type_sd_um, mutant_mean_um,
-/// mutant_sd_um, shift_um, shift_se_um, shift_sd_um`.
+/// `shift.csv` (of `replicates --mutant`) and `replicate_shifts.csv` (of
+/// `screen --replicates`): per mutant and final boundary of the noise-free
+/// wild type, how the mutant moves it over the same embryos and whether it
+/// changes its precision (see [`PairedShift`]): `mutant, gene, direction,
+/// reference_um, present_fraction, wild_type_mean_um, wild_type_sd_um,
+/// mutant_mean_um, mutant_sd_um, shift_um, shift_se_um, shift_sd_um,
+/// shift_low_um, shift_high_um, sd_ratio, sd_ratio_low, sd_ratio_high,
+/// precision`.
 ///
 /// # Errors
 /// [`ExportError`] if the file cannot be written.
@@ -304,6 +320,7 @@ pub fn write_shifts_over_embryos(rows: &[PairedShift], path: &Path) -> Result<()
     write_atomic(path, |w| {
         table(
             rows.iter().map(|s| ShiftRow {
+                mutant: &s.mutant,
                 gene: &s.gene,
                 direction: &s.direction,
                 reference_um: s.reference_um,
@@ -315,6 +332,12 @@ pub fn write_shifts_over_embryos(rows: &[PairedShift], path: &Path) -> Result<()
                 shift_um: s.shift_um,
                 shift_se_um: s.shift_se_um,
                 shift_sd_um: s.shift_sd_um,
+                shift_low_um: s.shift_low_um,
+                shift_high_um: s.shift_high_um,
+                sd_ratio: s.sd_ratio,
+                sd_ratio_low: s.sd_ratio_low,
+                sd_ratio_high: s.sd_ratio_high,
+                precision: &s.precision,
             }),
             w,
         )

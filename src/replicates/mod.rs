@@ -12,7 +12,13 @@
 //! does not grow with the number of embryos. Everything here is a model
 //! prediction.
 
+mod checks;
+pub mod intervals;
+mod mutants;
 mod stats;
+
+pub use checks::{Share, StepChange, attribute, halved_step};
+pub use mutants::{PairedShift, paired_shifts};
 
 pub use stats::{ProfileStats, Running};
 
@@ -272,42 +278,33 @@ pub enum ReplicateError {
     },
 }
 
-/// Runs `one(i)` for embryos 0..n in parallel blocks of [`BLOCK`] and hands
-/// each result to `fold` in embryo order (so the statistics do not depend on
+/// Runs `one(i)` (which reports its own progress, and says why it failed)
+/// for embryos 0..n in parallel blocks of [`BLOCK`] and hands each result to `fold` in embryo order (so the statistics do not depend on
 /// the thread count, and at most a block of results is held at a time).
 ///
 /// # Errors
 /// [`ReplicateError::Embryos`] if any embryo failed (the others are still folded).
 fn for_each_embryo<T: Send>(
     n: usize,
-    total: usize,
-    counter: &Counter,
-    one: impl Fn(usize) -> Result<T, StepError> + Sync,
+    one: impl Fn(usize) -> Result<T, String> + Sync,
     mut fold: impl FnMut(usize, T),
 ) -> Result<(), ReplicateError> {
     let mut failure: Option<(usize, String)> = None;
     let mut failed = 0;
     for start in (0..n).step_by(BLOCK) {
-        let block: Vec<Result<T, StepError>> = (start..(start + BLOCK).min(n))
-            .into_par_iter()
-            .map(|i| {
-                let r = one(i);
-                counter.tick();
-                r
-            })
-            .collect();
+        let block: Vec<Result<T, String>> = (start..(start + BLOCK).min(n)).into_par_iter().map(&one).collect();
         for (k, r) in block.into_iter().enumerate() {
             match r {
                 Ok(r) => fold(start + k, r),
                 Err(e) => {
                     failed += 1;
-                    failure.get_or_insert((start + k, e.to_string()));
+                    failure.get_or_insert((start + k, e));
                 }
             }
         }
     }
     match failure {
-        Some((first, why)) => Err(ReplicateError::Embryos { failed, total, first, why }),
+        Some((first, why)) => Err(ReplicateError::Embryos { failed, total: n, first, why }),
         None => Ok(()),
     }
 }
@@ -338,9 +335,11 @@ pub fn run(
     let counter = Counter::begin(progress, "embryos", n);
     let folded = for_each_embryo(
         n,
-        n,
-        &counter,
-        |i| read_one(&embryo(model, i, sources)),
+        |i| {
+            let r = read_one(&embryo(model, i, sources));
+            counter.tick();
+            r.map_err(|e| e.to_string())
+        },
         |i, r| {
             each(i, &r.boundaries);
             for (s, &t) in times.iter().enumerate() {
@@ -419,199 +418,6 @@ pub fn run(
         profiles,
         decoded_um,
     })
-}
-
-/// How much of each final boundary's variance one noise source explains alone.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Share {
-    /// The source ("initial levels", "intrinsic", "vary <parameter>").
-    pub source: String,
-    /// Gene of the boundary.
-    pub gene: String,
-    /// Direction of the boundary.
-    pub direction: String,
-    /// The noise-free position, µm.
-    pub reference_um: f64,
-    /// Positional error with this source alone, µm.
-    pub sd_alone_um: f64,
-    /// Its variance over the variance with every source on.
-    pub fraction: f64,
-}
-
-/// Reruns the embryos with each source alone and compares the variance of
-/// every final boundary with `all` (the run with every source on). The same
-/// embryos are used (common random numbers), so the fractions of
-/// independent sources that add linearly sum to about 1.
-///
-/// # Errors
-/// As [`run`].
-pub fn attribute(
-    model: &Model,
-    n: usize,
-    all: &Replicates,
-    progress: &dyn Progress,
-) -> Result<Vec<Share>, ReplicateError> {
-    let mut out = Vec::new();
-    for (name, sources) in Sources::each(model) {
-        let alone = run(model, n, &sources, progress, &mut |_, _| {})?;
-        for (a, b) in all.final_boundaries().zip(alone.final_boundaries()) {
-            out.push(Share {
-                source: name.clone(),
-                gene: a.gene.clone(),
-                direction: a.direction.clone(),
-                reference_um: a.reference_um,
-                sd_alone_um: b.sd_um,
-                fraction: (b.sd_um * b.sd_um) / (a.sd_um * a.sd_um),
-            });
-        }
-    }
-    Ok(out)
-}
-
-/// How a mutant moves one final boundary of the wild type, embryo by embryo.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct PairedShift {
-    /// Gene of the boundary.
-    pub gene: String,
-    /// Direction of the boundary.
-    pub direction: String,
-    /// The noise-free wild type's position, µm.
-    pub reference_um: f64,
-    /// Fraction of embryos in which both the wild type and the mutant have it
-    /// (the same number of boundaries of this gene and direction as the
-    /// noise-free wild type, paired in order).
-    pub present_fraction: f64,
-    /// Mean wild-type position over those embryos, µm.
-    pub wild_type_mean_um: f64,
-    /// Wild-type positional error, µm.
-    pub wild_type_sd_um: f64,
-    /// Mean mutant position, µm.
-    pub mutant_mean_um: f64,
-    /// Mutant positional error, µm.
-    pub mutant_sd_um: f64,
-    /// Mean of the shift (mutant − wild type of the same embryo), µm.
-    pub shift_um: f64,
-    /// Standard error of that mean, µm (sd of the shifts / √n).
-    pub shift_se_um: f64,
-    /// Sd of the shift between embryos, µm.
-    pub shift_sd_um: f64,
-}
-
-/// Runs `n` embryos of the wild type and of `mutant` (the wild type with a
-/// mutant's changes) with the same seeds, so each mutant embryo has the
-/// wild-type embryo's parameter factors and noise stream (common random
-/// numbers: the shift's standard error is that of paired differences), and
-/// summarises how each final boundary of the noise-free wild type moves.
-///
-/// # Errors
-/// As [`run`].
-pub fn paired_shifts(
-    wild_type: &Model,
-    mutant: &Model,
-    n: usize,
-    progress: &dyn Progress,
-) -> Result<Vec<PairedShift>, ReplicateError> {
-    let reference = read_one(&embryo(wild_type, 0, &Sources::none(wild_type))).map_err(ReplicateError::Reference)?;
-    let last = wild_type.clock.until_min;
-    let finals = |bs: &[Boundary]| -> Vec<Boundary> {
-        bs.iter().filter(|b| readout::same_time(b.time_min, last)).cloned().collect()
-    };
-    let refs = finals(&reference.boundaries);
-    let mut acc = vec![(Running::default(), Running::default(), Running::default()); refs.len()];
-    let counter = Counter::begin(progress, "embryo pairs", n);
-    let all = |m: &Model, i: usize| embryo(m, i, &Sources::all(m));
-    let pair = |i: usize| read_one(&all(wild_type, i)).and_then(|w| Ok((w, read_one(&all(mutant, i))?)));
-    let folded = for_each_embryo(n, 2 * n, &counter, pair, |_, (w, m): (Readout, Readout)| {
-        let on_w = pair_in_order(&refs, &finals(&w.boundaries));
-        let on_m = pair_in_order(&refs, &finals(&m.boundaries));
-        for (j, (a, b)) in on_w.iter().zip(&on_m).enumerate() {
-            if let (Some(xw), Some(xm)) = (a.0, b.0) {
-                acc[j].0.push(xw);
-                acc[j].1.push(xm);
-                acc[j].2.push(xm - xw);
-            }
-        }
-    });
-    drop(counter);
-    folded?;
-    Ok(refs
-        .iter()
-        .zip(&acc)
-        .map(|(b, (w, m, s))| PairedShift {
-            gene: b.gene.clone(),
-            direction: b.direction.to_string(),
-            reference_um: b.position_um,
-            present_fraction: s.n as f64 / n as f64,
-            wild_type_mean_um: w.mean(),
-            wild_type_sd_um: w.sd(),
-            mutant_mean_um: m.mean(),
-            mutant_sd_um: m.sd(),
-            shift_um: s.mean(),
-            shift_se_um: s.sd() / (s.n as f64).sqrt(),
-            shift_sd_um: s.sd(),
-        })
-        .collect())
-}
-
-/// How a final boundary changes when the noise step is halved.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct StepChange {
-    /// Gene of the boundary.
-    pub gene: String,
-    /// Direction of the boundary.
-    pub direction: String,
-    /// Mean position with the model's noise step, µm.
-    pub mean_um: f64,
-    /// Mean position with half the step, µm.
-    pub mean_half_um: f64,
-    /// Positional error with the model's step, µm.
-    pub sd_um: f64,
-    /// Positional error with half the step, µm.
-    pub sd_half_um: f64,
-    /// True if both changes are within 3 standard errors of a difference
-    /// of two independent estimates (means: √(2/n)·sd; sds: sd/√(n − 1)).
-    pub unchanged: bool,
-}
-
-/// Reruns the embryos with half the noise step and compares every final
-/// boundary's mean and positional error with `all`: Euler–Maruyama's error
-/// falls with the step, so a step whose halving changes nothing beyond the
-/// sampling error is small enough for this many embryos. Empty for a model
-/// without intrinsic or additive noise (its runs are deterministic).
-///
-/// # Errors
-/// As [`run`].
-pub fn halved_step(
-    model: &Model,
-    n: usize,
-    all: &Replicates,
-    progress: &dyn Progress,
-) -> Result<Vec<StepChange>, ReplicateError> {
-    let Some(k) = model.noise.step_min.filter(|_| model.noise.is_stochastic()) else {
-        return Ok(Vec::new());
-    };
-    let mut finer = model.clone();
-    finer.noise.step_min = Some(0.5 * k);
-    let half = run(&finer, n, &Sources::all(model), progress, &mut |_, _| {})?;
-    Ok(all
-        .final_boundaries()
-        .zip(half.final_boundaries())
-        .map(|(a, b)| {
-            let nn = n as f64;
-            let sd = a.sd_um.max(b.sd_um);
-            let mean_ok = (a.mean_um - b.mean_um).abs() <= 3.0 * (2.0 / nn).sqrt() * sd;
-            let sd_ok = (a.sd_um - b.sd_um).abs() <= 3.0 * sd / (nn - 1.0).sqrt();
-            StepChange {
-                gene: a.gene.clone(),
-                direction: a.direction.clone(),
-                mean_um: a.mean_um,
-                mean_half_um: b.mean_um,
-                sd_um: a.sd_um,
-                sd_half_um: b.sd_um,
-                unchanged: mean_ok && sd_ok,
-            }
-        })
-        .collect())
 }
 
 #[cfg(test)]

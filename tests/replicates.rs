@@ -364,3 +364,72 @@ fn a_screen_with_replicates_reports_precision_per_mutant() {
     assert!(o.status.success());
     assert!(!out.join("replicate_shifts.csv").exists());
 }
+
+/// `compare --replicates`: measured sds are scored against the spread over
+/// replicate embryos. The threshold read-out's boundary spreads by λσ with
+/// σ² = ln(1 + CV²) (error propagation, as above; 100 µm × 0.198 = 19.8 µm
+/// = 3.3 % of 600 µm); a measured sd of 3.3 % over 30 embryos reads "same",
+/// 10 % "measured wider" and 0.8 % "measured narrower" (F test for two
+/// variances; Snedecor & Cochran 1989, from memory). Replicates of another
+/// model are refused, naming the boundary that disagrees.
+#[test]
+fn compare_scores_measured_spreads_against_replicates() {
+    let dir = temp_dir("compare-spread");
+    let model = dir.join("m.toml");
+    std::fs::write(&model, read_out(0.2, 200)).unwrap();
+    let (run, reps) = (dir.join("run"), dir.join("reps"));
+    for args in [
+        vec!["run", model.to_str().unwrap(), "-o", run.to_str().unwrap(), "-q"],
+        vec!["replicates", model.to_str().unwrap(), "-o", reps.to_str().unwrap()],
+    ] {
+        let o = anlage(&args);
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    }
+    let measured = dir.join("measured.csv");
+    std::fs::write(
+        &measured,
+        "sample,gene,direction,position_pct,sd_pct,n\n\
+         a,quill,falling,50,3.3,30\nb,quill,falling,50,10,30\nc,quill,falling,50,0.8,30\nd,quill,falling,50,3.3,\n",
+    )
+    .unwrap();
+    let out = dir.join("cmp");
+    let o = anlage(&[
+        "compare",
+        run.to_str().unwrap(),
+        measured.to_str().unwrap(),
+        "--replicates",
+        reps.to_str().unwrap(),
+        "-o",
+        out.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let mut rdr = csv::Reader::from_path(out.join("comparison.csv")).unwrap();
+    let header = rdr.headers().unwrap().clone();
+    let col = |name: &str| header.iter().position(|h| h == name).unwrap();
+    let rows: Vec<csv::StringRecord> = rdr.records().map(Result::unwrap).collect();
+    let spread: Vec<&str> = rows.iter().map(|r| &r[col("spread")]).collect();
+    assert_eq!(spread, ["same", "measured wider", "measured narrower", ""], "{rows:?}");
+    let predicted: f64 = rows[0][col("predicted_sd_pct")].parse().unwrap();
+    let want = 100.0 / 600.0 * 100.0 * (1.04f64).ln().sqrt();
+    // The sd of 200 embryos is within 4 × want/√(2·199) of the truth.
+    assert!((predicted - want).abs() < 4.0 * want / (398f64).sqrt(), "{predicted} vs {want}");
+    assert_eq!(&rows[0][col("predicted_embryos")], "200");
+    assert!(rows[3][col("sd_ratio")].parse::<f64>().is_ok() && rows[3][col("sd_ratio_low")].is_empty());
+    // Replicates of another model (a longer gradient) are refused.
+    let other = dir.join("other.toml");
+    std::fs::write(&other, read_out(0.2, 20).replace("decay_length_um = 100.0", "decay_length_um = 120.0")).unwrap();
+    let reps2 = dir.join("reps2");
+    assert!(anlage(&["replicates", other.to_str().unwrap(), "-o", reps2.to_str().unwrap()]).status.success());
+    let o = anlage(&[
+        "compare",
+        run.to_str().unwrap(),
+        measured.to_str().unwrap(),
+        "--replicates",
+        reps2.to_str().unwrap(),
+        "-o",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("precision.csv") && err.contains("another model"), "{err}");
+}

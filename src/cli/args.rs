@@ -245,6 +245,10 @@ pub struct CompareArgs {
     /// Smallest sd taken at face value, % of length (raised to each row's resolution if that is larger).
     #[arg(long, default_value_t = anlage::compare::DEFAULT_SD_FLOOR_PCT)]
     pub sd_floor: f64,
+    /// Folder written by `anlage replicates` of the same model: also score each measured sd
+    /// against the positional error predicted over its embryos (needs the table's n for an interval).
+    #[arg(long, value_name = "DIR")]
+    pub replicates: Option<PathBuf>,
     /// Output folder (default: the run folder); `-`: comparison.csv on standard output, the
     /// report on standard error, and nothing written to disk.
     #[arg(short, long)]

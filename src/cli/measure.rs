@@ -1,20 +1,18 @@
-//! The `measure`, `compare` and `synthesize` verbs.
+//! The `measure` and `synthesize` verbs.
 
-use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
 use anyhow::{Context, bail};
 
-use anlage::compare;
 use anlage::measure::{
     self, Channel, Contrast, HeadRule, ImageMeasurement, MeasureOptions, Outline, Planes, Side, batch, synth,
 };
-use anlage::render::{Style, StyleError};
+use anlage::render::StyleError;
 
-use super::args::{CompareArgs, HeadArg, MeasureArgs, StainArg, SynthesizeArgs};
+use super::args::{HeadArg, MeasureArgs, StainArg, SynthesizeArgs};
 use super::common::{Report, refuse_json_with_stdout, say, table_to_stdout, write_table_to_stdout};
 
-fn bad_option(option: &str, value: &str, fix: &str) -> anyhow::Error {
+pub(super) fn bad_option(option: &str, value: &str, fix: &str) -> anyhow::Error {
     StyleError::OutOfRange { option: option.into(), value: value.into(), fix: fix.into() }.into()
 }
 
@@ -276,117 +274,6 @@ pub fn measure_verb(args: &MeasureArgs) -> anyhow::Result<()> {
     Ok(())
 }
 
-/// `anlage compare`.
-pub fn compare_verb(
-    run_dir: &Path,
-    measured: &Path,
-    stages: &[String],
-    sd_floor: f64,
-    out: &Option<PathBuf>,
-    json: bool,
-) -> anyhow::Result<()> {
-    refuse_json_with_stdout(out.as_deref(), json)?;
-    let to_stdout = table_to_stdout(out.as_deref());
-    let report = Report::for_out(out.as_deref());
-    let mut map = HashMap::new();
-    for s in stages {
-        let (label, min) = s.split_once('=').ok_or_else(|| bad_option("--stage", s, "write LABEL=MINUTES"))?;
-        let min: f64 = min
-            .trim()
-            .parse()
-            .ok()
-            .filter(|m: &f64| m.is_finite() && *m >= 0.0)
-            .ok_or_else(|| bad_option("--stage", s, "write LABEL=MINUTES with a number of minutes >= 0"))?;
-        if map.insert(label.trim().to_string(), min).is_some() {
-            bail!(bad_option("--stage", s, "map each stage label once"));
-        }
-    }
-    if !(sd_floor.is_finite() && sd_floor > 0.0) {
-        bail!(bad_option("--sd-floor", &sd_floor.to_string(), "give a number > 0, % of the length"));
-    }
-    let saved = anlage::run_folder::load(run_dir)?;
-    let rows = compare::read_measured(measured, &map, "--stage LABEL=MINUTES")?;
-    let rec = &saved.recording;
-    compare::check_genes(measured, &rows, &rec.genes)?;
-    compare::check_times(measured, &rows, &rec.times)?;
-    let cmp = compare::compare(rec, &rows, sd_floor)?;
-    let dir = out.clone().unwrap_or_else(|| run_dir.to_path_buf());
-    if to_stdout {
-        write_table_to_stdout(|w| anlage::export::write_comparison_to(&cmp, w))?;
-    } else {
-        std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
-        anlage::export::write_comparison(&cmp, &dir.join("comparison.csv"))?;
-        let s = (0..rec.times.len())
-            .find(|&s| cmp.rows.iter().any(|r| r.time_min == rec.times[s]))
-            .unwrap_or(rec.times.len() - 1);
-        let mut style = Style::for_recording(rec);
-        style.title = format!("{}: simulated vs measured", saved.summary.title);
-        let overlay = anlage::render::comparison_overlay(rec, s, &cmp, &style)?;
-        anlage::export::write_atomic(&dir.join("comparison.png"), |w| w.write_all(&overlay.png()?))?;
-    }
-    if json {
-        println!("{}", super::json::compare(&cmp, &dir));
-        return Ok(());
-    }
-    say!(report, "simulated (model prediction) vs measured boundaries:");
-    for r in &cmp.rows {
-        let f = |v: Option<f64>| v.map_or_else(|| "-".into(), |x| format!("{x:.2}"));
-        say!(
-            report,
-            "  {:<10} t = {:<6} {:<10} {:<8} measured {:>7} sim {:>7} diff {:>7} z {:>6}  {}",
-            r.sample,
-            r.time_min,
-            r.gene,
-            r.direction,
-            f(r.measured_pct),
-            f(r.simulated_pct),
-            f(r.difference_pct),
-            f(r.z),
-            r.status
-        );
-    }
-    match cmp.rmse_pct {
-        Some(e) => say!(
-            report,
-            "root-mean-square difference: {e:.3} % of axis length over {} matched boundaries",
-            cmp.rows.iter().filter(|r| r.status == "matched").count()
-        ),
-        None => say!(report, "no boundary could be matched"),
-    }
-    if cmp.raised_sds > 0 {
-        say!(
-            report,
-            "note: {} sd(s) below the resolution or the floor ({sd_floor} % of length) were raised to it for z",
-            cmp.raised_sds
-        );
-    }
-    if cmp.at_last_snapshot > 0 {
-        say!(
-            report,
-            "note: {} row(s) give no time and were compared at the last snapshot, t = {} min",
-            cmp.at_last_snapshot,
-            rec.times[rec.times.len() - 1]
-        );
-    }
-    let rms = |r: Option<f64>| r.map_or_else(|| "-".into(), |x| format!("{x:.2} %"));
-    for h in &cmp.mirror {
-        say!(
-            report,
-            "warning: {} (t = {} min) matches much better read the other way round: {} matched, rms {} mirrored; {} matched, rms {} as given. Was its head taken at the wrong end? Check its picture, and measure with --head or --head-high.",
-            h.sample,
-            h.time_min,
-            h.mirrored.0,
-            rms(h.mirrored.1),
-            h.as_given.0,
-            rms(h.as_given.1)
-        );
-    }
-    if !to_stdout {
-        say!(report, "wrote {}", dir.join("comparison.csv").display());
-    }
-    Ok(())
-}
-
 /// `anlage synthesize`.
 pub fn synthesize_verb(run_dir: &Path, out: &Path, count: usize, seed: u64) -> anyhow::Result<()> {
     let saved = anlage::run_folder::load(run_dir)?;
@@ -434,12 +321,6 @@ pub fn synthesize_verb(run_dir: &Path, out: &Path, count: usize, seed: u64) -> a
 /// `anlage measure`.
 pub fn measure(args: &MeasureArgs) -> anyhow::Result<()> {
     measure_verb(args)
-}
-
-/// `anlage compare`.
-pub fn compare(args: &CompareArgs) -> anyhow::Result<()> {
-    let CompareArgs { run_dir, measured, stages, sd_floor, out, json } = args;
-    compare_verb(run_dir, measured, stages, *sd_floor, out, *json)
 }
 
 /// `anlage synthesize`.

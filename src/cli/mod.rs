@@ -5,6 +5,7 @@
 mod args;
 mod bar;
 mod common;
+mod compare;
 mod fit;
 mod json;
 mod measure;
@@ -28,7 +29,7 @@ pub fn dispatch(cli: &Cli) -> anyhow::Result<()> {
         Command::Replicates(a) => screen::replicates(a),
         Command::Fit(a) => fit::fit(a),
         Command::Measure(a) => measure::measure(a),
-        Command::Compare(a) => measure::compare(a),
+        Command::Compare(a) => compare::compare(a),
         Command::Synthesize(a) => measure::synthesize(a),
         Command::Completions(a) => {
             let mut cmd = <Cli as clap::CommandFactory>::command();

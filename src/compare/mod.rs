@@ -7,6 +7,7 @@
 //! is the larger of the table's sd, its `resolution_pct` (one pixel in % of
 //! the length) and a floor (default [`DEFAULT_SD_FLOOR_PCT`]).
 
+pub mod spread;
 pub mod table;
 
 use serde::Serialize;
@@ -59,6 +60,22 @@ pub struct ComparisonRow {
     pub z: Option<f64>,
     /// "matched", "measured only" or "simulated only".
     pub status: String,
+    /// Embryos behind the measured sd, as given.
+    pub n: Option<u32>,
+    /// Positional error over replicate embryos of the model, % length
+    /// (with `compare --replicates`; see [`spread`]).
+    pub predicted_sd_pct: Option<f64>,
+    /// Replicate embryos behind it.
+    pub predicted_embryos: Option<usize>,
+    /// Measured sd over predicted sd.
+    pub sd_ratio: Option<f64>,
+    /// 95 % interval of that ratio, low end (needs the measured n).
+    pub sd_ratio_low: Option<f64>,
+    /// Its high end.
+    pub sd_ratio_high: Option<f64>,
+    /// "measured wider", "measured narrower", "same", "no predicted spread"
+    /// or empty (see [`spread::score_spread`]).
+    pub spread: String,
 }
 
 /// A sample whose boundaries match much better read the other way round.
@@ -185,6 +202,8 @@ pub fn compare(rec: &Recording, measured: &[MeasuredRow], floor: f64) -> Result<
                     _ => "measured only",
                 }
                 .to_string(),
+                n: row.and_then(|m| m.n),
+                ..ComparisonRow::default()
             });
         }
     }

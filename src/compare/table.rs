@@ -75,6 +75,22 @@ pub enum CompareError {
         /// The model's genes.
         known: String,
     },
+    /// Replicates made from another model than the run.
+    #[error("{}: the noise-free {gene} {direction} boundary at t = {time_min} min is at {replicates_pct:.2} % there but at {run_pct:.2} % in the run: the replicates were made from another model or other settings; rerun `anlage replicates` on the model file of the run", path.display())]
+    OtherModel {
+        /// The replicates' precision table.
+        path: PathBuf,
+        /// Gene.
+        gene: String,
+        /// Direction.
+        direction: String,
+        /// Snapshot, min.
+        time_min: f64,
+        /// The run's position, %.
+        run_pct: f64,
+        /// The replicates' noise-free position, %.
+        replicates_pct: f64,
+    },
 }
 
 /// One measured boundary.

@@ -79,6 +79,7 @@ struct PrecisionRow<'a> {
     reference_um: f64,
     #[serde(serialize_with = "num")]
     present_fraction: f64,
+    embryos: usize,
     #[serde(serialize_with = "num")]
     miscounted_fraction: f64,
     #[serde(serialize_with = "num")]
@@ -94,7 +95,7 @@ struct PrecisionRow<'a> {
 }
 
 /// `precision.csv`: per snapshot and boundary of the noise-free embryo:
-/// `time_min, gene, direction, reference_um, present_fraction,
+/// `time_min, gene, direction, reference_um, present_fraction, embryos,
 /// miscounted_fraction, mean_um,
 /// sd_um, mean_pct, sd_pct, decoded_sd_um` (µm and % of the length; the
 /// decoded error at the mean position, last snapshot only).
@@ -111,6 +112,7 @@ pub fn write_precision(r: &Replicates, path: &Path) -> Result<(), ExportError> {
                 direction: &b.direction,
                 reference_um: b.reference_um,
                 present_fraction: b.present_fraction,
+                embryos: b.embryos,
                 miscounted_fraction: b.miscounted_fraction,
                 mean_um: b.mean_um,
                 sd_um: b.sd_um,

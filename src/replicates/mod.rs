@@ -170,6 +170,8 @@ pub struct BoundaryPrecision {
     /// many boundaries of this direction as the noise-free embryo, paired in
     /// order along the axis ([`readout::pair_in_order`]).
     pub present_fraction: f64,
+    /// Embryos in which it exists (the sample behind the mean and sd).
+    pub embryos: usize,
     /// Fraction of embryos in which the gene has another number of
     /// boundaries of this direction (a stripe lost or gained, or a ragged
     /// boundary crossing its level several times): not counted in the spread.
@@ -383,6 +385,7 @@ pub fn run(
                 direction: b.direction.to_string(),
                 reference_um: b.position_um,
                 present_fraction: r.n as f64 / n as f64,
+                embryos: r.n,
                 miscounted_fraction: *m as f64 / n as f64,
                 mean_um: r.mean(),
                 sd_um: r.sd(),

@@ -383,5 +383,7 @@ pub fn write_replicates(
     }
     let picture = render::replicates_picture(&all, style);
     export::write_atomic(&dir.join("replicates.png"), |w| w.write_all(&picture.png()?))?;
+    let bands = render::boundary_bands(&all, style);
+    export::write_atomic(&dir.join("boundary_bands.png"), |w| w.write_all(&bands.png()?))?;
     Ok(ReplicateReport { replicates: all, shares, step, shifts })
 }

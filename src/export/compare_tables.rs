@@ -83,6 +83,13 @@ mod tests {
             difference_pct: Some(0.30000000000000004),
             z: Some(0.6),
             status: "matched".into(),
+            n: Some(12),
+            predicted_sd_pct: Some(2.25),
+            predicted_embryos: Some(200),
+            sd_ratio: Some(1.1),
+            sd_ratio_low: Some(0.7),
+            sd_ratio_high: Some(1.9),
+            spread: "same".into(),
         };
         let c = Comparison {
             rows: vec![row.clone()],

@@ -33,7 +33,7 @@ pub fn kymograph(
         snaps.iter().map(|&s| rec.axis_profiles(s, style.genes.iter().copied())).collect::<Result<_, _>>()?;
     let length = rec.grid.length_um();
     let times: Vec<f64> = snaps.iter().map(|&s| rec.times[s]).collect();
-    let (mut c, a) = space_time(&times, style, "time (min)", |x_frac, k| {
+    let (mut c, a) = space_time(&times, style, "time (min)", 0.0, |x_frac, k| {
         let x_um = x_frac * length;
         style.paint(
             &colors,
@@ -51,6 +51,7 @@ pub fn kymograph(
 /// given snapshot `times` down; `paint(x_fraction, k)` colours the pixel at
 /// that fraction of the axis and snapshot k. Draws axes, the title and the
 /// prediction label; the caller adds the legend (top right, baseline y = 50).
+/// The canvas has `footer` px beneath the axis label for a key.
 ///
 /// # Panics
 /// If `times` is empty.
@@ -58,13 +59,14 @@ pub fn space_time(
     times: &[f64],
     style: &Style,
     y_label: &str,
+    footer: f32,
     paint: impl Fn(f64, usize) -> [u8; 3] + Sync,
 ) -> (Canvas, Axes) {
     assert!(!times.is_empty(), "no snapshot in the time range");
     let (t0, t1) = (times[0], times[times.len() - 1]);
     let bg = style.background;
     let plot_h = (times.len() as f32 * 6.0).clamp(240.0, 480.0);
-    let (left, top, right, bottom) = (64.0, 64.0, 24.0, 58.0);
+    let (left, top, right, bottom) = (64.0, 64.0, 24.0, 58.0 + footer);
     let width = style.width.max(320);
     let height = (top + plot_h + bottom) as u32;
     let mut c = Canvas::new(width, height, bg.rgb());

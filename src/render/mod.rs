@@ -5,6 +5,7 @@
 //! Renderers see only the recording and its boundaries, never the model file.
 
 mod animate;
+mod boundary_bands;
 mod axes;
 mod canvas;
 pub mod colour;
@@ -20,6 +21,7 @@ mod replicates;
 mod screen;
 
 pub use animate::{write_gif, write_pair_gif};
+pub use boundary_bands::boundary_bands;
 pub use canvas::{Align, Canvas};
 pub use colour::Background;
 pub use fit::{fit_boundaries, fit_profiles, fit_trace};

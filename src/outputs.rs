@@ -284,6 +284,9 @@ pub fn write_fit(
     Ok(())
 }
 
+/// The animation of `replicates --animate K`.
+pub const EMBRYOS_GIF: &str = "embryos.gif";
+
 /// What `anlage replicates` is asked to do.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct ReplicateJob {
@@ -293,6 +296,8 @@ pub struct ReplicateJob {
     pub attribute: bool,
     /// Also rerun with half the noise step.
     pub check_step: bool,
+    /// Animate the first this many embryos side by side (0: no animation).
+    pub animate: usize,
 }
 
 /// What `anlage replicates` found.
@@ -385,5 +390,22 @@ pub fn write_replicates(
     export::write_atomic(&dir.join("replicates.png"), |w| w.write_all(&picture.png()?))?;
     let bands = render::boundary_bands(&all, style);
     export::write_atomic(&dir.join("boundary_bands.png"), |w| w.write_all(&bands.png()?))?;
+    if job.animate > 0 {
+        let runs = replicates::recordings(model, job.animate)?;
+        let columns = (job.animate as f64).sqrt().ceil() as usize;
+        let styles: Vec<render::Style> = (0..runs.len())
+            .map(|i| render::Style {
+                title: format!("embryo {i}"),
+                width: (style.width / columns as u32).max(320),
+                ..style.clone()
+            })
+            .collect();
+        let panels: Vec<(&crate::Recording, &render::Style)> = runs.iter().zip(&styles).collect();
+        export::write_atomic(&dir.join(EMBRYOS_GIF), |w| {
+            render::write_grid_gif(&panels, columns, true, w).map(|_| ())
+        })?;
+    } else {
+        let _ = std::fs::remove_file(dir.join(EMBRYOS_GIF));
+    }
     Ok(ReplicateReport { replicates: all, shares, step, shifts })
 }

@@ -433,3 +433,42 @@ fn compare_scores_measured_spreads_against_replicates() {
     let err = String::from_utf8_lossy(&o.stderr);
     assert!(err.contains("precision.csv") && err.contains("another model"), "{err}");
 }
+
+/// `replicates --animate 3`: embryos.gif holds one frame per snapshot with
+/// three panels on a grid of two columns (720 px: two 360-px panels), and
+/// embryo 0's panel differs from embryo 1's (each has its own gradient peak);
+/// a count outside 2..=9 is refused, and a later run without it removes the
+/// old animation.
+#[test]
+fn replicate_embryos_animate_side_by_side() {
+    let dir = temp_dir("replicates-gif");
+    let model = dir.join("m.toml");
+    std::fs::write(&model, read_out(0.3, 10)).unwrap();
+    let out = dir.join("out");
+    let o = anlage(&["replicates", model.to_str().unwrap(), "--animate", "3", "-o", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let mut opts = gif::DecodeOptions::new();
+    opts.set_color_output(gif::ColorOutput::RGBA);
+    let mut d = opts.read_info(std::fs::File::open(out.join("embryos.gif")).unwrap()).unwrap();
+    let (w, h) = (d.width() as usize, d.height() as usize);
+    assert_eq!(w, 720);
+    let mut frames = Vec::new();
+    while let Some(f) = d.read_next_frame().unwrap() {
+        frames.push(f.buffer.to_vec());
+    }
+    assert_eq!(frames.len(), 2, "snapshots at 0 and 40 min");
+    let last = frames.last().unwrap();
+    // The left and right panels of the top row differ; the bottom-right cell is empty.
+    let panel = |x0: usize, y0: usize| -> Vec<u8> {
+        (y0..y0 + h / 2).flat_map(|y| last[4 * (y * w + x0)..4 * (y * w + x0 + w / 2)].to_vec()).collect()
+    };
+    assert_ne!(panel(0, 0), panel(w / 2, 0));
+    let empty = panel(w / 2, h / 2);
+    assert!(empty.chunks(4).all(|p| p == &empty[..4]), "the fourth cell is blank");
+    for bad in ["1", "10"] {
+        let o = anlage(&["replicates", model.to_str().unwrap(), "--animate", bad, "-o", out.to_str().unwrap()]);
+        assert_eq!(o.status.code(), Some(2), "--animate {bad}");
+    }
+    assert!(anlage(&["replicates", model.to_str().unwrap(), "-o", out.to_str().unwrap()]).status.success());
+    assert!(!out.join("embryos.gif").exists());
+}

@@ -199,6 +199,10 @@ pub struct ReplicatesArgs {
     /// Also rerun the embryos with half the noise step: do the means and spreads change beyond sampling error?
     #[arg(long)]
     pub check_step: bool,
+    /// Also animate the first K embryos side by side in embryos.gif (2 to 9; panel "embryo i" is row
+    /// embryo = i of embryo_boundaries.csv), all scaled alike so that weaker embryos look weaker.
+    #[arg(long, value_name = "K")]
+    pub animate: Option<usize>,
     /// Replicates of a mutant: the name of a [[mutant]] in the model, or one written as on `screen --mutant`.
     #[arg(long, value_name = "NAME|'{…}'")]
     pub mutant: Option<String>,

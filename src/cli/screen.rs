@@ -114,7 +114,7 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
 
 /// `anlage replicates`.
 pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
-    let ReplicatesArgs { model: path, embryos, attribute, check_step, mutant, output } = args;
+    let ReplicatesArgs { model: path, embryos, attribute, check_step, animate, mutant, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
     let wild_type = Model::load(path)?;
     let model = wild_type.clone();
@@ -138,10 +138,19 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
     };
     let n = embryos.unwrap_or(model.noise.replicates);
     check_embryos(n)?;
+    if let Some(k) = animate
+        && !((2..=9).contains(k) && *k <= n)
+    {
+        anyhow::bail!(StyleError::OutOfRange {
+            option: "--animate".into(),
+            value: k.to_string(),
+            fix: format!("give 2 to 9 embryos, and no more than the {n} run"),
+        });
+    }
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "replicates"));
-    let job = anlage::ReplicateJob { n, attribute: *attribute, check_step: *check_step };
+    let job = anlage::ReplicateJob { n, attribute: *attribute, check_step: *check_step, animate: animate.unwrap_or(0) };
     let paired = name.as_deref().map(|n| (n, &wild_type));
     let report = anlage::write_replicates(&model, job, paired, &style, &dir, &super::bar::Bar::new(*json))
         .with_context(|| format!("replicates of {}", path.display()))?;

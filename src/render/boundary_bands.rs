@@ -6,9 +6,9 @@
 //! gene, direction and rank along the axis, and broken where fewer than two
 //! embryos have it.
 
+use super::Style;
 use super::canvas::{Align, Canvas};
 use super::kymograph::space_time;
-use super::Style;
 use crate::replicates::{BoundaryPrecision, Replicates};
 
 /// One boundary followed over the snapshots: (time, mean %, sd %, noise-free %).
@@ -102,7 +102,8 @@ pub fn boundary_bands(r: &Replicates, style: &Style) -> Canvas {
         pen += item(g);
     }
     let strip = if r.sheet { ", central strip" } else { "" };
-    let key = format!("band: mean ± 1 sd over {} embryos{strip}; solid: their mean; dashed: the noise-free embryo", r.n);
+    let key =
+        format!("band: mean ± 1 sd over {} embryos{strip}; solid: their mean; dashed: the noise-free embryo", r.n);
     c.text(a.left, c.height() as f32 - 8.0, 12.0, bg.muted(), Align::Left, &key);
     c
 }

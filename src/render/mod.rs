@@ -5,8 +5,8 @@
 //! Renderers see only the recording and its boundaries, never the model file.
 
 mod animate;
-mod boundary_bands;
 mod axes;
+mod boundary_bands;
 mod canvas;
 pub mod colour;
 mod fit;
@@ -20,7 +20,7 @@ mod profiles;
 mod replicates;
 mod screen;
 
-pub use animate::{write_gif, write_pair_gif};
+pub use animate::{write_gif, write_grid_gif, write_pair_gif};
 pub use boundary_bands::boundary_bands;
 pub use canvas::{Align, Canvas};
 pub use colour::Background;

@@ -155,6 +155,23 @@ fn read_one(model: &Model) -> Result<Readout, StepError> {
     })
 }
 
+/// The full recordings of embryos 0..k, with every noise source on: the
+/// same embryos as the first k of a replicate run (rows `embryo` 0..k of
+/// `embryo_boundaries.csv`), run in parallel.
+///
+/// # Errors
+/// [`ReplicateError::Embryos`] if any of them fails.
+pub fn recordings(model: &Model, k: usize) -> Result<Vec<crate::Recording>, ReplicateError> {
+    let options = RunOptions { parallel: false, stochastic: true, ..RunOptions::default() };
+    let mut out = Vec::with_capacity(k);
+    for_each_embryo(
+        k,
+        |i| simulate(&embryo(model, i, &Sources::all(model)), &options).map_err(|e| e.to_string()),
+        |_, run| out.push(run.recording),
+    )?;
+    Ok(out)
+}
+
 /// The spread of one boundary of the reference embryo at one snapshot.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct BoundaryPrecision {

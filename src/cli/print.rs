@@ -560,6 +560,20 @@ pub fn replicates(model: &anlage::model::Model, report: &anlage::ReplicateReport
             w.reference_width_um
         );
     }
+    let flickered: Vec<String> = r
+        .final_boundaries()
+        .filter(|b| b.ragged_fraction > 0.0)
+        .map(|b| format!("{} {} in {:.1} %", b.gene, b.direction, 100.0 * b.ragged_fraction))
+        .collect();
+    if !flickered.is_empty() {
+        let _ = writeln!(
+            s,
+            "  note: ragged boundaries ({}): the profile crossed its level in flickers narrower than the boundary's \
+             ramp; each was merged into the nearest boundary, which keeps the expressed length (precision.csv, \
+             ragged_fraction)",
+            flickered.join(", ")
+        );
+    }
     let ragged: Vec<String> = r
         .final_boundaries()
         .filter(|b| b.miscounted_fraction > 0.0)
@@ -577,8 +591,8 @@ pub fn replicates(model: &anlage::model::Model, report: &anlage::ReplicateReport
         let _ = writeln!(
             s,
             "  NOTE: some embryos have another number of such boundaries than the noise-free embryo ({}): a stripe \
-             lost or gained, or a boundary so ragged that it crosses its level several times; they are left out \
-             of the spread above, which then describes only the others",
+             lost or gained, or a boundary so ragged that its flickers are wider than its ramp; they are left \
+             out of the spread above, which then describes only the others",
             ragged.join(", ")
         );
     }

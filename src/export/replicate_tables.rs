@@ -81,6 +81,8 @@ struct PrecisionRow<'a> {
     present_fraction: f64,
     embryos: usize,
     #[serde(serialize_with = "num")]
+    ragged_fraction: f64,
+    #[serde(serialize_with = "num")]
     miscounted_fraction: f64,
     #[serde(serialize_with = "num")]
     mean_um: f64,
@@ -96,7 +98,7 @@ struct PrecisionRow<'a> {
 
 /// `precision.csv`: per snapshot and boundary of the noise-free embryo:
 /// `time_min, gene, direction, reference_um, present_fraction, embryos,
-/// miscounted_fraction, mean_um,
+/// ragged_fraction, miscounted_fraction, mean_um,
 /// sd_um, mean_pct, sd_pct, decoded_sd_um` (µm and % of the length; the
 /// decoded error at the mean position, last snapshot only).
 ///
@@ -113,6 +115,7 @@ pub fn write_precision(r: &Replicates, path: &Path) -> Result<(), ExportError> {
                 reference_um: b.reference_um,
                 present_fraction: b.present_fraction,
                 embryos: b.embryos,
+                ragged_fraction: b.ragged_fraction,
                 miscounted_fraction: b.miscounted_fraction,
                 mean_um: b.mean_um,
                 sd_um: b.sd_um,

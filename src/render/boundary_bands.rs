@@ -127,6 +127,7 @@ mod tests {
             reference_um: mean,
             present_fraction: embryos as f64 / 10.0,
             embryos,
+            ragged_fraction: 0.0,
             miscounted_fraction: 0.0,
             mean_um: mean,
             sd_um: 5.0,

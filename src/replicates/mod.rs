@@ -15,6 +15,7 @@
 mod checks;
 pub mod intervals;
 mod mutants;
+pub mod ragged;
 mod stats;
 
 pub use checks::{Share, StepChange, attribute, halved_step};
@@ -136,7 +137,7 @@ pub fn embryo(model: &Model, i: usize, sources: &Sources) -> Model {
 
 /// What one embryo gives.
 struct Readout {
-    /// Boundaries at every snapshot.
+    /// Boundaries at every snapshot, as found.
     boundaries: Vec<Boundary>,
     /// Domains at the last snapshot.
     domains: Vec<Domain>,
@@ -189,6 +190,10 @@ pub struct BoundaryPrecision {
     pub present_fraction: f64,
     /// Embryos in which it exists (the sample behind the mean and sd).
     pub embryos: usize,
+    /// Fraction of embryos in which the gene's profile crossed its level in
+    /// flickers of one or two nuclei at this snapshot, merged into its
+    /// boundaries before pairing ([`ragged`]).
+    pub ragged_fraction: f64,
     /// Fraction of embryos in which the gene has another number of
     /// boundaries of this direction (a stripe lost or gained, or a ragged
     /// boundary crossing its level several times): not counted in the spread.
@@ -348,18 +353,37 @@ pub fn run(
     let reference_at: Vec<Vec<Boundary>> = times.iter().map(|&t| at(&reference.boundaries, t)).collect();
     let mut positions: Vec<Vec<Running>> = reference_at.iter().map(|r| vec![Running::default(); r.len()]).collect();
     let mut miscounted: Vec<Vec<usize>> = reference_at.iter().map(|r| vec![0; r.len()]).collect();
+    let mut ragged: Vec<Vec<usize>> = reference_at.iter().map(|r| vec![0; r.len()]).collect();
     let mut unreferenced = vec![0usize; times.len()];
     let mut widths = vec![Running::default(); reference.domains.len()];
     let mut profiles = ProfileStats::new(model.genes.len(), model.grid.nx);
+    let flickers = ragged::Flickers::new(&reference.boundaries, model.grid.spacing_um, model.grid.length_um());
+    let periodic = model.grid.edges == crate::model::Edges::Periodic;
+    let last_time = times.last().copied().unwrap_or(0.0);
     let counter = Counter::begin(progress, "embryos", n);
     let folded = for_each_embryo(
         n,
         |i| {
             let r = read_one(&embryo(model, i, sources));
             counter.tick();
-            r.map_err(|e| e.to_string())
+            let mut r = r.map_err(|e| e.to_string())?;
+            let (merged, ragged) = flickers.merge(&r.boundaries);
+            r.boundaries = merged;
+            // A gene whose final boundaries lost flickers has its domains
+            // rebuilt from them (on a sealed row).
+            for (_, gene) in ragged.iter().filter(|(t, _)| readout::same_time(*t, last_time) && !periodic) {
+                let mine: Vec<Boundary> = r
+                    .boundaries
+                    .iter()
+                    .filter(|b| &b.gene == gene && readout::same_time(b.time_min, last_time))
+                    .cloned()
+                    .collect();
+                r.domains.retain(|d| &d.gene != gene);
+                r.domains.extend(ragged::domains_from(&mine, model.grid.length_um()));
+            }
+            Ok((r, ragged))
         },
-        |i, r| {
+        |i, (r, ragged_here)| {
             each(i, &r.boundaries);
             for (s, &t) in times.iter().enumerate() {
                 let mine = at(&r.boundaries, t);
@@ -371,6 +395,9 @@ pub fn run(
                         positions[s][j].push(x);
                     }
                     miscounted[s][j] += usize::from(other_count);
+                    let gene = &reference_at[s][j].gene;
+                    ragged[s][j] +=
+                        usize::from(ragged_here.iter().any(|(rt, g)| readout::same_time(*rt, t) && g == gene));
                 }
             }
             // Domains pair in order too, gene by gene, where the counts agree.
@@ -394,15 +421,16 @@ pub fn run(
     let boundaries = times
         .iter()
         .zip(&reference_at)
-        .zip(positions.iter().zip(&miscounted))
-        .flat_map(|((&t, refs), (runs, miss))| {
-            refs.iter().zip(runs).zip(miss).map(move |((b, r), m)| BoundaryPrecision {
+        .zip(positions.iter().zip(&miscounted).zip(&ragged))
+        .flat_map(|((&t, refs), ((runs, miss), rag))| {
+            refs.iter().zip(runs).zip(miss).zip(rag).map(move |(((b, r), m), rg)| BoundaryPrecision {
                 time_min: t,
                 gene: b.gene.clone(),
                 direction: b.direction.to_string(),
                 reference_um: b.position_um,
                 present_fraction: r.n as f64 / n as f64,
                 embryos: r.n,
+                ragged_fraction: *rg as f64 / n as f64,
                 miscounted_fraction: *m as f64 / n as f64,
                 mean_um: r.mean(),
                 sd_um: r.sd(),

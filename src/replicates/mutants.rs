@@ -80,12 +80,13 @@ pub fn paired_shifts(
         bs.into_iter().filter(|b| readout::same_time(b.time_min, last)).collect()
     };
     let refs = finals(reference.boundaries);
+    let flickers = super::ragged::Flickers::new(&refs, wild_type.grid.spacing_um, wild_type.grid.length_um());
     let mut acc = vec![vec![Paired::default(); refs.len()]; mutants.len()];
     let counter = Counter::begin(progress, "embryos", n * (1 + mutants.len()));
     let final_of = |m: &Model, i: usize, name: &str| -> Result<Vec<Boundary>, String> {
         let r = read_one(&embryo(m, i, &Sources::all(m)));
         counter.tick();
-        Ok(finals(r.map_err(|e| format!("{name}: {e}"))?.boundaries))
+        Ok(flickers.merge(&finals(r.map_err(|e| format!("{name}: {e}"))?.boundaries)).0)
     };
     let one = |i: usize| -> Result<(Vec<Boundary>, Vec<Vec<Boundary>>), String> {
         let w = final_of(wild_type, i, "wild type")?;

@@ -69,7 +69,8 @@ library_errors!(
         crate::measure::MeasureError,
         crate::compare::CompareError,
         crate::integrate::CheckpointError,
-        crate::fit::FitSetupError
+        crate::fit::FitSetupError,
+        crate::sweep::AxisError
     ],
     run: [
         crate::replicates::ReplicateError,

@@ -202,6 +202,27 @@ pub fn write_screen(
     Ok(screen)
 }
 
+/// Runs a sweep ([`crate::sweep::run_sweep`]) and writes `sweep.csv`,
+/// `sweep_boundaries.csv` and `sweep.png` into `dir`.
+///
+/// # Errors
+/// [`WriteError`] if a file cannot be written.
+pub fn write_sweep(
+    model: &Model,
+    axes: &[crate::sweep::Axis],
+    style: &render::Style,
+    dir: &Path,
+    parallel: bool,
+    progress: &dyn Progress,
+) -> Result<crate::sweep::Sweep, WriteError> {
+    let sweep = crate::sweep::run_sweep(model, axes, parallel, progress);
+    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
+    export::write_sweep(&sweep, dir)?;
+    let picture = render::sweep_picture(&sweep, style);
+    export::write_atomic(&dir.join("sweep.png"), |w| w.write_all(&picture.png()?))?;
+    Ok(sweep)
+}
+
 /// The table `screen --replicates` writes beside `shifts.csv`.
 pub const SCREEN_REPLICATES: &str = "replicate_shifts.csv";
 

@@ -29,6 +29,9 @@ pub enum Command {
     Screen(ScreenArgs),
     /// Which parameter moves which boundary: d position / d ln parameter for all.
     Sensitivity(SensitivityArgs),
+    /// Sweep one or more parameters over a grid: each point's boundaries, domains and pattern class,
+    /// and a phase diagram.
+    Sweep(SweepArgs),
     /// Replicate embryos with the noise of the model's [noise] section: each
     /// boundary's mean position and positional error, and the error decoded from all genes.
     Replicates(ReplicatesArgs),
@@ -180,6 +183,20 @@ pub struct SensitivityArgs {
     /// Step in ln(parameter) for the central differences (default 0.01).
     #[arg(long, default_value_t = anlage::screen::SENSITIVITY_STEP)]
     pub step: f64,
+    /// Output folder, pictures and report form.
+    #[command(flatten)]
+    pub output: ScreenOutputArgs,
+}
+
+/// Arguments of `sweep`.
+#[derive(Debug, Args)]
+pub struct SweepArgs {
+    /// Model file (TOML).
+    pub model: PathBuf,
+    /// A swept parameter, NAME=FROM:TO:POINTS[:log] (repeatable; the grid is every combination),
+    /// named as in a mutant's scale, e.g. amber.production=0.5:2:21:log.
+    #[arg(long = "axis", value_name = "NAME=FROM:TO:POINTS[:log]", required = true)]
+    pub axes: Vec<String>,
     /// Output folder, pictures and report form.
     #[command(flatten)]
     pub output: ScreenOutputArgs,

@@ -229,3 +229,23 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, dir: &
         "outputs": dir,
     })
 }
+
+/// `sweep`: the axes, and per point its parameter values, class, failure
+/// and final boundaries.
+pub fn sweep(s: &anlage::sweep::Sweep, dir: &Path) -> Value {
+    let axes: Vec<Value> =
+        s.axes.iter().map(|a| json!({ "parameter": a.name, "values": a.values, "log": a.log })).collect();
+    let points: Vec<Value> = s
+        .points
+        .iter()
+        .map(|p| {
+            json!({
+                "values": p.values,
+                "class": p.class.name(),
+                "failure": p.failure,
+                "boundaries": p.boundaries,
+            })
+        })
+        .collect();
+    json!({ "kind": "sweep", "model_prediction": true, "axes": axes, "points": points, "outputs": dir })
+}

@@ -26,6 +26,7 @@ pub fn dispatch(cli: &Cli) -> anyhow::Result<()> {
         Command::Portrait(a) => phase::portrait(a),
         Command::Screen(a) => screen::screen(a),
         Command::Sensitivity(a) => screen::sensitivity(a),
+        Command::Sweep(a) => screen::sweep(a),
         Command::Replicates(a) => screen::replicates(a),
         Command::Fit(a) => fit::fit(a),
         Command::Measure(a) => measure::measure(a),

@@ -660,3 +660,43 @@ pub fn paired_shift_line(c: &anlage::replicates::PairedShift) -> String {
         }
     )
 }
+
+/// What `anlage sweep` prints: how many points fell in each class, and the
+/// parameter ranges where each class was found.
+pub fn sweep(s: &anlage::sweep::Sweep, dir: &Path) -> String {
+    let mut out = String::new();
+    let _ = writeln!(out, "{} points swept (model predictions):", s.points.len());
+    for a in &s.axes {
+        let _ = writeln!(
+            out,
+            "  {} from {} to {} ({} points{})",
+            a.name,
+            a.values[0],
+            a.values[a.values.len() - 1],
+            a.values.len(),
+            if a.log { ", log spacing" } else { "" }
+        );
+    }
+    for class in anlage::sweep::PatternClass::ALL {
+        let here: Vec<&anlage::sweep::Point> = s.points.iter().filter(|p| p.class == class).collect();
+        if here.is_empty() {
+            continue;
+        }
+        let ranges: Vec<String> = s
+            .axes
+            .iter()
+            .enumerate()
+            .map(|(k, a)| {
+                let lo = here.iter().map(|p| p.values[k]).fold(f64::INFINITY, f64::min);
+                let hi = here.iter().map(|p| p.values[k]).fold(f64::NEG_INFINITY, f64::max);
+                format!("{} {lo:.4}..{hi:.4}", a.name)
+            })
+            .collect();
+        let _ = writeln!(out, "  {:<16} {:>6} points  ({})", class.name(), here.len(), ranges.join(", "));
+    }
+    if let Some(p) = s.points.iter().find(|p| p.failure.is_some()) {
+        let _ = writeln!(out, "  first failure: {}", p.failure.as_deref().unwrap_or(""));
+    }
+    let _ = writeln!(out, "outputs in {}", dir.display());
+    out
+}

@@ -112,6 +112,35 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
     Ok(())
 }
 
+/// `anlage sweep`.
+pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
+    let SweepArgs { model: path, axes, output } = args;
+    let ScreenOutputArgs { out, look, json } = output;
+    let model = Model::load(path)?;
+    let axes: Vec<anlage::sweep::Axis> =
+        axes.iter().map(|t| anlage::sweep::Axis::parse(&model, t)).collect::<Result<_, _>>()?;
+    let total = axes.iter().map(|a| a.values.len()).try_fold(1usize, |n, k| n.checked_mul(k));
+    if total.is_none_or(|n| n > anlage::sweep::MAX_POINTS) {
+        anyhow::bail!(StyleError::OutOfRange {
+            option: "--axis".into(),
+            value: axes.iter().map(|a| a.values.len().to_string()).collect::<Vec<_>>().join(" x "),
+            fix: format!("give at most {} points in all", anlage::sweep::MAX_POINTS),
+        });
+    }
+    refuse_json_with_stdout(out.as_deref(), *json)?;
+    let planned = planned_recording(&model);
+    let style = Style::with_options(&planned, &model.title, &look.options())?;
+    if table_to_stdout(out.as_deref()) {
+        let s = anlage::sweep::run_sweep(&model, &axes, true, &anlage::progress::Silent);
+        return write_table_to_stdout(|w| anlage::export::write_sweep_to(&s, w));
+    }
+    let dir = out.clone().unwrap_or_else(|| beside_model(path, "sweep"));
+    let s = anlage::write_sweep(&model, &axes, &style, &dir, true, &super::bar::Bar::new(*json))
+        .with_context(|| format!("sweeping {}", path.display()))?;
+    super::json::print_either(*json, || super::json::sweep(&s, &dir), || print::sweep(&s, &dir));
+    Ok(())
+}
+
 /// `anlage replicates`.
 pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
     let ReplicatesArgs { model: path, embryos, attribute, check_step, animate, mutant, output } = args;

@@ -19,6 +19,7 @@ mod portrait;
 mod profiles;
 mod replicates;
 mod screen;
+mod sweep;
 
 pub use animate::{write_gif, write_grid_gif, write_pair_gif};
 pub use boundary_bands::boundary_bands;
@@ -28,6 +29,7 @@ pub use fit::{fit_boundaries, fit_profiles, fit_trace};
 pub use kymograph::{KymoLayout, kymograph, space_time};
 pub use measure::{check_picture, comparison_overlay};
 pub use screen::{sensitivity_map, shift_chart};
+pub use sweep::{class_color, sweep_picture};
 
 pub use options::{StyleError, StyleOptions};
 

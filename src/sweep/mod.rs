@@ -1,0 +1,220 @@
+//! Parameter sweeps: the model run at every point of a grid over one or more
+//! parameters (linear or logarithmic spacing), each point's final pattern
+//! read off and put in a class ([`class`]). Points run in parallel, one
+//! thread each, keeping only the last two snapshots; results do not depend on
+//! the thread count. Everything here is a model prediction.
+
+pub mod class;
+
+use rayon::prelude::*;
+
+use crate::integrate::{self, Recording, StepError};
+use crate::model::{Model, Param};
+use crate::progress::{Counter, Progress};
+use crate::readout::{self, Boundary, Domain, same_time};
+
+pub use class::{PatternClass, classify};
+
+/// The most points a sweep may have (the product of the axes' counts).
+pub const MAX_POINTS: usize = 1_000_000;
+
+/// One axis of a sweep.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Axis {
+    /// The parameter as written (`gene.production`, a constant, …).
+    pub name: String,
+    /// The parameter.
+    pub param: Param,
+    /// Its values, in order.
+    pub values: Vec<f64>,
+    /// True for logarithmic spacing.
+    pub log: bool,
+}
+
+/// Why an axis cannot be swept.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("sweep axis `{text}`: {why}; {fix}")]
+pub struct AxisError {
+    /// The axis as written.
+    pub text: String,
+    /// What is wrong.
+    pub why: String,
+    /// How to fix it.
+    pub fix: String,
+}
+
+impl Axis {
+    /// Reads `NAME=FROM:TO:POINTS` or `NAME=FROM:TO:POINTS:log` for `model`:
+    /// POINTS values from FROM to TO inclusive, evenly spaced, or evenly in
+    /// the logarithm. A constant of the rate expressions may take any finite
+    /// value; every other parameter must stay > 0 (production, decay,
+    /// thresholds, Hill coefficients, peaks, lengths) or ≥ 0 (diffusion,
+    /// bias, baseline), as the model file requires.
+    ///
+    /// # Errors
+    /// [`AxisError`] saying what is wrong and how to write it.
+    pub fn parse(model: &Model, text: &str) -> Result<Axis, AxisError> {
+        let bad = |why: String, fix: &str| AxisError { text: text.into(), why, fix: fix.into() };
+        let form = "write NAME=FROM:TO:POINTS or NAME=FROM:TO:POINTS:log, e.g. amber.production=0.5:2:21:log";
+        let (name, range) = text.split_once('=').ok_or_else(|| bad("no `=`".into(), form))?;
+        let name = name.trim().to_string();
+        let param = model.parse_param(&name).map_err(|why| bad(why, "name a parameter as in a mutant's scale"))?;
+        let parts: Vec<&str> = range.split(':').map(str::trim).collect();
+        let log = match parts.get(3) {
+            None => false,
+            Some(&"log") => true,
+            Some(&"linear") => false,
+            Some(other) => return Err(bad(format!("spacing `{other}`"), "give log or linear, or leave it out")),
+        };
+        if !(3..=4).contains(&parts.len()) {
+            return Err(bad(format!("{} fields after `=`", parts.len()), form));
+        }
+        let number = |s: &str| s.parse::<f64>().ok().filter(|v| v.is_finite());
+        let (Some(from), Some(to)) = (number(parts[0]), number(parts[1])) else {
+            return Err(bad("FROM or TO is not a number".into(), form));
+        };
+        let points: usize = parts[2]
+            .parse()
+            .ok()
+            .filter(|n| (2..=10_000).contains(n))
+            .ok_or_else(|| bad(format!("POINTS is `{}`", parts[2]), "give 2 to 10000 points"))?;
+        if from == to {
+            return Err(bad("FROM equals TO".into(), "give a range"));
+        }
+        let constant = matches!(param, Param::Constant(_));
+        let zero_ok = matches!(
+            param,
+            Param::Gene(_, crate::model::GeneParam::Diffusion | crate::model::GeneParam::Bias)
+                | Param::Gradient(_, crate::model::GradientParam::Baseline)
+        );
+        let lowest = from.min(to);
+        if log && lowest <= 0.0 {
+            return Err(bad("a log axis through 0 or below".into(), "give FROM and TO > 0 for log spacing"));
+        }
+        if !constant && (lowest < 0.0 || (lowest == 0.0 && !zero_ok)) {
+            let need = if zero_ok { ">= 0" } else { "> 0" };
+            return Err(bad(format!("{name} must stay {need}"), "give a range inside what the model file allows"));
+        }
+        let values = (0..points)
+            .map(|k| {
+                let f = k as f64 / (points - 1) as f64;
+                if k == 0 {
+                    from
+                } else if k == points - 1 {
+                    to
+                } else if log {
+                    (from.ln() + f * (to.ln() - from.ln())).exp()
+                } else {
+                    from + f * (to - from)
+                }
+            })
+            .collect();
+        Ok(Axis { name, param, values, log })
+    }
+}
+
+/// What one point of a sweep gave.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Point {
+    /// The value of each axis's parameter.
+    pub values: Vec<f64>,
+    /// Its class (or [`PatternClass::Failed`]).
+    pub class: PatternClass,
+    /// Final boundaries.
+    pub boundaries: Vec<Boundary>,
+    /// Final domains.
+    pub domains: Vec<Domain>,
+    /// Why the run failed, if it did.
+    pub failure: Option<String>,
+}
+
+/// A finished sweep.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Sweep {
+    /// The axes; points vary the last axis fastest.
+    pub axes: Vec<Axis>,
+    /// Gene names.
+    pub genes: Vec<String>,
+    /// Axis length, µm.
+    pub length_um: f64,
+    /// Every point, in grid order.
+    pub points: Vec<Point>,
+}
+
+impl Sweep {
+    /// The grid index of each axis for point `k` (last axis fastest).
+    pub fn indices(&self, mut k: usize) -> Vec<usize> {
+        let mut out = vec![0; self.axes.len()];
+        for (a, axis) in self.axes.iter().enumerate().rev() {
+            out[a] = k % axis.values.len();
+            k /= axis.values.len();
+        }
+        out
+    }
+}
+
+/// The model at one point: each axis's parameter set to its value.
+pub fn model_at(model: &Model, axes: &[Axis], values: &[f64]) -> Model {
+    let mut m = model.clone();
+    for (axis, v) in axes.iter().zip(values) {
+        if let Some(p) = m.param_mut(axis.param) {
+            *p = *v;
+        }
+    }
+    m
+}
+
+/// Runs one point: the last two snapshots kept, read off and classified.
+fn run_point(model: &Model) -> Result<(Recording, Vec<Boundary>, Vec<Domain>), StepError> {
+    let times = model.clock.snapshot_times();
+    let keep: Vec<f64> = times.iter().rev().take(2).rev().copied().collect();
+    let tissue = crate::tissue::Tissue::new(model);
+    let kinetics = crate::kinetics::build(model);
+    let mut rec = Recording::for_model(model);
+    integrate::integrate(model, kinetics.as_ref(), &tissue, false, |t, state| {
+        if keep.iter().any(|&k| same_time(k, t)) {
+            let _ = rec.push(t, state);
+        }
+    })?;
+    let last = rec.len() - 1;
+    let boundaries = readout::boundaries_at(&rec, last)?;
+    let domains = readout::final_domains(&rec);
+    Ok((rec, boundaries, domains))
+}
+
+/// Runs the model at every point of the grid spanned by `axes` (in parallel
+/// when `parallel`), telling `progress` as points finish (stage "points").
+/// A point whose run fails is kept, with its reason, as
+/// [`PatternClass::Failed`].
+pub fn run_sweep(model: &Model, axes: &[Axis], parallel: bool, progress: &dyn Progress) -> Sweep {
+    let total: usize = axes.iter().map(|a| a.values.len()).product();
+    let counter = Counter::begin(progress, "points", total);
+    let sweep = Sweep {
+        axes: axes.to_vec(),
+        genes: model.genes.iter().map(|g| g.name.clone()).collect(),
+        length_um: model.grid.length_um(),
+        points: Vec::new(),
+    };
+    let one = |k: usize| -> Point {
+        let values: Vec<f64> = sweep.indices(k).iter().zip(axes).map(|(&i, a)| a.values[i]).collect();
+        let m = model_at(model, axes, &values);
+        let point = match run_point(&m) {
+            Ok((rec, boundaries, domains)) => {
+                let class = classify(&rec, &boundaries, &domains);
+                Point { values, class, boundaries, domains, failure: None }
+            }
+            Err(e) => Point {
+                values,
+                class: PatternClass::Failed,
+                boundaries: Vec::new(),
+                domains: Vec::new(),
+                failure: Some(e.to_string()),
+            },
+        };
+        counter.tick();
+        point
+    };
+    let points = if parallel { (0..total).into_par_iter().map(one).collect() } else { (0..total).map(one).collect() };
+    drop(counter);
+    Sweep { points, ..sweep }
+}

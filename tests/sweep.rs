@@ -1,0 +1,129 @@
+//! Parameter sweeps: pattern classes against a published bifurcation point,
+//! axes, tables and determinism.
+
+use anlage::progress::Silent;
+use anlage::sweep::{Axis, PatternClass, run_sweep};
+
+use crate::common::{anlage, parse, temp_dir};
+
+/// The symmetric toggle du/dt = a/(1 + v²) − u, dv/dt = a/(1 + u²) − v in
+/// ten nuclei that do not exchange anything, started from a step. Below the
+/// pitchfork at a_c = 2 (for Hill exponent 2; Cherry & Adler 2000, J. Theor.
+/// Biol. 203:117–133; Gardner, Cantor & Collins 2000, Nature 403:339–342,
+/// from memory) the only steady state is symmetric, u = v with u(1 + u²) = a,
+/// and the step decays; above it each nucleus keeps its side. The boundary
+/// level is that symmetric state at the pitchfork, u = 1.
+fn toggle() -> String {
+    r#"
+title = "symmetric toggle"
+[tissue]
+nuclei = [10]
+spacing_um = 10.0
+[clock]
+until_min = 10000.0
+tolerance = 1e-8
+snapshot_every_min = 500.0
+[[gene]]
+name = "wren"
+rate = "a / (1 + lark^2) - wren"
+production = 2.0
+decay = 1.0
+boundary_level = { absolute = 1.0 }
+initial_profile = [3, 3, 3, 3, 3, 0, 0, 0, 0, 0]
+[[gene]]
+name = "lark"
+rate = "a / (1 + wren^2) - lark"
+production = 2.0
+decay = 1.0
+boundary_level = { absolute = 1.0 }
+initial_profile = [0, 0, 0, 0, 0, 3, 3, 3, 3, 3]
+[circuit]
+kinetics = "rates"
+parameters = { a = 2.0 }
+"#
+    .to_string()
+}
+
+#[test]
+fn the_toggle_s_classes_change_at_the_pitchfork() {
+    let model = parse(&toggle());
+    // a = 1.81, 1.83, …, 2.19: 20 points, none at a_c itself (where the
+    // approach to the symmetric state is algebraic, not exponential, and
+    // within 0.005 of it the step decays too slowly to finish in the run).
+    let axis = Axis::parse(&model, "a=1.81:2.19:20").unwrap();
+    let s = run_sweep(&model, &[axis], true, &Silent);
+    for p in &s.points {
+        let want = if p.values[0] < 2.0 { PatternClass::NoBoundary } else { PatternClass::Boundary };
+        assert_eq!(p.class, want, "a = {}", p.values[0]);
+    }
+}
+
+/// Axes: linear and log spacing end exactly at the given values, log steps
+/// have one ratio; bad axes are refused with the reason.
+#[test]
+fn axes_are_spaced_as_asked_and_bad_ones_refused() {
+    let model = parse(&toggle());
+    let lin = Axis::parse(&model, "wren.decay=0.5:1.5:5").unwrap();
+    assert_eq!(lin.values, vec![0.5, 0.75, 1.0, 1.25, 1.5]);
+    let log = Axis::parse(&model, "wren.production = 0.1 : 10 : 5 : log").unwrap();
+    assert_eq!((log.values[0], log.values[4]), (0.1, 10.0));
+    for w in log.values.windows(2) {
+        assert!((w[1] / w[0] - 10f64.sqrt()).abs() < 1e-12, "{:?}", log.values);
+    }
+    for (bad, says) in [
+        ("wren.decay=0:1:5", "must stay > 0"),
+        ("wren.production=-1:1:5", "must stay > 0"),
+        ("a=0:1:5:log", "log axis"),
+        ("owl.decay=1:2:3", "no gene or gradient"),
+        ("wren.decay=1:2", "fields"),
+        ("wren.decay=1:2:1", "POINTS"),
+        ("wren.decay=1:1:3", "FROM equals TO"),
+        ("wren.decay 1:2:3", "no `=`"),
+    ] {
+        let e = Axis::parse(&model, bad).unwrap_err().to_string();
+        assert!(e.contains(says), "{bad}: {e}");
+    }
+    // A constant of the rate expressions may cross zero.
+    assert!(Axis::parse(&model, "a=-1:1:3").is_ok());
+}
+
+/// The command line: a two-axis sweep writes the same bytes with 1 and 2
+/// threads; a travelling front reads "changing"; `-o -` prints sweep.csv;
+/// a bad axis exits with 2.
+#[test]
+fn sweeps_from_the_command_line() {
+    let dir = temp_dir("sweep");
+    let model = dir.join("toggle.toml");
+    std::fs::write(&model, toggle()).unwrap();
+    let mut tables = Vec::new();
+    for threads in ["1", "2"] {
+        let out = dir.join(format!("t{threads}"));
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_anlage"))
+            .args(["sweep", model.to_str().unwrap(), "--axis", "a=1.5:2.5:5", "--axis", "wren.decay=0.8:1.2:3"])
+            .args(["-o", out.to_str().unwrap()])
+            .env("RAYON_NUM_THREADS", threads)
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        let csv = std::fs::read(out.join("sweep.csv")).unwrap();
+        let b = std::fs::read(out.join("sweep_boundaries.csv")).unwrap();
+        tables.push((csv, b));
+        assert!(out.join("sweep.png").exists());
+    }
+    assert!(tables[0] == tables[1], "the tables differ between 1 and 2 threads");
+    let text = String::from_utf8(tables[0].0.clone()).unwrap();
+    assert!(text.starts_with("point,a,wren.decay,class,boundaries,failure,domains_wren,domains_lark\n"), "{text}");
+    assert_eq!(text.lines().count(), 16);
+    let o = anlage(&["sweep", model.to_str().unwrap(), "--axis", "a=1.5:2.5:5", "-o", "-"]);
+    assert!(o.status.success());
+    assert!(String::from_utf8_lossy(&o.stdout).lines().nth(5).unwrap().contains(",boundary,"));
+    let o = anlage(&["sweep", model.to_str().unwrap(), "--axis", "a=1.5:2.5"]);
+    assert_eq!(o.status.code(), Some(2));
+    // A front still travelling when the run ends.
+    let front = crate::common::root().join("patterns/front.toml");
+    let out = dir.join("front");
+    let o = anlage(&["sweep", front.to_str().unwrap(), "--axis", "r=0.2:0.4:2", "-o", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = std::fs::read_to_string(out.join("sweep.csv")).unwrap();
+    assert!(text.lines().skip(1).all(|l| l.contains(",changing,")), "{text}");
+}

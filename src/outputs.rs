@@ -383,6 +383,20 @@ pub fn write_replicates(
         (None, Ok(())) => unreachable!("the table's body ran"),
     };
     export::write_precision(&all, &dir.join("precision.csv"))?;
+    // Where these replicates came from, so that `compare --replicates` can
+    // refuse them for a run of another model.
+    let origin = serde_json::json!({
+        "kind": "replicates",
+        "model_prediction": true,
+        "model_text_sha256": crate::replicates::text_sha256(&model.text),
+        "mutant": wild_type.map(|(name, _)| name),
+        "embryos": job.n,
+        "seed": model.seed,
+    });
+    export::write_atomic(&dir.join(crate::replicates::ORIGIN), |w| {
+        serde_json::to_writer_pretty(&mut *w, &origin).map_err(std::io::Error::other)?;
+        w.write_all(b"\n")
+    })?;
     export::write_widths(&all, &dir.join("widths.csv"))?;
     export::write_decoding(&all, &dir.join("decoding.csv"))?;
     let shares = if job.attribute { replicates::attribute(model, job.n, &all, progress)? } else { Vec::new() };

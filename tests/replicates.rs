@@ -431,7 +431,24 @@ fn compare_scores_measured_spreads_against_replicates() {
     ]);
     assert_eq!(o.status.code(), Some(2));
     let err = String::from_utf8_lossy(&o.stderr);
-    assert!(err.contains("precision.csv") && err.contains("another model"), "{err}");
+    assert!(err.contains("replicates.json") && err.contains("another model"), "{err}");
+    // Replicates of a mutant of the same model are refused too.
+    let model_text = read_out(0.2, 20) + "[[mutant]]\nname = \"half\"\nscale = { \"cue.peak\" = 0.5 }\n";
+    std::fs::write(&model, &model_text).unwrap();
+    let run2 = dir.join("run2");
+    assert!(anlage(&["run", model.to_str().unwrap(), "-o", run2.to_str().unwrap(), "-q"]).status.success());
+    let reps3 = dir.join("reps3");
+    let o = anlage(&["replicates", model.to_str().unwrap(), "--mutant", "half", "-o", reps3.to_str().unwrap()]);
+    assert!(o.status.success());
+    let o = anlage(&[
+        "compare",
+        run2.to_str().unwrap(),
+        measured.to_str().unwrap(),
+        "--replicates",
+        reps3.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("mutant `half`"), "{}", String::from_utf8_lossy(&o.stderr));
 }
 
 /// `replicates --animate 3`: embryos.gif holds one frame per snapshot with

@@ -43,6 +43,7 @@ pub fn compare(args: &CompareArgs) -> anyhow::Result<()> {
     let mut cmp = compare::compare(rec, &rows, sd_floor)?;
     let spread = match replicates {
         Some(dir) => {
+            compare::spread::check_origin(run_dir, dir)?;
             let table = compare::spread::precision_table(dir);
             let predicted = compare::spread::read_predicted(&table)?;
             Some(compare::spread::score_spread(&mut cmp, &predicted, rec.grid.length_um(), &table)?)

@@ -109,6 +109,15 @@ pub fn basins(r: &anlage::BasinReport, rec: &anlage::Recording, dir: &Path) -> V
 pub fn replicates(report: &anlage::ReplicateReport, dir: &Path) -> Value {
     let (r, shares) = (&report.replicates, &report.shares);
     let finite = |v: f64| if v.is_finite() { json!(v) } else { Value::Null };
+    // As precision.csv: the decoded error at the mean position, last snapshot only.
+    let last_time = r.times.last().copied().unwrap_or(0.0);
+    let decoded = |b: &anlage::replicates::BoundaryPrecision| {
+        if b.mean_um.is_finite() && anlage::readout::same_time(b.time_min, last_time) {
+            finite(r.decoded_at(b.mean_um))
+        } else {
+            Value::Null
+        }
+    };
     let rows: Vec<Value> = r
         .boundaries
         .iter()
@@ -116,9 +125,11 @@ pub fn replicates(report: &anlage::ReplicateReport, dir: &Path) -> Value {
             json!({
                 "time_min": b.time_min, "gene": b.gene, "direction": b.direction,
                 "reference_um": b.reference_um, "present_fraction": b.present_fraction,
+                "embryos": b.embryos, "ragged_fraction": b.ragged_fraction,
                 "miscounted_fraction": b.miscounted_fraction,
                 "mean_um": finite(b.mean_um), "sd_um": finite(b.sd_um),
                 "mean_pct": finite(b.mean_pct), "sd_pct": finite(b.sd_pct),
+                "decoded_sd_um": decoded(b),
             })
         })
         .collect();
@@ -127,7 +138,8 @@ pub fn replicates(report: &anlage::ReplicateReport, dir: &Path) -> Value {
         .map(|b| {
             json!({
                 "gene": b.gene, "direction": b.direction, "mean_um": finite(b.mean_um), "sd_um": finite(b.sd_um),
-                "decoded_sd_um": if b.mean_um.is_finite() { finite(r.decoded_at(b.mean_um)) } else { Value::Null },
+                "present_fraction": b.present_fraction, "embryos": b.embryos,
+                "decoded_sd_um": decoded(b),
             })
         })
         .collect();

@@ -640,24 +640,29 @@ pub fn replicates(model: &anlage::model::Model, report: &anlage::ReplicateReport
 
 /// One mutant boundary's shift and change of precision over paired embryos.
 pub fn paired_shift_line(c: &anlage::replicates::PairedShift) -> String {
-    let precision = if c.precision.is_empty() { "too few embryos to say".to_string() } else { c.precision.clone() };
+    if c.present_fraction == 0.0 {
+        return format!("{:<10} {:<8} in no embryo pair: {}", c.gene, c.direction, c.precision);
+    }
+    let f = |v: f64, signed: bool| match (v.is_finite(), signed) {
+        (false, _) => "—".to_string(),
+        (true, true) => format!("{v:+.2}"),
+        (true, false) => format!("{v:.2}"),
+    };
+    let partial = c.present_fraction < 1.0 && !c.precision.starts_with("not compared");
     format!(
-        "{:<10} {:<8} {:+.2} µm [{:+.2}, {:+.2}]; {:.2} -> {:.2} µm, ratio {:.2} [{:.2}, {:.2}]: {precision}{}",
+        "{:<10} {:<8} {} µm [{}, {}]; {} -> {} µm, ratio {} [{}, {}]: {}{}",
         c.gene,
         c.direction,
-        c.shift_um,
-        c.shift_low_um,
-        c.shift_high_um,
-        c.wild_type_sd_um,
-        c.mutant_sd_um,
-        c.sd_ratio,
-        c.sd_ratio_low,
-        c.sd_ratio_high,
-        if c.present_fraction < 1.0 {
-            format!(" (in {:.0} % of embryos)", 100.0 * c.present_fraction)
-        } else {
-            String::new()
-        }
+        f(c.shift_um, true),
+        f(c.shift_low_um, true),
+        f(c.shift_high_um, true),
+        f(c.wild_type_sd_um, false),
+        f(c.mutant_sd_um, false),
+        f(c.sd_ratio, false),
+        f(c.sd_ratio_low, false),
+        f(c.sd_ratio_high, false),
+        c.precision,
+        if partial { format!(" (in {:.0} % of embryo pairs)", 100.0 * c.present_fraction) } else { String::new() }
     )
 }
 

@@ -39,7 +39,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     };
     refuse_json_with_stdout(out.as_deref(), *json)?;
     if let Some(n) = replicates {
-        check_embryos(*n)?;
+        check_embryos("--replicates", *n)?;
     }
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
@@ -66,6 +66,9 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     let bar = super::bar::Bar::new(*json);
     let screen = anlage::write_screen(&model, &list, &style, &dir, chosen.as_ref(), true, &bar)
         .with_context(|| format!("screening {}", path.display()))?;
+    if replicates.is_some() && anlage::replicates::Sources::each(&model).is_empty() && !*json {
+        eprintln!("anlage: note: the model declares no noise ([noise] or initial_noise): every embryo is the same");
+    }
     let paired = match replicates {
         Some(n) => Some(
             anlage::write_screen_replicates(&model, &list, *n, &dir, &bar)
@@ -166,7 +169,7 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
         }
     };
     let n = embryos.unwrap_or(model.noise.replicates);
-    check_embryos(n)?;
+    check_embryos("-n/--embryos", n)?;
     if let Some(k) = animate
         && !((2..=9).contains(k) && *k <= n)
     {
@@ -192,12 +195,12 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
 }
 
 /// Refuses a number of embryos outside 2..=MAX_REPLICATES.
-fn check_embryos(n: usize) -> Result<(), StyleError> {
+fn check_embryos(option: &str, n: usize) -> Result<(), StyleError> {
     if (2..=anlage::model::noise::MAX_REPLICATES).contains(&n) {
         return Ok(());
     }
     Err(StyleError::OutOfRange {
-        option: "embryos".into(),
+        option: option.into(),
         value: n.to_string(),
         fix: format!("give 2 to {} embryos", anlage::model::noise::MAX_REPLICATES),
     })

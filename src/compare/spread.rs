@@ -89,8 +89,9 @@ pub struct SpreadNotes {
 /// Adds the predicted spread to every matched row of `cmp` that has a
 /// measured sd: `predicted_sd_pct`, `predicted_embryos`, `sd_ratio`
 /// (measured over predicted) with its 95 % interval (when the row gives
-/// `n`), and `spread` ("measured wider", "measured narrower", "same", or
-/// "no predicted spread" when every embryo of the model is the same). A row
+/// `n`), and `spread` ("measured wider", "measured narrower", "same",
+/// "no predicted spread" when every embryo of the model is the same, or
+/// "one embryo: no spread to score" for an sd over n = 1). A row
 /// is paired with the prediction of the same snapshot, gene and direction
 /// whose noise-free position is nearest the run's.
 ///
@@ -138,6 +139,10 @@ pub fn score_spread(
             continue;
         }
         row.sd_ratio = Some(sd / predicted_sd);
+        if row.n == Some(1) {
+            row.spread = "one embryo: no spread to score".into();
+            continue;
+        }
         if let Some(n) = row.n {
             let (ratio, low, high) = independent_sd_ratio(sd, n as usize, predicted_sd, embryos);
             if low.is_finite() && high.is_finite() {
@@ -148,6 +153,38 @@ pub fn score_spread(
         }
     }
     Ok(notes)
+}
+
+/// Checks that the replicates in `replicates_dir` were made from the same
+/// model file as the run in `run_dir` (the SHA-256 of the run's
+/// `model.toml` against the one `replicates.json` records) and of the wild
+/// type, not of a mutant.
+///
+/// # Errors
+/// [`CompareError::Origin`] saying what differs, or [`CompareError::Read`].
+pub fn check_origin(run_dir: &Path, replicates_dir: &Path) -> Result<(), CompareError> {
+    let origin_path = replicates_dir.join(crate::replicates::ORIGIN);
+    let bad = |why: String| CompareError::Origin { path: origin_path.clone(), why };
+    let text = std::fs::read_to_string(&origin_path).map_err(|_| {
+        bad("it is missing: the folder was not written by this version of `anlage replicates`; rerun it".into())
+    })?;
+    let origin: serde_json::Value =
+        serde_json::from_str(&text).map_err(|e| bad(format!("it cannot be read ({e}); rerun `anlage replicates`")))?;
+    let model_path = run_dir.join(crate::run_folder::MODEL_COPY);
+    let run_text = std::fs::read_to_string(&model_path)
+        .map_err(|source| CompareError::Read { path: model_path.clone(), source })?;
+    if origin["model_text_sha256"].as_str() != Some(crate::replicates::text_sha256(&run_text).as_str()) {
+        return Err(bad(format!(
+            "the replicates were made from another model file than the run ({}); rerun `anlage replicates` on the model file of the run",
+            model_path.display()
+        )));
+    }
+    if let Some(m) = origin["mutant"].as_str() {
+        return Err(bad(format!(
+            "the replicates are of the mutant `{m}`, the run of the wild type; rerun `anlage replicates` without --mutant"
+        )));
+    }
+    Ok(())
 }
 
 /// The `precision.csv` of a replicates folder.

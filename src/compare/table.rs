@@ -75,6 +75,14 @@ pub enum CompareError {
         /// The model's genes.
         known: String,
     },
+    /// Replicates that do not belong to the run.
+    #[error("{}: {why}", path.display())]
+    Origin {
+        /// The replicates' origin file.
+        path: PathBuf,
+        /// What differs, and how to fix it.
+        why: String,
+    },
     /// Replicates made from another model than the run.
     #[error("{}: the noise-free {gene} {direction} boundary at t = {time_min} min is at {replicates_pct:.2} % there but at {run_pct:.2} % in the run: the replicates were made from another model or other settings; rerun `anlage replicates` on the model file of the run", path.display())]
     OtherModel {

@@ -57,9 +57,10 @@ impl Paired {
     pub fn sd_y(&self) -> f64 {
         self.div(self.m2_y).sqrt()
     }
-    /// Sample sd of y − x: √(s²ₓ + s²ᵧ − 2 sₓᵧ).
+    /// Sample sd of y − x: √(s²ₓ + s²ᵧ − 2 sₓᵧ) (NaN with fewer than two pairs).
     pub fn sd_difference(&self) -> f64 {
-        self.div(self.m2_x + self.m2_y - 2.0 * self.c_xy).max(0.0).sqrt()
+        let v = self.div(self.m2_x + self.m2_y - 2.0 * self.c_xy);
+        if v.is_nan() { v } else { v.max(0.0).sqrt() }
     }
     /// Sample correlation of x and y (NaN when either does not vary).
     pub fn correlation(&self) -> f64 {
@@ -125,24 +126,24 @@ pub fn independent_sd_ratio(s1: f64, n1: usize, s2: f64, n2: usize) -> (f64, f64
     (f.sqrt(), (f / upper).sqrt(), (f / lower).sqrt())
 }
 
-/// A ratio of sds within this factor of 1 is "the same" even where its
+/// A ratio of sds within this much of 1 (±5 %) is "the same" even where its
 /// interval excludes 1: with many embryos, or paired embryos whose
 /// boundaries move together, intervals become so narrow that a few per cent
 /// of interpolation or discretisation difference would read as a change of
 /// precision nobody could measure in stained embryos (common practice, no
 /// source).
-pub const SAME_WITHIN: f64 = 1.05;
+pub const SAME_WITHIN: f64 = 0.05;
 
 /// How an sd ratio reads: `above` when its interval lies above 1 and the
-/// ratio above [`SAME_WITHIN`]; `below` when the interval lies below 1 and
-/// the ratio below 1/[`SAME_WITHIN`]; otherwise "same"; "" when there is
-/// no interval.
+/// ratio is more than [`SAME_WITHIN`] above 1; `below` when the interval
+/// lies below 1 and the ratio is more than [`SAME_WITHIN`] below 1;
+/// otherwise "same"; "" when there is no interval.
 pub fn verdict(ratio: f64, low: f64, high: f64, above: &'static str, below: &'static str) -> &'static str {
     if !(low.is_finite() && high.is_finite() && ratio.is_finite()) {
         ""
-    } else if low > 1.0 && ratio > SAME_WITHIN {
+    } else if low > 1.0 && ratio > 1.0 + SAME_WITHIN {
         above
-    } else if high < 1.0 && ratio < 1.0 / SAME_WITHIN {
+    } else if high < 1.0 && ratio < 1.0 - SAME_WITHIN {
         below
     } else {
         "same"
@@ -251,6 +252,9 @@ mod tests {
         assert_eq!(verdict(1.0, 0.8, 1.3, "wider", "narrower"), "same");
         // Significant but too small to matter.
         assert_eq!(verdict(1.02, 1.01, 1.03, "wider", "narrower"), "same");
+        // 4.9 % below 1 is within 5 %; 5.1 % is not.
+        assert_eq!(verdict(0.951, 0.95, 0.952, "wider", "narrower"), "same");
+        assert_eq!(verdict(0.949, 0.948, 0.95, "wider", "narrower"), "narrower");
         assert_eq!(verdict(1.0, f64::NAN, 1.3, "wider", "narrower"), "");
     }
 }

@@ -34,6 +34,16 @@ use crate::progress::{Counter, Progress};
 use crate::readout::{self, Boundary, Domain, pair_in_order};
 use crate::{RunOptions, StepError, simulate};
 
+/// The file beside `precision.csv` that says which model text (SHA-256),
+/// which mutant (or none), how many embryos and which seed made it.
+pub const ORIGIN: &str = "replicates.json";
+
+/// SHA-256 of a model file's text, hex (as `replicates.json` records it).
+pub fn text_sha256(text: &str) -> String {
+    use sha2::{Digest, Sha256};
+    Sha256::digest(text.as_bytes()).iter().map(|b| format!("{b:02x}")).collect()
+}
+
 /// Embryos run in parallel between two folds into the statistics.
 pub const BLOCK: usize = 32;
 
@@ -357,8 +367,9 @@ pub fn run(
     let mut unreferenced = vec![0usize; times.len()];
     let mut widths = vec![Running::default(); reference.domains.len()];
     let mut profiles = ProfileStats::new(model.genes.len(), model.grid.nx);
-    let flickers = ragged::Flickers::new(&reference.boundaries, model.grid.spacing_um, model.grid.length_um());
     let periodic = model.grid.edges == crate::model::Edges::Periodic;
+    let flickers =
+        ragged::Flickers::new(&reference.boundaries, model.grid.spacing_um, model.grid.length_um(), periodic);
     let last_time = times.last().copied().unwrap_or(0.0);
     let counter = Counter::begin(progress, "embryos", n);
     let folded = for_each_embryo(
@@ -371,7 +382,13 @@ pub fn run(
             r.boundaries = merged;
             // A gene whose final boundaries lost flickers has its domains
             // rebuilt from them (on a sealed row).
-            for (_, gene) in ragged.iter().filter(|(t, _)| readout::same_time(*t, last_time) && !periodic) {
+            let mut rebuilt: Vec<&String> = Vec::new();
+            for m in ragged.iter().filter(|m| readout::same_time(m.time_min, last_time) && !periodic) {
+                if rebuilt.contains(&&m.gene) {
+                    continue;
+                }
+                rebuilt.push(&m.gene);
+                let gene = &m.gene;
                 let mine: Vec<Boundary> = r
                     .boundaries
                     .iter()
@@ -390,14 +407,26 @@ pub fn run(
                 let known =
                     |b: &Boundary| reference_at[s].iter().any(|q| q.gene == b.gene && q.direction == b.direction);
                 unreferenced[s] += usize::from(!mine.iter().all(known));
+                let mut hit = vec![false; reference_at[s].len()];
                 for (j, (x, other_count)) in pair_in_order(&reference_at[s], &mine).into_iter().enumerate() {
                     if let Some(x) = x {
                         positions[s][j].push(x);
                     }
                     miscounted[s][j] += usize::from(other_count);
-                    let gene = &reference_at[s][j].gene;
-                    ragged[s][j] +=
-                        usize::from(ragged_here.iter().any(|(rt, g)| readout::same_time(*rt, t) && g == gene));
+                }
+                // A merged flicker counts for the noise-free boundary of its
+                // gene nearest to it.
+                for m in ragged_here.iter().filter(|m| readout::same_time(m.time_min, t)) {
+                    let nearest =
+                        reference_at[s].iter().enumerate().filter(|(_, b)| b.gene == m.gene).min_by(|a, b| {
+                            (a.1.position_um - m.at_um).abs().total_cmp(&(b.1.position_um - m.at_um).abs())
+                        });
+                    if let Some((j, _)) = nearest {
+                        hit[j] = true;
+                    }
+                }
+                for (j, h) in hit.iter().enumerate() {
+                    ragged[s][j] += usize::from(*h);
                 }
             }
             // Domains pair in order too, gene by gene, where the counts agree.

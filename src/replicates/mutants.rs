@@ -54,7 +54,7 @@ pub struct PairedShift {
     pub sd_ratio_high: f64,
     /// "less precise" or "more precise" when the interval excludes 1 and the
     /// ratio is off 1 by more than [`intervals::SAME_WITHIN`], else "same";
-    /// "" when there are too few embryos to say.
+    /// otherwise why it cannot be said (see [`precision_words`]).
     pub precision: String,
 }
 
@@ -79,18 +79,32 @@ pub fn paired_shifts(
     let finals = |bs: Vec<Boundary>| -> Vec<Boundary> {
         bs.into_iter().filter(|b| readout::same_time(b.time_min, last)).collect()
     };
-    let refs = finals(reference.boundaries);
-    let flickers = super::ragged::Flickers::new(&refs, wild_type.grid.spacing_um, wild_type.grid.length_um());
+    let refs = finals(reference.boundaries.clone());
+    // Each model's embryos are repaired against its own noise-free embryo:
+    // a mutant's new stripe is its own, not a flicker of the wild type's.
+    let flickers_of = |m: &Model, own: Vec<Boundary>| {
+        let periodic = m.grid.edges == crate::model::Edges::Periodic;
+        super::ragged::Flickers::new(&finals(own), m.grid.spacing_um, m.grid.length_um(), periodic)
+    };
+    let mut flickers = vec![flickers_of(wild_type, reference.boundaries)];
+    for (_, m) in mutants {
+        let own = read_one(&embryo(m, 0, &Sources::none(m))).map_err(ReplicateError::Reference)?;
+        flickers.push(flickers_of(m, own.boundaries));
+    }
     let mut acc = vec![vec![Paired::default(); refs.len()]; mutants.len()];
     let counter = Counter::begin(progress, "embryos", n * (1 + mutants.len()));
-    let final_of = |m: &Model, i: usize, name: &str| -> Result<Vec<Boundary>, String> {
+    let final_of = |m: &Model, i: usize, name: &str, f: &super::ragged::Flickers| -> Result<Vec<Boundary>, String> {
         let r = read_one(&embryo(m, i, &Sources::all(m)));
         counter.tick();
-        Ok(flickers.merge(&finals(r.map_err(|e| format!("{name}: {e}"))?.boundaries)).0)
+        Ok(f.merge(&finals(r.map_err(|e| format!("{name}: {e}"))?.boundaries)).0)
     };
     let one = |i: usize| -> Result<(Vec<Boundary>, Vec<Vec<Boundary>>), String> {
-        let w = final_of(wild_type, i, "wild type")?;
-        let ms = mutants.iter().map(|(name, m)| final_of(m, i, name)).collect::<Result<Vec<_>, _>>()?;
+        let w = final_of(wild_type, i, "wild type", &flickers[0])?;
+        let ms = mutants
+            .iter()
+            .zip(&flickers[1..])
+            .map(|((name, m), f)| final_of(m, i, name, f))
+            .collect::<Result<Vec<_>, _>>()?;
         Ok((w, ms))
     };
     let folded = for_each_embryo(n, one, |_, (w, ms)| {
@@ -131,16 +145,34 @@ pub fn paired_shifts(
                     sd_ratio,
                     sd_ratio_low,
                     sd_ratio_high,
-                    precision: intervals::verdict(
-                        sd_ratio,
-                        sd_ratio_low,
-                        sd_ratio_high,
-                        "less precise",
-                        "more precise",
-                    )
-                    .to_string(),
+                    precision: precision_words(p, n, sd_ratio, sd_ratio_low, sd_ratio_high),
                 }
             })
         })
         .collect())
+}
+
+/// A boundary in fewer than this fraction of the embryo pairs is not
+/// compared for precision: the pairs that have it are a selected few, and
+/// their spreads say little about the others (common practice, no source).
+pub const COMPARABLE_FRACTION: f64 = 0.9;
+
+/// The precision verdict of one boundary over `n` embryo pairs `p`:
+/// "absent" in no pair, "in only N % of pairs" below
+/// [`COMPARABLE_FRACTION`], "no spread" when no embryo differs from another
+/// (no noise reaches this boundary), "too few embryos" below three pairs,
+/// else the verdict of the ratio's interval ([`intervals::verdict`]).
+fn precision_words(p: &Paired, n: usize, ratio: f64, low: f64, high: f64) -> String {
+    let present = p.n as f64 / n as f64;
+    if p.n == 0 {
+        "absent".into()
+    } else if present < COMPARABLE_FRACTION {
+        format!("not compared: in only {:.0} % of embryo pairs", 100.0 * present)
+    } else if p.sd_x() == 0.0 && p.sd_y() == 0.0 {
+        "no spread: every embryo the same".into()
+    } else if p.n < 3 {
+        "too few embryos".into()
+    } else {
+        intervals::verdict(ratio, low, high, "less precise", "more precise").into()
+    }
 }

@@ -91,7 +91,7 @@ pub fn sweep_picture(s: &Sweep, style: &Style) -> Canvas {
             .fold((f64::INFINITY, f64::NEG_INFINITY), |m, v| (m.0.min(*v), m.1.max(*v)));
         if lo < hi {
             for level in axes::nice_ticks(lo, hi, 6) {
-                let mut labelled = false;
+                let mut segments: Vec<[(f32, f32); 2]> = Vec::new();
                 for i in 0..n0.saturating_sub(1) {
                     for j in 0..n1.saturating_sub(1) {
                         let v = [
@@ -118,13 +118,14 @@ pub fn sweep_picture(s: &Sweep, style: &Style) -> Canvas {
                         }
                         for pair in hits.chunks_exact(2) {
                             c.polyline(&[pair[0], pair[1]], 1.5, bg.ink(), 230, None);
-                        }
-                        if !labelled && hits.len() == 2 && i > n0 / 4 {
-                            labelled = true;
-                            let t = format!("{level}%");
-                            c.text(hits[0].0 + 3.0, hits[0].1 - 3.0, 11.0, bg.ink(), Align::Left, &t);
+                            segments.push([pair[0], pair[1]]);
                         }
                     }
+                }
+                // The label at the middle piece of the line.
+                if let Some(seg) = segments.get(segments.len() / 2) {
+                    let t = format!("{level}%");
+                    c.text(seg[0].0 + 3.0, seg[0].1 - 3.0, 11.0, bg.ink(), Align::Left, &t);
                 }
             }
         }

@@ -22,6 +22,7 @@ for model in patterns/*.toml; do
     "$bin" basins "$out" --width 560 > /dev/null
     "$bin" screen "$model" --knockouts --dosage --width 560 -o "$out/screen" > /dev/null
     "$bin" sensitivity "$model" --width 560 -o "$out/screen" > /dev/null
+    "$bin" sweep "$model" --axis amber.production=0.2:5:31:log --axis cobalt.production=0.2:5:31:log --width 560 -o "$out/sweep" > /dev/null
     "$bin" portrait "$out" --nucleus 40 --genes amber,cobalt --time 8 --width 560 > /dev/null
     # The ribbon on white, as for a printed figure.
     "$bin" render "$out" --kind kymograph --light --width 560 -o output-samples/ribbon-light > /dev/null
@@ -32,6 +33,7 @@ for model in patterns/*.toml; do
   if [ "$name" = precision ]; then
     # Replicate embryos: the wild type (toggle) and the read-out alone.
     "$bin" replicates "$model" --width 560 --attribute --check-step -o "$out" > /dev/null
+    "$bin" screen "$model" --replicates 200 --width 560 -o "$out/screen" > /dev/null
     "$bin" replicates "$model" --width 560 --mutant "read-out alone" -o "$out/read-out-alone" > /dev/null
     rm -f "$out/embryo_boundaries.csv" "$out/read-out-alone/embryo_boundaries.csv"
   fi

@@ -320,3 +320,81 @@ fn issue_19_a_smooth_boundary_moving_a_spacing_per_scan_step_is_smooth() {
     let s = run_screen(&m, &[low], true).unwrap();
     assert_eq!(s.shifts[0][0].status, screen::outcome::GENE_BELOW, "{:?}", s.shifts[0]);
 }
+
+/// Crosses in a threshold read-out of an exponential gradient, x* =
+/// λ·ln(c₀/K) (the exponential profile): doubling the peak twice (two
+/// declared doses) moves the boundary by λ·ln 4, and so does doubling the
+/// peak and halving the threshold; the shifts add, so the epistasis is 0.
+/// A cross with a knock-out loses the boundary and says so.
+#[test]
+fn crosses_of_log_additive_mutants_have_no_epistasis() {
+    let dir = crate::common::temp_dir("crosses");
+    let model = dir.join("m.toml");
+    std::fs::write(
+        &model,
+        r#"
+title = "threshold read-out"
+[tissue]
+nuclei = [300]
+spacing_um = 2.0
+[clock]
+until_min = 40.0
+tolerance = 1e-8
+snapshot_every_min = 40.0
+[[gradient]]
+name = "cue"
+shape = "exponential"
+from = "left"
+peak = 1.0
+decay_length_um = 100.0
+[[gene]]
+name = "quill"
+production = 1.0
+decay = 1.0
+boundary_level = { absolute = 0.5 }
+[circuit]
+kinetics = "hill"
+[[circuit.link]]
+from = "cue"
+to = "quill"
+sign = "+"
+threshold = 0.02
+hill = 8
+[[mutant]]
+name = "dose a"
+scale = { "cue.peak" = 2.0 }
+[[mutant]]
+name = "dose b"
+scale = { "cue.peak" = 2.0 }
+[[mutant]]
+name = "lower threshold"
+scale = { "cue->quill.threshold" = 0.5 }
+[[mutant]]
+name = "ko"
+knock_out = ["quill"]
+"#,
+    )
+    .unwrap();
+    let out = dir.join("out");
+    let o = crate::common::anlage(&["screen", model.to_str().unwrap(), "--crosses", "2", "-o", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let mut rdr = csv::Reader::from_path(out.join("epistasis.csv")).unwrap();
+    let header = rdr.headers().unwrap().clone();
+    let col = |name: &str| header.iter().position(|h| h == name).unwrap();
+    let rows: Vec<csv::StringRecord> = rdr.records().map(Result::unwrap).collect();
+    let row = |cross: &str| rows.iter().find(|r| &r[col("cross")] == cross).unwrap_or_else(|| panic!("{cross}"));
+    let length = 600.0;
+    let ln4_pct = 100.0 * 4f64.ln() / length * 100.0;
+    for cross in ["dose a + dose b", "dose a + lower threshold", "dose b + lower threshold"] {
+        let r = row(cross);
+        assert_eq!(&r[col("status")], "ok");
+        let shift: f64 = r[col("cross_pct")].parse().unwrap();
+        let epi: f64 = r[col("epistasis_pct")].parse().unwrap();
+        assert!((shift - ln4_pct).abs() < 0.01, "{cross}: {shift} vs λ ln 4 = {ln4_pct} %");
+        assert!(epi.abs() < 0.01, "{cross}: epistasis {epi}");
+    }
+    assert!(row("dose a + ko")[col("status")].starts_with("lost in the cross"));
+    // Pairs need two mutants; 4 is not a cross size.
+    let o = crate::common::anlage(&["screen", model.to_str().unwrap(), "--crosses", "4", "-o", out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+}

@@ -148,6 +148,10 @@ pub struct ScreenArgs {
     /// Also animate the wild type beside this mutant (its name).
     #[arg(long)]
     pub animate: Option<String>,
+    /// Also screen every pair (2) or triple (3) of the mutants above, with their epistasis: how far
+    /// each cross's shift departs from the sum of the single shifts (epistasis.csv).
+    #[arg(long, value_name = "2|3")]
+    pub crosses: Option<usize>,
     /// Also run N replicate embryos (the model's [noise]) of the wild type and of every mutant with
     /// the same seeds: each shift with its 95 % interval, and whether the mutant makes the boundary
     /// more or less precise (replicate_shifts.csv).

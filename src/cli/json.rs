@@ -18,7 +18,12 @@ pub fn print_either(json: bool, doc: impl FnOnce() -> Value, report: impl FnOnce
 
 /// `screen`: the wild type's final boundaries and, per mutant, each
 /// boundary's shift and status (the rows of `shifts.csv`).
-pub fn screen(s: &anlage::screen::Screen, paired: Option<&[anlage::replicates::PairedShift]>, dir: &Path) -> Value {
+pub fn screen(
+    s: &anlage::screen::Screen,
+    paired: Option<&[anlage::replicates::PairedShift]>,
+    epistasis: &[anlage::screen::Epistasis],
+    dir: &Path,
+) -> Value {
     let mutants: Vec<Value> = s
         .mutants
         .iter()
@@ -37,6 +42,7 @@ pub fn screen(s: &anlage::screen::Screen, paired: Option<&[anlage::replicates::P
         "model_prediction": true,
         "wild_type": s.wild_type,
         "mutants": mutants,
+        "epistasis": epistasis,
         "outputs": dir,
     })
 }

@@ -313,7 +313,12 @@ pub fn portrait(d: &anlage::phase::PortraitData, rec: &anlage::Recording, path: 
 }
 
 /// What `anlage screen` prints: the moved, lost and gained boundaries (up to 40 rows).
-pub fn screen(s: &anlage::screen::Screen, paired: Option<&[anlage::replicates::PairedShift]>, dir: &Path) -> String {
+pub fn screen(
+    s: &anlage::screen::Screen,
+    paired: Option<&[anlage::replicates::PairedShift]>,
+    epistasis: &[anlage::screen::Epistasis],
+    dir: &Path,
+) -> String {
     let mut out = String::new();
     let rows: Vec<&anlage::readout::Shift> = s.shifts.iter().flatten().collect();
     let _ = writeln!(out, "{} mutants screened (model predictions)", s.mutants.len());
@@ -340,6 +345,26 @@ pub fn screen(s: &anlage::screen::Screen, paired: Option<&[anlage::replicates::P
     }
     if rows.len() > 40 {
         let _ = writeln!(out, "  ... {} more rows in shifts.csv", rows.len() - 40);
+    }
+    if !epistasis.is_empty() {
+        let _ = writeln!(out, "epistasis: the cross's shift minus the sum of the single shifts (% of length):");
+        for e in epistasis.iter().take(40) {
+            let f = |v: Option<f64>| v.map_or_else(|| "-".to_string(), |x| format!("{x:+.3}"));
+            let _ = writeln!(
+                out,
+                "  {:<36} {:<10} {:<8} sum {:>8} cross {:>8} epistasis {:>8}  {}",
+                e.cross,
+                e.gene,
+                e.direction,
+                f(e.additive_pct),
+                f(e.cross_pct),
+                f(e.epistasis_pct),
+                e.status
+            );
+        }
+        if epistasis.len() > 40 {
+            let _ = writeln!(out, "  ... {} more rows in epistasis.csv", epistasis.len() - 40);
+        }
     }
     if let Some(paired) = paired {
         let _ = writeln!(

@@ -11,7 +11,8 @@ use super::print;
 
 /// `anlage screen`.
 pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
-    let ScreenArgs { model: path, mutants, knockouts, link_removals, dosage, animate, replicates, output } = args;
+    let ScreenArgs { model: path, mutants, knockouts, link_removals, dosage, animate, crosses, replicates, output } =
+        args;
     let ScreenOutputArgs { out, look, json } = output;
     let model = Model::load(path)?;
     let mut list = model.mutants.clone();
@@ -26,6 +27,16 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
             fix: "declare [[mutant]] tables, give --mutant, or ask for --knockouts, --link-removals or --dosage".into(),
         });
     }
+    let crossed = match crosses {
+        None => Vec::new(),
+        Some(k @ (2 | 3)) if list.len() >= *k => anlage::screen::crosses(&list, *k),
+        Some(k) => anyhow::bail!(StyleError::OutOfRange {
+            option: "--crosses".into(),
+            value: k.to_string(),
+            fix: format!("give 2 (pairs) or 3 (triples), with at least that many mutants (there are {})", list.len()),
+        }),
+    };
+    list.extend(crossed.iter().map(|c| c.mutant.clone()));
     let chosen = match animate {
         Some(name) => Some(list.iter().find(|m| &m.name == name).cloned().ok_or_else(|| StyleError::OutOfRange {
             option: "--animate".into(),
@@ -69,6 +80,12 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     if replicates.is_some() && anlage::replicates::Sources::each(&model).is_empty() && !*json {
         eprintln!("anlage: note: the model declares no noise ([noise] or initial_noise): every embryo is the same");
     }
+    let epistasis = anlage::screen::epistasis(&screen, &crossed);
+    if crosses.is_some() {
+        anlage::export::write_rows(&epistasis, &dir.join("epistasis.csv"))?;
+    } else {
+        let _ = std::fs::remove_file(dir.join("epistasis.csv"));
+    }
     let paired = match replicates {
         Some(n) => Some(
             anlage::write_screen_replicates(&model, &list, *n, &dir, &bar)
@@ -82,8 +99,8 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     };
     super::json::print_either(
         *json,
-        || super::json::screen(&screen, paired.as_deref(), &dir),
-        || print::screen(&screen, paired.as_deref(), &dir),
+        || super::json::screen(&screen, paired.as_deref(), &epistasis, &dir),
+        || print::screen(&screen, paired.as_deref(), &epistasis, &dir),
     );
     Ok(())
 }

@@ -4,7 +4,10 @@
 //! histories), and mutants run in parallel; results do not depend on the
 //! thread count. Everything here is a model prediction.
 
+mod crosses;
 mod sensitivity;
+
+pub use crosses::{Cross, Epistasis, crosses, epistasis};
 
 pub use sensitivity::{SENSITIVITY_STEP, SensitivityRow, sensitivity, sensitivity_with};
 

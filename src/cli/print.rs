@@ -593,9 +593,9 @@ pub fn replicates(model: &anlage::model::Model, report: &anlage::ReplicateReport
     if !flickered.is_empty() {
         let _ = writeln!(
             s,
-            "  note: ragged boundaries ({}): the profile crossed its level in flickers narrower than the boundary's \
-             ramp; each was merged into the nearest boundary, which keeps the expressed length (precision.csv, \
-             ragged_fraction)",
+            "  note: ragged boundaries ({}): these embryos had more crossings than the noise-free one, some closer \
+             together than the boundary's ramp (flickers of noise, or a stripe that narrow); each was merged into \
+             the nearest boundary, which keeps the expressed length (precision.csv, ragged_fraction)",
             flickered.join(", ")
         );
     }

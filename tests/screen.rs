@@ -393,7 +393,19 @@ knock_out = ["quill"]
         assert!((shift - ln4_pct).abs() < 0.01, "{cross}: {shift} vs λ ln 4 = {ln4_pct} %");
         assert!(epi.abs() < 0.01, "{cross}: epistasis {epi}");
     }
-    assert!(row("dose a + ko")[col("status")].starts_with("lost in the cross"));
+    assert_eq!(&row("dose a + ko")[col("status")], "lost in ko");
+    // A mutant given twice under one name is refused (the sums would take one for the other).
+    let o = crate::common::anlage(&[
+        "screen",
+        model.to_str().unwrap(),
+        "--mutant",
+        r#"{ name = "dose a", scale = { "cue.peak" = 3.0 } }"#,
+        "--crosses",
+        "2",
+        "-o",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", String::from_utf8_lossy(&o.stderr));
     // Pairs need two mutants; 4 is not a cross size.
     let o = crate::common::anlage(&["screen", model.to_str().unwrap(), "--crosses", "4", "-o", out.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(2));

@@ -25,21 +25,21 @@ tolerance = 1e-8
 snapshot_every_min = 500.0
 [[gene]]
 name = "wren"
-rate = "a / (1 + lark^2) - wren"
+rate = "a / (1 + lark^2) - k * wren"
 production = 2.0
 decay = 1.0
 boundary_level = { absolute = 1.0 }
 initial_profile = [3, 3, 3, 3, 3, 0, 0, 0, 0, 0]
 [[gene]]
 name = "lark"
-rate = "a / (1 + wren^2) - lark"
+rate = "a / (1 + wren^2) - k * lark"
 production = 2.0
 decay = 1.0
 boundary_level = { absolute = 1.0 }
 initial_profile = [0, 0, 0, 0, 0, 3, 3, 3, 3, 3]
 [circuit]
 kinetics = "rates"
-parameters = { a = 2.0 }
+parameters = { a = 2.0, k = 1.0 }
 "#
     .to_string()
 }
@@ -63,28 +63,50 @@ fn the_toggle_s_classes_change_at_the_pitchfork() {
 #[test]
 fn axes_are_spaced_as_asked_and_bad_ones_refused() {
     let model = parse(&toggle());
-    let lin = Axis::parse(&model, "wren.decay=0.5:1.5:5").unwrap();
+    let lin = Axis::parse(&model, "k=0.5:1.5:5").unwrap();
     assert_eq!(lin.values, vec![0.5, 0.75, 1.0, 1.25, 1.5]);
-    let log = Axis::parse(&model, "wren.production = 0.1 : 10 : 5 : log").unwrap();
+    let log = Axis::parse(&model, "k = 0.1 : 10 : 5 : log").unwrap();
     assert_eq!((log.values[0], log.values[4]), (0.1, 10.0));
     for w in log.values.windows(2) {
         assert!((w[1] / w[0] - 10f64.sqrt()).abs() < 1e-12, "{:?}", log.values);
     }
     for (bad, says) in [
-        ("wren.decay=0:1:5", "must stay > 0"),
-        ("wren.production=-1:1:5", "must stay > 0"),
+        ("wren.diffusion=-1:1:5", "must stay >= 0"),
+        ("wren.diffusion=0:1e12:3", "D/h²"),
         ("a=0:1:5:log", "log axis"),
         ("owl.decay=1:2:3", "no gene or gradient"),
-        ("wren.decay=1:2", "fields"),
-        ("wren.decay=1:2:1", "POINTS"),
-        ("wren.decay=1:1:3", "FROM equals TO"),
-        ("wren.decay 1:2:3", "no `=`"),
+        ("k=1:2", "fields"),
+        ("k=1:2:1", "POINTS"),
+        ("k=1:1:3", "FROM equals TO"),
+        ("k 1:2:3", "no `=`"),
     ] {
         let e = Axis::parse(&model, bad).unwrap_err().to_string();
         assert!(e.contains(says), "{bad}: {e}");
     }
     // A constant of the rate expressions may cross zero.
     assert!(Axis::parse(&model, "a=-1:1:3").is_ok());
+    // A parameter that cannot act, or one swept twice, is refused.
+    assert!(Axis::parse(&model, "wren.decay=1:2:3").unwrap_err().to_string().contains("no effect"));
+    let twice = [Axis::parse(&model, "a=1:2:2").unwrap(), Axis::parse(&model, "a=1:4:2").unwrap()];
+    assert!(anlage::sweep::check_axes(&twice).unwrap_err().to_string().contains("swept twice"));
+}
+
+/// A run that ends before its levels settle (the toggle stopped after 3 of
+/// its 1-minute decay times, snapshots every 0.5 min) is "changing", not a
+/// steady class: levels still move by several per cent of their maximum per
+/// decay time.
+#[test]
+fn an_unfinished_run_is_changing() {
+    let text = toggle()
+        .replace("until_min = 10000.0", "until_min = 3.0")
+        .replace("snapshot_every_min = 500.0", "snapshot_every_min = 0.5");
+    let model = parse(&text);
+    let s = run_sweep(&model, &[Axis::parse(&model, "a=2.5:3:2").unwrap()], false, &Silent);
+    assert!(
+        s.points.iter().all(|p| p.class == PatternClass::Changing),
+        "{:?}",
+        s.points.iter().map(|p| p.class).collect::<Vec<_>>()
+    );
 }
 
 /// The command line: a two-axis sweep writes the same bytes with 1 and 2
@@ -99,7 +121,7 @@ fn sweeps_from_the_command_line() {
     for threads in ["1", "2"] {
         let out = dir.join(format!("t{threads}"));
         let o = std::process::Command::new(env!("CARGO_BIN_EXE_anlage"))
-            .args(["sweep", model.to_str().unwrap(), "--axis", "a=1.5:2.5:5", "--axis", "wren.decay=0.8:1.2:3"])
+            .args(["sweep", model.to_str().unwrap(), "--axis", "a=1.5:2.5:5", "--axis", "k=0.8:1.2:3"])
             .args(["-o", out.to_str().unwrap()])
             .env("RAYON_NUM_THREADS", threads)
             .output()
@@ -112,7 +134,7 @@ fn sweeps_from_the_command_line() {
     }
     assert!(tables[0] == tables[1], "the tables differ between 1 and 2 threads");
     let text = String::from_utf8(tables[0].0.clone()).unwrap();
-    assert!(text.starts_with("point,a,wren.decay,class,boundaries,failure,domains_wren,domains_lark\n"), "{text}");
+    assert!(text.starts_with("point,a,k,class,boundaries,failure,domains_wren,domains_lark\n"), "{text}");
     assert_eq!(text.lines().count(), 16);
     let o = anlage(&["sweep", model.to_str().unwrap(), "--axis", "a=1.5:2.5:5", "-o", "-"]);
     assert!(o.status.success());

@@ -167,7 +167,7 @@ pub struct ScreenArgs {
 #[derive(Debug, Args)]
 pub struct ScreenOutputArgs {
     /// Output folder (default: `<model name>_screen` next to the model file; `_replicates` for
-    /// replicates); `-` (screen, sensitivity): the table (shifts.csv or sensitivity.csv) on standard
+    /// replicates, `_sweep` for sweep); `-` (screen, sensitivity): the table (shifts.csv or sensitivity.csv) on standard
     /// output, and nothing written to disk.
     #[arg(short, long)]
     pub out: Option<PathBuf>,

@@ -27,15 +27,28 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
             fix: "declare [[mutant]] tables, give --mutant, or ask for --knockouts, --link-removals or --dosage".into(),
         });
     }
-    let crossed = match crosses {
-        None => Vec::new(),
-        Some(k @ (2 | 3)) if list.len() >= *k => anlage::screen::crosses(&list, *k),
+    // Mutants are told apart by name (shifts, epistasis): a name given twice is refused.
+    for (i, m) in list.iter().enumerate() {
+        if list[..i].iter().any(|o| o.name == m.name) {
+            anyhow::bail!(StyleError::OutOfRange {
+                option: "--mutant".into(),
+                value: m.name.clone(),
+                fix: "give every mutant its own name (declared, --mutant and generated ones alike)".into(),
+            });
+        }
+    }
+    let (crossed, left_out): (Vec<anlage::screen::Cross>, Vec<(String, String)>) = match crosses {
+        None => (Vec::new(), Vec::new()),
+        Some(k @ (2 | 3)) if list.len() >= *k => anlage::screen::crosses(&list, *k, &model),
         Some(k) => anyhow::bail!(StyleError::OutOfRange {
             option: "--crosses".into(),
             value: k.to_string(),
             fix: format!("give 2 (pairs) or 3 (triples), with at least that many mutants (there are {})", list.len()),
         }),
     };
+    for (name, why) in &left_out {
+        eprintln!("anlage: note: cross `{name}` left out: {why}");
+    }
     list.extend(crossed.iter().map(|c| c.mutant.clone()));
     let chosen = match animate {
         Some(name) => Some(list.iter().find(|m| &m.name == name).cloned().ok_or_else(|| StyleError::OutOfRange {
@@ -139,6 +152,12 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
     let model = Model::load(path)?;
     let axes: Vec<anlage::sweep::Axis> =
         axes.iter().map(|t| anlage::sweep::Axis::parse(&model, t)).collect::<Result<_, _>>()?;
+    anlage::sweep::check_axes(&axes)?;
+    if model.grid.is_sheet() && !*json {
+        eprintln!(
+            "anlage: note: on a sheet, classes and boundaries are read along x over the central strip of rows; a pattern along y is not seen"
+        );
+    }
     let total = axes.iter().map(|a| a.values.len()).try_fold(1usize, |n, k| n.checked_mul(k));
     if total.is_none_or(|n| n > anlage::sweep::MAX_POINTS) {
         anyhow::bail!(StyleError::OutOfRange {

@@ -24,7 +24,7 @@ pub use mutant::{Ectopic, Edit, Mutant};
 pub use param::{GeneParam, GradientParam, LinkParam, Param, names_in};
 pub use source::Source;
 pub use validate::PALETTE;
-pub use validate_circuit::parse_color;
+pub use validate_circuit::{MAX_HOPS_PER_MIN, parse_color};
 
 /// A checked model.
 #[derive(Debug, Clone)]

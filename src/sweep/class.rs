@@ -5,9 +5,10 @@
 use crate::integrate::Recording;
 use crate::readout::{Boundary, Domain};
 
-/// A level that moves between the last two snapshots by more than this
-/// fraction of its gene's largest level means the pattern has not settled
-/// (common practice, no source).
+/// A level that changes faster than this fraction of its gene's largest
+/// level per decay time (1/decay, or the run's length for a gene that does
+/// not decay), over either of the last two snapshot intervals, means the
+/// pattern has not settled (common practice, no source).
 pub const SETTLED_REL: f64 = 1e-2;
 
 /// What kind of pattern a run ends with.
@@ -54,24 +55,26 @@ impl PatternClass {
 
 /// Classifies a run from its last snapshot (and the one before, kept in
 /// `rec`), its final `boundaries` and `domains`:
-/// 1. "changing" if any level moved between the last two snapshots by more
-///    than [`SETTLED_REL`] of its gene's largest level then;
+/// 1. "changing" if any level changes, over either of the last two
+///    snapshot intervals, faster than [`SETTLED_REL`] of its gene's largest
+///    level per decay time (an oscillation whose period divides the snapshot
+///    interval looks steady: take snapshots finer than the period);
 /// 2. "no boundary" if there is no boundary;
 /// 3. "several stripes" if some gene has two or more domains that touch
 ///    neither edge (on a periodic row every domain counts);
 /// 4. "stripe" if some gene has one;
 /// 5. otherwise "boundary".
-pub fn classify(rec: &Recording, boundaries: &[Boundary], domains: &[Domain]) -> PatternClass {
-    if rec.len() >= 2 {
-        let (Ok(a), Ok(b)) = (rec.state(rec.len() - 2), rec.state(rec.len() - 1)) else {
-            return PatternClass::Failed;
-        };
+pub fn classify(rec: &Recording, rates_per_min: &[f64], boundaries: &[Boundary], domains: &[Domain]) -> PatternClass {
+    let last = rec.len().saturating_sub(1);
+    let Ok(end) = rec.state(last) else { return PatternClass::Failed };
+    for s in last.saturating_sub(2)..last {
+        let Ok(a) = rec.state(s) else { return PatternClass::Failed };
+        let dt = rec.times[last] - rec.times[s];
         for g in 0..rec.genes.len() {
-            let row_b = b.row(g);
-            let row_a = a.row(g);
+            let (row_a, row_b) = (a.row(g), end.row(g));
             let top = row_b.iter().fold(0.0f64, |m, v| m.max(v.abs()));
             let moved = row_a.iter().zip(row_b.iter()).fold(0.0f64, |m, (x, y)| m.max((x - y).abs()));
-            if top > 0.0 && moved > SETTLED_REL * top {
+            if top > 0.0 && dt > 0.0 && moved / dt > SETTLED_REL * top * rates_per_min[g] {
                 return PatternClass::Changing;
             }
         }

@@ -1,7 +1,7 @@
 //! Parameter sweeps: the model run at every point of a grid over one or more
 //! parameters (linear or logarithmic spacing), each point's final pattern
 //! read off and put in a class ([`class`]). Points run in parallel, one
-//! thread each, keeping only the last two snapshots; results do not depend on
+//! thread each, keeping only the last three snapshots; results do not depend on
 //! the thread count. Everything here is a model prediction.
 
 pub mod class;
@@ -81,6 +81,15 @@ impl Axis {
         if from == to {
             return Err(bad("FROM equals TO".into(), "give a range"));
         }
+        // A parameter that cannot change the run is not swept (a scale of 0
+        // is no reason: a sweep sets values, it does not scale them).
+        let mut probe = model.clone();
+        if let Some(p) = probe.param_mut(param) {
+            *p = 1.0;
+        }
+        if let Some(why) = probe.no_effect(param) {
+            return Err(bad(why, "sweep a parameter that acts"));
+        }
         let constant = matches!(param, Param::Constant(_));
         let zero_ok = matches!(
             param,
@@ -109,8 +118,34 @@ impl Axis {
                 }
             })
             .collect();
+        if let Param::Gene(_, crate::model::GeneParam::Diffusion) = param {
+            let hops = from.max(to) / (model.grid.spacing_um * model.grid.spacing_um);
+            if hops > crate::model::MAX_HOPS_PER_MIN {
+                return Err(bad(
+                    format!("D/h² reaches {hops:.1e} per minute, past any tissue"),
+                    "check the units: diffusion in µm²/min, as in the model file",
+                ));
+            }
+        }
         Ok(Axis { name, param, values, log })
     }
+}
+
+/// Refuses two axes over one parameter (the last would silently win).
+///
+/// # Errors
+/// [`AxisError`] naming the parameter.
+pub fn check_axes(axes: &[Axis]) -> Result<(), AxisError> {
+    for (i, a) in axes.iter().enumerate() {
+        if axes[..i].iter().any(|b| b.param == a.param) {
+            return Err(AxisError {
+                text: a.name.clone(),
+                why: "the parameter is swept twice".into(),
+                fix: "give each parameter one --axis".into(),
+            });
+        }
+    }
+    Ok(())
 }
 
 /// What one point of a sweep gave.
@@ -164,10 +199,10 @@ pub fn model_at(model: &Model, axes: &[Axis], values: &[f64]) -> Model {
     m
 }
 
-/// Runs one point: the last two snapshots kept, read off and classified.
+/// Runs one point: the last three snapshots kept, read off and classified.
 fn run_point(model: &Model) -> Result<(Recording, Vec<Boundary>, Vec<Domain>), StepError> {
     let times = model.clock.snapshot_times();
-    let keep: Vec<f64> = times.iter().rev().take(2).rev().copied().collect();
+    let keep: Vec<f64> = times.iter().rev().take(3).rev().copied().collect();
     let tissue = crate::tissue::Tissue::new(model);
     let kinetics = crate::kinetics::build(model);
     let mut rec = Recording::for_model(model);
@@ -188,19 +223,39 @@ fn run_point(model: &Model) -> Result<(Recording, Vec<Boundary>, Vec<Domain>), S
 /// [`PatternClass::Failed`].
 pub fn run_sweep(model: &Model, axes: &[Axis], parallel: bool, progress: &dyn Progress) -> Sweep {
     let total: usize = axes.iter().map(|a| a.values.len()).product();
-    let counter = Counter::begin(progress, "points", total);
-    let sweep = Sweep {
+    let indices: Vec<usize> = (0..total).collect();
+    let points = run_sweep_points(model, axes, &indices, parallel, progress);
+    Sweep { points, ..empty_sweep(model, axes) }
+}
+
+/// A sweep of `model` over `axes` with no points yet.
+pub fn empty_sweep(model: &Model, axes: &[Axis]) -> Sweep {
+    Sweep {
         axes: axes.to_vec(),
         genes: model.genes.iter().map(|g| g.name.clone()).collect(),
         length_um: model.grid.length_um(),
         points: Vec::new(),
-    };
-    let one = |k: usize| -> Point {
-        let values: Vec<f64> = sweep.indices(k).iter().zip(axes).map(|(&i, a)| a.values[i]).collect();
+    }
+}
+
+/// Runs the grid points `indices` (last axis fastest) of the sweep of
+/// `model` over `axes`, in that order.
+pub fn run_sweep_points(
+    model: &Model,
+    axes: &[Axis],
+    indices: &[usize],
+    parallel: bool,
+    progress: &dyn Progress,
+) -> Vec<Point> {
+    let counter = Counter::begin(progress, "points", indices.len());
+    let grid = empty_sweep(model, axes);
+    let one = |&k: &usize| -> Point {
+        let values: Vec<f64> = grid.indices(k).iter().zip(axes).map(|(&i, a)| a.values[i]).collect();
         let m = model_at(model, axes, &values);
         let point = match run_point(&m) {
             Ok((rec, boundaries, domains)) => {
-                let class = classify(&rec, &boundaries, &domains);
+                let rates: Vec<f64> = m.genes.iter().map(|g| g.decay.max(1.0 / m.clock.until_min.max(1e-12))).collect();
+                let class = classify(&rec, &rates, &boundaries, &domains);
                 Point { values, class, boundaries, domains, failure: None }
             }
             Err(e) => Point {
@@ -214,7 +269,5 @@ pub fn run_sweep(model: &Model, axes: &[Axis], parallel: bool, progress: &dyn Pr
         counter.tick();
         point
     };
-    let points = if parallel { (0..total).into_par_iter().map(one).collect() } else { (0..total).map(one).collect() };
-    drop(counter);
-    Sweep { points, ..sweep }
+    if parallel { indices.par_iter().map(one).collect() } else { indices.iter().map(one).collect() }
 }

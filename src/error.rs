@@ -70,7 +70,8 @@ library_errors!(
         crate::compare::CompareError,
         crate::integrate::CheckpointError,
         crate::fit::FitSetupError,
-        crate::sweep::AxisError
+        crate::sweep::AxisError,
+        crate::sweep::shard::ShardError
     ],
     run: [
         crate::replicates::ReplicateError,

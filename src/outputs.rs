@@ -216,11 +216,21 @@ pub fn write_sweep(
     progress: &dyn Progress,
 ) -> Result<crate::sweep::Sweep, WriteError> {
     let sweep = crate::sweep::run_sweep(model, axes, parallel, progress);
-    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
-    export::write_sweep(&sweep, dir)?;
-    let picture = render::sweep_picture(&sweep, style);
-    export::write_atomic(&dir.join("sweep.png"), |w| w.write_all(&picture.png()?))?;
+    write_sweep_files(&sweep, style, dir)?;
     Ok(sweep)
+}
+
+/// Writes a finished (or merged) sweep's `sweep.csv`, `sweep_boundaries.csv`
+/// and `sweep.png` into `dir`.
+///
+/// # Errors
+/// [`WriteError`] if a file cannot be written.
+pub fn write_sweep_files(sweep: &crate::sweep::Sweep, style: &render::Style, dir: &Path) -> Result<(), WriteError> {
+    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
+    export::write_sweep(sweep, dir)?;
+    let picture = render::sweep_picture(sweep, style);
+    export::write_atomic(&dir.join("sweep.png"), |w| w.write_all(&picture.png()?))?;
+    Ok(())
 }
 
 /// The table `screen --replicates` writes beside `shifts.csv`.

@@ -149,3 +149,48 @@ fn sweeps_from_the_command_line() {
     let text = std::fs::read_to_string(out.join("sweep.csv")).unwrap();
     assert!(text.lines().skip(1).all(|l| l.contains(",changing,")), "{text}");
 }
+
+/// Sharding: a 2-parameter sweep run whole and as 7 shards by hand merges
+/// into the same bytes (tables and picture); a merge with a shard missing
+/// names it and the command that runs it, exits 2, and writes nothing; a
+/// shard already complete is not run again.
+#[test]
+fn seven_shards_merge_into_the_bytes_of_one_run() {
+    let dir = temp_dir("sweep-shards");
+    let model = dir.join("toggle.toml");
+    std::fs::write(&model, toggle()).unwrap();
+    let m = model.to_str().unwrap();
+    let axes = ["--axis", "a=1.5:2.5:6", "--axis", "k=0.8:1.2:4:log"];
+    let (whole, sharded) = (dir.join("whole"), dir.join("sharded"));
+    let run = |extra: &[&str], out: &std::path::Path| {
+        let mut args = vec!["sweep", m];
+        args.extend_from_slice(&axes);
+        args.extend_from_slice(extra);
+        args.extend_from_slice(&["-o", out.to_str().unwrap()]);
+        anlage(&args)
+    };
+    assert!(run(&[], &whole).status.success());
+    for k in [1, 2, 3, 5, 6, 7] {
+        let o = run(&["--shard", &format!("{k}/7")], &sharded);
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    }
+    let o = run(&["--merge"], &sharded);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("1 of 7 shards") && err.contains("--shard 4/7"), "{err}");
+    assert!(!sharded.join("sweep.csv").exists(), "nothing is written while a shard is missing");
+    assert!(run(&["--shard", "4/7"], &sharded).status.success());
+    let again = run(&["--shard", "4/7"], &sharded);
+    assert!(String::from_utf8_lossy(&again.stdout).contains("already complete"));
+    let o = run(&["--merge"], &sharded);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    for name in ["sweep.csv", "sweep_boundaries.csv", "sweep.png"] {
+        assert!(
+            std::fs::read(whole.join(name)).unwrap() == std::fs::read(sharded.join(name)).unwrap(),
+            "{name} differs between the whole sweep and the merged shards"
+        );
+    }
+    // Shards of other axes are refused.
+    let o = anlage(&["sweep", m, "--axis", "a=1.5:2.5:5", "--merge", "-o", sharded.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+}

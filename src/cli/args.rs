@@ -201,6 +201,14 @@ pub struct SweepArgs {
     /// named as in a mutant's scale, e.g. amber.production=0.5:2:21:log.
     #[arg(long = "axis", value_name = "NAME=FROM:TO:POINTS[:log]", required = true)]
     pub axes: Vec<String>,
+    /// Run only shard K of N (points K−1, K−1+N, …) into OUT/shards/, e.g. as one task of a job
+    /// array; a shard already complete there is not run again. Then merge with --merge.
+    #[arg(long, value_name = "K/N", conflicts_with = "merge")]
+    pub shard: Option<String>,
+    /// Merge the shards in OUT/shards/ (same model and axes) into the outputs of an unsharded sweep,
+    /// byte for byte; lists missing shards with the command that runs each.
+    #[arg(long)]
+    pub merge: bool,
     /// Output folder, pictures and report form.
     #[command(flatten)]
     pub output: ScreenOutputArgs,

@@ -147,11 +147,11 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
 
 /// `anlage sweep`.
 pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
-    let SweepArgs { model: path, axes, output } = args;
+    let SweepArgs { model: path, axes: axes_text, shard, merge, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
     let model = Model::load(path)?;
     let axes: Vec<anlage::sweep::Axis> =
-        axes.iter().map(|t| anlage::sweep::Axis::parse(&model, t)).collect::<Result<_, _>>()?;
+        axes_text.iter().map(|t| anlage::sweep::Axis::parse(&model, t)).collect::<Result<_, _>>()?;
     anlage::sweep::check_axes(&axes)?;
     if model.grid.is_sheet() && !*json {
         eprintln!(
@@ -174,6 +174,20 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         return write_table_to_stdout(|w| anlage::export::write_sweep_to(&s, w));
     }
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "sweep"));
+    if let Some(spec) = shard {
+        let shard = anlage::sweep::shard::Shard::parse(spec)?;
+        let ran = anlage::sweep::shard::run_shard(&model, &axes, axes_text, shard, &dir, &super::bar::Bar::new(*json))?;
+        let file = shard.file(&dir);
+        let verb = if ran { "wrote" } else { "already complete, not run again:" };
+        println!("shard {}/{}: {verb} {}", shard.k, shard.n, file.display());
+        return Ok(());
+    }
+    if *merge {
+        let s = anlage::sweep::shard::merge(&model, &axes, axes_text, &dir)?;
+        anlage::write_sweep_files(&s, &style, &dir).with_context(|| format!("merging into {}", dir.display()))?;
+        super::json::print_either(*json, || super::json::sweep(&s, &dir), || print::sweep(&s, &dir));
+        return Ok(());
+    }
     let s = anlage::write_sweep(&model, &axes, &style, &dir, true, &super::bar::Bar::new(*json))
         .with_context(|| format!("sweeping {}", path.display()))?;
     super::json::print_either(*json, || super::json::sweep(&s, &dir), || print::sweep(&s, &dir));

@@ -5,6 +5,7 @@
 //! the thread count. Everything here is a model prediction.
 
 pub mod class;
+pub mod shard;
 
 use rayon::prelude::*;
 

@@ -73,14 +73,6 @@ impl<'a> Reactions<'a> {
         }
     }
 
-    /// True if the rates of a nucleus depend on nothing but its levels (no
-    /// neighbour means, no time, no gradient that changes): they may then be
-    /// evaluated chunk by chunk as soon as a step has finished each chunk
-    /// ([`Self::eval_chunk`]).
-    pub(super) fn local(&self) -> bool {
-        !self.tissue.uses_neighbours() && !self.tissue.time_varying() && !self.kinetics.reads_time()
-    }
-
     /// `f ← f(u, m(t))` (zero for held genes, plus any ectopic source), checking every value.
     ///
     /// # Errors
@@ -92,70 +84,28 @@ impl<'a> Reactions<'a> {
             self.tissue.fill_time(t, &mut self.inputs);
         }
         self.tissue.fill_neighbours(u, &mut self.inputs);
+        let kinetics = self.kinetics;
         let ax = Axis(1);
-        type Chunk<'v> = (usize, (ndarray::ArrayViewMut2<'v, f64>, ndarray::ArrayView2<'v, f64>));
-        let chunk = |(c, (out, u)): Chunk| if self.rates_of(c * CHUNK, u, out) { None } else { Some(c) };
+        type Chunk<'v> =
+            (usize, (ndarray::ArrayViewMut2<'v, f64>, (ndarray::ArrayView2<'v, f64>, ndarray::ArrayView2<'v, f64>)));
+        let chunk = |(c, (mut out, (u, m))): Chunk| {
+            kinetics.rates(u.view(), m, out.view_mut());
+            if all_bounded(u) && all_bounded(out.view()) { None } else { Some(c) }
+        };
         let outs = f.axis_chunks_iter_mut(ax, CHUNK);
         let us = u.axis_chunks_iter(ax, CHUNK);
+        let ms = self.inputs.axis_chunks_iter(ax, CHUNK);
         let first_bad = if self.parallel {
-            outs.into_par_iter().zip(us.into_par_iter()).enumerate().filter_map(chunk).min()
+            outs.into_par_iter().zip(us.into_par_iter().zip(ms.into_par_iter())).enumerate().filter_map(chunk).min()
         } else {
-            outs.zip(us).enumerate().filter_map(chunk).min()
+            outs.zip(us.zip(ms)).enumerate().filter_map(chunk).min()
         };
-        self.force(0, f.view_mut());
-        self.verdict(t, u, f, first_bad)
-    }
-
-    /// Rates of the chunk of nuclei `range` (at most [`CHUNK`], starting at a
-    /// multiple of it) from its levels `u`, which are first reset where genes
-    /// are held: `f ← f(u, m)`, then the ectopic source added and held genes'
-    /// rates zeroed. Inputs must be current ([`Self::local`] rates only).
-    /// Returns false if a level or a rate is not bounded (see [`Self::verdict`]).
-    pub(super) fn eval_chunk(
-        &self,
-        start: usize,
-        mut u: ndarray::ArrayViewMut2<f64>,
-        mut f: ndarray::ArrayViewMut2<f64>,
-    ) -> bool {
-        for (g, level) in self.clamps() {
-            u.row_mut(g).fill(level);
-        }
-        let ok = self.rates_of(start, u.view(), f.view_mut());
-        self.force(start, f);
-        ok
-    }
-
-    /// `f ← f(u, m)` over the nuclei `start..start + f.ncols()`; false if a
-    /// level or rate is not bounded.
-    fn rates_of(&self, start: usize, u: ndarray::ArrayView2<f64>, mut f: ndarray::ArrayViewMut2<f64>) -> bool {
-        let m = self.inputs.slice(ndarray::s![.., start..start + f.ncols()]);
-        self.kinetics.rates(u, m, f.view_mut());
-        all_bounded(u) && all_bounded(f.view())
-    }
-
-    /// Adds the ectopic source to the rates of the nuclei `start..start +
-    /// f.ncols()` and zeroes those of held genes.
-    fn force(&self, start: usize, mut f: ndarray::ArrayViewMut2<f64>) {
         if let Some(src) = &self.source {
-            f += &src.slice(ndarray::s![.., start..start + f.ncols()]);
+            *f += src;
         }
         for (g, _) in self.clamps() {
             f.row_mut(g).fill(0.0);
         }
-    }
-
-    /// `Ok` if no chunk was found unbounded, else the error naming the first
-    /// unbounded value from the chunk `first_bad` on.
-    ///
-    /// # Errors
-    /// [`StepError::NonFinite`] naming the first nucleus whose level or rate is not finite.
-    pub(super) fn verdict(
-        &self,
-        t: f64,
-        u: &Array2<f64>,
-        f: &Array2<f64>,
-        first_bad: Option<usize>,
-    ) -> Result<(), StepError> {
         match first_bad {
             None => Ok(()),
             Some(c) => Err(self.locate_bad(t, u, f, c * CHUNK)),

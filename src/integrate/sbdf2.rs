@@ -16,17 +16,11 @@ use nalgebra::Complex;
 use ndarray::{Array2, Zip};
 use rayon::prelude::*;
 
-use std::ops::Range;
-use std::sync::atomic::{AtomicUsize, Ordering};
-
-use ndarray::{ArrayView2, ArrayViewMut2};
-
 use super::StepError;
-use super::reactions::Reactions;
 use super::scheme::{Accepted, History, Operators, TimeScheme};
 use crate::kinetics::CHUNK;
 use crate::simd::with_avx2;
-use crate::tissue::{Rhs, SweepWork};
+use crate::tissue::Rhs;
 
 /// `max |c·(r − (wn·u + wn1·u1 + wn2·u2))| / (atol + rtol·max(|u|, |r|))`
 /// over equal-length slices, infinite if any term is not finite. Four
@@ -86,40 +80,6 @@ pub struct Sbdf2 {
     k2: f64,
     /// Every attempt is accepted (see [`TimeScheme::accept_every_step`]).
     in_place: bool,
-    /// Set by a fused attempt ([`Fused`]): the rates at the trial are in `f1`
-    /// already, with the first chunk found unbounded, if any.
-    evaluated: Option<Option<usize>>,
-}
-
-/// The work a fixed step fuses into the sweep of a sealed row: the
-/// right-hand side of each block just before its elimination, and the rates
-/// at the new state of each chunk as soon as it is final — three passes over
-/// the state (right-hand side, solve, rates) become two (down to the middle
-/// nucleus and back), while each block is in cache. The rates land in the
-/// companion array, which held the previous rates until its right-hand side
-/// was formed. Every value is computed by the same operations as unfused.
-struct Fused<'r, 'a> {
-    rhs: Rhs<'r>,
-    reactions: &'r Reactions<'a>,
-    /// Nuclei.
-    n: usize,
-    /// First chunk whose levels or rates are not bounded (`usize::MAX`: none).
-    first_bad: AtomicUsize,
-}
-
-impl SweepWork for Fused<'_, '_> {
-    fn fill(&self, range: Range<usize>, mut b: ArrayViewMut2<f64>, f1: ArrayView2<f64>) {
-        for (g, (mut row, f1)) in b.outer_iter_mut().zip(f1.outer_iter()).enumerate() {
-            let row = row.as_slice_mut().expect("contiguous gene row");
-            self.rhs.fill_with(g * self.n + range.start, row, f1.as_slice().expect("contiguous gene row"));
-        }
-    }
-
-    fn done(&self, range: Range<usize>, u: ArrayViewMut2<f64>, f: ArrayViewMut2<f64>) {
-        if !self.reactions.eval_chunk(range.start, u, f) {
-            self.first_bad.fetch_min(range.start / CHUNK, Ordering::Relaxed);
-        }
-    }
 }
 
 impl TimeScheme for Sbdf2 {
@@ -162,7 +122,6 @@ impl TimeScheme for Sbdf2 {
             held: 1,
             k2: 0.0,
             in_place: false,
-            evaluated: None,
         }
     }
 
@@ -187,32 +146,6 @@ impl TimeScheme for Sbdf2 {
             let w = k / now.k;
             if self.in_place {
                 std::mem::swap(trial, &mut self.u1);
-                if ops.diffusion.sweeps_rows() && ops.reactions.local() {
-                    let fused = Fused {
-                        rhs: Rhs {
-                            u: flat(&now.u),
-                            u1: None,
-                            f: flat(&now.f),
-                            f1: &[],
-                            c: [(1.0 + w) * (1.0 + w), w * w, k * (1.0 + w), 1.0 + w, w],
-                        },
-                        reactions: &ops.reactions,
-                        n: now.u.ncols(),
-                        first_bad: AtomicUsize::new(usize::MAX),
-                    };
-                    ops.diffusion.solve_with(
-                        trial,
-                        &mut self.f1,
-                        1.0 + 2.0 * w,
-                        k * (1.0 + w),
-                        CHUNK,
-                        &fused,
-                        parallel,
-                    );
-                    let bad = fused.first_bad.into_inner();
-                    self.evaluated = Some((bad != usize::MAX).then_some(bad));
-                    return;
-                }
             }
             let rhs = Rhs {
                 u: flat(&now.u),
@@ -288,11 +221,7 @@ impl TimeScheme for Sbdf2 {
         std::mem::swap(&mut self.f1, &mut now.f);
         self.k2 = now.k;
         self.held = (self.held + 1).min(if self.in_place { 2 } else { 3 });
-        match self.evaluated.take() {
-            // The rates at the trial came in `f1`, now swapped into `now.f`.
-            Some(first_bad) => now.take_evaluated(trial, k, t_new, &ops.reactions, first_bad),
-            None => now.take(trial, k, t_new, &mut ops.reactions),
-        }
+        now.take(trial, k, t_new, &mut ops.reactions)
     }
 
     fn held(&self) -> usize {

@@ -52,25 +52,6 @@ impl Accepted {
         self.t = t_new;
         reactions.eval(self.t, &self.u, &mut self.f)
     }
-
-    /// [`Self::take`] when the rates at `trial` are already in `self.f`
-    /// (evaluated chunk by chunk, `first_bad` the first chunk found unbounded).
-    ///
-    /// # Errors
-    /// [`StepError::NonFinite`] if the new state or its rates are NaN, infinite or blown up.
-    pub(super) fn take_evaluated(
-        &mut self,
-        trial: &mut Array2<f64>,
-        k: f64,
-        t_new: f64,
-        reactions: &Reactions,
-        first_bad: Option<usize>,
-    ) -> Result<(), StepError> {
-        std::mem::swap(&mut self.u, trial);
-        self.k = k;
-        self.t = t_new;
-        reactions.verdict(self.t, &self.u, &self.f, first_bad)
-    }
 }
 
 /// The two halves of the right-hand side: reactions (explicit) and

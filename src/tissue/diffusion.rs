@@ -20,8 +20,7 @@ use rayon::prelude::*;
 use rustfft::num_complex::Complex64;
 use rustfft::{Fft, FftPlanner};
 
-use super::row_solve::{TriFactor, factor_held, solve_short};
-use super::row_sweep::{Plain, Rows, SweepWork, TWIST_MIN, sweep};
+use super::row_solve::{TriFactor, factor_held, sweep_genes};
 use crate::model::{Edges, Grid};
 
 /// Scratch blocks for row transforms; fixed so results never depend on thread count.
@@ -153,9 +152,8 @@ impl SpectralSolver {
 }
 
 enum Solver {
-    /// One pair of kept factors per gene (a fixed-step run alternates between
-    /// at most two), and the sweep's chain values (two per gene).
-    Thomas(Vec<[TriFactor; 2]>, Vec<f64>),
+    /// One pair of kept factors per gene (a fixed-step run alternates between at most two).
+    Thomas(Vec<[TriFactor; 2]>),
     /// Sealed sheets.
     Sheet(Box<super::sheet_solve::SheetSolver>),
     /// Periodic rows and sheets.
@@ -173,7 +171,7 @@ pub struct Rhs<'a> {
     pub u1: Option<&'a [f64]>,
     /// Rates.
     pub f: &'a [f64],
-    /// Previous rates (may be empty when only [`Rhs::fill_with`] is used).
+    /// Previous rates.
     pub f1: &'a [f64],
     /// Coefficients `[cu, cu1, kf, cf, cf1]`.
     pub c: [f64; 5],
@@ -183,15 +181,9 @@ impl Rhs<'_> {
     /// Writes the right-hand side of values `offset..offset + out.len()`.
     #[inline]
     pub fn fill(&self, offset: usize, out: &mut [f64]) {
-        self.fill_with(offset, out, &self.f1[offset..offset + out.len()]);
-    }
-
-    /// [`Self::fill`] with the previous rates of those values given (`f1` is not read).
-    #[inline]
-    pub fn fill_with(&self, offset: usize, out: &mut [f64], f1: &[f64]) {
         let [cu, cu1, kf, cf, cf1] = self.c;
         let end = offset + out.len();
-        let (u, f) = (&self.u[offset..end], &self.f[offset..end]);
+        let (u, f, f1) = (&self.u[offset..end], &self.f[offset..end], &self.f1[offset..end]);
         let value = |u: f64, u1: f64, f: f64, f1: f64| cu * u - cu1 * u1 + kf * (cf * f - cf1 * f1);
         match self.u1 {
             Some(u1) => {
@@ -224,7 +216,6 @@ impl Diffusion {
                 d.iter()
                     .map(|_| [TriFactor::new(grid.nx, grid.spacing_um), TriFactor::new(grid.nx, grid.spacing_um)])
                     .collect(),
-                vec![0.0; 2 * d.len()],
             )
         } else if grid.edges == Edges::Sealed {
             Solver::Sheet(Box::new(super::sheet_solve::SheetSolver::new(grid.nx, grid.ny, grid.spacing_um, d.len())))
@@ -273,60 +264,46 @@ impl Diffusion {
         self.solve(b, a0, k, parallel);
     }
 
-    /// True if [`Self::solve_with`] can solve on this grid: a sealed row of
-    /// at least three nuclei.
-    pub fn sweeps_rows(&self) -> bool {
-        matches!(self.solver, Solver::Thomas(..)) && self.grid.nx >= TWIST_MIN
-    }
-
-    /// [`Self::solve`] on a sealed row (see [`Self::sweeps_rows`]) with the
-    /// work around it fused into the sweep: `work` fills each block of `b`
-    /// just before it is eliminated and finishes each chunk of `chunk`
-    /// nuclei (chunks start at multiples of it) as soon as its values are
-    /// final, reading and rewriting `companion` (same shape) there.
-    ///
-    /// # Panics
-    /// If the grid is not a sealed row of at least three nuclei, or the shapes differ.
-    #[allow(clippy::too_many_arguments)]
-    pub fn solve_with<W: SweepWork>(
-        &mut self,
-        b: &mut Array2<f64>,
-        companion: &mut Array2<f64>,
-        a0: f64,
-        k: f64,
-        chunk: usize,
-        work: &W,
-        parallel: bool,
-    ) {
-        assert!(self.sweeps_rows() && b.dim() == companion.dim(), "a sealed row, and shapes");
-        let Solver::Thomas(factors, chains) = &mut self.solver else { unreachable!("checked") };
-        prepare_factors(factors, &self.d, a0, k);
-        let n = b.ncols();
-        let rows = Rows { factors, d: &self.d, a0, chunk };
-        sweep(b.view_mut(), companion.view_mut(), rows, chains, work, parallel && n >= PARALLEL_MIN);
-    }
-
     /// Solves `(a₀ I − k·D_g ∇²) u_g = b_g` in place for every gene g (rows of `b`).
     pub fn solve(&mut self, b: &mut Array2<f64>, a0: f64, k: f64, parallel: bool) {
         let d = &self.d;
         match &mut self.solver {
-            Solver::Thomas(factors, chains) => {
-                prepare_factors(factors, d, a0, k);
+            Solver::Thomas(factors) => {
+                // Make sure slot 0 of each diffusing gene holds its factor, then
+                // sweep (genes without diffusion are a division), in two halves
+                // of the genes when parallel.
                 let n = b.ncols();
-                if n < TWIST_MIN {
-                    for ((mut row, pair), dg) in b.outer_iter_mut().zip(factors.iter()).zip(d) {
-                        let row = row.as_slice_mut().expect("standard layout");
-                        if *dg == 0.0 {
-                            row.iter_mut().for_each(|v| *v /= a0);
-                        } else {
-                            solve_short(&pair[0], row);
+                let mut stale: [Option<(&mut TriFactor, f64)>; 4] = [None, None, None, None];
+                let mut count = 0;
+                for ((mut row, pair), dg) in b.outer_iter_mut().zip(factors.iter_mut()).zip(d) {
+                    let c = k * dg;
+                    if *dg == 0.0 {
+                        row.iter_mut().for_each(|v| *v /= a0);
+                    } else if !pair[0].is_for(a0, c) {
+                        pair.swap(0, 1);
+                        if !pair[0].is_for(a0, c) {
+                            stale[count] = Some((&mut pair[0], c));
+                            count += 1;
+                            if count == 4 {
+                                factor_held(&mut stale, a0);
+                                count = 0;
+                            }
                         }
                     }
-                    return;
                 }
-                let rows = Rows { factors, d, a0, chunk: n };
-                let none = ndarray::ArrayViewMut2::from_shape((0, n), &mut [][..]).expect("no rows");
-                sweep(b.view_mut(), none, rows, chains, &Plain, parallel && n >= PARALLEL_MIN);
+                factor_held(&mut stale, a0);
+                let field = b.as_slice_mut().expect("standard layout");
+                let genes = d.len();
+                if parallel && genes > 1 && n >= PARALLEL_MIN {
+                    let half = genes.div_ceil(2);
+                    let (first, second) = field.split_at_mut(half * n);
+                    rayon::join(
+                        || sweep_genes(first, n, &factors[..half], &d[..half]),
+                        || sweep_genes(second, n, &factors[half..], &d[half..]),
+                    );
+                } else {
+                    sweep_genes(field, n, factors, d);
+                }
             }
             Solver::Sheet(sheet) => {
                 for (g, (mut row, dg)) in b.outer_iter_mut().zip(d).enumerate() {
@@ -350,28 +327,6 @@ impl Diffusion {
             }
         }
     }
-}
-
-/// Makes slot 0 of each diffusing gene's pair hold its factor of
-/// `a₀ I − k·D_g ∇²` (swapping in the kept one, or factoring, four rows at a time).
-fn prepare_factors(factors: &mut [[TriFactor; 2]], d: &[f64], a0: f64, k: f64) {
-    let mut stale: [Option<(&mut TriFactor, f64)>; 4] = [None, None, None, None];
-    let mut count = 0;
-    for (pair, dg) in factors.iter_mut().zip(d) {
-        let c = k * dg;
-        if *dg != 0.0 && !pair[0].is_for(a0, c) {
-            pair.swap(0, 1);
-            if !pair[0].is_for(a0, c) {
-                stale[count] = Some((&mut pair[0], c));
-                count += 1;
-                if count == 4 {
-                    factor_held(&mut stale, a0);
-                    count = 0;
-                }
-            }
-        }
-    }
-    factor_held(&mut stale, a0);
 }
 
 /// The cell-centred Laplacian ∇²u (µm⁻² × a.u.), explicitly: mirror

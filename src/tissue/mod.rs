@@ -4,12 +4,10 @@ mod cosine;
 mod diffusion;
 mod gradient;
 mod row_solve;
-mod row_sweep;
 mod sheet_solve;
 
 pub use diffusion::{Diffusion, Rhs, SpectralSolver, laplacian};
 pub use row_solve::TriFactor;
-pub use row_sweep::SweepWork;
 
 pub use gradient::{amplitude_at, distance_at, distance_um, unit_shape, value_at};
 

@@ -1,10 +1,6 @@
 //! Exact implicit diffusion on a sealed row: `(a₀ I − c ∇²) u = b`, a
 //! symmetric tridiagonal system per gene, solved by kept LU factors (Thomas)
-//! in a twisted form, several genes at a time ([`super::row_sweep`]).
-
-use ndarray::ArrayViewMut2;
-
-use super::row_sweep::{Plain, Rows, TWIST_MIN, sweep};
+//! in a twisted form, several genes at a time.
 
 /// A kept factorisation of the symmetric tridiagonal matrix `a₀ I − c ∇²` on a sealed row.
 ///
@@ -17,15 +13,15 @@ pub struct TriFactor {
     a0: f64,
     c: f64,
     h: f64,
-    pub(super) inv_w: Vec<f64>,
+    inv_w: Vec<f64>,
     /// off/w_i (0 for the last nucleus).
-    pub(super) up: Vec<f64>,
-    pub(super) m: Vec<f64>,
-    /// Pivot of the middle nucleus in the twisted solve (see [`super::row_sweep`]).
-    pub(super) gamma: f64,
+    up: Vec<f64>,
+    m: Vec<f64>,
+    /// Pivot of the middle nucleus in the twisted solve (see [`solve_together`]).
+    gamma: f64,
     /// From this nucleus up to the middle, `m`, `inv_w` and `up` are each one
     /// repeated number (see [`factor_together`]).
-    pub(super) head: usize,
+    head: usize,
 }
 
 impl TriFactor {
@@ -58,17 +54,7 @@ impl TriFactor {
     /// # Panics
     /// If `b` is not as long as the row.
     pub fn solve(&self, b: &mut [f64]) {
-        let n = self.m.len();
-        assert_eq!(b.len(), n, "row length");
-        if n < TWIST_MIN {
-            return solve_short(self, b);
-        }
-        let mut chains = [0.0; 2];
-        let pair = [self.clone(), self.clone()];
-        let rows = Rows { factors: std::slice::from_ref(&pair), d: &[1.0], a0: self.a0, chunk: n };
-        let b = ArrayViewMut2::from_shape((1, n), b).expect("one row");
-        let none = ArrayViewMut2::from_shape((0, n), &mut [][..]).expect("no rows");
-        sweep(b, none, rows, &mut chains, &Plain, false);
+        solve_together([self], [b]);
     }
 }
 
@@ -160,23 +146,148 @@ fn factor_together<const K: usize>(mut f: [&mut TriFactor; K], a0: f64, c: [f64;
     }
 }
 
-/// Solves a row of fewer than [`TWIST_MIN`] nuclei: elimination downwards,
-/// substitution upwards.
-pub(super) fn solve_short(f: &TriFactor, b: &mut [f64]) {
-    let n = b.len();
+/// Rows at least this long are solved by the twisted factorisation.
+const TWIST_MIN: usize = 3;
+
+/// Solves `K` rows at once, each with its own factor.
+///
+/// A twisted factorisation ("burn at both ends"; van der Vorst 1987,
+/// Parallel Computing 5:45; Meurant 1992, SIAM J. Matrix Anal. Appl.
+/// 13:707): elimination runs down from the first nucleus and up from the
+/// last, meets at the middle nucleus `p = n/2`, which is solved first
+/// (`x_p = (b_p − m_p y_{p−1} − m_q z_{p+1})/γ`), and back substitution runs
+/// outwards from it. The matrix reads the same from either end, so the
+/// elimination from the last nucleus uses the same coefficients, mirrored.
+/// That gives 2K independent recurrences swept together, whose latencies
+/// overlap; each row's arithmetic is the same however rows are grouped.
+///
+/// # Panics
+/// If a row's length differs from its factor's.
+fn solve_together<const K: usize>(f: [&TriFactor; K], b: [&mut [f64]; K]) {
+    let n = f[0].m.len();
+    for k in 0..K {
+        assert!(b[k].len() == n && f[k].m.len() == n, "row length");
+    }
     if n == 0 {
         return;
     }
-    let mut prev = b[0];
-    for i in 1..n {
-        prev = b[i] - f.m[i] * prev;
-        b[i] = prev;
+    if n < TWIST_MIN {
+        let mut prev: [f64; K] = std::array::from_fn(|k| b[k][0]);
+        for i in 1..n {
+            for k in 0..K {
+                prev[k] = b[k][i] - f[k].m[i] * prev[k];
+                b[k][i] = prev[k];
+            }
+        }
+        let mut next = [0.0; K];
+        for i in (0..n).rev() {
+            for k in 0..K {
+                next[k] = b[k][i] * f[k].inv_w[i] - f[k].up[i] * next[k];
+                b[k][i] = next[k];
+            }
+        }
+        return;
     }
-    let mut next = 0.0;
-    for i in (0..n).rev() {
-        next = b[i] * f.inv_w[i] - f.up[i] * next;
-        b[i] = next;
+    // Top end: nuclei 0..p; bottom end: nuclei n−1 down to p+1 (s = 0..q).
+    let p = n / 2;
+    let q = n - 1 - p;
+    // From `h` on the coefficients are constants (no loads in the chains).
+    let h = f.iter().map(|f| f.head).max().unwrap_or(0).clamp(1, q.max(1));
+    let mut top: [f64; K] = std::array::from_fn(|k| b[k][0]);
+    let mut bottom: [f64; K] = std::array::from_fn(|k| b[k][n - 1]);
+    for s in 1..h {
+        for k in 0..K {
+            let m = f[k].m[s];
+            top[k] = b[k][s] - m * top[k];
+            b[k][s] = top[k];
+            bottom[k] = b[k][n - 1 - s] - m * bottom[k];
+            b[k][n - 1 - s] = bottom[k];
+        }
     }
+    let m: [f64; K] = std::array::from_fn(|k| f[k].m[h]);
+    for s in h..q {
+        for k in 0..K {
+            top[k] = b[k][s] - m[k] * top[k];
+            b[k][s] = top[k];
+            bottom[k] = b[k][n - 1 - s] - m[k] * bottom[k];
+            b[k][n - 1 - s] = bottom[k];
+        }
+    }
+    for s in q..p {
+        for k in 0..K {
+            top[k] = b[k][s] - f[k].m[s] * top[k];
+            b[k][s] = top[k];
+        }
+    }
+    for k in 0..K {
+        b[k][p] = (b[k][p] - f[k].m[p] * top[k] - f[k].m[q] * bottom[k]) / f[k].gamma;
+        top[k] = b[k][p];
+        bottom[k] = b[k][p];
+    }
+    for s in (q..p).rev() {
+        for k in 0..K {
+            top[k] = b[k][s] * f[k].inv_w[s] - f[k].up[s] * top[k];
+            b[k][s] = top[k];
+        }
+    }
+    let (inv, up): ([f64; K], [f64; K]) = (std::array::from_fn(|k| f[k].inv_w[h]), std::array::from_fn(|k| f[k].up[h]));
+    for s in (h..q).rev() {
+        for k in 0..K {
+            top[k] = b[k][s] * inv[k] - up[k] * top[k];
+            b[k][s] = top[k];
+            bottom[k] = b[k][n - 1 - s] * inv[k] - up[k] * bottom[k];
+            b[k][n - 1 - s] = bottom[k];
+        }
+    }
+    for s in (0..h.min(q)).rev() {
+        for k in 0..K {
+            let (inv, up) = (f[k].inv_w[s], f[k].up[s]);
+            top[k] = b[k][s] * inv - up * top[k];
+            b[k][s] = top[k];
+            bottom[k] = b[k][n - 1 - s] * inv - up * bottom[k];
+            b[k][n - 1 - s] = bottom[k];
+        }
+    }
+}
+
+/// Sweeps the gene rows of `field` (`n` nuclei each) whose diffusion is not
+/// zero, four at a time, with each gene's current factor (slot 0); no allocation.
+pub(super) fn sweep_genes(field: &mut [f64], n: usize, factors: &[[TriFactor; 2]], d: &[f64]) {
+    let mut held: [Option<(&TriFactor, &mut [f64])>; 4] = [None, None, None, None];
+    let mut count = 0;
+    let flush = |held: &mut [Option<(&TriFactor, &mut [f64])>; 4], count: usize| {
+        let mut take = || held.iter_mut().find_map(Option::take).expect("held row");
+        match count {
+            4 => {
+                let (a, b, c, d) = (take(), take(), take(), take());
+                solve_together([a.0, b.0, c.0, d.0], [a.1, b.1, c.1, d.1]);
+            }
+            3 => {
+                let (a, b, c) = (take(), take(), take());
+                solve_together([a.0, b.0, c.0], [a.1, b.1, c.1]);
+            }
+            2 => {
+                let (a, b) = (take(), take());
+                solve_together([a.0, b.0], [a.1, b.1]);
+            }
+            1 => {
+                let a = take();
+                solve_together([a.0], [a.1]);
+            }
+            _ => {}
+        }
+    };
+    for ((row, pair), dg) in field.chunks_exact_mut(n).zip(factors).zip(d) {
+        if *dg != 0.0 {
+            held[count] = Some((&pair[0], row));
+            count += 1;
+            if count == 4 {
+                flush(&mut held, count);
+                count = 0;
+            }
+        }
+    }
+    flush(&mut held, count);
 }
 
 #[cfg(test)]

@@ -178,9 +178,18 @@ pub struct Rhs<'a> {
 }
 
 impl Rhs<'_> {
-    /// Writes the right-hand side of values `offset..offset + out.len()`.
+    /// Writes the right-hand side of values `offset..offset + out.len()`
+    /// (AVX2 vectors where the CPU has them; same bits).
     #[inline]
     pub fn fill(&self, offset: usize, out: &mut [f64]) {
+        crate::simd::with_avx2(
+            #[inline(always)]
+            || self.fill_plain(offset, out),
+        )
+    }
+
+    #[inline(always)]
+    fn fill_plain(&self, offset: usize, out: &mut [f64]) {
         let [cu, cu1, kf, cf, cf1] = self.c;
         let end = offset + out.len();
         let (u, f, f1) = (&self.u[offset..end], &self.f[offset..end], &self.f1[offset..end]);

@@ -14,7 +14,7 @@ use crate::common::{anlage, parse, temp_dir};
 /// cv, ln f is normal with sd σ = √ln(1 + cv²) and mean −σ²/2, so x* has sd
 /// λσ (λ·cv to first order: error propagation, Houchmandzadeh, Wieschaus &
 /// Leibler 2002, Nature 415:798, from memory) and mean λ(ln(c₀/K) − σ²/2).
-fn read_out(cv: f64, embryos: usize) -> String {
+pub(crate) fn read_out(cv: f64, embryos: usize) -> String {
     format!(
         r#"
 title = "threshold read-out"

@@ -330,51 +330,14 @@ fn issue_19_a_smooth_boundary_moving_a_spacing_per_scan_step_is_smooth() {
 fn crosses_of_log_additive_mutants_have_no_epistasis() {
     let dir = crate::common::temp_dir("crosses");
     let model = dir.join("m.toml");
-    std::fs::write(
-        &model,
-        r#"
-title = "threshold read-out"
-[tissue]
-nuclei = [300]
-spacing_um = 2.0
-[clock]
-until_min = 40.0
-tolerance = 1e-8
-snapshot_every_min = 40.0
-[[gradient]]
-name = "cue"
-shape = "exponential"
-from = "left"
-peak = 1.0
-decay_length_um = 100.0
-[[gene]]
-name = "quill"
-production = 1.0
-decay = 1.0
-boundary_level = { absolute = 0.5 }
-[circuit]
-kinetics = "hill"
-[[circuit.link]]
-from = "cue"
-to = "quill"
-sign = "+"
-threshold = 0.02
-hill = 8
-[[mutant]]
-name = "dose a"
-scale = { "cue.peak" = 2.0 }
-[[mutant]]
-name = "dose b"
-scale = { "cue.peak" = 2.0 }
-[[mutant]]
-name = "lower threshold"
-scale = { "cue->quill.threshold" = 0.5 }
-[[mutant]]
-name = "ko"
-knock_out = ["quill"]
-"#,
-    )
-    .unwrap();
+    // The read-out of tests/replicates.rs (its [noise] section plays no part
+    // in a screen), with the threshold lowered so that λ·ln 4 fits the row.
+    let text = crate::replicates::read_out(0.1, 2).replace("threshold = 0.05", "threshold = 0.02")
+        + "[[mutant]]\nname = \"dose a\"\nscale = { \"cue.peak\" = 2.0 }\n"
+        + "[[mutant]]\nname = \"dose b\"\nscale = { \"cue.peak\" = 2.0 }\n"
+        + "[[mutant]]\nname = \"lower threshold\"\nscale = { \"cue->quill.threshold\" = 0.5 }\n"
+        + "[[mutant]]\nname = \"ko\"\nknock_out = [\"quill\"]\n";
+    std::fs::write(&model, text).unwrap();
     let out = dir.join("out");
     let o = crate::common::anlage(&["screen", model.to_str().unwrap(), "--crosses", "2", "-o", out.to_str().unwrap()]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));

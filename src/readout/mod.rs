@@ -14,7 +14,7 @@ mod predicted;
 mod profile;
 
 pub use matching::{Shift, match_boundaries, pair_in_order, same_time};
-pub use predicted::{predicted_boundaries, predicted_final_boundaries};
+pub use predicted::{predicted_boundaries, predicted_final_boundaries, recording_at};
 pub use profile::{Crossing, Level, Span, boundaries_at_level, domains_at_level, profile_boundaries, profile_domains};
 
 use serde::{Deserialize, Serialize};

@@ -22,6 +22,16 @@ pub fn predicted_final_boundaries(model: &Model) -> Result<Vec<Boundary>, StepEr
 /// # Errors
 /// [`StepError`] if the run fails.
 pub fn predicted_boundaries(model: &Model, times: &[f64]) -> Result<Vec<Boundary>, StepError> {
+    let rec = recording_at(model, times)?;
+    Ok((0..rec.times.len()).map(|s| boundaries_at(&rec, s)).collect::<Result<Vec<_>, _>>()?.concat())
+}
+
+/// The model simulated on one thread, keeping only the snapshots at the
+/// given times (min); times that are not snapshot times give none.
+///
+/// # Errors
+/// [`StepError`] if the run fails.
+pub fn recording_at(model: &Model, times: &[f64]) -> Result<Recording, StepError> {
     let tissue = crate::tissue::Tissue::new(model);
     let kinetics = crate::kinetics::build(model);
     let mut rec = Recording::for_model(model);
@@ -31,5 +41,5 @@ pub fn predicted_boundaries(model: &Model, times: &[f64]) -> Result<Vec<Boundary
             let _ = rec.push(t, state);
         }
     })?;
-    Ok((0..rec.times.len()).map(|s| boundaries_at(&rec, s)).collect::<Result<Vec<_>, _>>()?.concat())
+    Ok(rec)
 }

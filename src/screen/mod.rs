@@ -13,10 +13,10 @@ pub use sensitivity::{SENSITIVITY_STEP, SensitivityRow, sensitivity, sensitivity
 
 use rayon::prelude::*;
 
-use crate::integrate::{self, Recording, StepError};
+use crate::integrate::StepError;
 use crate::model::{Edit, GradientParam, Model, Mutant, Param};
 use crate::readout::{
-    Boundary, Shift, boundaries_at, match_boundaries, predicted_final_boundaries as final_boundaries, same_time,
+    Boundary, Shift, boundaries_at, match_boundaries, predicted_final_boundaries as final_boundaries,
 };
 
 /// A boundary whose shift is smaller than this, % of the axis length, is
@@ -63,15 +63,7 @@ pub enum GeneState {
 /// # Errors
 /// [`StepError`] if the run fails.
 pub fn final_outcome(model: &Model) -> Result<(Vec<Boundary>, Vec<GeneState>), StepError> {
-    let tissue = crate::tissue::Tissue::new(model);
-    let kinetics = crate::kinetics::build(model);
-    let mut rec = Recording::for_model(model);
-    let until = model.clock.until_min;
-    integrate::integrate(model, kinetics.as_ref(), &tissue, false, |t, state| {
-        if same_time(until, t) {
-            let _ = rec.push(t, state);
-        }
-    })?;
+    let rec = crate::readout::recording_at(model, &[model.clock.until_min])?;
     let last = rec.times.len() - 1;
     let profiles = rec.axis_profiles(last, 0..rec.genes.len())?;
     let states = profiles

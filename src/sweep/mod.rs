@@ -9,10 +9,10 @@ pub mod shard;
 
 use rayon::prelude::*;
 
-use crate::integrate::{self, Recording, StepError};
+use crate::integrate::{Recording, StepError};
 use crate::model::{Model, Param};
 use crate::progress::{Counter, Progress};
-use crate::readout::{self, Boundary, Domain, same_time};
+use crate::readout::{self, Boundary, Domain};
 
 pub use class::{PatternClass, classify};
 
@@ -204,14 +204,7 @@ pub fn model_at(model: &Model, axes: &[Axis], values: &[f64]) -> Model {
 fn run_point(model: &Model) -> Result<(Recording, Vec<Boundary>, Vec<Domain>), StepError> {
     let times = model.clock.snapshot_times();
     let keep: Vec<f64> = times.iter().rev().take(3).rev().copied().collect();
-    let tissue = crate::tissue::Tissue::new(model);
-    let kinetics = crate::kinetics::build(model);
-    let mut rec = Recording::for_model(model);
-    integrate::integrate(model, kinetics.as_ref(), &tissue, false, |t, state| {
-        if keep.iter().any(|&k| same_time(k, t)) {
-            let _ = rec.push(t, state);
-        }
-    })?;
+    let rec = readout::recording_at(model, &keep)?;
     let last = rec.len() - 1;
     let boundaries = readout::boundaries_at(&rec, last)?;
     let domains = readout::final_domains(&rec);

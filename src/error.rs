@@ -71,7 +71,7 @@ library_errors!(
         crate::integrate::CheckpointError,
         crate::fit::FitSetupError,
         crate::sweep::AxisError,
-        crate::sweep::shard::ShardError
+        crate::shard::ShardError
     ],
     run: [
         crate::replicates::ReplicateError,

@@ -179,10 +179,28 @@ pub fn write_screen(
     progress: &dyn Progress,
 ) -> Result<crate::screen::Screen, WriteError> {
     let screen = crate::screen::run_screen_with(model, mutants, parallel, progress)?;
+    write_screen_files(model, &screen, style, dir, animate, parallel)?;
+    Ok(screen)
+}
+
+/// Writes a finished (or merged) screen's `shifts.csv` and `shifts.png`
+/// into `dir`, and with `animate` the wild type beside that mutant
+/// (`pair_<name>.gif`).
+///
+/// # Errors
+/// [`WriteError`] if a file cannot be written or an animated run fails.
+pub fn write_screen_files(
+    model: &Model,
+    screen: &crate::screen::Screen,
+    style: &render::Style,
+    dir: &Path,
+    animate: Option<&crate::model::Mutant>,
+    parallel: bool,
+) -> Result<(), WriteError> {
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
-    export::write_shifts(&screen, &dir.join("shifts.csv"))?;
+    export::write_shifts(screen, &dir.join("shifts.csv"))?;
     let genes: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
-    let chart = render::shift_chart(&screen, &genes, style);
+    let chart = render::shift_chart(screen, &genes, style);
     export::write_atomic(&dir.join("shifts.png"), |w| w.write_all(&chart.png()?))?;
     if let Some(m) = animate {
         let quiet = crate::RunOptions { parallel, ..Default::default() };
@@ -199,7 +217,7 @@ pub fn write_screen(
             render::write_pair_gif(&wt, &mt, &wt_style, &mt_style, w).map(|_| ())
         })?;
     }
-    Ok(screen)
+    Ok(())
 }
 
 /// Runs a sweep ([`crate::sweep::run_sweep`]) and writes `sweep.csv`,

@@ -157,6 +157,9 @@ pub struct ScreenArgs {
     /// more or less precise (replicate_shifts.csv).
     #[arg(long, value_name = "N")]
     pub replicates: Option<usize>,
+    /// Sharding and SLURM job arrays.
+    #[command(flatten)]
+    pub cluster: ClusterArgs,
     /// Output folder, pictures and report form.
     #[command(flatten)]
     pub output: ScreenOutputArgs,
@@ -201,17 +204,49 @@ pub struct SweepArgs {
     /// named as in a mutant's scale, e.g. amber.production=0.5:2:21:log.
     #[arg(long = "axis", value_name = "NAME=FROM:TO:POINTS[:log]", required = true)]
     pub axes: Vec<String>,
-    /// Run only shard K of N (points K−1, K−1+N, …) into OUT/shards/, e.g. as one task of a job
-    /// array; a shard already complete there is not run again. Then merge with --merge.
-    #[arg(long, value_name = "K/N", conflicts_with = "merge")]
-    pub shard: Option<String>,
-    /// Merge the shards in OUT/shards/ (same model and axes) into the outputs of an unsharded sweep,
-    /// byte for byte; lists missing shards with the command that runs each.
-    #[arg(long)]
-    pub merge: bool,
+    /// Sharding and SLURM job arrays.
+    #[command(flatten)]
+    pub cluster: ClusterArgs,
     /// Output folder, pictures and report form.
     #[command(flatten)]
     pub output: ScreenOutputArgs,
+}
+
+/// How a job of independent items (points, mutants) is cut into shards and
+/// run on a SLURM cluster.
+#[derive(Debug, Args)]
+pub struct ClusterArgs {
+    /// Run only shard K of N (items K−1, K−1+N, …) into OUT/shards/, e.g. as one task of a job
+    /// array; a shard already complete there is not run again, and one stopped by SIGTERM saves what
+    /// it finished and runs only the rest next time. Then merge with --merge.
+    #[arg(long, value_name = "K/N", conflicts_with_all = ["merge", "slurm"])]
+    pub shard: Option<String>,
+    /// Merge the shards in OUT/shards/ (same model and settings) into the outputs of an unsharded
+    /// run, byte for byte; lists missing shards with the command that runs each.
+    #[arg(long, conflicts_with = "slurm")]
+    pub merge: bool,
+    /// Write a SLURM job array of N shards into OUT/slurm/ (array.sbatch, merge.sbatch that waits
+    /// for the array, submit.sh) instead of running; edit them, then run submit.sh, or give --submit.
+    #[arg(long, value_name = "N")]
+    pub slurm: Option<usize>,
+    /// With --slurm: CPUs (threads) per array task.
+    #[arg(long, value_name = "C", default_value_t = 1, requires = "slurm")]
+    pub cpus_per_task: usize,
+    /// With --slurm: the partition (default: sbatch's, e.g. from SBATCH_PARTITION).
+    #[arg(long, requires = "slurm")]
+    pub partition: Option<String>,
+    /// With --slurm: the account to charge (default: sbatch's, e.g. from SBATCH_ACCOUNT).
+    #[arg(long, requires = "slurm")]
+    pub account: Option<String>,
+    /// With --slurm: time limit per task, as sbatch writes it, e.g. 2:00:00 (default: sbatch's).
+    #[arg(long, requires = "slurm")]
+    pub time: Option<String>,
+    /// With --slurm: memory per task, as sbatch writes it, e.g. 4G (default: sbatch's).
+    #[arg(long, requires = "slurm")]
+    pub mem: Option<String>,
+    /// With --slurm: also submit the array and the merge with sbatch.
+    #[arg(long, requires = "slurm")]
+    pub submit: bool,
 }
 
 /// Arguments of `replicates`.

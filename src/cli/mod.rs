@@ -4,6 +4,7 @@
 
 mod args;
 mod bar;
+mod cluster;
 mod common;
 mod compare;
 mod fit;

@@ -6,13 +6,24 @@ use anlage::model::Model;
 use anlage::render::{Style, StyleError};
 
 use super::args::*;
+use super::cluster::Mode;
 use super::common::*;
 use super::print;
 
 /// `anlage screen`.
 pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
-    let ScreenArgs { model: path, mutants, knockouts, link_removals, dosage, animate, crosses, replicates, output } =
-        args;
+    let ScreenArgs {
+        model: path,
+        mutants,
+        knockouts,
+        link_removals,
+        dosage,
+        animate,
+        crosses,
+        replicates,
+        cluster,
+        output,
+    } = args;
     let ScreenOutputArgs { out, look, json } = output;
     let model = Model::load(path)?;
     let mut list = model.mutants.clone();
@@ -62,6 +73,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
         None => None,
     };
     refuse_json_with_stdout(out.as_deref(), *json)?;
+    let mode = cluster.mode(out.as_deref())?;
     if let Some(n) = replicates {
         check_embryos("--replicates", *n)?;
     }
@@ -88,8 +100,34 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     }
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "screen"));
     let bar = super::bar::Bar::new(*json);
-    let screen = anlage::write_screen(&model, &list, &style, &dir, chosen.as_ref(), true, &bar)
-        .with_context(|| format!("screening {}", path.display()))?;
+    if let (Some(n), Mode::Shard(_) | Mode::Merge | Mode::Slurm) = (replicates, &mode) {
+        anyhow::bail!(StyleError::OutOfRange {
+            option: "--replicates".into(),
+            value: n.to_string(),
+            fix: "screens with replicates are not sharded yet; run them unsharded, or shard `anlage replicates --mutant` per mutant".into(),
+        });
+    }
+    let job = anlage::screen::shard::job(&model, &list, super::cluster::rerun_command());
+    let screen = match mode {
+        Mode::Slurm => return super::cluster::write_slurm(cluster, &dir),
+        Mode::Shard(shard) => {
+            let stop = super::cluster::stop_flag()?;
+            let wild_type = anlage::readout::predicted_final_boundaries(&model)
+                .with_context(|| format!("the wild type of {}", path.display()))?;
+            let ran = anlage::screen::shard::run_shard(&model, &list, &wild_type, &job, shard, &dir, &stop, &bar)?;
+            return super::cluster::report_shard(ran, shard, &job, &dir);
+        }
+        Mode::Merge => {
+            let wild_type = anlage::readout::predicted_final_boundaries(&model)
+                .with_context(|| format!("the wild type of {}", path.display()))?;
+            let screen = anlage::screen::shard::merge(&list, wild_type, &job, &dir)?;
+            anlage::write_screen_files(&model, &screen, &style, &dir, chosen.as_ref(), true)
+                .with_context(|| format!("merging into {}", dir.display()))?;
+            screen
+        }
+        Mode::Whole => anlage::write_screen(&model, &list, &style, &dir, chosen.as_ref(), true, &bar)
+            .with_context(|| format!("screening {}", path.display()))?,
+    };
     if replicates.is_some() && anlage::replicates::Sources::each(&model).is_empty() && !*json {
         eprintln!("anlage: note: the model declares no noise ([noise] or initial_noise): every embryo is the same");
     }
@@ -147,12 +185,13 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
 
 /// `anlage sweep`.
 pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
-    let SweepArgs { model: path, axes: axes_text, shard, merge, output } = args;
+    let SweepArgs { model: path, axes: axes_text, cluster, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
     let model = Model::load(path)?;
     let axes: Vec<anlage::sweep::Axis> =
         axes_text.iter().map(|t| anlage::sweep::Axis::parse(&model, t)).collect::<Result<_, _>>()?;
     anlage::sweep::check_axes(&axes)?;
+    let mode = cluster.mode(out.as_deref())?;
     if model.grid.is_sheet() && !*json {
         eprintln!(
             "anlage: note: on a sheet, classes and boundaries are read along x over the central strip of rows; a pattern along y is not seen"
@@ -174,19 +213,22 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         return write_table_to_stdout(|w| anlage::export::write_sweep_to(&s, w));
     }
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "sweep"));
-    if let Some(spec) = shard {
-        let shard = anlage::sweep::shard::Shard::parse(spec)?;
-        let ran = anlage::sweep::shard::run_shard(&model, &axes, axes_text, shard, &dir, &super::bar::Bar::new(*json))?;
-        let file = shard.file(&dir);
-        let verb = if ran { "wrote" } else { "already complete, not run again:" };
-        println!("shard {}/{}: {verb} {}", shard.k, shard.n, file.display());
-        return Ok(());
-    }
-    if *merge {
-        let s = anlage::sweep::shard::merge(&model, &axes, axes_text, &dir)?;
-        anlage::write_sweep_files(&s, &style, &dir).with_context(|| format!("merging into {}", dir.display()))?;
-        super::json::print_either(*json, || super::json::sweep(&s, &dir), || print::sweep(&s, &dir));
-        return Ok(());
+    let job = anlage::sweep::shard::job(&model, &axes, axes_text, super::cluster::rerun_command());
+    match mode {
+        Mode::Whole => {}
+        Mode::Slurm => return super::cluster::write_slurm(cluster, &dir),
+        Mode::Shard(shard) => {
+            let stop = super::cluster::stop_flag()?;
+            let bar = super::bar::Bar::new(*json);
+            let ran = anlage::sweep::shard::run_shard(&model, &axes, &job, shard, &dir, &stop, &bar)?;
+            return super::cluster::report_shard(ran, shard, &job, &dir);
+        }
+        Mode::Merge => {
+            let s = anlage::sweep::shard::merge(&model, &axes, &job, &dir)?;
+            anlage::write_sweep_files(&s, &style, &dir).with_context(|| format!("merging into {}", dir.display()))?;
+            super::json::print_either(*json, || super::json::sweep(&s, &dir), || print::sweep(&s, &dir));
+            return Ok(());
+        }
     }
     let s = anlage::write_sweep(&model, &axes, &style, &dir, true, &super::bar::Bar::new(*json))
         .with_context(|| format!("sweeping {}", path.display()))?;

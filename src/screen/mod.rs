@@ -6,6 +6,7 @@
 
 mod crosses;
 mod sensitivity;
+pub mod shard;
 
 pub use crosses::{Cross, Epistasis, crosses, epistasis};
 
@@ -138,25 +139,32 @@ pub fn run_screen_with(
     let done = crate::progress::Counter::begin(progress, "mutants", mutants.len());
     let genes: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
     let one = |m: &Mutant| -> Vec<Shift> {
-        let outcome = final_outcome(&model.with_mutant(m));
+        let rows = mutant_shifts(model, &wild_type, &genes, m);
         done.tick();
-        match outcome {
-            Ok((b, states)) => {
-                let mut shifts = match_boundaries(&m.name, &wild_type, &b);
-                describe_outcomes(&mut shifts, &genes, &states);
-                shifts
-            }
-            Err(e) => vec![Shift {
-                mutant: m.name.clone(),
-                status: outcome::FAILED.into(),
-                reason: Some(e.to_string()),
-                ..Shift::default()
-            }],
-        }
+        rows
     };
     let shifts: Vec<Vec<Shift>> =
         if parallel { mutants.par_iter().map(one).collect() } else { mutants.iter().map(one).collect() };
     Ok(Screen { wild_type, shifts, mutants: mutants.iter().map(|m| m.name.clone()).collect() })
+}
+
+/// One mutant of a screen: its final boundaries matched to the wild type's
+/// (`wild_type`, of `model` with genes `genes`), outcomes in words; one
+/// "failed" row with the reason when its run fails.
+pub fn mutant_shifts(model: &Model, wild_type: &[Boundary], genes: &[String], m: &Mutant) -> Vec<Shift> {
+    match final_outcome(&model.with_mutant(m)) {
+        Ok((b, states)) => {
+            let mut shifts = match_boundaries(&m.name, wild_type, &b);
+            describe_outcomes(&mut shifts, genes, &states);
+            shifts
+        }
+        Err(e) => vec![Shift {
+            mutant: m.name.clone(),
+            status: outcome::FAILED.into(),
+            reason: Some(e.to_string()),
+            ..Shift::default()
+        }],
+    }
 }
 
 /// Generated mutant families: every single knock-out (`ko:gene`), every link

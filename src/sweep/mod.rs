@@ -244,24 +244,31 @@ pub fn run_sweep_points(
     let counter = Counter::begin(progress, "points", indices.len());
     let grid = empty_sweep(model, axes);
     let one = |&k: &usize| -> Point {
-        let values: Vec<f64> = grid.indices(k).iter().zip(axes).map(|(&i, a)| a.values[i]).collect();
-        let m = model_at(model, axes, &values);
-        let point = match run_point(&m) {
-            Ok((rec, boundaries, domains)) => {
-                let rates: Vec<f64> = m.genes.iter().map(|g| g.decay.max(1.0 / m.clock.until_min.max(1e-12))).collect();
-                let class = classify(&rec, &rates, &boundaries, &domains);
-                Point { values, class, boundaries, domains, failure: None }
-            }
-            Err(e) => Point {
-                values,
-                class: PatternClass::Failed,
-                boundaries: Vec::new(),
-                domains: Vec::new(),
-                failure: Some(e.to_string()),
-            },
-        };
+        let point = point_at(model, axes, &grid, k);
         counter.tick();
         point
     };
     if parallel { indices.par_iter().map(one).collect() } else { indices.iter().map(one).collect() }
+}
+
+/// Runs grid point `k` of the sweep of `model` over `axes` (`grid` is
+/// [`empty_sweep`] of them) and classifies it; a failed run is kept, with
+/// its reason, as [`PatternClass::Failed`].
+pub(crate) fn point_at(model: &Model, axes: &[Axis], grid: &Sweep, k: usize) -> Point {
+    let values: Vec<f64> = grid.indices(k).iter().zip(axes).map(|(&i, a)| a.values[i]).collect();
+    let m = model_at(model, axes, &values);
+    match run_point(&m) {
+        Ok((rec, boundaries, domains)) => {
+            let rates: Vec<f64> = m.genes.iter().map(|g| g.decay.max(1.0 / m.clock.until_min.max(1e-12))).collect();
+            let class = classify(&rec, &rates, &boundaries, &domains);
+            Point { values, class, boundaries, domains, failure: None }
+        }
+        Err(e) => Point {
+            values,
+            class: PatternClass::Failed,
+            boundaries: Vec::new(),
+            domains: Vec::new(),
+            failure: Some(e.to_string()),
+        },
+    }
 }

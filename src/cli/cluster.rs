@@ -1,0 +1,144 @@
+//! The command-line side of sharded jobs: which of whole run, one shard,
+//! merge or SLURM scripts a command asks for, the signal handler of a shard,
+//! and what is printed.
+
+use std::path::Path;
+use std::sync::Arc;
+use std::sync::atomic::AtomicBool;
+
+use anyhow::Context;
+
+use anlage::shard::{Job, Ran, Shard, shell_quote, slurm};
+
+use super::args::ClusterArgs;
+
+/// What a command with [`ClusterArgs`] is asked to do.
+pub enum Mode {
+    /// Run everything here.
+    Whole,
+    /// Run one shard.
+    Shard(Shard),
+    /// Merge the shards.
+    Merge,
+    /// Write (and maybe submit) SLURM scripts.
+    Slurm,
+}
+
+impl ClusterArgs {
+    /// The mode asked for, with output folder `out` (`-`: standard output).
+    ///
+    /// # Errors
+    /// A `--shard` or `--slurm` written wrongly, or any of them with `-o -`.
+    pub fn mode(&self, out: Option<&Path>) -> anyhow::Result<Mode> {
+        if (self.shard.is_some() || self.merge || self.slurm.is_some()) && super::common::table_to_stdout(out) {
+            anyhow::bail!(anlage::render::StyleError::OutOfRange {
+                option: "-o".into(),
+                value: "-".into(),
+                fix: "shards, merges and job arrays write into an output folder; give one with -o".into(),
+            });
+        }
+        if let Some(spec) = &self.shard {
+            return Ok(Mode::Shard(Shard::parse(spec)?));
+        }
+        if self.merge {
+            return Ok(Mode::Merge);
+        }
+        if let Some(n) = self.slurm {
+            if n == 0 || self.cpus_per_task == 0 {
+                anyhow::bail!(anlage::render::StyleError::OutOfRange {
+                    option: "--slurm/--cpus-per-task".into(),
+                    value: format!("{n}/{}", self.cpus_per_task),
+                    fix: "give at least one task and one CPU per task".into(),
+                });
+            }
+            return Ok(Mode::Slurm);
+        }
+        Ok(Mode::Whole)
+    }
+}
+
+/// This command line without the cluster options, as a shell command
+/// starting with `anlage` (for messages: how to rerun a shard).
+pub fn rerun_command() -> String {
+    let argv: Vec<String> = std::env::args().skip(1).collect();
+    let words: Vec<String> = slurm::job_arguments(&argv).iter().map(|a| shell_quote(a)).collect();
+    format!("anlage {}", words.join(" "))
+}
+
+/// A flag set by SIGTERM (a scheduler's time limit or preemption) and
+/// SIGINT (Ctrl-C): a shard saves what it finished and stops.
+///
+/// # Errors
+/// If the handler cannot be installed.
+pub fn stop_flag() -> anyhow::Result<Arc<AtomicBool>> {
+    let stop = Arc::new(AtomicBool::new(false));
+    for signal in [signal_hook::consts::SIGTERM, signal_hook::consts::SIGINT] {
+        signal_hook::flag::register(signal, stop.clone()).context("installing the signal handler")?;
+    }
+    Ok(stop)
+}
+
+/// Prints how a shard ended; a stopped shard is an error (exit 1) that says
+/// how to finish it.
+///
+/// # Errors
+/// When the shard was stopped.
+pub fn report_shard(ran: Ran, shard: Shard, job: &Job, dir: &Path) -> anyhow::Result<()> {
+    let file = job.file(dir, shard);
+    match ran {
+        Ran::Done => println!("shard {}/{}: wrote {}", shard.k, shard.n, file.display()),
+        Ran::AlreadyComplete => {
+            println!("shard {}/{}: already complete, not run again: {}", shard.k, shard.n, file.display())
+        }
+        Ran::Stopped { done, of } => anyhow::bail!(
+            "shard {}/{} stopped by a signal: {done} of {of} items saved in {}; run the same command again to finish it",
+            shard.k,
+            shard.n,
+            file.display()
+        ),
+    }
+    Ok(())
+}
+
+/// Writes the SLURM scripts of this command (without its cluster options)
+/// into `dir/slurm` and, with `--submit`, submits them.
+///
+/// # Errors
+/// A script that cannot be written, or sbatch failing.
+pub fn write_slurm(args: &ClusterArgs, dir: &Path) -> anyhow::Result<()> {
+    let argv: Vec<String> = std::env::args().skip(1).collect();
+    let job = slurm::job_arguments(&argv);
+    let exe = std::env::current_exe().context("finding the anlage executable")?;
+    let workdir = std::env::current_dir().context("reading the working folder")?;
+    let req = slurm::Request {
+        tasks: args.slurm.unwrap_or(1),
+        cpus_per_task: args.cpus_per_task,
+        partition: args.partition.clone(),
+        account: args.account.clone(),
+        time: args.time.clone(),
+        mem: args.mem.clone(),
+    };
+    let scripts = slurm::write_scripts(&exe, &job, &workdir, dir, &req)
+        .with_context(|| format!("writing SLURM scripts into {}", dir.join("slurm").display()))?;
+    println!("wrote {}", scripts.array.display());
+    println!("wrote {}", scripts.merge.display());
+    println!("wrote {}", scripts.submit.display());
+    if !args.submit {
+        println!("submit with: bash {}", shell_quote(&scripts.submit.display().to_string()));
+        return Ok(());
+    }
+    let out = std::process::Command::new("bash")
+        .arg(&scripts.submit)
+        .output()
+        .context("running bash to submit the SLURM scripts (is bash installed?)")?;
+    if !out.status.success() {
+        anyhow::bail!(
+            "submitting with sbatch failed ({}): {}; the scripts are in {}, fix and run submit.sh",
+            out.status,
+            String::from_utf8_lossy(&out.stderr).trim(),
+            dir.join("slurm").display()
+        );
+    }
+    print!("{}", String::from_utf8_lossy(&out.stdout));
+    Ok(())
+}

@@ -1,0 +1,413 @@
+//! Sharded jobs: any job made of independent items (sweep points, mutants,
+//! parameters, fit starts) can be cut into shards that run alone, on any
+//! machine, from the same model file, and merged into exactly the result of
+//! an unsharded run.
+//!
+//! Shard k of n runs the items whose index is k − 1 modulo n, so every shard
+//! gets items from all over the job, and saves them in
+//! `OUT/shards/KIND-k-of-n.json`, always written whole (a temporary file
+//! renamed into place). A shard stopped by a signal (a scheduler ending or
+//! preempting the task) saves the items it finished, marked incomplete, and
+//! runs only the rest when started again; a complete shard of the same job is
+//! not run again. Merging checks that the shards belong to this job (model
+//! text, settings, count) and that none is missing or incomplete, and lists
+//! those with the command that reruns each.
+
+pub mod slurm;
+
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
+
+use rayon::prelude::*;
+use serde::de::DeserializeOwned;
+use serde::{Deserialize, Serialize};
+
+use crate::progress::{Counter, Progress};
+
+/// Which shard: k of n, 1 ≤ k ≤ n.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Shard {
+    /// This shard, from 1.
+    pub k: usize,
+    /// How many.
+    pub n: usize,
+}
+
+/// A shard that cannot be run or merged.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum ShardError {
+    /// `--shard` written wrongly.
+    #[error("--shard `{0}`: write K/N with 1 <= K <= N, e.g. 3/7")]
+    Spec(String),
+    /// A shard file that cannot be read, written or does not belong.
+    #[error("{}: {why}", path.display())]
+    Bad {
+        /// The shard file.
+        path: PathBuf,
+        /// What is wrong and how to fix it.
+        why: String,
+    },
+    /// Shards missing from a merge.
+    #[error("{} of {total} shards are missing or incomplete in {}: {}; run them with:\n{}", missing.len(), dir.display(), missing.iter().map(usize::to_string).collect::<Vec<_>>().join(", "), commands.join("\n"))]
+    Missing {
+        /// The shards folder.
+        dir: PathBuf,
+        /// How many shards there are.
+        total: usize,
+        /// Which are missing (k).
+        missing: Vec<usize>,
+        /// The command that runs each.
+        commands: Vec<String>,
+    },
+    /// No shard at all.
+    #[error("{}: no shard files ({kind}-K-of-N.json); run `{rerun} --shard K/N` first", dir.display())]
+    Empty {
+        /// The shards folder.
+        dir: PathBuf,
+        /// The job's kind.
+        kind: String,
+        /// The command without `--shard`.
+        rerun: String,
+    },
+}
+
+impl Shard {
+    /// Reads `K/N`.
+    ///
+    /// # Errors
+    /// [`ShardError::Spec`].
+    pub fn parse(text: &str) -> Result<Shard, ShardError> {
+        let bad = || ShardError::Spec(text.into());
+        let (k, n) = text.split_once('/').ok_or_else(bad)?;
+        let (k, n): (usize, usize) = (k.trim().parse().map_err(|_| bad())?, n.trim().parse().map_err(|_| bad())?);
+        if k == 0 || k > n {
+            return Err(bad());
+        }
+        Ok(Shard { k, n })
+    }
+
+    /// The items it runs, of `total`.
+    pub fn items(&self, total: usize) -> impl Iterator<Item = usize> + '_ {
+        (self.k - 1..total).step_by(self.n)
+    }
+}
+
+/// What identifies a sharded job: shards of another job are refused.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Job {
+    /// What the items are, also the shard files' prefix ("sweep", "screen").
+    pub kind: &'static str,
+    /// SHA-256 of the model text.
+    pub model_text_sha256: String,
+    /// The model file, for messages.
+    pub model_file: String,
+    /// Everything else the items depend on, in words (axes, mutants, step).
+    pub settings: Vec<String>,
+    /// How many items.
+    pub total: usize,
+    /// The command that runs the job, without `--shard` (for messages).
+    pub rerun: String,
+}
+
+impl Job {
+    /// A job of `kind` on `model` with `settings`, `total` items, rerun by `rerun`.
+    pub fn new(
+        kind: &'static str,
+        model: &crate::model::Model,
+        settings: Vec<String>,
+        total: usize,
+        rerun: String,
+    ) -> Job {
+        Job {
+            kind,
+            model_text_sha256: crate::replicates::text_sha256(&model.text),
+            model_file: model.file.display().to_string(),
+            settings,
+            total,
+            rerun,
+        }
+    }
+
+    /// The file of shard `shard` in output folder `dir`.
+    pub fn file(&self, dir: &Path, shard: Shard) -> PathBuf {
+        dir.join("shards").join(format!("{}-{}-of-{}.json", self.kind, shard.k, shard.n))
+    }
+}
+
+/// A shard file.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+struct ShardFile<T> {
+    kind: String,
+    model_text_sha256: String,
+    model_file: String,
+    settings: Vec<String>,
+    k: usize,
+    n: usize,
+    total: usize,
+    /// False when the shard was stopped before all its items ran.
+    complete: bool,
+    /// (index, item), by index.
+    items: Vec<(usize, T)>,
+}
+
+impl<T> ShardFile<T> {
+    fn belongs_to(&self, job: &Job) -> bool {
+        self.kind == job.kind
+            && self.model_text_sha256 == job.model_text_sha256
+            && self.settings == job.settings
+            && self.total == job.total
+    }
+}
+
+/// How a shard run ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Ran {
+    /// All its items ran (some may come from an earlier, stopped run).
+    Done,
+    /// Its file was already complete: nothing ran.
+    AlreadyComplete,
+    /// Stopped by a signal: `done` of `of` items are saved; run it again to finish.
+    Stopped {
+        /// Items saved.
+        done: usize,
+        /// Items of the shard.
+        of: usize,
+    },
+}
+
+fn read<T: DeserializeOwned>(path: &Path, kind: &str) -> Result<ShardFile<T>, ShardError> {
+    let bad = |why: String| ShardError::Bad { path: path.to_path_buf(), why };
+    let text = std::fs::read_to_string(path).map_err(|e| bad(e.to_string()))?;
+    let s: ShardFile<T> =
+        serde_json::from_str(&text).map_err(|e| bad(format!("not a {kind} shard ({e}); run it again")))?;
+    if s.kind != kind {
+        return Err(bad(format!("not a {kind} shard; run it again")));
+    }
+    Ok(s)
+}
+
+/// Runs shard `shard` of `job` into `dir`: `one(i)` computes item `i`, in
+/// parallel over items, telling `progress` (stage `what`). Items saved by an
+/// earlier stopped run of the same job are kept; a complete file is left
+/// alone. When `stop` is set (by a signal handler), items not yet begun are
+/// skipped and what finished is saved, marked incomplete.
+///
+/// # Errors
+/// [`ShardError::Bad`] if the file cannot be written.
+pub fn run<T, F>(
+    job: &Job,
+    shard: Shard,
+    dir: &Path,
+    stop: &AtomicBool,
+    what: &str,
+    progress: &dyn Progress,
+    one: F,
+) -> Result<Ran, ShardError>
+where
+    T: Serialize + DeserializeOwned + Send,
+    F: Fn(usize) -> T + Sync,
+{
+    let path = job.file(dir, shard);
+    let mut items: Vec<(usize, T)> = Vec::new();
+    if let Ok(old) = read::<T>(&path, job.kind)
+        && old.belongs_to(job)
+        && old.k == shard.k
+        && old.n == shard.n
+    {
+        if old.complete {
+            return Ok(Ran::AlreadyComplete);
+        }
+        items = old.items;
+    }
+    let wanted: Vec<usize> =
+        shard.items(job.total).filter(|i| items.binary_search_by_key(i, |(j, _)| *j).is_err()).collect();
+    let counter = Counter::begin(progress, what, wanted.len());
+    let fresh: Vec<Option<(usize, T)>> = wanted
+        .par_iter()
+        .map(|&i| {
+            if stop.load(Ordering::Relaxed) {
+                return None;
+            }
+            let item = one(i);
+            counter.tick();
+            Some((i, item))
+        })
+        .collect();
+    drop(counter);
+    items.extend(fresh.into_iter().flatten());
+    items.sort_by_key(|(i, _)| *i);
+    let of = shard.items(job.total).count();
+    let complete = items.len() == of;
+    let done = items.len();
+    let file = ShardFile {
+        kind: job.kind.to_string(),
+        model_text_sha256: job.model_text_sha256.clone(),
+        model_file: job.model_file.clone(),
+        settings: job.settings.clone(),
+        k: shard.k,
+        n: shard.n,
+        total: job.total,
+        complete,
+        items,
+    };
+    let bad = |why: String| ShardError::Bad { path: path.clone(), why };
+    std::fs::create_dir_all(dir.join("shards")).map_err(|e| bad(e.to_string()))?;
+    crate::export::write_atomic(&path, |w| serde_json::to_writer(w, &file).map_err(std::io::Error::other))
+        .map_err(|e| bad(e.to_string()))?;
+    Ok(if complete { Ran::Done } else { Ran::Stopped { done, of } })
+}
+
+/// Merges the shards of `job` in `dir/shards` into every item, by index.
+///
+/// # Errors
+/// [`ShardError::Missing`] naming the missing or incomplete shards and the
+/// command that runs each; [`ShardError::Bad`] for a shard of another model,
+/// other settings or another count; [`ShardError::Empty`].
+pub fn merge<T: DeserializeOwned>(job: &Job, dir: &Path) -> Result<Vec<T>, ShardError> {
+    let folder = dir.join("shards");
+    let prefix = format!("{}-", job.kind);
+    let mut files: Vec<PathBuf> =
+        std::fs::read_dir(&folder).map(|rd| rd.filter_map(Result::ok).map(|e| e.path()).collect()).unwrap_or_default();
+    files.retain(|p| {
+        p.extension().is_some_and(|e| e == "json")
+            && p.file_name().and_then(|n| n.to_str()).is_some_and(|n| n.starts_with(&prefix))
+    });
+    files.sort();
+    let mut n = None;
+    let mut by_k: Vec<Option<ShardFile<T>>> = Vec::new();
+    for path in files {
+        // A shard that cannot be read (cut short) counts as missing.
+        let Ok(s) = read::<T>(&path, job.kind) else { continue };
+        let bad = |why: String| ShardError::Bad { path: path.clone(), why };
+        if !s.belongs_to(job) {
+            return Err(bad(format!(
+                "made from another model or other settings than this {} (delete the shards folder and rerun)",
+                job.kind
+            )));
+        }
+        let total = *n.get_or_insert(s.n);
+        if s.n != total {
+            return Err(bad(format!(
+                "one of {} shards, where others are of {total} (delete the shards folder and rerun)",
+                s.n
+            )));
+        }
+        let want = Shard { k: s.k, n: total }.items(job.total).count();
+        by_k.resize_with(total, || None);
+        let k = s.k;
+        if s.complete && s.items.len() == want {
+            by_k[k - 1] = Some(s);
+        }
+    }
+    let Some(total) = n else {
+        return Err(ShardError::Empty { dir: folder, kind: job.kind.into(), rerun: job.rerun.clone() });
+    };
+    let missing: Vec<usize> = (1..=total).filter(|k| by_k[k - 1].is_none()).collect();
+    if !missing.is_empty() {
+        let commands = missing.iter().map(|k| format!("  {} --shard {k}/{total}", job.rerun)).collect();
+        return Err(ShardError::Missing { dir: folder, total, missing, commands });
+    }
+    let mut items: Vec<(usize, T)> = by_k.into_iter().flatten().flat_map(|s| s.items).collect();
+    items.sort_by_key(|(i, _)| *i);
+    Ok(items.into_iter().map(|(_, t)| t).collect())
+}
+
+/// Quotes `text` for a POSIX shell when it needs it.
+pub fn shell_quote(text: &str) -> String {
+    let plain = !text.is_empty() && text.chars().all(|c| c.is_ascii_alphanumeric() || "-_./=:,+@%".contains(c));
+    if plain { text.to_string() } else { format!("'{}'", text.replace('\'', r"'\''")) }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn job(total: usize) -> Job {
+        Job {
+            kind: "test",
+            model_text_sha256: "abc".into(),
+            model_file: "m.toml".into(),
+            settings: vec!["x".into()],
+            total,
+            rerun: "anlage test m.toml -o out".into(),
+        }
+    }
+
+    #[test]
+    fn shards_cover_every_item_once_and_merge_in_order() {
+        let dir = tempfile::tempdir().unwrap();
+        let j = job(23);
+        let go = AtomicBool::new(false);
+        for k in 1..=5 {
+            let ran =
+                run(&j, Shard { k, n: 5 }, dir.path(), &go, "items", &crate::progress::Silent, |i| i * i).unwrap();
+            assert_eq!(ran, Ran::Done);
+        }
+        let all: Vec<usize> = merge(&j, dir.path()).unwrap();
+        assert_eq!(all, (0..23).map(|i| i * i).collect::<Vec<_>>());
+        let again = run(&j, Shard { k: 2, n: 5 }, dir.path(), &go, "items", &crate::progress::Silent, |_| 0).unwrap();
+        assert_eq!(again, Ran::AlreadyComplete);
+    }
+
+    #[test]
+    fn a_stopped_shard_keeps_what_it_did_and_finishes_on_the_next_run() {
+        let dir = tempfile::tempdir().unwrap();
+        let j = job(40);
+        let stop = AtomicBool::new(false);
+        // Stop after the first few items (sequential pool so the count is exact).
+        let pool = rayon::ThreadPoolBuilder::new().num_threads(1).build().unwrap();
+        let ran = pool.install(|| {
+            run(&j, Shard { k: 1, n: 2 }, dir.path(), &stop, "items", &crate::progress::Silent, |i| {
+                if i >= 6 {
+                    stop.store(true, Ordering::Relaxed);
+                }
+                i + 100
+            })
+        });
+        let Ok(Ran::Stopped { done, of: 20 }) = ran else { panic!("{ran:?}") };
+        assert!(done > 0 && done < 20, "{done}");
+        // A merge counts the stopped shard as missing.
+        run(&j, Shard { k: 2, n: 2 }, dir.path(), &AtomicBool::new(false), "items", &crate::progress::Silent, |i| {
+            i + 100
+        })
+        .unwrap();
+        let Err(ShardError::Missing { missing, .. }) = merge::<usize>(&j, dir.path()) else { panic!() };
+        assert_eq!(missing, vec![1]);
+        // The rerun computes only the rest: saved items are not recomputed.
+        let seen = std::sync::Mutex::new(Vec::new());
+        let ran = run(
+            &j,
+            Shard { k: 1, n: 2 },
+            dir.path(),
+            &AtomicBool::new(false),
+            "items",
+            &crate::progress::Silent,
+            |i| {
+                seen.lock().unwrap().push(i);
+                i + 100
+            },
+        )
+        .unwrap();
+        assert_eq!(ran, Ran::Done);
+        assert_eq!(seen.into_inner().unwrap().len(), 20 - done);
+        let all: Vec<usize> = merge(&j, dir.path()).unwrap();
+        assert_eq!(all, (100..140).collect::<Vec<_>>());
+    }
+
+    #[test]
+    fn shards_of_another_job_are_refused() {
+        let dir = tempfile::tempdir().unwrap();
+        let go = AtomicBool::new(false);
+        run(&job(5), Shard { k: 1, n: 1 }, dir.path(), &go, "items", &crate::progress::Silent, |i| i).unwrap();
+        let mut other = job(5);
+        other.settings = vec!["y".into()];
+        assert!(matches!(merge::<usize>(&other, dir.path()), Err(ShardError::Bad { .. })));
+    }
+
+    #[test]
+    fn quoting_keeps_plain_words_and_wraps_the_rest() {
+        assert_eq!(shell_quote("a=1.5:2.5:6"), "a=1.5:2.5:6");
+        assert_eq!(shell_quote("it's here"), r"'it'\''s here'");
+        assert_eq!(shell_quote(""), "''");
+    }
+}

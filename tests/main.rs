@@ -21,6 +21,7 @@ mod rates;
 mod replicates;
 mod safety;
 mod screen;
+mod slurm;
 mod sweep;
 mod tables;
 

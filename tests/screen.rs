@@ -373,3 +373,55 @@ fn crosses_of_log_additive_mutants_have_no_epistasis() {
     let o = crate::common::anlage(&["screen", model.to_str().unwrap(), "--crosses", "4", "-o", out.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(2));
 }
+
+/// Sharding a screen with crosses: 3 shards run by hand and merged give the
+/// bytes of the whole screen (shifts, epistasis, picture); a merge with a
+/// shard missing names the command that runs it and writes nothing.
+#[test]
+fn a_screen_with_crosses_sharded_in_three_merges_into_the_same_bytes() {
+    let dir = crate::common::temp_dir("screen-shards");
+    let model = dir.join("m.toml");
+    let text = crate::replicates::read_out(0.1, 2).replace("threshold = 0.05", "threshold = 0.02")
+        + "[[mutant]]\nname = \"dose a\"\nscale = { \"cue.peak\" = 2.0 }\n"
+        + "[[mutant]]\nname = \"lower threshold\"\nscale = { \"cue->quill.threshold\" = 0.5 }\n"
+        + "[[mutant]]\nname = \"ko\"\nknock_out = [\"quill\"]\n";
+    std::fs::write(&model, text).unwrap();
+    let m = model.to_str().unwrap();
+    let (whole, sharded) = (dir.join("whole"), dir.join("sharded"));
+    let run = |extra: &[&str], out: &std::path::Path| {
+        let mut args = vec!["screen", m, "--crosses", "2"];
+        args.extend_from_slice(extra);
+        args.extend_from_slice(&["-o", out.to_str().unwrap()]);
+        crate::common::anlage(&args)
+    };
+    let o = run(&[], &whole);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    for k in [1, 3] {
+        let o = run(&["--shard", &format!("{k}/3")], &sharded);
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    }
+    let o = run(&["--merge"], &sharded);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("--shard 2/3"), "{err}");
+    assert!(!sharded.join("shifts.csv").exists(), "nothing is written while a shard is missing");
+    assert!(run(&["--shard", "2/3"], &sharded).status.success());
+    let o = run(&["--merge"], &sharded);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let mut names: Vec<String> = std::fs::read_dir(&whole)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n.ends_with(".csv") || n.ends_with(".png"))
+        .collect();
+    names.sort();
+    assert!(names.iter().any(|n| n == "epistasis.csv") && names.iter().any(|n| n == "shifts.csv"), "{names:?}");
+    for name in &names {
+        assert!(
+            std::fs::read(whole.join(name)).unwrap() == std::fs::read(sharded.join(name)).unwrap(),
+            "{name} differs between the whole screen and the merged shards"
+        );
+    }
+    // A screen of other mutants refuses these shards.
+    let o = crate::common::anlage(&["screen", m, "--crosses", "3", "--merge", "-o", sharded.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2), "{}", String::from_utf8_lossy(&o.stderr));
+}

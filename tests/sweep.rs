@@ -13,7 +13,7 @@ use crate::common::{anlage, parse, temp_dir};
 /// from memory) the only steady state is symmetric, u = v with u(1 + u²) = a,
 /// and the step decays; above it each nucleus keeps its side. The boundary
 /// level is that symmetric state at the pitchfork, u = 1.
-fn toggle() -> String {
+pub(crate) fn toggle() -> String {
     r#"
 title = "symmetric toggle"
 [tissue]
@@ -193,4 +193,69 @@ fn seven_shards_merge_into_the_bytes_of_one_run() {
     // Shards of other axes are refused.
     let o = anlage(&["sweep", m, "--axis", "a=1.5:2.5:5", "--merge", "-o", sharded.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(2));
+}
+
+/// SIGTERM (a scheduler's time limit or preemption) stops a shard cleanly:
+/// it saves the points it finished, marked incomplete, exits 1 saying how
+/// to finish, the merge counts it as missing, and the same command run again
+/// runs only the rest and completes the set: the merged outputs are the
+/// bytes of an unsharded sweep.
+#[test]
+fn a_shard_stopped_by_sigterm_saves_its_points_and_finishes_when_run_again() {
+    use std::process::{Command, Stdio};
+    let dir = temp_dir("sweep-sigterm");
+    let model = dir.join("toggle.toml");
+    std::fs::write(&model, toggle()).unwrap();
+    let m = model.to_str().unwrap();
+    let axes = ["--axis", "a=1.5:2.5:24", "--axis", "k=0.8:1.2:25:log"];
+    let (whole, sharded) = (dir.join("whole"), dir.join("sharded"));
+    let args = |extra: &[&str], out: &std::path::Path| {
+        let mut args: Vec<String> = vec!["sweep".into(), m.into()];
+        args.extend(axes.iter().map(|s| s.to_string()));
+        args.extend(extra.iter().map(|s| s.to_string()));
+        args.extend(["-o".to_string(), out.to_str().unwrap().to_string()]);
+        args
+    };
+    let child = Command::new(env!("CARGO_BIN_EXE_anlage"))
+        .args(args(&["--shard", "1/1"], &sharded))
+        .env("RAYON_NUM_THREADS", "1")
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    // Wait until the handler is installed (SIGTERM, bit 15, in SigCgt), then a little more.
+    let status = format!("/proc/{}/status", child.id());
+    let start = std::time::Instant::now();
+    loop {
+        let text = std::fs::read_to_string(&status).unwrap_or_default();
+        let caught =
+            text.lines().find_map(|l| l.strip_prefix("SigCgt:")).map(|h| u64::from_str_radix(h.trim(), 16).unwrap());
+        if caught.is_some_and(|mask| mask & (1 << 14) != 0) {
+            break;
+        }
+        assert!(start.elapsed().as_secs() < 30, "no SIGTERM handler after 30 s");
+        std::thread::sleep(std::time::Duration::from_millis(5));
+    }
+    std::thread::sleep(std::time::Duration::from_millis(300));
+    assert_eq!(unsafe { libc::kill(child.id() as i32, libc::SIGTERM) }, 0);
+    let o = child.wait_with_output().unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(1), "{err}");
+    assert!(err.contains("stopped by a signal") && err.contains("of 600 items saved"), "{err}");
+    let file = sharded.join("shards/sweep-1-of-1.json");
+    let saved: serde_json::Value = serde_json::from_slice(&std::fs::read(&file).unwrap()).unwrap();
+    assert_eq!(saved["complete"], false);
+    let done = saved["items"].as_array().unwrap().len();
+    assert!(done < 600, "{done}");
+    let o = anlage(&args(&["--merge"], &sharded).iter().map(String::as_str).collect::<Vec<_>>());
+    assert_eq!(o.status.code(), Some(2), "an incomplete shard is missing to the merge");
+    let o = anlage(&args(&["--shard", "1/1"], &sharded).iter().map(String::as_str).collect::<Vec<_>>());
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let o = anlage(&args(&["--merge"], &sharded).iter().map(String::as_str).collect::<Vec<_>>());
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let o = anlage(&args(&[], &whole).iter().map(String::as_str).collect::<Vec<_>>());
+    assert!(o.status.success());
+    for name in ["sweep.csv", "sweep_boundaries.csv", "sweep.png"] {
+        assert!(std::fs::read(whole.join(name)).unwrap() == std::fs::read(sharded.join(name)).unwrap(), "{name}");
+    }
 }

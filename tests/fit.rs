@@ -358,3 +358,83 @@ fn a_poor_fit_determines_nothing() {
     assert!(r.p_value.is_some_and(|p| p < anlage::fit::quality::POOR_FIT), "{:?} {}", r.p_value, r.objective);
     assert!(r.estimates.iter().all(|e| !e.determined), "{:?}", r.estimates);
 }
+
+/// Multi-start fits sharded: 5 starts of a fit of three parameters, two of
+/// which enter only as the ratio p/K (the trade-off of the test above) and
+/// one, the head gradient's decay length λ, fixed by the data. Run whole,
+/// and as 3 shards merged, the outputs are the same bytes; a merge with a
+/// shard missing names the command that runs it. The spread of the optima
+/// over the agreeing starts pins λ down and shows p and K wandering
+/// together (correlation near +1 in log units).
+#[test]
+fn a_multi_start_fit_sharded_in_three_merges_into_the_same_fit_and_shows_the_trade_off() {
+    let dir = std::env::temp_dir().join(format!("anlage-fit-{}-shards", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    write_table(&dir, "wt", None, 0.0, 1);
+    write_table(&dir, "x2", Some("head x2"), 0.0, 2);
+    let text = format!(
+        "{}\n[fit]\nseed = 7\nevaluations = 240\nstarts = 5\n\
+         [[fit.parameter]]\nname = \"head.decay_length_um\"\nmin = 80.0\nmax = 250.0\n\
+         [[fit.parameter]]\nname = \"cobalt.production\"\nmin = 0.3\nmax = 3.0\nscale = \"log\"\n\
+         [[fit.parameter]]\nname = \"cobalt->amber.threshold\"\nmin = 0.5\nmax = 8.0\nscale = \"log\"\n\
+         [[fit.data]]\ntable = \"wt.csv\"\n[[fit.data]]\ntable = \"x2.csv\"\ngenotype = \"head x2\"\n",
+        ribbon_with(TRUE_LAMBDA, TRUE_K)
+    );
+    let model = dir.join("fit.toml");
+    std::fs::write(&model, text).unwrap();
+    let m = model.to_str().unwrap();
+    let (whole, sharded) = (dir.join("whole"), dir.join("sharded"));
+    let run = |extra: &[&str], out: &Path| {
+        let mut args = vec!["fit", m];
+        args.extend_from_slice(extra);
+        args.extend_from_slice(&["-o", out.to_str().unwrap()]);
+        crate::common::anlage(&args)
+    };
+    let o = run(&["--json"], &whole);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let json_whole = String::from_utf8_lossy(&o.stdout).to_string();
+    for k in [1, 3] {
+        let o = run(&["--shard", &format!("{k}/3")], &sharded);
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    }
+    let o = run(&["--merge"], &sharded);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("--shard 2/3"), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(!sharded.join("fit.csv").exists(), "nothing is written while a shard is missing");
+    assert!(run(&["--shard", "2/3"], &sharded).status.success());
+    let o = run(&["--merge", "--json"], &sharded);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let json_merged = String::from_utf8_lossy(&o.stdout).to_string();
+    let mut names: Vec<String> = std::fs::read_dir(&whole)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| [".csv", ".png", ".toml"].iter().any(|x| n.ends_with(x)))
+        .collect();
+    names.sort();
+    assert!(names.len() >= 6, "{names:?}");
+    for name in &names {
+        assert!(
+            std::fs::read(whole.join(name)).unwrap() == std::fs::read(sharded.join(name)).unwrap(),
+            "{name} differs between the whole fit and the merged shards"
+        );
+    }
+    let strip = |t: &str| {
+        let mut v: serde_json::Value = serde_json::from_str(t).unwrap();
+        v.as_object_mut().unwrap().remove("outputs");
+        v
+    };
+    let (a, b) = (strip(&json_whole), strip(&json_merged));
+    assert_eq!(a, b);
+    let spread = &a["optima_spread"];
+    let params = spread["parameters"].as_array().unwrap();
+    assert!(spread["agreeing_starts"].as_array().unwrap().len() >= 3, "{spread}");
+    assert_eq!(params[0]["pinned"], true, "λ is fixed by the data: {spread}");
+    assert_eq!((params[1]["pinned"].as_bool(), params[2]["pinned"].as_bool()), (Some(false), Some(false)), "{spread}");
+    let trade = spread["trade_offs"].as_array().unwrap();
+    assert_eq!(trade.len(), 1, "{spread}");
+    assert_eq!(trade[0]["parameters"], serde_json::json!(["cobalt.production", "cobalt->amber.threshold"]));
+    assert!(trade[0]["correlation"].as_f64().unwrap() > 0.99, "{spread}");
+    // Shards of a fit with other starts are refused.
+    let o = run(&["--merge", "--starts", "4"], &sharded);
+    assert_eq!(o.status.code(), Some(2), "{}", String::from_utf8_lossy(&o.stderr));
+}

@@ -298,6 +298,9 @@ pub struct FitArgs {
     /// Print what was found as one JSON document on standard output instead of the report.
     #[arg(long)]
     pub json: bool,
+    /// Shards (one or more starts each), merge, SLURM job arrays.
+    #[command(flatten)]
+    pub cluster: ClusterArgs,
 }
 
 /// Arguments of `compare`.

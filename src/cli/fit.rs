@@ -6,12 +6,13 @@ use anlage::model::Model;
 use anlage::progress::Progress;
 
 use super::args::*;
+use super::cluster::Mode;
 use super::common::*;
 use super::print;
 
 /// `anlage fit`.
 pub fn fit(args: &FitArgs) -> anyhow::Result<()> {
-    let FitArgs { model: path, out, threads, starts, light, quiet, json } = args;
+    let FitArgs { model: path, out, threads, starts, light, quiet, json, cluster } = args;
     if let Some(n) = threads {
         rayon::ThreadPoolBuilder::new().num_threads((*n).max(1)).build_global().context("setting threads")?;
     }
@@ -28,19 +29,35 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<()> {
         problem.starts = *n;
     }
     let start = std::time::Instant::now();
-    let bar = super::bar::Bar::new(*quiet || *json);
-    bar.begin("evaluations", (problem.evaluations * problem.starts) as u64);
-    let result = anlage::fit::fit(&problem, true, &mut |evaluations, best| {
-        bar.advance(evaluations as u64, &format!("best {best:.4}"));
-    });
-    bar.finish();
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "fit"));
+    let mode = cluster.mode(out.as_deref())?;
+    let bar = super::bar::Bar::new(*quiet || *json);
+    let job = anlage::fit::shard::job(&problem, super::cluster::rerun_command());
+    let merged = matches!(mode, Mode::Merge);
+    let result = match mode {
+        Mode::Slurm => return super::cluster::write_slurm(cluster, &dir),
+        Mode::Shard(shard) => {
+            let stop = super::cluster::stop_flag()?;
+            let ran = anlage::fit::shard::run_shard(&problem, &job, shard, &dir, &stop, &bar)?;
+            bar.finish();
+            return super::cluster::report_shard(ran, shard, &job, &dir);
+        }
+        Mode::Merge => anlage::fit::shard::merge(&problem, &job, &dir)?,
+        Mode::Whole => {
+            bar.begin("evaluations", (problem.evaluations * problem.starts) as u64);
+            let result = anlage::fit::fit(&problem, true, &mut |evaluations, best| {
+                bar.advance(evaluations as u64, &format!("best {best:.4}"));
+            });
+            bar.finish();
+            result
+        }
+    };
     let bg = if *light { anlage::render::Background::Light } else { anlage::render::Background::Dark };
     anlage::write_fit(&problem, &result, bg, &dir).with_context(|| format!("writing the fit to {}", dir.display()))?;
     if *json {
         println!("{}", super::json::fit(&problem, &result, &dir));
     } else if !quiet {
-        print!("{}", print::fit(&problem, &result, start.elapsed().as_secs_f64(), &dir));
+        print!("{}", print::fit(&problem, &result, start.elapsed().as_secs_f64(), merged, &dir));
     }
     Ok(())
 }

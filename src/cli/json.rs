@@ -240,6 +240,16 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, dir: &
             "seed": s.seed, "search_objective": s.search_value, "search_converged": s.search_converged,
             "objective": s.value, "polish_converged": s.polish.converged, "polish": s.polish.reason, "values": s.values,
         })).collect::<Vec<_>>(),
+        "optima_spread": r.spread.as_ref().map(|x| json!({
+            "agreeing_starts": x.agreeing.iter().map(|k| k + 1).collect::<Vec<_>>(),
+            "parameters": problem.params.iter().enumerate().map(|(j, p)| json!({
+                "parameter": p.name, "lowest": x.range[j].0, "highest": x.range[j].1,
+                "fraction_of_range": x.fraction[j], "pinned": x.pinned[j],
+            })).collect::<Vec<_>>(),
+            "trade_offs": x.trade_offs.iter().map(|&(a, b, r)| json!({
+                "parameters": [problem.params[a].name, problem.params[b].name], "correlation": r,
+            })).collect::<Vec<_>>(),
+        })),
         "correlation": r.correlation,
         "parameters": parameters,
         "combinations": combinations,

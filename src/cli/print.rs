@@ -415,18 +415,37 @@ pub fn sensitivity(rows: &[anlage::screen::SensitivityRow], dir: &Path) -> Strin
 }
 
 /// What `anlage fit` prints.
-pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, seconds: f64, dir: &Path) -> String {
+/// `merged`: the starts ran in shards and `seconds` is the time to finish them.
+pub fn fit(
+    problem: &anlage::fit::FitProblem,
+    r: &anlage::fit::FitResult,
+    seconds: f64,
+    merged: bool,
+    dir: &Path,
+) -> String {
     let mut s = String::new();
     let evals = r.evaluations;
-    let _ = writeln!(
-        s,
-        "{}: {evals} evaluations in {seconds:.1} s ({:.0} per second), {} start{}",
-        problem.model.title,
-        evals as f64 / seconds.max(1e-9),
-        r.starts.len(),
-        if r.starts.len() == 1 { "" } else { "s" }
-    );
+    let plural = if r.starts.len() == 1 { "" } else { "s" };
+    let _ = if merged {
+        writeln!(
+            s,
+            "{}: {evals} evaluations, {} start{plural} run in shards and finished here in {seconds:.1} s",
+            problem.model.title,
+            r.starts.len()
+        )
+    } else {
+        writeln!(
+            s,
+            "{}: {evals} evaluations in {seconds:.1} s ({:.0} per second), {} start{plural}",
+            problem.model.title,
+            evals as f64 / seconds.max(1e-9),
+            r.starts.len()
+        )
+    };
     for line in &r.convergence.lines {
+        let _ = writeln!(s, "  {line}");
+    }
+    for line in r.spread.iter().flat_map(|x| &x.lines) {
         let _ = writeln!(s, "  {line}");
     }
     if r.convergence.converged {
@@ -486,6 +505,9 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, second
         }
         if e.in_weak {
             notes.push("in a combination the data do not fix");
+        }
+        if notes.is_empty() {
+            notes.push("the fit has not converged or fits poorly, so no interval is trusted");
         }
         let note =
             if e.determined { "determined".to_string() } else { format!("poorly determined: {}", notes.join("; ")) };

@@ -207,7 +207,7 @@ pub fn write_starts(problem: &FitProblem, r: &FitResult, path: &Path) -> Result<
                 search_objective: s.search_value,
                 objective: s.value,
                 polish_converged: s.polish.converged,
-                polish: s.polish.reason,
+                polish: &s.polish.reason,
             };
             table.row((row, Cells(&s.values)))?;
         }

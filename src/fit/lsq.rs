@@ -144,7 +144,7 @@ pub struct Polish {
     /// True when it stopped on its convergence rule (see [`polish`]).
     pub converged: bool,
     /// Why it stopped, in words.
-    pub reason: &'static str,
+    pub reason: String,
 }
 
 /// Bounded Levenberg–Marquardt from `u0`, moving only the `free`
@@ -160,13 +160,13 @@ pub struct Polish {
 /// iterations, or when the slopes cannot be taken.
 pub fn polish(res: &Res, u0: &[f64], free: &[usize], h: &[f64], parallel: bool) -> Polish {
     let mut u = u0.to_vec();
-    let stop = |u: Vec<f64>, value, iterations, evaluations, converged, reason| Polish {
+    let stop = |u: Vec<f64>, value, iterations, evaluations, converged, reason: &str| Polish {
         u,
         value,
         iterations,
         evaluations,
         converged,
-        reason,
+        reason: reason.to_string(),
     };
     let Some(mut r) = res(&u) else {
         return stop(u, f64::INFINITY, 0, 1, false, "the model cannot be run at the starting point");

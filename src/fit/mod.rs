@@ -22,6 +22,8 @@ pub mod objective;
 pub mod optimise;
 pub mod problem;
 pub mod quality;
+pub mod shard;
+pub mod spread;
 
 use rayon::prelude::*;
 
@@ -30,6 +32,7 @@ pub use objective::Residual;
 pub use optimise::{DeOptions, DeResult};
 pub use problem::{FitProblem, FitSetupError, FreeParam, WILD_TYPE};
 pub use quality::{Combination, Convergence, Start, describe_combination};
+pub use spread::{OptimaSpread, optima_spread};
 
 /// Nuclei some boundary must move across ±h to set a slope step h (common practice, no source).
 const STAIRS: f64 = 3.0;
@@ -66,6 +69,8 @@ pub struct FitResult {
     pub search: DeResult,
     /// Every start.
     pub starts: Vec<Start>,
+    /// How the optima of the starts spread (None for one start).
+    pub spread: Option<OptimaSpread>,
     /// How the search ended, in numbers and words.
     pub convergence: Convergence,
     /// Correlation matrix of the parameters from the curvature (None when singular).
@@ -107,28 +112,57 @@ fn residual_fn(problem: &FitProblem) -> impl Fn(&[f64]) -> Option<Vec<f64>> + Sy
 }
 
 /// Runs the fit; `report(evaluations, best objective)` after each generation
-/// of the global search.
+/// of the global search: every start ([`run_start`]), then [`finish`].
 pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f64)) -> FitResult {
+    let runs = (0..problem.starts.max(1))
+        .map(|k| {
+            let offset = k * problem.evaluations;
+            run_start(problem, k, parallel, &mut |n, b| report(offset + n, b))
+        })
+        .collect();
+    finish(problem, runs, parallel)
+}
+
+/// Start `k` (from 0) of the fit: the global search from seed `seed + k`
+/// (start 0's first population includes the model file's values) and the
+/// local polish of its best point. Starts are independent, so they
+/// can run anywhere (sharded) and be finished together.
+pub fn run_start(problem: &FitProblem, k: usize, parallel: bool, report: &mut dyn FnMut(usize, f64)) -> StartRun {
     let dim = problem.params.len();
     let res = residual_fn(problem);
     let f = |u: &[f64]| objective::objective(problem, &problem.values(u));
     let start: Vec<f64> = problem.params.iter().map(|p| p.unit(p.start)).collect();
     let all: Vec<usize> = (0..dim).collect();
-    let mut evaluations = 0;
-    let mut starts = Vec::new();
-    let mut searches = Vec::new();
-    for k in 0..problem.starts.max(1) {
-        let seed = problem.seed.wrapping_add(k as u64);
-        let opts = DeOptions { seed, evaluations: problem.evaluations, restarts: problem.restarts, parallel };
-        let offset = k * problem.evaluations;
-        let search = optimise::minimise(dim, &f, Some(&start), &opts, &mut |n, b| report(offset + n, b));
-        evaluations += search.evaluations;
-        let (_, steps) = residuals_and_steps(problem, &res, &search.best, parallel);
-        let polish = lsq::polish(&res, &search.best, &all, &steps, parallel);
-        evaluations += polish.evaluations;
-        starts.push(Start::new(seed, &search, polish, problem));
-        searches.push(search);
-    }
+    let seed = problem.seed.wrapping_add(k as u64);
+    let opts = DeOptions { seed, evaluations: problem.evaluations, restarts: problem.restarts, parallel };
+    // Only the first start holds the model file's values: the others start
+    // from random populations alone, so that their optima are independent
+    // samples (an elitist search seeded with a good file value would end
+    // there in every start, and agreeing starts would prove nothing).
+    let search = optimise::minimise(dim, &f, (k == 0).then_some(start.as_slice()), &opts, report);
+    let (_, steps) = residuals_and_steps(problem, &res, &search.best, parallel);
+    let polish = lsq::polish(&res, &search.best, &all, &steps, parallel);
+    StartRun { start: Start::new(seed, &search, polish, problem), search }
+}
+
+/// One start as run: its polished outcome and its global search.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StartRun {
+    /// The polished start.
+    pub start: Start,
+    /// Its global search.
+    pub search: DeResult,
+}
+
+/// Finishes a fit from its starts (in start order): takes the best, profiles
+/// every parameter around it (polishing again if a profile finds a lower
+/// objective), and judges the fit.
+pub fn finish(problem: &FitProblem, runs: Vec<StartRun>, parallel: bool) -> FitResult {
+    let dim = problem.params.len();
+    let res = residual_fn(problem);
+    let all: Vec<usize> = (0..dim).collect();
+    let mut evaluations: usize = runs.iter().map(|r| r.search.evaluations + r.start.polish.evaluations).sum();
+    let (starts, mut searches): (Vec<Start>, Vec<DeResult>) = runs.into_iter().map(|r| (r.start, r.search)).unzip();
     let best_start = (0..starts.len()).min_by(|&a, &b| starts[a].value.total_cmp(&starts[b].value)).unwrap_or(0);
     let search = searches.swap_remove(best_start);
     let mut u = starts[best_start].polish.u.clone();
@@ -221,6 +255,7 @@ pub fn fit(problem: &FitProblem, parallel: bool, report: &mut dyn FnMut(usize, f
         dof,
         residuals,
         search,
+        spread: optima_spread(problem, &starts),
         starts,
         convergence,
         correlation,

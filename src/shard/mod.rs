@@ -312,6 +312,43 @@ pub fn merge<T: DeserializeOwned>(job: &Job, dir: &Path) -> Result<Vec<T>, Shard
     Ok(items.into_iter().map(|(_, t)| t).collect())
 }
 
+/// A float that a shard file keeps exactly: finite values as JSON numbers
+/// (exact with serde_json's `float_roundtrip`), the others, which JSON
+/// lacks, as the strings "inf", "-inf" and "nan".
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Real(pub f64);
+
+impl Serialize for Real {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        match self.0 {
+            v if v.is_finite() => s.serialize_f64(v),
+            v if v.is_nan() => s.serialize_str("nan"),
+            v if v > 0.0 => s.serialize_str("inf"),
+            _ => s.serialize_str("-inf"),
+        }
+    }
+}
+
+impl<'de> Deserialize<'de> for Real {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Real, D::Error> {
+        #[derive(Deserialize)]
+        #[serde(untagged)]
+        enum Wire {
+            Number(f64),
+            Text(String),
+        }
+        match Wire::deserialize(d)? {
+            Wire::Number(v) => Ok(Real(v)),
+            Wire::Text(t) => match t.as_str() {
+                "inf" => Ok(Real(f64::INFINITY)),
+                "-inf" => Ok(Real(f64::NEG_INFINITY)),
+                "nan" => Ok(Real(f64::NAN)),
+                other => Err(serde::de::Error::custom(format!("`{other}` is not a number"))),
+            },
+        }
+    }
+}
+
 /// Quotes `text` for a POSIX shell when it needs it.
 pub fn shell_quote(text: &str) -> String {
     let plain = !text.is_empty() && text.chars().all(|c| c.is_ascii_alphanumeric() || "-_./=:,+@%".contains(c));
@@ -331,6 +368,17 @@ mod tests {
             total,
             rerun: "anlage test m.toml -o out".into(),
         }
+    }
+
+    #[test]
+    fn reals_survive_json_exactly_including_infinities() {
+        for v in [0.1 + 0.2, -1e-300, 1.0 / 3.0, f64::INFINITY, f64::NEG_INFINITY, 5e-324] {
+            let back: Real = serde_json::from_str(&serde_json::to_string(&Real(v)).unwrap()).unwrap();
+            assert_eq!(back.0.to_bits(), v.to_bits(), "{v}");
+        }
+        let nan: Real = serde_json::from_str(&serde_json::to_string(&Real(f64::NAN)).unwrap()).unwrap();
+        assert!(nan.0.is_nan());
+        assert!(serde_json::from_str::<Real>("\"lots\"").is_err());
     }
 
     #[test]

@@ -287,11 +287,25 @@ pub fn write_sensitivity(
     progress: &dyn Progress,
 ) -> Result<Vec<crate::screen::SensitivityRow>, WriteError> {
     let rows = crate::screen::sensitivity_with(model, step_ln, parallel, progress)?;
-    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
-    export::write_sensitivity(&rows, &dir.join("sensitivity.csv"))?;
-    let map = render::sensitivity_map(&rows, style);
-    export::write_atomic(&dir.join("sensitivity.png"), |w| w.write_all(&map.png()?))?;
+    write_sensitivity_files(&rows, style, dir)?;
     Ok(rows)
+}
+
+/// Writes `sensitivity.csv` and `sensitivity.png` of finished `rows` (of a
+/// whole run or merged shards).
+///
+/// # Errors
+/// [`WriteError`] if a file cannot be written.
+pub fn write_sensitivity_files(
+    rows: &[crate::screen::SensitivityRow],
+    style: &render::Style,
+    dir: &Path,
+) -> Result<(), WriteError> {
+    std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
+    export::write_sensitivity(rows, &dir.join("sensitivity.csv"))?;
+    let map = render::sensitivity_map(rows, style);
+    export::write_atomic(&dir.join("sensitivity.png"), |w| w.write_all(&map.png()?))?;
+    Ok(())
 }
 
 /// Writes a finished fit: `fit.csv`, `fit_trace.csv`, `fit_residuals.csv`,

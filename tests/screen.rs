@@ -425,3 +425,38 @@ fn a_screen_with_crosses_sharded_in_three_merges_into_the_same_bytes() {
     let o = crate::common::anlage(&["screen", m, "--crosses", "3", "--merge", "-o", sharded.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(2), "{}", String::from_utf8_lossy(&o.stderr));
 }
+
+/// Sharding the sensitivity: 4 shards (some parameters each) merged give
+/// the bytes of the whole table and picture; shards of another step are
+/// refused.
+#[test]
+fn sensitivity_sharded_in_four_merges_into_the_same_bytes() {
+    let dir = crate::common::temp_dir("sensitivity-shards");
+    let model = dir.join("m.toml");
+    std::fs::write(&model, crate::replicates::read_out(0.1, 2)).unwrap();
+    let m = model.to_str().unwrap();
+    let (whole, sharded) = (dir.join("whole"), dir.join("sharded"));
+    let run = |extra: &[&str], out: &std::path::Path| {
+        let mut args = vec!["sensitivity", m];
+        args.extend_from_slice(extra);
+        args.extend_from_slice(&["-o", out.to_str().unwrap()]);
+        crate::common::anlage(&args)
+    };
+    assert!(run(&[], &whole).status.success());
+    for k in 1..=4 {
+        let o = run(&["--shard", &format!("{k}/4")], &sharded);
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    }
+    let o = run(&["--merge"], &sharded);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    for name in ["sensitivity.csv", "sensitivity.png"] {
+        assert!(
+            std::fs::read(whole.join(name)).unwrap() == std::fs::read(sharded.join(name)).unwrap(),
+            "{name} differs between the whole sensitivity and the merged shards"
+        );
+    }
+    let rows = std::fs::read_to_string(whole.join("sensitivity.csv")).unwrap().lines().count();
+    assert!(rows > 4, "every parameter has rows: {rows}");
+    let o = run(&["--merge", "--step", "0.02"], &sharded);
+    assert_eq!(o.status.code(), Some(2), "{}", String::from_utf8_lossy(&o.stderr));
+}

@@ -190,6 +190,9 @@ pub struct SensitivityArgs {
     /// Step in ln(parameter) for the central differences (default 0.01).
     #[arg(long, default_value_t = anlage::screen::SENSITIVITY_STEP)]
     pub step: f64,
+    /// Shards (some parameters each), merge, SLURM job arrays.
+    #[command(flatten)]
+    pub cluster: ClusterArgs,
     /// Output folder, pictures and report form.
     #[command(flatten)]
     pub output: ScreenOutputArgs,

@@ -158,7 +158,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
 
 /// `anlage sensitivity`.
 pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
-    let SensitivityArgs { model: path, step, output } = args;
+    let SensitivityArgs { model: path, step, cluster, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
     let model = Model::load(path)?;
     if !(step.is_finite() && *step > 0.0 && *step < 1.0) {
@@ -169,6 +169,7 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
         });
     }
     refuse_json_with_stdout(out.as_deref(), *json)?;
+    let mode = cluster.mode(out.as_deref())?;
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
     if table_to_stdout(out.as_deref()) {
@@ -177,8 +178,28 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
         return write_table_to_stdout(|w| anlage::export::write_rows_to(&rows, w));
     }
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "screen"));
-    let rows = anlage::write_sensitivity(&model, *step, &style, &dir, true, &super::bar::Bar::new(*json))
-        .with_context(|| format!("sensitivity of {}", path.display()))?;
+    let bar = super::bar::Bar::new(*json);
+    let job = anlage::screen::shard::sensitivity_job(&model, *step, super::cluster::rerun_command());
+    let rows = match mode {
+        Mode::Slurm => return super::cluster::write_slurm(cluster, &dir),
+        Mode::Shard(shard) => {
+            let stop = super::cluster::stop_flag()?;
+            let wild_type = anlage::readout::predicted_final_boundaries(&model)
+                .with_context(|| format!("the wild type of {}", path.display()))?;
+            let ran = anlage::screen::shard::run_sensitivity_shard(
+                &model, *step, &wild_type, &job, shard, &dir, &stop, &bar,
+            )?;
+            return super::cluster::report_shard(ran, shard, &job, &dir);
+        }
+        Mode::Merge => {
+            let rows = anlage::screen::shard::merge_sensitivity(&job, &dir)?;
+            anlage::write_sensitivity_files(&rows, &style, &dir)
+                .with_context(|| format!("merging into {}", dir.display()))?;
+            rows
+        }
+        Mode::Whole => anlage::write_sensitivity(&model, *step, &style, &dir, true, &bar)
+            .with_context(|| format!("sensitivity of {}", path.display()))?,
+    };
     super::json::print_either(*json, || super::json::sensitivity(&rows, &dir), || print::sensitivity(&rows, &dir));
     Ok(())
 }

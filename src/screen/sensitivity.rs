@@ -105,7 +105,7 @@ pub fn sensitivity_with(
 }
 
 /// The rows of one parameter.
-fn rows_for(model: &Model, p: Param, wt: &[Boundary], step_ln: f64) -> Vec<SensitivityRow> {
+pub(crate) fn rows_for(model: &Model, p: Param, wt: &[Boundary], step_ln: f64) -> Vec<SensitivityRow> {
     let at = |u: f64| -> Option<Vec<Boundary>> {
         if u == 0.0 {
             return Some(wt.to_vec());

@@ -460,3 +460,45 @@ fn sensitivity_sharded_in_four_merges_into_the_same_bytes() {
     let o = run(&["--merge", "--step", "0.02"], &sharded);
     assert_eq!(o.status.code(), Some(2), "{}", String::from_utf8_lossy(&o.stderr));
 }
+
+/// A mutant that has not settled by the end of the run is said to be so, in
+/// its rows, in the report and in --json, and a sweep calls such a point
+/// "changing". Reference: for du/dt = p·H − d·u from u = 0 (no diffusion),
+/// u(T) = (pH/d)(1 − e^(−dT)) and du/dt = pH·e^(−dT), so the rule "|du/dt|
+/// above 1 % of the largest level per decay time 1/d" reads e^(−dT)/(1 −
+/// e^(−dT)) > 0.01, i.e. d·T < ln 101 = 4.615 (the exponential approach of a
+/// linear production–decay gene; any textbook ODE). With T = 40 min: decay
+/// 0.1/min (dT = 4) has not settled, 0.125/min (dT = 5) has. Snapshots every
+/// 40 min (one interval from the start) must not make a settled run look
+/// unsettled.
+#[test]
+fn unsettled_mutants_and_sweep_points_are_named_by_the_exponential_approach() {
+    let dir = crate::common::temp_dir("unsettled");
+    let model = dir.join("m.toml");
+    let text = crate::replicates::read_out(0.1, 2)
+        + "[[mutant]]\nname = \"decay x0.1\"\nscale = { \"quill.decay\" = 0.1 }\n"
+        + "[[mutant]]\nname = \"decay x0.125\"\nscale = { \"quill.decay\" = 0.125 }\n";
+    assert!(text.contains("until_min = 40.0") && text.contains("snapshot_every_min = 40.0"));
+    std::fs::write(&model, text).unwrap();
+    let m = model.to_str().unwrap();
+    let out = dir.join("out");
+    let o = crate::common::anlage(&["screen", m, "--json", "-o", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(v["not_settled_mutants"], serde_json::json!(["decay x0.1"]), "{v}");
+    assert_eq!(v["wild_type_not_settled"], serde_json::Value::Null);
+    let text = std::fs::read_to_string(out.join("shifts.csv")).unwrap();
+    let slow: Vec<&str> = text.lines().filter(|l| l.starts_with("decay x0.1,")).collect();
+    assert!(!slow.is_empty() && slow.iter().all(|l| l.contains("not settled: quill")), "{text}");
+    assert!(text.lines().filter(|l| l.starts_with("decay x0.125,")).all(|l| !l.contains("not settled")), "{text}");
+    let o = crate::common::anlage(&["screen", m, "-o", out.to_str().unwrap()]);
+    let report = String::from_utf8_lossy(&o.stdout);
+    assert!(report.contains("NOT SETTLED: 1 mutant still change") && report.contains("decay x0.1"), "{report}");
+    // The same rule in a sweep over the decay rate.
+    let sweep = dir.join("sweep");
+    let o = crate::common::anlage(&["sweep", m, "--axis", "quill.decay=0.1:0.125:2", "-o", sweep.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let table = std::fs::read_to_string(sweep.join("sweep.csv")).unwrap();
+    let classes: Vec<&str> = table.lines().skip(1).map(|l| l.split(',').nth(2).unwrap()).collect();
+    assert_eq!(classes, ["changing", "boundary"], "{table}");
+}

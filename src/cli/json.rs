@@ -41,6 +41,8 @@ pub fn screen(
         "kind": "screen",
         "model_prediction": true,
         "wild_type": s.wild_type,
+        "wild_type_not_settled": s.wild_type_changing,
+        "not_settled_mutants": anlage::screen::unsettled_mutants(s),
         "mutants": mutants,
         "epistasis": epistasis,
         "outputs": dir,

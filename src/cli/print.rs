@@ -322,6 +322,25 @@ pub fn screen(
     let mut out = String::new();
     let rows: Vec<&anlage::readout::Shift> = s.shifts.iter().flatten().collect();
     let _ = writeln!(out, "{} mutants screened (model predictions)", s.mutants.len());
+    if let Some(gene) = &s.wild_type_changing {
+        let _ = writeln!(
+            out,
+            "NOT SETTLED: in the wild type {gene} still changes at the end of the run; every shift below is between \
+             snapshots at that time, not steady states; run longer (until_min)"
+        );
+    }
+    let unsettled = anlage::screen::unsettled_mutants(s);
+    if !unsettled.is_empty() {
+        let names: Vec<&str> = unsettled.iter().take(5).map(String::as_str).collect();
+        let _ = writeln!(
+            out,
+            "NOT SETTLED: {} mutant{} still change at the end of the run ({}{}); their rows say so in `reason`",
+            unsettled.len(),
+            if unsettled.len() == 1 { "" } else { "s" },
+            names.join(", "),
+            if unsettled.len() > 5 { ", …" } else { "" }
+        );
+    }
     let _ = writeln!(
         out,
         "  {:<28} {:<10} {:<8} {:>8} {:>8} {:>8} {:>9}  status",

@@ -118,7 +118,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
             return super::cluster::report_shard(ran, shard, &job, &dir);
         }
         Mode::Merge => {
-            let wild_type = anlage::readout::predicted_final_boundaries(&model)
+            let wild_type = anlage::screen::final_outcome(&model)
                 .with_context(|| format!("the wild type of {}", path.display()))?;
             let screen = anlage::screen::shard::merge(&list, wild_type, &job, &dir)?;
             anlage::write_screen_files(&model, &screen, &style, &dir, chosen.as_ref(), true)

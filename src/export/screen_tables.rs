@@ -58,6 +58,7 @@ mod tests {
             wild_type: Vec::new(),
             mutants: vec![shift.mutant.clone()],
             shifts: vec![vec![shift.clone(), Shift { status: "moved".into(), shift_pct: Some(1e-7), ..shift.clone() }]],
+            wild_type_changing: None,
         };
         let mut out = Vec::new();
         write_shifts_to(&screen, &mut out).unwrap();

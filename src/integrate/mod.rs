@@ -24,7 +24,7 @@ pub use control::{ErrorControl, FixedSteps, StepControl, Verdict};
 pub use memory::{MemoryPlan, STREAM_ABOVE_BYTES};
 pub use recording::{ReadBackError, Recording};
 pub use scheme::{History, Scheme, TimeScheme};
-pub use stepper::{Forcing, Stepper};
+pub use stepper::{Forcing, Stepper, time_derivative};
 
 use crate::kinetics::Kinetics;
 use crate::model::{Initial, Model, Stepping};

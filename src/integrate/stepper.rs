@@ -158,3 +158,39 @@ impl<'a> Stepper<'a> {
         self.scheme.accept(k, t_new, &mut self.now, &mut self.trial, &mut self.ops)
     }
 }
+
+/// The time derivative of `model`'s state `u` [gene, nucleus] at time `t`
+/// (min), a.u./min: du/dt = f(u, m(t)) + D∇²u with the model's mutant
+/// forcing (a clamped gene's derivative is 0), evaluated directly rather
+/// than from differences of snapshots, so that how far apart snapshots are
+/// does not matter.
+///
+/// # Errors
+/// [`StepError::NonFinite`] if the rates are not finite.
+pub fn time_derivative(model: &crate::model::Model, u: &Array2<f64>, t: f64) -> Result<Array2<f64>, StepError> {
+    let tissue = Tissue::new(model);
+    let kinetics = crate::kinetics::build(model);
+    let forcing = super::forcing(model);
+    let clamps = forcing.clamps.clone();
+    let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
+    let names = model.genes.iter().map(|g| g.name.clone()).collect();
+    let stepper =
+        Stepper::new(kinetics.as_ref(), &tissue, model.clock.scheme, &d, names, u.clone(), t, false, forcing)?;
+    let mut rate = stepper.rates().clone();
+    let mut lap = vec![0.0; u.ncols()];
+    for (g, &dg) in d.iter().enumerate() {
+        if clamps.get(g).is_some_and(Option::is_some) {
+            rate.row_mut(g).fill(0.0);
+            continue;
+        }
+        if dg == 0.0 {
+            continue;
+        }
+        let row = stepper.state().row(g).to_vec();
+        crate::tissue::laplacian(&tissue.grid, &row, &mut lap);
+        for (r, l) in rate.row_mut(g).iter_mut().zip(&lap) {
+            *r += dg * l;
+        }
+    }
+    Ok(rate)
+}

@@ -16,9 +16,7 @@ use rayon::prelude::*;
 
 use crate::integrate::StepError;
 use crate::model::{Edit, GradientParam, Model, Mutant, Param};
-use crate::readout::{
-    Boundary, Shift, boundaries_at, match_boundaries, predicted_final_boundaries as final_boundaries,
-};
+use crate::readout::{Boundary, Shift, boundaries_at, match_boundaries};
 
 /// A boundary whose shift is smaller than this, % of the axis length, is
 /// "unchanged": it rounds to 0.00 % in the tables (common practice, no source).
@@ -58,12 +56,25 @@ pub enum GeneState {
     Patterned,
 }
 
-/// Boundaries and per-gene states of a model's final state (one thread,
-/// only the last snapshot kept).
+/// What a model's run ends with: the final boundaries, each gene's state,
+/// and the first gene still changing at the end, if any
+/// ([`crate::sweep::changing_gene`]).
+#[derive(Debug, Clone)]
+pub struct FinalOutcome {
+    /// Boundaries of the last snapshot.
+    pub boundaries: Vec<Boundary>,
+    /// Per gene.
+    pub states: Vec<GeneState>,
+    /// The first gene whose levels still change at the end of the run.
+    pub changing: Option<String>,
+}
+
+/// Runs `model` (one thread, only the last snapshot kept) and reads
+/// its [`FinalOutcome`].
 ///
 /// # Errors
 /// [`StepError`] if the run fails.
-pub fn final_outcome(model: &Model) -> Result<(Vec<Boundary>, Vec<GeneState>), StepError> {
+pub fn final_outcome(model: &Model) -> Result<FinalOutcome, StepError> {
     let rec = crate::readout::recording_at(model, &[model.clock.until_min])?;
     let last = rec.times.len() - 1;
     let profiles = rec.axis_profiles(last, 0..rec.genes.len())?;
@@ -82,7 +93,29 @@ pub fn final_outcome(model: &Model) -> Result<(Vec<Boundary>, Vec<GeneState>), S
             }
         })
         .collect();
-    Ok((boundaries_at(&rec, last)?, states))
+    let changing = crate::sweep::changing_gene(model, &rec)?.map(|g| rec.genes[g].clone());
+    Ok(FinalOutcome { boundaries: boundaries_at(&rec, last)?, states, changing })
+}
+
+/// The note put in the `reason` of every row of a mutant (or said of the
+/// wild type) whose `gene` still changes at the end of a run ending at
+/// `until_min`.
+pub fn not_settled_note(gene: &str, until_min: f64) -> String {
+    format!(
+        "not settled: {gene} still changes at the end of the run (t = {until_min} min), so this is a snapshot, \
+         not a steady state; run longer (until_min)"
+    )
+}
+
+/// The mutants of `screen` whose rows carry the not-settled note, in order.
+pub fn unsettled_mutants(screen: &Screen) -> Vec<String> {
+    screen
+        .shifts
+        .iter()
+        .zip(&screen.mutants)
+        .filter(|(rows, _)| rows.iter().any(|r| r.reason.as_deref().is_some_and(|w| w.starts_with("not settled:"))))
+        .map(|(_, name)| name.clone())
+        .collect()
 }
 
 /// Renames the raw statuses of [`match_boundaries`] by what happened:
@@ -114,6 +147,9 @@ pub struct Screen {
     pub shifts: Vec<Vec<Shift>>,
     /// Mutant names, in order.
     pub mutants: Vec<String>,
+    /// A wild-type gene still changing at the end of the run (every shift
+    /// is then between two snapshots, not two steady states).
+    pub wild_type_changing: Option<String>,
 }
 
 /// Runs the wild type and every mutant (in parallel over mutants when
@@ -135,7 +171,8 @@ pub fn run_screen_with(
     parallel: bool,
     progress: &dyn crate::progress::Progress,
 ) -> Result<Screen, StepError> {
-    let wild_type = final_boundaries(model)?;
+    let wt = final_outcome(model)?;
+    let wild_type = wt.boundaries;
     let done = crate::progress::Counter::begin(progress, "mutants", mutants.len());
     let genes: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
     let one = |m: &Mutant| -> Vec<Shift> {
@@ -145,7 +182,12 @@ pub fn run_screen_with(
     };
     let shifts: Vec<Vec<Shift>> =
         if parallel { mutants.par_iter().map(one).collect() } else { mutants.iter().map(one).collect() };
-    Ok(Screen { wild_type, shifts, mutants: mutants.iter().map(|m| m.name.clone()).collect() })
+    Ok(Screen {
+        wild_type,
+        shifts,
+        mutants: mutants.iter().map(|m| m.name.clone()).collect(),
+        wild_type_changing: wt.changing,
+    })
 }
 
 /// One mutant of a screen: its final boundaries matched to the wild type's
@@ -153,9 +195,15 @@ pub fn run_screen_with(
 /// "failed" row with the reason when its run fails.
 pub fn mutant_shifts(model: &Model, wild_type: &[Boundary], genes: &[String], m: &Mutant) -> Vec<Shift> {
     match final_outcome(&model.with_mutant(m)) {
-        Ok((b, states)) => {
-            let mut shifts = match_boundaries(&m.name, wild_type, &b);
-            describe_outcomes(&mut shifts, genes, &states);
+        Ok(o) => {
+            let mut shifts = match_boundaries(&m.name, wild_type, &o.boundaries);
+            describe_outcomes(&mut shifts, genes, &o.states);
+            if let Some(gene) = &o.changing {
+                let note = not_settled_note(gene, model.clock.until_min);
+                for sh in &mut shifts {
+                    sh.reason = Some(note.clone());
+                }
+            }
             shifts
         }
         Err(e) => vec![Shift {

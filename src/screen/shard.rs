@@ -47,13 +47,18 @@ pub fn run_shard(
 }
 
 /// Merges the shards of the screen `job` in `dir/shards` into the whole
-/// screen, with the wild type's final boundaries `wild_type`.
+/// screen, with the wild type's final outcome `wild_type`.
 ///
 /// # Errors
 /// As [`crate::shard::merge`].
-pub fn merge(mutants: &[Mutant], wild_type: Vec<Boundary>, job: &Job, dir: &Path) -> Result<Screen, ShardError> {
+pub fn merge(mutants: &[Mutant], wild_type: super::FinalOutcome, job: &Job, dir: &Path) -> Result<Screen, ShardError> {
     let shifts: Vec<Vec<Shift>> = crate::shard::merge(job, dir)?;
-    Ok(Screen { wild_type, shifts, mutants: mutants.iter().map(|m| m.name.clone()).collect() })
+    Ok(Screen {
+        wild_type: wild_type.boundaries,
+        shifts,
+        mutants: mutants.iter().map(|m| m.name.clone()).collect(),
+        wild_type_changing: wild_type.changing,
+    })
 }
 
 /// A row of `sensitivity.csv` as a shard file keeps it (floats exactly,

@@ -7,8 +7,8 @@ use crate::readout::{Boundary, Domain};
 
 /// A level that changes faster than this fraction of its gene's largest
 /// level per decay time (1/decay, or the run's length for a gene that does
-/// not decay), over either of the last two snapshot intervals, means the
-/// pattern has not settled (common practice, no source).
+/// not decay), at the end of the run, means the pattern has not settled
+/// (common practice, no source).
 pub const SETTLED_REL: f64 = 1e-2;
 
 /// What kind of pattern a run ends with.
@@ -53,31 +53,52 @@ impl PatternClass {
     }
 }
 
-/// Classifies a run from its last snapshot (and the one before, kept in
-/// `rec`), its final `boundaries` and `domains`:
-/// 1. "changing" if any level changes, over either of the last two
-///    snapshot intervals, faster than [`SETTLED_REL`] of its gene's largest
-///    level per decay time (an oscillation whose period divides the snapshot
-///    interval looks steady: take snapshots finer than the period);
+/// Each gene's settling rate, 1/min: its decay rate, or 1/(run length) for
+/// a gene that does not decay (rule 1 of [`classify`]).
+pub fn settle_rates(model: &crate::model::Model) -> Vec<f64> {
+    model.genes.iter().map(|g| g.decay.max(1.0 / model.clock.until_min.max(1e-12))).collect()
+}
+
+/// The first gene of `model` still changing at the end of its run: where
+/// |du/dt| = |f(u) + D∇²u|, evaluated at the last snapshot of `rec`
+/// ([`crate::integrate::time_derivative`]), exceeds [`SETTLED_REL`] of the
+/// gene's largest final level per settling time ([`settle_rates`]). None
+/// when every gene has settled.
+///
+/// # Errors
+/// The last snapshot cannot be read back, or its rates are not finite.
+pub fn changing_gene(
+    model: &crate::model::Model,
+    rec: &Recording,
+) -> Result<Option<usize>, crate::integrate::StepError> {
+    let last = rec.len().saturating_sub(1);
+    let end = rec.state(last)?;
+    let rate = crate::integrate::time_derivative(model, &end, rec.times[last])?;
+    let rates = settle_rates(model);
+    for g in 0..rec.genes.len() {
+        let top = end.row(g).iter().fold(0.0f64, |m, v| m.max(v.abs()));
+        let fastest = rate.row(g).iter().fold(0.0f64, |m, v| m.max(v.abs()));
+        if top > 0.0 && fastest > SETTLED_REL * top * rates[g] {
+            return Ok(Some(g));
+        }
+    }
+    Ok(None)
+}
+
+/// Classifies a run from its last snapshot (kept in `rec`), whether it is
+/// still `changing` ([`changing_gene`]), its final `boundaries` and
+/// `domains`:
+/// 1. "changing" if some level still changes at the end of the run faster
+///    than [`SETTLED_REL`] of its gene's largest level per settling time
+///    (decay time, or the run's length for a gene that does not decay);
 /// 2. "no boundary" if there is no boundary;
 /// 3. "several stripes" if some gene has two or more domains that touch
 ///    neither edge (on a periodic row every domain counts);
 /// 4. "stripe" if some gene has one;
 /// 5. otherwise "boundary".
-pub fn classify(rec: &Recording, rates_per_min: &[f64], boundaries: &[Boundary], domains: &[Domain]) -> PatternClass {
-    let last = rec.len().saturating_sub(1);
-    let Ok(end) = rec.state(last) else { return PatternClass::Failed };
-    for s in last.saturating_sub(2)..last {
-        let Ok(a) = rec.state(s) else { return PatternClass::Failed };
-        let dt = rec.times[last] - rec.times[s];
-        for g in 0..rec.genes.len() {
-            let (row_a, row_b) = (a.row(g), end.row(g));
-            let top = row_b.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-            let moved = row_a.iter().zip(row_b.iter()).fold(0.0f64, |m, (x, y)| m.max((x - y).abs()));
-            if top > 0.0 && dt > 0.0 && moved / dt > SETTLED_REL * top * rates_per_min[g] {
-                return PatternClass::Changing;
-            }
-        }
+pub fn classify(rec: &Recording, changing: bool, boundaries: &[Boundary], domains: &[Domain]) -> PatternClass {
+    if changing {
+        return PatternClass::Changing;
     }
     if boundaries.is_empty() {
         return PatternClass::NoBoundary;

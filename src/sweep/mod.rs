@@ -14,7 +14,7 @@ use crate::model::{Model, Param};
 use crate::progress::{Counter, Progress};
 use crate::readout::{self, Boundary, Domain};
 
-pub use class::{PatternClass, classify};
+pub use class::{PatternClass, changing_gene, classify, settle_rates};
 
 /// The most points a sweep may have (the product of the axes' counts).
 pub const MAX_POINTS: usize = 1_000_000;
@@ -200,15 +200,14 @@ pub fn model_at(model: &Model, axes: &[Axis], values: &[f64]) -> Model {
     m
 }
 
-/// Runs one point: the last three snapshots kept, read off and classified.
-fn run_point(model: &Model) -> Result<(Recording, Vec<Boundary>, Vec<Domain>), StepError> {
-    let times = model.clock.snapshot_times();
-    let keep: Vec<f64> = times.iter().rev().take(3).rev().copied().collect();
-    let rec = readout::recording_at(model, &keep)?;
+/// Runs one point: the last snapshot kept, read off, and whether it still changes.
+fn run_point(model: &Model) -> Result<(Recording, bool, Vec<Boundary>, Vec<Domain>), StepError> {
+    let rec = readout::recording_at(model, &[model.clock.until_min])?;
     let last = rec.len() - 1;
     let boundaries = readout::boundaries_at(&rec, last)?;
     let domains = readout::final_domains(&rec);
-    Ok((rec, boundaries, domains))
+    let changing = changing_gene(model, &rec)?.is_some();
+    Ok((rec, changing, boundaries, domains))
 }
 
 /// Runs the model at every point of the grid spanned by `axes` (in parallel
@@ -258,9 +257,8 @@ pub(crate) fn point_at(model: &Model, axes: &[Axis], grid: &Sweep, k: usize) -> 
     let values: Vec<f64> = grid.indices(k).iter().zip(axes).map(|(&i, a)| a.values[i]).collect();
     let m = model_at(model, axes, &values);
     match run_point(&m) {
-        Ok((rec, boundaries, domains)) => {
-            let rates: Vec<f64> = m.genes.iter().map(|g| g.decay.max(1.0 / m.clock.until_min.max(1e-12))).collect();
-            let class = classify(&rec, &rates, &boundaries, &domains);
+        Ok((rec, changing, boundaries, domains)) => {
+            let class = classify(&rec, changing, &boundaries, &domains);
             Point { values, class, boundaries, domains, failure: None }
         }
         Err(e) => Point {

@@ -113,19 +113,29 @@ fn a_sweep_run_as_a_slurm_job_array_merges_into_the_bytes_of_one_run() {
     assert_eq!(std::fs::read_dir(array.join("shards")).unwrap().count(), 7);
     same_outputs(&whole, &array);
 
-    // A killed task: the array held, task 3 cancelled, the rest released.
+    // A killed task: the array held, its merge job queued after it as
+    // submit.sh does, task 3 cancelled, the rest released. The merge job can
+    // never run, and leaves the queue instead of waiting for ever.
     let killed = dir.join("killed");
     sweep(&["--slurm", "7"], &killed);
     let script = killed.join("slurm/array.sbatch");
     let job = cluster.client("sbatch", &["--parsable", "--hold", script.to_str().unwrap()]);
     let job = job.split(';').next().unwrap().to_string();
+    let merge_script = killed.join("slurm/merge.sbatch");
+    let merge = cluster.client(
+        "sbatch",
+        &["--parsable", &format!("--dependency=afterok:{job}"), merge_script.to_str().unwrap()],
+    );
+    let merge = merge.split(';').next().unwrap().to_string();
     cluster.client("scancel", &[&format!("{job}_3")]);
     cluster.client("scontrol", &["release", &job]);
-    cluster.wait(&[&job]);
+    cluster.wait(&[&job, &merge]);
+    assert!(!killed.join("sweep.csv").exists(), "the merge job did not run");
     let o = sweep(&["--merge"], &killed);
     assert_eq!(o.status.code(), Some(2));
     let err = String::from_utf8_lossy(&o.stderr);
     assert!(err.contains("1 of 7 shards") && err.contains("--shard 3/7"), "{err}");
+    assert!(err.contains("sbatch --array=3 "), "{err}");
     assert!(!killed.join("sweep.csv").exists(), "nothing is written while a shard is missing");
     // Rerun the named shard as a one-task array, then merge.
     let rerun = cluster.client("sbatch", &["--parsable", "--array=3", script.to_str().unwrap()]);

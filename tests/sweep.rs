@@ -190,9 +190,74 @@ fn seven_shards_merge_into_the_bytes_of_one_run() {
             "{name} differs between the whole sweep and the merged shards"
         );
     }
-    // Shards of other axes are refused.
+    // Shards of other axes are refused, saying which setting differs.
     let o = anlage(&["sweep", m, "--axis", "a=1.5:2.5:5", "--merge", "-o", sharded.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("made with other settings: `a=1.5:2.5:6`"));
+    // The same axes spelled otherwise are the same job.
+    let respelled = ["--axis", "a=1.50:2.5:6", "--axis", "k=0.80:1.2:4:log", "--merge", "-o"];
+    let o = anlage(&[&["sweep", m][..], &respelled[..], &[sharded.to_str().unwrap()]].concat());
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    // More shards than points are refused; a shard's report can be JSON.
+    let o = run(&["--shard", "25/25"], &dir.join("too-many"));
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("at most 24 shards"), "{}", String::from_utf8_lossy(&o.stderr));
+    let o = run(&["--shard", "4/7", "--json"], &sharded);
+    let report: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!((report["shard"].as_str(), report["status"].as_str()), (Some("4/7"), Some("already complete")));
+}
+
+/// A shard killed outright (SIGKILL: no handler runs) has saved most of what
+/// it finished while running, and the same command run again completes it:
+/// the merged outputs are the bytes of an unsharded sweep.
+#[test]
+fn a_shard_killed_outright_keeps_what_it_saved_while_running() {
+    use std::process::{Command, Stdio};
+    let dir = temp_dir("sweep-sigkill");
+    let model = dir.join("toggle.toml");
+    std::fs::write(&model, toggle()).unwrap();
+    let m = model.to_str().unwrap();
+    let axes = ["--axis", "a=1.5:2.5:30", "--axis", "k=0.8:1.2:30:log"];
+    let (whole, sharded) = (dir.join("whole"), dir.join("sharded"));
+    let args = |extra: &[&str], out: &std::path::Path| {
+        let mut args: Vec<String> = vec!["sweep".into(), m.into()];
+        args.extend(axes.iter().map(|s| s.to_string()));
+        args.extend(extra.iter().map(|s| s.to_string()));
+        args.extend(["-o".to_string(), out.to_str().unwrap().to_string()]);
+        args
+    };
+    let mut child = Command::new(env!("CARGO_BIN_EXE_anlage"))
+        .args(args(&["--shard", "1/1"], &sharded))
+        .env("RAYON_NUM_THREADS", "1")
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .spawn()
+        .unwrap();
+    let file = sharded.join("shards/sweep-1-of-1.json");
+    let start = std::time::Instant::now();
+    while !file.exists() {
+        assert!(start.elapsed().as_secs() < 60, "no shard file saved within 60 s of running");
+        assert!(child.try_wait().unwrap().is_none(), "the shard finished before it could be killed; make it longer");
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    }
+    child.kill().unwrap();
+    child.wait().unwrap();
+    let saved: serde_json::Value = serde_json::from_slice(&std::fs::read(&file).unwrap()).unwrap();
+    assert_eq!(saved["complete"], false);
+    let done = saved["items"].as_array().unwrap().len();
+    assert!(done > 0 && done < 900, "{done}");
+    let run = |extra: &[&str], out: &std::path::Path| {
+        anlage(&args(extra, out).iter().map(String::as_str).collect::<Vec<_>>())
+    };
+    let o = run(&["--merge"], &sharded);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains(&format!("incomplete, {done} of 900 items")));
+    assert!(run(&["--shard", "1/1"], &sharded).status.success());
+    assert!(run(&["--merge"], &sharded).status.success());
+    assert!(run(&[], &whole).status.success());
+    for name in ["sweep.csv", "sweep_boundaries.csv", "sweep.png"] {
+        assert!(std::fs::read(whole.join(name)).unwrap() == std::fs::read(sharded.join(name)).unwrap(), "{name}");
+    }
 }
 
 /// SIGTERM (a scheduler's time limit or preemption) stops a shard cleanly:

@@ -57,6 +57,54 @@ impl ClusterArgs {
     }
 }
 
+/// The most array tasks many clusters accept: SLURM's default
+/// `MaxArraySize` of 1001 allows task ids 0 to 1000.
+pub const COMMON_MAX_ARRAY: usize = 1000;
+
+/// Refuses a cut of `job` into more shards (or array tasks) than it has
+/// items: the extra shards would be empty, and an array that large may be
+/// refused by the cluster. Warns above [`COMMON_MAX_ARRAY`] tasks.
+///
+/// # Errors
+/// More shards than items.
+pub fn check_cut(mode: &Mode, args: &ClusterArgs, job: &Job, json: bool) -> anyhow::Result<()> {
+    let (option, n) = match mode {
+        Mode::Shard(s) => ("--shard", s.n),
+        Mode::Slurm => ("--slurm", args.slurm.unwrap_or(1)),
+        Mode::Whole | Mode::Merge => return Ok(()),
+    };
+    if n > job.total {
+        anyhow::bail!(anlage::render::StyleError::OutOfRange {
+            option: option.into(),
+            value: n.to_string(),
+            fix: format!(
+                "this {} has {} item{} ({}), so cut it into at most {} shards",
+                job.kind,
+                job.total,
+                if job.total == 1 { "" } else { "s" },
+                item_word(job.kind),
+                job.total
+            ),
+        });
+    }
+    if matches!(mode, Mode::Slurm) && n > COMMON_MAX_ARRAY && !json {
+        eprintln!(
+            "anlage: note: {n} array tasks; many clusters allow at most {COMMON_MAX_ARRAY} (see MaxArraySize in `scontrol show config`); fewer tasks with more items each cost nothing in speed"
+        );
+    }
+    Ok(())
+}
+
+fn item_word(kind: &str) -> &'static str {
+    match kind {
+        "sweep" => "points",
+        "screen" => "mutants",
+        "sensitivity" => "parameters",
+        "fit" => "starts",
+        _ => "items",
+    }
+}
+
 /// This command line without the cluster options, as a shell command
 /// starting with `anlage` (for messages: how to rerun a shard).
 pub fn rerun_command() -> String {
@@ -78,13 +126,25 @@ pub fn stop_flag() -> anyhow::Result<Arc<AtomicBool>> {
     Ok(stop)
 }
 
-/// Prints how a shard ended; a stopped shard is an error (exit 1) that says
-/// how to finish it.
+/// Prints how a shard ended (with `json`, as one JSON object: shard, file,
+/// status, items); a stopped shard is an error (exit 1) that says how to
+/// finish it.
 ///
 /// # Errors
 /// When the shard was stopped.
-pub fn report_shard(ran: Ran, shard: Shard, job: &Job, dir: &Path) -> anyhow::Result<()> {
+pub fn report_shard(ran: Ran, shard: Shard, job: &Job, dir: &Path, json: bool) -> anyhow::Result<()> {
     let file = job.file(dir, shard);
+    if json && !matches!(ran, Ran::Stopped { .. }) {
+        let value = serde_json::json!({
+            "kind": job.kind,
+            "shard": format!("{}/{}", shard.k, shard.n),
+            "file": file.display().to_string(),
+            "status": if ran == Ran::Done { "done" } else { "already complete" },
+            "items": shard.items(job.total).count(),
+        });
+        println!("{}", serde_json::to_string_pretty(&value)?);
+        return Ok(());
+    }
     match ran {
         Ran::Done => println!("shard {}/{}: wrote {}", shard.k, shard.n, file.display()),
         Ran::AlreadyComplete => {
@@ -101,11 +161,12 @@ pub fn report_shard(ran: Ran, shard: Shard, job: &Job, dir: &Path) -> anyhow::Re
 }
 
 /// Writes the SLURM scripts of this command (without its cluster options)
-/// into `dir/slurm` and, with `--submit`, submits them.
+/// into `dir/slurm` and, with `--submit`, submits them. With `json`, prints
+/// one JSON object: the scripts and, when submitted, the job ids.
 ///
 /// # Errors
 /// A script that cannot be written, or sbatch failing.
-pub fn write_slurm(args: &ClusterArgs, dir: &Path) -> anyhow::Result<()> {
+pub fn write_slurm(args: &ClusterArgs, dir: &Path, json: bool) -> anyhow::Result<()> {
     let argv: Vec<String> = std::env::args().skip(1).collect();
     let job = slurm::job_arguments(&argv);
     let exe = std::env::current_exe().context("finding the anlage executable")?;
@@ -120,11 +181,23 @@ pub fn write_slurm(args: &ClusterArgs, dir: &Path) -> anyhow::Result<()> {
     };
     let scripts = slurm::write_scripts(&exe, &job, &workdir, dir, &req)
         .with_context(|| format!("writing SLURM scripts into {}", dir.join("slurm").display()))?;
-    println!("wrote {}", scripts.array.display());
-    println!("wrote {}", scripts.merge.display());
-    println!("wrote {}", scripts.submit.display());
+    let paths = serde_json::json!({
+        "array": scripts.array.display().to_string(),
+        "merge": scripts.merge.display().to_string(),
+        "submit": scripts.submit.display().to_string(),
+        "tasks": req.tasks,
+    });
+    if !json {
+        println!("wrote {}", scripts.array.display());
+        println!("wrote {}", scripts.merge.display());
+        println!("wrote {}", scripts.submit.display());
+    }
     if !args.submit {
-        println!("submit with: bash {}", shell_quote(&scripts.submit.display().to_string()));
+        if json {
+            println!("{}", serde_json::to_string_pretty(&paths)?);
+        } else {
+            println!("submit with: bash {}", shell_quote(&scripts.submit.display().to_string()));
+        }
         return Ok(());
     }
     let out = std::process::Command::new("bash")
@@ -139,6 +212,15 @@ pub fn write_slurm(args: &ClusterArgs, dir: &Path) -> anyhow::Result<()> {
             dir.join("slurm").display()
         );
     }
-    print!("{}", String::from_utf8_lossy(&out.stdout));
+    if json {
+        let ids = std::fs::read_to_string(dir.join("slurm").join("jobs.txt")).unwrap_or_default();
+        let ids: Vec<&str> = ids.split_whitespace().collect();
+        let mut value = paths;
+        value["array_job"] = serde_json::json!(ids.first());
+        value["merge_job"] = serde_json::json!(ids.get(1));
+        println!("{}", serde_json::to_string_pretty(&value)?);
+    } else {
+        print!("{}", String::from_utf8_lossy(&out.stdout));
+    }
     Ok(())
 }

@@ -33,14 +33,15 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<()> {
     let mode = cluster.mode(out.as_deref())?;
     let bar = super::bar::Bar::new(*quiet || *json);
     let job = anlage::fit::shard::job(&problem, super::cluster::rerun_command());
+    super::cluster::check_cut(&mode, cluster, &job, *json)?;
     let merged = matches!(mode, Mode::Merge);
     let result = match mode {
-        Mode::Slurm => return super::cluster::write_slurm(cluster, &dir),
+        Mode::Slurm => return super::cluster::write_slurm(cluster, &dir, *json),
         Mode::Shard(shard) => {
             let stop = super::cluster::stop_flag()?;
             let ran = anlage::fit::shard::run_shard(&problem, &job, shard, &dir, &stop, &bar)?;
             bar.finish();
-            return super::cluster::report_shard(ran, shard, &job, &dir);
+            return super::cluster::report_shard(ran, shard, &job, &dir, *json);
         }
         Mode::Merge => anlage::fit::shard::merge(&problem, &job, &dir)?,
         Mode::Whole => {

@@ -108,14 +108,15 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
         });
     }
     let job = anlage::screen::shard::job(&model, &list, super::cluster::rerun_command());
+    super::cluster::check_cut(&mode, cluster, &job, *json)?;
     let screen = match mode {
-        Mode::Slurm => return super::cluster::write_slurm(cluster, &dir),
+        Mode::Slurm => return super::cluster::write_slurm(cluster, &dir, *json),
         Mode::Shard(shard) => {
             let stop = super::cluster::stop_flag()?;
             let wild_type = anlage::readout::predicted_final_boundaries(&model)
                 .with_context(|| format!("the wild type of {}", path.display()))?;
             let ran = anlage::screen::shard::run_shard(&model, &list, &wild_type, &job, shard, &dir, &stop, &bar)?;
-            return super::cluster::report_shard(ran, shard, &job, &dir);
+            return super::cluster::report_shard(ran, shard, &job, &dir, *json);
         }
         Mode::Merge => {
             let wild_type = anlage::screen::final_outcome(&model)
@@ -180,8 +181,9 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "screen"));
     let bar = super::bar::Bar::new(*json);
     let job = anlage::screen::shard::sensitivity_job(&model, *step, super::cluster::rerun_command());
+    super::cluster::check_cut(&mode, cluster, &job, *json)?;
     let rows = match mode {
-        Mode::Slurm => return super::cluster::write_slurm(cluster, &dir),
+        Mode::Slurm => return super::cluster::write_slurm(cluster, &dir, *json),
         Mode::Shard(shard) => {
             let stop = super::cluster::stop_flag()?;
             let wild_type = anlage::readout::predicted_final_boundaries(&model)
@@ -189,7 +191,7 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
             let ran = anlage::screen::shard::run_sensitivity_shard(
                 &model, *step, &wild_type, &job, shard, &dir, &stop, &bar,
             )?;
-            return super::cluster::report_shard(ran, shard, &job, &dir);
+            return super::cluster::report_shard(ran, shard, &job, &dir, *json);
         }
         Mode::Merge => {
             let rows = anlage::screen::shard::merge_sensitivity(&job, &dir)?;
@@ -234,15 +236,16 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         return write_table_to_stdout(|w| anlage::export::write_sweep_to(&s, w));
     }
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "sweep"));
-    let job = anlage::sweep::shard::job(&model, &axes, axes_text, super::cluster::rerun_command());
+    let job = anlage::sweep::shard::job(&model, &axes, super::cluster::rerun_command());
+    super::cluster::check_cut(&mode, cluster, &job, *json)?;
     match mode {
         Mode::Whole => {}
-        Mode::Slurm => return super::cluster::write_slurm(cluster, &dir),
+        Mode::Slurm => return super::cluster::write_slurm(cluster, &dir, *json),
         Mode::Shard(shard) => {
             let stop = super::cluster::stop_flag()?;
             let bar = super::bar::Bar::new(*json);
             let ran = anlage::sweep::shard::run_shard(&model, &axes, &job, shard, &dir, &stop, &bar)?;
-            return super::cluster::report_shard(ran, shard, &job, &dir);
+            return super::cluster::report_shard(ran, shard, &job, &dir, *json);
         }
         Mode::Merge => {
             let s = anlage::sweep::shard::merge(&model, &axes, &job, &dir)?;

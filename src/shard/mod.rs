@@ -6,17 +6,22 @@
 //! Shard k of n runs the items whose index is k − 1 modulo n, so every shard
 //! gets items from all over the job, and saves them in
 //! `OUT/shards/KIND-k-of-n.json`, always written whole (a temporary file
-//! renamed into place). A shard stopped by a signal (a scheduler ending or
-//! preempting the task) saves the items it finished, marked incomplete, and
-//! runs only the rest when started again; a complete shard of the same job is
-//! not run again. Merging checks that the shards belong to this job (model
+//! renamed into place). The file is rewritten, marked incomplete, at most
+//! every [`SAVE_EVERY`] while the shard runs, so a task killed outright
+//! (SIGKILL, out of memory, a lost node) loses only the items of its last
+//! seconds. A shard stopped by a signal (a scheduler ending or preempting the
+//! task) finishes the items in flight, saves, and stops; started again, a
+//! shard runs only the items its file lacks; a complete shard of the same job
+//! is not run again. Merging checks that the shards belong to this job (model
 //! text, settings, count) and that none is missing or incomplete, and lists
 //! those with the command that reruns each.
 
 pub mod slurm;
 
 use std::path::{Path, PathBuf};
+use std::sync::Mutex;
 use std::sync::atomic::{AtomicBool, Ordering};
+use std::time::{Duration, Instant};
 
 use rayon::prelude::*;
 use serde::de::DeserializeOwned;
@@ -134,9 +139,13 @@ impl Job {
     }
 }
 
-/// A shard file.
+/// How often a running shard saves what it has finished.
+pub const SAVE_EVERY: Duration = Duration::from_secs(2);
+
+/// A shard file; `I` is the list of (index, item), owned when read and
+/// borrowed when written.
 #[derive(Debug, Clone, Serialize, Deserialize)]
-struct ShardFile<T> {
+struct ShardFile<I> {
     kind: String,
     model_text_sha256: String,
     model_file: String,
@@ -147,15 +156,43 @@ struct ShardFile<T> {
     /// False when the shard was stopped before all its items ran.
     complete: bool,
     /// (index, item), by index.
-    items: Vec<(usize, T)>,
+    items: I,
 }
 
-impl<T> ShardFile<T> {
+impl<I> ShardFile<I> {
     fn belongs_to(&self, job: &Job) -> bool {
-        self.kind == job.kind
-            && self.model_text_sha256 == job.model_text_sha256
-            && self.settings == job.settings
-            && self.total == job.total
+        self.differs_from(job).is_none()
+    }
+
+    /// How this shard differs from `job`, in words with the fix, if it does.
+    fn differs_from(&self, job: &Job) -> Option<String> {
+        if self.kind != job.kind {
+            return Some(format!("a {} shard, not a {} shard", self.kind, job.kind));
+        }
+        if self.model_text_sha256 != job.model_text_sha256 {
+            return Some(format!(
+                "made from another text of the model (this shard ran on {} as it was then; {} has changed since): \
+                 restore the model file, or delete the shards and run them again",
+                self.model_file, job.model_file
+            ));
+        }
+        if self.settings != job.settings {
+            let (theirs, ours) = self
+                .settings
+                .iter()
+                .zip(&job.settings)
+                .find(|(a, b)| a != b)
+                .map_or_else(|| (self.settings.join(" "), job.settings.join(" ")), |(a, b)| (a.clone(), b.clone()));
+            return Some(format!(
+                "made with other settings: `{theirs}` where this {} has `{ours}`; give the options the shards ran with, \
+                 or delete the shards and run them again",
+                job.kind
+            ));
+        }
+        if self.total != job.total {
+            return Some(format!("a job of {} items where this one has {}", self.total, job.total));
+        }
+        None
     }
 }
 
@@ -175,10 +212,12 @@ pub enum Ran {
     },
 }
 
-fn read<T: DeserializeOwned>(path: &Path, kind: &str) -> Result<ShardFile<T>, ShardError> {
+type Items<T> = Vec<(usize, T)>;
+
+fn read<T: DeserializeOwned>(path: &Path, kind: &str) -> Result<ShardFile<Items<T>>, ShardError> {
     let bad = |why: String| ShardError::Bad { path: path.to_path_buf(), why };
     let text = std::fs::read_to_string(path).map_err(|e| bad(e.to_string()))?;
-    let s: ShardFile<T> =
+    let s: ShardFile<Items<T>> =
         serde_json::from_str(&text).map_err(|e| bad(format!("not a {kind} shard ({e}); run it again")))?;
     if s.kind != kind {
         return Err(bad(format!("not a {kind} shard; run it again")));
@@ -189,8 +228,9 @@ fn read<T: DeserializeOwned>(path: &Path, kind: &str) -> Result<ShardFile<T>, Sh
 /// Runs shard `shard` of `job` into `dir`: `one(i)` computes item `i`, in
 /// parallel over items, telling `progress` (stage `what`). Items saved by an
 /// earlier stopped run of the same job are kept; a complete file is left
-/// alone. When `stop` is set (by a signal handler), items not yet begun are
-/// skipped and what finished is saved, marked incomplete.
+/// alone. Finished items are saved every [`SAVE_EVERY`] while it runs. When
+/// `stop` is set (by a signal handler), items not yet begun are skipped and
+/// what finished is saved, marked incomplete.
 ///
 /// # Errors
 /// [`ShardError::Bad`] if the file cannot be written.
@@ -207,8 +247,27 @@ where
     T: Serialize + DeserializeOwned + Send,
     F: Fn(usize) -> T + Sync,
 {
+    run_saving_every(job, shard, dir, stop, what, progress, SAVE_EVERY, one)
+}
+
+/// [`run`], saving every `every`.
+#[allow(clippy::too_many_arguments)]
+fn run_saving_every<T, F>(
+    job: &Job,
+    shard: Shard,
+    dir: &Path,
+    stop: &AtomicBool,
+    what: &str,
+    progress: &dyn Progress,
+    every: Duration,
+    one: F,
+) -> Result<Ran, ShardError>
+where
+    T: Serialize + DeserializeOwned + Send,
+    F: Fn(usize) -> T + Sync,
+{
     let path = job.file(dir, shard);
-    let mut items: Vec<(usize, T)> = Vec::new();
+    let mut items: Items<T> = Vec::new();
     if let Ok(old) = read::<T>(&path, job.kind)
         && old.belongs_to(job)
         && old.k == shard.k
@@ -219,26 +278,45 @@ where
         }
         items = old.items;
     }
+    let bad = |why: String| ShardError::Bad { path: path.clone(), why };
+    std::fs::create_dir_all(dir.join("shards")).map_err(|e| bad(e.to_string()))?;
+    let of = shard.items(job.total).count();
     let wanted: Vec<usize> =
         shard.items(job.total).filter(|i| items.binary_search_by_key(i, |(j, _)| *j).is_err()).collect();
     let counter = Counter::begin(progress, what, wanted.len());
-    let fresh: Vec<Option<(usize, T)>> = wanted
-        .par_iter()
-        .map(|&i| {
-            if stop.load(Ordering::Relaxed) {
-                return None;
-            }
-            let item = one(i);
-            counter.tick();
-            Some((i, item))
-        })
-        .collect();
+    let saved = Mutex::new((items, Instant::now()));
+    wanted.par_iter().for_each(|&i| {
+        if stop.load(Ordering::Relaxed) {
+            return;
+        }
+        let item = one(i);
+        counter.tick();
+        let mut guard = saved.lock().unwrap_or_else(std::sync::PoisonError::into_inner);
+        let (items, last) = &mut *guard;
+        items.push((i, item));
+        if last.elapsed() >= every && items.len() < of {
+            // A failed save here is not fatal: the final save reports its error.
+            let _ = save(job, shard, &path, items);
+            *last = Instant::now();
+        }
+    });
     drop(counter);
-    items.extend(fresh.into_iter().flatten());
-    items.sort_by_key(|(i, _)| *i);
-    let of = shard.items(job.total).count();
-    let complete = items.len() == of;
+    let (mut items, _) = saved.into_inner().unwrap_or_else(std::sync::PoisonError::into_inner);
     let done = items.len();
+    let complete = save(job, shard, &path, &mut items).map_err(|e| bad(e.to_string()))?;
+    Ok(if complete { Ran::Done } else { Ran::Stopped { done, of } })
+}
+
+/// Writes `items` (sorted here) as shard `shard` of `job` into `path`;
+/// returns whether the shard is complete.
+fn save<T: Serialize>(
+    job: &Job,
+    shard: Shard,
+    path: &Path,
+    items: &mut Items<T>,
+) -> Result<bool, crate::export::ExportError> {
+    items.sort_by_key(|(i, _)| *i);
+    let complete = items.len() == shard.items(job.total).count();
     let file = ShardFile {
         kind: job.kind.to_string(),
         model_text_sha256: job.model_text_sha256.clone(),
@@ -248,21 +326,20 @@ where
         n: shard.n,
         total: job.total,
         complete,
-        items,
+        items: &items[..],
     };
-    let bad = |why: String| ShardError::Bad { path: path.clone(), why };
-    std::fs::create_dir_all(dir.join("shards")).map_err(|e| bad(e.to_string()))?;
-    crate::export::write_atomic(&path, |w| serde_json::to_writer(w, &file).map_err(std::io::Error::other))
-        .map_err(|e| bad(e.to_string()))?;
-    Ok(if complete { Ran::Done } else { Ran::Stopped { done, of } })
+    crate::export::write_atomic(path, |w| serde_json::to_writer(w, &file).map_err(std::io::Error::other))?;
+    Ok(complete)
 }
 
 /// Merges the shards of `job` in `dir/shards` into every item, by index.
 ///
 /// # Errors
-/// [`ShardError::Missing`] naming the missing or incomplete shards and the
-/// command that runs each; [`ShardError::Bad`] for a shard of another model,
-/// other settings or another count; [`ShardError::Empty`].
+/// [`ShardError::Missing`] naming the missing, incomplete or unreadable
+/// shards and the command that runs each (and the `sbatch` line, when SLURM
+/// scripts were written into `dir/slurm`); [`ShardError::Bad`] for a shard of
+/// another model, other settings or another count, saying which;
+/// [`ShardError::Empty`].
 pub fn merge<T: DeserializeOwned>(job: &Job, dir: &Path) -> Result<Vec<T>, ShardError> {
     let folder = dir.join("shards");
     let prefix = format!("{}-", job.kind);
@@ -273,43 +350,85 @@ pub fn merge<T: DeserializeOwned>(job: &Job, dir: &Path) -> Result<Vec<T>, Shard
             && p.file_name().and_then(|n| n.to_str()).is_some_and(|n| n.starts_with(&prefix))
     });
     files.sort();
-    let mut n = None;
-    let mut by_k: Vec<Option<ShardFile<T>>> = Vec::new();
+    // (n, path) of the first shard seen, and what each k holds.
+    let mut first: Option<(usize, PathBuf)> = None;
+    let mut by_k: Vec<Option<ShardFile<Items<T>>>> = Vec::new();
+    let mut why: Vec<(usize, String)> = Vec::new();
     for path in files {
-        // A shard that cannot be read (cut short) counts as missing.
-        let Ok(s) = read::<T>(&path, job.kind) else { continue };
         let bad = |why: String| ShardError::Bad { path: path.clone(), why };
-        if !s.belongs_to(job) {
+        let (k, n, read) = match read::<T>(&path, job.kind) {
+            Ok(s) => (s.k, s.n, Ok(s)),
+            Err(e) => match name_k_of_n(&path, job.kind) {
+                // Cut short or damaged: its shard counts as missing, and says so.
+                Some((k, n)) => (k, n, Err(e)),
+                None => continue,
+            },
+        };
+        let (n_first, path_first) = first.get_or_insert_with(|| (n, path.clone())).clone();
+        if n != n_first {
             return Err(bad(format!(
-                "made from another model or other settings than this {} (delete the shards folder and rerun)",
+                "one of {n} shards, where {} is one of {n_first}: two ways of cutting the job are mixed in {}; \
+                 delete the set you do not want (e.g. rm {}/{}-*-of-{n}.json) and merge again",
+                path_first.display(),
+                folder.display(),
+                shell_quote(&folder.display().to_string()),
                 job.kind
             )));
         }
-        let total = *n.get_or_insert(s.n);
-        if s.n != total {
-            return Err(bad(format!(
-                "one of {} shards, where others are of {total} (delete the shards folder and rerun)",
-                s.n
-            )));
+        by_k.resize_with(n, || None);
+        let s = match read {
+            Ok(s) => s,
+            Err(ShardError::Bad { why: w, .. }) => {
+                why.push((k, format!("unreadable ({w})")));
+                continue;
+            }
+            Err(e) => return Err(e),
+        };
+        if let Some(differs) = s.differs_from(job) {
+            return Err(bad(differs));
         }
-        let want = Shard { k: s.k, n: total }.items(job.total).count();
-        by_k.resize_with(total, || None);
-        let k = s.k;
+        let want = Shard { k, n }.items(job.total).count();
         if s.complete && s.items.len() == want {
             by_k[k - 1] = Some(s);
+        } else {
+            why.push((k, format!("incomplete, {} of {want} items", s.items.len())));
         }
     }
-    let Some(total) = n else {
+    let Some((total, _)) = first else {
         return Err(ShardError::Empty { dir: folder, kind: job.kind.into(), rerun: job.rerun.clone() });
     };
     let missing: Vec<usize> = (1..=total).filter(|k| by_k[k - 1].is_none()).collect();
     if !missing.is_empty() {
-        let commands = missing.iter().map(|k| format!("  {} --shard {k}/{total}", job.rerun)).collect();
+        let mut commands: Vec<String> = missing
+            .iter()
+            .map(|k| {
+                let note = why.iter().find(|(j, _)| j == k).map_or(String::new(), |(_, w)| format!("   # {w}"));
+                format!("  {} --shard {k}/{total}{note}", job.rerun)
+            })
+            .collect();
+        let array = dir.join("slurm").join("array.sbatch");
+        if array.exists() {
+            let ks: Vec<String> = missing.iter().map(usize::to_string).collect();
+            commands.push(format!(
+                "or on the cluster: sbatch --array={} {}",
+                ks.join(","),
+                shell_quote(&array.display().to_string())
+            ));
+        }
+        commands.push("then merge again".into());
         return Err(ShardError::Missing { dir: folder, total, missing, commands });
     }
     let mut items: Vec<(usize, T)> = by_k.into_iter().flatten().flat_map(|s| s.items).collect();
     items.sort_by_key(|(i, _)| *i);
     Ok(items.into_iter().map(|(_, t)| t).collect())
+}
+
+/// (k, n) from a shard file's name `KIND-k-of-n.json`.
+fn name_k_of_n(path: &Path, kind: &str) -> Option<(usize, usize)> {
+    let name = path.file_name()?.to_str()?.strip_prefix(kind)?.strip_prefix('-')?.strip_suffix(".json")?;
+    let (k, n) = name.split_once("-of-")?;
+    let shard = Shard::parse(&format!("{k}/{n}")).ok()?;
+    Some((shard.k, shard.n))
 }
 
 /// A float that a shard file keeps exactly: finite values as JSON numbers
@@ -443,13 +562,80 @@ mod tests {
     }
 
     #[test]
+    fn a_running_shard_saves_as_it_goes_so_a_killed_one_loses_little() {
+        let dir = tempfile::tempdir().unwrap();
+        let j = job(30);
+        let shard = Shard { k: 1, n: 1 };
+        let path = j.file(dir.path(), shard);
+        let pool = rayon::ThreadPoolBuilder::new().num_threads(1).build().unwrap();
+        // Die abruptly (a panic, standing for SIGKILL: no final save) at item 20.
+        let died = pool.install(|| {
+            std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+                run_saving_every(
+                    &j,
+                    shard,
+                    dir.path(),
+                    &AtomicBool::new(false),
+                    "items",
+                    &crate::progress::Silent,
+                    Duration::ZERO,
+                    |i| {
+                        assert!(i != 20, "killed");
+                        i * 3
+                    },
+                )
+            }))
+        });
+        assert!(died.is_err());
+        let saved = read::<usize>(&path, "test").unwrap();
+        assert!(!saved.complete);
+        assert_eq!(saved.items, (0..20).map(|i| (i, i * 3)).collect::<Vec<_>>());
+        // Run again: only the ten it lacks are computed.
+        let seen = Mutex::new(Vec::new());
+        let ran = run(&j, shard, dir.path(), &AtomicBool::new(false), "items", &crate::progress::Silent, |i| {
+            seen.lock().unwrap().push(i);
+            i * 3
+        })
+        .unwrap();
+        assert_eq!(ran, Ran::Done);
+        let mut seen = seen.into_inner().unwrap();
+        seen.sort_unstable();
+        assert_eq!(seen, (20..30).collect::<Vec<_>>());
+        assert_eq!(merge::<usize>(&j, dir.path()).unwrap(), (0..30).map(|i| i * 3).collect::<Vec<_>>());
+    }
+
+    #[test]
+    fn a_merge_names_unreadable_and_incomplete_shards_and_mixed_cuts() {
+        let dir = tempfile::tempdir().unwrap();
+        let j = job(12);
+        let go = AtomicBool::new(false);
+        for k in 1..=4 {
+            run(&j, Shard { k, n: 4 }, dir.path(), &go, "items", &crate::progress::Silent, |i| i).unwrap();
+        }
+        std::fs::write(j.file(dir.path(), Shard { k: 2, n: 4 }), "{\"kind\": \"te").unwrap();
+        std::fs::create_dir_all(dir.path().join("slurm")).unwrap();
+        std::fs::write(dir.path().join("slurm/array.sbatch"), "").unwrap();
+        let err = merge::<usize>(&j, dir.path()).unwrap_err().to_string();
+        assert!(err.contains("1 of 4 shards") && err.contains("--shard 2/4   # unreadable"), "{err}");
+        assert!(err.contains("sbatch --array=2 "), "{err}");
+        run(&j, Shard { k: 1, n: 3 }, dir.path(), &go, "items", &crate::progress::Silent, |i| i).unwrap();
+        let err = merge::<usize>(&j, dir.path()).unwrap_err().to_string();
+        assert!(err.contains("two ways of cutting") && err.contains("-of-4.json"), "{err}");
+    }
+
+    #[test]
     fn shards_of_another_job_are_refused() {
         let dir = tempfile::tempdir().unwrap();
         let go = AtomicBool::new(false);
         run(&job(5), Shard { k: 1, n: 1 }, dir.path(), &go, "items", &crate::progress::Silent, |i| i).unwrap();
         let mut other = job(5);
         other.settings = vec!["y".into()];
-        assert!(matches!(merge::<usize>(&other, dir.path()), Err(ShardError::Bad { .. })));
+        let err = merge::<usize>(&other, dir.path()).unwrap_err();
+        assert!(err.to_string().contains("`x` where this test has `y`"), "{err}");
+        let mut other = job(5);
+        other.model_text_sha256 = "def".into();
+        let err = merge::<usize>(&other, dir.path()).unwrap_err();
+        assert!(err.to_string().contains("another text of the model"), "{err}");
     }
 
     #[test]

@@ -10,6 +10,10 @@
 //!   `exec`-ed so the signal reaches anlage itself. Threads follow
 //!   `--cpus-per-task` through `RAYON_NUM_THREADS`.
 //! - `merge.sbatch`: merges the shards into the outputs of an unsharded run.
+//!   It asks for `--kill-on-invalid-dep=yes`: when a task fails or is
+//!   cancelled, the merge job is removed from the queue instead of waiting
+//!   for ever; `anlage … --merge` then names the missing shards and the
+//!   `sbatch --array=K array.sbatch` line that reruns them.
 //! - `submit.sh`: submits the array, then the merge with
 //!   `--dependency=afterok:<array>`, and prints both job ids.
 //!
@@ -77,11 +81,15 @@ pub fn job_arguments(argv: &[String]) -> Vec<String> {
     out
 }
 
-fn header(lines: &mut Vec<String>, name: &str, log: &Path, workdir: &Path, req: &Request, cpus: usize) {
+/// `#SBATCH` lines for a job named `name` logging to `logs/log_name`, where
+/// `log_name` may hold SLURM's filename patterns (`%a`: the task) and a `%`
+/// in the folder is written `%%` so that SLURM keeps it.
+fn header(lines: &mut Vec<String>, name: &str, logs: &Path, log_name: &str, workdir: &Path, req: &Request, cpus: usize) {
     lines.push("#!/bin/bash".into());
     lines.push(format!("#SBATCH --job-name={name}"));
     lines.push(format!("#SBATCH --chdir={}", shell_quote(&workdir.display().to_string())));
-    lines.push(format!("#SBATCH --output={}", shell_quote(&log.display().to_string())));
+    let log = format!("{}/{log_name}", logs.display().to_string().replace('%', "%%"));
+    lines.push(format!("#SBATCH --output={}", shell_quote(&log)));
     lines.push("#SBATCH --open-mode=append".into());
     lines.push(format!("#SBATCH --cpus-per-task={cpus}"));
     for (option, value) in
@@ -117,7 +125,7 @@ pub fn write_scripts(
     let n = req.tasks;
 
     let mut a = Vec::new();
-    header(&mut a, &format!("anlage-{verb}"), &logs.join("task-%a.out"), workdir, req, req.cpus_per_task);
+    header(&mut a, &format!("anlage-{verb}"), &logs, "task-%a.out", workdir, req, req.cpus_per_task);
     a.push(format!("#SBATCH --array=1-{n}"));
     a.push("#SBATCH --requeue".into());
     a.push("#SBATCH --signal=B:TERM@120".into());
@@ -133,7 +141,8 @@ pub fn write_scripts(
     a.push(format!("exec \"$ANLAGE\" {} --shard \"$SLURM_ARRAY_TASK_ID/{n}\"", command.join(" ")));
 
     let mut m = Vec::new();
-    header(&mut m, &format!("anlage-{verb}-merge"), &logs.join("merge.out"), workdir, req, 1);
+    header(&mut m, &format!("anlage-{verb}-merge"), &logs, "merge.out", workdir, req, 1);
+    m.push("#SBATCH --kill-on-invalid-dep=yes".into());
     m.push(String::new());
     m.push(format!("# Written by anlage: merges the {n} shards of array.sbatch into the outputs of"));
     m.push(format!("#   anlage {}", command.join(" ")));
@@ -214,5 +223,16 @@ mod tests {
         assert!(submit.contains("--dependency=afterok:"), "{submit}");
         let merge = std::fs::read_to_string(&s.merge).unwrap();
         assert!(merge.trim_end().ends_with("--merge"), "{merge}");
+        assert!(merge.contains("#SBATCH --kill-on-invalid-dep=yes"), "{merge}");
+    }
+
+    #[test]
+    fn a_percent_sign_in_the_output_folder_survives_slurm_filename_patterns() {
+        let dir = tempfile::tempdir().unwrap();
+        let out = dir.path().join("run 100%");
+        let req = Request { tasks: 2, cpus_per_task: 1, ..Request::default() };
+        let s = write_scripts(Path::new("/opt/anlage"), &words("sweep m.toml"), dir.path(), &out, &req).unwrap();
+        let array = std::fs::read_to_string(&s.array).unwrap();
+        assert!(array.contains("run 100%%/slurm/logs/task-%a.out'"), "{array}");
     }
 }

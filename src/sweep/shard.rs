@@ -45,11 +45,18 @@ fn save(index: usize, p: &Point) -> SavedPoint {
     }
 }
 
-/// The sharded job of sweeping `model` over `axes` (written on the command
-/// line as `axes_text`), rerun by `rerun`.
-pub fn job(model: &Model, axes: &[Axis], axes_text: &[String], rerun: String) -> Job {
+/// The sharded job of sweeping `model` over `axes`, rerun by `rerun`. Axes
+/// are compared by value (`0.5:2:6` and `0.5:2.0:6` are the same axis).
+pub fn job(model: &Model, axes: &[Axis], rerun: String) -> Job {
     let total: usize = axes.iter().map(|a| a.values.len()).product();
-    Job::new("sweep", model, axes_text.to_vec(), total, rerun)
+    let settings = axes
+        .iter()
+        .map(|a| {
+            let (from, to) = (a.values.first().copied().unwrap_or(0.0), a.values.last().copied().unwrap_or(0.0));
+            format!("{}={from:?}:{to:?}:{}{}", a.name, a.values.len(), if a.log { ":log" } else { "" })
+        })
+        .collect();
+    Job::new("sweep", model, settings, total, rerun)
 }
 
 /// Runs shard `shard` of the sweep `job` of `model` over `axes` into `dir`

@@ -266,10 +266,12 @@ pub fn write_screen_replicates(
     mutants: &[crate::model::Mutant],
     n: usize,
     dir: &Path,
+    embryos: &dyn crate::replicates::Embryos,
     progress: &dyn Progress,
 ) -> Result<Vec<crate::replicates::PairedShift>, WriteError> {
-    let models: Vec<(String, Model)> = mutants.iter().map(|m| (m.name.clone(), model.with_mutant(m))).collect();
-    let rows = crate::replicates::paired_shifts(model, &models, n, progress)?;
+    let models = crate::replicates::shard::screen_models(model, mutants);
+    let passes: Vec<String> = models.iter().map(|(name, _)| crate::replicates::pass::mutant(name)).collect();
+    let rows = crate::replicates::paired_shifts_with(embryos, model, &models, &passes, n, progress)?;
     export::write_shifts_over_embryos(&rows, &dir.join(SCREEN_REPLICATES))?;
     Ok(rows)
 }
@@ -395,14 +397,15 @@ pub fn write_replicates(
     wild_type: Option<(&str, &Model)>,
     style: &render::Style,
     dir: &Path,
+    embryos: &dyn crate::replicates::Embryos,
     progress: &dyn Progress,
 ) -> Result<ReplicateReport, WriteError> {
-    use crate::replicates::{self, Sources};
+    use crate::replicates::{self, Sources, pass};
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
     let mut outcome = None;
     let written = export::write_atomic(&dir.join("embryo_boundaries.csv"), |w| {
         let mut failed = export::embryo_header(w).err();
-        let r = replicates::run(model, job.n, &Sources::all(model), progress, &mut |i, bs| {
+        let r = replicates::run_with(embryos, pass::ALL, model, job.n, &Sources::all(model), progress, &mut |i, bs| {
             if failed.is_none()
                 && let Err(e) = export::embryo_rows(i, bs, w)
             {
@@ -441,10 +444,20 @@ pub fn write_replicates(
     })?;
     export::write_widths(&all, &dir.join("widths.csv"))?;
     export::write_decoding(&all, &dir.join("decoding.csv"))?;
-    let shares = if job.attribute { replicates::attribute(model, job.n, &all, progress)? } else { Vec::new() };
-    let step = if job.check_step { replicates::halved_step(model, job.n, &all, progress)? } else { Vec::new() };
+    let shares =
+        if job.attribute { replicates::attribute_with(embryos, model, job.n, &all, progress)? } else { Vec::new() };
+    let step =
+        if job.check_step { replicates::halved_step_with(embryos, model, job.n, &all, progress)? } else { Vec::new() };
+    // The mutant's embryos in the pairing are those of every source on.
     let shifts = match wild_type {
-        Some((name, w)) => replicates::paired_shifts(w, &[(name.to_string(), model.clone())], job.n, progress)?,
+        Some((name, w)) => replicates::paired_shifts_with(
+            embryos,
+            w,
+            &[(name.to_string(), model.clone())],
+            &[pass::ALL.to_string()],
+            job.n,
+            progress,
+        )?,
         None => Vec::new(),
     };
     if wild_type.is_some() {

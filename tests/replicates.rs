@@ -507,3 +507,146 @@ fn ragged_boundaries_are_merged_not_dropped() {
     assert!((b.mean_pct - 100.0 * b.reference_um / r.length_um).abs() < 2.0, "{b:?}");
     assert!(b.sd_um > 10.0 && b.sd_um < 30.0, "{b:?}");
 }
+
+/// A model with every kind of noise source (initial levels, additive noise
+/// with a fixed noise step, a varied gradient peak) and a mutant, for the
+/// sharding checks below.
+fn noisy_with_mutant() -> String {
+    r#"
+title = "noisy read-out"
+[tissue]
+nuclei = [60]
+spacing_um = 2.0
+[clock]
+until_min = 12.0
+step_min = 0.1
+snapshot_every_min = 6.0
+[[gradient]]
+name = "cue"
+shape = "exponential"
+from = "left"
+peak = 1.0
+decay_length_um = 40.0
+[[gene]]
+name = "quill"
+production = 1.0
+decay = 1.0
+initial = 0.5
+initial_noise = 0.05
+boundary_level = { absolute = 0.5 }
+[circuit]
+kinetics = "hill"
+[[circuit.link]]
+from = "cue"
+to = "quill"
+sign = "+"
+threshold = 0.3
+hill = 4
+[noise]
+additive = { quill = 0.01 }
+step_min = 0.2
+[[noise.vary]]
+parameter = "cue.peak"
+cv = 0.1
+[[mutant]]
+name = "peak x2"
+scale = { "cue.peak" = 2.0 }
+[[mutant]]
+name = "short"
+scale = { "cue.decay_length_um" = 0.5 }
+"#
+    .into()
+}
+
+fn same_files(a: &std::path::Path, b: &std::path::Path, names: &[&str]) {
+    for name in names {
+        let (x, y) = (std::fs::read(a.join(name)), std::fs::read(b.join(name)));
+        assert!(x.is_ok() && y.is_ok(), "{name} missing in {} or {}", a.display(), b.display());
+        assert!(x.unwrap() == y.unwrap(), "{name} differs between {} and {}", a.display(), b.display());
+    }
+}
+
+/// Replicates cut into shards (embryos as items) merge into the bytes of an
+/// unsharded run, with every rerun they involve: each source alone
+/// (--attribute), half the noise step (--check-step) and the wild type of a
+/// mutant (--mutant). More shards than embryos are refused.
+#[test]
+fn replicates_sharded_in_three_merge_into_the_same_bytes() {
+    let dir = temp_dir("replicates-shards");
+    let model = dir.join("m.toml");
+    std::fs::write(&model, noisy_with_mutant()).unwrap();
+    let m = model.to_str().unwrap();
+    let run = |extra: &[&str], out: &std::path::Path| {
+        let mut args = vec!["replicates", m, "-n", "24", "--attribute", "--check-step", "--mutant", "peak x2"];
+        args.extend_from_slice(extra);
+        args.extend_from_slice(&["-o", out.to_str().unwrap()]);
+        let o = anlage(&args);
+        assert!(o.status.success() || extra.contains(&"25/25"), "{args:?}: {}", String::from_utf8_lossy(&o.stderr));
+        o
+    };
+    let (whole, sharded) = (dir.join("whole"), dir.join("sharded"));
+    run(&[], &whole);
+    for k in 1..=3 {
+        run(&["--shard", &format!("{k}/3")], &sharded);
+    }
+    assert!(!sharded.join("precision.csv").exists(), "a shard writes only its shard file");
+    run(&["--merge"], &sharded);
+    same_files(
+        &whole,
+        &sharded,
+        &[
+            "precision.csv",
+            "widths.csv",
+            "decoding.csv",
+            "embryo_boundaries.csv",
+            "attribution.csv",
+            "step_check.csv",
+            "shift.csv",
+            "replicates.json",
+            "replicates.png",
+            "boundary_bands.png",
+        ],
+    );
+    let step_rows = std::fs::read_to_string(whole.join("step_check.csv")).unwrap();
+    assert!(step_rows.lines().count() > 1, "the half-step rerun ran: {step_rows}");
+    let o = run(&["--shard", "25/25"], &dir.join("too-many"));
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("24 items (embryos)"));
+}
+
+/// A screen with replicates cut into shards: each shard runs its mutants and
+/// its embryos (of the wild type and every mutant); the merge gives the
+/// bytes of an unsharded screen, and refuses, writing nothing, while an
+/// embryo shard is missing.
+#[test]
+fn a_screen_with_replicates_sharded_in_three_merges_into_the_same_bytes() {
+    let dir = temp_dir("screen-replicates-shards");
+    let model = dir.join("m.toml");
+    std::fs::write(&model, noisy_with_mutant()).unwrap();
+    let m = model.to_str().unwrap();
+    let run = |extra: &[&str], out: &std::path::Path| {
+        let mut args = vec!["screen", m, "--replicates", "20"];
+        args.extend_from_slice(extra);
+        args.extend_from_slice(&["-o", out.to_str().unwrap()]);
+        anlage(&args)
+    };
+    let (whole, sharded) = (dir.join("whole"), dir.join("sharded"));
+    assert!(run(&[], &whole).status.success());
+    for k in 1..=3 {
+        let o = run(&["--shard", &format!("{k}/3"), "--json"], &sharded);
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        let report: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+        assert_eq!(report.as_array().map(Vec::len), Some(2), "{report}");
+    }
+    let embryos = sharded.join("shards/screen_embryos-2-of-3.json");
+    let kept = std::fs::read(&embryos).unwrap();
+    std::fs::remove_file(&embryos).unwrap();
+    let o = run(&["--merge"], &sharded);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("--shard 2/3"), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(!sharded.join("shifts.csv").exists(), "nothing is written while a shard is missing");
+    std::fs::write(&embryos, kept).unwrap();
+    let o = run(&["--merge"], &sharded);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    same_files(&whole, &sharded, &["shifts.csv", "replicate_shifts.csv", "shifts.png"]);
+}

@@ -273,6 +273,9 @@ pub struct ReplicatesArgs {
     /// Replicates of a mutant: the name of a [[mutant]] in the model, or one written as on `screen --mutant`.
     #[arg(long, value_name = "NAME|'{…}'")]
     pub mutant: Option<String>,
+    /// Shards, merge and SLURM job arrays (the items are embryos).
+    #[command(flatten)]
+    pub cluster: ClusterArgs,
     /// Output folder (default `<model name>_replicates`), pictures and report form.
     #[command(flatten)]
     pub output: ScreenOutputArgs,

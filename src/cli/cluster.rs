@@ -101,6 +101,7 @@ fn item_word(kind: &str) -> &'static str {
         "screen" => "mutants",
         "sensitivity" => "parameters",
         "fit" => "starts",
+        "replicates" | "screen_embryos" => "embryos",
         _ => "items",
     }
 }
@@ -126,36 +127,48 @@ pub fn stop_flag() -> anyhow::Result<Arc<AtomicBool>> {
     Ok(stop)
 }
 
-/// Prints how a shard ended (with `json`, as one JSON object: shard, file,
-/// status, items); a stopped shard is an error (exit 1) that says how to
-/// finish it.
+/// Prints how shard `shard` of each job ended (a screen with replicates has
+/// two: mutants and embryos); with `json`, one JSON object per job (kind,
+/// shard, file, status, items), in an array when there are several. A
+/// stopped shard is an error (exit 1) that says how to finish it.
 ///
 /// # Errors
-/// When the shard was stopped.
-pub fn report_shard(ran: Ran, shard: Shard, job: &Job, dir: &Path, json: bool) -> anyhow::Result<()> {
-    let file = job.file(dir, shard);
-    if json && !matches!(ran, Ran::Stopped { .. }) {
-        let value = serde_json::json!({
-            "kind": job.kind,
-            "shard": format!("{}/{}", shard.k, shard.n),
-            "file": file.display().to_string(),
-            "status": if ran == Ran::Done { "done" } else { "already complete" },
-            "items": shard.items(job.total).count(),
-        });
+/// When a shard was stopped.
+pub fn report_shards(ran: &[(Ran, &Job)], shard: Shard, dir: &Path, json: bool) -> anyhow::Result<()> {
+    for &(r, job) in ran {
+        if let Ran::Stopped { done, of } = r {
+            anyhow::bail!(
+                "shard {}/{} stopped by a signal: {done} of {of} items saved in {}; run the same command again to finish it",
+                shard.k,
+                shard.n,
+                job.file(dir, shard).display()
+            );
+        }
+    }
+    if json {
+        let values: Vec<serde_json::Value> = ran
+            .iter()
+            .map(|&(r, job)| {
+                serde_json::json!({
+                    "kind": job.kind,
+                    "shard": format!("{}/{}", shard.k, shard.n),
+                    "file": job.file(dir, shard).display().to_string(),
+                    "status": if r == Ran::Done { "done" } else { "already complete" },
+                    "items": shard.items(job.total).count(),
+                })
+            })
+            .collect();
+        let value = if values.len() == 1 { values[0].clone() } else { serde_json::Value::Array(values) };
         println!("{}", serde_json::to_string_pretty(&value)?);
         return Ok(());
     }
-    match ran {
-        Ran::Done => println!("shard {}/{}: wrote {}", shard.k, shard.n, file.display()),
-        Ran::AlreadyComplete => {
-            println!("shard {}/{}: already complete, not run again: {}", shard.k, shard.n, file.display())
+    for &(r, job) in ran {
+        let file = job.file(dir, shard);
+        if r == Ran::Done {
+            println!("shard {}/{}: wrote {}", shard.k, shard.n, file.display());
+        } else {
+            println!("shard {}/{}: already complete, not run again: {}", shard.k, shard.n, file.display());
         }
-        Ran::Stopped { done, of } => anyhow::bail!(
-            "shard {}/{} stopped by a signal: {done} of {of} items saved in {}; run the same command again to finish it",
-            shard.k,
-            shard.n,
-            file.display()
-        ),
     }
     Ok(())
 }

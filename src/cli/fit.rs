@@ -41,7 +41,7 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<()> {
             let stop = super::cluster::stop_flag()?;
             let ran = anlage::fit::shard::run_shard(&problem, &job, shard, &dir, &stop, &bar)?;
             bar.finish();
-            return super::cluster::report_shard(ran, shard, &job, &dir, *json);
+            return super::cluster::report_shards(&[(ran, &job)], shard, &dir, *json);
         }
         Mode::Merge => anlage::fit::shard::merge(&problem, &job, &dir)?,
         Mode::Whole => {

@@ -100,28 +100,49 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     }
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "screen"));
     let bar = super::bar::Bar::new(*json);
-    if let (Some(n), Mode::Shard(_) | Mode::Merge | Mode::Slurm) = (replicates, &mode) {
-        anyhow::bail!(StyleError::OutOfRange {
-            option: "--replicates".into(),
-            value: n.to_string(),
-            fix: "screens with replicates are not sharded yet; run them unsharded, or shard `anlage replicates --mutant` per mutant".into(),
-        });
-    }
     let job = anlage::screen::shard::job(&model, &list, super::cluster::rerun_command());
-    super::cluster::check_cut(&mode, cluster, &job, *json)?;
+    // With replicates, each shard also runs its share of the embryos (of the
+    // wild type and of every mutant) into a second shard file.
+    let embryo_job = replicates.map(|n| {
+        let models = anlage::replicates::shard::screen_models(&model, &list);
+        let passes = anlage::replicates::shard::screen_passes(&model, &models);
+        let job = anlage::replicates::shard::job(
+            "screen_embryos",
+            &model,
+            &passes,
+            job.settings.clone(),
+            n,
+            super::cluster::rerun_command(),
+        );
+        (passes, job)
+    });
+    let larger = embryo_job.as_ref().map(|(_, j)| j).filter(|j| j.total > job.total).unwrap_or(&job);
+    super::cluster::check_cut(&mode, cluster, larger, *json)?;
+    let mut saved_embryos = None;
     let screen = match mode {
         Mode::Slurm => return super::cluster::write_slurm(cluster, &dir, *json),
         Mode::Shard(shard) => {
             let stop = super::cluster::stop_flag()?;
             let wild_type = anlage::readout::predicted_final_boundaries(&model)
                 .with_context(|| format!("the wild type of {}", path.display()))?;
-            let ran = anlage::screen::shard::run_shard(&model, &list, &wild_type, &job, shard, &dir, &stop, &bar)?;
-            return super::cluster::report_shard(ran, shard, &job, &dir, *json);
+            let mut ran = vec![(
+                anlage::screen::shard::run_shard(&model, &list, &wild_type, &job, shard, &dir, &stop, &bar)?,
+                &job,
+            )];
+            if let Some((passes, embryos)) = &embryo_job
+                && !matches!(ran[0].0, anlage::shard::Ran::Stopped { .. })
+            {
+                ran.push((anlage::replicates::shard::run_shard(passes, embryos, shard, &dir, &stop, &bar)?, embryos));
+            }
+            return super::cluster::report_shards(&ran, shard, &dir, *json);
         }
         Mode::Merge => {
             let wild_type = anlage::screen::final_outcome(&model)
                 .with_context(|| format!("the wild type of {}", path.display()))?;
             let screen = anlage::screen::shard::merge(&list, wild_type, &job, &dir)?;
+            // Every shard file is checked before anything is written.
+            saved_embryos =
+                embryo_job.as_ref().map(|(_, j)| anlage::replicates::shard::merge(j, &dir)).transpose()?;
             anlage::write_screen_files(&model, &screen, &style, &dir, chosen.as_ref(), true)
                 .with_context(|| format!("merging into {}", dir.display()))?;
             screen
@@ -140,7 +161,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     }
     let paired = match replicates {
         Some(n) => Some(
-            anlage::write_screen_replicates(&model, &list, *n, &dir, &bar)
+            anlage::write_screen_replicates(&model, &list, *n, &dir, embryo_source(saved_embryos.as_ref()), &bar)
                 .with_context(|| format!("replicates of the screen of {}", path.display()))?,
         ),
         None => {
@@ -191,7 +212,7 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
             let ran = anlage::screen::shard::run_sensitivity_shard(
                 &model, *step, &wild_type, &job, shard, &dir, &stop, &bar,
             )?;
-            return super::cluster::report_shard(ran, shard, &job, &dir, *json);
+            return super::cluster::report_shards(&[(ran, &job)], shard, &dir, *json);
         }
         Mode::Merge => {
             let rows = anlage::screen::shard::merge_sensitivity(&job, &dir)?;
@@ -245,7 +266,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
             let stop = super::cluster::stop_flag()?;
             let bar = super::bar::Bar::new(*json);
             let ran = anlage::sweep::shard::run_shard(&model, &axes, &job, shard, &dir, &stop, &bar)?;
-            return super::cluster::report_shard(ran, shard, &job, &dir, *json);
+            return super::cluster::report_shards(&[(ran, &job)], shard, &dir, *json);
         }
         Mode::Merge => {
             let s = anlage::sweep::shard::merge(&model, &axes, &job, &dir)?;
@@ -262,7 +283,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
 
 /// `anlage replicates`.
 pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
-    let ReplicatesArgs { model: path, embryos, attribute, check_step, animate, mutant, output } = args;
+    let ReplicatesArgs { model: path, embryos, attribute, check_step, animate, mutant, cluster, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
     let wild_type = Model::load(path)?;
     let model = wild_type.clone();
@@ -281,7 +302,7 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
                     ),
                 }),
             };
-            (Some(m.name.clone()), model.with_mutant(&m))
+            (Some(m.clone()), model.with_mutant(&m))
         }
     };
     let n = embryos.unwrap_or(model.noise.replicates);
@@ -298,9 +319,37 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "replicates"));
+    let mode = cluster.mode(out.as_deref())?;
+    let bar = super::bar::Bar::new(*json);
+    let passes = anlage::replicates::shard::replicate_passes(
+        &model,
+        *attribute,
+        *check_step,
+        name.as_ref().map(|_| &wild_type),
+    );
+    let mutant_words = name.as_ref().map_or_else(|| "no mutant".into(), |m| format!("mutant {}: {:?}", m.name, m.edits));
+    let shard_job = anlage::replicates::shard::job(
+        "replicates",
+        &wild_type,
+        &passes,
+        vec![mutant_words],
+        n,
+        super::cluster::rerun_command(),
+    );
+    super::cluster::check_cut(&mode, cluster, &shard_job, *json)?;
+    let saved = match mode {
+        Mode::Slurm => return super::cluster::write_slurm(cluster, &dir, *json),
+        Mode::Shard(shard) => {
+            let stop = super::cluster::stop_flag()?;
+            let ran = anlage::replicates::shard::run_shard(&passes, &shard_job, shard, &dir, &stop, &bar)?;
+            return super::cluster::report_shards(&[(ran, &shard_job)], shard, &dir, *json);
+        }
+        Mode::Merge => Some(anlage::replicates::shard::merge(&shard_job, &dir)?),
+        Mode::Whole => None,
+    };
     let job = anlage::ReplicateJob { n, attribute: *attribute, check_step: *check_step, animate: animate.unwrap_or(0) };
-    let paired = name.as_deref().map(|n| (n, &wild_type));
-    let report = anlage::write_replicates(&model, job, paired, &style, &dir, &super::bar::Bar::new(*json))
+    let paired = name.as_ref().map(|m| (m.name.as_str(), &wild_type));
+    let report = anlage::write_replicates(&model, job, paired, &style, &dir, embryo_source(saved.as_ref()), &bar)
         .with_context(|| format!("replicates of {}", path.display()))?;
     super::json::print_either(
         *json,
@@ -320,4 +369,12 @@ fn check_embryos(option: &str, n: usize) -> Result<(), StyleError> {
         value: n.to_string(),
         fix: format!("give 2 to {} embryos", anlage::model::noise::MAX_REPLICATES),
     })
+}
+
+/// Where a command's embryos come from: the shards merged, or simulated here.
+fn embryo_source(saved: Option<&anlage::replicates::shard::Saved>) -> &dyn anlage::replicates::Embryos {
+    match saved {
+        Some(s) => s,
+        None => &anlage::replicates::Simulated,
+    }
 }

@@ -4,7 +4,7 @@
 
 use serde::Serialize;
 
-use super::{ReplicateError, Replicates, Sources, run};
+use super::{Embryos, ReplicateError, Replicates, Simulated, Sources, pass, run_with};
 use crate::model::Model;
 use crate::progress::Progress;
 
@@ -38,9 +38,23 @@ pub fn attribute(
     all: &Replicates,
     progress: &dyn Progress,
 ) -> Result<Vec<Share>, ReplicateError> {
+    attribute_with(&Simulated, model, n, all, progress)
+}
+
+/// [`attribute`] with the embryos read from `embryos`.
+///
+/// # Errors
+/// As [`run_with`].
+pub fn attribute_with(
+    embryos: &dyn Embryos,
+    model: &Model,
+    n: usize,
+    all: &Replicates,
+    progress: &dyn Progress,
+) -> Result<Vec<Share>, ReplicateError> {
     let mut out = Vec::new();
     for (name, sources) in Sources::each(model) {
-        let alone = run(model, n, &sources, progress, &mut |_, _| {})?;
+        let alone = run_with(embryos, &pass::alone(&name), model, n, &sources, progress, &mut |_, _| {})?;
         for (a, b) in all.final_boundaries().zip(alone.final_boundaries()) {
             out.push(Share {
                 source: name.clone(),
@@ -89,12 +103,32 @@ pub fn halved_step(
     all: &Replicates,
     progress: &dyn Progress,
 ) -> Result<Vec<StepChange>, ReplicateError> {
-    let Some(k) = model.noise.step_min.filter(|_| model.noise.is_stochastic()) else {
-        return Ok(Vec::new());
-    };
+    halved_step_with(&Simulated, model, n, all, progress)
+}
+
+/// The model with half the noise step, if its runs are stochastic.
+pub fn with_half_step(model: &Model) -> Option<Model> {
+    let k = model.noise.step_min.filter(|_| model.noise.is_stochastic())?;
     let mut finer = model.clone();
     finer.noise.step_min = Some(0.5 * k);
-    let half = run(&finer, n, &Sources::all(model), progress, &mut |_, _| {})?;
+    Some(finer)
+}
+
+/// [`halved_step`] with the embryos read from `embryos`.
+///
+/// # Errors
+/// As [`run_with`].
+pub fn halved_step_with(
+    embryos: &dyn Embryos,
+    model: &Model,
+    n: usize,
+    all: &Replicates,
+    progress: &dyn Progress,
+) -> Result<Vec<StepChange>, ReplicateError> {
+    let Some(finer) = with_half_step(model) else {
+        return Ok(Vec::new());
+    };
+    let half = run_with(embryos, pass::HALF_STEP, &finer, n, &Sources::all(model), progress, &mut |_, _| {})?;
     Ok(all
         .final_boundaries()
         .zip(half.final_boundaries())

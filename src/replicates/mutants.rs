@@ -6,7 +6,7 @@
 use serde::Serialize;
 
 use super::intervals::{self, Paired};
-use super::{ReplicateError, Sources, embryo, for_each_embryo, read_one};
+use super::{Embryos, ReplicateError, Simulated, Sources, embryo, for_each_embryo, pass, read_one};
 use crate::model::Model;
 use crate::progress::{Counter, Progress};
 use crate::readout::{self, Boundary, pair_in_order};
@@ -74,6 +74,23 @@ pub fn paired_shifts(
     n: usize,
     progress: &dyn Progress,
 ) -> Result<Vec<PairedShift>, ReplicateError> {
+    let passes: Vec<String> = mutants.iter().map(|(name, _)| pass::mutant(name)).collect();
+    paired_shifts_with(&Simulated, wild_type, mutants, &passes, n, progress)
+}
+
+/// [`paired_shifts`] with the embryos read from `embryos`: the wild type's
+/// as set [`pass::WILD_TYPE`], mutant k's as set `passes[k]`.
+///
+/// # Errors
+/// As [`super::run`].
+pub fn paired_shifts_with(
+    embryos: &dyn Embryos,
+    wild_type: &Model,
+    mutants: &[(String, Model)],
+    passes: &[String],
+    n: usize,
+    progress: &dyn Progress,
+) -> Result<Vec<PairedShift>, ReplicateError> {
     let reference = read_one(&embryo(wild_type, 0, &Sources::none(wild_type))).map_err(ReplicateError::Reference)?;
     let last = wild_type.clock.until_min;
     let finals = |bs: Vec<Boundary>| -> Vec<Boundary> {
@@ -93,17 +110,18 @@ pub fn paired_shifts(
     }
     let mut acc = vec![vec![Paired::default(); refs.len()]; mutants.len()];
     let counter = Counter::begin(progress, "embryos", n * (1 + mutants.len()));
-    let final_of = |m: &Model, i: usize, name: &str, f: &super::ragged::Flickers| -> Result<Vec<Boundary>, String> {
-        let r = read_one(&embryo(m, i, &Sources::all(m)));
+    let final_of = |m: &Model, set: &str, i: usize, name: &str, f: &super::ragged::Flickers| {
+        let r = embryos.read(set, i, &embryo(m, i, &Sources::all(m)));
         counter.tick();
-        Ok(f.merge(&finals(r.map_err(|e| format!("{name}: {e}"))?.boundaries)).0)
+        Ok::<_, String>(f.merge(&finals(r.map_err(|e| format!("{name}: {e}"))?.boundaries)).0)
     };
     let one = |i: usize| -> Result<(Vec<Boundary>, Vec<Vec<Boundary>>), String> {
-        let w = final_of(wild_type, i, "wild type", &flickers[0])?;
+        let w = final_of(wild_type, pass::WILD_TYPE, i, "wild type", &flickers[0])?;
         let ms = mutants
             .iter()
+            .zip(passes)
             .zip(&flickers[1..])
-            .map(|((name, m), f)| final_of(m, i, name, f))
+            .map(|(((name, m), set), f)| final_of(m, set, i, name, f))
             .collect::<Result<Vec<_>, _>>()?;
         Ok((w, ms))
     };

@@ -481,3 +481,27 @@ fn completions_and_manual_name_every_verb() {
     let bad = anlage(&["completions", "cmd"]);
     assert_eq!(bad.status.code(), Some(2));
 }
+
+/// Picture options that would do nothing on a verb are refused (exit 2),
+/// naming the option and the verb, instead of being ignored; where the verb
+/// uses them (an animation) they are taken.
+#[test]
+fn picture_options_that_do_nothing_are_refused() {
+    let model = root().join("patterns/ribbon.toml");
+    let m = model.to_str().unwrap();
+    let dir = std::env::temp_dir().join(format!("anlage-test-{}-unused-look", std::process::id()));
+    let out = dir.to_str().unwrap();
+    for args in [
+        vec!["sensitivity", m, "--fps", "5", "-o", out],
+        vec!["sweep", m, "--axis", "amber.production=0.5:2:3", "--heatmap", "--genes", "amber", "-o", out],
+        vec!["screen", m, "--knockouts", "--from", "10", "-o", out],
+        vec!["basins", m, "--fps", "12", "-o", out],
+        vec!["replicates", m, "-n", "3", "--to", "30", "-o", out],
+    ] {
+        let o = anlage(&args);
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {err}");
+        assert!(err.contains("does nothing on `") && err.contains(args[0]), "{args:?}: {err}");
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}

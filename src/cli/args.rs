@@ -122,6 +122,9 @@ pub struct RenderArgs {
     /// Output folder (default: the run folder).
     #[arg(short, long)]
     pub out: Option<PathBuf>,
+    /// Print nothing (errors still go to standard error).
+    #[arg(short, long)]
+    pub quiet: bool,
     /// How pictures look.
     #[command(flatten)]
     pub look: PictureArgs,
@@ -444,7 +447,44 @@ pub struct PictureArgs {
     pub to_min: Option<f64>,
 }
 
+/// A picture option that some verbs have no use for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Unused {
+    /// `--fps`: no animation is drawn.
+    Fps,
+    /// `--heatmap`: no picture of gene levels is drawn.
+    Heatmap,
+    /// `--from`/`--to`: no picture follows the snapshots' times.
+    TimeRange,
+}
+
 impl PictureArgs {
+    /// Refuses (exit 2) the options in `unused` that were given: on `verb`
+    /// they would do nothing, `because` (words that end "…; leave it out").
+    ///
+    /// # Errors
+    /// The first such option given.
+    pub fn refuse(&self, unused: &[Unused], verb: &str, because: &str) -> Result<(), anlage::render::StyleError> {
+        for &u in unused {
+            let given = match u {
+                Unused::Fps => self.fps.map(|v| ("--fps", v.to_string())),
+                Unused::Heatmap => self.heatmap.then(|| ("--heatmap", "given".to_string())),
+                Unused::TimeRange => self
+                    .from_min
+                    .map(|v| ("--from", v.to_string()))
+                    .or_else(|| self.to_min.map(|v| ("--to", v.to_string()))),
+            };
+            if let Some((option, value)) = given {
+                return Err(anlage::render::StyleError::OutOfRange {
+                    option: option.into(),
+                    value,
+                    fix: format!("it does nothing on `{verb}`, which {because}; leave it out"),
+                });
+            }
+        }
+        Ok(())
+    }
+
     /// As library options.
     pub fn options(&self) -> StyleOptions {
         StyleOptions {

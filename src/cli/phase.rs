@@ -13,6 +13,11 @@ use super::print;
 /// `anlage basins`.
 pub fn basins(args: &BasinsArgs) -> anyhow::Result<()> {
     let BasinsArgs { source, out, with_influx, gene, every, at, look, json } = args;
+    look.refuse(
+        &[Unused::Fps, Unused::Heatmap, Unused::TimeRange],
+        "basins",
+        "analyses the snapshots chosen with --every or --at and draws no animation",
+    )?;
     let (model, rec, dir) = model_and_recording(source, out.as_deref())?;
     let style = Style::with_options(&rec, &model.title, &look.options())?;
     let gene = match gene {

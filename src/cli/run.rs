@@ -141,7 +141,7 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
 
 /// `anlage render`.
 pub fn render(args: &RenderArgs) -> anyhow::Result<()> {
-    let RenderArgs { run_dir, kind, out, look } = args;
+    let RenderArgs { run_dir, kind, out, quiet, look } = args;
     let saved = anlage::run_folder::load(run_dir)?;
     let rec = &saved.recording;
     let style = Style::with_options(rec, &saved.summary.title, &look.options())?;
@@ -149,7 +149,7 @@ pub fn render(args: &RenderArgs) -> anyhow::Result<()> {
     std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
     let boundaries = anlage::readout::find_boundaries(rec)?;
     let written = anlage::write_pictures(rec, &boundaries, &style, &dir, (*kind).into())?;
-    for path in &written {
+    for path in written.iter().filter(|_| !quiet) {
         println!("wrote {}", path.display());
     }
     if &dir == run_dir {

@@ -25,6 +25,13 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
         output,
     } = args;
     let ScreenOutputArgs { out, look, json } = output;
+    if animate.is_none() {
+        look.refuse(
+            &[Unused::Fps, Unused::Heatmap, Unused::TimeRange],
+            "screen",
+            "draws no animation without --animate (its picture is the table of shifts)",
+        )?;
+    }
     let model = Model::load(path)?;
     let mut list = model.mutants.clone();
     for text in mutants {
@@ -182,6 +189,11 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
 pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
     let SensitivityArgs { model: path, step, cluster, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
+    look.refuse(
+        &[Unused::Fps, Unused::Heatmap, Unused::TimeRange],
+        "sensitivity",
+        "draws one still picture of sensitivities read at the end of the run",
+    )?;
     let model = Model::load(path)?;
     if !(step.is_finite() && *step > 0.0 && *step < 1.0) {
         anyhow::bail!(StyleError::OutOfRange {
@@ -231,6 +243,11 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
 pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
     let SweepArgs { model: path, axes: axes_text, cluster, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
+    look.refuse(
+        &[Unused::Fps, Unused::Heatmap, Unused::TimeRange],
+        "sweep",
+        "draws one still picture of pattern classes read at the end of each run",
+    )?;
     let model = Model::load(path)?;
     let axes: Vec<anlage::sweep::Axis> =
         axes_text.iter().map(|t| anlage::sweep::Axis::parse(&model, t)).collect::<Result<_, _>>()?;
@@ -285,6 +302,13 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
 pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
     let ReplicatesArgs { model: path, embryos, attribute, check_step, animate, mutant, cluster, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
+    if animate.is_none() {
+        look.refuse(
+            &[Unused::Fps, Unused::Heatmap, Unused::TimeRange],
+            "replicates",
+            "draws no animation without --animate (its pictures are spreads of boundaries)",
+        )?;
+    }
     let wild_type = Model::load(path)?;
     let model = wild_type.clone();
     let (name, model) = match mutant {

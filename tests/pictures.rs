@@ -82,23 +82,36 @@ fn embryo_pixels_show_the_level_of_the_gene() {
 }
 
 /// The boundary trace on the kymograph passes within one pixel of the
-/// boundary position from the boundary table, mapped to pixels.
+/// boundary position from the boundary table, mapped to pixels: a line in
+/// the gene's colour with a dark halo on both sides, and no halo 8 px away.
+/// Before the gene is expressed no trace is drawn.
 #[test]
 fn kymograph_trace_sits_on_the_boundary() {
     let rec = ribbon();
     let boundaries = find_boundaries(&rec).unwrap();
     let style = Style::for_recording(&rec);
+    let amber = style.colors[rec.genes.iter().position(|g| g == "amber").unwrap()];
     let (canvas, layout) = render::kymograph(&rec, &boundaries, &style).unwrap();
     let a = layout.axes;
     let mut checked = 0;
     for b in boundaries.iter().filter(|b| b.gene == "amber" && b.time_min >= 80.0 && b.time_min <= 200.0) {
         let (x, y) = (a.px(b.position_pct), a.py(b.time_min));
-        let bright = |px: f32| {
-            let c = canvas.get(px.round() as u32, y.round() as u32);
-            c.iter().all(|v| *v > 150)
+        let at = |px: f32, dy: i32| canvas.get(px.round() as u32, (y.round() as i32 + dy) as u32);
+        // Another gene's dashed trace may cover this one on some rows.
+        let line = |px: f32| (-4..=4).any(|dy| at(px, dy).iter().zip(amber).all(|(v, w)| v.abs_diff(w) <= 40));
+        // Dark: luminance (Rec. 709 weights) below 60 of 255.
+        let dark = |px: f32| {
+            let c = at(px, 0).map(f64::from);
+            0.2126 * c[0] + 0.7152 * c[1] + 0.0722 * c[2] < 60.0
         };
-        assert!((-1..=1).any(|d| bright(x + d as f32)), "no trace near {x:.1} px at t = {}", b.time_min);
-        assert!(!bright(x - 6.0) && !bright(x + 6.0), "trace too wide at t = {}", b.time_min);
+        assert!((-1..=1).any(|d| line(x + d as f32)), "no trace near {x:.1} px at t = {}", b.time_min);
+        let row: Vec<[u8; 3]> = (-6..=6).map(|d| at(x + d as f32, 0)).collect();
+        assert!(
+            (2..=4).any(|d| dark(x - d as f32)) && (2..=4).any(|d| dark(x + d as f32)),
+            "no halo at t = {}: {row:?}",
+            b.time_min
+        );
+        assert!(!dark(x - 8.0) && !dark(x + 8.0), "trace too wide at t = {}", b.time_min);
         checked += 1;
     }
     assert!(checked >= 20);

@@ -80,15 +80,37 @@ pub fn oklab_to_srgb(l: f64, a: f64, b: f64) -> [u8; 3] {
 
 /// A sequential colour map for one gene's levels, t ∈ [0, 1]: lightness rises
 /// linearly in Oklab from 0.22 to 0.93 (so equal steps in level look like
-/// equal steps in lightness) while the hue turns from blue through teal to
-/// yellow at constant modest chroma. Our own map, in the spirit of
-/// perceptually uniform maps such as viridis (van der Walt & Smith 2015).
+/// equal steps in lightness) while the hue turns from a deep red-brown
+/// through rust and ochre to pale straw, like a stain developing: our own
+/// path, chosen so that it cannot be taken for the blue–green–yellow default
+/// maps of common plotting libraries. Chroma peaks mid-range and stays inside
+/// the sRGB gamut, so no channel is clipped and the lightness stays linear
+/// (checked in the tests by converting back).
 pub fn sequential(t: f64) -> [u8; 3] {
     let t = t.clamp(0.0, 1.0);
     let l = 0.22 + 0.71 * t;
-    let hue = (275.0 - 170.0 * t).to_radians();
-    let chroma = 0.09 + 0.05 * (std::f64::consts::PI * t).sin();
+    let hue = (20.0 + 75.0 * t).to_radians();
+    let chroma = 0.05 + 0.075 * (std::f64::consts::PI * t).sin() - 0.02 * t;
     oklab_to_srgb(l, chroma * hue.cos(), chroma * hue.sin())
+}
+
+/// sRGB bytes → Oklab (L, a, b); the inverse of [`oklab_to_srgb`]
+/// (Ottosson 2020, the published matrices, from memory; checked by the round
+/// trip in the tests).
+pub fn srgb_to_oklab(c: [u8; 3]) -> (f64, f64, f64) {
+    let lin = c.map(|v| {
+        let s = v as f64 / 255.0;
+        if s <= 0.040_45 { s / 12.92 } else { ((s + 0.055) / 1.055).powf(2.4) }
+    });
+    let [r, g, b] = lin;
+    let l = (0.412_221_470_8 * r + 0.536_332_536_3 * g + 0.051_445_992_9 * b).cbrt();
+    let m = (0.211_903_498_2 * r + 0.680_699_545_1 * g + 0.107_396_956_6 * b).cbrt();
+    let s = (0.088_302_461_9 * r + 0.281_718_837_6 * g + 0.629_978_700_5 * b).cbrt();
+    (
+        0.210_454_255_3 * l + 0.793_617_785_0 * m - 0.004_072_046_8 * s,
+        1.977_998_495_1 * l - 2.428_592_205_0 * m + 0.450_593_709_9 * s,
+        0.025_904_037_1 * l + 0.782_771_766_2 * m - 0.808_675_766_0 * s,
+    )
 }
 
 /// A diverging map for signed values, t ∈ [−1, 1]: blue for negative, orange
@@ -112,14 +134,34 @@ mod tests {
         assert_eq!(oklab_to_srgb(0.0, 0.0, 0.0), [0, 0, 0]);
     }
 
+    /// The two conversions invert each other to within a byte's rounding.
     #[test]
-    fn sequential_map_gets_lighter() {
-        let luma = |c: [u8; 3]| 0.2126 * c[0] as f64 + 0.7152 * c[1] as f64 + 0.0722 * c[2] as f64;
+    fn oklab_round_trips() {
+        for c in [[0u8, 0, 0], [255, 255, 255], [200, 30, 90], [12, 140, 250], [128, 128, 0]] {
+            let (l, a, b) = srgb_to_oklab(c);
+            let back = oklab_to_srgb(l, a, b);
+            assert!(c.iter().zip(back).all(|(x, y)| x.abs_diff(y) <= 1), "{c:?} -> {back:?}");
+        }
+        // Ottosson (2020) gives L = 1 for white and L = 0 for black.
+        assert!((srgb_to_oklab([255, 255, 255]).0 - 1.0).abs() < 1e-3);
+    }
+
+    /// The heat map's lightness, measured back in Oklab from the bytes drawn,
+    /// rises monotonically and stays within 0.01 of the straight line from
+    /// 0.22 to 0.93 (no channel clipped out of gamut); its hue stays warm
+    /// (a > 0 through the middle), unlike blue–green–yellow maps.
+    #[test]
+    fn sequential_map_lightness_is_monotonic_and_linear_in_oklab() {
         let mut last = -1.0;
-        for k in 0..=20 {
-            let y = luma(sequential(k as f64 / 20.0));
-            assert!(y > last, "step {k}");
-            last = y;
+        for k in 0..=100 {
+            let t = k as f64 / 100.0;
+            let (l, a, _) = srgb_to_oklab(sequential(t));
+            assert!(l > last, "lightness falls at t = {t}");
+            assert!((l - (0.22 + 0.71 * t)).abs() < 0.01, "t = {t}: L = {l}");
+            if (0.1..=0.8).contains(&t) {
+                assert!(a > 0.0, "t = {t}: a = {a}");
+            }
+            last = l;
         }
     }
 

@@ -170,34 +170,59 @@ pub fn scale_bar_um(length_um: f64) -> f64 {
     [1.0, 2.0, 5.0, 10.0].iter().map(|m| m * p).filter(|v| *v <= target * 1.5).fold(p, f64::max)
 }
 
-/// Draws the legend: a swatch and the name of each shown gene, from (x, y) rightwards.
-pub fn legend(canvas: &mut Canvas, rec: &Recording, style: &Style, x: f32, y: f32, align_right: bool) {
+/// The gene key, right- or left-aligned at `x`, baseline `y`. Given the
+/// levels that full colour stands for (`maxima`, by gene), each name says its
+/// range ("amber 0–1.2"), and a heat map gets a colour bar numbered from 0 to
+/// its gene's maximum; without them (a line plot, whose axis gives levels),
+/// names only.
+pub fn legend(canvas: &mut Canvas, rec: &Recording, style: &Style, x: f32, y: f32, align_right: bool, maxima: Option<&[f64]>) {
     let size = 14.0;
-    if style.heatmap {
-        // A colour bar: 0 to the gene's maximum.
-        let name = format!("{}: 0", rec.genes[style.genes[0]]);
+    let ink = style.background.ink();
+    if let (true, Some(max)) = (style.heatmap, maxima) {
+        let g = style.genes[0];
+        let name = format!("{}: 0", rec.genes[g]);
+        let top = level_text(max[g]);
         let (bar_w, gap) = (120.0, 6.0);
-        let total = Canvas::text_width(size, &name) + gap + bar_w + gap + Canvas::text_width(size, "max");
+        let total = Canvas::text_width(size, &name) + gap + bar_w + gap + Canvas::text_width(size, &top);
         let left = if align_right { x - total } else { x };
-        let ink = style.background.ink();
         canvas.text(left, y, size, ink, Align::Left, &name);
         let bar_left = left + Canvas::text_width(size, &name) + gap;
         for k in 0..bar_w as u32 {
             canvas.rect(bar_left + k as f32, y - 11.0, 1.0, 12.0, colour::sequential(k as f64 / (bar_w - 1.0) as f64));
         }
-        canvas.text(bar_left + bar_w + gap, y, size, ink, Align::Left, "max");
+        canvas.text(bar_left + bar_w + gap, y, size, ink, Align::Left, &top);
         return;
     }
-
-    let items: Vec<(&str, [u8; 3])> = style.genes.iter().map(|&g| (rec.genes[g].as_str(), style.colors[g])).collect();
+    let items: Vec<(String, [u8; 3])> = style
+        .genes
+        .iter()
+        .map(|&g| {
+            let name = match maxima {
+                Some(max) => format!("{} 0–{}", rec.genes[g], level_text(max[g])),
+                None => rec.genes[g].clone(),
+            };
+            (name, style.colors[g])
+        })
+        .collect();
     let widths: Vec<f32> = items.iter().map(|(n, _)| 18.0 + Canvas::text_width(size, n) + 14.0).collect();
     let total: f32 = widths.iter().sum();
     let mut pen = if align_right { x - total } else { x };
     for ((name, c), w) in items.iter().zip(widths) {
         canvas.rect(pen, y - 11.0, 12.0, 12.0, *c);
-        canvas.text(pen + 17.0, y, size, style.background.ink(), Align::Left, name);
+        canvas.text(pen + 17.0, y, size, ink, Align::Left, name);
         pen += w;
     }
+}
+
+/// A level for a key: three significant figures, plainly written between
+/// 0.01 and 10⁴, in e-notation outside.
+pub fn level_text(v: f64) -> String {
+    if v != 0.0 && !(0.01..1e4).contains(&v.abs()) {
+        return format!("{v:.2e}");
+    }
+    let digits = (2 - v.abs().max(1e-300).log10().floor() as i32).clamp(0, 4) as usize;
+    let text = format!("{v:.digits$}");
+    if text.contains('.') { text.trim_end_matches('0').trim_end_matches('.').to_string() } else { text }
 }
 
 /// Formats a time for labels: whole minutes without decimals.

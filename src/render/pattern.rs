@@ -128,6 +128,6 @@ pub fn pattern(
     c.text(width as f32 - margin, 28.0, 18.0, ink, Align::Right, &clock);
     c.text(width as f32 - margin, 48.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
     let h = c.height() as f32;
-    legend(&mut c, rec, style, width as f32 - margin, h - 18.0, true);
+    legend(&mut c, rec, style, width as f32 - margin, h - 18.0, true, Some(max));
     Ok((c, layout))
 }

@@ -97,6 +97,6 @@ pub fn profiles_with_axes(
     let note =
         format!("t = {} min (dashed, fainter = earlier); dotted lines: boundaries at the last time", times.join(", "));
     c.text(left, c.height() as f32 - 12.0, 12.0, bg.muted(), Align::Left, &note);
-    legend(&mut c, rec, style, width as f32 - right, LEGEND_LINE, true);
+    legend(&mut c, rec, style, width as f32 - right, LEGEND_LINE, true, None);
     Ok((c, a))
 }

@@ -402,8 +402,13 @@ pub fn write_replicates(
 ) -> Result<ReplicateReport, WriteError> {
     use crate::replicates::{self, Sources, pass};
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
+    // Every embryo of every set runs before any table is written, so that a
+    // set that fails leaves the folder as it was: the embryos' table goes to
+    // a side file first and takes its name with the others.
+    let rows = dir.join("embryo_boundaries.csv");
+    let pending = dir.join(".embryo_boundaries.csv.pending");
     let mut outcome = None;
-    let written = export::write_atomic(&dir.join("embryo_boundaries.csv"), |w| {
+    let written = export::write_atomic(&pending, |w| {
         let mut failed = export::embryo_header(w).err();
         let r = replicates::run_with(embryos, pass::ALL, model, job.n, &Sources::all(model), progress, &mut |i, bs| {
             if failed.is_none()
@@ -427,6 +432,37 @@ pub fn write_replicates(
         (Some(Ok(all)), Ok(())) => all,
         (None, Ok(())) => unreachable!("the table's body ran"),
     };
+    let reruns = (|| -> Result<_, WriteError> {
+        let shares =
+            if job.attribute { replicates::attribute_with(embryos, model, job.n, &all, progress)? } else { Vec::new() };
+        let step = if job.check_step {
+            replicates::halved_step_with(embryos, model, job.n, &all, progress)?
+        } else {
+            Vec::new()
+        };
+        // The mutant's embryos in the pairing are those of every source on.
+        let shifts = match wild_type {
+            Some((name, w)) => replicates::paired_shifts_with(
+                embryos,
+                w,
+                &[(name.to_string(), model.clone())],
+                &[pass::ALL.to_string()],
+                job.n,
+                progress,
+            )?,
+            None => Vec::new(),
+        };
+        let runs = if job.animate > 0 { replicates::recordings(model, job.animate)? } else { Vec::new() };
+        Ok((shares, step, shifts, runs))
+    })();
+    let (shares, step, shifts, runs) = match reruns {
+        Ok(done) => done,
+        Err(e) => {
+            let _ = std::fs::remove_file(&pending);
+            return Err(e);
+        }
+    };
+    std::fs::rename(&pending, &rows).map_err(|source| export::ExportError::Io { path: rows.clone(), source })?;
     export::write_precision(&all, &dir.join("precision.csv"))?;
     // Where these replicates came from, so that `compare --replicates` can
     // refuse them for a run of another model.
@@ -444,22 +480,6 @@ pub fn write_replicates(
     })?;
     export::write_widths(&all, &dir.join("widths.csv"))?;
     export::write_decoding(&all, &dir.join("decoding.csv"))?;
-    let shares =
-        if job.attribute { replicates::attribute_with(embryos, model, job.n, &all, progress)? } else { Vec::new() };
-    let step =
-        if job.check_step { replicates::halved_step_with(embryos, model, job.n, &all, progress)? } else { Vec::new() };
-    // The mutant's embryos in the pairing are those of every source on.
-    let shifts = match wild_type {
-        Some((name, w)) => replicates::paired_shifts_with(
-            embryos,
-            w,
-            &[(name.to_string(), model.clone())],
-            &[pass::ALL.to_string()],
-            job.n,
-            progress,
-        )?,
-        None => Vec::new(),
-    };
     if wild_type.is_some() {
         export::write_shifts_over_embryos(&shifts, &dir.join("shift.csv"))?;
     }
@@ -481,7 +501,6 @@ pub fn write_replicates(
     let bands = render::boundary_bands(&all, style);
     export::write_atomic(&dir.join("boundary_bands.png"), |w| w.write_all(&bands.png()?))?;
     if job.animate > 0 {
-        let runs = replicates::recordings(model, job.animate)?;
         let columns = (job.animate as f64).sqrt().ceil() as usize;
         let styles: Vec<render::Style> = (0..runs.len())
             .map(|i| render::Style {

@@ -650,3 +650,31 @@ fn a_screen_with_replicates_sharded_in_three_merges_into_the_same_bytes() {
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     same_files(&whole, &sharded, &["shifts.csv", "replicate_shifts.csv", "shifts.png"]);
 }
+
+/// A knocked-out gene with additive noise fluctuates about zero; it keeps
+/// its wild type's expression floor (5 % of p/d), so the noise is not read
+/// as boundaries (before, a knock-out's floor was 0 and every wiggle of the
+/// noise crossed "half of its maximum").
+#[test]
+fn a_knocked_out_gene_s_noise_is_not_read_as_boundaries() {
+    let dir = temp_dir("replicates-knockout");
+    let model = dir.join("m.toml");
+    // The default boundary level, half of the gene's highest level: a fixed
+    // absolute level would hide the problem.
+    let text = noisy_with_mutant().replace("boundary_level = { absolute = 0.5 }\n", "");
+    assert!(!text.contains("boundary_level"));
+    std::fs::write(&model, text).unwrap();
+    let m = model.to_str().unwrap();
+    let rows = |extra: &[&str], out: &str| {
+        let out = dir.join(out);
+        let mut args = vec!["replicates", m, "-n", "12", "-o", out.to_str().unwrap()];
+        args.extend_from_slice(extra);
+        let o = anlage(&args);
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        // Final rows only (the noisy initial levels have crossings of their own at t = 0).
+        let text = std::fs::read_to_string(out.join("embryo_boundaries.csv")).unwrap();
+        text.lines().skip(1).filter(|l| l.split(',').nth(1) == Some("12")).count()
+    };
+    assert!(rows(&[], "wild") >= 12, "the wild type has its boundary in every embryo");
+    assert_eq!(rows(&["--mutant", "{ name = \"ko\", knock_out = [\"quill\"] }"], "ko"), 0);
+}

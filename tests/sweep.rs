@@ -324,3 +324,37 @@ fn a_shard_stopped_by_sigterm_saves_its_points_and_finishes_when_run_again() {
         assert!(std::fs::read(whole.join(name)).unwrap() == std::fs::read(sharded.join(name)).unwrap(), "{name}");
     }
 }
+
+/// A shard's identity covers what the model reads from other files: shards
+/// run before and after an `initial_file` changed are not merged (the merge
+/// would mix two models), and a complete shard is run again for the new file.
+#[test]
+fn shards_of_another_initial_file_are_refused() {
+    use ndarray_npy::WriteNpyExt;
+    let dir = temp_dir("sweep-initial-file");
+    let model = dir.join("m.toml");
+    std::fs::write(
+        &model,
+        "[tissue]\nnuclei = [20]\nspacing_um = 5.0\n[clock]\nuntil_min = 5.0\nstep_min = 0.05\nsnapshot_every_min = 5.0\n\
+         [[gene]]\nname = \"wren\"\nproduction = 1.0\ndecay = 1.0\ndiffusion = 1.0\ninitial_file = \"start.npy\"\n",
+    )
+    .unwrap();
+    let start = |peak: f64| {
+        let v = ndarray::Array1::from_shape_fn(20, |i| peak * i as f64 / 19.0);
+        v.write_npy(std::fs::File::create(dir.join("start.npy")).unwrap()).unwrap();
+    };
+    let out = dir.join("out");
+    let run = |extra: &str| {
+        anlage(&["sweep", model.to_str().unwrap(), "--axis", "wren.decay=0.5:2:4", extra, "-o", out.to_str().unwrap()])
+    };
+    start(3.0);
+    assert!(run("--shard=1/2").status.success());
+    start(5.0);
+    assert!(run("--shard=2/2").status.success());
+    let o = run("--merge");
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("initial_file"), "{}", String::from_utf8_lossy(&o.stderr));
+    let again = run("--shard=1/2");
+    assert!(!String::from_utf8_lossy(&again.stdout).contains("already complete"), "the shard ran again");
+    assert!(run("--merge").status.success());
+}

@@ -137,6 +137,17 @@ pub fn stop_flag() -> anyhow::Result<Arc<AtomicBool>> {
 pub fn report_shards(ran: &[(Ran, &Job)], shard: Shard, dir: &Path, json: bool) -> anyhow::Result<()> {
     for &(r, job) in ran {
         if let Ran::Stopped { done, of } = r {
+            if json {
+                let value = serde_json::json!({
+                    "kind": job.kind,
+                    "shard": format!("{}/{}", shard.k, shard.n),
+                    "file": job.file(dir, shard).display().to_string(),
+                    "status": "stopped",
+                    "items": of,
+                    "saved": done,
+                });
+                println!("{}", serde_json::to_string_pretty(&value)?);
+            }
             anyhow::bail!(
                 "shard {}/{} stopped by a signal: {done} of {of} items saved in {}; run the same command again to finish it",
                 shard.k,

@@ -139,7 +139,9 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
             if let Some((passes, embryos)) = &embryo_job
                 && !matches!(ran[0].0, anlage::shard::Ran::Stopped { .. })
             {
-                ran.push((anlage::replicates::shard::run_shard(passes, embryos, shard, &dir, &stop, &bar)?, embryos));
+                let (r, failed) = anlage::replicates::shard::run_shard(passes, embryos, shard, &dir, &stop, &bar)?;
+                note_failed(failed);
+                ran.push((r, embryos));
             }
             return super::cluster::report_shards(&ran, shard, &dir, *json);
         }
@@ -167,10 +169,15 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
         let _ = std::fs::remove_file(dir.join("epistasis.csv"));
     }
     let paired = match replicates {
-        Some(n) => Some(
-            anlage::write_screen_replicates(&model, &list, *n, &dir, embryo_source(saved_embryos.as_ref()), &bar)
-                .with_context(|| format!("replicates of the screen of {}", path.display()))?,
-        ),
+        Some(n) => {
+            let rows =
+                anlage::write_screen_replicates(&model, &list, *n, &dir, embryo_source(saved_embryos.as_ref()), &bar);
+            if rows.is_err() {
+                // A table from an earlier screen must not stand beside this one's shifts.
+                let _ = std::fs::remove_file(dir.join(anlage::SCREEN_REPLICATES));
+            }
+            Some(rows.with_context(|| format!("replicates of the screen of {}", path.display()))?)
+        }
         None => {
             // A table from an earlier screen with replicates must not pass for this one's.
             let _ = std::fs::remove_file(dir.join(anlage::SCREEN_REPLICATES));
@@ -351,7 +358,13 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
         *check_step,
         name.as_ref().map(|_| &wild_type),
     );
-    let mutant_words = name.as_ref().map_or_else(|| "no mutant".into(), |m| format!("mutant {}: {:?}", m.name, m.edits));
+    let mutant_words = name.as_ref().map_or_else(
+        || "no mutant".into(),
+        |m| {
+            let edits: Vec<String> = m.edits.iter().map(|e| wild_type.describe_edit(e)).collect();
+            format!("mutant {}: {}", m.name, edits.join(", "))
+        },
+    );
     let shard_job = anlage::replicates::shard::job(
         "replicates",
         &wild_type,
@@ -365,7 +378,8 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
         Mode::Slurm => return super::cluster::write_slurm(cluster, &dir, *json),
         Mode::Shard(shard) => {
             let stop = super::cluster::stop_flag()?;
-            let ran = anlage::replicates::shard::run_shard(&passes, &shard_job, shard, &dir, &stop, &bar)?;
+            let (ran, failed) = anlage::replicates::shard::run_shard(&passes, &shard_job, shard, &dir, &stop, &bar)?;
+            note_failed(failed);
             return super::cluster::report_shards(&[(ran, &shard_job)], shard, &dir, *json);
         }
         Mode::Merge => Some(anlage::replicates::shard::merge(&shard_job, &dir)?),
@@ -400,5 +414,16 @@ fn embryo_source(saved: Option<&anlage::replicates::shard::Saved>) -> &dyn anlag
     match saved {
         Some(s) => s,
         None => &anlage::replicates::Simulated,
+    }
+}
+
+/// Says on standard error that embryos of a shard failed, and what follows.
+fn note_failed((count, first): anlage::replicates::shard::Failed) {
+    if let Some((i, set, why)) = first {
+        eprintln!(
+            "anlage: warning: {count} embryo run(s) of this shard failed (first: embryo {i}, set `{set}`: {why}); \
+             they are saved as failed, and the merge will refuse the set as an unsharded run would — make the noise \
+             smaller or the steps safer"
+        );
     }
 }

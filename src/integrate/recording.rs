@@ -98,7 +98,8 @@ pub struct ReadBackError {
 }
 
 /// Fraction of a gene's capacity p/d (its steady level at full production)
-/// below which it counts as not expressed (common practice, no source).
+/// below which it counts as not expressed (common practice, no source). A
+/// knocked-out gene keeps its wild type's capacity here.
 pub const EXPRESSION_FLOOR: f64 = 0.05;
 
 impl Recording {
@@ -113,7 +114,10 @@ impl Recording {
             model
                 .genes
                 .iter()
-                .map(|g| if g.decay > 0.0 { EXPRESSION_FLOOR * g.production / g.decay } else { 0.0 })
+                .map(|g| {
+                    let p = if g.production > 0.0 { g.production } else { g.knocked_out_production.unwrap_or(0.0) };
+                    if g.decay > 0.0 { EXPRESSION_FLOOR * p / g.decay } else { 0.0 }
+                })
                 .collect(),
         )
         .with_levels(model.genes.iter().map(|g| g.boundary).collect())

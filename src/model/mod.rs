@@ -59,6 +59,22 @@ pub struct Model {
 }
 
 impl Model {
+    /// SHA-256 (hex) of everything the model was read from: its text and
+    /// every gene's initial levels (which may come from an `initial_file`
+    /// that the text only names). Two models with the same digest run alike.
+    pub fn inputs_sha256(&self) -> String {
+        use sha2::{Digest, Sha256};
+        let mut h = Sha256::new();
+        h.update(self.text.as_bytes());
+        for g in &self.genes {
+            match &g.initial {
+                Initial::Uniform(v) => h.update(v.to_le_bytes()),
+                Initial::Profile(p) => p.iter().for_each(|v| h.update(v.to_le_bytes())),
+            }
+        }
+        h.finalize().iter().map(|b| format!("{b:02x}")).collect()
+    }
+
     /// Reads and validates a model file.
     ///
     /// # Errors
@@ -303,6 +319,10 @@ pub struct Gene {
     pub rate: Option<String>,
     /// The level that defines its boundaries and domains (default half of its maximum).
     pub boundary: Level,
+    /// The production p a knock-out took away, a.u./min: the knocked-out
+    /// gene keeps its wild type's expression floor, so that noise about zero
+    /// is not read as expression.
+    pub knocked_out_production: Option<f64>,
 }
 
 /// What regulates a link.

@@ -5,7 +5,7 @@
 use std::ops::Range;
 
 use super::spec::MutantSpec;
-use super::{LinkParam, Model, ModelError, Param, Side, Source};
+use super::{LinkParam, Model, ModelError, Param, Regulator, Side, Source};
 
 /// Extra production of a gene over a region of the axis.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -48,6 +48,37 @@ pub struct Mutant {
 }
 
 impl Model {
+    /// A mutant's change in words, with names and numbers written in full
+    /// (so that two different changes never read the same), e.g.
+    /// `scale wren.production by 0.5`.
+    pub fn describe_edit(&self, e: &Edit) -> String {
+        let gene = |g: usize| self.genes.get(g).map_or_else(|| format!("gene {g}"), |x| x.name.clone());
+        let regulator = |r: &Regulator| match *r {
+            Regulator::Gene(g) => gene(g),
+            Regulator::Gradient(k) => self.gradients.get(k).map_or_else(|| format!("gradient {k}"), |x| x.name.clone()),
+        };
+        match e {
+            Edit::KnockOut(g) => format!("knock out {}", gene(*g)),
+            Edit::RemoveLink(l) => match self.circuit.links.get(*l) {
+                Some(link) => format!("remove the link {} -> {}", regulator(&link.from), gene(link.to)),
+                None => format!("remove link {l}"),
+            },
+            Edit::Scale(p, f) => format!("scale {} by {f:?}", self.param_name(*p)),
+            Edit::Clamp(g, v) => format!("hold {} at {v:?}", gene(*g)),
+            Edit::Ectopic(x) => format!(
+                "express {} ectopically at {:?} a.u./min from {:?} to {:?} µm",
+                gene(x.gene),
+                x.rate,
+                x.from_um,
+                x.to_um
+            ),
+            Edit::Source(k, side) => format!(
+                "move the source of {} to the {side:?} edge",
+                self.gradients.get(*k).map_or_else(|| format!("gradient {k}"), |x| x.name.clone())
+            ),
+        }
+    }
+
     /// The model with a mutant's changes applied (the mutant was checked
     /// against this model). Scales apply first, link removals last.
     pub fn with_mutant(&self, m: &Mutant) -> Model {
@@ -62,7 +93,11 @@ impl Model {
                     }
                 }
                 Edit::KnockOut(g) if out.genes[*g].rate.is_some() => out.clamps[*g] = Some(0.0),
-                Edit::KnockOut(g) => out.genes[*g].production = 0.0,
+                Edit::KnockOut(g) => {
+                    let gene = &mut out.genes[*g];
+                    gene.knocked_out_production.get_or_insert(gene.production);
+                    gene.production = 0.0;
+                }
                 Edit::Clamp(g, level) => out.clamps[*g] = Some(*level),
                 Edit::Ectopic(x) => out.ectopic.push(*x),
                 Edit::Source(k, side) => out.gradients[*k].from = *side,

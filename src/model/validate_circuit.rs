@@ -172,6 +172,7 @@ pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Sou
         bias,
         rate: spec.rate.clone(),
         boundary,
+        knocked_out_production: None,
     })
 }
 

@@ -131,8 +131,13 @@ pub fn job(kind: &'static str, model: &Model, passes: &[Pass], settings: Vec<Str
     Job::new(kind, model, settings, n, rerun)
 }
 
+/// Embryos of a shard that failed: how many, and the first (embryo, set, why).
+pub type Failed = (usize, Option<(usize, String, String)>);
+
 /// Runs shard `shard` of `job`: every set of `passes` for each of its
-/// embryos, into `dir` ([`crate::shard::run`]).
+/// embryos, into `dir` ([`crate::shard::run`]). A failed embryo is saved as
+/// such (the merge refuses the set, as an unsharded run would) and counted
+/// in the [`Failed`] returned.
 ///
 /// # Errors
 /// [`ShardError::Bad`] if the file cannot be written.
@@ -143,16 +148,26 @@ pub fn run_shard(
     dir: &Path,
     stop: &AtomicBool,
     progress: &dyn Progress,
-) -> Result<Ran, ShardError> {
-    crate::shard::run(job, shard, dir, stop, "embryos", progress, |i| -> SavedEmbryo {
+) -> Result<(Ran, Failed), ShardError> {
+    let failed = std::sync::Mutex::new((0usize, None));
+    let ran = crate::shard::run(job, shard, dir, stop, "embryos", progress, |i| -> SavedEmbryo {
         passes
             .iter()
             .map(|p| {
-                let r = read_one(&embryo(&p.model, i, &p.sources));
-                (p.label.clone(), r.as_ref().map(save).map_err(ToString::to_string))
+                let r = read_one(&embryo(&p.model, i, &p.sources)).map_err(|e| e.to_string());
+                if let Err(why) = &r {
+                    let mut f = failed.lock().unwrap_or_else(std::sync::PoisonError::into_inner);
+                    f.0 += 1;
+                    // The lowest embryo, as the merge would report it.
+                    if f.1.as_ref().is_none_or(|(j, _, _)| i < *j) {
+                        f.1 = Some((i, p.label.clone(), why.clone()));
+                    }
+                }
+                (p.label.clone(), r.as_ref().map(save).map_err(Clone::clone))
             })
             .collect()
-    })
+    })?;
+    Ok((ran, failed.into_inner().unwrap_or_else(std::sync::PoisonError::into_inner)))
 }
 
 /// Embryos saved by the shards of a job: they stand in for the simulations

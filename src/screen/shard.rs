@@ -20,7 +20,10 @@ use super::SensitivityRow;
 /// Each mutant's name and changes are part of the job: shards of another
 /// list are refused.
 pub fn job(model: &Model, mutants: &[Mutant], rerun: String) -> Job {
-    let settings = mutants.iter().map(|m| format!("{}: {:?}", m.name, m.edits)).collect();
+    let settings = mutants
+        .iter()
+        .map(|m| format!("{}: {}", m.name, m.edits.iter().map(|e| model.describe_edit(e)).collect::<Vec<_>>().join(", ")))
+        .collect();
     Job::new("screen", model, settings, mutants.len(), rerun)
 }
 

@@ -102,8 +102,9 @@ impl Shard {
 pub struct Job {
     /// What the items are, also the shard files' prefix ("sweep", "screen").
     pub kind: &'static str,
-    /// SHA-256 of the model text.
-    pub model_text_sha256: String,
+    /// SHA-256 of the model text and of what it reads from other files
+    /// ([`crate::model::Model::inputs_sha256`]).
+    pub model_sha256: String,
     /// The model file, for messages.
     pub model_file: String,
     /// Everything else the items depend on, in words (axes, mutants, step).
@@ -125,7 +126,7 @@ impl Job {
     ) -> Job {
         Job {
             kind,
-            model_text_sha256: crate::replicates::text_sha256(&model.text),
+            model_sha256: model.inputs_sha256(),
             model_file: model.file.display().to_string(),
             settings,
             total,
@@ -139,6 +140,20 @@ impl Job {
     }
 }
 
+/// This build's version, written into every shard file.
+pub const VERSION: &str = env!("CARGO_PKG_VERSION");
+
+/// At most this many characters of a setting are quoted in a message.
+const QUOTE: usize = 160;
+
+/// `text`, cut to [`QUOTE`] characters with "…" when longer.
+fn quoted(text: &str) -> String {
+    match text.char_indices().nth(QUOTE) {
+        Some((cut, _)) => format!("{}…", &text[..cut]),
+        None => text.to_string(),
+    }
+}
+
 /// How often a running shard saves what it has finished.
 pub const SAVE_EVERY: Duration = Duration::from_secs(2);
 
@@ -147,7 +162,9 @@ pub const SAVE_EVERY: Duration = Duration::from_secs(2);
 #[derive(Debug, Clone, Serialize, Deserialize)]
 struct ShardFile<I> {
     kind: String,
-    model_text_sha256: String,
+    /// The anlage version that ran it: shards of two versions are not merged.
+    anlage: String,
+    model_sha256: String,
     model_file: String,
     settings: Vec<String>,
     k: usize,
@@ -169,25 +186,46 @@ impl<I> ShardFile<I> {
         if self.kind != job.kind {
             return Some(format!("a {} shard, not a {} shard", self.kind, job.kind));
         }
-        if self.model_text_sha256 != job.model_text_sha256 {
+        if self.anlage != VERSION {
             return Some(format!(
-                "made from another text of the model (this shard ran on {} as it was then; {} has changed since): \
-                 restore the model file, or delete the shards and run them again",
+                "made by anlage {}, and this is anlage {VERSION}: run every shard with one version \
+                 (delete the shards and run them again)",
+                self.anlage
+            ));
+        }
+        if self.model_sha256 != job.model_sha256 {
+            return Some(format!(
+                "made from another model (this shard ran on {} and the files it reads as they were then; \
+                 {} or a file it reads, such as an initial_file, has changed since): restore them, \
+                 or delete the shards and run them again",
                 self.model_file, job.model_file
             ));
         }
         if self.settings != job.settings {
-            let (theirs, ours) = self
-                .settings
-                .iter()
-                .zip(&job.settings)
-                .find(|(a, b)| a != b)
-                .map_or_else(|| (self.settings.join(" "), job.settings.join(" ")), |(a, b)| (a.clone(), b.clone()));
-            return Some(format!(
-                "made with other settings: `{theirs}` where this {} has `{ours}`; give the options the shards ran with, \
-                 or delete the shards and run them again",
-                job.kind
-            ));
+            let fix = "give the options the shards ran with, or delete the shards and run them again";
+            let differs = match self.settings.iter().zip(&job.settings).find(|(a, b)| a != b) {
+                Some((theirs, ours)) => format!(
+                    "made with other settings: `{}` where this {} has `{}`",
+                    quoted(theirs),
+                    job.kind,
+                    quoted(ours)
+                ),
+                None if self.settings.len() > job.settings.len() => format!(
+                    "made with more settings than this {} ({} against {}), the first extra being `{}`",
+                    job.kind,
+                    self.settings.len(),
+                    job.settings.len(),
+                    quoted(&self.settings[job.settings.len()])
+                ),
+                None => format!(
+                    "made with fewer settings than this {} ({} against {}): it lacks `{}`",
+                    job.kind,
+                    self.settings.len(),
+                    job.settings.len(),
+                    quoted(&job.settings[self.settings.len()])
+                ),
+            };
+            return Some(format!("{differs}; {fix}"));
         }
         if self.total != job.total {
             return Some(format!("a job of {} items where this one has {}", self.total, job.total));
@@ -319,7 +357,8 @@ fn save<T: Serialize>(
     let complete = items.len() == shard.items(job.total).count();
     let file = ShardFile {
         kind: job.kind.to_string(),
-        model_text_sha256: job.model_text_sha256.clone(),
+        anlage: VERSION.to_string(),
+        model_sha256: job.model_sha256.clone(),
         model_file: job.model_file.clone(),
         settings: job.settings.clone(),
         k: shard.k,
@@ -384,6 +423,13 @@ pub fn merge<T: DeserializeOwned>(job: &Job, dir: &Path) -> Result<Vec<T>, Shard
             }
             Err(e) => return Err(e),
         };
+        if s.k == 0 || s.k > n || name_k_of_n(&path, job.kind).is_some_and(|named| named != (s.k, s.n)) {
+            // Renamed, copied or edited by hand: it cannot stand for the shard its name says.
+            let named = name_k_of_n(&path, job.kind).map_or(k, |(named, _)| named);
+            by_k.resize_with(n.max(named), || None);
+            why.push((named, format!("the file holds shard {}/{}, not the one its name says", s.k, s.n)));
+            continue;
+        }
         if let Some(differs) = s.differs_from(job) {
             return Err(bad(differs));
         }
@@ -481,7 +527,7 @@ mod tests {
     fn job(total: usize) -> Job {
         Job {
             kind: "test",
-            model_text_sha256: "abc".into(),
+            model_sha256: "abc".into(),
             model_file: "m.toml".into(),
             settings: vec!["x".into()],
             total,
@@ -633,7 +679,7 @@ mod tests {
         let err = merge::<usize>(&other, dir.path()).unwrap_err();
         assert!(err.to_string().contains("`x` where this test has `y`"), "{err}");
         let mut other = job(5);
-        other.model_text_sha256 = "def".into();
+        other.model_sha256 = "def".into();
         let err = merge::<usize>(&other, dir.path()).unwrap_err();
         assert!(err.to_string().contains("another text of the model"), "{err}");
     }

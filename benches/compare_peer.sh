@@ -11,7 +11,8 @@
 # all steps and the checksum, without interpreter or process start-up; the
 # best of several repeats in one process (the peer's --repeat, anlage's
 # run --timing --repeat). Peak memory is the whole process (GNU time's
-# "Maximum resident set size"), interpreter and libraries included.
+# "Maximum resident set size"), interpreter and libraries included. The
+# binary is taken from $CARGO_TARGET_DIR when that is set (as cargo builds it).
 set -euo pipefail
 cd "$(dirname "$0")/.."
 peer=${PEER:-../shared/peer/peer_numpy.py}
@@ -22,7 +23,7 @@ if [ "$quick" = quick ]; then p2_steps=100; repeats=2; fi
 work=benches/peer
 cargo build --release --quiet
 cargo run --release --quiet --example peer_models -- "$work" p1:100:1000 p1:100000:1000 "p2:512:$p2_steps" >/dev/null
-exe=target/release/anlage
+exe=${CARGO_TARGET_DIR:-target}/release/anlage
 out=$(mktemp -d)
 trap 'rm -rf "$out"' EXIT
 

@@ -37,6 +37,8 @@ pub enum PictureKind {
     All,
     /// `kymograph.png` (rows only).
     Kymograph,
+    /// `boundary_positions.png`, boundary position against time (rows only).
+    Boundaries,
     /// `pattern.png`, the final state.
     Pattern,
     /// `profiles.png`.
@@ -45,8 +47,9 @@ pub enum PictureKind {
     Animation,
 }
 
-/// Draws pictures of a recording into `dir`: `kymograph.png` (rows),
-/// `pattern.png`, `profiles.png` and `pattern.gif`; returns the files written.
+/// Draws pictures of a recording into `dir`: `kymograph.png` and
+/// `boundary_positions.png` (rows), `pattern.png`, `profiles.png` and
+/// `pattern.gif`; returns the files written.
 ///
 /// # Errors
 /// [`export::ExportError`] if a file cannot be written.
@@ -71,6 +74,9 @@ pub fn write_pictures(
     };
     if wants(PictureKind::Kymograph) && !rec.grid.is_sheet() {
         png("kymograph.png", render::kymograph(rec, boundaries, style)?.0)?;
+    }
+    if wants(PictureKind::Boundaries) && !rec.grid.is_sheet() {
+        png("boundary_positions.png", render::boundary_positions(rec, boundaries, style)?.0)?;
     }
     if wants(PictureKind::Pattern) {
         let max = render::gene_maxima(rec, &snaps)?;

@@ -182,7 +182,7 @@ fn sigterm_saves_a_checkpoint_and_stops_cleanly() {
     // The ribbon with tiny fixed steps: a run of a few seconds.
     let text = std::fs::read_to_string(root().join("patterns/ribbon.toml")).unwrap();
     let model = base.join("slow.toml");
-    std::fs::write(&model, text.replace("tolerance = 1e-6 ", "step_min = 0.0005 ")).unwrap();
+    std::fs::write(&model, text.replace("tolerance = 1e-6 ", "step_min = 0.0001 ")).unwrap();
     let exe = env!("CARGO_BIN_EXE_anlage");
     let m = model.to_str().unwrap();
     assert!(Command::new(exe).args(["run", m, "-q", "-o", full.to_str().unwrap()]).status().unwrap().success());

@@ -28,8 +28,10 @@ fn gif_and_pngs_decode() {
     assert_eq!(dec.repeat(), gif::Repeat::Infinite);
     let mut count = 0;
     while let Some(f) = dec.read_next_frame().unwrap() {
-        assert_eq!(f.delay, 10, "10 frames per second");
         count += 1;
+        // 10 frames per second, and a hold of 2 s on the last frame.
+        let want = if count == rec.times.len() { 200 } else { 10 };
+        assert_eq!(f.delay, want, "frame {count}");
     }
     assert_eq!(count, rec.times.len());
     let boundaries = find_boundaries(&rec).unwrap();
@@ -115,6 +117,40 @@ fn kymograph_trace_sits_on_the_boundary() {
         checked += 1;
     }
     assert!(checked >= 20);
+}
+
+/// The boundary-position plot draws amber's track at the positions of the
+/// boundary table (within a pixel and a half, at times 80–200 min), and
+/// nothing before the gene is expressed: at t = 2 min, when amber is still
+/// below a quarter of its highest level, its column is empty.
+#[test]
+fn boundary_position_plot_follows_the_table() {
+    let rec = ribbon();
+    let boundaries = find_boundaries(&rec).unwrap();
+    let opts = anlage::render::StyleOptions { genes: Some(vec!["amber".into()]), ..Default::default() };
+    let style = Style::with_options(&rec, "t", &opts).unwrap();
+    let amber = style.colors[rec.genes.iter().position(|g| g == "amber").unwrap()];
+    let (canvas, a) = render::boundary_positions(&rec, &boundaries, &style).unwrap();
+    // Amber, perhaps dimmed by anti-aliasing: its hue (g/r) at half its brightness or more.
+    let near = |c: [u8; 3]| {
+        let (r, g, b) = (c[0] as f64, c[1] as f64, c[2] as f64);
+        r >= 0.5 * amber[0] as f64 && (g / r - amber[1] as f64 / amber[0] as f64).abs() < 0.08 && b < 40.0
+    };
+    let mut checked = 0;
+    for b in boundaries.iter().filter(|b| b.gene == "amber" && b.time_min >= 80.0 && b.time_min <= 200.0) {
+        let (x, y) = (a.px(b.time_min).round() as i32, a.py(b.position_pct));
+        assert!(
+            (-1..=1).any(|d| near(canvas.get(x as u32, (y + d as f32).round() as u32))),
+            "no track at t = {}, {:.2} %: {:?}",
+            b.time_min,
+            b.position_pct,
+            (-4..=4).map(|d| canvas.get(x as u32, (y + d as f32).round() as u32)).collect::<Vec<_>>()
+        );
+        checked += 1;
+    }
+    assert!(checked >= 20);
+    let early = a.px(2.0).round() as u32;
+    assert!((a.top as u32..(a.top + a.height) as u32).all(|y| !near(canvas.get(early, y))), "a track at t = 2 min");
 }
 
 /// The scale bar's length in pixels matches its µm label on the embryo's scale.

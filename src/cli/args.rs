@@ -527,6 +527,8 @@ pub enum KindArg {
     All,
     /// `kymograph.png` (rows only).
     Kymograph,
+    /// `boundary_positions.png`: boundary position against time (rows only).
+    Boundaries,
     /// `pattern.png`, the final state.
     Pattern,
     /// `profiles.png`.
@@ -540,6 +542,7 @@ impl From<KindArg> for anlage::PictureKind {
         match k {
             KindArg::All => anlage::PictureKind::All,
             KindArg::Kymograph => anlage::PictureKind::Kymograph,
+            KindArg::Boundaries => anlage::PictureKind::Boundaries,
             KindArg::Pattern => anlage::PictureKind::Pattern,
             KindArg::Profiles => anlage::PictureKind::Profiles,
             KindArg::Animation => anlage::PictureKind::Animation,

@@ -84,7 +84,15 @@ pub fn write_grid_gif(
     write_frames(frames, out)
 }
 
-pub(super) fn write_frames(frames: Vec<gif::Frame<'static>>, out: &mut dyn Write) -> std::io::Result<usize> {
+/// The last frame of every animation stays this long, in hundredths of a
+/// second, before the loop starts again, so that the final pattern can be
+/// read in a talk (common practice, no source).
+pub const LAST_FRAME_HOLD_CS: u16 = 200;
+
+pub(super) fn write_frames(mut frames: Vec<gif::Frame<'static>>, out: &mut dyn Write) -> std::io::Result<usize> {
+    if let Some(last) = frames.last_mut() {
+        last.delay = last.delay.max(LAST_FRAME_HOLD_CS);
+    }
     let (w, h) = frames.first().map_or((1, 1), |f| (f.width, f.height));
     let mut enc = gif::Encoder::new(out, w, h, &[]).map_err(std::io::Error::other)?;
     enc.set_repeat(gif::Repeat::Infinite).map_err(std::io::Error::other)?;

@@ -5,6 +5,7 @@ use super::axes::{self, Axes};
 use super::canvas::Canvas;
 use super::{Style, gene_maxima, legend, level_at, title_and_label};
 use crate::integrate::{ReadBackError, Recording};
+use super::tracks::Segment;
 use crate::readout::Boundary;
 
 /// Where things are on a kymograph, for callers that annotate or check it.
@@ -40,13 +41,8 @@ pub fn kymograph(
             style.genes.iter().zip(&profiles[k]).map(|(&g, p)| level_at(p, rec.grid.spacing_um, x_um) / max[g]),
         )
     });
-    // A gene is expressed at snapshot k once its highest level there reaches
-    // EXPRESSED of its highest over the shown snapshots.
-    let expressed = |j: usize, k: usize| {
-        let top = profiles[k][j].iter().copied().fold(0.0, f64::max);
-        top >= EXPRESSED * max[style.genes[j]]
-    };
-    trace_boundaries(&mut c, &a, rec, boundaries, style, length, &times, &expressed);
+    let segments = super::tracks::tracks(rec, boundaries, style)?;
+    draw_tracks(&mut c, &segments, style, |(t, x)| (a.px(x), a.py(t)));
     let right = c.width() as f32 - 24.0;
     legend(&mut c, rec, style, right, 50.0, true, Some(&max));
 
@@ -101,81 +97,24 @@ fn nearest(times: &[f64], t: f64) -> usize {
     }
 }
 
-/// A boundary is traced on the kymograph only where its gene's highest level
-/// is at least this fraction of the gene's highest over the shown times: the
-/// crossings of a gene that is barely on are those of a nearly flat profile,
-/// and wander (common practice, no source).
-pub const EXPRESSED: f64 = 0.25;
-
-/// A boundary wider than this fraction of the axis (its width: the gene's
-/// maximum over the slope at the crossing) is a shallow gradient more than an
-/// edge, and is traced thin and dotted (common practice, no source).
-pub const BROAD: f64 = 0.25;
-
-/// Links each boundary to the nearest boundary of the same gene and direction
-/// at the previous snapshot (if within a tenth of the axis) and draws the
-/// segment in the gene's colour over a halo of the background (in the ink
-/// colour on a heat map; thin and dotted where either end is [`BROAD`];
-/// dashed for every gene after the first, so that coinciding boundaries of
-/// two genes show both colours),
-/// where the gene is expressed at both ends:
-/// `expressed(j, k)` for shown gene j at snapshot k of `times`.
-#[allow(clippy::too_many_arguments)]
-fn trace_boundaries(
-    c: &mut Canvas,
-    a: &Axes,
-    rec: &Recording,
-    boundaries: &[Boundary],
-    style: &Style,
-    length: f64,
-    times: &[f64],
-    expressed: &dyn Fn(usize, usize) -> bool,
-) {
+/// Draws boundary tracks, mapping (time, % length) to pixels with `at`: in
+/// each gene's colour over a halo of the background (in the ink colour on a
+/// heat map), thin and dotted where broad ([`super::tracks::BROAD`]); the
+/// first gene's line is wider than the others', drawn over it, so that
+/// coinciding boundaries of two genes show both colours. Halos go under
+/// every line.
+pub fn draw_tracks(c: &mut Canvas, segments: &[Segment], style: &Style, at: impl Fn((f64, f64)) -> (f32, f32)) {
     let (ink, halo) = (style.background.ink(), style.background.rgb());
-    // (segment, colour, broad, first gene): halos are drawn under every line,
-    // and genes after the first dashed, so coinciding boundaries show both.
-    let mut segments: Vec<([(f32, f32); 2], [u8; 3], bool, bool)> = Vec::new();
-    let on = |j: usize, t: f64| times.iter().position(|&s| (s - t).abs() <= 1e-9 * t.abs().max(1.0)).is_some_and(|k| expressed(j, k));
-    for (j, &g) in style.genes.iter().enumerate() {
-        let colour = if style.heatmap { ink } else { style.colors[g] };
-        for dir in ["rising", "falling"] {
-            // (time, [(µm, broad)]).
-            let mut by_time: Vec<(f64, Vec<(f64, bool)>)> = Vec::new();
-            for b in boundaries.iter().filter(|b| {
-                b.gene == rec.genes[g] && b.direction == dir && b.time_min >= a.y.0 - 1e-9 && b.time_min <= a.y.1 + 1e-9
-            }) {
-                let x = (b.position_um, b.width_um > BROAD * length);
-                match by_time.last_mut() {
-                    Some((t, xs)) if *t == b.time_min => xs.push(x),
-                    _ => by_time.push((b.time_min, vec![x])),
-                }
-            }
-            for pair in by_time.windows(2) {
-                let ((t_prev, prev), (t, now)) = (&pair[0], &pair[1]);
-                if !(on(j, *t_prev) && on(j, *t)) {
-                    continue;
-                }
-                for &(x, broad) in now {
-                    let nearest = prev.iter().copied().min_by(|p, q| (p.0 - x).abs().total_cmp(&(q.0 - x).abs()));
-                    if let Some((p, was_broad)) = nearest.filter(|p| (p.0 - x).abs() < 0.1 * length) {
-                        let pct = |u: f64| 100.0 * u / length;
-                        let segment = [(a.px(pct(p)), a.py(*t_prev)), (a.px(pct(x)), a.py(*t))];
-                        segments.push((segment, colour, broad || was_broad, j == 0));
-                    }
-                }
-            }
-        }
+    let colour = |s: &Segment| if style.heatmap { ink } else { style.colors[s.gene] };
+    for s in segments.iter().filter(|s| !s.broad) {
+        c.polyline(&[at(s.from), at(s.to)], 4.5, halo, 255, None);
     }
-    for (segment, _, broad, _) in &segments {
-        if !broad {
-            c.polyline(segment, 4.0, halo, 255, None);
-        }
-    }
-    for (segment, colour, broad, first) in &segments {
-        match (broad, first) {
-            (true, _) => c.polyline(segment, 1.2, *colour, 200, Some([3.0, 3.0])),
-            (false, true) => c.polyline(segment, 1.8, *colour, 255, None),
-            (false, false) => c.polyline(segment, 1.8, *colour, 255, Some([4.0, 4.0])),
+    for s in segments {
+        let line = [at(s.from), at(s.to)];
+        match (s.broad, s.rank == 0) {
+            (true, _) => c.polyline(&line, 1.4, colour(s), 190, Some([1.5, 3.5])),
+            (false, true) => c.polyline(&line, 2.4, colour(s), 255, None),
+            (false, false) => c.polyline(&line, 1.2, colour(s), 255, None),
         }
     }
 }

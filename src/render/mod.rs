@@ -7,6 +7,7 @@
 mod animate;
 mod axes;
 mod boundary_bands;
+mod boundary_time;
 mod canvas;
 pub mod colour;
 mod fit;
@@ -20,13 +21,16 @@ mod profiles;
 mod replicates;
 mod screen;
 mod sweep;
+mod tracks;
 
 pub use animate::{write_gif, write_grid_gif, write_pair_gif};
 pub use boundary_bands::boundary_bands;
+pub use boundary_time::boundary_positions;
 pub use canvas::{Align, Canvas};
 pub use colour::Background;
 pub use fit::{fit_boundaries, fit_profiles, fit_trace};
-pub use kymograph::{KymoLayout, kymograph, space_time};
+pub use kymograph::{KymoLayout, draw_tracks, kymograph, space_time};
+pub use tracks::{BROAD, EXPRESSED, Segment, tracks};
 pub use measure::{check_picture, comparison_overlay};
 pub use screen::{sensitivity_map, shift_chart};
 pub use sweep::{class_color, sweep_picture};

@@ -681,7 +681,7 @@ mod tests {
         let mut other = job(5);
         other.model_sha256 = "def".into();
         let err = merge::<usize>(&other, dir.path()).unwrap_err();
-        assert!(err.to_string().contains("another text of the model"), "{err}");
+        assert!(err.to_string().contains("made from another model"), "{err}");
     }
 
     #[test]

@@ -502,3 +502,43 @@ fn unsettled_mutants_and_sweep_points_are_named_by_the_exponential_approach() {
     let classes: Vec<&str> = table.lines().skip(1).map(|l| l.split(',').nth(2).unwrap()).collect();
     assert_eq!(classes, ["changing", "boundary"], "{table}");
 }
+
+/// A pinned boundary whose jumps come closer together than the scan's
+/// points: the ribbon's boundary against amber.production jumps about every
+/// 0.0085 in ln p, so it never rests between two scan points and central
+/// differences at 0.01 and 0.02 disagree. Its sensitivity is the secant over
+/// the scan, checked against an independent estimate: the least-squares
+/// slope of the boundary's position over 81 runs spread across the same
+/// ±0.1 in ln p (the staircase's average slope; ordinary least squares,
+/// textbook).
+#[test]
+fn a_boundary_jumping_more_often_than_the_scan_is_pinned_with_the_staircase_slope() {
+    let ribbon = load("patterns/ribbon.toml");
+    let p = ribbon.parameters().into_iter().find(|&p| ribbon.param_name(p) == "amber.production").unwrap();
+    let rows = screen::sensitivity(&ribbon, screen::SENSITIVITY_STEP, true).unwrap();
+    let row = rows.iter().find(|r| r.parameter == "amber.production" && r.gene == "amber").unwrap();
+    assert_eq!(row.kind, "pinned", "{row:?}");
+    let wt = final_boundaries(&ribbon).unwrap();
+    let x0 = wt.iter().find(|b| b.gene == "amber").unwrap().position_um;
+    let (us, xs): (Vec<f64>, Vec<f64>) = (0..81)
+        .map(|k| {
+            let u = -0.1 + 0.2 * k as f64 / 80.0;
+            let m = Mutant { name: "s".into(), edits: vec![Edit::Scale(p, u.exp())] };
+            let bs = final_boundaries(&ribbon.with_mutant(&m)).unwrap();
+            let x = bs
+                .iter()
+                .filter(|b| b.gene == "amber")
+                .map(|b| b.position_um)
+                .min_by(|a, b| (a - x0).abs().total_cmp(&(b - x0).abs()))
+                .unwrap();
+            (u, x)
+        })
+        .unzip();
+    let (mu, mx) = (us.iter().sum::<f64>() / 81.0, xs.iter().sum::<f64>() / 81.0);
+    let slope = us.iter().zip(&xs).map(|(u, x)| (u - mu) * (x - mx)).sum::<f64>()
+        / us.iter().map(|u| (u - mu) * (u - mu)).sum::<f64>();
+    let steps = xs.windows(2).filter(|w| (w[1] - w[0]).abs() > 0.5 * ribbon.grid.spacing_um).count();
+    assert!(steps >= 10, "the boundary jumps often across the scan ({steps} jumps)");
+    let secant = row.d_um_per_ln.unwrap();
+    assert!((secant - slope).abs() <= 0.08 * slope.abs(), "secant {secant} against least squares {slope}");
+}

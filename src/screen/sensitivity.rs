@@ -18,8 +18,13 @@
 //! - **smooth** otherwise: central differences `(x(p·e^δ) − x(p·e^−δ)) / 2δ`
 //!   at δ and 2δ (δ = [`SENSITIVITY_STEP`] unless chosen) must agree within
 //!   2 % (or 1e-3 spacing per unit ln p); the smaller step's value is
-//!   reported. If they disagree, δ/2 and δ are tried, then the row is
-//!   **unresolved** (the smaller step's value is given but marked).
+//!   reported. If they disagree, δ/2 and δ are tried. If they still
+//!   disagree while every scan position sits on the nuclear grid (within 0.2
+//!   spacing, having moved half a spacing or more), the boundary is
+//!   **pinned** with jumps closer together than the scan's points: its
+//!   sensitivity is the secant over the scan, ±[`SCAN_LN`], and its jumps
+//!   are not listed. Otherwise the row is **unresolved** (the smaller step's
+//!   value is given but marked).
 //!
 //! Common practice, no source, for the thresholds.
 
@@ -178,6 +183,14 @@ pub(crate) fn rows_for(model: &Model, p: Param, wt: &[Boundary], step_ln: f64) -
         }
         match found {
             Some((v, d)) => out.push(row("smooth", Some(v), d, String::new())),
+            // On the nuclear grid at every scan point, moving, and central
+            // differences that never agree: a pinned boundary whose jumps
+            // come closer together than the scan's points (so it never rests
+            // between two of them). The secant over the scan averages over
+            // its jumps; they are too many to list.
+            None if range >= 0.5 * spacing && off_grid < 0.2 * spacing => {
+                out.push(row("pinned", Some((xs[8] - xs[0]) / (2.0 * SCAN_LN)), SCAN_LN, String::new()));
+            }
             None => out.push(row("unresolved", central(step_ln), step_ln, String::new())),
         }
     }

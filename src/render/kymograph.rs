@@ -97,15 +97,30 @@ fn nearest(times: &[f64], t: f64) -> usize {
     }
 }
 
+/// More tracks than this at a time, on average, and they are drawn thin,
+/// without halos (common practice, no source).
+pub const BUSY: usize = 8;
+
 /// Draws boundary tracks, mapping (time, % length) to pixels with `at`: in
 /// each gene's colour over a halo of the background (in the ink colour on a
 /// heat map), thin and dotted where broad ([`super::tracks::BROAD`]); the
 /// first gene's line is wider than the others', drawn over it, so that
 /// coinciding boundaries of two genes show both colours. Halos go under
-/// every line.
+/// every line. With more than [`BUSY`] tracks at a time, thin lines only.
 pub fn draw_tracks(c: &mut Canvas, segments: &[Segment], style: &Style, at: impl Fn((f64, f64)) -> (f32, f32)) {
     let (ink, halo) = (style.background.ink(), style.background.rgb());
     let colour = |s: &Segment| if style.heatmap { ink } else { style.colors[s.gene] };
+    // Many tracks at once (travelling waves, many stripes): thin lines
+    // without halos, which would otherwise hide the pattern.
+    let mut times: Vec<u64> = segments.iter().map(|s| s.from.0.to_bits()).collect();
+    times.sort_unstable();
+    times.dedup();
+    if segments.len() > BUSY * times.len().max(1) {
+        for s in segments {
+            c.polyline(&[at(s.from), at(s.to)], 1.0, colour(s), if s.broad { 90 } else { 170 }, None);
+        }
+        return;
+    }
     for s in segments.iter().filter(|s| !s.broad) {
         c.polyline(&[at(s.from), at(s.to)], 4.5, halo, 255, None);
     }

@@ -558,6 +558,14 @@ scale = { "cue.decay_length_um" = 0.5 }
     .into()
 }
 
+/// A fresh test folder `name` holding [`noisy_with_mutant`] as `m.toml`.
+fn noisy_model_in(name: &str) -> (std::path::PathBuf, std::path::PathBuf) {
+    let dir = temp_dir(name);
+    let model = dir.join("m.toml");
+    std::fs::write(&model, noisy_with_mutant()).unwrap();
+    (dir, model)
+}
+
 fn same_files(a: &std::path::Path, b: &std::path::Path, names: &[&str]) {
     for name in names {
         let (x, y) = (std::fs::read(a.join(name)), std::fs::read(b.join(name)));
@@ -572,9 +580,7 @@ fn same_files(a: &std::path::Path, b: &std::path::Path, names: &[&str]) {
 /// mutant (--mutant). More shards than embryos are refused.
 #[test]
 fn replicates_sharded_in_three_merge_into_the_same_bytes() {
-    let dir = temp_dir("replicates-shards");
-    let model = dir.join("m.toml");
-    std::fs::write(&model, noisy_with_mutant()).unwrap();
+    let (dir, model) = noisy_model_in("replicates-shards");
     let m = model.to_str().unwrap();
     let run = |extra: &[&str], out: &std::path::Path| {
         let mut args = vec!["replicates", m, "-n", "24", "--attribute", "--check-step", "--mutant", "peak x2"];
@@ -620,9 +626,7 @@ fn replicates_sharded_in_three_merge_into_the_same_bytes() {
 /// embryo shard is missing.
 #[test]
 fn a_screen_with_replicates_sharded_in_three_merges_into_the_same_bytes() {
-    let dir = temp_dir("screen-replicates-shards");
-    let model = dir.join("m.toml");
-    std::fs::write(&model, noisy_with_mutant()).unwrap();
+    let (dir, model) = noisy_model_in("screen-replicates-shards");
     let m = model.to_str().unwrap();
     let run = |extra: &[&str], out: &std::path::Path| {
         let mut args = vec!["screen", m, "--replicates", "20"];

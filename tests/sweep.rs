@@ -213,19 +213,8 @@ fn seven_shards_merge_into_the_bytes_of_one_run() {
 #[test]
 fn a_shard_killed_outright_keeps_what_it_saved_while_running() {
     use std::process::{Command, Stdio};
-    let dir = temp_dir("sweep-sigkill");
-    let model = dir.join("toggle.toml");
-    std::fs::write(&model, toggle()).unwrap();
-    let m = model.to_str().unwrap();
-    let axes = ["--axis", "a=1.5:2.5:30", "--axis", "k=0.8:1.2:30:log"];
+    let (dir, args) = toggle_sweep("sweep-sigkill", ["a=1.5:2.5:30", "k=0.8:1.2:30:log"]);
     let (whole, sharded) = (dir.join("whole"), dir.join("sharded"));
-    let args = |extra: &[&str], out: &std::path::Path| {
-        let mut args: Vec<String> = vec!["sweep".into(), m.into()];
-        args.extend(axes.iter().map(|s| s.to_string()));
-        args.extend(extra.iter().map(|s| s.to_string()));
-        args.extend(["-o".to_string(), out.to_str().unwrap().to_string()]);
-        args
-    };
     let mut child = Command::new(env!("CARGO_BIN_EXE_anlage"))
         .args(args(&["--shard", "1/1"], &sharded))
         .env("RAYON_NUM_THREADS", "1")
@@ -260,6 +249,25 @@ fn a_shard_killed_outright_keeps_what_it_saved_while_running() {
     }
 }
 
+/// A fresh test folder `name` holding the toggle model, and the arguments of
+/// a sweep of it over `axes` with `extra` options into `out`.
+fn toggle_sweep(
+    name: &str,
+    axes: [&'static str; 2],
+) -> (std::path::PathBuf, impl Fn(&[&str], &std::path::Path) -> Vec<String>) {
+    let dir = temp_dir(name);
+    let model = dir.join("toggle.toml");
+    std::fs::write(&model, toggle()).unwrap();
+    let args = move |extra: &[&str], out: &std::path::Path| {
+        let mut args: Vec<String> = vec!["sweep".into(), model.to_str().unwrap().into()];
+        args.extend(axes.iter().flat_map(|a| ["--axis".to_string(), a.to_string()]));
+        args.extend(extra.iter().map(|s| s.to_string()));
+        args.extend(["-o".to_string(), out.to_str().unwrap().to_string()]);
+        args
+    };
+    (dir, args)
+}
+
 /// SIGTERM (a scheduler's time limit or preemption) stops a shard cleanly:
 /// it saves the points it finished, marked incomplete, exits 1 saying how
 /// to finish, the merge counts it as missing, and the same command run again
@@ -268,19 +276,8 @@ fn a_shard_killed_outright_keeps_what_it_saved_while_running() {
 #[test]
 fn a_shard_stopped_by_sigterm_saves_its_points_and_finishes_when_run_again() {
     use std::process::{Command, Stdio};
-    let dir = temp_dir("sweep-sigterm");
-    let model = dir.join("toggle.toml");
-    std::fs::write(&model, toggle()).unwrap();
-    let m = model.to_str().unwrap();
-    let axes = ["--axis", "a=1.5:2.5:24", "--axis", "k=0.8:1.2:25:log"];
+    let (dir, args) = toggle_sweep("sweep-sigterm", ["a=1.5:2.5:24", "k=0.8:1.2:25:log"]);
     let (whole, sharded) = (dir.join("whole"), dir.join("sharded"));
-    let args = |extra: &[&str], out: &std::path::Path| {
-        let mut args: Vec<String> = vec!["sweep".into(), m.into()];
-        args.extend(axes.iter().map(|s| s.to_string()));
-        args.extend(extra.iter().map(|s| s.to_string()));
-        args.extend(["-o".to_string(), out.to_str().unwrap().to_string()]);
-        args
-    };
     let child = Command::new(env!("CARGO_BIN_EXE_anlage"))
         .args(args(&["--shard", "1/1"], &sharded))
         .env("RAYON_NUM_THREADS", "1")

@@ -122,10 +122,8 @@ fn a_sweep_run_as_a_slurm_job_array_merges_into_the_bytes_of_one_run() {
     let job = cluster.client("sbatch", &["--parsable", "--hold", script.to_str().unwrap()]);
     let job = job.split(';').next().unwrap().to_string();
     let merge_script = killed.join("slurm/merge.sbatch");
-    let merge = cluster.client(
-        "sbatch",
-        &["--parsable", &format!("--dependency=afterok:{job}"), merge_script.to_str().unwrap()],
-    );
+    let merge = cluster
+        .client("sbatch", &["--parsable", &format!("--dependency=afterok:{job}"), merge_script.to_str().unwrap()]);
     let merge = merge.split(';').next().unwrap().to_string();
     cluster.client("scancel", &[&format!("{job}_3")]);
     cluster.client("scontrol", &["release", &job]);

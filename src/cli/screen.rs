@@ -150,8 +150,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
                 .with_context(|| format!("the wild type of {}", path.display()))?;
             let screen = anlage::screen::shard::merge(&list, wild_type, &job, &dir)?;
             // Every shard file is checked before anything is written.
-            saved_embryos =
-                embryo_job.as_ref().map(|(_, j)| anlage::replicates::shard::merge(j, &dir)).transpose()?;
+            saved_embryos = embryo_job.as_ref().map(|(_, j)| anlage::replicates::shard::merge(j, &dir)).transpose()?;
             anlage::write_screen_files(&model, &screen, &style, &dir, chosen.as_ref(), true)
                 .with_context(|| format!("merging into {}", dir.display()))?;
             screen
@@ -352,12 +351,8 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
     let dir = out.clone().unwrap_or_else(|| beside_model(path, "replicates"));
     let mode = cluster.mode(out.as_deref())?;
     let bar = super::bar::Bar::new(*json);
-    let passes = anlage::replicates::shard::replicate_passes(
-        &model,
-        *attribute,
-        *check_step,
-        name.as_ref().map(|_| &wild_type),
-    );
+    let passes =
+        anlage::replicates::shard::replicate_passes(&model, *attribute, *check_step, name.as_ref().map(|_| &wild_type));
     let mutant_words = name.as_ref().map_or_else(
         || "no mutant".into(),
         |m| {

@@ -3,9 +3,9 @@
 
 use super::axes::{self, Axes};
 use super::canvas::Canvas;
+use super::tracks::Segment;
 use super::{Style, gene_maxima, legend, level_at, title_and_label};
 use crate::integrate::{ReadBackError, Recording};
-use super::tracks::Segment;
 use crate::readout::Boundary;
 
 /// Where things are on a kymograph, for callers that annotate or check it.

@@ -30,10 +30,10 @@ pub use canvas::{Align, Canvas};
 pub use colour::Background;
 pub use fit::{fit_boundaries, fit_profiles, fit_trace};
 pub use kymograph::{KymoLayout, draw_tracks, kymograph, space_time};
-pub use tracks::{BROAD, EXPRESSED, Segment, tracks};
 pub use measure::{check_picture, comparison_overlay};
 pub use screen::{sensitivity_map, shift_chart};
 pub use sweep::{class_color, sweep_picture};
+pub use tracks::{BROAD, EXPRESSED, Segment, tracks};
 
 pub use options::{StyleError, StyleOptions};
 
@@ -179,7 +179,15 @@ pub fn scale_bar_um(length_um: f64) -> f64 {
 /// range ("amber 0–1.2"), and a heat map gets a colour bar numbered from 0 to
 /// its gene's maximum; without them (a line plot, whose axis gives levels),
 /// names only.
-pub fn legend(canvas: &mut Canvas, rec: &Recording, style: &Style, x: f32, y: f32, align_right: bool, maxima: Option<&[f64]>) {
+pub fn legend(
+    canvas: &mut Canvas,
+    rec: &Recording,
+    style: &Style,
+    x: f32,
+    y: f32,
+    align_right: bool,
+    maxima: Option<&[f64]>,
+) {
     let size = 14.0;
     let ink = style.background.ink();
     if let (true, Some(max)) = (style.heatmap, maxima) {

@@ -29,10 +29,10 @@ pub use stats::{ProfileStats, Running};
 use rayon::prelude::*;
 use serde::Serialize;
 
+use crate::StepError;
 use crate::model::Model;
 use crate::progress::{Counter, Progress};
 use crate::readout::{self, Boundary, Domain, pair_in_order};
-use crate::StepError;
 
 /// The file beside `precision.csv` that says which model text (SHA-256),
 /// which mutant (or none), how many embryos and which seed made it.

@@ -22,7 +22,9 @@ use super::SensitivityRow;
 pub fn job(model: &Model, mutants: &[Mutant], rerun: String) -> Job {
     let settings = mutants
         .iter()
-        .map(|m| format!("{}: {}", m.name, m.edits.iter().map(|e| model.describe_edit(e)).collect::<Vec<_>>().join(", ")))
+        .map(|m| {
+            format!("{}: {}", m.name, m.edits.iter().map(|e| model.describe_edit(e)).collect::<Vec<_>>().join(", "))
+        })
         .collect();
     Job::new("screen", model, settings, mutants.len(), rerun)
 }

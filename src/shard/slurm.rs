@@ -84,7 +84,15 @@ pub fn job_arguments(argv: &[String]) -> Vec<String> {
 /// `#SBATCH` lines for a job named `name` logging to `logs/log_name`, where
 /// `log_name` may hold SLURM's filename patterns (`%a`: the task) and a `%`
 /// in the folder is written `%%` so that SLURM keeps it.
-fn header(lines: &mut Vec<String>, name: &str, logs: &Path, log_name: &str, workdir: &Path, req: &Request, cpus: usize) {
+fn header(
+    lines: &mut Vec<String>,
+    name: &str,
+    logs: &Path,
+    log_name: &str,
+    workdir: &Path,
+    req: &Request,
+    cpus: usize,
+) {
     lines.push("#!/bin/bash".into());
     lines.push(format!("#SBATCH --job-name={name}"));
     lines.push(format!("#SBATCH --chdir={}", shell_quote(&workdir.display().to_string())));

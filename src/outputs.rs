@@ -35,9 +35,9 @@ pub enum WriteError {
 pub enum PictureKind {
     /// Every picture that fits the tissue.
     All,
-    /// `kymograph.png` (rows only).
+    /// `kymograph.png` (on a sheet, along x over the central rows).
     Kymograph,
-    /// `boundary_positions.png`, boundary position against time (rows only).
+    /// `boundary_positions.png`, boundary position against time.
     Boundaries,
     /// `pattern.png`, the final state.
     Pattern,
@@ -47,8 +47,8 @@ pub enum PictureKind {
     Animation,
 }
 
-/// Draws pictures of a recording into `dir`: `kymograph.png` and
-/// `boundary_positions.png` (rows), `pattern.png`, `profiles.png` and
+/// Draws pictures of a recording into `dir`: `kymograph.png`,
+/// `boundary_positions.png`, `pattern.png`, `profiles.png` and
 /// `pattern.gif`; returns the files written.
 ///
 /// # Errors
@@ -72,10 +72,10 @@ pub fn write_pictures(
         written.push(path);
         Ok(())
     };
-    if wants(PictureKind::Kymograph) && !rec.grid.is_sheet() {
+    if wants(PictureKind::Kymograph) {
         png("kymograph.png", render::kymograph(rec, boundaries, style)?.0)?;
     }
-    if wants(PictureKind::Boundaries) && !rec.grid.is_sheet() {
+    if wants(PictureKind::Boundaries) {
         png("boundary_positions.png", render::boundary_positions(rec, boundaries, style)?.0)?;
     }
     if wants(PictureKind::Pattern) {

@@ -181,7 +181,7 @@ fn render_reproduces_run_pictures() {
     let redraw = dir.join("redraw");
     let _ = std::fs::remove_dir_all(&dir);
     let exe = env!("CARGO_BIN_EXE_anlage");
-    for model in ["patterns/ribbon.toml", "patterns/band.toml"] {
+    for model in ["patterns/ribbon.toml", "patterns/band.toml", "patterns/sheet.toml"] {
         let m = root().join(model);
         let ok =
             Command::new(exe).args(["run", m.to_str().unwrap(), "-q", "-o", dir.to_str().unwrap()]).status().unwrap();
@@ -189,7 +189,7 @@ fn render_reproduces_run_pictures() {
         let ok =
             Command::new(exe).args(["render", dir.to_str().unwrap(), "-o", redraw.to_str().unwrap()]).output().unwrap();
         assert!(ok.status.success(), "{}", String::from_utf8_lossy(&ok.stderr));
-        for name in ["kymograph.png", "pattern.png", "profiles.png", "pattern.gif"] {
+        for name in ["kymograph.png", "boundary_positions.png", "pattern.png", "profiles.png", "pattern.gif"] {
             let (a, b) = (std::fs::read(dir.join(name)).unwrap(), std::fs::read(redraw.join(name)).unwrap());
             assert!(a == b, "{model}: {name} differs");
         }

@@ -525,9 +525,9 @@ fn parse_wall_time(text: &str) -> Result<std::time::Duration, String> {
 pub enum KindArg {
     /// Every picture that fits the tissue.
     All,
-    /// `kymograph.png` (rows only).
+    /// `kymograph.png` (on a sheet, along x over the central rows).
     Kymograph,
-    /// `boundary_positions.png`: boundary position against time (rows only).
+    /// `boundary_positions.png`: boundary position against time.
     Boundaries,
     /// `pattern.png`, the final state.
     Pattern,

@@ -58,7 +58,8 @@ fn tracks(r: &Replicates, style: &Style) -> Vec<(usize, Vec<Track>)> {
 pub fn boundary_bands(r: &Replicates, style: &Style) -> Canvas {
     let bg = style.background;
     let times = if r.times.is_empty() { vec![0.0] } else { r.times.clone() };
-    let (mut c, a) = space_time(&times, style, "time (min)", 20.0, |_, _| bg.rgb());
+    let (mut c, a) =
+        space_time(&times, style, "position along the axis (% length)", "time (min)", 20.0, |_, _| bg.rgb());
     let tracks = tracks(r, style);
     // Bands first, so that every line is drawn over every band.
     for (g, pieces) in &tracks {
@@ -158,7 +159,8 @@ mod tests {
             heatmap: false,
         };
         let c = boundary_bands(&r, &style);
-        let (_, a) = space_time(&times, &style, "time (min)", 20.0, |_, _| [0, 0, 0]);
+        let (_, a) =
+            space_time(&times, &style, "position along the axis (% length)", "time (min)", 20.0, |_, _| [0, 0, 0]);
         let at = |pct: f64, t: f64| c.get(a.px(pct).round() as u32, a.py(t).round() as u32);
         let bg = Background::Dark.rgb();
         // At t = 5 min the mean is 35 %: 32 % is inside the band, 25 % outside.

@@ -43,7 +43,12 @@ pub fn boundary_positions(
         c.polyline(&[(a.left, a.py(y)), (a.left + a.width, a.py(y))], 1.0, bg.muted(), 110, Some([2.0, 5.0]));
     }
     draw_tracks(&mut c, &segments, style, |(t, x)| (a.px(t), a.py(x)));
-    axes::draw(&mut c, &a, "time (min)", "boundary position (% length)", bg);
+    let y_label = if rec.grid.is_sheet() {
+        "boundary position along x (% width), central rows"
+    } else {
+        "boundary position (% length)"
+    };
+    axes::draw(&mut c, &a, "time (min)", y_label, bg);
     title_and_label(&mut c, left, width as f32 - right, 26.0, bg, &style.title);
     legend(&mut c, rec, style, width as f32 - right, 50.0, true, None);
     let note = if segments.is_empty() {

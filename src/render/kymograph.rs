@@ -34,7 +34,7 @@ pub fn kymograph(
         snaps.iter().map(|&s| rec.axis_profiles(s, style.genes.iter().copied())).collect::<Result<_, _>>()?;
     let length = rec.grid.length_um();
     let times: Vec<f64> = snaps.iter().map(|&s| rec.times[s]).collect();
-    let (mut c, a) = space_time(&times, style, "time (min)", 0.0, |x_frac, k| {
+    let (mut c, a) = space_time(&times, style, &along_label(rec), "time (min)", 0.0, |x_frac, k| {
         let x_um = x_frac * length;
         style.paint(
             &colors,
@@ -49,7 +49,7 @@ pub fn kymograph(
     Ok((c, KymoLayout { axes: a }))
 }
 
-/// A space × time picture: position along the axis (% length) across, the
+/// A space × time picture: position along the axis (% length, `x_label`) across, the
 /// given snapshot `times` down; `paint(x_fraction, k)` colours the pixel at
 /// that fraction of the axis and snapshot k. Draws axes, the title and the
 /// prediction label; the caller adds the legend (top right, baseline y = 50).
@@ -60,6 +60,7 @@ pub fn kymograph(
 pub fn space_time(
     times: &[f64],
     style: &Style,
+    x_label: &str,
     y_label: &str,
     footer: f32,
     paint: impl Fn(f64, usize) -> [u8; 3] + Sync,
@@ -81,9 +82,21 @@ pub fn space_time(
             c.put(left as u32 + col, top as u32 + row, paint((col as f64 + 0.5) / pw as f64, k));
         }
     }
-    axes::draw(&mut c, &a, "position along the axis (% length)", y_label, bg);
+    axes::draw(&mut c, &a, x_label, y_label, bg);
     title_and_label(&mut c, left, width as f32 - right, 26.0, bg, &style.title);
     (c, a)
+}
+
+/// The label of the axis along the tissue: on a sheet, levels are the mean
+/// over the central rows ([`Recording::midline_rows`]), as every readout of
+/// a sheet reads them.
+pub fn along_label(rec: &Recording) -> String {
+    if !rec.grid.is_sheet() {
+        return "position along the axis (% length)".into();
+    }
+    let rows = rec.midline_rows();
+    let h = rec.grid.spacing_um;
+    format!("position along x (% width), mean of rows y = {:.0}–{:.0} µm", rows.start as f64 * h, rows.end as f64 * h)
 }
 
 fn nearest(times: &[f64], t: f64) -> usize {

@@ -46,10 +46,11 @@ pub fn basin_kymograph(rec: &Recording, a: &BasinAnalysis, style: &Style) -> Can
     let row0 = rec.midline_rows().start * nx;
     let mut titled = style.clone();
     titled.title = format!("Basins: isolated nucleus, {} frozen at each time", a.frozen);
-    let (mut c, ax) = space_time(&a.times, &titled, "time (min)", 0.0, |x_frac, k| {
-        let ix = ((x_frac * nx as f64) as usize).min(nx - 1);
-        label_color(&a.basins[k][row0 + ix].label, rec, style)
-    });
+    let (mut c, ax) =
+        space_time(&a.times, &titled, &super::kymograph::along_label(rec), "time (min)", 0.0, |x_frac, k| {
+            let ix = ((x_frac * nx as f64) as usize).min(nx - 1);
+            label_color(&a.basins[k][row0 + ix].label, rec, style)
+        });
     let commit = a.commitment();
     let pts: Vec<(f32, f32)> = (0..nx)
         .map(|ix| {

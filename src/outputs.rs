@@ -476,6 +476,7 @@ pub fn write_replicates(
         "kind": "replicates",
         "model_prediction": true,
         "model_text_sha256": crate::replicates::text_sha256(&model.text),
+        "model_inputs_sha256": model.inputs_sha256(),
         "mutant": wild_type.map(|(name, _)| name),
         "embryos": job.n,
         "seed": model.seed,

@@ -682,3 +682,35 @@ fn a_knocked_out_gene_s_noise_is_not_read_as_boundaries() {
     assert!(rows(&[], "wild") >= 12, "the wild type has its boundary in every embryo");
     assert_eq!(rows(&["--mutant", "{ name = \"ko\", knock_out = [\"quill\"] }"], "ko"), 0);
 }
+
+/// Replicates and a run of the same model text that read different
+/// `initial_file`s are not scored against each other: summary.json and
+/// replicates.json record the digest of the model's inputs, and
+/// `compare --replicates` checks it (the text alone would match).
+#[test]
+fn replicates_of_another_initial_file_are_refused_by_compare() {
+    use ndarray_npy::WriteNpyExt;
+    let dir = temp_dir("replicates-initial-file");
+    let model = dir.join("m.toml");
+    std::fs::write(
+        &model,
+        "[tissue]\nnuclei = [20]\nspacing_um = 5.0\n[clock]\nuntil_min = 5.0\nstep_min = 0.05\nsnapshot_every_min = 5.0\n\
+         [[gene]]\nname = \"wren\"\nproduction = 1.0\ndecay = 1.0\ndiffusion = 1.0\ninitial_file = \"start.npy\"\n\
+         initial_noise = 0.05\n",
+    )
+    .unwrap();
+    let start = |peak: f64| {
+        let v = ndarray::Array1::from_shape_fn(20, |i| peak * i as f64 / 19.0);
+        v.write_npy(std::fs::File::create(dir.join("start.npy")).unwrap()).unwrap();
+    };
+    let m = model.to_str().unwrap();
+    let (run, reps) = (dir.join("run"), dir.join("reps"));
+    start(3.0);
+    assert!(anlage(&["run", m, "-q", "-o", run.to_str().unwrap()]).status.success());
+    assert!(anlage(&["replicates", m, "-n", "4", "-o", reps.to_str().unwrap()]).status.success());
+    anlage::compare::spread::check_origin(&run, &reps).unwrap();
+    start(5.0);
+    assert!(anlage(&["replicates", m, "-n", "4", "-o", reps.to_str().unwrap()]).status.success());
+    let err = anlage::compare::spread::check_origin(&run, &reps).unwrap_err().to_string();
+    assert!(err.contains("other inputs"), "{err}");
+}

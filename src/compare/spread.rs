@@ -179,6 +179,21 @@ pub fn check_origin(run_dir: &Path, replicates_dir: &Path) -> Result<(), Compare
             model_path.display()
         )));
     }
+    // The model text alone does not say what an initial_file held.
+    let summary_path = run_dir.join(crate::run_folder::SUMMARY);
+    let run_inputs = std::fs::read_to_string(&summary_path)
+        .ok()
+        .and_then(|t| serde_json::from_str::<crate::run_folder::Summary>(&t).ok())
+        .and_then(|s| s.model_inputs_sha256);
+    if let (Some(theirs), Some(ours)) = (origin["model_inputs_sha256"].as_str(), run_inputs.as_deref())
+        && theirs != ours
+    {
+        return Err(bad(format!(
+            "the replicates were made from the same model text as the run but other inputs (an initial_file that \
+             changed since, e.g.; see {}); rerun the run or `anlage replicates` so both read the same files",
+            summary_path.display()
+        )));
+    }
     if let Some(m) = origin["mutant"].as_str() {
         return Err(bad(format!(
             "the replicates are of the mutant `{m}`, the run of the wild type; rerun `anlage replicates` without --mutant"

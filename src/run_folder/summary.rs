@@ -17,8 +17,14 @@ pub struct Summary {
     pub anlage_version: String,
     /// A reminder of what these numbers are.
     pub note: String,
-    /// FNV-1a 64-bit hash of the model file's text, hex: the same hash means the same model.
+    /// FNV-1a 64-bit hash of the model file's text, hex.
     pub model_hash: String,
+    /// SHA-256 of everything the model was read from: its text and the
+    /// initial levels it may read from an `initial_file`
+    /// ([`Model::inputs_sha256`]): the same digest means the same model.
+    /// Absent from runs written before it was recorded.
+    #[serde(default)]
+    pub model_inputs_sha256: Option<String>,
     /// Seed of the initial noise.
     pub seed: u64,
     /// Tissue shape, e.g. "row of 96".
@@ -81,6 +87,7 @@ impl Summary {
             anlage_version: env!("CARGO_PKG_VERSION").into(),
             note: PREDICTION_NOTE.into(),
             model_hash: format!("{:016x}", fnv1a(model.text.as_bytes())),
+            model_inputs_sha256: Some(model.inputs_sha256()),
             seed: model.seed,
             tissue: model.grid.shape_text(),
             grid: GridInfo {

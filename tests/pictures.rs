@@ -43,6 +43,44 @@ fn gif_and_pngs_decode() {
     }
 }
 
+/// `--frame-every 4` keeps every fourth snapshot and the last, whose frame
+/// is held; a frame equals the pattern picture of its snapshot.
+#[test]
+fn animations_skip_frames_and_keep_the_last() {
+    let rec = ribbon();
+    let opts = anlage::render::StyleOptions { frame_every: Some(4), ..Default::default() };
+    let style = Style::with_options(&rec, "t", &opts).unwrap();
+    let n = rec.times.len();
+    let want: Vec<usize> = (0..n).filter(|k| k % 4 == 0 || *k == n - 1).collect();
+    let mut bytes = Vec::new();
+    assert_eq!(render::write_gif(&rec, &style, &mut bytes).unwrap(), want.len());
+    let mut opts = gif::DecodeOptions::new();
+    opts.set_color_output(gif::ColorOutput::RGBA);
+    let mut dec = opts.read_info(bytes.as_slice()).unwrap();
+    let max = render::gene_maxima(&rec, &(0..n).collect::<Vec<_>>()).unwrap();
+    let mut k = 0;
+    while let Some(f) = dec.read_next_frame().unwrap() {
+        // Colours are quantised to a palette per frame: compare on average,
+        // against this snapshot and against the one before it (which an
+        // unskipped animation would show here).
+        let diff = |s: usize| {
+            let (picture, _) = render::pattern(&rec, s, &style, &max).unwrap();
+            let pairs = f.buffer.iter().zip(picture.rgba());
+            pairs.map(|(a, b)| a.abs_diff(*b) as f64).sum::<f64>() / f.buffer.len() as f64
+        };
+        let own = diff(want[k]);
+        assert!(own < 3.0, "frame {k}: mean difference {own} from snapshot {}", want[k]);
+        if k > 0 && k + 1 < want.len() {
+            assert!(own < diff(want[k] - 1), "frame {k} is closer to snapshot {} than to {}", want[k] - 1, want[k]);
+        }
+        assert_eq!(f.delay, if k + 1 == want.len() { 200 } else { 10 });
+        k += 1;
+    }
+    assert_eq!(k, want.len());
+    let bad = anlage::render::StyleOptions { frame_every: Some(0), ..Default::default() };
+    assert!(Style::with_options(&rec, "t", &bad).is_err());
+}
+
 /// Inside the embryo outline, the colour at a nucleus's position is the gene's
 /// colour scaled by its level there (relative to its maximum over the run),
 /// on dark; on white, white minus the colour's complement scaled by the level.

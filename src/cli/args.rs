@@ -439,6 +439,9 @@ pub struct PictureArgs {
     /// Animation frames per second (default 10).
     #[arg(long)]
     pub fps: Option<u32>,
+    /// Animations show every N-th snapshot, and always the last (default 1: every one).
+    #[arg(long, value_name = "N")]
+    pub frame_every: Option<usize>,
     /// First time shown, min.
     #[arg(long = "from")]
     pub from_min: Option<f64>,
@@ -450,8 +453,8 @@ pub struct PictureArgs {
 /// A picture option that some verbs have no use for.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Unused {
-    /// `--fps`: no animation is drawn.
-    Fps,
+    /// `--fps`, `--frame-every`: no animation is drawn.
+    Animation,
     /// `--heatmap`: no picture of gene levels is drawn.
     Heatmap,
     /// `--from`/`--to`: no picture follows the snapshots' times.
@@ -467,7 +470,10 @@ impl PictureArgs {
     pub fn refuse(&self, unused: &[Unused], verb: &str, because: &str) -> Result<(), anlage::render::StyleError> {
         for &u in unused {
             let given = match u {
-                Unused::Fps => self.fps.map(|v| ("--fps", v.to_string())),
+                Unused::Animation => self
+                    .fps
+                    .map(|v| ("--fps", v.to_string()))
+                    .or_else(|| self.frame_every.map(|v| ("--frame-every", v.to_string()))),
                 Unused::Heatmap => self.heatmap.then(|| ("--heatmap", "given".to_string())),
                 Unused::TimeRange => self
                     .from_min
@@ -493,6 +499,7 @@ impl PictureArgs {
             light: self.light,
             width: self.width,
             fps: self.fps,
+            frame_every: self.frame_every,
             from_min: self.from_min,
             to_min: self.to_min,
             heatmap: self.heatmap,

@@ -14,7 +14,7 @@ use super::print;
 pub fn basins(args: &BasinsArgs) -> anyhow::Result<()> {
     let BasinsArgs { source, out, with_influx, gene, every, at, look, json } = args;
     look.refuse(
-        &[Unused::Fps, Unused::Heatmap, Unused::TimeRange],
+        &[Unused::Animation, Unused::Heatmap, Unused::TimeRange],
         "basins",
         "analyses the snapshots chosen with --every or --at and draws no animation",
     )?;

@@ -27,7 +27,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     let ScreenOutputArgs { out, look, json } = output;
     if animate.is_none() {
         look.refuse(
-            &[Unused::Fps, Unused::Heatmap, Unused::TimeRange],
+            &[Unused::Animation, Unused::Heatmap, Unused::TimeRange],
             "screen",
             "draws no animation without --animate (its picture is the table of shifts)",
         )?;
@@ -196,7 +196,7 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
     let SensitivityArgs { model: path, step, cluster, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
     look.refuse(
-        &[Unused::Fps, Unused::Heatmap, Unused::TimeRange],
+        &[Unused::Animation, Unused::Heatmap, Unused::TimeRange],
         "sensitivity",
         "draws one still picture of sensitivities read at the end of the run",
     )?;
@@ -250,7 +250,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
     let SweepArgs { model: path, axes: axes_text, cluster, output } = args;
     let ScreenOutputArgs { out, look, json } = output;
     look.refuse(
-        &[Unused::Fps, Unused::Heatmap, Unused::TimeRange],
+        &[Unused::Animation, Unused::Heatmap, Unused::TimeRange],
         "sweep",
         "draws one still picture of pattern classes read at the end of each run",
     )?;
@@ -310,7 +310,7 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
     let ScreenOutputArgs { out, look, json } = output;
     if animate.is_none() {
         look.refuse(
-            &[Unused::Fps, Unused::Heatmap, Unused::TimeRange],
+            &[Unused::Animation, Unused::Heatmap, Unused::TimeRange],
             "replicates",
             "draws no animation without --animate (its pictures are spreads of boundaries)",
         )?;

@@ -53,7 +53,8 @@ pub fn write_grid_gif(
     let columns = columns.clamp(1, panels.len().max(1));
     let rows = panels.len().div_ceil(columns);
     let delay = panels.first().map_or(10, |(_, st)| (100.0 / st.fps.max(1) as f64).round().max(2.0) as u16);
-    let frames: Vec<gif::Frame<'static>> = (0..n)
+    let shown = panels.first().map_or_else(|| (0..n).collect(), |(_, st)| st.frames(n));
+    let frames: Vec<gif::Frame<'static>> = shown
         .into_par_iter()
         .map(|s| {
             let pictures: Vec<Canvas> = panels
@@ -110,7 +111,8 @@ pub fn write_gif(rec: &Recording, style: &Style, out: &mut dyn Write) -> std::io
     let snaps = style.snapshots(rec);
     let max = gene_maxima(rec, &snaps).map_err(std::io::Error::other)?;
     let delay = (100.0 / style.fps.max(1) as f64).round().max(2.0) as u16;
-    let frames: Vec<gif::Frame<'static>> = snaps
+    let shown: Vec<usize> = style.frames(snaps.len()).into_iter().map(|k| snaps[k]).collect();
+    let frames: Vec<gif::Frame<'static>> = shown
         .par_iter()
         .map(|&s| {
             let (canvas, _) = pattern(rec, s, style, &max).map_err(std::io::Error::other)?;

@@ -155,6 +155,7 @@ mod tests {
             colors: vec![[230, 159, 0]],
             width: 600,
             fps: 10,
+            frame_every: 1,
             time_range: (f64::NEG_INFINITY, f64::INFINITY),
             heatmap: false,
         };

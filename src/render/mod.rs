@@ -61,6 +61,8 @@ pub struct Style {
     pub width: u32,
     /// Animation frames per second.
     pub fps: u32,
+    /// Animations show every this many snapshots (and always the last).
+    pub frame_every: usize,
     /// Snapshots shown: those with time in this range, min.
     pub time_range: (f64, f64),
     /// Draw the one shown gene as a heat map with the perceptually uniform
@@ -78,9 +80,21 @@ impl Style {
             colors: rec.colors.clone(),
             width: 720,
             fps: 10,
+            frame_every: 1,
             time_range: (f64::NEG_INFINITY, f64::INFINITY),
             heatmap: false,
         }
+    }
+
+    /// The frames of an animation among `n` snapshots (indices 0..n): every
+    /// [`Self::frame_every`]-th, and always the last.
+    pub fn frames(&self, n: usize) -> Vec<usize> {
+        let every = self.frame_every.max(1);
+        let mut out: Vec<usize> = (0..n).step_by(every).collect();
+        if n > 0 && out.last() != Some(&(n - 1)) {
+            out.push(n - 1);
+        }
+        out
     }
 
     /// Indices of the snapshots inside the time range.

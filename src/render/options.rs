@@ -59,6 +59,8 @@ pub struct StyleOptions {
     pub width: Option<u32>,
     /// Frames per second.
     pub fps: Option<u32>,
+    /// Animations show every this many snapshots (and the last).
+    pub frame_every: Option<usize>,
     /// First time shown, min.
     pub from_min: Option<f64>,
     /// Last time shown, min.
@@ -124,6 +126,16 @@ impl Style {
                 });
             }
             style.fps = f;
+        }
+        if let Some(k) = opts.frame_every {
+            if !(1..=1000).contains(&k) {
+                return Err(StyleError::OutOfRange {
+                    option: "--frame-every".into(),
+                    value: k.to_string(),
+                    fix: "give 1 (every snapshot) to 1000".into(),
+                });
+            }
+            style.frame_every = k;
         }
         style.time_range = (opts.from_min.unwrap_or(f64::NEG_INFINITY), opts.to_min.unwrap_or(f64::INFINITY));
         if style.snapshots(rec).is_empty() {

@@ -67,9 +67,7 @@ pub fn write_pictures(
         return Ok(written);
     };
     let mut png = |name: &str, canvas: render::Canvas| -> Result<(), export::ExportError> {
-        let path = dir.join(name);
-        export::write_atomic(&path, |w| w.write_all(&canvas.png()?))?;
-        written.push(path);
+        written.extend(write_picture(&dir.join(name), &canvas, style.svg)?);
         Ok(())
     };
     if wants(PictureKind::Kymograph) {
@@ -93,6 +91,22 @@ pub fn write_pictures(
         written.push(path);
     }
     Ok(written)
+}
+
+/// Writes `canvas` as PNG at `path` and, with `svg`, as SVG beside it (the
+/// same name ending `.svg`); returns the files written.
+///
+/// # Errors
+/// [`export::ExportError`] if a file cannot be written.
+pub fn write_picture(path: &Path, canvas: &render::Canvas, svg: bool) -> Result<Vec<PathBuf>, export::ExportError> {
+    export::write_atomic(path, |w| w.write_all(&canvas.png()?))?;
+    let mut files = vec![path.to_path_buf()];
+    if svg {
+        let svg_path = path.with_extension("svg");
+        export::write_atomic(&svg_path, |w| w.write_all(canvas.svg().as_bytes()))?;
+        files.push(svg_path);
+    }
+    Ok(files)
 }
 
 /// What `anlage basins` found.
@@ -131,14 +145,12 @@ pub fn write_basins(
     export::write_basins(rec, &analysis, &path("basins.csv"))?;
     export::write_commitment(rec, &analysis, &path("commitment.csv"))?;
     export::write_landscape(&rec.genes, &landscape, &path("landscape.csv"))?;
+    let mut files: Vec<PathBuf> =
+        ["attractors.csv", "basins.csv", "commitment.csv", "landscape.csv"].iter().map(|n| path(n)).collect();
     let kymo = render::basin_kymograph(rec, &analysis, style);
-    export::write_atomic(&path("basins.png"), |w| w.write_all(&kymo.png()?))?;
+    files.extend(write_picture(&path("basins.png"), &kymo, style.svg)?);
     let land = render::landscape_picture(rec, &landscape, gene, style);
-    export::write_atomic(&path("landscape.png"), |w| w.write_all(&land.png()?))?;
-    let files = ["attractors.csv", "basins.csv", "commitment.csv", "landscape.csv", "basins.png", "landscape.png"]
-        .iter()
-        .map(|n| path(n))
-        .collect();
+    files.extend(write_picture(&path("landscape.png"), &land, style.svg)?);
     Ok(BasinReport { analysis, landscape, files })
 }
 
@@ -160,7 +172,7 @@ pub fn write_portrait(
 ) -> Result<crate::phase::PortraitData, WriteError> {
     let data = crate::phase::portrait_data(model, rec, nucleus, genes[0], genes[1], s)?;
     let canvas = render::portrait(rec, &data, style);
-    export::write_atomic(path, |w| w.write_all(&canvas.png()?))?;
+    write_picture(path, &canvas, style.svg)?;
     if cloud {
         let stem = path.file_stem().map_or_else(|| "portrait".into(), |s| s.to_string_lossy().into_owned());
         let gif = path.with_file_name(format!("{stem}_cloud.gif"));
@@ -207,7 +219,7 @@ pub fn write_screen_files(
     export::write_shifts(screen, &dir.join("shifts.csv"))?;
     let genes: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
     let chart = render::shift_chart(screen, &genes, style);
-    export::write_atomic(&dir.join("shifts.png"), |w| w.write_all(&chart.png()?))?;
+    write_picture(&dir.join("shifts.png"), &chart, style.svg)?;
     if let Some(m) = animate {
         let quiet = crate::RunOptions { parallel, ..Default::default() };
         let wt = crate::simulate(model, &quiet)?.recording;
@@ -253,7 +265,7 @@ pub fn write_sweep_files(sweep: &crate::sweep::Sweep, style: &render::Style, dir
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
     export::write_sweep(sweep, dir)?;
     let picture = render::sweep_picture(sweep, style);
-    export::write_atomic(&dir.join("sweep.png"), |w| w.write_all(&picture.png()?))?;
+    write_picture(&dir.join("sweep.png"), &picture, style.svg)?;
     Ok(())
 }
 
@@ -312,7 +324,7 @@ pub fn write_sensitivity_files(
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
     export::write_sensitivity(rows, &dir.join("sensitivity.csv"))?;
     let map = render::sensitivity_map(rows, style);
-    export::write_atomic(&dir.join("sensitivity.png"), |w| w.write_all(&map.png()?))?;
+    write_picture(&dir.join("sensitivity.png"), &map, style.svg)?;
     Ok(())
 }
 
@@ -326,7 +338,7 @@ pub fn write_sensitivity_files(
 pub fn write_fit(
     problem: &crate::fit::FitProblem,
     result: &crate::fit::FitResult,
-    background: render::Background,
+    style: &render::Style,
     dir: &Path,
 ) -> Result<(), WriteError> {
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
@@ -341,16 +353,16 @@ pub fn write_fit(
         .map_err(|message| export::ExportError::Content { path: dir.join("fitted.toml"), message })?;
     export::write_atomic(&dir.join("fitted.toml"), |w| w.write_all(text.as_bytes()))?;
     let title = &problem.model.title;
-    let trace = render::fit_trace(result, title, background);
-    export::write_atomic(&dir.join("fit_trace.png"), |w| w.write_all(&trace.png()?))?;
+    let trace = render::fit_trace(result, title, style);
+    write_picture(&dir.join("fit_trace.png"), &trace, style.svg)?;
     let names: Vec<String> = problem.genotypes.iter().map(|g| g.name.clone()).collect();
     let genes: Vec<(String, [u8; 3])> = problem.model.genes.iter().map(|g| (g.name.clone(), g.color)).collect();
-    let chart = render::fit_boundaries(result, &names, &genes, title, background);
-    export::write_atomic(&dir.join("fit_boundaries.png"), |w| w.write_all(&chart.png()?))?;
+    let chart = render::fit_boundaries(result, &names, &genes, title, style);
+    write_picture(&dir.join("fit_boundaries.png"), &chart, style.svg)?;
     if !result.profiles.is_empty() {
         let params: Vec<String> = problem.params.iter().map(|p| p.name.clone()).collect();
-        let chart = render::fit_profiles(result, &params, title, background);
-        export::write_atomic(&dir.join("fit_profiles.png"), |w| w.write_all(&chart.png()?))?;
+        let chart = render::fit_profiles(result, &params, title, style);
+        write_picture(&dir.join("fit_profiles.png"), &chart, style.svg)?;
     }
     Ok(())
 }
@@ -504,9 +516,9 @@ pub fn write_replicates(
         export::write_step_check(&step, &dir.join("step_check.csv"))?;
     }
     let picture = render::replicates_picture(&all, style);
-    export::write_atomic(&dir.join("replicates.png"), |w| w.write_all(&picture.png()?))?;
+    write_picture(&dir.join("replicates.png"), &picture, style.svg)?;
     let bands = render::boundary_bands(&all, style);
-    export::write_atomic(&dir.join("boundary_bands.png"), |w| w.write_all(&bands.png()?))?;
+    write_picture(&dir.join("boundary_bands.png"), &bands, style.svg)?;
     if job.animate > 0 {
         let columns = (job.animate as f64).sqrt().ceil() as usize;
         let styles: Vec<render::Style> = (0..runs.len())

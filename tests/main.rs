@@ -26,3 +26,4 @@ mod sweep;
 mod tables;
 
 mod validation;
+mod vector;

@@ -298,9 +298,9 @@ pub struct FitArgs {
     /// Independent starts of the global search (seeds seed, seed+1, …; overrides `starts` in [fit]).
     #[arg(long, value_name = "N")]
     pub starts: Option<usize>,
-    /// White picture background.
-    #[arg(long)]
-    pub light: bool,
+    /// Background, size and SVG of the pictures.
+    #[command(flatten)]
+    pub canvas: CanvasArgs,
     /// Print nothing but errors.
     #[arg(short, long)]
     pub quiet: bool,
@@ -333,6 +333,9 @@ pub struct CompareArgs {
     /// report on standard error, and nothing written to disk.
     #[arg(short, long)]
     pub out: Option<PathBuf>,
+    /// Background, size and SVG of comparison.png.
+    #[command(flatten)]
+    pub canvas: CanvasArgs,
     /// Print what was found as one JSON document on standard output instead of the report.
     #[arg(long)]
     pub json: bool,
@@ -407,18 +410,37 @@ pub struct PortraitArgs {
     /// Output picture (default: portrait_n<N>_<A>_<B>.png in the run folder).
     #[arg(short, long)]
     pub out: Option<PathBuf>,
-    /// White background.
-    #[arg(long)]
-    pub light: bool,
-    /// Picture width, px.
-    #[arg(long)]
-    pub width: Option<u32>,
+    /// Background, size and SVG.
+    #[command(flatten)]
+    pub canvas: CanvasArgs,
     /// Also animate all nuclei moving over the portrait (`<name>_cloud.gif`).
     #[arg(long)]
     pub cloud: bool,
 }
 
-/// Picture options shared by `run` and `render`.
+/// Picture options of every verb that draws: background, size, SVG.
+#[derive(Debug, Args, Clone, Default)]
+pub struct CanvasArgs {
+    /// White background: genes darken like stains instead of adding like fluorescence.
+    #[arg(long)]
+    pub light: bool,
+    /// Picture width, px (320–4096; default 720). Up to 720 px pictures are laid out
+    /// narrower; wider ones are the 720-px layout with text and lines scaled up.
+    #[arg(long)]
+    pub width: Option<u32>,
+    /// Also write every picture as SVG (vector, text as text) beside its PNG.
+    #[arg(long)]
+    pub svg: bool,
+}
+
+impl CanvasArgs {
+    /// As library options (nothing else set).
+    pub fn options(&self) -> StyleOptions {
+        StyleOptions { light: self.light, width: self.width, svg: self.svg, ..Default::default() }
+    }
+}
+
+/// Picture options of the verbs that draw a run's genes.
 #[derive(Debug, Args, Clone, Default)]
 pub struct PictureArgs {
     /// Genes to show, comma-separated (default: all).
@@ -427,15 +449,12 @@ pub struct PictureArgs {
     /// Gene colour, GENE=#rrggbb (repeatable).
     #[arg(long = "color")]
     pub colors: Vec<String>,
-    /// White background: genes darken like stains instead of adding like fluorescence.
-    #[arg(long)]
-    pub light: bool,
+    /// Background, size and SVG.
+    #[command(flatten)]
+    pub canvas: CanvasArgs,
     /// Draw the one gene chosen with --genes as a heat map (perceptually uniform colours).
     #[arg(long)]
     pub heatmap: bool,
-    /// Picture width, px (320–4096; default 720).
-    #[arg(long)]
-    pub width: Option<u32>,
     /// Animation frames per second (default 10).
     #[arg(long)]
     pub fps: Option<u32>,
@@ -496,13 +515,12 @@ impl PictureArgs {
         StyleOptions {
             genes: self.genes.clone(),
             colors: self.colors.clone(),
-            light: self.light,
-            width: self.width,
             fps: self.fps,
             frame_every: self.frame_every,
             from_min: self.from_min,
             to_min: self.to_min,
             heatmap: self.heatmap,
+            ..self.canvas.options()
         }
     }
 }

@@ -14,7 +14,7 @@ use super::measure::bad_option;
 
 /// `anlage compare`.
 pub fn compare(args: &CompareArgs) -> anyhow::Result<()> {
-    let CompareArgs { run_dir, measured, stages, sd_floor, replicates, out, json } = args;
+    let CompareArgs { run_dir, measured, stages, sd_floor, replicates, out, canvas, json } = args;
     let (sd_floor, json) = (*sd_floor, *json);
     refuse_json_with_stdout(out.as_deref(), json)?;
     let to_stdout = table_to_stdout(out.as_deref());
@@ -59,10 +59,10 @@ pub fn compare(args: &CompareArgs) -> anyhow::Result<()> {
         let s = (0..rec.times.len())
             .find(|&s| cmp.rows.iter().any(|r| r.time_min == rec.times[s]))
             .unwrap_or(rec.times.len() - 1);
-        let mut style = Style::for_recording(rec);
-        style.title = format!("{}: simulated vs measured", saved.summary.title);
+        let title = format!("{}: simulated vs measured", saved.summary.title);
+        let style = Style::with_options(rec, &title, &canvas.options())?;
         let overlay = anlage::render::comparison_overlay(rec, s, &cmp, &style)?;
-        anlage::export::write_atomic(&dir.join("comparison.png"), |w| w.write_all(&overlay.png()?))?;
+        anlage::write_picture(&dir.join("comparison.png"), &overlay, style.svg)?;
     }
     if json {
         println!("{}", super::json::compare(&cmp, &dir));

@@ -12,11 +12,14 @@ use super::print;
 
 /// `anlage fit`.
 pub fn fit(args: &FitArgs) -> anyhow::Result<()> {
-    let FitArgs { model: path, out, threads, starts, light, quiet, json, cluster } = args;
+    let FitArgs { model: path, out, threads, starts, canvas, quiet, json, cluster } = args;
     if let Some(n) = threads {
         rayon::ThreadPoolBuilder::new().num_threads((*n).max(1)).build_global().context("setting threads")?;
     }
     let model = Model::load(path)?;
+    let names: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
+    let colors: Vec<[u8; 3]> = model.genes.iter().map(|g| g.color).collect();
+    let style = anlage::render::Style::for_genes(&names, &colors, &model.title, &canvas.options())?;
     let mut problem = anlage::fit::FitProblem::from_model(&model)?;
     if let Some(n) = starts {
         if !(1..=64).contains(n) {
@@ -53,8 +56,8 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<()> {
             result
         }
     };
-    let bg = if *light { anlage::render::Background::Light } else { anlage::render::Background::Dark };
-    anlage::write_fit(&problem, &result, bg, &dir).with_context(|| format!("writing the fit to {}", dir.display()))?;
+    anlage::write_fit(&problem, &result, &style, &dir)
+        .with_context(|| format!("writing the fit to {}", dir.display()))?;
     if *json {
         println!("{}", super::json::fit(&problem, &result, &dir));
     } else if !quiet {

@@ -71,10 +71,9 @@ pub fn basins(args: &BasinsArgs) -> anyhow::Result<()> {
 
 /// `anlage portrait`.
 pub fn portrait(args: &PortraitArgs) -> anyhow::Result<()> {
-    let PortraitArgs { source, nucleus, genes, time, out, light, width, cloud } = args;
+    let PortraitArgs { source, nucleus, genes, time, out, canvas, cloud } = args;
     let (model, rec, dir) = model_and_recording(source, None)?;
-    let opts = anlage::render::StyleOptions { light: *light, width: *width, ..Default::default() };
-    let style = Style::with_options(&rec, &model.title, &opts)?;
+    let style = Style::with_options(&rec, &model.title, &canvas.options())?;
     let index = |name: &str| {
         model.gene_index(name).ok_or_else(|| StyleError::UnknownGene {
             option: "--genes".into(),

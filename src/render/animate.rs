@@ -62,8 +62,8 @@ pub fn write_grid_gif(
                 .zip(&maxima)
                 .map(|((rec, st), max)| pattern(rec, s, st, max).map(|(c, _)| c).map_err(io))
                 .collect::<std::io::Result<_>>()?;
-            let (pw, ph) = (pictures[0].width(), pictures[0].height());
-            if pictures.iter().any(|p| (p.width(), p.height()) != (pw, ph)) {
+            let (pw, ph) = (pictures[0].pixel_width(), pictures[0].pixel_height());
+            if pictures.iter().any(|p| (p.pixel_width(), p.pixel_height()) != (pw, ph)) {
                 return Err(std::io::Error::other("the panels of a grid animation differ in size"));
             }
             let (w, h) = (pw * columns as u32, ph * rows as u32);
@@ -117,7 +117,8 @@ pub fn write_gif(rec: &Recording, style: &Style, out: &mut dyn Write) -> std::io
         .map(|&s| {
             let (canvas, _) = pattern(rec, s, style, &max).map_err(std::io::Error::other)?;
             let mut rgba = canvas.rgba().to_vec();
-            let mut f = gif::Frame::from_rgba_speed(canvas.width() as u16, canvas.height() as u16, &mut rgba, 10);
+            let mut f =
+                gif::Frame::from_rgba_speed(canvas.pixel_width() as u16, canvas.pixel_height() as u16, &mut rgba, 10);
             f.delay = delay;
             Ok(f)
         })

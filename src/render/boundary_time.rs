@@ -29,7 +29,7 @@ pub fn boundary_positions(
     let width = style.width.max(320);
     let (left, top, right, bottom) = (64.0, 64.0, 24.0, 76.0);
     let plot_h = 300.0;
-    let mut c = Canvas::new(width, (top + plot_h + bottom) as u32, bg.rgb());
+    let mut c = style.canvas(width, (top + plot_h + bottom) as u32);
     let a = Axes {
         left,
         top,

@@ -2,7 +2,10 @@
 //! a font compiled into the binary (DejaVu Sans, via the `dejavu` crate), so
 //! pictures are the same on any machine.
 
+use std::fmt::Write as _;
 use std::sync::OnceLock;
+
+use base64::Engine as _;
 
 use ab_glyph::{Font, FontRef, PxScale, ScaleFont};
 use tiny_skia::{FillRule, Paint, PathBuilder, Pixmap, Rect, Stroke, StrokeDash, Transform};
@@ -23,9 +26,24 @@ pub enum Align {
     Right,
 }
 
-/// An opaque RGBA picture being drawn.
+/// An opaque RGBA picture being drawn, and the same drawing as SVG.
+///
+/// Everything is placed in *layout units*, the pixels of the picture at
+/// scale 1; the pixels themselves are `scale` times as many along each
+/// side, and text, lines and marks grow with them, so that a picture asked
+/// twice as wide is the same picture, twice as sharp. Every drawing call is
+/// also kept as an SVG element ([`Canvas::svg`]): lines, shapes and text
+/// as vectors (text as text), filled areas of colour ([`Canvas::raster`]) as
+/// embedded PNG images at the pixel resolution.
+#[derive(Clone)]
 pub struct Canvas {
     pix: Pixmap,
+    /// Pixels per layout unit.
+    scale: f32,
+    /// Layout size.
+    size: (u32, u32),
+    /// The SVG elements drawn so far, in order.
+    svg: String,
 }
 
 fn paint(c: [u8; 3], alpha: u8) -> Paint<'static> {
@@ -35,55 +53,160 @@ fn paint(c: [u8; 3], alpha: u8) -> Paint<'static> {
     p
 }
 
+/// A number for SVG: at most two decimals, no trailing zeros.
+fn num(v: f32) -> String {
+    let s = format!("{v:.2}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" { "0".into() } else { s.to_string() }
+}
+
+fn hex(c: [u8; 3]) -> String {
+    format!("#{:02x}{:02x}{:02x}", c[0], c[1], c[2])
+}
+
+/// Text escaped for XML.
+fn escape(text: &str) -> String {
+    let mut out = String::with_capacity(text.len());
+    for ch in text.chars() {
+        match ch {
+            '&' => out.push_str("&amp;"),
+            '<' => out.push_str("&lt;"),
+            '>' => out.push_str("&gt;"),
+            '"' => out.push_str("&quot;"),
+            c => out.push(c),
+        }
+    }
+    out
+}
+
+/// The em size of text drawn at [`PxScale`] 1: ab_glyph's scale is the
+/// height from descender to ascender, CSS's font-size the em square.
+fn em_per_scale() -> f32 {
+    let f = font();
+    f.units_per_em().unwrap_or(2048.0) / f.height_unscaled()
+}
+
+/// The font named in SVG text: the one the PNGs are drawn with, then
+/// look-alikes a reader's machine is likely to have.
+const SVG_FONT: &str = "DejaVu Sans, Verdana, Arial, sans-serif";
+
 impl Canvas {
-    /// A `width × height` canvas filled with `bg`.
+    /// A `width × height` canvas filled with `bg`, at scale 1.
     ///
     /// # Panics
     /// If a side is zero.
     pub fn new(width: u32, height: u32, bg: [u8; 3]) -> Canvas {
-        let mut pix = Pixmap::new(width, height).expect("non-empty canvas");
-        pix.fill(tiny_skia::Color::from_rgba8(bg[0], bg[1], bg[2], 255));
-        Canvas { pix }
+        Canvas::scaled(width, height, bg, 1.0)
     }
 
-    /// Width, px.
+    /// A canvas laid out `width × height` and drawn at `scale` pixels per
+    /// layout unit (at least 1 pixel a side).
+    ///
+    /// # Panics
+    /// If a side is zero or `scale` is not positive.
+    pub fn scaled(width: u32, height: u32, bg: [u8; 3], scale: f32) -> Canvas {
+        assert!(scale > 0.0, "positive scale");
+        let px = |v: u32| ((v as f32 * scale).round() as u32).max(1);
+        let mut pix = Pixmap::new(px(width), px(height)).expect("non-empty canvas");
+        pix.fill(tiny_skia::Color::from_rgba8(bg[0], bg[1], bg[2], 255));
+        let svg = format!("<rect width=\"100%\" height=\"100%\" fill=\"{}\"/>\n", hex(bg));
+        Canvas { pix, scale, size: (width, height), svg }
+    }
+
+    /// Width, layout units (pixels at scale 1).
     pub fn width(&self) -> u32 {
+        self.size.0
+    }
+    /// Height, layout units.
+    pub fn height(&self) -> u32 {
+        self.size.1
+    }
+    /// Width of the picture, px.
+    pub fn pixel_width(&self) -> u32 {
         self.pix.width()
     }
-    /// Height, px.
-    pub fn height(&self) -> u32 {
+    /// Height of the picture, px.
+    pub fn pixel_height(&self) -> u32 {
         self.pix.height()
     }
-
-    /// Sets one pixel (opaque).
-    pub fn put(&mut self, x: u32, y: u32, c: [u8; 3]) {
-        let i = 4 * (y as usize * self.pix.width() as usize + x as usize);
-        self.pix.data_mut()[i..i + 4].copy_from_slice(&[c[0], c[1], c[2], 255]);
+    /// Pixels per layout unit.
+    pub fn scale(&self) -> f32 {
+        self.scale
     }
 
-    /// Reads one pixel.
+    fn transform(&self) -> Transform {
+        Transform::from_scale(self.scale, self.scale)
+    }
+
+    /// Reads the pixel under layout point (x, y).
     pub fn get(&self, x: u32, y: u32) -> [u8; 3] {
-        let i = 4 * (y as usize * self.pix.width() as usize + x as usize);
+        let px = ((x as f32 * self.scale) as u32).min(self.pix.width() - 1);
+        let py = ((y as f32 * self.scale) as u32).min(self.pix.height() - 1);
+        let i = 4 * (py as usize * self.pix.width() as usize + px as usize);
         let d = self.pix.data();
         [d[i], d[i + 1], d[i + 2]]
     }
 
-    /// Copies every pixel of `other` (same size).
-    ///
-    /// # Panics
-    /// If the sizes differ.
-    pub fn copy_from(&mut self, other: &Canvas) {
-        self.pix.data_mut().copy_from_slice(other.pix.data());
+    /// Fills the layout rectangle (`left`, `top`, `w`, `h`) pixel by pixel
+    /// with `colour(u, v)`, where u and v run from 0 to 1 across and down
+    /// the rectangle (taken at pixel centres); `None` leaves a pixel as it
+    /// is. In SVG the area is one embedded PNG image at pixel resolution,
+    /// transparent where `None`.
+    pub fn raster(&mut self, left: f32, top: f32, w: f32, h: f32, colour: impl Fn(f64, f64) -> Option<[u8; 3]>) {
+        let s = self.scale;
+        let (pw, ph) = (self.pix.width() as i64, self.pix.height() as i64);
+        let (x0, y0) = ((left * s).round() as i64, (top * s).round() as i64);
+        let (x1, y1) = (((left + w) * s).round() as i64, ((top + h) * s).round() as i64);
+        let (nw, nh) = (x1 - x0, y1 - y0);
+        if nw <= 0 || nh <= 0 {
+            return;
+        }
+        let mut image = vec![0u8; (4 * nw * nh) as usize];
+        let width = self.pix.width() as usize;
+        let data = self.pix.data_mut();
+        for y in 0..nh {
+            let v = (y as f64 + 0.5) / nh as f64;
+            for x in 0..nw {
+                let Some(c) = colour((x as f64 + 0.5) / nw as f64, v) else { continue };
+                let k = (4 * (y * nw + x)) as usize;
+                image[k..k + 4].copy_from_slice(&[c[0], c[1], c[2], 255]);
+                let (px, py) = (x0 + x, y0 + y);
+                if px >= 0 && py >= 0 && px < pw && py < ph {
+                    let i = 4 * (py as usize * width + px as usize);
+                    data[i..i + 4].copy_from_slice(&[c[0], c[1], c[2], 255]);
+                }
+            }
+        }
+        let png = encode_png(&image, nw as u32, nh as u32).unwrap_or_default();
+        let _ = writeln!(
+            self.svg,
+            "<image x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" preserveAspectRatio=\"none\" \
+             style=\"image-rendering:pixelated\" href=\"data:image/png;base64,{}\"/>",
+            num(x0 as f32 / s),
+            num(y0 as f32 / s),
+            num(nw as f32 / s),
+            num(nh as f32 / s),
+            base64::engine::general_purpose::STANDARD.encode(png)
+        );
     }
 
     /// Fills an axis-aligned rectangle.
     pub fn rect(&mut self, x: f32, y: f32, w: f32, h: f32, c: [u8; 3]) {
         if let Some(r) = Rect::from_xywh(x, y, w, h) {
-            self.pix.fill_rect(r, &paint(c, 255), Transform::identity(), None);
+            self.pix.fill_rect(r, &paint(c, 255), self.transform(), None);
+            let _ = writeln!(
+                self.svg,
+                "<rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" fill=\"{}\"/>",
+                num(x),
+                num(y),
+                num(w),
+                num(h),
+                hex(c)
+            );
         }
     }
 
-    /// Strokes a polyline, optionally dashed (`[on, off]` px).
+    /// Strokes a polyline, optionally dashed (`[on, off]` layout units).
     pub fn polyline(&mut self, pts: &[(f32, f32)], width: f32, c: [u8; 3], alpha: u8, dash: Option<[f32; 2]>) {
         if pts.len() < 2 {
             return;
@@ -95,7 +218,18 @@ impl Canvas {
         }
         let Some(path) = pb.finish() else { return };
         let stroke = Stroke { width, dash: dash.and_then(|d| StrokeDash::new(d.to_vec(), 0.0)), ..Stroke::default() };
-        self.pix.stroke_path(&path, &paint(c, alpha), &stroke, Transform::identity(), None);
+        self.pix.stroke_path(&path, &paint(c, alpha), &stroke, self.transform(), None);
+        let points: Vec<String> = pts.iter().map(|p| format!("{},{}", num(p.0), num(p.1))).collect();
+        let opacity =
+            if alpha < 255 { format!(" stroke-opacity=\"{}\"", num(alpha as f32 / 255.0)) } else { String::new() };
+        let dashes = dash.map_or_else(String::new, |d| format!(" stroke-dasharray=\"{} {}\"", num(d[0]), num(d[1])));
+        let _ = writeln!(
+            self.svg,
+            "<polyline points=\"{}\" fill=\"none\" stroke=\"{}\" stroke-width=\"{}\"{opacity}{dashes}/>",
+            points.join(" "),
+            hex(c),
+            num(width)
+        );
     }
 
     /// A straight line.
@@ -111,18 +245,24 @@ impl Canvas {
         let Some(path) = PathBuilder::from_oval(r) else {
             return;
         };
+        let t = self.transform();
         if let Some(f) = fill {
-            self.pix.fill_path(&path, &paint(f, 255), FillRule::Winding, Transform::identity(), None);
+            self.pix.fill_path(&path, &paint(f, 255), FillRule::Winding, t, None);
         }
         if width > 0.0 {
-            self.pix.stroke_path(
-                &path,
-                &paint(c, 255),
-                &Stroke { width, ..Stroke::default() },
-                Transform::identity(),
-                None,
-            );
+            self.pix.stroke_path(&path, &paint(c, 255), &Stroke { width, ..Stroke::default() }, t, None);
         }
+        let stroke =
+            if width > 0.0 { format!(" stroke=\"{}\" stroke-width=\"{}\"", hex(c), num(width)) } else { String::new() };
+        let _ = writeln!(
+            self.svg,
+            "<ellipse cx=\"{}\" cy=\"{}\" rx=\"{}\" ry=\"{}\" fill=\"{}\"{stroke}/>",
+            num(cx),
+            num(cy),
+            num(rx),
+            num(ry),
+            fill.map_or_else(|| "none".to_string(), hex)
+        );
     }
 
     /// Width of `text` at `size` px.
@@ -143,6 +283,23 @@ impl Canvas {
 
     /// Draws `text` with its baseline at `y`, antialiased.
     pub fn text(&mut self, x: f32, y: f32, size: f32, c: [u8; 3], align: Align, text: &str) {
+        let anchor = match align {
+            Align::Left => "start",
+            Align::Centre => "middle",
+            Align::Right => "end",
+        };
+        let _ = writeln!(
+            self.svg,
+            "<text x=\"{}\" y=\"{}\" font-family=\"{SVG_FONT}\" font-size=\"{}\" text-anchor=\"{anchor}\" \
+             fill=\"{}\">{}</text>",
+            num(x),
+            num(y),
+            num(size * em_per_scale()),
+            hex(c),
+            escape(text)
+        );
+        let s = self.scale;
+        let (x, y, size) = (x * s, y * s, size * s);
         let scaled = font().as_scaled(PxScale::from(size));
         let width = Canvas::text_width(size, text);
         let mut pen = match align {
@@ -179,6 +336,19 @@ impl Canvas {
         }
     }
 
+    /// The drawing as a standalone SVG document: `pixel_width × pixel_height`
+    /// on the page, laid out in layout units (the `viewBox`).
+    pub fn svg(&self) -> String {
+        let (w, h) = self.size;
+        format!(
+            "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n<svg xmlns=\"http://www.w3.org/2000/svg\" \
+             width=\"{}\" height=\"{}\" viewBox=\"0 0 {w} {h}\">\n{}</svg>\n",
+            self.pix.width(),
+            self.pix.height(),
+            self.svg
+        )
+    }
+
     /// The pixels as straight RGBA bytes (every pixel is opaque).
     pub fn rgba(&self) -> &[u8] {
         self.pix.data()
@@ -189,16 +359,15 @@ impl Canvas {
     /// # Errors
     /// An I/O error if encoding fails.
     pub fn png(&self) -> std::io::Result<Vec<u8>> {
-        let mut out = Vec::new();
-        let encoder = image::codecs::png::PngEncoder::new(&mut out);
-        image::ImageEncoder::write_image(
-            encoder,
-            self.rgba(),
-            self.width(),
-            self.height(),
-            image::ExtendedColorType::Rgba8,
-        )
-        .map_err(std::io::Error::other)?;
-        Ok(out)
+        encode_png(self.rgba(), self.pixel_width(), self.pixel_height())
     }
+}
+
+/// Straight RGBA bytes, `width × height`, as PNG.
+fn encode_png(rgba: &[u8], width: u32, height: u32) -> std::io::Result<Vec<u8>> {
+    let mut out = Vec::new();
+    let encoder = image::codecs::png::PngEncoder::new(&mut out);
+    image::ImageEncoder::write_image(encoder, rgba, width, height, image::ExtendedColorType::Rgba8)
+        .map_err(std::io::Error::other)?;
+    Ok(out)
 }

@@ -1,15 +1,16 @@
 //! Fit pictures: the objective trace and the fitted against the measured
 //! boundaries of every genotype.
 
+use super::Style;
 use super::axes::{self, Axes};
 use super::canvas::{Align, Canvas};
-use super::colour::Background;
 use crate::fit::FitResult;
 
 /// Best objective (log10) against objective evaluations.
-pub fn fit_trace(r: &FitResult, title: &str, bg: Background) -> Canvas {
+pub fn fit_trace(r: &FitResult, title: &str, style: &Style) -> Canvas {
+    let bg = style.background;
     let (w, h) = (720u32, 440u32);
-    let mut c = Canvas::new(w, h, bg.rgb());
+    let mut c = style.canvas(w, h);
     c.text(20.0, 28.0, 16.0, bg.ink(), Align::Left, &format!("{title}: fit progress"));
     let pts: Vec<(f64, f64)> =
         r.search.trace.iter().filter(|(_, v)| v.is_finite()).map(|(n, v)| (*n as f64, v.max(1e-12).log10())).collect();
@@ -52,12 +53,13 @@ pub fn fit_boundaries(
     genotypes: &[String],
     genes: &[(String, [u8; 3])],
     title: &str,
-    bg: Background,
+    style: &Style,
 ) -> Canvas {
+    let bg = style.background;
     let row_h = 46.0f32;
     let (w, top) = (720u32, 80.0f32);
     let h = (top + row_h * genotypes.len().max(1) as f32 + 110.0) as u32;
-    let mut c = Canvas::new(w, h, bg.rgb());
+    let mut c = style.canvas(w, h);
     c.text(20.0, 28.0, 16.0, bg.ink(), Align::Left, &format!("{title}: fitted vs measured boundaries"));
     c.text(
         20.0,
@@ -113,11 +115,12 @@ pub fn fit_boundaries(
 
 /// One panel per profiled parameter: objective above the best against the
 /// parameter's value, with the 95 % line (3.84) dashed.
-pub fn fit_profiles(r: &FitResult, names: &[String], title: &str, bg: Background) -> Canvas {
+pub fn fit_profiles(r: &FitResult, names: &[String], title: &str, style: &Style) -> Canvas {
+    let bg = style.background;
     let panel = 230.0f32;
     let w = 720u32;
     let h = (60.0 + panel * r.profiles.len().max(1) as f32) as u32;
-    let mut c = Canvas::new(w, h, bg.rgb());
+    let mut c = style.canvas(w, h);
     c.text(20.0, 28.0, 16.0, bg.ink(), Align::Left, &format!("{title}: profile likelihoods"));
     for (k, p) in r.profiles.iter().enumerate() {
         let pts: Vec<(f64, f64)> = p.points.iter().map(|(v, f)| (*v, (f - r.objective).max(0.0))).collect();

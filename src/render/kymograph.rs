@@ -72,16 +72,9 @@ pub fn space_time(
     let (left, top, right, bottom) = (64.0, 64.0, 24.0, 58.0 + footer);
     let width = style.width.max(320);
     let height = (top + plot_h + bottom) as u32;
-    let mut c = Canvas::new(width, height, bg.rgb());
+    let mut c = style.canvas(width, height);
     let a = Axes::along_axis(left, top, right, width, plot_h, (t0, if t1 > t0 { t1 } else { t0 + 1.0 }), true);
-    let (pw, ph) = (a.width.round() as u32, a.height.round() as u32);
-    for row in 0..ph {
-        let t = a.y.0 + (row as f64 + 0.5) / ph as f64 * (a.y.1 - a.y.0);
-        let k = nearest(times, t);
-        for col in 0..pw {
-            c.put(left as u32 + col, top as u32 + row, paint((col as f64 + 0.5) / pw as f64, k));
-        }
-    }
+    c.raster(a.left, a.top, a.width, a.height, |u, v| Some(paint(u, nearest(times, a.y.0 + v * (a.y.1 - a.y.0)))));
     axes::draw(&mut c, &a, x_label, y_label, bg);
     title_and_label(&mut c, left, width as f32 - right, 26.0, bg, &style.title);
     (c, a)

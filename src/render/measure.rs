@@ -49,46 +49,44 @@ pub fn check_picture(p: &Planes, m: &ImageMeasurement, genes: &[(String, [u8; 3]
     let skipped = |k: u32| m.skipped.iter().find(|s| s.number as u32 == k);
     // Lines in white over a dark (fluorescent) image, black over a light one.
     let ink = if m.contrast == Contrast::Dark { [0, 0, 0] } else { [255, 255, 255] };
-    for y in 0..h {
-        for x in 0..w {
-            let (sx, sy) = (((x as f64 + 0.5) / scale) as usize, ((y as f64 + 0.5) / scale) as usize);
-            let (sx, sy) = (sx.min(p.width - 1), sy.min(p.height - 1));
-            let mut rgb = [0u8; 3];
-            for (k, v) in rgb.iter_mut().enumerate().take(p.planes.len()) {
-                let (lo, hi) = ranges[k];
-                *v = if hi > lo { ((p.at(k, sx, sy) - lo) / (hi - lo) * 255.0).round() as u8 } else { 0 };
-            }
-            if p.planes.len() == 1 {
-                rgb = [rgb[0]; 3];
-            }
-            let i = sy * p.width + sx;
-            let k = m.labels[i];
-            let other = |j: usize| m.labels[j] != k;
-            let edge = k != 0
-                && (sx == 0
-                    || sy == 0
-                    || sx + 1 == p.width
-                    || sy + 1 == p.height
-                    || other(i - 1)
-                    || other(i - p.width)
-                    || other(i + 1)
-                    || other(i + p.width));
-            let colour = match (edge, skipped(k)) {
-                (false, _) => rgb,
-                (true, None) => ink,
-                (true, Some(s)) if s.cut => [150, 150, 150],
-                // Refused: dashed white and black.
-                (true, Some(_)) => {
-                    if (x / 6 + y / 6) % 2 == 0 {
-                        [255, 255, 255]
-                    } else {
-                        [0, 0, 0]
-                    }
-                }
-            };
-            c.put(x, y, colour);
+    c.raster(0.0, 0.0, w as f32, h as f32, |u, v| {
+        let (x, y) = ((u * w as f64) as u32, (v * h as f64) as u32);
+        let (sx, sy) = (((x as f64 + 0.5) / scale) as usize, ((y as f64 + 0.5) / scale) as usize);
+        let (sx, sy) = (sx.min(p.width - 1), sy.min(p.height - 1));
+        let mut rgb = [0u8; 3];
+        for (k, v) in rgb.iter_mut().enumerate().take(p.planes.len()) {
+            let (lo, hi) = ranges[k];
+            *v = if hi > lo { ((p.at(k, sx, sy) - lo) / (hi - lo) * 255.0).round() as u8 } else { 0 };
         }
-    }
+        if p.planes.len() == 1 {
+            rgb = [rgb[0]; 3];
+        }
+        let i = sy * p.width + sx;
+        let k = m.labels[i];
+        let other = |j: usize| m.labels[j] != k;
+        let edge = k != 0
+            && (sx == 0
+                || sy == 0
+                || sx + 1 == p.width
+                || sy + 1 == p.height
+                || other(i - 1)
+                || other(i - p.width)
+                || other(i + 1)
+                || other(i + p.width));
+        Some(match (edge, skipped(k)) {
+            (false, _) => rgb,
+            (true, None) => ink,
+            (true, Some(s)) if s.cut => [150, 150, 150],
+            // Refused: dashed white and black.
+            (true, Some(_)) => {
+                if (x / 6 + y / 6) % 2 == 0 {
+                    [255, 255, 255]
+                } else {
+                    [0, 0, 0]
+                }
+            }
+        })
+    });
     let s = scale as f32;
     for e in &m.embryos {
         draw_embryo(&mut c, e, s, genes, ink);

@@ -57,8 +57,12 @@ pub struct Style {
     pub genes: Vec<usize>,
     /// Colour of each gene of the recording.
     pub colors: Vec<[u8; 3]>,
-    /// Picture width, px.
+    /// Picture width, layout units: the pixels at scale 1 (see [`Canvas`]).
     pub width: u32,
+    /// Pixels per layout unit: text, lines and marks grow with it.
+    pub scale: f32,
+    /// Also write every picture as SVG beside its PNG.
+    pub svg: bool,
     /// Animation frames per second.
     pub fps: u32,
     /// Animations show every this many snapshots (and always the last).
@@ -73,12 +77,19 @@ pub struct Style {
 impl Style {
     /// Every gene, its own colour, dark background, 720 px, 10 frames/s, all times.
     pub fn for_recording(rec: &Recording) -> Style {
+        Style { genes: (0..rec.genes.len()).collect(), colors: rec.colors.clone(), ..Style::plain() }
+    }
+
+    /// No genes, dark background, 720 px at scale 1, 10 frames/s, all times.
+    pub fn plain() -> Style {
         Style {
             title: String::new(),
             background: Background::Dark,
-            genes: (0..rec.genes.len()).collect(),
-            colors: rec.colors.clone(),
+            genes: Vec::new(),
+            colors: Vec::new(),
             width: 720,
+            scale: 1.0,
+            svg: false,
             fps: 10,
             frame_every: 1,
             time_range: (f64::NEG_INFINITY, f64::INFINITY),
@@ -95,6 +106,11 @@ impl Style {
             out.push(n - 1);
         }
         out
+    }
+
+    /// A canvas of this style's background and scale, laid out `width × height`.
+    pub fn canvas(&self, width: u32, height: u32) -> Canvas {
+        Canvas::scaled(width, height, self.background.rgb(), self.scale)
     }
 
     /// Indices of the snapshots inside the time range.

@@ -46,6 +46,10 @@ pub enum StyleError {
     },
 }
 
+/// The width pictures are laid out at, px: a wider picture is the same
+/// layout with everything scaled up (common practice, no source).
+pub const LAYOUT_WIDTH: u32 = 720;
+
 /// Picture options by name.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct StyleOptions {
@@ -57,6 +61,8 @@ pub struct StyleOptions {
     pub light: bool,
     /// Width, px.
     pub width: Option<u32>,
+    /// Also write SVG.
+    pub svg: bool,
     /// Frames per second.
     pub fps: Option<u32>,
     /// Animations show every this many snapshots (and the last).
@@ -75,11 +81,36 @@ impl Style {
     /// # Errors
     /// [`StyleError`] for unknown genes, bad colours, sizes out of range or an empty time range.
     pub fn with_options(rec: &Recording, title: &str, opts: &StyleOptions) -> Result<Style, StyleError> {
-        let mut style = Style::for_recording(rec);
+        let mut style = Style::for_genes(&rec.genes, &rec.colors, title, opts)?;
+        style.time_range = (opts.from_min.unwrap_or(f64::NEG_INFINITY), opts.to_min.unwrap_or(f64::INFINITY));
+        if style.snapshots(rec).is_empty() {
+            return Err(StyleError::EmptyTimeRange {
+                from: style.time_range.0,
+                to: style.time_range.1,
+                first: rec.times[0],
+                last: *rec.times.last().unwrap_or(&0.0),
+            });
+        }
+        Ok(style)
+    }
+
+    /// The style of pictures of genes `names` (colours `colors`) drawn
+    /// without a recording (a fit's), changed by `opts`; its time range is
+    /// all times.
+    ///
+    /// # Errors
+    /// [`StyleError`] for unknown genes, bad colours or sizes out of range.
+    pub fn for_genes(
+        names: &[String],
+        colors: &[[u8; 3]],
+        title: &str,
+        opts: &StyleOptions,
+    ) -> Result<Style, StyleError> {
+        let mut style = Style { genes: (0..names.len()).collect(), colors: colors.to_vec(), ..Style::plain() };
         style.title = title.to_string();
-        let known = || rec.genes.join(", ");
+        let known = || names.join(", ");
         let index = |option: &str, name: &str| {
-            rec.genes.iter().position(|g| g == name).ok_or_else(|| StyleError::UnknownGene {
+            names.iter().position(|g| g == name).ok_or_else(|| StyleError::UnknownGene {
                 option: option.into(),
                 name: name.into(),
                 known: known(),
@@ -115,8 +146,13 @@ impl Style {
                     fix: "give 320 to 4096 px".into(),
                 });
             }
-            style.width = w;
+            // Up to the layout width pictures are laid out narrower; beyond
+            // it the same layout is drawn with more pixels, text and lines
+            // scaled with it.
+            style.width = w.min(LAYOUT_WIDTH);
+            style.scale = w as f32 / style.width as f32;
         }
+        style.svg = opts.svg;
         if let Some(f) = opts.fps {
             if !(1..=50).contains(&f) {
                 return Err(StyleError::OutOfRange {
@@ -136,15 +172,6 @@ impl Style {
                 });
             }
             style.frame_every = k;
-        }
-        style.time_range = (opts.from_min.unwrap_or(f64::NEG_INFINITY), opts.to_min.unwrap_or(f64::INFINITY));
-        if style.snapshots(rec).is_empty() {
-            return Err(StyleError::EmptyTimeRange {
-                from: style.time_range.0,
-                to: style.time_range.1,
-                first: rec.times[0],
-                last: *rec.times.last().unwrap_or(&0.0),
-            });
         }
         Ok(style)
     }

@@ -64,18 +64,15 @@ pub fn pattern(
             (((nx as f32 * scale) as u32).max(1), ((ny as f32 * scale) as u32).max(1))
         };
         let height = 70 + sh + 80;
-        let mut c = Canvas::new(width, height, bg.rgb());
+        let mut c = style.canvas(width, height);
         let (left, top) = ((width - sw) / 2, 70);
         let state = &rec.state(s)?;
-        let rows: Vec<u32> = (0..sh).map(|py| ((py as u64 * ny as u64) / sh as u64) as u32).collect();
-        let cols: Vec<u32> = (0..sw).map(|px| ((px as u64 * nx as u64) / sw as u64) as u32).collect();
-        for (py, &iy) in rows.iter().enumerate() {
-            for (px, &ix) in cols.iter().enumerate() {
-                let i = (iy * nx + ix) as usize;
-                let rgb = style.paint(&colors, style.genes.iter().map(|&g| state[[g, i]] / max[g]));
-                c.put(left + px as u32, top + sh - 1 - py as u32, rgb);
-            }
-        }
+        c.raster(left as f32, top as f32, sw as f32, sh as f32, |u, v| {
+            let ix = ((u * nx as f64) as u32).min(nx - 1);
+            let iy = (((1.0 - v) * ny as f64) as u32).min(ny - 1);
+            let i = (iy * nx + ix) as usize;
+            Some(style.paint(&colors, style.genes.iter().map(|&g| state[[g, i]] / max[g])))
+        });
         let (l, t) = (left as f32, top as f32);
         c.polyline(
             &[(l, t), (l + sw as f32, t), (l + sw as f32, t + sh as f32), (l, t + sh as f32), (l, t)],
@@ -92,20 +89,18 @@ pub fn pattern(
         let ry = (rx * 0.36).round();
         let (cx, cy) = (width as f32 / 2.0, 70.0 + ry);
         let height = (cy + ry + 90.0) as u32;
-        let mut c = Canvas::new(width, height, bg.rgb());
+        let mut c = style.canvas(width, height);
         let profiles = rec.axis_profiles(s, style.genes.iter().copied())?;
-        for py in (cy - ry).floor() as u32..(cy + ry).ceil() as u32 {
-            for px in (cx - rx).floor() as u32..(cx + rx).ceil() as u32 {
-                let (dx, dy) = ((px as f32 + 0.5 - cx) / rx, (py as f32 + 0.5 - cy) / ry);
-                if dx * dx + dy * dy > 1.0 {
-                    continue;
-                }
-                let x_um = ((px as f32 + 0.5 - (cx - rx)) / (2.0 * rx)) as f64 * length;
-                let levels =
-                    style.genes.iter().zip(&profiles).map(|(&g, p)| level_at(p, rec.grid.spacing_um, x_um) / max[g]);
-                c.put(px, py, style.paint(&colors, levels));
+        c.raster(cx - rx, cy - ry, 2.0 * rx, 2.0 * ry, |u, v| {
+            let (dx, dy) = (2.0 * u - 1.0, 2.0 * v - 1.0);
+            if dx * dx + dy * dy > 1.0 {
+                return None;
             }
-        }
+            let x_um = u * length;
+            let levels =
+                style.genes.iter().zip(&profiles).map(|(&g, p)| level_at(p, rec.grid.spacing_um, x_um) / max[g]);
+            Some(style.paint(&colors, levels))
+        });
         c.ellipse(cx, cy, rx, ry, 2.0, bg.muted(), None);
         for pct in [0.0f32, 50.0, 100.0] {
             let x = cx - rx + pct / 100.0 * 2.0 * rx;

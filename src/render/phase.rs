@@ -81,7 +81,7 @@ pub fn landscape_picture(rec: &Recording, l: &Landscape, gene: usize, style: &St
     let width = style.width.max(320);
     let (left, top, right, bottom) = (64.0, 70.0, 24.0, 64.0);
     let plot_h = 320.0;
-    let mut c = Canvas::new(width, (top + plot_h + bottom) as u32, bg.rgb());
+    let mut c = style.canvas(width, (top + plot_h + bottom) as u32);
     let ymax = l
         .branches
         .iter()

@@ -48,8 +48,7 @@ pub fn write_cloud_gif(
     let frames: Vec<gif::Frame<'static>> = (0..rec.times.len())
         .into_par_iter()
         .map(|s| {
-            let mut c = Canvas::new(base.width(), base.height(), style.background.rgb());
-            c.copy_from(&base);
+            let mut c = base.clone();
             let state = rec.state(s).map_err(std::io::Error::other)?;
             for ix in 0..nx {
                 let i = row0 + ix;
@@ -68,7 +67,7 @@ pub fn write_cloud_gif(
                 &format!("all nuclei, t = {} min", time_text(rec.times[s])),
             );
             let mut rgba = c.rgba().to_vec();
-            let mut f = gif::Frame::from_rgba_speed(c.width() as u16, c.height() as u16, &mut rgba, 10);
+            let mut f = gif::Frame::from_rgba_speed(c.pixel_width() as u16, c.pixel_height() as u16, &mut rgba, 10);
             f.delay = delay;
             Ok(f)
         })
@@ -83,7 +82,7 @@ fn portrait_with_axes(rec: &Recording, d: &PortraitData, style: &Style, trajecto
     let width = style.width.max(420);
     let (left, top, right, bottom) = (70.0, 84.0, 30.0, 96.0);
     let side = width as f32 - left - right;
-    let mut c = Canvas::new(width, (top + side + bottom) as u32, bg.rgb());
+    let mut c = style.canvas(width, (top + side + bottom) as u32);
     let a = Axes { left, top, width: side, height: side, x: d.bounds[0], y: d.bounds[1], y_down: false };
     let [ga, gb] = d.genes;
     // Flow field: unit arrows in pixel space, a little shorter than the grid step.

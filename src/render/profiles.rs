@@ -62,7 +62,7 @@ pub fn profiles_with_axes(
     let rows = placed.iter().map(|p| p.2 + 1).max().unwrap_or(0);
     const LEGEND_LINE: f32 = 46.0;
     let top = (LEGEND_LINE + 8.0 + 12.0 * rows as f32).max(70.0);
-    let mut c = Canvas::new(width, (top + plot_h + bottom) as u32, bg.rgb());
+    let mut c = style.canvas(width, (top + plot_h + bottom) as u32);
     let picks = chosen_snapshots(&style.snapshots(rec));
     let top_levels = rec.max_levels(picks.iter().copied())?;
     let ymax = style.genes.iter().map(|&g| top_levels[g]).fold(0.0f64, f64::max);

@@ -15,7 +15,7 @@ pub fn replicates_picture(r: &Replicates, style: &Style) -> Canvas {
     let width = style.width.max(360);
     let (left, right) = (72.0, 24.0);
     let (top1, h1, gap, h2, bottom) = (70.0, 260.0, 70.0, 170.0, 64.0);
-    let mut c = Canvas::new(width, (top1 + h1 + gap + h2 + bottom) as u32, bg.rgb());
+    let mut c = style.canvas(width, (top1 + h1 + gap + h2 + bottom) as u32);
     let p = &r.profiles;
     let nuclei = r.decoded_um.len();
     let ymax = style

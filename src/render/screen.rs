@@ -37,7 +37,7 @@ pub fn shift_chart(s: &Screen, genes: &[String], style: &Style) -> Canvas {
     let row_h = 22.0;
     let width = style.width.max(480);
     let plot_h = row_h * (rows + 1) as f32;
-    let mut c = Canvas::new(width, (top + plot_h + bottom) as u32, bg.rgb());
+    let mut c = style.canvas(width, (top + plot_h + bottom) as u32);
     let a = Axes::along_axis(left, top, right, width, plot_h, (0.0, 1.0), true);
     let y_of = |k: usize| top + row_h * (k as f32 + 0.5);
     for k in 0..=rows {
@@ -127,7 +127,7 @@ pub fn sensitivity_map(rows: &[SensitivityRow], style: &Style) -> Canvas {
     let cell_h = 20.0;
     let width = (left + cell_w * cols.len() as f32 + 24.0).max(640.0) as u32;
     let height = (top + cell_h * params.len() as f32 + 80.0) as u32;
-    let mut c = Canvas::new(width, height, bg.rgb());
+    let mut c = style.canvas(width, height);
     let max = rows.iter().filter_map(|r| r.d_pct_per_ln).map(f64::abs).fold(1e-12, f64::max);
     for (j, (g, d, p)) in cols.iter().enumerate() {
         let x = left + cell_w * (j as f32 + 0.5);

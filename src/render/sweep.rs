@@ -56,7 +56,7 @@ pub fn sweep_picture(s: &Sweep, style: &Style) -> Canvas {
     let bg = style.background;
     let width = style.width.max(420);
     let (left, right, top, plot_h, bottom) = (78.0, 24.0, 96.0, 360.0, 70.0);
-    let mut c = Canvas::new(width, (top + plot_h + bottom) as u32, bg.rgb());
+    let mut c = style.canvas(width, (top + plot_h + bottom) as u32);
     let a0 = &s.axes[0];
     let label = |a: &crate::sweep::Axis| if a.log { format!("log10 {}", a.name) } else { a.name.clone() };
     let span = |a: &crate::sweep::Axis| {

@@ -48,6 +48,7 @@ pub mod integrate;
 pub mod kinetics;
 pub mod measure;
 pub mod model;
+pub mod page;
 pub mod phase;
 pub mod progress;
 

@@ -19,6 +19,7 @@ mod pictures;
 mod properties;
 mod rates;
 mod replicates;
+mod report_page;
 mod safety;
 mod screen;
 mod slurm;

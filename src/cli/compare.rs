@@ -63,6 +63,9 @@ pub fn compare(args: &CompareArgs) -> anyhow::Result<()> {
         let style = Style::with_options(rec, &title, &canvas.options())?;
         let overlay = anlage::render::comparison_overlay(rec, s, &cmp, &style)?;
         anlage::write_picture(&dir.join("comparison.png"), &overlay, style.svg)?;
+        anlage::page::write_page(&dir, &saved.summary.title)?;
+        // In the run's own folder the page is part of the run's set.
+        anlage::run_folder::add_to_manifest(&dir, &[anlage::page::PAGE.to_string()])?;
     }
     if json {
         println!("{}", super::json::compare(&cmp, &dir));

@@ -58,6 +58,7 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<()> {
     };
     anlage::write_fit(&problem, &result, &style, &dir)
         .with_context(|| format!("writing the fit to {}", dir.display()))?;
+    anlage::page::write_page(&dir, &model.title)?;
     if *json {
         println!("{}", super::json::fit(&problem, &result, &dir));
     } else if !quiet {

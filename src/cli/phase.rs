@@ -61,6 +61,7 @@ pub fn basins(args: &BasinsArgs) -> anyhow::Result<()> {
     }
     let report = anlage::write_basins(&model, &rec, &opts, &style, gene, &dir, &super::bar::Bar::new(false))
         .with_context(|| format!("writing basins to {}", dir.display()))?;
+    anlage::page::write_page(&dir, &model.title)?;
     super::json::print_either(
         *json,
         || super::json::basins(&report, &rec, &dir),

@@ -152,9 +152,14 @@ pub fn render(args: &RenderArgs) -> anyhow::Result<()> {
     for path in written.iter().filter(|_| !quiet) {
         println!("wrote {}", path.display());
     }
+    let page = anlage::page::write_page(&dir, &saved.summary.title)?;
+    if !quiet {
+        println!("wrote {}", page.display());
+    }
     if &dir == run_dir {
-        let names: Vec<String> =
+        let mut names: Vec<String> =
             written.iter().filter_map(|p| p.file_name().map(|n| n.to_string_lossy().into_owned())).collect();
+        names.push(anlage::page::PAGE.into());
         anlage::run_folder::add_to_manifest(&dir, &names)?;
     }
     Ok(())

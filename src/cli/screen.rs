@@ -183,6 +183,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
             None
         }
     };
+    anlage::page::write_page(&dir, &model.title)?;
     super::json::print_either(
         *json,
         || super::json::screen(&screen, paired.as_deref(), &epistasis, &dir),
@@ -241,6 +242,7 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
         Mode::Whole => anlage::write_sensitivity(&model, *step, &style, &dir, true, &bar)
             .with_context(|| format!("sensitivity of {}", path.display()))?,
     };
+    anlage::page::write_page(&dir, &model.title)?;
     super::json::print_either(*json, || super::json::sensitivity(&rows, &dir), || print::sensitivity(&rows, &dir));
     Ok(())
 }
@@ -294,12 +296,14 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         Mode::Merge => {
             let s = anlage::sweep::shard::merge(&model, &axes, &job, &dir)?;
             anlage::write_sweep_files(&s, &style, &dir).with_context(|| format!("merging into {}", dir.display()))?;
+            anlage::page::write_page(&dir, &model.title)?;
             super::json::print_either(*json, || super::json::sweep(&s, &dir), || print::sweep(&s, &dir));
             return Ok(());
         }
     }
     let s = anlage::write_sweep(&model, &axes, &style, &dir, true, &super::bar::Bar::new(*json))
         .with_context(|| format!("sweeping {}", path.display()))?;
+    anlage::page::write_page(&dir, &model.title)?;
     super::json::print_either(*json, || super::json::sweep(&s, &dir), || print::sweep(&s, &dir));
     Ok(())
 }
@@ -384,6 +388,7 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
     let paired = name.as_ref().map(|m| (m.name.as_str(), &wild_type));
     let report = anlage::write_replicates(&model, job, paired, &style, &dir, embryo_source(saved.as_ref()), &bar)
         .with_context(|| format!("replicates of {}", path.display()))?;
+    anlage::page::write_page(&dir, &model.title)?;
     super::json::print_either(
         *json,
         || super::json::replicates(&report, &dir),

@@ -6,7 +6,8 @@
 //!       states.npy   snapshots × genes × nuclei (× rows), f64
 //!       summary.json [`Summary`]: what was run, how it went, final boundaries
 //!       model.toml   the model file as run
-//!       *.png, pattern.gif
+//!       *.png, pattern.gif (and *.svg when asked)
+//!       report.html  the report page ([`crate::page`])
 //!       manifest.json every file with its size and SHA-256, written last
 //! ```
 //! Tables and pictures are written through [`crate::export`] (formats) and
@@ -77,17 +78,20 @@ pub fn write_run(
             written.extend(p.file_name().map(|n| n.to_string_lossy().into_owned()));
         }
     }
+    written.push(crate::page::PAGE.into());
     // Outputs of an earlier run of another kind (a sheet's table, pictures
     // not drawn this time) would pass for this run's: they go.
     for stale in RUN_OUTPUTS.iter().filter(|n| !written.iter().any(|w| w == *n)) {
         let _ = std::fs::remove_file(path(stale));
     }
+    // The page shows what the folder now holds, so it comes after the rest.
+    crate::page::write_page(dir, &model.title)?;
     manifest::write_manifest(dir, &written)?;
     Ok(summary)
 }
 
 /// Every file `anlage run` can write into its folder (besides the manifest).
-pub const RUN_OUTPUTS: [&str; 12] = [
+pub const RUN_OUTPUTS: &[&str] = &[
     "profiles.csv",
     "profiles_long.csv",
     "final_sheet.csv",
@@ -99,5 +103,11 @@ pub const RUN_OUTPUTS: [&str; 12] = [
     "kymograph.png",
     "pattern.png",
     "profiles.png",
+    "boundary_positions.png",
+    "kymograph.svg",
+    "pattern.svg",
+    "profiles.svg",
+    "boundary_positions.svg",
     "pattern.gif",
+    crate::page::PAGE,
 ];

@@ -18,7 +18,7 @@ fn main() {
     for _ in 0..2 {
         let mut out = Vec::new();
         let start = Instant::now();
-        frames = render::write_gif(&rec, &style, &mut out).expect("gif");
+        frames = render::write_gif(&rec, &style, &mut out).expect("gif").frames;
         best = best.min(start.elapsed().as_secs_f64());
         size = out.len();
     }

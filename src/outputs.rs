@@ -47,6 +47,16 @@ pub enum PictureKind {
     Animation,
 }
 
+/// Pictures written, and notes on any that were changed to meet a size
+/// asked for (`--gif-max-mb`), to be shown to the user.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Pictures {
+    /// The files written.
+    pub files: Vec<PathBuf>,
+    /// What was given up, file by file.
+    pub notes: Vec<String>,
+}
+
 /// Draws pictures of a recording into `dir`: `kymograph.png`,
 /// `boundary_positions.png`, `pattern.png`, `profiles.png` and
 /// `pattern.gif`; returns the files written.
@@ -59,12 +69,13 @@ pub fn write_pictures(
     style: &render::Style,
     dir: &Path,
     kind: PictureKind,
-) -> Result<Vec<PathBuf>, export::ExportError> {
+) -> Result<Pictures, export::ExportError> {
     let wants = |k: PictureKind| kind == PictureKind::All || kind == k;
     let mut written = Vec::new();
+    let mut notes = Vec::new();
     let snaps = style.snapshots(rec);
     let Some(&last) = snaps.last() else {
-        return Ok(written);
+        return Ok(Pictures::default());
     };
     let mut png = |name: &str, canvas: render::Canvas| -> Result<(), export::ExportError> {
         written.extend(write_picture(&dir.join(name), &canvas, style.svg)?);
@@ -87,10 +98,15 @@ pub fn write_pictures(
     }
     if wants(PictureKind::Animation) {
         let path = dir.join("pattern.gif");
-        export::write_atomic(&path, |w| render::write_gif(rec, style, w).map(|_| ()))?;
+        let mut made = None;
+        export::write_atomic(&path, |w| {
+            made = Some(render::write_gif(rec, style, w)?);
+            Ok(())
+        })?;
+        notes.extend(made.and_then(|m| m.describe("pattern.gif")));
         written.push(path);
     }
-    Ok(written)
+    Ok(Pictures { files: written, notes })
 }
 
 /// Writes `canvas` as PNG at `path` and, with `svg`, as SVG beside it (the
@@ -101,10 +117,13 @@ pub fn write_pictures(
 pub fn write_picture(path: &Path, canvas: &render::Canvas, svg: bool) -> Result<Vec<PathBuf>, export::ExportError> {
     export::write_atomic(path, |w| w.write_all(&canvas.png()?))?;
     let mut files = vec![path.to_path_buf()];
+    let svg_path = path.with_extension("svg");
     if svg {
-        let svg_path = path.with_extension("svg");
         export::write_atomic(&svg_path, |w| w.write_all(canvas.svg().as_bytes()))?;
         files.push(svg_path);
+    } else {
+        // An SVG of an earlier drawing would no longer match its PNG.
+        let _ = std::fs::remove_file(&svg_path);
     }
     Ok(files)
 }
@@ -195,15 +214,16 @@ pub fn write_screen(
     animate: Option<&crate::model::Mutant>,
     parallel: bool,
     progress: &dyn Progress,
-) -> Result<crate::screen::Screen, WriteError> {
+) -> Result<(crate::screen::Screen, Option<String>), WriteError> {
     let screen = crate::screen::run_screen_with(model, mutants, parallel, progress)?;
-    write_screen_files(model, &screen, style, dir, animate, parallel)?;
-    Ok(screen)
+    let note = write_screen_files(model, &screen, style, dir, animate, parallel)?;
+    Ok((screen, note))
 }
 
 /// Writes a finished (or merged) screen's `shifts.csv` and `shifts.png`
 /// into `dir`, and with `animate` the wild type beside that mutant
-/// (`pair_<name>.gif`).
+/// (`pair_<name>.gif`); returns a note if the animation gave up frames or
+/// colours to meet `--gif-max-mb`.
 ///
 /// # Errors
 /// [`WriteError`] if a file cannot be written or an animated run fails.
@@ -214,7 +234,7 @@ pub fn write_screen_files(
     dir: &Path,
     animate: Option<&crate::model::Mutant>,
     parallel: bool,
-) -> Result<(), WriteError> {
+) -> Result<Option<String>, WriteError> {
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
     export::write_shifts(screen, &dir.join("shifts.csv"))?;
     let genes: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
@@ -231,11 +251,15 @@ pub fn write_screen_files(
         mt_style.title = format!("{}: {}", style.title, m.name);
         let safe: String =
             m.name.chars().map(|c| if c.is_alphanumeric() || c == '-' || c == '_' { c } else { '_' }).collect();
-        export::write_atomic(&dir.join(format!("pair_{safe}.gif")), |w| {
-            render::write_pair_gif(&wt, &mt, &wt_style, &mt_style, w).map(|_| ())
+        let name = format!("pair_{safe}.gif");
+        let mut made = None;
+        export::write_atomic(&dir.join(&name), |w| {
+            made = Some(render::write_pair_gif(&wt, &mt, &wt_style, &mt_style, w)?);
+            Ok(())
         })?;
+        return Ok(made.and_then(|m| m.describe(&name)));
     }
-    Ok(())
+    Ok(None)
 }
 
 /// Runs a sweep ([`crate::sweep::run_sweep`]) and writes `sweep.csv`,
@@ -394,6 +418,8 @@ pub struct ReplicateReport {
     pub step: Vec<crate::replicates::StepChange>,
     /// For a mutant: how it moves each wild-type boundary, embryo by embryo.
     pub shifts: Vec<crate::replicates::PairedShift>,
+    /// What the animation gave up to meet `--gif-max-mb`, if anything.
+    pub notes: Vec<String>,
 }
 
 /// Runs the replicate embryos and writes `precision.csv`, `widths.csv`,
@@ -519,21 +545,26 @@ pub fn write_replicates(
     write_picture(&dir.join("replicates.png"), &picture, style.svg)?;
     let bands = render::boundary_bands(&all, style);
     write_picture(&dir.join("boundary_bands.png"), &bands, style.svg)?;
+    let mut notes = Vec::new();
     if job.animate > 0 {
         let columns = (job.animate as f64).sqrt().ceil() as usize;
         let styles: Vec<render::Style> = (0..runs.len())
             .map(|i| render::Style {
                 title: format!("embryo {i}"),
                 width: (style.width / columns as u32).max(320),
+                pixel_width: style.pixel_width.map(|p| (p / columns as u32).max(1)),
                 ..style.clone()
             })
             .collect();
         let panels: Vec<(&crate::Recording, &render::Style)> = runs.iter().zip(&styles).collect();
+        let mut made = None;
         export::write_atomic(&dir.join(EMBRYOS_GIF), |w| {
-            render::write_grid_gif(&panels, columns, true, w).map(|_| ())
+            made = Some(render::write_grid_gif(&panels, columns, true, w)?);
+            Ok(())
         })?;
+        notes.extend(made.and_then(|m| m.describe(EMBRYOS_GIF)));
     } else {
         let _ = std::fs::remove_file(dir.join(EMBRYOS_GIF));
     }
-    Ok(ReplicateReport { replicates: all, shares, step, shifts })
+    Ok(ReplicateReport { replicates: all, shares, step, shifts, notes })
 }

@@ -108,7 +108,7 @@ fn table_html(path: &Path, last_of: Option<&str>) -> Result<String, String> {
     for r in &rows {
         html.push_str("<tr>");
         for c in r {
-            let _ = write!(html, "<td>{}</td>", escape(c));
+            let _ = write!(html, "<td>{}</td>", escape(&shown_number(c)));
         }
         html.push_str("</tr>\n");
     }
@@ -124,6 +124,22 @@ fn table_html(path: &Path, last_of: Option<&str>) -> Result<String, String> {
         );
     }
     Ok(html)
+}
+
+/// A table cell as shown: numbers written to full precision in the file
+/// are shown to six significant figures (at most four decimals); other
+/// text as it is.
+fn shown_number(cell: &str) -> String {
+    let Ok(v) = cell.parse::<f64>() else { return cell.to_string() };
+    if !v.is_finite() || !cell.contains('.') || cell.len() <= 8 {
+        return cell.to_string();
+    }
+    if v != 0.0 && v.abs() < 1e-3 {
+        return format!("{v:.3e}");
+    }
+    let decimals = (5 - v.abs().log10().floor() as i32).clamp(0, 4) as usize;
+    let text = format!("{v:.decimals$}");
+    if text.contains('.') { text.trim_end_matches('0').trim_end_matches('.').to_string() } else { text }
 }
 
 fn data_uri(path: &Path, mime: &str) -> std::io::Result<String> {
@@ -244,6 +260,8 @@ pub fn write_page(dir: &Path, title: &str) -> Result<PathBuf, export::ExportErro
     );
     let path = dir.join(PAGE);
     export::write_atomic(&path, |w| w.write_all(page.as_bytes()))?;
+    // In a run folder the page is part of the run's set.
+    crate::run_folder::add_to_manifest(dir, &[PAGE.to_string()])?;
     Ok(path)
 }
 
@@ -265,3 +283,20 @@ const SCRIPT: &str = "window.addEventListener('load',function(){var shown=0,brok
 document.querySelectorAll('img').forEach(function(img){if(img.complete&&img.naturalWidth>0){shown++;}else{broken++;\
 img.insertAdjacentHTML('afterend','<p class=\"broken\">This picture could not be shown.</p>');}});\
 document.body.setAttribute('data-pictures-shown',shown);document.body.setAttribute('data-pictures-broken',broken);});";
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn long_numbers_are_shown_to_six_figures() {
+        assert_eq!(shown_number("239.04852679871533"), "239.049");
+        assert_eq!(shown_number("47.80970535974306"), "47.8097");
+        assert_eq!(shown_number("-6.650680006712345"), "-6.6507");
+        assert_eq!(shown_number("0.000123456789"), "1.235e-4");
+        assert_eq!(shown_number("240.5"), "240.5");
+        assert_eq!(shown_number("amber"), "amber");
+        assert_eq!(shown_number("12"), "12");
+        assert_eq!(escape("<a & 'b'>"), "&lt;a &amp; &#39;b&#39;&gt;");
+    }
+}

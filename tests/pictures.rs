@@ -18,7 +18,7 @@ fn gif_and_pngs_decode() {
     let rec = ribbon();
     let style = Style::for_recording(&rec);
     let mut bytes = Vec::new();
-    let frames = render::write_gif(&rec, &style, &mut bytes).unwrap();
+    let frames = render::write_gif(&rec, &style, &mut bytes).unwrap().frames;
     assert_eq!(frames, rec.times.len());
     let (first, _) = render::pattern(&rec, 0, &style, &render::gene_maxima(&rec, &[0]).unwrap()).unwrap();
     let mut opts = gif::DecodeOptions::new();
@@ -53,7 +53,7 @@ fn animations_skip_frames_and_keep_the_last() {
     let n = rec.times.len();
     let want: Vec<usize> = (0..n).filter(|k| k % 4 == 0 || *k == n - 1).collect();
     let mut bytes = Vec::new();
-    assert_eq!(render::write_gif(&rec, &style, &mut bytes).unwrap(), want.len());
+    assert_eq!(render::write_gif(&rec, &style, &mut bytes).unwrap().frames, want.len());
     let mut opts = gif::DecodeOptions::new();
     opts.set_color_output(gif::ColorOutput::RGBA);
     let mut dec = opts.read_info(bytes.as_slice()).unwrap();

@@ -171,3 +171,19 @@ fn pages_load_in_a_real_browser() {
         );
     }
 }
+
+/// Rewriting a run folder's page refreshes only the page's manifest entry:
+/// a table changed since the run is still found out afterwards.
+#[test]
+fn a_rewritten_page_does_not_bless_a_changed_file() {
+    let dir = temp_dir("page-manifest");
+    let run = dir.join("run");
+    run_quietly(&["run", root().join("patterns/ribbon.toml").to_str().unwrap(), "-o", run.to_str().unwrap(), "-q"]);
+    let table = run.join("boundaries.csv");
+    let mut text = std::fs::read_to_string(&table).unwrap();
+    text.push_str("amber,falling,1,1,1,1,1\n");
+    std::fs::write(&table, text).unwrap();
+    anlage::page::write_page(&run, "t").unwrap();
+    let why = anlage::run_folder::incomplete(&run, &[]).expect("the changed table is found");
+    assert!(why.contains("boundaries.csv"), "{why}");
+}

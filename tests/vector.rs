@@ -114,8 +114,9 @@ fn reduced_difference(small: &render::Canvas, big: &render::Canvas, k: u32, rows
 /// Asked twice as wide (1440 px), a kymograph is the 720-px picture with
 /// twice the pixels along each side: reduced 2 × 2 it matches the small one
 /// to half a level on average, also over the title and the axis labels alone, which
-/// would not hold if text and lines kept their pixel sizes. Below 720 px the
-/// layout itself narrows and nothing is scaled.
+/// would not hold if text and lines kept their pixel sizes. From 720 down
+/// to 560 px the layout itself narrows and nothing is scaled; narrower, the
+/// 560-px layout is scaled down. Every picture is as wide as asked.
 #[test]
 fn wider_pictures_scale_text_and_lines_with_them() {
     let rec = run(&load("patterns/ribbon.toml")).recording;
@@ -133,6 +134,97 @@ fn wider_pictures_scale_text_and_lines_with_them() {
     // Measured 0.12, 0.03 and 0.08 levels; with text left at its pixel size
     // (the defect this guards against) 1.2, 2.0 and 4.7.
     assert!(whole < 0.5 && title < 0.5 && bottom < 0.5, "whole {whole:.2}, title {title:.2}, labels {bottom:.2}");
-    let narrow = draw(Some(480));
-    assert_eq!((narrow.pixel_width(), narrow.scale()), (480, 1.0));
+    let narrow = draw(Some(600));
+    assert_eq!((narrow.pixel_width(), narrow.width(), narrow.scale()), (600, 600, 1.0));
+    let small = draw(Some(400));
+    assert_eq!((small.pixel_width(), small.width()), (400, 560));
+    // Pictures laid out wider than asked (a screen's chart needs 480 px, a
+    // fit's 720) are scaled to the width asked too.
+    let style = Style::with_options(&rec, "t", &StyleOptions { width: Some(400), ..Default::default() }).unwrap();
+    let screen = anlage::screen::run_screen(&load("patterns/ribbon.toml"), &[], false).unwrap();
+    let chart = render::shift_chart(&screen, &rec.genes, &style);
+    assert_eq!(chart.pixel_width(), 400);
+}
+
+/// `--gif-max-mb`: an animation three times too large keeps every k-th
+/// frame and the last (at least [`render::MIN_FRAMES`]) and fits; one that
+/// cannot fit gives up colours down to 16 and says it could not. What is
+/// reported is what was written (frames counted by decoding the GIF).
+#[test]
+fn animations_meet_a_size_by_giving_up_frames_then_colours() {
+    let rec = run(&load("patterns/ribbon.toml")).recording;
+    let make = |mb: Option<f64>| {
+        let opts = StyleOptions { gif_max_mb: mb, width: Some(1080), ..Default::default() };
+        let style = Style::with_options(&rec, "Ribbon", &opts).unwrap();
+        let mut bytes = Vec::new();
+        let made = render::write_gif(&rec, &style, &mut bytes).unwrap();
+        assert_eq!(made.bytes, bytes.len());
+        let mut decoder = gif::DecodeOptions::new().read_info(bytes.as_slice()).unwrap();
+        let mut frames = 0;
+        while decoder.read_next_frame().unwrap().is_some() {
+            frames += 1;
+        }
+        assert_eq!(frames, made.frames);
+        made
+    };
+    let full = make(None);
+    assert_eq!((full.frames, full.every, full.colours), (rec.times.len(), 1, 256));
+    assert_eq!(full.describe("pattern.gif"), None);
+    let target = full.bytes as f64 / 3.0 / 1e6;
+    let third = make(Some(target));
+    assert!(third.fits() && third.bytes as f64 <= target * 1e6, "{third:?}");
+    assert!(third.every >= 3 && third.frames >= render::MIN_FRAMES, "{third:?}");
+    let note = third.describe("pattern.gif").unwrap();
+    assert!(note.contains(&format!("{} frames", third.frames)) && !note.contains("NOT"), "{note}");
+    let tiny = make(Some(0.05));
+    assert!(!tiny.fits() && tiny.colours == 16, "{tiny:?}");
+    assert!(tiny.describe("pattern.gif").unwrap().contains("could NOT"));
+}
+
+/// From a user trial: picture options that would do nothing are refused
+/// (exit 2, naming the option); a picture redrawn without `--svg` loses its
+/// old SVG, and the run folder stays complete; `portrait -o` must be a PNG;
+/// a title with control characters still gives SVGs that parse, with runs
+/// of spaces kept.
+#[test]
+fn picture_options_are_honoured_or_refused() {
+    let dir = temp_dir("svg-options");
+    let model = root().join("patterns/ribbon.toml");
+    let m = model.to_str().unwrap();
+    let refused = |args: &[&str], option: &str| {
+        let o = anlage(args);
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {err}");
+        assert!(err.contains(option), "{args:?}: {err}");
+    };
+    let out = dir.join("run");
+    let o = out.to_str().unwrap();
+    refused(&["run", m, "-o", o, "--no-pictures", "--svg"], "--svg");
+    refused(&["screen", m, "--knockouts", "-o", "-", "--width", "900"], "--width");
+    refused(&["sensitivity", m, "-o", "-", "--light"], "--light");
+    let o_run = anlage(&["run", m, "-o", o, "-q", "--svg"]);
+    assert!(o_run.status.success());
+    assert!(out.join("kymograph.svg").is_file());
+    refused(&["render", o, "--kind", "animation", "--svg"], "--svg");
+    let o_render = anlage(&["render", o, "--kind", "kymograph", "-q"]);
+    assert!(o_render.status.success(), "{}", String::from_utf8_lossy(&o_render.stderr));
+    assert!(!out.join("kymograph.svg").exists(), "the old SVG of a redrawn picture is removed");
+    assert!(out.join("pattern.svg").exists(), "pictures not redrawn keep theirs");
+    assert_eq!(anlage::run_folder::incomplete(&out, &[]), None);
+    refused(
+        &["portrait", o, "--nucleus", "3", "--genes", "amber,cobalt", "-o", dir.join("p.svg").to_str().unwrap()],
+        "-o",
+    );
+    // A title with a tab, a bell and a run of spaces.
+    let text = std::fs::read_to_string(&model).unwrap();
+    let first = text.lines().find(|l| l.starts_with("title")).unwrap();
+    let odd = text.replacen(first, "title = \"Odd\\ttitle\\u0007 with   gaps & <marks>\"", 1);
+    let odd_model = dir.join("odd.toml");
+    std::fs::write(&odd_model, odd).unwrap();
+    let odd_out = dir.join("odd");
+    let o_odd = anlage(&["run", odd_model.to_str().unwrap(), "-o", odd_out.to_str().unwrap(), "-q", "--svg"]);
+    assert!(o_odd.status.success(), "{}", String::from_utf8_lossy(&o_odd.stderr));
+    let svg = std::fs::read_to_string(odd_out.join("kymograph.svg")).unwrap();
+    let doc = roxmltree::Document::parse(&svg).expect("an SVG that parses");
+    assert!(svg_texts(&doc).iter().any(|t| t == "Odd title  with   gaps & <marks>"), "{:?}", svg_texts(&doc));
 }

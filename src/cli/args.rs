@@ -434,6 +434,29 @@ pub struct CanvasArgs {
 }
 
 impl CanvasArgs {
+    /// Refuses (exit 2) any of these options: on `verb` no picture is
+    /// drawn, `because` (words that end "…; leave it out").
+    ///
+    /// # Errors
+    /// The first such option given.
+    pub fn refuse(&self, verb: &str, because: &str) -> Result<(), anlage::render::StyleError> {
+        let given = if self.light {
+            Some(("--light", "given".to_string()))
+        } else if let Some(w) = self.width {
+            Some(("--width", w.to_string()))
+        } else {
+            self.svg.then(|| ("--svg", "given".to_string()))
+        };
+        match given {
+            Some((option, value)) => Err(anlage::render::StyleError::OutOfRange {
+                option: option.into(),
+                value,
+                fix: format!("it does nothing on `{verb}`, which {because}; leave it out"),
+            }),
+            None => Ok(()),
+        }
+    }
+
     /// As library options (nothing else set).
     pub fn options(&self) -> StyleOptions {
         StyleOptions { light: self.light, width: self.width, svg: self.svg, ..Default::default() }
@@ -461,6 +484,9 @@ pub struct PictureArgs {
     /// Animations show every N-th snapshot, and always the last (default 1: every one).
     #[arg(long, value_name = "N")]
     pub frame_every: Option<usize>,
+    /// Largest animation, MB: a larger one keeps fewer frames (at least 10), then fewer colours.
+    #[arg(long, value_name = "MB")]
+    pub gif_max_mb: Option<f64>,
     /// First time shown, min.
     #[arg(long = "from")]
     pub from_min: Option<f64>,
@@ -472,7 +498,7 @@ pub struct PictureArgs {
 /// A picture option that some verbs have no use for.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Unused {
-    /// `--fps`, `--frame-every`: no animation is drawn.
+    /// `--fps`, `--frame-every`, `--gif-max-mb`: no animation is drawn.
     Animation,
     /// `--heatmap`: no picture of gene levels is drawn.
     Heatmap,
@@ -492,7 +518,8 @@ impl PictureArgs {
                 Unused::Animation => self
                     .fps
                     .map(|v| ("--fps", v.to_string()))
-                    .or_else(|| self.frame_every.map(|v| ("--frame-every", v.to_string()))),
+                    .or_else(|| self.frame_every.map(|v| ("--frame-every", v.to_string())))
+                    .or_else(|| self.gif_max_mb.map(|v| ("--gif-max-mb", v.to_string()))),
                 Unused::Heatmap => self.heatmap.then(|| ("--heatmap", "given".to_string())),
                 Unused::TimeRange => self
                     .from_min
@@ -510,6 +537,24 @@ impl PictureArgs {
         Ok(())
     }
 
+    /// Refuses (exit 2) every picture option given: on `verb` no picture
+    /// is drawn, `because`.
+    ///
+    /// # Errors
+    /// The first such option given.
+    pub fn refuse_all(&self, verb: &str, because: &str) -> Result<(), anlage::render::StyleError> {
+        self.refuse(&[Unused::Animation, Unused::Heatmap, Unused::TimeRange], verb, because)?;
+        let named = self.genes.as_ref().map(|g| ("--genes", g.join(",")));
+        if let Some((option, value)) = named.or_else(|| self.colors.first().map(|c| ("--color", c.clone()))) {
+            return Err(anlage::render::StyleError::OutOfRange {
+                option: option.into(),
+                value,
+                fix: format!("it does nothing on `{verb}`, which {because}; leave it out"),
+            });
+        }
+        self.canvas.refuse(verb, because)
+    }
+
     /// As library options.
     pub fn options(&self) -> StyleOptions {
         StyleOptions {
@@ -517,6 +562,7 @@ impl PictureArgs {
             colors: self.colors.clone(),
             fps: self.fps,
             frame_every: self.frame_every,
+            gif_max_mb: self.gif_max_mb,
             from_min: self.from_min,
             to_min: self.to_min,
             heatmap: self.heatmap,

@@ -53,6 +53,22 @@ pub fn table_to_stdout(out: Option<&Path>) -> bool {
     out == Some(Path::new("-"))
 }
 
+/// Refuses picture options with `-o -`: nothing is drawn when the table
+/// goes to standard output.
+///
+/// # Errors
+/// The first picture option given.
+pub fn refuse_pictures_with_stdout(
+    out: Option<&Path>,
+    look: &super::args::PictureArgs,
+    verb: &str,
+) -> anyhow::Result<()> {
+    if table_to_stdout(out) {
+        look.refuse_all(&format!("{verb} -o -"), "writes only its table, to standard output")?;
+    }
+    Ok(())
+}
+
 /// Refuses `-o -` together with `--json`: both would use standard output.
 pub fn refuse_json_with_stdout(out: Option<&Path>, json: bool) -> anyhow::Result<()> {
     if json && table_to_stdout(out) {

@@ -18,6 +18,9 @@ pub fn compare(args: &CompareArgs) -> anyhow::Result<()> {
     let (sd_floor, json) = (*sd_floor, *json);
     refuse_json_with_stdout(out.as_deref(), json)?;
     let to_stdout = table_to_stdout(out.as_deref());
+    if to_stdout {
+        canvas.refuse("compare -o -", "writes only its table, to standard output")?;
+    }
     let report = Report::for_out(out.as_deref());
     let mut map = HashMap::new();
     for s in stages {
@@ -56,16 +59,28 @@ pub fn compare(args: &CompareArgs) -> anyhow::Result<()> {
     } else {
         std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
         anlage::export::write_comparison(&cmp, &dir.join("comparison.csv"))?;
-        let s = (0..rec.times.len())
-            .find(|&s| cmp.rows.iter().any(|r| r.time_min == rec.times[s]))
-            .unwrap_or(rec.times.len() - 1);
-        let title = format!("{}: simulated vs measured", saved.summary.title);
-        let style = Style::with_options(rec, &title, &canvas.options())?;
-        let overlay = anlage::render::comparison_overlay(rec, s, &cmp, &style)?;
-        anlage::write_picture(&dir.join("comparison.png"), &overlay, style.svg)?;
+        // One picture per time the table measures: the last is comparison.png,
+        // earlier ones comparison_t<MIN>min.png.
+        let times: Vec<usize> =
+            (0..rec.times.len()).filter(|&s| cmp.rows.iter().any(|r| r.time_min == rec.times[s])).collect();
+        let times = if times.is_empty() { vec![rec.times.len() - 1] } else { times };
+        // Pictures of an earlier comparison at other times would pass for this one's.
+        for entry in std::fs::read_dir(&dir).into_iter().flatten().flatten() {
+            let name = entry.file_name().to_string_lossy().into_owned();
+            if name.starts_with("comparison_t") && (name.ends_with("min.png") || name.ends_with("min.svg")) {
+                let _ = std::fs::remove_file(entry.path());
+            }
+        }
+        for (k, &s) in times.iter().enumerate().rev() {
+            let at = anlage::render::time_text(rec.times[s]);
+            let title = format!("{}: simulated vs measured at t = {at} min", saved.summary.title);
+            let style = Style::with_options(rec, &title, &canvas.options())?;
+            let overlay = anlage::render::comparison_overlay(rec, s, &cmp, &style)?;
+            let name =
+                if k + 1 == times.len() { "comparison.png".to_string() } else { format!("comparison_t{at}min.png") };
+            anlage::write_picture(&dir.join(name), &overlay, style.svg)?;
+        }
         anlage::page::write_page(&dir, &saved.summary.title)?;
-        // In the run's own folder the page is part of the run's set.
-        anlage::run_folder::add_to_manifest(&dir, &[anlage::page::PAGE.to_string()])?;
     }
     if json {
         println!("{}", super::json::compare(&cmp, &dir));

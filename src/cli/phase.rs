@@ -109,6 +109,14 @@ pub fn portrait(args: &PortraitArgs) -> anyhow::Result<()> {
     };
     let path =
         out.clone().unwrap_or_else(|| dir.join(format!("portrait_n{nucleus}_{}_{}.png", rec.genes[a], rec.genes[b])));
+    if path.extension().is_none_or(|e| !e.eq_ignore_ascii_case("png")) {
+        return Err(StyleError::OutOfRange {
+            option: "-o".into(),
+            value: path.display().to_string(),
+            fix: "name a .png file; --svg writes NAME.svg beside it and --cloud NAME_cloud.gif".into(),
+        }
+        .into());
+    }
     std::fs::create_dir_all(path.parent().unwrap_or(Path::new("."))).ok();
     let data = anlage::write_portrait(&model, &rec, *nucleus, [a, b], s, &style, &path, *cloud)
         .with_context(|| format!("writing {}", path.display()))?;

@@ -33,6 +33,9 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
         repeat,
         look,
     } = args;
+    if *no_pictures {
+        look.refuse_all("run --no-pictures", "draws no picture")?;
+    }
     if let Some(n) = threads {
         rayon::ThreadPoolBuilder::new().num_threads((*n).max(1)).build_global().context("setting threads")?;
     }
@@ -136,19 +139,31 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
     } else if !quiet {
         print!("{}", print::final_boundaries(&summary, run.wall_time_s, &dir));
     }
+    if !quiet {
+        for note in &summary.picture_notes {
+            eprintln!("anlage: note: {note}");
+        }
+    }
     Ok(())
 }
 
 /// `anlage render`.
 pub fn render(args: &RenderArgs) -> anyhow::Result<()> {
     let RenderArgs { run_dir, kind, out, quiet, look } = args;
+    if matches!(kind, KindArg::Animation) && look.canvas.svg {
+        look.canvas.refuse("render --kind animation", "draws only the GIF, which has no vector form")?;
+    }
     let saved = anlage::run_folder::load(run_dir)?;
     let rec = &saved.recording;
     let style = Style::with_options(rec, &saved.summary.title, &look.options())?;
     let dir = out.clone().unwrap_or_else(|| run_dir.clone());
     std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
     let boundaries = anlage::readout::find_boundaries(rec)?;
-    let written = anlage::write_pictures(rec, &boundaries, &style, &dir, (*kind).into())?;
+    let drawn = anlage::write_pictures(rec, &boundaries, &style, &dir, (*kind).into())?;
+    for note in &drawn.notes {
+        eprintln!("anlage: note: {note}");
+    }
+    let written = drawn.files;
     for path in written.iter().filter(|_| !quiet) {
         println!("wrote {}", path.display());
     }
@@ -157,9 +172,19 @@ pub fn render(args: &RenderArgs) -> anyhow::Result<()> {
         println!("wrote {}", page.display());
     }
     if &dir == run_dir {
-        let mut names: Vec<String> =
-            written.iter().filter_map(|p| p.file_name().map(|n| n.to_string_lossy().into_owned())).collect();
-        names.push(anlage::page::PAGE.into());
+        // The pictures drawn, and the SVG beside each PNG (written or, without
+        // --svg, removed).
+        let names: Vec<String> = written
+            .iter()
+            .flat_map(|p| {
+                let png = p.extension().is_some_and(|e| e == "png");
+                [Some(p.clone()), png.then(|| p.with_extension("svg"))]
+            })
+            .flatten()
+            .filter_map(|p| p.file_name().map(|n| n.to_string_lossy().into_owned()))
+            .collect::<std::collections::BTreeSet<_>>()
+            .into_iter()
+            .collect();
         anlage::run_folder::add_to_manifest(&dir, &names)?;
     }
     Ok(())

@@ -80,6 +80,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
         None => None,
     };
     refuse_json_with_stdout(out.as_deref(), *json)?;
+    refuse_pictures_with_stdout(out.as_deref(), look, "screen")?;
     let mode = cluster.mode(out.as_deref())?;
     if let Some(n) = replicates {
         check_embryos("--replicates", *n)?;
@@ -126,7 +127,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     let larger = embryo_job.as_ref().map(|(_, j)| j).filter(|j| j.total > job.total).unwrap_or(&job);
     super::cluster::check_cut(&mode, cluster, larger, *json)?;
     let mut saved_embryos = None;
-    let screen = match mode {
+    let (screen, gif_note) = match mode {
         Mode::Slurm => return super::cluster::write_slurm(cluster, &dir, *json),
         Mode::Shard(shard) => {
             let stop = super::cluster::stop_flag()?;
@@ -151,13 +152,16 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
             let screen = anlage::screen::shard::merge(&list, wild_type, &job, &dir)?;
             // Every shard file is checked before anything is written.
             saved_embryos = embryo_job.as_ref().map(|(_, j)| anlage::replicates::shard::merge(j, &dir)).transpose()?;
-            anlage::write_screen_files(&model, &screen, &style, &dir, chosen.as_ref(), true)
+            let note = anlage::write_screen_files(&model, &screen, &style, &dir, chosen.as_ref(), true)
                 .with_context(|| format!("merging into {}", dir.display()))?;
-            screen
+            (screen, note)
         }
         Mode::Whole => anlage::write_screen(&model, &list, &style, &dir, chosen.as_ref(), true, &bar)
             .with_context(|| format!("screening {}", path.display()))?,
     };
+    if let Some(note) = gif_note {
+        eprintln!("anlage: note: {note}");
+    }
     if replicates.is_some() && anlage::replicates::Sources::each(&model).is_empty() && !*json {
         eprintln!("anlage: note: the model declares no noise ([noise] or initial_noise): every embryo is the same");
     }
@@ -210,6 +214,7 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
         });
     }
     refuse_json_with_stdout(out.as_deref(), *json)?;
+    refuse_pictures_with_stdout(out.as_deref(), look, "sensitivity")?;
     let mode = cluster.mode(out.as_deref())?;
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
@@ -275,6 +280,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         });
     }
     refuse_json_with_stdout(out.as_deref(), *json)?;
+    refuse_pictures_with_stdout(out.as_deref(), look, "sweep")?;
     let planned = planned_recording(&model);
     let style = Style::with_options(&planned, &model.title, &look.options())?;
     if table_to_stdout(out.as_deref()) {
@@ -388,6 +394,9 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
     let paired = name.as_ref().map(|m| (m.name.as_str(), &wild_type));
     let report = anlage::write_replicates(&model, job, paired, &style, &dir, embryo_source(saved.as_ref()), &bar)
         .with_context(|| format!("replicates of {}", path.display()))?;
+    for note in &report.notes {
+        eprintln!("anlage: note: {note}");
+    }
     anlage::page::write_page(&dir, &model.title)?;
     super::json::print_either(
         *json,

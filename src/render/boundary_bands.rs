@@ -148,17 +148,8 @@ mod tests {
             profiles: ProfileStats::new(1, 100),
             decoded_um: vec![f64::NAN; 100],
         };
-        let style = Style {
-            title: "bands".into(),
-            background: Background::Dark,
-            genes: vec![0],
-            colors: vec![[230, 159, 0]],
-            width: 600,
-            fps: 10,
-            frame_every: 1,
-            time_range: (f64::NEG_INFINITY, f64::INFINITY),
-            heatmap: false,
-        };
+        let style =
+            Style { title: "bands".into(), genes: vec![0], colors: vec![[230, 159, 0]], width: 600, ..Style::plain() };
         let c = boundary_bands(&r, &style);
         let (_, a) =
             space_time(&times, &style, "position along the axis (% length)", "time (min)", 20.0, |_, _| [0, 0, 0]);

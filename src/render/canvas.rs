@@ -281,8 +281,12 @@ impl Canvas {
         w
     }
 
-    /// Draws `text` with its baseline at `y`, antialiased.
+    /// Draws `text` with its baseline at `y`, antialiased. Control
+    /// characters (a tab or line break in a title) are drawn as spaces, in
+    /// the PNG and the SVG alike (XML cannot hold most of them).
     pub fn text(&mut self, x: f32, y: f32, size: f32, c: [u8; 3], align: Align, text: &str) {
+        let cleaned: String = text.chars().map(|ch| if ch.is_control() { ' ' } else { ch }).collect();
+        let text = cleaned.as_str();
         let anchor = match align {
             Align::Left => "start",
             Align::Centre => "middle",
@@ -342,7 +346,8 @@ impl Canvas {
         let (w, h) = self.size;
         format!(
             "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n<svg xmlns=\"http://www.w3.org/2000/svg\" \
-             width=\"{}\" height=\"{}\" viewBox=\"0 0 {w} {h}\">\n{}</svg>\n",
+             width=\"{}\" height=\"{}\" viewBox=\"0 0 {w} {h}\" xml:space=\"preserve\" \
+             style=\"white-space:pre\">\n{}</svg>\n",
             self.pix.width(),
             self.pix.height(),
             self.svg

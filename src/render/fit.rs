@@ -45,9 +45,10 @@ pub fn fit_trace(r: &FitResult, title: &str, style: &Style) -> Canvas {
     c
 }
 
-/// One row per genotype: measured boundaries (open circles with ±σ bars) and
-/// the fitted model's (filled), along the axis in %, each in its gene's
-/// colour (`genes`: name and colour, for the legend).
+/// One row per genotype: measured boundaries (open rings in the ink colour,
+/// neutral, with ±σ bars and the gene's name above) and the fitted model's
+/// (dots in the gene's colour, below), along the axis in %; the key names
+/// every gene that appears.
 pub fn fit_boundaries(
     r: &FitResult,
     genotypes: &[String],
@@ -56,18 +57,19 @@ pub fn fit_boundaries(
     style: &Style,
 ) -> Canvas {
     let bg = style.background;
-    let row_h = 46.0f32;
+    let ink = bg.ink();
+    let row_h = 56.0f32;
     let (w, top) = (720u32, 80.0f32);
     let h = (top + row_h * genotypes.len().max(1) as f32 + 110.0) as u32;
     let mut c = style.canvas(w, h);
-    c.text(20.0, 28.0, 16.0, bg.ink(), Align::Left, &format!("{title}: fitted vs measured boundaries"));
+    c.text(20.0, 28.0, 16.0, ink, Align::Left, &format!("{title}: fitted vs measured boundaries"));
     c.text(
         20.0,
         48.0,
         12.0,
         bg.muted(),
         Align::Left,
-        "open: measured ± σ   filled: fitted model (a model prediction)   ×: missing or extra",
+        "ring: measured ± σ (gene named above)   dot: fitted model, a model prediction   ×: missing or extra",
     );
     let a = Axes::along_axis(
         150.0,
@@ -80,35 +82,59 @@ pub fn fit_boundaries(
     );
     axes::draw_x(&mut c, &a, "position along the axis, % (head at 0)", bg);
     let bad_c = [213, 94, 0];
-    let colour = |gene: &str| genes.iter().find(|(n, _)| n == gene).map_or(bg.ink(), |(_, c)| *c);
+    let colour = |gene: &str| {
+        let k = genes.iter().position(|(n, _)| n == gene);
+        k.and_then(|k| style.colors.get(k).copied().or(Some(genes[k].1))).unwrap_or(ink)
+    };
     for (k, g) in genotypes.iter().enumerate() {
-        let y = a.top + row_h * (k as f32 + 0.5);
-        c.text(a.left - 10.0, y + 4.0, 13.0, bg.ink(), Align::Right, g);
+        let y = a.top + row_h * (k as f32 + 0.5) + 4.0;
+        c.text(a.left - 10.0, y + 4.0, 13.0, ink, Align::Right, g);
         c.line(a.left, y, a.left + a.width, y, 1.0, bg.muted());
+        // Gene names above the measured rings, raised a line where they would touch.
+        let mut placed: Vec<(f32, f32, f32)> = Vec::new();
         for res in r.residuals.iter().filter(|x| &x.genotype == g) {
             let gc = colour(&res.gene);
+            let at = res.measured_pct.or(res.simulated_pct);
+            if let Some(m) = at {
+                let half = Canvas::text_width(10.0, &res.gene) / 2.0 + 2.0;
+                let x = a.px(m);
+                let mut ly = y - 17.0;
+                while placed.iter().any(|&(px, pw, py)| py == ly && (px - x).abs() < pw + half) {
+                    ly -= 11.0;
+                }
+                placed.push((x, half, ly));
+                c.text(x, ly, 10.0, bg.muted(), Align::Centre, &res.gene);
+            }
             match (res.measured_pct, res.simulated_pct) {
                 (Some(m), s) => {
                     let (x0, x1) = (a.px((m - res.sigma_pct).max(0.0)), a.px((m + res.sigma_pct).min(100.0)));
-                    c.line(x0, y - 8.0, x1, y - 8.0, 1.5, gc);
-                    c.ellipse(a.px(m), y - 8.0, 5.0, 5.0, 1.5, gc, None);
+                    c.line(x0, y - 7.0, x1, y - 7.0, 1.5, ink);
+                    c.ellipse(a.px(m), y - 7.0, 5.0, 5.0, 1.5, ink, Some(bg.rgb()));
                     match s {
                         Some(s) => c.ellipse(a.px(s), y + 8.0, 4.5, 4.5, 1.0, gc, Some(gc)),
                         None => c.text(a.px(m), y + 13.0, 14.0, bad_c, Align::Centre, "×"),
                     }
                 }
-                (None, Some(s)) => c.text(a.px(s), y + 13.0, 14.0, bad_c, Align::Centre, "×"),
+                (None, Some(s)) => {
+                    c.ellipse(a.px(s), y + 8.0, 4.5, 4.5, 1.0, gc, Some(gc));
+                    c.text(a.px(s), y - 2.0, 14.0, bad_c, Align::Centre, "×");
+                }
                 (None, None) => {}
             }
         }
     }
-    // Legend: the genes that appear.
-    let mut x = 150.0f32;
+    // Key: the marks, then the genes that appear.
     let y = h as f32 - 18.0;
-    for (name, gc) in genes.iter().filter(|(n, _)| r.residuals.iter().any(|x| &x.gene == n)) {
-        c.ellipse(x + 5.0, y - 4.0, 5.0, 5.0, 1.0, *gc, Some(*gc));
-        c.text(x + 15.0, y, 12.0, bg.ink(), Align::Left, name);
-        x += 30.0 + 7.5 * name.chars().count() as f32;
+    let mut x = 150.0f32;
+    c.ellipse(x + 5.0, y - 4.0, 5.0, 5.0, 1.5, ink, Some(bg.rgb()));
+    c.text(x + 15.0, y, 12.0, ink, Align::Left, "measured");
+    x += 30.0 + Canvas::text_width(12.0, "measured");
+    for (name, _) in genes.iter().filter(|(n, _)| r.residuals.iter().any(|x| &x.gene == n)) {
+        let gc = colour(name);
+        c.ellipse(x + 5.0, y - 4.0, 4.5, 4.5, 1.0, gc, Some(gc));
+        let label = format!("{name}, fitted");
+        c.text(x + 15.0, y, 12.0, ink, Align::Left, &label);
+        x += 30.0 + Canvas::text_width(12.0, &label);
     }
     c
 }

@@ -149,9 +149,12 @@ fn draw_embryo(c: &mut Canvas, e: &EmbryoMeasurement, s: f32, genes: &[(String, 
     }
 }
 
-/// Simulated profiles at snapshot `s` with each measured boundary of that
-/// time as a band of ±1 sd as used for z (the floored sd; a line where no sd
-/// is given), in the gene's colour.
+/// Simulated profiles at snapshot `s` over the measured boundaries of that
+/// time: each a band of ±1 sd as used for z (the floored sd) with its mean
+/// as a solid line, in a lane of its own (the plot's height shared among
+/// them, in order along the axis, so that overlapping bands stay apart),
+/// tinted with its gene's colour and drawn beneath the simulated curves; a
+/// measured boundary without sd is its line alone.
 ///
 /// # Errors
 /// [`ReadBackError`] if a streamed snapshot cannot be read back.
@@ -159,20 +162,35 @@ pub fn comparison_overlay(rec: &Recording, s: usize, cmp: &Comparison, style: &S
     let mut st = style.clone();
     st.time_range = (rec.times[s], rec.times[s]);
     let sim: Vec<crate::readout::Boundary> = crate::readout::boundaries_at(rec, s)?;
-    let (mut c, a) = profiles_with_axes(rec, &sim, &st)?;
-    for r in cmp.rows.iter().filter(|r| r.time_min == rec.times[s]) {
-        let Some(m) = r.measured_pct else { continue };
-        let color = rec.genes.iter().position(|g| g == &r.gene).map_or(style.background.ink(), |g| style.colors[g]);
-        let (top, bottom) = (a.top, a.top + a.height);
-        match r.sd_used_pct.filter(|sd| *sd > 0.0) {
-            Some(sd) => {
-                let (x0, x1) = (a.px(m - sd), a.px(m + sd));
-                c.polyline(&[((x0 + x1) / 2.0, top), ((x0 + x1) / 2.0, bottom)], (x1 - x0).max(2.0), color, 70, None);
+    let bg = style.background;
+    let mut measured: Vec<(f64, f64, [u8; 3])> = cmp
+        .rows
+        .iter()
+        .filter(|r| r.time_min == rec.times[s])
+        .filter_map(|r| {
+            let m = r.measured_pct?;
+            let color = rec.genes.iter().position(|g| g == &r.gene).map_or(bg.ink(), |g| style.colors[g]);
+            Some((m, r.sd_used_pct.filter(|sd| *sd > 0.0).unwrap_or(0.0), color))
+        })
+        .collect();
+    measured.sort_by(|x, y| x.0.total_cmp(&y.0));
+    let tint = |c: [u8; 3]| {
+        let b = bg.rgb();
+        [0, 1, 2].map(|k| (0.4 * c[k] as f32 + 0.6 * b[k] as f32).round() as u8)
+    };
+    let underlay = |c: &mut Canvas, a: &super::axes::Axes| {
+        let lane = a.height / measured.len().max(1) as f32;
+        for (k, &(m, sd, color)) in measured.iter().enumerate() {
+            let (top, bottom) = (a.top + lane * k as f32, a.top + lane * (k + 1) as f32);
+            if sd > 0.0 {
+                let (x0, x1) = (a.px((m - sd).max(a.x.0)), a.px((m + sd).min(a.x.1)));
+                c.rect(x0, top, (x1 - x0).max(1.0), bottom - top, tint(color));
             }
-            None => c.polyline(&[(a.px(m), top), (a.px(m), bottom)], 2.0, color, 150, None),
+            c.line(a.px(m), top, a.px(m), bottom, 2.0, color);
         }
-    }
-    let note = "bands: measured boundaries ±1 sd used for z (floored; lines: no sd); curves, dotted lines: simulated";
+    };
+    let (mut c, _) = profiles_with_axes(rec, &sim, &st, &underlay)?;
+    let note = "measured: lanes of mean (line) ± 1 sd used for z (band, floored); simulated: curves, dotted lines";
     c.rect(0.0, c.height() as f32 - 26.0, c.width() as f32, 26.0, style.background.rgb());
     c.text(64.0, c.height() as f32 - 10.0, 12.0, style.background.muted(), Align::Left, note);
     Ok(c)

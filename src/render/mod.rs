@@ -23,7 +23,7 @@ mod screen;
 mod sweep;
 mod tracks;
 
-pub use animate::{write_gif, write_grid_gif, write_pair_gif};
+pub use animate::{GifMade, MIN_FRAMES, write_gif, write_grid_gif, write_pair_gif};
 pub use boundary_bands::boundary_bands;
 pub use boundary_time::boundary_positions;
 pub use canvas::{Align, Canvas};
@@ -59,14 +59,17 @@ pub struct Style {
     pub colors: Vec<[u8; 3]>,
     /// Picture width, layout units: the pixels at scale 1 (see [`Canvas`]).
     pub width: u32,
-    /// Pixels per layout unit: text, lines and marks grow with it.
-    pub scale: f32,
+    /// The width every picture is drawn at, px, whatever width its layout
+    /// takes (text, lines and marks scale with it); `None`: its layout width.
+    pub pixel_width: Option<u32>,
     /// Also write every picture as SVG beside its PNG.
     pub svg: bool,
     /// Animation frames per second.
     pub fps: u32,
     /// Animations show every this many snapshots (and always the last).
     pub frame_every: usize,
+    /// Animations larger than this give up frames, then colours, bytes.
+    pub gif_max_bytes: Option<u64>,
     /// Snapshots shown: those with time in this range, min.
     pub time_range: (f64, f64),
     /// Draw the one shown gene as a heat map with the perceptually uniform
@@ -88,10 +91,11 @@ impl Style {
             genes: Vec::new(),
             colors: Vec::new(),
             width: 720,
-            scale: 1.0,
+            pixel_width: None,
             svg: false,
             fps: 10,
             frame_every: 1,
+            gif_max_bytes: None,
             time_range: (f64::NEG_INFINITY, f64::INFINITY),
             heatmap: false,
         }
@@ -108,9 +112,11 @@ impl Style {
         out
     }
 
-    /// A canvas of this style's background and scale, laid out `width × height`.
+    /// A canvas of this style's background laid out `width × height`,
+    /// drawn [`Self::pixel_width`] px wide.
     pub fn canvas(&self, width: u32, height: u32) -> Canvas {
-        Canvas::scaled(width, height, self.background.rgb(), self.scale)
+        let scale = self.pixel_width.map_or(1.0, |p| p as f32 / width.max(1) as f32);
+        Canvas::scaled(width, height, self.background.rgb(), scale)
     }
 
     /// Indices of the snapshots inside the time range.

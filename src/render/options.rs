@@ -50,6 +50,10 @@ pub enum StyleError {
 /// layout with everything scaled up (common practice, no source).
 pub const LAYOUT_WIDTH: u32 = 720;
 
+/// The narrowest layout, px: a narrower picture is this layout scaled down,
+/// so that labels never collide (common practice, no source).
+pub const LAYOUT_MIN_WIDTH: u32 = 560;
+
 /// Picture options by name.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct StyleOptions {
@@ -67,6 +71,8 @@ pub struct StyleOptions {
     pub fps: Option<u32>,
     /// Animations show every this many snapshots (and the last).
     pub frame_every: Option<usize>,
+    /// Largest animation, MB (10⁶ bytes).
+    pub gif_max_mb: Option<f64>,
     /// First time shown, min.
     pub from_min: Option<f64>,
     /// Last time shown, min.
@@ -146,11 +152,12 @@ impl Style {
                     fix: "give 320 to 4096 px".into(),
                 });
             }
-            // Up to the layout width pictures are laid out narrower; beyond
-            // it the same layout is drawn with more pixels, text and lines
-            // scaled with it.
-            style.width = w.min(LAYOUT_WIDTH);
-            style.scale = w as f32 / style.width as f32;
+            // Between the narrowest and the widest layout, pictures are laid
+            // out at the width asked; outside, the nearest layout is drawn
+            // with more (or fewer) pixels, text and lines scaled with it.
+            // Pictures whose layout needs more room are scaled to it too.
+            style.width = w.clamp(LAYOUT_MIN_WIDTH, LAYOUT_WIDTH);
+            style.pixel_width = Some(w);
         }
         style.svg = opts.svg;
         if let Some(f) = opts.fps {
@@ -172,6 +179,16 @@ impl Style {
                 });
             }
             style.frame_every = k;
+        }
+        if let Some(mb) = opts.gif_max_mb {
+            if !(0.05..=2000.0).contains(&mb) {
+                return Err(StyleError::OutOfRange {
+                    option: "--gif-max-mb".into(),
+                    value: mb.to_string(),
+                    fix: "give 0.05 to 2000 MB".into(),
+                });
+            }
+            style.gif_max_bytes = Some((mb * 1e6) as u64);
         }
         Ok(style)
     }

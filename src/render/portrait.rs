@@ -38,14 +38,14 @@ pub fn write_cloud_gif(
     d: &PortraitData,
     style: &Style,
     out: &mut dyn std::io::Write,
-) -> std::io::Result<usize> {
+) -> std::io::Result<super::animate::GifMade> {
     use rayon::prelude::*;
     let (base, a) = portrait_with_axes(rec, d, style, false);
     let nx = rec.grid.nx;
     let row0 = rec.midline_rows().start * nx;
     let [ga, gb] = d.genes;
     let delay = (100.0 / style.fps.max(1) as f64).round().max(2.0) as u16;
-    let frames: Vec<gif::Frame<'static>> = (0..rec.times.len())
+    let frames: Vec<(u32, u32, Vec<u8>)> = (0..rec.times.len())
         .into_par_iter()
         .map(|s| {
             let mut c = base.clone();
@@ -66,13 +66,10 @@ pub fn write_cloud_gif(
                 Align::Right,
                 &format!("all nuclei, t = {} min", time_text(rec.times[s])),
             );
-            let mut rgba = c.rgba().to_vec();
-            let mut f = gif::Frame::from_rgba_speed(c.pixel_width() as u16, c.pixel_height() as u16, &mut rgba, 10);
-            f.delay = delay;
-            Ok(f)
+            Ok((c.pixel_width(), c.pixel_height(), c.rgba().to_vec()))
         })
         .collect::<std::io::Result<_>>()?;
-    super::animate::write_frames(frames, out)
+    super::animate::Drawn::new(frames, delay)?.write(style.gif_max_bytes, out)
 }
 
 /// Draws the portrait and returns its plot axes; `trajectories` draws the

@@ -26,10 +26,11 @@ fn boundary_label(b: &Boundary) -> String {
 /// # Errors
 /// [`ReadBackError`] if a streamed snapshot cannot be read back.
 pub fn profiles(rec: &Recording, final_boundaries: &[Boundary], style: &Style) -> Result<Canvas, ReadBackError> {
-    Ok(profiles_with_axes(rec, final_boundaries, style)?.0)
+    Ok(profiles_with_axes(rec, final_boundaries, style, &|_, _| {})?.0)
 }
 
-/// As [`profiles`], also returning the plot axes (for overlays).
+/// As [`profiles`], with `underlay` drawn on the plot before the curves
+/// (beneath them), also returning the plot axes.
 ///
 /// # Errors
 /// [`ReadBackError`] if a streamed snapshot cannot be read back.
@@ -37,6 +38,7 @@ pub fn profiles_with_axes(
     rec: &Recording,
     final_boundaries: &[Boundary],
     style: &Style,
+    underlay: &dyn Fn(&mut Canvas, &Axes),
 ) -> Result<(Canvas, Axes), ReadBackError> {
     let bg = style.background;
     let width = style.width.max(320);
@@ -70,6 +72,7 @@ pub fn profiles_with_axes(
     let a = Axes::along_axis(left, top, right, width, plot_h, (0.0, ymax), false);
     let length = rec.grid.length_um();
     let samples = (a.width as usize).max(2);
+    underlay(&mut c, &a);
     for (k, &s) in picks.iter().enumerate() {
         // Earlier times fainter: opacity from 25 % to 100 %.
         let alpha = if picks.len() == 1 { 255 } else { (64.0 + 191.0 * k as f64 / (picks.len() - 1) as f64) as u8 };

@@ -110,20 +110,37 @@ pub fn write_manifest(dir: &Path, names: &[String]) -> Result<(), ExportError> {
 }
 
 /// Adds (or updates) `names` in the manifest of `dir`, when it has a complete
-/// one (pictures redrawn into a run folder stay part of its set).
+/// one (pictures redrawn into a run folder, or its rewritten report page,
+/// stay part of its set); a named file that is gone (the SVG of a picture
+/// redrawn without `--svg`) leaves the set. Only `names` are measured and
+/// hashed again; every other entry keeps what the run recorded, so a file
+/// changed since then is still found out.
 ///
 /// # Errors
 /// [`ExportError::Io`] if a file cannot be read or written.
 pub fn add_to_manifest(dir: &Path, names: &[String]) -> Result<(), ExportError> {
+    let io = |path: PathBuf| move |source| ExportError::Io { path, source };
     let Ok(text) = std::fs::read_to_string(dir.join(MANIFEST)) else { return Ok(()) };
-    let Ok(m) = serde_json::from_str::<Manifest>(&text) else { return Ok(()) };
-    let mut all: Vec<String> = m.files.into_iter().map(|f| f.name).collect();
+    let Ok(mut m) = serde_json::from_str::<Manifest>(&text) else { return Ok(()) };
+    sync_folder(dir, names).map_err(io(dir.to_path_buf()))?;
     for n in names {
-        if !all.contains(n) {
-            all.push(n.clone());
+        let path = dir.join(n);
+        if !path.exists() {
+            m.files.retain(|f| &f.name != n);
+            continue;
+        }
+        let bytes = std::fs::metadata(&path).map_err(io(path.clone()))?.len();
+        let entry = ManifestEntry { name: n.clone(), bytes, sha256: sha256_of(&path).map_err(io(path.clone()))? };
+        match m.files.iter_mut().find(|f| &f.name == n) {
+            Some(f) => *f = entry,
+            None => m.files.push(entry),
         }
     }
-    write_manifest(dir, &all)
+    let path = dir.join(MANIFEST);
+    write_atomic(&path, |w| {
+        serde_json::to_writer_pretty(&mut *w, &m)?;
+        writeln!(w)
+    })
 }
 
 /// Removes the manifest: the set in `dir` is about to change.

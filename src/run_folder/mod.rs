@@ -69,15 +69,17 @@ pub fn write_run(
     export::write_states_npy(rec, &path(STATES))?;
     export::write_boundaries(&boundaries, &path("boundaries.csv"))?;
     export::write_domains(&domains, &path("domains.csv"))?;
-    let summary = Summary::new(model, run);
+    let mut summary = Summary::new(model, run);
+    if pictures {
+        let drawn = write_pictures(rec, &boundaries, &style, dir, PictureKind::All)?;
+        for p in &drawn.files {
+            written.extend(p.file_name().map(|n| n.to_string_lossy().into_owned()));
+        }
+        summary.picture_notes = drawn.notes;
+    }
     export::write_json(&summary, &path(SUMMARY))?;
     export::write_atomic(&path(MODEL_COPY), |w| w.write_all(model.text.as_bytes()))?;
     written.extend([STATES, "boundaries.csv", "domains.csv", SUMMARY, MODEL_COPY].map(String::from));
-    if pictures {
-        for p in write_pictures(rec, &boundaries, &style, dir, PictureKind::All)? {
-            written.extend(p.file_name().map(|n| n.to_string_lossy().into_owned()));
-        }
-    }
     written.push(crate::page::PAGE.into());
     // Outputs of an earlier run of another kind (a sheet's table, pictures
     // not drawn this time) would pass for this run's: they go.

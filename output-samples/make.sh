@@ -24,6 +24,7 @@ for model in patterns/*.toml; do
     "$bin" sensitivity "$model" --width 560 -o "$out/screen" > /dev/null
     "$bin" sweep "$model" --axis amber.production=0.2:5:31:log --axis cobalt.production=0.2:5:31:log --width 560 -o "$out/sweep" > /dev/null
     "$bin" portrait "$out" --nucleus 40 --genes amber,cobalt --time 8 --width 560 > /dev/null
+    "$bin" figure "$out" --svg --width 1200 > /dev/null
     # The ribbon on white, as for a printed figure.
     "$bin" render "$out" --kind kymograph --light --width 560 -o output-samples/ribbon-light > /dev/null
   fi
@@ -42,8 +43,9 @@ for model in patterns/*.toml; do
     "$bin" render "$out" --kind kymograph --genes teal --heatmap --width 560 -o output-samples/band-teal-heatmap > /dev/null
   fi
   rm -f "$out/states.npy" "$out/profiles.csv" "$out/profiles_long.csv" "$out/final_sheet.csv" "$out/attractors.csv" "$out/basins.csv" "$out/manifest.json"
-  # One animation is enough for the samples (run writes one for every model).
-  [ "$name" = ribbon ] || rm -f "$out/pattern.gif"
+  # One animation and one report page are enough for the samples (every
+  # run writes both); the page is rewritten last, after the removals.
+  [ "$name" = ribbon ] || rm -f "$out/pattern.gif" "$out/report.html"
 
 done
 # The fit demo (invented data in demo-data/fit).

@@ -64,7 +64,9 @@ mod outputs;
 pub mod reference;
 mod simd;
 pub mod tissue;
-pub use outputs::{BasinReport, PictureKind, WriteError, write_basins, write_picture, write_pictures, write_portrait};
+pub use outputs::{
+    BasinReport, PictureKind, WriteError, write_basins, write_figure, write_picture, write_pictures, write_portrait,
+};
 pub use outputs::{ReplicateJob, ReplicateReport, write_fit, write_replicates, write_screen, write_sensitivity};
 pub use outputs::{
     SCREEN_REPLICATES, write_screen_files, write_screen_replicates, write_sensitivity_files, write_sweep,

@@ -128,6 +128,28 @@ pub fn write_picture(path: &Path, canvas: &render::Canvas, svg: bool) -> Result<
     Ok(files)
 }
 
+/// Draws the run's figure ([`render::figure`]: pattern, kymograph,
+/// boundary positions, and the attractors of gene `gene` along the axis at
+/// the last snapshot) into `path` (PNG, and SVG beside it with
+/// `style.svg`); returns the files written.
+///
+/// # Errors
+/// [`WriteError`] if a snapshot cannot be read back or a file cannot be written.
+pub fn write_figure(
+    model: &Model,
+    rec: &Recording,
+    gene: usize,
+    style: &render::Style,
+    path: &Path,
+) -> Result<Vec<PathBuf>, WriteError> {
+    let boundaries = readout::find_boundaries(rec)?;
+    let last = rec.times.len() - 1;
+    let hi: Vec<f64> = rec.max_levels(0..rec.len())?.into_iter().map(|m| 1.2 * m.max(1e-3)).collect();
+    let landscape = crate::phase::landscape(model, rec.times[last], &hi);
+    let canvas = render::figure(rec, &boundaries, Some((&landscape, gene)), style)?;
+    Ok(write_picture(path, &canvas, style.svg)?)
+}
+
 /// What `anlage basins` found.
 #[derive(Debug, Clone)]
 pub struct BasinReport {
@@ -168,7 +190,7 @@ pub fn write_basins(
         ["attractors.csv", "basins.csv", "commitment.csv", "landscape.csv"].iter().map(|n| path(n)).collect();
     let kymo = render::basin_kymograph(rec, &analysis, style);
     files.extend(write_picture(&path("basins.png"), &kymo, style.svg)?);
-    let land = render::landscape_picture(rec, &landscape, gene, style);
+    let land = render::landscape_picture(rec, &landscape, gene, &analysis.on_level, style);
     files.extend(write_picture(&path("landscape.png"), &land, style.svg)?);
     Ok(BasinReport { analysis, landscape, files })
 }

@@ -28,6 +28,7 @@ pub const TABLE_ROWS: usize = 40;
 
 /// A picture the page shows when its folder has it, with what it shows.
 const PICTURES: &[(&str, &str)] = &[
+    ("figure.png", "The run in one figure: pattern, kymograph, boundaries over time, attractors along the axis."),
     ("pattern.png", "The final pattern (a row drawn as an embryo, a sheet as itself)."),
     ("kymograph.png", "Levels along the axis (across) over time (down), with each boundary traced."),
     ("boundary_positions.png", "Each boundary's position against time."),

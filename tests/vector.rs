@@ -228,3 +228,44 @@ fn picture_options_are_honoured_or_refused() {
     let doc = roxmltree::Document::parse(&svg).expect("an SVG that parses");
     assert!(svg_texts(&doc).iter().any(|t| t == "Odd title  with   gaps & <marks>"), "{:?}", svg_texts(&doc));
 }
+
+/// `figure` draws a run in four lettered panels (pattern, kymograph,
+/// boundary positions, attractors along the axis) at exactly the width
+/// asked, with an SVG twin that names each panel; in the run folder it joins
+/// the page and the manifest. The attractor branches are drawn in the
+/// colours of their attractors (the genes' colours of the run).
+#[test]
+fn figure_has_four_lettered_panels() {
+    let dir = temp_dir("figure");
+    let out = dir.join("run");
+    let m = root().join("patterns/ribbon.toml");
+    assert!(anlage(&["run", m.to_str().unwrap(), "-o", out.to_str().unwrap(), "-q"]).status.success());
+    let o = anlage(&["figure", out.to_str().unwrap(), "--svg", "--width", "1200", "-q"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert_eq!(png_size(&out.join("figure.png")).0, 1200);
+    let svg = std::fs::read_to_string(out.join("figure.svg")).unwrap();
+    let doc = roxmltree::Document::parse(&svg).unwrap();
+    let texts = svg_texts(&doc);
+    for want in ["A", "B", "C", "D", "Final pattern", "Boundary positions over time", "model prediction"] {
+        assert!(texts.iter().any(|t| t == want), "no `{want}` in {texts:?}");
+    }
+    assert!(texts.iter().any(|t| t.starts_with("Attractors along the axis")));
+    assert!(std::fs::read_to_string(out.join("report.html")).unwrap().contains("<code>figure.png</code>"));
+    assert_eq!(anlage::run_folder::incomplete(&out, &[]), None);
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let colours: Vec<String> =
+        summary["colors"].as_array().unwrap().iter().map(|c| c.as_str().unwrap().to_lowercase()).collect();
+    // Panel D is the fourth group placed on the figure.
+    let panel_d = doc.root_element().children().filter(|n| n.has_tag_name("g")).nth(3).expect("four panels");
+    let strokes: Vec<String> = panel_d
+        .descendants()
+        .filter(|n| n.has_tag_name("polyline") && n.attribute("stroke-width") == Some("2.5"))
+        .filter_map(|n| n.attribute("stroke").map(str::to_string))
+        .collect();
+    for c in &colours {
+        assert!(strokes.contains(c), "no branch in {c} among {strokes:?}");
+    }
+    let bad = anlage(&["figure", out.to_str().unwrap(), "-o", dir.join("f.svg").to_str().unwrap()]);
+    assert_eq!(bad.status.code(), Some(2));
+}

@@ -51,6 +51,9 @@ pub enum Command {
     Basins(BasinsArgs),
     /// Phase portrait of one nucleus in the plane of two genes.
     Portrait(PortraitArgs),
+    /// One figure of a run for a paper or a talk: pattern, kymograph, boundary positions
+    /// over time and attractors along the axis, lettered A–D.
+    Figure(FigureArgs),
     /// Print a shell completion script (bash, zsh, fish, elvish or powershell) to standard output.
     Completions(CompletionsArgs),
     /// Print the manual page (roff, for `man`) to standard output.
@@ -391,6 +394,25 @@ pub struct BasinsArgs {
     /// Print what was found as one JSON document on standard output instead of the report.
     #[arg(long)]
     pub json: bool,
+}
+
+/// Arguments of `figure`.
+#[derive(Debug, Args)]
+pub struct FigureArgs {
+    /// Folder written by `anlage run`.
+    pub run_dir: PathBuf,
+    /// Gene whose attractors panel D shows (default: the first).
+    #[arg(long)]
+    pub gene: Option<String>,
+    /// Output picture, .png (default: figure.png in the run folder).
+    #[arg(short, long)]
+    pub out: Option<PathBuf>,
+    /// Print nothing but errors.
+    #[arg(short, long)]
+    pub quiet: bool,
+    /// Background, size (of the whole figure; default 1500 px) and SVG.
+    #[command(flatten)]
+    pub canvas: CanvasArgs,
 }
 
 /// Arguments of `portrait`.

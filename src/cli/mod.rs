@@ -25,6 +25,7 @@ pub fn dispatch(cli: &Cli) -> anyhow::Result<()> {
         Command::Render(a) => run::render(a),
         Command::Basins(a) => phase::basins(a),
         Command::Portrait(a) => phase::portrait(a),
+        Command::Figure(a) => phase::figure(a),
         Command::Screen(a) => screen::screen(a),
         Command::Sensitivity(a) => screen::sensitivity(a),
         Command::Sweep(a) => screen::sweep(a),

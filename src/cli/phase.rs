@@ -123,3 +123,59 @@ pub fn portrait(args: &PortraitArgs) -> anyhow::Result<()> {
     print!("{}", print::portrait(&data, &rec, &path));
     Ok(())
 }
+
+/// `anlage figure`.
+pub fn figure(args: &FigureArgs) -> anyhow::Result<()> {
+    let FigureArgs { run_dir, gene, out, quiet, canvas } = args;
+    let model = anlage::model::Model::load(&run_dir.join("model.toml"))?;
+    let saved = anlage::run_folder::load(run_dir)?;
+    let rec = &saved.recording;
+    let mut opts = canvas.options();
+    // The figure is two panels wide: by default each panel at its own 720 px.
+    let width = opts.width.unwrap_or(1500);
+    if !(320..=8192).contains(&width) {
+        return Err(StyleError::OutOfRange {
+            option: "--width".into(),
+            value: width.to_string(),
+            fix: "give 320 to 8192 px for the whole figure".into(),
+        }
+        .into());
+    }
+    opts.width = None;
+    let mut style = Style::with_options(rec, &saved.summary.title, &opts)?;
+    style.pixel_width = Some(width);
+    let g = match gene {
+        Some(name) => model.gene_index(name).ok_or_else(|| StyleError::UnknownGene {
+            option: "--gene".into(),
+            name: name.clone(),
+            known: rec.genes.join(", "),
+        })?,
+        None => 0,
+    };
+    let path = out.clone().unwrap_or_else(|| run_dir.join("figure.png"));
+    if path.extension().is_none_or(|e| !e.eq_ignore_ascii_case("png")) {
+        return Err(StyleError::OutOfRange {
+            option: "-o".into(),
+            value: path.display().to_string(),
+            fix: "name a .png file; --svg writes NAME.svg beside it".into(),
+        }
+        .into());
+    }
+    let written =
+        anlage::write_figure(&model, rec, g, &style, &path).with_context(|| format!("writing {}", path.display()))?;
+    if path.parent() == Some(run_dir.as_path()) {
+        // In the run folder the figure joins the run's set and its page.
+        anlage::page::write_page(run_dir, &saved.summary.title)?;
+        let names: Vec<String> = [path.clone(), path.with_extension("svg")]
+            .iter()
+            .filter_map(|p| p.file_name().map(|n| n.to_string_lossy().into_owned()))
+            .collect();
+        anlage::run_folder::add_to_manifest(run_dir, &names)?;
+    }
+    if !quiet {
+        for p in &written {
+            println!("wrote {}", p.display());
+        }
+    }
+    Ok(())
+}

@@ -98,8 +98,13 @@ pub struct Commitment {
 
 /// Names an attractor by the genes that are on in it (joined by "+"), or "low".
 pub fn point_label(p: &FixedPoint, genes: &[String], on_level: &[f64]) -> String {
+    state_label(&p.x, genes, on_level)
+}
+
+/// Names a state by the genes above their `on_level` (joined by "+"), or "low".
+pub fn state_label(x: &[f64], genes: &[String], on_level: &[f64]) -> String {
     let on: Vec<&str> =
-        genes.iter().zip(&p.x).zip(on_level).filter(|((_, v), l)| **v > **l).map(|((g, _), _)| g.as_str()).collect();
+        genes.iter().zip(x).zip(on_level).filter(|((_, v), l)| **v > **l).map(|((g, _), _)| g.as_str()).collect();
     if on.is_empty() { "low".into() } else { on.join("+") }
 }
 

@@ -65,11 +65,19 @@ pub fn portrait_data(
         let cap = if gene.decay > 0.0 { gene.production / gene.decay } else { 0.0 };
         1.1 * seen.max(cap).max(1e-6)
     };
-    let bounds = [(0.0, top(a)), (0.0, top(b))];
+    // Fixed points are searched for up to capacity, so that none is missed;
+    // the picture shows what happens: every level the run reached and every
+    // fixed point, with a margin, not the (often much larger) capacity.
+    let search = [(0.0, top(a)), (0.0, top(b))];
     let tol = 1e-10 * model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
-    let mut starts = box_starts(&[bounds[0].1, bounds[1].1], 40);
+    let mut starts = box_starts(&[search[0].1, search[1].1], 40);
     starts.push(vec![state[a], state[b]]);
     let points = find_fixed_points(&sys, &starts, tol, true);
+    let shown = |g: usize, k: usize| {
+        let fixed = points.iter().map(|p| p.x[k]).fold(0.0, f64::max);
+        (1.15 * seen[g].max(fixed)).clamp(1e-6, search[k].1)
+    };
+    let bounds = [(0.0, shown(a, 0)), (0.0, shown(b, 1))];
     let field_n = 20;
     let mut field = Vec::with_capacity(field_n * field_n);
     let mut f = [0.0; 2];

@@ -340,6 +340,27 @@ impl Canvas {
         }
     }
 
+    /// Draws `other` (drawn at this canvas's scale) with its top-left corner
+    /// at layout point (`x`, `y`): its pixels copied, its SVG elements
+    /// placed as a group.
+    pub fn place(&mut self, other: &Canvas, x: f32, y: f32) {
+        let (ox, oy) = ((x * self.scale).round() as i64, (y * self.scale).round() as i64);
+        let (w, h) = (self.pix.width() as i64, self.pix.height() as i64);
+        let (ow, oh) = (other.pix.width() as i64, other.pix.height() as i64);
+        let (x0, x1) = (ox.max(0), (ox + ow).min(w));
+        if x1 > x0 {
+            let src = other.pix.data();
+            let dst = self.pix.data_mut();
+            for row in oy.max(0)..(oy + oh).min(h) {
+                let s0 = (4 * ((row - oy) * ow + (x0 - ox))) as usize;
+                let d0 = (4 * (row * w + x0)) as usize;
+                let n = (4 * (x1 - x0)) as usize;
+                dst[d0..d0 + n].copy_from_slice(&src[s0..s0 + n]);
+            }
+        }
+        let _ = write!(self.svg, "<g transform=\"translate({},{})\">\n{}</g>\n", num(x), num(y), other.svg);
+    }
+
     /// The drawing as a standalone SVG document: `pixel_width × pixel_height`
     /// on the page, laid out in layout units (the `viewBox`).
     pub fn svg(&self) -> String {

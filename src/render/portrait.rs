@@ -77,7 +77,7 @@ pub fn write_cloud_gif(
 fn portrait_with_axes(rec: &Recording, d: &PortraitData, style: &Style, trajectories: bool) -> (Canvas, Axes) {
     let bg = style.background;
     let width = style.width.max(420);
-    let (left, top, right, bottom) = (70.0, 84.0, 30.0, 96.0);
+    let (left, top, right, bottom) = (70.0, 84.0, 30.0, 110.0);
     let side = width as f32 - left - right;
     let mut c = style.canvas(width, (top + side + bottom) as u32);
     let a = Axes { left, top, width: side, height: side, x: d.bounds[0], y: d.bounds[1], y_down: false };
@@ -160,13 +160,14 @@ fn portrait_with_axes(rec: &Recording, d: &PortraitData, style: &Style, trajecto
     };
     c.text(left, y0, 12.0, muted, Align::Left, lines[0]);
     c.text(left, y0 + 16.0, 12.0, muted, Align::Left, lines[1]);
-    c.text(
-        left,
-        y0 + 32.0,
-        12.0,
-        muted,
-        Align::Left,
-        "filled: stable; open circle: unstable; open square: saddle; coloured: nullclines",
-    );
+    c.text(left, y0 + 32.0, 12.0, muted, Align::Left, "filled: stable; open circle: unstable; open square: saddle");
+    // The nullcline key: which line is which gene's.
+    let mut pen = left;
+    for &g in &d.genes {
+        let label = format!("{} nullcline (d{}/dt = 0)", rec.genes[g], rec.genes[g]);
+        c.line(pen, y0 + 44.0, pen + 22.0, y0 + 44.0, 2.5, style.colors[g]);
+        c.text(pen + 28.0, y0 + 48.0, 12.0, bg.ink(), Align::Left, &label);
+        pen += 28.0 + Canvas::text_width(12.0, &label) + 24.0;
+    }
     (c, a)
 }

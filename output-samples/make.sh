@@ -44,7 +44,7 @@ for model in patterns/*.toml; do
   fi
   rm -f "$out/states.npy" "$out/profiles.csv" "$out/profiles_long.csv" "$out/final_sheet.csv" "$out/attractors.csv" "$out/basins.csv" "$out/manifest.json"
   # One animation and one report page are enough for the samples (every
-  # run writes both); the page is rewritten last, after the removals.
+  # run writes both): the ribbon keeps them.
   [ "$name" = ribbon ] || rm -f "$out/pattern.gif" "$out/report.html"
 
 done

@@ -284,6 +284,44 @@ pub fn write_screen_files(
     Ok(None)
 }
 
+/// The picture of `screen --over-time`.
+pub const SHIFTS_OVER_TIME: &str = "shifts_over_time.png";
+
+/// Runs the wild type and every mutant with all their snapshots (mutants in
+/// parallel when `parallel`) and draws [`SHIFTS_OVER_TIME`] into `dir`: each
+/// mutant's boundaries over time against the wild type's. A mutant whose run
+/// fails gets its panel with the reason. Returns the files written.
+///
+/// # Errors
+/// [`WriteError`] if the wild type fails or a file cannot be written.
+pub fn write_shifts_over_time(
+    model: &Model,
+    mutants: &[crate::model::Mutant],
+    style: &render::Style,
+    dir: &Path,
+    parallel: bool,
+) -> Result<Vec<PathBuf>, WriteError> {
+    use rayon::prelude::*;
+    let quiet = crate::RunOptions { parallel, ..Default::default() };
+    let wt = crate::simulate(model, &quiet)?.recording;
+    let wt_bounds = readout::find_boundaries(&wt)?;
+    let one = |m: &crate::model::Mutant| -> render::MutantRun {
+        let run = crate::simulate(&model.with_mutant(m), &crate::RunOptions::default())
+            .map_err(|e| format!("run failed: {e}"))
+            .and_then(|r| {
+                let b = readout::find_boundaries(&r.recording).map_err(|e| e.to_string())?;
+                Ok((r.recording, b))
+            });
+        (m.name.clone(), run)
+    };
+    let runs: Vec<render::MutantRun> =
+        if parallel { mutants.par_iter().map(one).collect() } else { mutants.iter().map(one).collect() };
+    let mut titled = style.clone();
+    titled.title = format!("{}: boundaries over time in mutants", style.title);
+    let canvas = render::shifts_over_time((&wt, &wt_bounds), &runs, &titled)?;
+    Ok(write_picture(&dir.join(SHIFTS_OVER_TIME), &canvas, style.svg)?)
+}
+
 /// Runs a sweep ([`crate::sweep::run_sweep`]) and writes `sweep.csv`,
 /// `sweep_boundaries.csv` and `sweep.png` into `dir`.
 ///

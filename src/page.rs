@@ -36,6 +36,7 @@ const PICTURES: &[(&str, &str)] = &[
     ("pattern.gif", "The pattern over time."),
     ("comparison.png", "Simulated boundaries against the measured ones (bands: measured mean ± sd)."),
     ("shifts.png", "How far each mutant moves each wild-type boundary."),
+    ("shifts_over_time.png", "Each mutant's boundaries over time (colours) against the wild type's (grey)."),
     ("sensitivity.png", "How far each boundary moves per relative change of each parameter."),
     ("sweep.png", "The kind of pattern over the swept parameters."),
     ("fit_boundaries.png", "Fitted against measured boundaries, genotype by genotype."),

@@ -269,3 +269,72 @@ fn figure_has_four_lettered_panels() {
     let bad = anlage(&["figure", out.to_str().unwrap(), "-o", dir.join("f.svg").to_str().unwrap()]);
     assert_eq!(bad.status.code(), Some(2));
 }
+
+/// `screen --over-time` draws every mutant's boundaries over time against
+/// the wild type's: one panel per mutant, named; its last point lies where
+/// the screen's table puts that mutant's final boundary. Refused with `-o -`.
+#[test]
+fn screens_draw_boundaries_over_time() {
+    let dir = temp_dir("over-time");
+    let m = root().join("patterns/ribbon.toml");
+    let out = dir.join("screen");
+    let o =
+        anlage(&["screen", m.to_str().unwrap(), "--knockouts", "--over-time", "--svg", "-o", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let svg = std::fs::read_to_string(out.join("shifts_over_time.svg")).unwrap();
+    let doc = roxmltree::Document::parse(&svg).unwrap();
+    let texts = svg_texts(&doc);
+    for name in ["ko:amber", "ko:cobalt"] {
+        assert!(texts.iter().any(|t| t == name), "no panel `{name}` in {texts:?}");
+    }
+    // ko:cobalt moves the amber boundary: the amber track's last point in the
+    // second panel sits at the mutant_pct of shifts.csv.
+    let table = std::fs::read_to_string(out.join("shifts.csv")).unwrap();
+    let header: Vec<&str> = table.lines().next().unwrap().split(',').collect();
+    let col = |n: &str| header.iter().position(|h| *h == n).unwrap();
+    let row: Vec<&str> = table
+        .lines()
+        .map(|l| l.split(',').collect::<Vec<_>>())
+        .find(|r| r[col("mutant")] == "ko:cobalt" && r[col("gene")] == "amber")
+        .expect("ko:cobalt moves amber");
+    let want: f64 = row[col("mutant_pct")].parse().unwrap();
+    let amber = "#e69f00";
+    // Panel frames are the closed 5-point polylines; ko:cobalt's is the one
+    // whose top-left corner its name is written above.
+    let label = doc.descendants().find(|n| n.has_tag_name("text") && n.text() == Some("ko:cobalt")).unwrap();
+    let at = |k: &str| label.attribute(k).unwrap().parse::<f64>().unwrap();
+    let corner = (at("x"), at("y") + 6.0);
+    let frames: Vec<Vec<(f64, f64)>> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("polyline"))
+        .map(|n| {
+            n.attribute("points")
+                .unwrap()
+                .split(' ')
+                .map(|p| {
+                    let (x, y) = p.split_once(',').unwrap();
+                    (x.parse().unwrap(), y.parse().unwrap())
+                })
+                .collect::<Vec<(f64, f64)>>()
+        })
+        .filter(|p| p.len() == 5 && p[0] == p[4])
+        .collect();
+    let frame = frames.iter().find(|f| (f[0].0 - corner.0).abs() < 0.1 && (f[0].1 - corner.1).abs() < 0.1).unwrap();
+    let (x0, x1) = (frame[0].0, frame[1].0);
+    let (y_top, y_bottom) = (frame[0].1, frame[2].1);
+    let last_amber = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("polyline") && n.attribute("stroke") == Some(amber))
+        .filter_map(|n| {
+            let pts = n.attribute("points").unwrap();
+            let (x, y) = pts.split(' ').next_back().unwrap().split_once(',').unwrap();
+            let (x, y): (f64, f64) = (x.parse().unwrap(), y.parse().unwrap());
+            (x > x0 - 0.5 && x < x1 + 0.5 && y > y_top - 0.5 && y < y_bottom + 0.5).then_some((x, y))
+        })
+        .max_by(|a, b| a.0.total_cmp(&b.0))
+        .expect("an amber track in the ko:cobalt panel");
+    let pct = 100.0 * (y_bottom - last_amber.1) / (y_bottom - y_top);
+    assert!((pct - want).abs() < 0.5, "drawn at {pct:.2} %, table {want:.2} %");
+    let refused = anlage(&["screen", m.to_str().unwrap(), "--knockouts", "--over-time", "-o", "-"]);
+    assert_eq!(refused.status.code(), Some(2));
+}

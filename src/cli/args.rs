@@ -154,6 +154,10 @@ pub struct ScreenArgs {
     /// Also animate the wild type beside this mutant (its name).
     #[arg(long)]
     pub animate: Option<String>,
+    /// Also draw every mutant's boundaries over time against the wild type's
+    /// (shifts_over_time.png; runs each mutant again with all its snapshots; at most 24 mutants).
+    #[arg(long)]
+    pub over_time: bool,
     /// Also screen every pair (2) or triple (3) of the mutants above, with their epistasis: how far
     /// each cross's shift departs from the sum of the single shifts (epistasis.csv).
     #[arg(long, value_name = "2|3")]

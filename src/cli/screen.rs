@@ -19,6 +19,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
         link_removals,
         dosage,
         animate,
+        over_time,
         crosses,
         replicates,
         cluster,
@@ -81,6 +82,25 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     };
     refuse_json_with_stdout(out.as_deref(), *json)?;
     refuse_pictures_with_stdout(out.as_deref(), look, "screen")?;
+    if *over_time {
+        if table_to_stdout(out.as_deref()) {
+            anyhow::bail!(StyleError::OutOfRange {
+                option: "--over-time".into(),
+                value: "given".into(),
+                fix: "it draws a picture, and -o - writes only shifts.csv; give an output folder".into(),
+            });
+        }
+        if list.len() > anlage::render::MOST_PANELS {
+            anyhow::bail!(StyleError::OutOfRange {
+                option: "--over-time".into(),
+                value: format!("{} mutants", list.len()),
+                fix: format!(
+                    "it draws at most {} mutants, one panel each; choose them with --mutant",
+                    anlage::render::MOST_PANELS
+                ),
+            });
+        }
+    }
     let mode = cluster.mode(out.as_deref())?;
     if let Some(n) = replicates {
         check_embryos("--replicates", *n)?;
@@ -164,6 +184,15 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
     }
     if replicates.is_some() && anlage::replicates::Sources::each(&model).is_empty() && !*json {
         eprintln!("anlage: note: the model declares no noise ([noise] or initial_noise): every embryo is the same");
+    }
+    if *over_time {
+        anlage::write_shifts_over_time(&model, &list, &style, &dir, true)
+            .with_context(|| format!("boundaries over time of {}", path.display()))?;
+    } else {
+        // A picture of an earlier screen must not pass for this one's.
+        for ext in ["png", "svg"] {
+            let _ = std::fs::remove_file(dir.join(anlage::SHIFTS_OVER_TIME).with_extension(ext));
+        }
     }
     let epistasis = anlage::screen::epistasis(&screen, &crossed);
     if crosses.is_some() {

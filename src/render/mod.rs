@@ -21,6 +21,7 @@ mod portrait;
 mod profiles;
 mod replicates;
 mod screen;
+mod screen_time;
 mod sweep;
 mod tracks;
 
@@ -34,6 +35,7 @@ pub use fit::{fit_boundaries, fit_profiles, fit_trace};
 pub use kymograph::{KymoLayout, draw_tracks, kymograph, space_time};
 pub use measure::{check_picture, comparison_overlay};
 pub use screen::{sensitivity_map, shift_chart};
+pub use screen_time::{MOST_PANELS, MutantRun, shifts_over_time};
 pub use sweep::{class_color, sweep_picture};
 pub use tracks::{BROAD, EXPRESSED, Segment, tracks};
 

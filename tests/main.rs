@@ -11,6 +11,7 @@ mod fit;
 mod fuzz_core;
 mod hostile;
 mod imaging;
+mod initial_formula;
 mod interrupt;
 mod measure;
 mod phase;

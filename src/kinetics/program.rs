@@ -329,6 +329,9 @@ mod tests {
         cases.push(Expr::Call(Func::Max, vec![u0.clone(), u1.clone()]));
         cases.push(Expr::Call(Func::Choose, vec![u0.clone(), n(1.0), u1.clone(), m0.clone()]));
         cases.push(Expr::Call(Func::Exp, vec![Expr::Neg(Box::new(u1.clone()))]));
+        cases.push(Expr::Call(Func::Cos, vec![b(Op::Mul, u0.clone(), n(3.0))]));
+        cases.push(Expr::Call(Func::Sin, vec![b(Op::Sub, u1.clone(), m0.clone())]));
+        cases.push(Expr::Call(Func::Step, vec![b(Op::Sub, u0.clone(), n(1.2))]));
         // Each case also one and two registers deep (0.5 + (u1 · case)).
         let deep: Vec<Expr> = cases
             .iter()

@@ -317,6 +317,9 @@ pub struct Gene {
     pub bias: f64,
     /// Rate expression replacing the circuit's rate law for this gene (checked).
     pub rate: Option<String>,
+    /// The formula [`Self::initial`] was computed from when the model was
+    /// read, if any (its constants cannot then be varied: see `no_effect`).
+    pub initial_formula: Option<String>,
     /// The level that defines its boundaries and domains (default half of its maximum).
     pub boundary: Level,
     /// The production p a knock-out took away, a.u./min: the knocked-out

@@ -329,7 +329,21 @@ impl Model {
             Param::Constant(k) => {
                 let constant = &self.circuit.parameters[k].0;
                 let used = (0..self.genes.len()).filter_map(expression).any(|r| names_in(r).any(|n| n == constant));
-                (!used).then(|| format!("`{name}` has no effect: no rate expression uses the constant `{constant}`"))
+                let start = self
+                    .genes
+                    .iter()
+                    .find(|g| g.initial_formula.as_deref().is_some_and(|f| names_in(f).any(|n| n == constant)));
+                match start {
+                    // The start was computed once, when the model was read: a
+                    // change would reach the rates and not the start.
+                    Some(g) => Some(format!(
+                        "`{name}` also sets `{}`'s initial levels (its initial_formula), which are computed once when \
+                         the model is read and would not follow; give the formula a constant of its own",
+                        g.name
+                    )),
+                    None => (!used)
+                        .then(|| format!("`{name}` has no effect: no rate expression uses the constant `{constant}`")),
+                }
             }
         };
         structural.or_else(|| {

@@ -158,6 +158,9 @@ pub struct GeneSpec {
     /// Initial level per nucleus from an NPY file of f64 (shape `[nuclei]` or
     /// `[ny, nx]`), path relative to the model file.
     pub initial_file: Option<String>,
+    /// Initial level per nucleus as a formula of x, y (µm), L, W, pi and the
+    /// circuit's named constants, e.g. `"2 * step(0.3 * L - x)"`.
+    pub initial_formula: Option<String>,
     /// Half-width of uniform noise added to the initial level, a.u. (default 0).
     pub initial_noise: Option<f64>,
     /// Hill kinetics: how activators combine, `"all"` (product, default) or `"any"` (sum).

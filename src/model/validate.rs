@@ -48,6 +48,12 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
         None => Circuit { kinetics: KineticsKind::Hill, links: Vec::new(), parameters: Vec::new(), neighbours: false },
     };
     let mut circuit = circuit;
+    for (i, (gs, g)) in spec.gene.iter().zip(genes.iter_mut()).enumerate() {
+        if let Some(text) = &gs.get_ref().initial_formula {
+            g.initial = initial_from_formula(i, gs, &g.name, text, &grid, &circuit.parameters, src)?;
+            g.initial_formula = Some(text.clone());
+        }
+    }
     let names = super::expr::ModelNames { genes: &genes, gradients: &gradients, parameters: &circuit.parameters };
     let mut neighbours = false;
     for (i, (gs, g)) in spec.gene.iter().zip(&genes).enumerate() {
@@ -445,4 +451,47 @@ fn check_gradient(i: usize, g: &Spanned<GradientSpec>, grid: &Grid, src: &Source
         }
     }
     Ok(Gradient { name: spec.name.clone(), shape, from, peak, baseline, amplitude })
+}
+
+/// A gene's initial levels from its `initial_formula`, evaluated at every
+/// nucleus's centre; refused where it is not a finite level ≥ 0.
+fn initial_from_formula(
+    i: usize,
+    gs: &Spanned<super::spec::GeneSpec>,
+    name: &str,
+    text: &str,
+    grid: &super::Grid,
+    parameters: &[(String, f64)],
+    src: &Source,
+) -> Result<super::Initial, ModelError> {
+    let field = format!("gene[{i}] `{name}`.initial_formula");
+    let names = super::expr::InitialNames { parameters, length_um: grid.length_um(), height_um: grid.height_um() };
+    let e = super::expr::parse(text, &names).map_err(|e| {
+        src.invalid(
+            &gs.span(),
+            "initial_formula",
+            field.clone(),
+            format!("column {} of the formula: {}", e.column, e.message),
+            "write a formula of x, y (µm), L, W, pi and the [circuit] parameters, e.g. \"2 * step(0.3 * L - x)\"",
+        )
+    })?;
+    let mut levels = Vec::with_capacity(grid.len());
+    for iy in 0..grid.ny {
+        for ix in 0..grid.nx {
+            let (x, y) = (grid.x_um(ix), grid.y_um(iy));
+            let v = e.value(&[x, y]);
+            if !(v.is_finite() && v >= 0.0) {
+                let at = if grid.is_sheet() { format!("x = {x} µm, y = {y} µm") } else { format!("x = {x} µm") };
+                return Err(src.invalid(
+                    &gs.span(),
+                    "initial_formula",
+                    field,
+                    format!("is {v} at nucleus {} ({at}): levels must be finite and >= 0", iy * grid.nx + ix),
+                    "keep the formula >= 0 everywhere, e.g. wrap it in max(0, ...)",
+                ));
+            }
+            levels.push(v);
+        }
+    }
+    Ok(super::Initial::Profile(levels))
 }

@@ -125,6 +125,16 @@ pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Sou
         (None, Some(f)) => Some(("initial_file", read_initial_file(&c, f, grid)?)),
         (None, None) => None,
     };
+    if spec.initial_formula.is_some() {
+        let other = [
+            ("initial", spec.initial.is_some()),
+            ("initial_profile", spec.initial_profile.is_some()),
+            ("initial_file", spec.initial_file.is_some()),
+        ];
+        if let Some((key, _)) = other.iter().find(|(_, given)| *given) {
+            return Err(c.fail(key, "is given together with `initial_formula`".into(), "keep one of the two"));
+        }
+    }
     let initial = match (&spec.initial, profile) {
         (Some(_), Some((key, _))) => {
             return Err(c.fail(key, "is given together with `initial`".into(), "keep one of the two"));
@@ -171,6 +181,7 @@ pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Sou
         combine,
         bias,
         rate: spec.rate.clone(),
+        initial_formula: None,
         boundary,
         knocked_out_production: None,
     })

@@ -7,7 +7,7 @@
 mod names;
 mod parse;
 
-pub use names::ModelNames;
+pub use names::{InitialNames, ModelNames};
 pub use parse::{Names, ParseError, parse};
 
 /// Deepest stack a compiled expression may need (expressions needing more are refused).
@@ -47,6 +47,12 @@ pub enum Func {
     Max,
     /// choose(a, b, x, y) = x if a ≤ b else y; arises in derivatives of min/max
     Choose,
+    /// cos x (x in radians)
+    Cos,
+    /// sin x (x in radians)
+    Sin,
+    /// step(x) = 1 for x ≥ 0, else 0 (Heaviside)
+    Step,
 }
 
 /// An expression tree.
@@ -165,7 +171,9 @@ impl Expr {
                     Func::Ln => bin(Op::Div, da, a),
                     Func::Sqrt => bin(Op::Div, da, bin(Op::Mul, num(2.0), self.clone())),
                     Func::Abs => bin(Op::Mul, simplify(Expr::Call(Func::Sign, vec![a])), da),
-                    Func::Sign => num(0.0),
+                    Func::Sign | Func::Step => num(0.0),
+                    Func::Cos => bin(Op::Mul, Expr::Neg(Box::new(simplify(Expr::Call(Func::Sin, vec![a])))), da),
+                    Func::Sin => bin(Op::Mul, simplify(Expr::Call(Func::Cos, vec![a])), da),
                     Func::Min | Func::Max => {
                         let (b, db) = (args[1].clone(), args[1].derivative(g));
                         // min: a' where a ≤ b; max: a' where b ≤ a.
@@ -235,6 +243,22 @@ pub(crate) fn pow(x: f64, y: f64) -> f64 {
     if y.fract() == 0.0 && y.abs() <= 64.0 { x.powi(y as i32) } else { x.powf(y) }
 }
 
+impl Expr {
+    /// The value of the tree with input k (a gradient, or the position in an
+    /// initial formula) at `inputs[k]`; gene levels are not defined here
+    /// (NaN).
+    pub fn value(&self, inputs: &[f64]) -> f64 {
+        match self {
+            Expr::Num(v) => *v,
+            Expr::Gene(_) => f64::NAN,
+            Expr::Input(k) => inputs.get(*k).copied().unwrap_or(f64::NAN),
+            Expr::Neg(a) => -a.value(inputs),
+            Expr::Bin(op, a, b) => apply(*op, a.value(inputs), b.value(inputs)),
+            Expr::Call(f, args) => call(*f, &args.iter().map(|a| a.value(inputs)).collect::<Vec<_>>()),
+        }
+    }
+}
+
 pub(crate) fn call(f: Func, a: &[f64]) -> f64 {
     match f {
         Func::Exp => a[0].exp(),
@@ -252,12 +276,66 @@ pub(crate) fn call(f: Func, a: &[f64]) -> f64 {
         }
         Func::Min => a[0].min(a[1]),
         Func::Max => a[0].max(a[1]),
+        Func::Cos => a[0].cos(),
+        Func::Sin => a[0].sin(),
+        Func::Step => {
+            if a[0] >= 0.0 {
+                1.0
+            } else if a[0] < 0.0 {
+                0.0
+            } else {
+                f64::NAN
+            }
+        }
         Func::Choose => {
             if a[0] <= a[1] {
                 a[2]
             } else {
                 a[3]
             }
+        }
+    }
+}
+
+#[cfg(test)]
+mod trig_tests {
+    use super::*;
+
+    /// d/du of cos(3u)·sin(u) + step(u − 1), read off the symbolic
+    /// derivative, against a central difference (h = 1e-6; step is flat
+    /// away from its jump).
+    #[test]
+    fn trig_and_step_derivatives_match_differences() {
+        let u = Expr::Gene(0);
+        let three_u = Expr::Bin(Op::Mul, Box::new(Expr::Num(3.0)), Box::new(u.clone()));
+        let e = Expr::Bin(
+            Op::Add,
+            Box::new(Expr::Bin(
+                Op::Mul,
+                Box::new(Expr::Call(Func::Cos, vec![three_u])),
+                Box::new(Expr::Call(Func::Sin, vec![u.clone()])),
+            )),
+            Box::new(Expr::Call(Func::Step, vec![Expr::Bin(Op::Sub, Box::new(u.clone()), Box::new(Expr::Num(1.0)))])),
+        );
+        let d = e.derivative(0);
+        // Genes are read as inputs by `value` only through a substitution:
+        // evaluate with the gene replaced by an input.
+        fn subst(e: &Expr, v: f64) -> Expr {
+            match e {
+                Expr::Gene(_) => Expr::Num(v),
+                Expr::Neg(a) => Expr::Neg(Box::new(subst(a, v))),
+                Expr::Bin(op, a, b) => Expr::Bin(*op, Box::new(subst(a, v)), Box::new(subst(b, v))),
+                Expr::Call(f, args) => Expr::Call(*f, args.iter().map(|a| subst(a, v)).collect()),
+                other => other.clone(),
+            }
+        }
+        for x in [0.3, 0.7, 1.4, 2.9] {
+            let h = 1e-6;
+            let diff = (subst(&e, x + h).value(&[]) - subst(&e, x - h).value(&[])) / (2.0 * h);
+            let exact = subst(&d, x).value(&[]);
+            assert!((diff - exact).abs() < 1e-7, "at {x}: {exact} against {diff}");
+            let want = -3.0 * (3.0 * x).sin() * x.sin() + (3.0 * x).cos() * x.cos();
+            assert!((exact - want).abs() < 1e-12, "at {x}: {exact} against {want}");
         }
     }
 }

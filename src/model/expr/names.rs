@@ -41,3 +41,40 @@ impl Names for ModelNames<'_> {
         Some(Expr::Input(self.gradients.len() + 2 + gene))
     }
 }
+
+/// Names an initial formula may use: the position of a nucleus's centre
+/// `x` (along the axis) and `y` (across a sheet), µm; the axis length `L`
+/// and the sheet's height `W`, µm; `pi`; and the model's named constants
+/// (which come first, so a constant may be called `L`).
+pub struct InitialNames<'a> {
+    /// The `[circuit] parameters`.
+    pub parameters: &'a [(String, f64)],
+    /// Axis length, µm.
+    pub length_um: f64,
+    /// Sheet height, µm (one spacing for a row).
+    pub height_um: f64,
+}
+
+impl Names for InitialNames<'_> {
+    fn resolve(&self, name: &str) -> Option<Expr> {
+        match name {
+            "x" => return Some(Expr::Input(0)),
+            "y" => return Some(Expr::Input(1)),
+            _ => {}
+        }
+        if let Some((_, v)) = self.parameters.iter().find(|(n, _)| n == name) {
+            return Some(Expr::Num(*v));
+        }
+        match name {
+            "L" => Some(Expr::Num(self.length_um)),
+            "W" => Some(Expr::Num(self.height_um)),
+            "pi" => Some(Expr::Num(std::f64::consts::PI)),
+            _ => None,
+        }
+    }
+    fn known(&self) -> String {
+        let mut all = vec!["x", "y", "L", "W", "pi"];
+        all.extend(self.parameters.iter().map(|(n, _)| n.as_str()));
+        all.join(", ")
+    }
+}

@@ -1,6 +1,7 @@
 //! Parsing rate expressions: ordinary infix maths over gene levels, gradient
 //! values and named parameters, with + − × ÷ ^, parentheses, exp, ln, sqrt,
-//! abs, min, max and hill(x, K, n) = xⁿ/(Kⁿ + xⁿ).
+//! abs, min, max, cos, sin (radians), step(x) (1 for x ≥ 0, else 0) and
+//! hill(x, K, n) = xⁿ/(Kⁿ + xⁿ).
 
 use super::{Expr, Func, Op};
 
@@ -324,6 +325,9 @@ fn call(name: &str, mut args: Vec<Expr>, column: usize) -> Result<Expr, ParseErr
         "abs" => Func::Abs,
         "min" => Func::Min,
         "max" => Func::Max,
+        "cos" => Func::Cos,
+        "sin" => Func::Sin,
+        "step" => Func::Step,
         "hill" => {
             // hill(x, K, n) = x^n / (K^n + x^n)
             want(3, &args)?;
@@ -341,7 +345,9 @@ fn call(name: &str, mut args: Vec<Expr>, column: usize) -> Result<Expr, ParseErr
         other => {
             return Err(ParseError {
                 column,
-                message: format!("unknown function `{other}`; functions: exp, ln, sqrt, abs, min, max, hill"),
+                message: format!(
+                    "unknown function `{other}`; functions: exp, ln, sqrt, abs, min, max, cos, sin, step, hill"
+                ),
             });
         }
     };

@@ -9,6 +9,7 @@ mod demos;
 mod fit;
 #[allow(dead_code)] // also the core of examples/fuzz_models.rs
 mod fuzz_core;
+mod gradient_table;
 mod hostile;
 mod imaging;
 mod initial_formula;

@@ -190,12 +190,18 @@ pub fn describe(m: &Model) -> String {
 
     let _ = writeln!(s, "gradients {}", m.gradients.len());
     for gr in &m.gradients {
-        let shape = match gr.shape {
+        let shape = match &gr.shape {
             Shape::Exponential { decay_length_um } => {
                 format!("exponential, λ = {decay_length_um} µm")
             }
             Shape::Linear { length_um } => format!("linear over {length_um} µm"),
             Shape::Step { width_um } => format!("step {width_um} µm wide"),
+            Shape::Table { points } => format!(
+                "measured table of {} points, {}–{} µm from the source",
+                points.len(),
+                points[0].0,
+                points[points.len() - 1].0
+            ),
         };
         let side = match gr.from {
             Side::Left => "left",

@@ -6,6 +6,7 @@
 
 mod error;
 pub mod expr;
+pub mod gradient_table;
 mod level;
 mod mutant;
 pub mod noise;
@@ -66,6 +67,14 @@ impl Model {
         use sha2::{Digest, Sha256};
         let mut h = Sha256::new();
         h.update(self.text.as_bytes());
+        for g in &self.gradients {
+            if let Shape::Table { points } = &g.shape {
+                points.iter().for_each(|(x, v)| {
+                    h.update(x.to_le_bytes());
+                    h.update(v.to_le_bytes());
+                });
+            }
+        }
         for g in &self.genes {
             match &g.initial {
                 Initial::Uniform(v) => h.update(v.to_le_bytes()),
@@ -237,7 +246,7 @@ pub enum Side {
 }
 
 /// Spatial shape of a gradient as a function of distance d from the source.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub enum Shape {
     /// `peak·exp(−d/λ)`.
     Exponential {
@@ -253,6 +262,12 @@ pub enum Shape {
     Step {
         /// Width w, µm.
         width_um: f64,
+    },
+    /// A measured profile: levels at distances from the source, linear in
+    /// between and held beyond the ends (`gradient_table::level_at`).
+    Table {
+        /// (distance from the source, µm; level), increasing distance.
+        points: std::sync::Arc<[(f64, f64)]>,
     },
 }
 

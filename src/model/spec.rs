@@ -132,6 +132,11 @@ pub struct GradientSpec {
     pub baseline: Option<f64>,
     /// Time course of the amplitude: `[[t_min, factor], ...]`, linear in between.
     pub amplitude: Option<Vec<[f64; 2]>>,
+    /// Table: a CSV of `position_pct` or `position_um` (from the source) and
+    /// `level`, path relative to the model file.
+    pub table: Option<String>,
+    /// Table: the gene whose rows to use, when the table has a `gene` column.
+    pub table_gene: Option<String>,
 }
 
 /// `[[gene]]`

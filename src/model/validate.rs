@@ -420,10 +420,27 @@ fn check_gradient(i: usize, g: &Spanned<GradientSpec>, grid: &Grid, src: &Source
             },
             "width_um",
         ),
+        "table" => {
+            let file = c.required("table", spec.table.as_deref(), "by a table gradient")?;
+            let path = src.file().parent().map_or_else(|| file.into(), |dir| dir.join(file));
+            let points = super::gradient_table::read(&path, spec.table_gene.as_deref(), grid).map_err(|why| {
+                c.fail(
+                    "table",
+                    why,
+                    "give a CSV with a level column and position_pct or position_um (from the source side), \
+                     e.g. the profile table of `anlage measure`",
+                )
+            })?;
+            (Shape::Table { points: points.into() }, "table")
+        }
         other => {
-            return Err(c.fail("shape", format!("is `{other}`"), "use exponential, linear or step"));
+            return Err(c.fail("shape", format!("is `{other}`"), "use exponential, linear, step or table"));
         }
     };
+    if key != "table" {
+        c.forbidden("table", &spec.table, &format!("to a {} gradient", spec.shape))?;
+        c.forbidden("table_gene", &spec.table_gene, &format!("to a {} gradient", spec.shape))?;
+    }
     let values = [spec.decay_length_um, spec.length_um, spec.width_um];
     for (k, v) in shape_keys.iter().zip(values) {
         if *k != key {

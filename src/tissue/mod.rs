@@ -43,7 +43,7 @@ impl Tissue {
             for iy in 0..grid.ny {
                 for ix in 0..grid.nx {
                     let d = distance_um(&grid, g.from, ix, iy);
-                    shape[[m, iy * grid.nx + ix]] = g.baseline + (g.peak - g.baseline) * unit_shape(g.shape, d);
+                    shape[[m, iy * grid.nx + ix]] = g.baseline + (g.peak - g.baseline) * unit_shape(&g.shape, d);
                 }
             }
         }

@@ -1,0 +1,92 @@
+//! Gradients from measured tables: the ribbon's exponential gradient written
+//! out as a table at the nuclei gives the same run; tables in the form
+//! `measure` writes (several embryos and genes) are averaged and chosen by
+//! gene; bad tables are refused with the file and the fix.
+
+use crate::common::{root, run, temp_dir};
+
+fn ribbon_with(gradient: &str, dir: &std::path::Path) -> anlage::model::Model {
+    let text = std::fs::read_to_string(root().join("patterns/ribbon.toml")).unwrap();
+    let old = "shape = \"exponential\"\nfrom = \"left\"\npeak = 1.0\ndecay_length_um = 150.0";
+    assert!(text.contains(old));
+    let path = dir.join("model.toml");
+    std::fs::write(&path, text.replace(old, gradient)).unwrap();
+    anlage::model::Model::load(&path).unwrap_or_else(|e| panic!("{e}"))
+}
+
+/// The exponential head gradient sampled at every nucleus centre (a table
+/// in µm, full precision): linear interpolation returns the samples exactly,
+/// so the run is the exponential's, boundary for boundary, to the bit.
+#[test]
+fn a_table_of_the_exponential_gives_the_same_run() {
+    let dir = temp_dir("gradient-table");
+    let mut csv = String::from("position_um,level\n");
+    for ix in 0..100 {
+        let x = (ix as f64 + 0.5) * 5.0;
+        csv.push_str(&format!("{x:?},{:?}\n", (-x / 150.0).exp()));
+    }
+    std::fs::write(dir.join("head.csv"), csv).unwrap();
+    let table = ribbon_with("shape = \"table\"\nfrom = \"left\"\npeak = 1.0\ntable = \"head.csv\"", &dir);
+    let exponential = anlage::model::Model::load(&root().join("patterns/ribbon.toml")).unwrap();
+    let (a, b) = (run(&table).recording, run(&exponential).recording);
+    assert!(a.final_state() == b.final_state(), "the same final state to the bit");
+    assert_ne!(table.inputs_sha256(), exponential.inputs_sha256());
+}
+
+/// A table as `measure` writes it (sample, embryo, gene, position_pct,
+/// level): two embryos at the same positions are averaged; with two genes
+/// in it, `table_gene` chooses, and leaving it out is refused.
+#[test]
+fn measured_tables_are_averaged_and_chosen_by_gene() {
+    let dir = temp_dir("gradient-measured");
+    let mut csv = String::from("sample,embryo,gene,position_pct,level,signal\n");
+    for (embryo, lift) in [(1, 0.0), (2, 0.2)] {
+        for pct in [0.0, 50.0, 100.0] {
+            csv.push_str(&format!("s,{embryo},amber,{pct},{},0\n", 1.0 - pct / 100.0 + lift));
+            csv.push_str(&format!("s,{embryo},cobalt,{pct},{},0\n", pct / 100.0));
+        }
+    }
+    std::fs::write(dir.join("measured.csv"), csv).unwrap();
+    let base = "shape = \"table\"\nfrom = \"left\"\npeak = 1.0\ntable = \"measured.csv\"";
+    let model = ribbon_with(&format!("{base}\ntable_gene = \"amber\""), &dir);
+    let tissue = anlage::tissue::Tissue::new(&model);
+    let inputs = tissue.inputs_at(0.0);
+    // Nucleus 50 sits at 50.5 % of the axis: mean level 0.6 at 50 %, 0.1 at 100 %.
+    let want = 0.6 + (0.1 - 0.6) * (0.5 / 50.0);
+    assert!((inputs[[0, 50]] - want).abs() < 1e-12, "{} against {want}", inputs[[0, 50]]);
+    let path = dir.join("model.toml");
+    let text = std::fs::read_to_string(&path).unwrap().replace("\ntable_gene = \"amber\"", "");
+    std::fs::write(&path, text).unwrap();
+    let err = anlage::model::Model::load(&path).unwrap_err().to_string();
+    assert!(err.contains("table_gene") && err.contains("amber, cobalt"), "{err}");
+}
+
+/// Refused with the field and a fix: no level column, a negative level,
+/// one position only, and `table` on an exponential gradient.
+#[test]
+fn bad_tables_are_refused() {
+    let dir = temp_dir("gradient-bad");
+    let cases = [
+        ("position_pct,value\n0,1\n100,0\n", "no `level` column"),
+        ("position_pct,level\n0,1\n100,-0.5\n", "below 0"),
+        ("position_pct,level\n10,1\n10,2\n", "fewer than two positions"),
+    ];
+    for (k, (csv, want)) in cases.iter().enumerate() {
+        std::fs::write(dir.join(format!("t{k}.csv")), csv).unwrap();
+        let text = std::fs::read_to_string(root().join("patterns/ribbon.toml")).unwrap().replace(
+            "shape = \"exponential\"\nfrom = \"left\"\npeak = 1.0\ndecay_length_um = 150.0",
+            &format!("shape = \"table\"\nfrom = \"left\"\npeak = 1.0\ntable = \"t{k}.csv\""),
+        );
+        let path = dir.join(format!("m{k}.toml"));
+        std::fs::write(&path, text).unwrap();
+        let err = anlage::model::Model::load(&path).unwrap_err().to_string();
+        assert!(err.contains("table") && err.contains(want), "{want}: {err}");
+    }
+    let text = std::fs::read_to_string(root().join("patterns/ribbon.toml"))
+        .unwrap()
+        .replace("decay_length_um = 150.0", "decay_length_um = 150.0\ntable = \"t0.csv\"");
+    let path = dir.join("both.toml");
+    std::fs::write(&path, text).unwrap();
+    let err = anlage::model::Model::load(&path).unwrap_err().to_string();
+    assert!(err.contains("`table`") || err.contains("table"), "{err}");
+}

@@ -15,6 +15,7 @@ use std::path::{Path, PathBuf};
 use base64::Engine as _;
 
 use crate::export;
+use crate::render::escape;
 use crate::run_folder::{PREDICTION_NOTE, SUMMARY, Summary};
 
 /// The page's file name.
@@ -67,21 +68,6 @@ const TABLES: &[(&str, &str, &str, Option<&str>)] = &[
 
 /// Model texts the page shows verbatim.
 const TEXTS: &[(&str, &str)] = &[("model.toml", "The model as run"), ("fitted.toml", "The fitted model")];
-
-fn escape(text: &str) -> String {
-    let mut out = String::with_capacity(text.len());
-    for ch in text.chars() {
-        match ch {
-            '&' => out.push_str("&amp;"),
-            '<' => out.push_str("&lt;"),
-            '>' => out.push_str("&gt;"),
-            '"' => out.push_str("&quot;"),
-            '\'' => out.push_str("&#39;"),
-            c => out.push(c),
-        }
-    }
-    out
-}
 
 /// A table as HTML: the header and up to [`TABLE_ROWS`] rows (those whose
 /// `last_of` column holds its largest value, when given), and a line on

@@ -84,3 +84,12 @@ fn bad_formulas_are_refused() {
     let why = model.no_effect(p).expect("refused");
     assert!(why.contains("initial levels") && why.contains("solute"), "{why}");
 }
+
+/// `pi` is a name in rate expressions too, as in initial formulas.
+#[test]
+fn pi_is_known_in_rates() {
+    let text = sheet("rate = \"0.1 * (1 + cos(2 * pi * t / 5)) - solute\"")
+        .replace("[[gene]]", "[circuit]\nkinetics = \"rates\"\n[[gene]]");
+    let model = parse(&text);
+    assert!(model.genes[0].rate.as_deref().unwrap().contains("pi"));
+}

@@ -187,3 +187,27 @@ fn a_rewritten_page_does_not_bless_a_changed_file() {
     let why = anlage::run_folder::incomplete(&run, &[]).expect("the changed table is found");
     assert!(why.contains("boundaries.csv"), "{why}");
 }
+
+/// From a user trial: running the model again into its folder removes what
+/// other verbs drew from the earlier run (a comparison, basins, a figure), so
+/// the new page cannot show them beside the new boundaries; a figure is not
+/// part of the run's set, so deleting its SVG leaves the folder readable.
+#[test]
+fn a_rerun_clears_what_was_drawn_from_the_earlier_run() {
+    let dir = temp_dir("page-rerun");
+    let run = dir.join("run");
+    let model = root().join("patterns/ribbon.toml");
+    let (m, r) = (model.to_str().unwrap(), run.to_str().unwrap());
+    run_quietly(&["run", m, "-o", r, "-q"]);
+    run_quietly(&["compare", r, root().join("demo-data/fit/wild_type.csv").to_str().unwrap()]);
+    run_quietly(&["figure", r, "--svg", "-q"]);
+    std::fs::remove_file(run.join("figure.svg")).unwrap();
+    assert_eq!(anlage::run_folder::incomplete(&run, &[]), None, "a deleted figure SVG");
+    run_quietly(&["render", r, "--kind", "kymograph", "-q"]);
+    run_quietly(&["run", m, "-o", r, "-q"]);
+    for gone in ["comparison.csv", "comparison.png", "figure.png"] {
+        assert!(!run.join(gone).exists(), "{gone} of the earlier run is still there");
+    }
+    let page = std::fs::read_to_string(run.join("report.html")).unwrap();
+    assert!(!page.contains("comparison.csv") && !page.contains("figure.png"));
+}

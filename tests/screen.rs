@@ -542,3 +542,20 @@ fn a_boundary_jumping_more_often_than_the_scan_is_pinned_with_the_staircase_slop
     let secant = row.d_um_per_ln.unwrap();
     assert!((secant - slope).abs() <= 0.08 * slope.abs(), "secant {secant} against least squares {slope}");
 }
+
+/// From a user trial: a knocked-out gene decaying from a noisy start
+/// (`initial_noise`) is below its expression floor everywhere at the end and
+/// is not reported as still changing; the noisy sheet's knock-outs settle.
+#[test]
+fn knocked_out_genes_below_the_floor_are_settled() {
+    let model = load("patterns/sheet.toml");
+    assert!(model.genes.iter().any(|g| g.initial_noise > 0.0), "the case needs a noisy start");
+    let mutants = screen::families(&model, true, false, false);
+    let s = run_screen(&model, &mutants, false).unwrap();
+    for rows in &s.shifts {
+        for r in rows {
+            let reason = r.reason.as_deref().unwrap_or("");
+            assert!(!reason.contains("not settled"), "{}: {reason}", r.mutant);
+        }
+    }
+}

@@ -119,3 +119,19 @@ macro_rules! say {
     };
 }
 pub(crate) use say;
+
+/// Refuses an output picture path that is not a `.png` file (the SVG and
+/// any animation are written beside it, named after it: `also`).
+///
+/// # Errors
+/// [`anlage::render::StyleError`] naming `-o`.
+pub fn require_png(path: &Path, also: &str) -> Result<(), anlage::render::StyleError> {
+    if path.extension().is_some_and(|e| e.eq_ignore_ascii_case("png")) {
+        return Ok(());
+    }
+    Err(anlage::render::StyleError::OutOfRange {
+        option: "-o".into(),
+        value: path.display().to_string(),
+        fix: format!("name a .png file; {also}"),
+    })
+}

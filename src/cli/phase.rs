@@ -109,14 +109,7 @@ pub fn portrait(args: &PortraitArgs) -> anyhow::Result<()> {
     };
     let path =
         out.clone().unwrap_or_else(|| dir.join(format!("portrait_n{nucleus}_{}_{}.png", rec.genes[a], rec.genes[b])));
-    if path.extension().is_none_or(|e| !e.eq_ignore_ascii_case("png")) {
-        return Err(StyleError::OutOfRange {
-            option: "-o".into(),
-            value: path.display().to_string(),
-            fix: "name a .png file; --svg writes NAME.svg beside it and --cloud NAME_cloud.gif".into(),
-        }
-        .into());
-    }
+    require_png(&path, "--svg writes NAME.svg beside it and --cloud NAME_cloud.gif")?;
     std::fs::create_dir_all(path.parent().unwrap_or(Path::new("."))).ok();
     let data = anlage::write_portrait(&model, &rec, *nucleus, [a, b], s, &style, &path, *cloud)
         .with_context(|| format!("writing {}", path.display()))?;
@@ -153,24 +146,13 @@ pub fn figure(args: &FigureArgs) -> anyhow::Result<()> {
         None => 0,
     };
     let path = out.clone().unwrap_or_else(|| run_dir.join("figure.png"));
-    if path.extension().is_none_or(|e| !e.eq_ignore_ascii_case("png")) {
-        return Err(StyleError::OutOfRange {
-            option: "-o".into(),
-            value: path.display().to_string(),
-            fix: "name a .png file; --svg writes NAME.svg beside it".into(),
-        }
-        .into());
-    }
+    require_png(&path, "--svg writes NAME.svg beside it")?;
     let written =
         anlage::write_figure(&model, rec, g, &style, &path).with_context(|| format!("writing {}", path.display()))?;
     if path.parent() == Some(run_dir.as_path()) {
-        // In the run folder the figure joins the run's set and its page.
+        // In the run folder the figure joins the page (not the run's own set:
+        // it can be deleted or redrawn without touching the run).
         anlage::page::write_page(run_dir, &saved.summary.title)?;
-        let names: Vec<String> = [path.clone(), path.with_extension("svg")]
-            .iter()
-            .filter_map(|p| p.file_name().map(|n| n.to_string_lossy().into_owned()))
-            .collect();
-        anlage::run_folder::add_to_manifest(run_dir, &names)?;
     }
     if !quiet {
         for p in &written {

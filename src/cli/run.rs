@@ -120,7 +120,7 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
     };
     let checksum = anlage::reference::checksum(run.recording.final_state());
     let solve_seconds = start.elapsed().as_secs_f64().min(fastest);
-    let summary = anlage::write_run(&model, &run, &dir, &style_options, !no_pictures)
+    let (summary, picture_notes) = anlage::write_run(&model, &run, &dir, &style_options, !no_pictures)
         .with_context(|| format!("writing outputs to {}", dir.display()))?;
     if plan.is_some() {
         // The finished outputs are complete; the checkpoint is no longer needed.
@@ -140,7 +140,7 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
         print!("{}", print::final_boundaries(&summary, run.wall_time_s, &dir));
     }
     if !quiet {
-        for note in &summary.picture_notes {
+        for note in &picture_notes {
             eprintln!("anlage: note: {note}");
         }
     }

@@ -235,6 +235,11 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
         "draws one still picture of sensitivities read at the end of the run",
     )?;
     let model = Model::load(path)?;
+    if !*json {
+        for why in model.constants_fixed_by_starts() {
+            eprintln!("anlage: note: left out: {why}");
+        }
+    }
     if !(step.is_finite() && *step > 0.0 && *step < 1.0) {
         anyhow::bail!(StyleError::OutOfRange {
             option: "--step".into(),

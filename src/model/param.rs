@@ -285,6 +285,35 @@ impl Model {
         out
     }
 
+    /// Why constant `k` cannot be varied even where a rate uses it: it also
+    /// sets a gene's initial levels through an `initial_formula`, computed
+    /// once when the model is read, which would not follow.
+    fn sets_a_start(&self, k: usize) -> Option<String> {
+        let constant = &self.circuit.parameters[k].0;
+        let g = self
+            .genes
+            .iter()
+            .find(|g| g.initial_formula.as_deref().is_some_and(|f| names_in(f).any(|n| n == constant)))?;
+        Some(format!(
+            "`{constant}` also sets `{}`'s initial levels (its initial_formula), which are computed once when the \
+             model is read and would not follow; give the formula a constant of its own",
+            g.name
+        ))
+    }
+
+    /// The constants a rate expression uses that [`Self::parameters`] leaves
+    /// out because they also set a start, each with why.
+    pub fn constants_fixed_by_starts(&self) -> Vec<String> {
+        let rates: Vec<&str> = self.genes.iter().filter_map(|g| g.rate.as_deref()).collect();
+        (0..self.circuit.parameters.len())
+            .filter(|&k| {
+                let c = &self.circuit.parameters[k].0;
+                rates.iter().any(|r| names_in(r).any(|n| n == c))
+            })
+            .filter_map(|k| self.sets_a_start(k))
+            .collect()
+    }
+
     /// Why scaling `p` cannot change the simulation, or None when it can:
     /// a gene written as a rate expression does not use production, decay or
     /// bias, nor links into it; bias is only for sigmoid kinetics; a gradient
@@ -329,18 +358,8 @@ impl Model {
             Param::Constant(k) => {
                 let constant = &self.circuit.parameters[k].0;
                 let used = (0..self.genes.len()).filter_map(expression).any(|r| names_in(r).any(|n| n == constant));
-                let start = self
-                    .genes
-                    .iter()
-                    .find(|g| g.initial_formula.as_deref().is_some_and(|f| names_in(f).any(|n| n == constant)));
-                match start {
-                    // The start was computed once, when the model was read: a
-                    // change would reach the rates and not the start.
-                    Some(g) => Some(format!(
-                        "`{name}` also sets `{}`'s initial levels (its initial_formula), which are computed once when \
-                         the model is read and would not follow; give the formula a constant of its own",
-                        g.name
-                    )),
+                match self.sets_a_start(k) {
+                    Some(why) => Some(why),
                     None => (!used)
                         .then(|| format!("`{name}` has no effect: no rate expression uses the constant `{constant}`")),
                 }

@@ -121,7 +121,7 @@ impl GifMade {
 
     /// A sentence on how `name` was made to fit, if anything was done.
     pub fn describe(&self, name: &str) -> Option<String> {
-        let mb = |b: f64| format!("{:.1} MB", b / 1e6);
+        let mb = |b: f64| if b < 1e6 { format!("{:.0} kB", b / 1e3) } else { format!("{:.2} MB", b / 1e6) };
         let max = self.max_bytes? as f64;
         if self.fits() && !self.reduced() {
             return None;

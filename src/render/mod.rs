@@ -28,7 +28,7 @@ mod tracks;
 pub use animate::{GifMade, MIN_FRAMES, write_gif, write_grid_gif, write_pair_gif};
 pub use boundary_bands::boundary_bands;
 pub use boundary_time::boundary_positions;
-pub use canvas::{Align, Canvas};
+pub use canvas::{Align, Canvas, escape};
 pub use colour::Background;
 pub use figure::{figure, on_levels};
 pub use fit::{fit_boundaries, fit_profiles, fit_trace};

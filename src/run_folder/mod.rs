@@ -39,7 +39,8 @@ pub const STATES: &str = "states.npy";
 pub const MODEL_COPY: &str = "model.toml";
 
 /// Writes every output of a run into `dir` (created if missing) and returns
-/// the summary; each file appears whole or not at all. Pictures are drawn
+/// the summary and notes on pictures changed to meet a size asked for
+/// (`--gif-max-mb`); each file appears whole or not at all. Pictures are drawn
 /// with `style_options` (checked before anything is written).
 ///
 /// # Errors
@@ -50,7 +51,7 @@ pub fn write_run(
     dir: &Path,
     style_options: &render::StyleOptions,
     pictures: bool,
-) -> Result<Summary, WriteError> {
+) -> Result<(Summary, Vec<String>), WriteError> {
     let style = render::Style::with_options(&run.recording, &model.title, style_options)?;
     std::fs::create_dir_all(dir).map_err(|source| export::ExportError::Io { path: dir.to_path_buf(), source })?;
     export::remove_stale_temps(dir);
@@ -69,13 +70,14 @@ pub fn write_run(
     export::write_states_npy(rec, &path(STATES))?;
     export::write_boundaries(&boundaries, &path("boundaries.csv"))?;
     export::write_domains(&domains, &path("domains.csv"))?;
-    let mut summary = Summary::new(model, run);
+    let summary = Summary::new(model, run);
+    let mut notes = Vec::new();
     if pictures {
         let drawn = write_pictures(rec, &boundaries, &style, dir, PictureKind::All)?;
         for p in &drawn.files {
             written.extend(p.file_name().map(|n| n.to_string_lossy().into_owned()));
         }
-        summary.picture_notes = drawn.notes;
+        notes = drawn.notes;
     }
     export::write_json(&summary, &path(SUMMARY))?;
     export::write_atomic(&path(MODEL_COPY), |w| w.write_all(model.text.as_bytes()))?;
@@ -86,10 +88,46 @@ pub fn write_run(
     for stale in RUN_OUTPUTS.iter().filter(|n| !written.iter().any(|w| w == *n)) {
         let _ = std::fs::remove_file(path(stale));
     }
+    // What other verbs drew from the earlier run (a comparison, basins, a
+    // figure, portraits) describes that run, not this one: it goes too.
+    remove_derived(dir);
     // The page shows what the folder now holds, so it comes after the rest.
     crate::page::write_page(dir, &model.title)?;
     manifest::write_manifest(dir, &written)?;
-    Ok(summary)
+    Ok((summary, notes))
+}
+
+/// Files other verbs write into a run folder (`compare`, `basins`,
+/// `figure`, `portrait`); `run` removes them when it rewrites the folder.
+pub const DERIVED_OUTPUTS: &[&str] = &[
+    "comparison.csv",
+    "comparison.png",
+    "comparison.svg",
+    "attractors.csv",
+    "basins.csv",
+    "commitment.csv",
+    "landscape.csv",
+    "basins.png",
+    "basins.svg",
+    "landscape.png",
+    "landscape.svg",
+    "figure.png",
+    "figure.svg",
+];
+
+/// Removes [`DERIVED_OUTPUTS`] and the pictures named after a derived
+/// output (`comparison_t…`, `portrait_…`) from `dir`.
+fn remove_derived(dir: &Path) {
+    for name in DERIVED_OUTPUTS {
+        let _ = std::fs::remove_file(dir.join(name));
+    }
+    for entry in std::fs::read_dir(dir).into_iter().flatten().flatten() {
+        let name = entry.file_name().to_string_lossy().into_owned();
+        let picture = [".png", ".svg", ".gif"].iter().any(|e| name.ends_with(e));
+        if picture && (name.starts_with("comparison_t") || name.starts_with("portrait_")) {
+            let _ = std::fs::remove_file(entry.path());
+        }
+    }
 }
 
 /// Every file `anlage run` can write into its folder (besides the manifest).

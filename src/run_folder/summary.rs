@@ -59,10 +59,6 @@ pub struct Summary {
     pub final_boundaries: Vec<Boundary>,
     /// Domains at the final time.
     pub final_domains: Vec<Domain>,
-    /// What pictures gave up to meet a size asked for (`--gif-max-mb`),
-    /// file by file; absent when nothing was.
-    #[serde(default, skip_serializing_if = "Vec::is_empty")]
-    pub picture_notes: Vec<String>,
 }
 
 /// The grid of a run, in summary.json.
@@ -116,7 +112,6 @@ impl Summary {
             final_time_min: rec.times[last],
             final_boundaries: final_boundaries(rec),
             final_domains: final_domains(rec),
-            picture_notes: Vec::new(),
         }
     }
 }

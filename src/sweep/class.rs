@@ -78,7 +78,11 @@ pub fn changing_gene(
     for g in 0..rec.genes.len() {
         let top = end.row(g).iter().fold(0.0f64, |m, v| m.max(v.abs()));
         let fastest = rate.row(g).iter().fold(0.0f64, |m, v| m.max(v.abs()));
-        if top > 0.0 && fastest > SETTLED_REL * top * rates[g] {
+        // A gene below its expression floor everywhere (a knock-out decaying
+        // from a noisy start) is not expressed: how fast it still falls does
+        // not change any readout.
+        let expressed = top >= rec.floor.get(g).copied().unwrap_or(0.0);
+        if top > 0.0 && expressed && fastest > SETTLED_REL * top * rates[g] {
             return Ok(Some(g));
         }
     }

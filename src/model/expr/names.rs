@@ -27,6 +27,7 @@ impl Names for ModelNames<'_> {
         match name {
             "x" => Some(Expr::Input(self.gradients.len())),
             "t" => Some(Expr::Input(self.gradients.len() + 1)),
+            "pi" => Some(Expr::Num(std::f64::consts::PI)),
             _ => None,
         }
     }
@@ -34,7 +35,7 @@ impl Names for ModelNames<'_> {
         let mut all: Vec<&str> = self.genes.iter().map(|g| g.name.as_str()).collect();
         all.extend(self.gradients.iter().map(|g| g.name.as_str()));
         all.extend(self.parameters.iter().map(|(n, _)| n.as_str()));
-        all.extend(["x", "t"]);
+        all.extend(["x", "t", "pi"]);
         all.join(", ")
     }
     fn neighbour(&self, gene: usize) -> Option<Expr> {

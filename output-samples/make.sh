@@ -51,3 +51,5 @@ done
 # The fit demo (invented data in demo-data/fit).
 "$bin" fit patterns/ribbon_fit.toml -q -o output-samples/ribbon_fit
 du -sh output-samples
+# One report page is enough for the samples: the ribbon's.
+find output-samples -name report.html ! -path output-samples/ribbon/report.html -delete

@@ -176,10 +176,22 @@ pub fn landscape_picture(rec: &Recording, l: &Landscape, gene: usize, on_level: 
             }
         }
     }
+    // The same fold met from two branches (or two sheet rows) is ringed and
+    // labelled once; a label that would run past the plot goes to the left.
+    let mut ringed: Vec<(f32, f32)> = Vec::new();
     for f in l.branches.iter().flat_map(|b| &b.folds) {
         let (x, y) = (a.px(f.s), a.py(f.x[gene]));
+        if ringed.iter().any(|&(px, py)| (px - x).abs() < 4.0 && (py - y).abs() < 4.0) {
+            continue;
+        }
+        ringed.push((x, y));
         c.ellipse(x, y, 6.0, 6.0, 1.5, bg.ink(), None);
-        c.text(x + 8.0, y - 8.0, 12.0, bg.ink(), Align::Left, &format!("fold {:.1}%", f.s));
+        let label = format!("fold {:.1}%", f.s);
+        if x + 8.0 + Canvas::text_width(12.0, &label) > a.left + a.width {
+            c.text(x - 8.0, y - 8.0, 12.0, bg.ink(), Align::Right, &label);
+        } else {
+            c.text(x + 8.0, y - 8.0, 12.0, bg.ink(), Align::Left, &label);
+        }
     }
     axes::draw(
         &mut c,

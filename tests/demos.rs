@@ -67,3 +67,27 @@ fn sheet_forms_a_disc_around_the_source() {
     let amber: Vec<_> = b.iter().filter(|b| b.gene == "amber").map(|b| b.direction).collect();
     assert_eq!(amber, ["rising", "falling"]);
 }
+
+/// Source: the tissue makes its own gradient. `ember` is made at rate p in
+/// x < a, diffuses (D) and decays (d); at steady state on a long sealed row
+/// it is `B·e^(−(x−a)/λ)` beyond the source, λ = √(D/d), with
+/// `B = (p/d)/(1 + coth(a/λ))` (matching value and flux at x = a of the
+/// sealed-end solution `p/d + C·cosh(x/λ)` inside; the linear ODE of
+/// Crank 1975, The Mathematics of Diffusion, ch. 14 on diffusion with
+/// removal, solved here, no source for the matched form). `fern`'s boundary
+/// is where ember = K: `x* = a + λ·ln(B/K)`. The demo's boundary lies there
+/// to half a µm (grid 5 µm; the discrete decay length differs by h²/12λ²).
+#[test]
+fn source_makes_its_own_gradient() {
+    let model = load("patterns/source.toml");
+    let rec = run(&model).recording;
+    let b = boundaries_at(&rec, rec.times.len() - 1).unwrap();
+    let fern: Vec<_> = b.iter().filter(|b| b.gene == "fern").collect();
+    assert_eq!(fern.len(), 1, "{b:#?}");
+    let (p, d, big_d, a, k) = (1.0f64, 0.02f64, 100.0f64, 30.0f64, 3.0f64);
+    let lambda = (big_d / d).sqrt();
+    let coth = 1.0 / (a / lambda).tanh();
+    let big_b = (p / d) / (1.0 + coth);
+    let want = a + lambda * (big_b / k).ln();
+    assert!((fern[0].position_um - want).abs() < 0.5, "fern at {} µm, analytic {want:.2} µm", fern[0].position_um);
+}

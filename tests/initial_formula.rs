@@ -93,3 +93,17 @@ fn pi_is_known_in_rates() {
     let model = parse(&text);
     assert!(model.genes[0].rate.as_deref().unwrap().contains("pi"));
 }
+
+/// `check` says how each gene starts: the formula with the range it gives,
+/// a uniform level, and the noise on top.
+#[test]
+fn check_describes_the_start() {
+    let dir = crate::common::temp_dir("check-start");
+    let path = dir.join("m.toml");
+    let text = sheet("initial_formula = \"2 * step(0.3 * L - x)\"\ninitial_noise = 0.1");
+    std::fs::write(&path, text).unwrap();
+    let o = crate::common::anlage(&["check", path.to_str().unwrap()]);
+    let out = String::from_utf8_lossy(&o.stdout);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(out.contains("starts at 2 * step(0.3 * L - x) (0.0000–2.0000) ± 0.1"), "{out}");
+}

@@ -179,9 +179,21 @@ pub fn describe(m: &Model) -> String {
             Some(rate) => format!("rate {}", shorten(rate)),
             None => format!("production {} a.u./min, decay {} /min", gene.production, gene.decay),
         };
+        let start = match (&gene.initial_formula, &gene.initial) {
+            (Some(f), anlage::model::Initial::Profile(p)) => {
+                let (lo, hi) = p.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), v| (l.min(*v), h.max(*v)));
+                format!("starts at {} ({lo:.4}–{hi:.4})", shorten(f))
+            }
+            (_, anlage::model::Initial::Uniform(v)) => format!("starts at {v}"),
+            (_, anlage::model::Initial::Profile(p)) => {
+                let (lo, hi) = p.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), v| (l.min(*v), h.max(*v)));
+                format!("starts from a profile ({lo:.4}–{hi:.4})")
+            }
+        };
+        let noise = if gene.initial_noise > 0.0 { format!(" ± {}", gene.initial_noise) } else { String::new() };
         let _ = writeln!(
             s,
-            "  {:<12} {law}, diffusion {} µm²/min, colour #{r:02x}{gg:02x}{b:02x}, boundaries at {}",
+            "  {:<12} {law}, diffusion {} µm²/min, {start}{noise}, colour #{r:02x}{gg:02x}{b:02x}, boundaries at {}",
             gene.name,
             gene.diffusion,
             gene.boundary.describe()

@@ -119,7 +119,11 @@ pub fn write_picture(path: &Path, canvas: &render::Canvas, svg: bool) -> Result<
     let mut files = vec![path.to_path_buf()];
     let svg_path = path.with_extension("svg");
     if svg {
-        export::write_atomic(&svg_path, |w| w.write_all(canvas.svg().as_bytes()))?;
+        let text = canvas.svg().ok_or_else(|| export::ExportError::Content {
+            path: svg_path.clone(),
+            message: "the picture was drawn without its SVG (its style did not ask for one)".into(),
+        })?;
+        export::write_atomic(&svg_path, |w| w.write_all(text.as_bytes()))?;
         files.push(svg_path);
     } else {
         // An SVG of an earlier drawing would no longer match its PNG.

@@ -20,14 +20,7 @@ pub fn basins(args: &BasinsArgs) -> anyhow::Result<()> {
     )?;
     let (model, rec, dir) = model_and_recording(source, out.as_deref())?;
     let style = Style::with_options(&rec, &model.title, &look.options())?;
-    let gene = match gene {
-        Some(name) => model.gene_index(name).ok_or_else(|| StyleError::UnknownGene {
-            option: "--gene".into(),
-            name: name.clone(),
-            known: rec.genes.join(", "),
-        })?,
-        None => 0,
-    };
+    let gene = gene_or_first(&model, &rec, gene.as_deref())?;
     if *every == 0 || at.iter().any(|t| !(t.is_finite() && *t >= 0.0)) {
         return Err(StyleError::OutOfRange {
             option: if *every == 0 { "--every".into() } else { "--at".into() },
@@ -137,14 +130,7 @@ pub fn figure(args: &FigureArgs) -> anyhow::Result<()> {
     opts.width = None;
     let mut style = Style::with_options(rec, &saved.summary.title, &opts)?;
     style.pixel_width = Some(width);
-    let g = match gene {
-        Some(name) => model.gene_index(name).ok_or_else(|| StyleError::UnknownGene {
-            option: "--gene".into(),
-            name: name.clone(),
-            known: rec.genes.join(", "),
-        })?,
-        None => 0,
-    };
+    let g = gene_or_first(&model, rec, gene.as_deref())?;
     let path = out.clone().unwrap_or_else(|| run_dir.join("figure.png"));
     require_png(&path, "--svg writes NAME.svg beside it")?;
     let written =
@@ -160,4 +146,20 @@ pub fn figure(args: &FigureArgs) -> anyhow::Result<()> {
         }
     }
     Ok(())
+}
+
+/// The gene named by `--gene`, or the first.
+fn gene_or_first(
+    model: &anlage::model::Model,
+    rec: &anlage::Recording,
+    gene: Option<&str>,
+) -> Result<usize, StyleError> {
+    match gene {
+        Some(name) => model.gene_index(name).ok_or_else(|| StyleError::UnknownGene {
+            option: "--gene".into(),
+            name: name.to_string(),
+            known: rec.genes.join(", "),
+        }),
+        None => Ok(0),
+    }
 }

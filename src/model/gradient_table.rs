@@ -97,8 +97,10 @@ pub fn read(path: &Path, gene: Option<&str>, grid: &Grid) -> Result<Vec<(f64, f6
     Ok(points.into_iter().map(|(x, sum, n)| (x, sum / n as f64)).collect())
 }
 
-/// The level at distance `d_um`: linear between the table's points, held at
-/// the first and last beyond them.
+/// The value at `d_um` of the piecewise-linear function through `points`
+/// (increasing first coordinates, at least one point): linear between them,
+/// held at the first and last beyond. A table's level at a distance; also a
+/// gradient's amplitude time course.
 pub fn level_at(points: &[(f64, f64)], d_um: f64) -> f64 {
     let k = points.partition_point(|p| p.0 <= d_um);
     if k == 0 {

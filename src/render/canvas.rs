@@ -42,8 +42,9 @@ pub struct Canvas {
     scale: f32,
     /// Layout size.
     size: (u32, u32),
-    /// The SVG elements drawn so far, in order.
-    svg: String,
+    /// The SVG elements drawn so far, in order; `None` when the canvas is
+    /// not kept as SVG ([`Canvas::without_svg`]).
+    svg: Option<String>,
 }
 
 fn paint(c: [u8; 3], alpha: u8) -> Paint<'static> {
@@ -111,7 +112,14 @@ impl Canvas {
         let mut pix = Pixmap::new(px(width), px(height)).expect("non-empty canvas");
         pix.fill(tiny_skia::Color::from_rgba8(bg[0], bg[1], bg[2], 255));
         let svg = format!("<rect width=\"100%\" height=\"100%\" fill=\"{}\"/>\n", hex(bg));
-        Canvas { pix, scale, size: (width, height), svg }
+        Canvas { pix, scale, size: (width, height), svg: Some(svg) }
+    }
+
+    /// The same canvas, no longer kept as SVG: pictures that will only be
+    /// PNG or GIF frames spare the work (an embedded PNG per colour field).
+    pub fn without_svg(mut self) -> Canvas {
+        self.svg = None;
+        self
     }
 
     /// Width, layout units (pixels at scale 1).
@@ -162,15 +170,18 @@ impl Canvas {
         if nw <= 0 || nh <= 0 {
             return;
         }
-        let mut image = vec![0u8; (4 * nw * nh) as usize];
+        let keep = self.svg.is_some();
+        let mut image = if keep { vec![0u8; (4 * nw * nh) as usize] } else { Vec::new() };
         let width = self.pix.width() as usize;
         let data = self.pix.data_mut();
         for y in 0..nh {
             let v = (y as f64 + 0.5) / nh as f64;
             for x in 0..nw {
                 let Some(c) = colour((x as f64 + 0.5) / nw as f64, v) else { continue };
-                let k = (4 * (y * nw + x)) as usize;
-                image[k..k + 4].copy_from_slice(&[c[0], c[1], c[2], 255]);
+                if keep {
+                    let k = (4 * (y * nw + x)) as usize;
+                    image[k..k + 4].copy_from_slice(&[c[0], c[1], c[2], 255]);
+                }
                 let (px, py) = (x0 + x, y0 + y);
                 if px >= 0 && py >= 0 && px < pw && py < ph {
                     let i = 4 * (py as usize * width + px as usize);
@@ -178,9 +189,10 @@ impl Canvas {
                 }
             }
         }
+        let Some(out) = self.svg.as_mut() else { return };
         let png = encode_png(&image, nw as u32, nh as u32).unwrap_or_default();
         let _ = writeln!(
-            self.svg,
+            out,
             "<image x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" preserveAspectRatio=\"none\" \
              style=\"image-rendering:pixelated\" href=\"data:image/png;base64,{}\"/>",
             num(x0 as f32 / s),
@@ -195,8 +207,9 @@ impl Canvas {
     pub fn rect(&mut self, x: f32, y: f32, w: f32, h: f32, c: [u8; 3]) {
         if let Some(r) = Rect::from_xywh(x, y, w, h) {
             self.pix.fill_rect(r, &paint(c, 255), self.transform(), None);
+            let Some(out) = self.svg.as_mut() else { return };
             let _ = writeln!(
-                self.svg,
+                out,
                 "<rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" fill=\"{}\"/>",
                 num(x),
                 num(y),
@@ -220,12 +233,13 @@ impl Canvas {
         let Some(path) = pb.finish() else { return };
         let stroke = Stroke { width, dash: dash.and_then(|d| StrokeDash::new(d.to_vec(), 0.0)), ..Stroke::default() };
         self.pix.stroke_path(&path, &paint(c, alpha), &stroke, self.transform(), None);
+        let Some(out) = self.svg.as_mut() else { return };
         let points: Vec<String> = pts.iter().map(|p| format!("{},{}", num(p.0), num(p.1))).collect();
         let opacity =
             if alpha < 255 { format!(" stroke-opacity=\"{}\"", num(alpha as f32 / 255.0)) } else { String::new() };
         let dashes = dash.map_or_else(String::new, |d| format!(" stroke-dasharray=\"{} {}\"", num(d[0]), num(d[1])));
         let _ = writeln!(
-            self.svg,
+            out,
             "<polyline points=\"{}\" fill=\"none\" stroke=\"{}\" stroke-width=\"{}\"{opacity}{dashes}/>",
             points.join(" "),
             hex(c),
@@ -255,8 +269,9 @@ impl Canvas {
         }
         let stroke =
             if width > 0.0 { format!(" stroke=\"{}\" stroke-width=\"{}\"", hex(c), num(width)) } else { String::new() };
+        let Some(out) = self.svg.as_mut() else { return };
         let _ = writeln!(
-            self.svg,
+            out,
             "<ellipse cx=\"{}\" cy=\"{}\" rx=\"{}\" ry=\"{}\" fill=\"{}\"{stroke}/>",
             num(cx),
             num(cy),
@@ -293,16 +308,18 @@ impl Canvas {
             Align::Centre => "middle",
             Align::Right => "end",
         };
-        let _ = writeln!(
-            self.svg,
-            "<text x=\"{}\" y=\"{}\" font-family=\"{SVG_FONT}\" font-size=\"{}\" text-anchor=\"{anchor}\" \
+        if let Some(out) = self.svg.as_mut() {
+            let _ = writeln!(
+                out,
+                "<text x=\"{}\" y=\"{}\" font-family=\"{SVG_FONT}\" font-size=\"{}\" text-anchor=\"{anchor}\" \
              fill=\"{}\">{}</text>",
-            num(x),
-            num(y),
-            num(size * em_per_scale()),
-            hex(c),
-            escape(text)
-        );
+                num(x),
+                num(y),
+                num(size * em_per_scale()),
+                hex(c),
+                escape(text)
+            );
+        }
         let s = self.scale;
         let (x, y, size) = (x * s, y * s, size * s);
         let scaled = font().as_scaled(PxScale::from(size));
@@ -359,21 +376,25 @@ impl Canvas {
                 dst[d0..d0 + n].copy_from_slice(&src[s0..s0 + n]);
             }
         }
-        let _ = write!(self.svg, "<g transform=\"translate({},{})\">\n{}</g>\n", num(x), num(y), other.svg);
+        if let (Some(out), Some(inner)) = (self.svg.as_mut(), other.svg.as_ref()) {
+            let _ = write!(out, "<g transform=\"translate({},{})\">\n{inner}</g>\n", num(x), num(y));
+        }
     }
 
     /// The drawing as a standalone SVG document: `pixel_width × pixel_height`
-    /// on the page, laid out in layout units (the `viewBox`).
-    pub fn svg(&self) -> String {
+    /// on the page, laid out in layout units (the `viewBox`); `None` for a
+    /// canvas not kept as SVG.
+    pub fn svg(&self) -> Option<String> {
         let (w, h) = self.size;
-        format!(
+        let body = self.svg.as_ref()?;
+        Some(format!(
             "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n<svg xmlns=\"http://www.w3.org/2000/svg\" \
              width=\"{}\" height=\"{}\" viewBox=\"0 0 {w} {h}\" xml:space=\"preserve\" \
              style=\"white-space:pre\">\n{}</svg>\n",
             self.pix.width(),
             self.pix.height(),
-            self.svg
-        )
+            body
+        ))
     }
 
     /// The pixels as straight RGBA bytes (every pixel is opaque).

@@ -62,7 +62,8 @@ pub fn figure(
     }
     let rows: Vec<f32> = panels.chunks(2).map(|r| r.iter().map(|p| p.height() as f32).fold(0.0, f32::max)).collect();
     let height = HEAD + rows.iter().sum::<f32>();
-    let mut c = Canvas::scaled(total as u32, height.ceil() as u32, style.background.rgb(), scale);
+    let c = Canvas::scaled(total as u32, height.ceil() as u32, style.background.rgb(), scale);
+    let mut c = if style.svg { c } else { c.without_svg() };
     let ink = style.background.ink();
     super::title(&mut c, GUTTER, 30.0, total - 2.0 * GUTTER - 140.0, ink, &style.title);
     c.text(total - GUTTER, 30.0, 13.0, style.background.muted(), Align::Right, PREDICTION_LABEL);

@@ -120,7 +120,8 @@ impl Style {
     /// drawn [`Self::pixel_width`] px wide.
     pub fn canvas(&self, width: u32, height: u32) -> Canvas {
         let scale = self.pixel_width.map_or(1.0, |p| p as f32 / width.max(1) as f32);
-        Canvas::scaled(width, height, self.background.rgb(), scale)
+        let canvas = Canvas::scaled(width, height, self.background.rgb(), scale);
+        if self.svg { canvas } else { canvas.without_svg() }
     }
 
     /// Indices of the snapshots inside the time range.

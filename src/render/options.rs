@@ -145,13 +145,7 @@ impl Style {
             style.background = Background::Light;
         }
         if let Some(w) = opts.width {
-            if !(320..=4096).contains(&w) {
-                return Err(StyleError::OutOfRange {
-                    option: "--width".into(),
-                    value: w.to_string(),
-                    fix: "give 320 to 4096 px".into(),
-                });
-            }
+            let w = within("--width", w, 320..=4096, "give 320 to 4096 px")?;
             // Between the narrowest and the widest layout, pictures are laid
             // out at the width asked; outside, the nearest layout is drawn
             // with more (or fewer) pixels, text and lines scaled with it.
@@ -161,35 +155,29 @@ impl Style {
         }
         style.svg = opts.svg;
         if let Some(f) = opts.fps {
-            if !(1..=50).contains(&f) {
-                return Err(StyleError::OutOfRange {
-                    option: "--fps".into(),
-                    value: f.to_string(),
-                    fix: "give 1 to 50 frames per second".into(),
-                });
-            }
-            style.fps = f;
+            style.fps = within("--fps", f, 1..=50, "give 1 to 50 frames per second")?;
         }
         if let Some(k) = opts.frame_every {
-            if !(1..=1000).contains(&k) {
-                return Err(StyleError::OutOfRange {
-                    option: "--frame-every".into(),
-                    value: k.to_string(),
-                    fix: "give 1 (every snapshot) to 1000".into(),
-                });
-            }
-            style.frame_every = k;
+            style.frame_every = within("--frame-every", k, 1..=1000, "give 1 (every snapshot) to 1000")?;
         }
         if let Some(mb) = opts.gif_max_mb {
-            if !(0.05..=2000.0).contains(&mb) {
-                return Err(StyleError::OutOfRange {
-                    option: "--gif-max-mb".into(),
-                    value: mb.to_string(),
-                    fix: "give 0.05 to 2000 MB".into(),
-                });
-            }
+            let mb = within("--gif-max-mb", mb, 0.05..=2000.0, "give 0.05 to 2000 MB")?;
             style.gif_max_bytes = Some((mb * 1e6) as u64);
         }
         Ok(style)
+    }
+}
+
+/// `value` of `option` if it lies in `range`, else the error with `fix`.
+fn within<T: PartialOrd + std::fmt::Display>(
+    option: &str,
+    value: T,
+    range: std::ops::RangeInclusive<T>,
+    fix: &str,
+) -> Result<T, StyleError> {
+    if range.contains(&value) {
+        Ok(value)
+    } else {
+        Err(StyleError::OutOfRange { option: option.into(), value: value.to_string(), fix: fix.into() })
     }
 }

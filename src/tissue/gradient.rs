@@ -53,23 +53,7 @@ pub fn unit_shape(shape: &Shape, d_um: f64) -> f64 {
 /// Amplitude factor a(t): piecewise linear through `(t_min, factor)` points,
 /// held constant before the first and after the last; 1 when there are none.
 pub fn amplitude_at(points: &[(f64, f64)], t_min: f64) -> f64 {
-    match points {
-        [] => 1.0,
-        [(_, a)] => *a,
-        _ => {
-            let last = points[points.len() - 1];
-            if t_min <= points[0].0 {
-                return points[0].1;
-            }
-            if t_min >= last.0 {
-                return last.1;
-            }
-            let k = points.partition_point(|(t, _)| *t <= t_min);
-            let (t0, a0) = points[k - 1];
-            let (t1, a1) = points[k];
-            a0 + (a1 - a0) * (t_min - t0) / (t1 - t0)
-        }
-    }
+    if points.is_empty() { 1.0 } else { crate::model::gradient_table::level_at(points, t_min) }
 }
 
 #[cfg(test)]

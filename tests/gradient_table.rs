@@ -90,3 +90,30 @@ fn bad_tables_are_refused() {
     let err = anlage::model::Model::load(&path).unwrap_err().to_string();
     assert!(err.contains("`table`") || err.contains("table"), "{err}");
 }
+
+/// Percentages are of the extent the distance runs along: the sheet's height
+/// for a source at the top, the axis length for one at the right. A linear
+/// table 1 → 0 over 0–100 % reads 1 − d/extent at every nucleus of a
+/// 20 × 10 sheet (100 × 50 µm), not of the axis length for both.
+#[test]
+fn percentages_follow_the_side_of_the_source() {
+    let dir = temp_dir("gradient-sides");
+    std::fs::write(dir.join("ramp.csv"), "position_pct,level\n0,1\n100,0\n").unwrap();
+    let text = "[tissue]\nnuclei = [20, 10]\nspacing_um = 5.0\n\
+         [clock]\nuntil_min = 1.0\nstep_min = 0.5\nsnapshot_every_min = 1.0\n\
+         [[gradient]]\nname = \"top\"\nshape = \"table\"\nfrom = \"top\"\npeak = 1.0\ntable = \"ramp.csv\"\n\
+         [[gradient]]\nname = \"right\"\nshape = \"table\"\nfrom = \"right\"\npeak = 1.0\ntable = \"ramp.csv\"\n\
+         [[gene]]\nname = \"a\"\nproduction = 1.0\ndecay = 1.0\n";
+    let path = dir.join("m.toml");
+    std::fs::write(&path, text).unwrap();
+    let model = anlage::model::Model::load(&path).unwrap();
+    let inputs = anlage::tissue::Tissue::new(&model).inputs_at(0.0);
+    for iy in 0..10 {
+        for ix in 0..20 {
+            let (x, y) = ((ix as f64 + 0.5) * 5.0, (iy as f64 + 0.5) * 5.0);
+            let i = iy * 20 + ix;
+            assert!((inputs[[0, i]] - (1.0 - (50.0 - y) / 50.0)).abs() < 1e-12, "top at ({x}, {y})");
+            assert!((inputs[[1, i]] - (1.0 - (100.0 - x) / 100.0)).abs() < 1e-12, "right at ({x}, {y})");
+        }
+    }
+}

@@ -4,17 +4,16 @@
 
 use std::path::Path;
 
-use super::Grid;
-
-/// Reads `path`: a CSV with a `level` column and a `position_pct` (% of the
-/// axis length from the gradient's source side) or `position_um` column;
+/// Reads `path`: a CSV with a `level` column and a `position_pct` (% of
+/// `extent_um`, the length the distance from the source runs along) or
+/// `position_um` column;
 /// with a `gene` column, the rows of `gene` (which must then be named when
 /// the table holds more than one). Returns (distance from the source, µm;
 /// mean level) in increasing distance, at least two points.
 ///
 /// # Errors
 /// A sentence on what is wrong with the file.
-pub fn read(path: &Path, gene: Option<&str>, grid: &Grid) -> Result<Vec<(f64, f64)>, String> {
+pub fn read(path: &Path, gene: Option<&str>, extent_um: f64) -> Result<Vec<(f64, f64)>, String> {
     let mut reader = csv::ReaderBuilder::new()
         .flexible(false)
         .from_path(path)
@@ -28,7 +27,7 @@ pub fn read(path: &Path, gene: Option<&str>, grid: &Grid) -> Result<Vec<(f64, f6
         (Some(_), Some(_)) => {
             return Err(format!("`{}` has both position_pct and position_um; keep one", path.display()));
         }
-        (Some(k), None) => (k, grid.length_um() / 100.0),
+        (Some(k), None) => (k, extent_um / 100.0),
         (None, Some(k)) => (k, 1.0),
         (None, None) => {
             return Err(format!("`{}` has neither a `position_pct` nor a `position_um` column", path.display()));

@@ -423,7 +423,10 @@ fn check_gradient(i: usize, g: &Spanned<GradientSpec>, grid: &Grid, src: &Source
         "table" => {
             let file = c.required("table", spec.table.as_deref(), "by a table gradient")?;
             let path = src.file().parent().map_or_else(|| file.into(), |dir| dir.join(file));
-            let points = super::gradient_table::read(&path, spec.table_gene.as_deref(), grid).map_err(|why| {
+            // % are of the extent the distance runs along: the sheet's height
+            // for a source at the top or bottom, the axis length otherwise.
+            let extent_um = if matches!(from, Side::Top | Side::Bottom) { grid.height_um() } else { grid.length_um() };
+            let points = super::gradient_table::read(&path, spec.table_gene.as_deref(), extent_um).map_err(|why| {
                 c.fail(
                     "table",
                     why,

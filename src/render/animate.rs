@@ -55,6 +55,9 @@ pub fn write_grid_gif(
     let delay = panels.first().map_or(10, |(_, st)| (100.0 / st.fps.max(1) as f64).round().max(2.0) as u16);
     let shown = panels.first().map_or_else(|| (0..n).collect(), |(_, st)| st.frames(n));
     let max_bytes = panels.first().and_then(|(_, st)| st.gif_max_bytes);
+    // Frames are pixels only: no SVG is kept of them.
+    let panels: Vec<(&Recording, Style)> =
+        panels.iter().map(|(r, st)| (*r, Style { svg: false, ..(*st).clone() })).collect();
     let frames: Vec<(u32, u32, Vec<u8>)> = shown
         .into_par_iter()
         .map(|s| {
@@ -237,10 +240,12 @@ pub fn write_gif(rec: &Recording, style: &Style, out: &mut dyn Write) -> std::io
     let max = gene_maxima(rec, &snaps).map_err(std::io::Error::other)?;
     let delay = (100.0 / style.fps.max(1) as f64).round().max(2.0) as u16;
     let shown: Vec<usize> = style.frames(snaps.len()).into_iter().map(|k| snaps[k]).collect();
+    // Frames are pixels only: no SVG is kept of them.
+    let frame_style = Style { svg: false, ..style.clone() };
     let frames: Vec<(u32, u32, Vec<u8>)> = shown
         .par_iter()
         .map(|&s| {
-            let (canvas, _) = pattern(rec, s, style, &max).map_err(std::io::Error::other)?;
+            let (canvas, _) = pattern(rec, s, &frame_style, &max).map_err(std::io::Error::other)?;
             Ok((canvas.pixel_width(), canvas.pixel_height(), canvas.rgba().to_vec()))
         })
         .collect::<std::io::Result<_>>()?;

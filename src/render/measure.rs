@@ -40,7 +40,8 @@ pub fn check_picture(p: &Planes, m: &ImageMeasurement, genes: &[(String, [u8; 3]
         notes.push(format!("{}: {}", s.number, s.reason));
     }
     let footer = 14 + 17 * notes.len() as u32;
-    let mut c = Canvas::new(w, h + footer, [0, 0, 0]);
+    // A check picture is only ever a PNG.
+    let mut c = Canvas::new(w, h + footer, [0, 0, 0]).without_svg();
     let ranges: Vec<(f64, f64)> = p
         .planes
         .iter()

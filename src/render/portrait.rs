@@ -40,7 +40,8 @@ pub fn write_cloud_gif(
     out: &mut dyn std::io::Write,
 ) -> std::io::Result<super::animate::GifMade> {
     use rayon::prelude::*;
-    let (base, a) = portrait_with_axes(rec, d, style, false);
+    // Frames are pixels only: no SVG is kept of them.
+    let (base, a) = portrait_with_axes(rec, d, &Style { svg: false, ..style.clone() }, false);
     let nx = rec.grid.nx;
     let row0 = rec.midline_rows().start * nx;
     let [ga, gb] = d.genes;

@@ -126,7 +126,15 @@ pub fn basin_kymograph(rec: &Recording, a: &BasinAnalysis, style: &Style) -> Can
 pub fn landscape_picture(rec: &Recording, l: &Landscape, gene: usize, on_level: &[f64], style: &Style) -> Canvas {
     let bg = style.background;
     let width = style.width.max(320);
-    let (left, right, bottom) = (64.0, 24.0, 64.0);
+    let (left, right) = (64.0, 24.0);
+    // The key to the lines, on one line where it fits, else on two.
+    let (first, second) = (
+        "solid: stable branch, coloured by attractor   dashed: unstable",
+        "dots: each nucleus's fixed points   rings: folds",
+    );
+    let one = format!("{first}   {second}");
+    let two_lines = Canvas::text_width(12.0, &one) > width as f32 - left - right;
+    let bottom = if two_lines { 80.0 } else { 64.0 };
     // The attractors the stable branches are, for the key above the plot.
     let mut shown: Vec<String> = Vec::new();
     for p in l.branches.iter().flat_map(|b| &b.points).filter(|p| p.kind.is_stable()) {
@@ -209,9 +217,19 @@ pub fn landscape_picture(rec: &Recording, l: &Landscape, gene: usize, on_level: 
     let heading = format!("Attractors along the axis: isolated nucleus, gradients at t = {} min", time_text(l.t_min));
     title(&mut c, left, 24.0, width as f32 - right - left, bg.ink(), &heading);
     c.text(width as f32 - right, 44.0, 12.0, bg.muted(), Align::Right, PREDICTION_LABEL);
-    let note = "solid: stable branch, coloured by attractor   dashed: unstable   dots: each nucleus's fixed points   \
-                rings: folds";
-    c.text(left, c.height() as f32 - 10.0, 12.0, bg.muted(), Align::Left, note);
+    // The key to the lines, on one line where it fits, else on two.
+    let (first, second) = (
+        "solid: stable branch, coloured by attractor   dashed: unstable",
+        "dots: each nucleus's fixed points   rings: folds",
+    );
+    let h = c.height() as f32;
+    let one = format!("{first}   {second}");
+    if Canvas::text_width(12.0, &one) <= width as f32 - left - right {
+        c.text(left, h - 10.0, 12.0, bg.muted(), Align::Left, &one);
+    } else {
+        c.text(left, h - 24.0, 12.0, bg.muted(), Align::Left, first);
+        c.text(left, h - 9.0, 12.0, bg.muted(), Align::Left, second);
+    }
     label_legend(&mut c, &rows, rec, style, left, 62.0);
     c
 }

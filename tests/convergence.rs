@@ -192,7 +192,7 @@ fn fixed_steps_in_place_give_the_same_bytes_as_the_general_path() {
                 let n = model.grid.len();
                 let mut source = ndarray::Array2::zeros((model.genes.len(), n));
                 source.row_mut(0).slice_mut(ndarray::s![n / 4..n / 2]).fill(0.3);
-                Forcing { clamps: vec![None, Some(0.7)], source: Some(source) }
+                Forcing { clamps: vec![None, Some(0.7)], source: Some(source), ..Default::default() }
             };
             let start = |lean: bool| {
                 let mut s = Stepper::new(

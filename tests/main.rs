@@ -6,6 +6,7 @@ mod common;
 mod compare;
 mod convergence;
 mod demos;
+mod edges;
 mod fit;
 #[allow(dead_code)] // also the core of examples/fuzz_models.rs
 mod fuzz_core;

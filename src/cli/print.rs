@@ -97,6 +97,9 @@ pub fn describe(m: &Model) -> String {
         g.spacing_um,
         g.length_um(),
         match g.edges {
+            anlage::model::Edges::Sealed if m.genes.iter().any(|gene| !gene.edges.all_sealed()) => {
+                "sealed (no flux) except where a gene's edge rule says (below)"
+            }
             anlage::model::Edges::Sealed => "sealed",
             anlage::model::Edges::Periodic => "periodic",
         }
@@ -198,6 +201,9 @@ pub fn describe(m: &Model) -> String {
             gene.diffusion,
             gene.boundary.describe()
         );
+        if let Some(edges) = gene.edges.describe() {
+            let _ = writeln!(s, "  {:<12} edges: {edges}; no flux elsewhere", "");
+        }
     }
 
     let _ = writeln!(s, "gradients {}", m.gradients.len());

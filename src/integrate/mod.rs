@@ -141,9 +141,10 @@ pub fn initial_state(model: &Model) -> Array2<f64> {
     u
 }
 
-/// The clamps and ectopic sources a (mutant) model asks for.
+/// The clamps and ectopic sources a (mutant) model asks for, and its edge rules.
 pub fn forcing(model: &Model) -> Forcing {
-    let source = (!model.ectopic.is_empty()).then(|| {
+    let edged = model.genes.iter().any(|g| !g.edges.all_sealed());
+    let mut source = (!model.ectopic.is_empty()).then(|| {
         let grid = model.grid;
         let mut s = Array2::zeros((model.genes.len(), grid.len()));
         for e in &model.ectopic {
@@ -158,7 +159,16 @@ pub fn forcing(model: &Model) -> Forcing {
         }
         s
     });
-    Forcing { clamps: model.clamps.clone(), source }
+    let mut held_edges = Vec::new();
+    if edged {
+        let grid = model.grid;
+        let s = source.get_or_insert_with(|| Array2::zeros((model.genes.len(), grid.len())));
+        for (gene, mut row) in model.genes.iter().zip(s.outer_iter_mut()) {
+            crate::tissue::edge_source(&grid, gene, row.as_slice_mut().expect("standard layout"));
+        }
+        held_edges = model.genes.iter().map(|g| g.edges.held()).collect();
+    }
+    Forcing { clamps: model.clamps.clone(), source, held_edges }
 }
 
 /// Fixed-step runs check their step ([`safety::check`]) after the first step,

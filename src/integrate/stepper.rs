@@ -24,13 +24,18 @@ pub struct Stepper<'a> {
     scheme: AnyScheme,
 }
 
-/// Changes to the plain reaction–diffusion system made by mutants.
+/// Changes to the plain reaction–diffusion system with sealed edges: made
+/// by mutants, and by edge rules ([`crate::model::GeneEdges`]).
 #[derive(Debug, Clone, Default)]
 pub struct Forcing {
     /// Genes held at a level (their rates are zero and their level is reset after each step).
     pub clamps: Vec<Option<f64>>,
-    /// Extra production [gene, nucleus], a.u./min, added to the rates.
+    /// Extra production [gene, nucleus], a.u./min, added to the rates
+    /// (ectopic expression, and the constant part of edge rules).
     pub source: Option<Array2<f64>>,
+    /// Per gene, the edges that hold a level (left, right, bottom, top);
+    /// empty when every edge of every gene is sealed.
+    pub held_edges: Vec<[bool; 4]>,
 }
 
 impl<'a> Stepper<'a> {
@@ -53,8 +58,8 @@ impl<'a> Stepper<'a> {
         let dim = u0.dim();
         let parallel = parallel && dim.0 * dim.1 >= PARALLEL_MIN;
         let mut ops = Operators {
+            diffusion: Diffusion::new(&tissue.grid, diffusion, &forcing.held_edges),
             reactions: Reactions::new(kinetics, tissue, gene_names, parallel, t0, forcing),
-            diffusion: Diffusion::new(&tissue.grid, diffusion),
         };
         let mut now = Accepted { t: t0, u: u0, f: Array2::zeros(dim), k: 0.0 };
         ops.reactions.clamp(&mut now.u);
@@ -187,7 +192,7 @@ pub fn time_derivative(model: &crate::model::Model, u: &Array2<f64>, t: f64) -> 
             continue;
         }
         let row = stepper.state().row(g).to_vec();
-        crate::tissue::laplacian(&tissue.grid, &row, &mut lap);
+        crate::tissue::laplacian(&tissue.grid, model.genes[g].edges.held(), &row, &mut lap);
         for (r, l) in rate.row_mut(g).iter_mut().zip(&lap) {
             *r += dg * l;
         }

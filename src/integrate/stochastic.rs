@@ -49,9 +49,10 @@ pub fn integrate_stochastic(
 ) -> Result<StepStats, StepError> {
     let k_max = model.noise.step_min.expect("a stochastic model has a noise step (checked when loaded)");
     let names: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
-    let mut reactions = Reactions::new(kinetics, tissue, names, parallel, 0.0, forcing(model));
+    let forcing = forcing(model);
     let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
-    let mut diffusion = Diffusion::new(&model.grid, &d);
+    let mut diffusion = Diffusion::new(&model.grid, &d, &forcing.held_edges);
+    let mut reactions = Reactions::new(kinetics, tissue, names, parallel, 0.0, forcing);
     let mut u = initial_state(model);
     reactions.clamp(&mut u);
     let mut f = Array2::zeros(u.raw_dim());

@@ -4,6 +4,7 @@
 //! cannot be invalid: every name resolves, every rate is finite and of the
 //! right sign, and the clock fits the snapshots.
 
+mod edge;
 mod error;
 pub mod expr;
 pub mod gradient_table;
@@ -19,6 +20,7 @@ mod validate_circuit;
 use std::path::{Path, PathBuf};
 
 pub use crate::integrate::Scheme;
+pub use edge::{EdgeRule, GeneEdges};
 pub use error::ModelError;
 pub use level::{BLANK, Level};
 pub use mutant::{Ectopic, Edit, Mutant};
@@ -341,6 +343,8 @@ pub struct Gene {
     /// gene keeps its wild type's expression floor, so that noise about zero
     /// is not read as expression.
     pub knocked_out_production: Option<f64>,
+    /// What happens at each edge of the tissue (no flux unless given).
+    pub edges: GeneEdges,
 }
 
 /// What regulates a link.

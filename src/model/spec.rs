@@ -177,6 +177,34 @@ pub struct GeneSpec {
     /// `{ of_capacity = 0.5 }` (a fraction of p/d); read as a TOML value and
     /// checked by hand, so that a mistake gets a message in these words.
     pub boundary_level: Option<toml::Value>,
+    /// What happens at each edge: `edge.left = { influx = 0.5 }` (a.u.·µm/min
+    /// entering) or `edge.right = { level = 0 }` (a.u. held); no flux where
+    /// none is given.
+    pub edge: Option<EdgesSpec>,
+}
+
+/// A gene's `edge` table: one entry per edge, each absent for no flux.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct EdgesSpec {
+    /// x = 0.
+    pub left: Option<EdgeSpec>,
+    /// x = L.
+    pub right: Option<EdgeSpec>,
+    /// y = 0 (sheets).
+    pub bottom: Option<EdgeSpec>,
+    /// y = W (sheets).
+    pub top: Option<EdgeSpec>,
+}
+
+/// One edge's rule: exactly one of the two.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct EdgeSpec {
+    /// Amount entering per µm of edge per minute, a.u.·µm/min.
+    pub influx: Option<f64>,
+    /// Level held at the edge, a.u.
+    pub level: Option<f64>,
 }
 
 /// `[circuit]`

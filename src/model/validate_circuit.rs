@@ -170,6 +170,7 @@ pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Sou
     };
     let bias = c.finite("bias", spec.bias.unwrap_or(0.0))?;
     let boundary = boundary_level(&c, spec, production, decay)?;
+    let edges = super::edge::check_edges(&c, spec.edge.as_ref(), grid, diffusion)?;
     Ok(Gene {
         name: spec.name.clone(),
         color,
@@ -184,6 +185,7 @@ pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Sou
         initial_formula: None,
         boundary,
         knocked_out_production: None,
+        edges,
     })
 }
 

@@ -12,7 +12,7 @@ use super::flow::{Fate, fate};
 use super::system::{Frozen, System};
 use crate::integrate::{ReadBackError, Recording};
 use crate::model::Model;
-use crate::tissue::{Tissue, laplacian};
+use crate::tissue::{Tissue, inflow};
 
 /// Options of the basin analysis.
 #[derive(Debug, Clone, PartialEq)]
@@ -169,8 +169,7 @@ pub fn analyse_with_progress(
                 .map(|g| {
                     let mut lap = vec![0.0; n];
                     if opts.with_influx {
-                        laplacian(&rec.grid, state.row(g).as_slice().expect("contiguous"), &mut lap);
-                        lap.iter_mut().for_each(|v| *v *= model.genes[g].diffusion);
+                        inflow(&rec.grid, &model.genes[g], state.row(g).as_slice().expect("contiguous"), &mut lap);
                     }
                     lap
                 })

@@ -20,6 +20,7 @@ use rayon::prelude::*;
 use rustfft::num_complex::Complex64;
 use rustfft::{Fft, FftPlanner};
 
+use super::edges::laplacian;
 use super::row_solve::{TriFactor, factor_held, sweep_genes};
 use crate::model::{Edges, Grid};
 
@@ -214,34 +215,44 @@ impl Rhs<'_> {
 pub struct Diffusion {
     grid: Grid,
     d: Vec<f64>,
+    /// Per gene, the edges holding a level (left, right, bottom, top).
+    held: Vec<[bool; 4]>,
     solver: Solver,
 }
 
 impl Diffusion {
-    /// Prepares solves on `grid` for genes with diffusion coefficients `d` (µm²/min).
-    pub fn new(grid: &Grid, d: &[f64]) -> Diffusion {
+    /// Prepares solves on `grid` for genes with diffusion coefficients `d`
+    /// (µm²/min) whose edges (left, right, bottom, top) hold a level where
+    /// `held` says so (no entry: all sealed). Held edges are for rows.
+    ///
+    /// # Panics
+    /// If a sheet or a periodic row has a held edge (the model refuses them).
+    pub fn new(grid: &Grid, d: &[f64], held: &[[bool; 4]]) -> Diffusion {
+        let held: Vec<[bool; 4]> = (0..d.len()).map(|g| held.get(g).copied().unwrap_or_default()).collect();
+        assert!(
+            held.iter().all(|h| !h.contains(&true)) || (!grid.is_sheet() && grid.edges == Edges::Sealed),
+            "levels held at an edge are for sealed rows"
+        );
         let solver = if !grid.is_sheet() && grid.edges == Edges::Sealed {
-            Solver::Thomas(
-                d.iter()
-                    .map(|_| [TriFactor::new(grid.nx, grid.spacing_um), TriFactor::new(grid.nx, grid.spacing_um)])
-                    .collect(),
-            )
+            let factor = |h: &[bool; 4]| TriFactor::new(grid.nx, grid.spacing_um).with_held_ends([h[0], h[1]]);
+            Solver::Thomas(held.iter().map(|h| [factor(h), factor(h)]).collect())
         } else if grid.edges == Edges::Sealed {
             Solver::Sheet(Box::new(super::sheet_solve::SheetSolver::new(grid.nx, grid.ny, grid.spacing_um, d.len())))
         } else {
             Solver::Spectral(Box::new(SpectralSolver::new(grid)))
         };
-        Diffusion { grid: *grid, d: d.to_vec(), solver }
+        Diffusion { grid: *grid, d: d.to_vec(), held, solver }
     }
 
-    /// `out_g ← D_g ∇²u_g` for every gene g (rows), explicitly, a.u./min.
+    /// `out_g ← D_g ∇²u_g` for every gene g (rows), explicitly, a.u./min
+    /// (the linear part: a held edge's level is a source with the reactions).
     pub fn apply(&self, u: &Array2<f64>, out: &mut Array2<f64>) {
-        for ((mut out, row), dg) in out.outer_iter_mut().zip(u.outer_iter()).zip(&self.d) {
+        for (((mut out, row), dg), held) in out.outer_iter_mut().zip(u.outer_iter()).zip(&self.d).zip(&self.held) {
             let out = out.as_slice_mut().expect("standard layout");
             if *dg == 0.0 {
                 out.fill(0.0);
             } else {
-                laplacian(&self.grid, row.as_slice().expect("standard layout"), out);
+                laplacian(&self.grid, *held, row.as_slice().expect("standard layout"), out);
                 out.iter_mut().for_each(|v| *v *= dg);
             }
         }
@@ -338,36 +349,6 @@ impl Diffusion {
     }
 }
 
-/// The cell-centred Laplacian ∇²u (µm⁻² × a.u.), explicitly: mirror
-/// neighbours on sealed edges, wrapped ones on periodic edges; five points on a
-/// sheet, three in a row.
-pub fn laplacian(grid: &Grid, u: &[f64], out: &mut [f64]) {
-    let (nx, ny, h2) = (grid.nx, grid.ny, grid.spacing_um * grid.spacing_um);
-    let periodic = grid.edges == Edges::Periodic;
-    let neighbour = |i: usize, n: usize, forward: bool| -> Option<usize> {
-        match (forward, i) {
-            (true, i) if i + 1 < n => Some(i + 1),
-            (false, i) if i > 0 => Some(i - 1),
-            (true, _) => periodic.then_some(0),
-            (false, _) => periodic.then_some(n - 1),
-        }
-    };
-    for iy in 0..ny {
-        for ix in 0..nx {
-            let own = u[iy * nx + ix];
-            let at = |x: Option<usize>, y: Option<usize>| match (x, y) {
-                (Some(x), Some(y)) => u[y * nx + x],
-                _ => own,
-            };
-            let mut lap = at(neighbour(ix, nx, false), Some(iy)) + at(neighbour(ix, nx, true), Some(iy)) - 2.0 * own;
-            if ny > 1 {
-                lap += at(Some(ix), neighbour(iy, ny, false)) + at(Some(ix), neighbour(iy, ny, true)) - 2.0 * own;
-            }
-            out[iy * nx + ix] = lap / h2;
-        }
-    }
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -376,7 +357,7 @@ mod tests {
     /// Applies `a₀ I − c ∇²` with the library's explicit Laplacian.
     fn apply(grid: &Grid, u: &[f64], a0: f64, c: f64) -> Vec<f64> {
         let mut lap = vec![0.0; u.len()];
-        laplacian(grid, u, &mut lap);
+        laplacian(grid, [false; 4], u, &mut lap);
         u.iter().zip(&lap).map(|(u, l)| a0 * u - c * l).collect()
     }
 
@@ -385,7 +366,7 @@ mod tests {
         let u: Vec<f64> = (0..nx * ny).map(|i| ((i * 7919) % 101) as f64 / 10.0).collect();
         let b = apply(&grid, &u, 3.0, 2.5);
         let mut arr = Array2::from_shape_vec((1, nx * ny), b).unwrap();
-        let mut diffusion = Diffusion::new(&grid, &[1.0]);
+        let mut diffusion = Diffusion::new(&grid, &[1.0], &[]);
         for parallel in [false, true] {
             let mut x = arr.clone();
             diffusion.solve(&mut x, 3.0, 2.5, parallel);
@@ -394,6 +375,35 @@ mod tests {
             }
         }
         arr.fill(0.0);
+    }
+
+    /// Rows whose ends hold a level: the rank-two correction inverts the
+    /// explicit operator with the ghost `−u₀` (one end, the other, both; a
+    /// single nucleus; weak to strong coupling).
+    #[test]
+    fn thomas_inverts_rows_with_held_ends() {
+        for held in [[true, false, false, false], [false, true, false, false], [true, true, false, false]] {
+            for n in [1usize, 2, 3, 37, 501] {
+                for c in [1e-4, 2.5, 400.0] {
+                    let grid = Grid { nx: n, ny: 1, spacing_um: 1.5, edges: Edges::Sealed };
+                    let u: Vec<f64> = (0..n).map(|i| ((i * 7919) % 101) as f64 / 10.0).collect();
+                    let mut lap = vec![0.0; n];
+                    laplacian(&grid, held, &u, &mut lap);
+                    let b: Vec<f64> = u.iter().zip(&lap).map(|(u, l)| 3.0 * u - c * l).collect();
+                    let mut x = Array2::from_shape_vec((2, n), [b.clone(), b].concat()).unwrap();
+                    let mut diffusion = Diffusion::new(&grid, &[1.0, 1.0], &[held, held]);
+                    // Twice: the second solve reuses the kept factors and columns.
+                    for _ in 0..2 {
+                        let mut y = x.clone();
+                        diffusion.solve(&mut y, 3.0, c, false);
+                        for (got, want) in y.iter().zip(u.iter().chain(&u)) {
+                            assert_relative_eq!(*got, *want, epsilon = 1e-9, max_relative = 1e-9);
+                        }
+                    }
+                    x.fill(0.0);
+                }
+            }
+        }
     }
 
     #[test]
@@ -412,7 +422,7 @@ mod tests {
             let u: Vec<f64> = (0..501).map(|i| ((i * 7919) % 101) as f64 / 10.0).collect();
             let b = apply(&grid, &u, 3.0, c);
             let mut x = Array2::from_shape_vec((1, 501), b).unwrap();
-            Diffusion::new(&grid, &[1.0]).solve(&mut x, 3.0, c, false);
+            Diffusion::new(&grid, &[1.0], &[]).solve(&mut x, 3.0, c, false);
             for (got, want) in x.iter().zip(&u) {
                 assert_relative_eq!(*got, *want, epsilon = 1e-10, max_relative = 1e-10);
             }

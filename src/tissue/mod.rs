@@ -2,11 +2,14 @@
 
 mod cosine;
 mod diffusion;
+mod edges;
+mod held_ends;
 mod gradient;
 mod row_solve;
 mod sheet_solve;
 
-pub use diffusion::{Diffusion, Rhs, SpectralSolver, laplacian};
+pub use diffusion::{Diffusion, Rhs, SpectralSolver};
+pub use edges::{edge_source, inflow, laplacian};
 pub use row_solve::TriFactor;
 
 pub use gradient::{amplitude_at, distance_at, distance_um, unit_shape, value_at};

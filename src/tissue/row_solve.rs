@@ -2,6 +2,8 @@
 //! symmetric tridiagonal system per gene, solved by kept LU factors (Thomas)
 //! in a twisted form, several genes at a time.
 
+use super::held_ends::HeldEnds;
+
 /// A kept factorisation of the symmetric tridiagonal matrix `a₀ I − c ∇²` on a sealed row.
 ///
 /// LU without pivoting (the matrix is diagonally dominant): `m_i = off/w_{i−1}`,
@@ -22,6 +24,8 @@ pub struct TriFactor {
     /// From this nucleus up to the middle, `m`, `inv_w` and `up` are each one
     /// repeated number (see [`factor_together`]).
     head: usize,
+    /// The correction for ends that hold a level, if any ([`HeldEnds`]).
+    ends: Option<Box<HeldEnds>>,
 }
 
 impl TriFactor {
@@ -36,7 +40,18 @@ impl TriFactor {
             m: vec![0.0; n],
             gamma: 0.0,
             head: n,
+            ends: None,
         }
+    }
+
+    /// The same factor for a row whose left and/or right end holds a level
+    /// (`held` = [left, right]): the matrix gains `2c/h²` on the diagonal
+    /// there, solved by [`HeldEnds`]'s correction in [`sweep_genes`].
+    pub fn with_held_ends(mut self, held: [bool; 2]) -> TriFactor {
+        if held.iter().any(|&h| h) {
+            self.ends = Some(Box::new(HeldEnds::new(self.m.len(), held)));
+        }
+        self
     }
 
     /// True if the factor is for `(a0, c)`.
@@ -49,7 +64,8 @@ impl TriFactor {
         factor_together([self], a0, [c]);
     }
 
-    /// Solves in place: `b ← (a₀ I − c ∇²)⁻¹ b`.
+    /// Solves in place: `b ← (a₀ I − c ∇²)⁻¹ b` with sealed ends (held
+    /// ends are corrected for by [`sweep_genes`]).
     ///
     /// # Panics
     /// If `b` is not as long as the row.
@@ -142,6 +158,12 @@ fn factor_together<const K: usize>(mut f: [&mut TriFactor; K], a0: f64, c: [f64;
             // diagonal less both neighbours' eliminations.
             let (p, q) = (n / 2, n - 1 - n / 2);
             t.gamma = inner[k] - t.m[p] * off[k] - t.m[q] * off[k];
+        }
+    }
+    for t in f.iter_mut() {
+        if let Some(mut ends) = t.ends.take() {
+            ends.refresh(t, t.c, t.h);
+            t.ends = Some(ends);
         }
     }
 }
@@ -288,6 +310,11 @@ pub(super) fn sweep_genes(field: &mut [f64], n: usize, factors: &[[TriFactor; 2]
         }
     }
     flush(&mut held, count);
+    for ((row, pair), dg) in field.chunks_exact_mut(n).zip(factors).zip(d) {
+        if let (Some(ends), true) = (&pair[0].ends, *dg != 0.0) {
+            ends.correct(row);
+        }
+    }
 }
 
 #[cfg(test)]

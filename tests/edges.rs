@@ -85,7 +85,8 @@ fn an_influx_makes_the_source_gradient() {
     let state = run(&model).recording.final_state().clone();
     let near = (j * lam / D) * (-0.5 * H / lam).exp();
     assert!((state[[0, 0]] - near).abs() / near < 1e-3, "{} against {near}", state[[0, 0]]);
-    let mirrored = run(&parse(&row(&format!("edge.right = {{ influx = {j} }}"), 300.0))).recording.final_state().clone();
+    let mirrored =
+        run(&parse(&row(&format!("edge.right = {{ influx = {j} }}"), 300.0))).recording.final_state().clone();
     for i in 0..NUCLEI {
         let (a, b) = (state[[0, i]], mirrored[[0, NUCLEI - 1 - i]]);
         assert!((a - b).abs() <= 1e-9 * a.abs(), "nucleus {i}: {a} and {b}");

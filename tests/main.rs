@@ -1,6 +1,7 @@
 //! Integration tests, one binary: `cargo test` (or `cargo nextest run`).
 
 mod analytic;
+mod bifurcation;
 mod cli;
 mod common;
 mod compare;

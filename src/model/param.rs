@@ -319,6 +319,21 @@ impl Model {
     /// bias, nor links into it; bias is only for sigmoid kinetics; a gradient
     /// or constant no gene reads, and a value of 0, change nothing.
     pub fn no_effect(&self, p: Param) -> Option<String> {
+        if let Param::Constant(k) = p
+            && let Some(why) = self.sets_a_start(k)
+        {
+            return Some(why);
+        }
+        self.unread(p).or_else(|| {
+            (self.param_value(p) == Some(0.0))
+                .then(|| format!("`{}` is 0, so scaling it changes nothing", self.param_name(p)))
+        })
+    }
+
+    /// Why the rate law never reads `p` at any value, or None when it does
+    /// (the structural part of [`Self::no_effect`]; diffusion is read by the
+    /// tissue, not the rate law, and counts as read here).
+    pub fn unread(&self, p: Param) -> Option<String> {
         let name = self.param_name(p);
         let expression = |g: usize| self.genes[g].rate.as_deref();
         let structural = match p {
@@ -358,16 +373,10 @@ impl Model {
             Param::Constant(k) => {
                 let constant = &self.circuit.parameters[k].0;
                 let used = (0..self.genes.len()).filter_map(expression).any(|r| names_in(r).any(|n| n == constant));
-                match self.sets_a_start(k) {
-                    Some(why) => Some(why),
-                    None => (!used)
-                        .then(|| format!("`{name}` has no effect: no rate expression uses the constant `{constant}`")),
-                }
+                (!used).then(|| format!("`{name}` has no effect: no rate expression uses the constant `{constant}`"))
             }
         };
-        structural.or_else(|| {
-            (self.param_value(p) == Some(0.0)).then(|| format!("`{name}` is 0, so scaling it changes nothing"))
-        })
+        structural
     }
 
     /// ", e.g. p, k" for the constants an expression uses, or "" when none.

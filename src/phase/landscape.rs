@@ -3,7 +3,7 @@
 //! pseudo-arclength continuation in the position, with the folds where
 //! attractors appear or vanish; and the per-nucleus fixed points beside them.
 
-use super::continuation::{Branch, continue_branch};
+use super::continuation::{Branch, trace_through};
 use super::fixed::{FixedPoint, box_starts, find_fixed_points};
 use super::system::{Family, Frozen};
 use crate::kinetics::Kinetics;
@@ -28,17 +28,27 @@ pub struct PositionFamily<'a> {
 }
 
 impl PositionFamily<'_> {
-    /// Gradient values at position `s` (% of axis length).
     /// Inputs at position `s` (% of axis length): the gradients, x and t, and
     /// zero for any neighbour means (contact terms are not followed along the axis).
     pub fn inputs(&self, s: f64) -> Vec<f64> {
         let x = s / 100.0 * self.grid.length_um();
-        let y = self.grid.height_um() / 2.0;
-        let mut m: Vec<f64> = self.gradients.iter().map(|g| value_at(g, &self.grid, x, y, self.t_min)).collect();
-        m.extend([x, self.t_min]);
-        m.extend(std::iter::repeat_n(0.0, self.neighbour_genes));
-        m
+        point_inputs(self.gradients, &self.grid, (x, self.grid.height_um() / 2.0), self.t_min, self.neighbour_genes)
     }
+}
+
+/// The inputs a rate law sees at the point (x, y) µm at `t_min`: the
+/// gradients, x and t, and zero for `neighbour_genes` neighbour means.
+pub fn point_inputs(
+    gradients: &[Gradient],
+    grid: &Grid,
+    (x, y): (f64, f64),
+    t_min: f64,
+    neighbour_genes: usize,
+) -> Vec<f64> {
+    let mut m: Vec<f64> = gradients.iter().map(|g| value_at(g, grid, x, y, t_min)).collect();
+    m.extend([x, t_min]);
+    m.extend(std::iter::repeat_n(0.0, neighbour_genes));
+    m
 }
 
 impl Family for PositionFamily<'_> {
@@ -91,39 +101,11 @@ pub fn landscape(model: &Model, t_min: f64, hi: &[f64]) -> Landscape {
         .collect();
     let range = (nucleus_pct[0], nucleus_pct[grid.nx - 1]);
     let scale = hi.iter().copied().fold(1e-12, f64::max);
-    let mut branches: Vec<Branch> = Vec::new();
-    let on_a_branch = |branches: &[Branch], s: f64, x: &[f64]| {
-        branches.iter().any(|b| {
-            b.points.windows(2).any(|w| {
-                let (a, c) = (&w[0], &w[1]);
-                let (lo, hi) = (a.s.min(c.s), a.s.max(c.s));
-                s >= lo - 1e-9
-                    && s <= hi + 1e-9
-                    && x.iter().enumerate().all(|(g, v)| {
-                        let f = if c.s != a.s { (s - a.s) / (c.s - a.s) } else { 0.0 };
-                        (a.x[g] + f * (c.x[g] - a.x[g]) - v).abs() <= 1e-3 * scale
-                    })
-            })
-        })
-    };
-    for (k, points) in per_nucleus.iter().enumerate() {
-        for p in points {
-            if on_a_branch(&branches, nucleus_pct[k], &p.x) {
-                continue;
-            }
-            let mut both = Branch::default();
-            for dir in [-1.0, 1.0] {
-                let mut b = continue_branch(&fam, &p.x, nucleus_pct[k], range, 0.5, dir, 20_000);
-                if dir < 0.0 {
-                    b.points.reverse();
-                    both = b;
-                } else {
-                    both.points.extend(b.points.into_iter().skip(1));
-                    both.folds.extend(b.folds);
-                }
-            }
-            branches.push(both);
-        }
-    }
+    let seeds: Vec<(f64, Vec<Vec<f64>>)> = nucleus_pct
+        .iter()
+        .zip(&per_nucleus)
+        .map(|(&s, points)| (s, points.iter().map(|p| p.x.clone()).collect()))
+        .collect();
+    let branches = trace_through(&fam, &seeds, range, 0.5, scale);
     Landscape { t_min, nucleus_pct, per_nucleus, branches }
 }

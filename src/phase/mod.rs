@@ -7,6 +7,7 @@
 //! so its own circuit is an autonomous system.
 
 pub mod basins;
+pub mod bifurcation;
 pub mod continuation;
 pub mod fixed;
 pub mod flow;
@@ -17,7 +18,8 @@ pub mod portrait;
 pub mod system;
 
 pub use basins::{BasinAnalysis, BasinOptions, Commitment, NucleusBasin, analyse};
-pub use continuation::{Branch, BranchPoint, Fold, continue_branch};
+pub use bifurcation::{Diagram, DiagramError, DiagramRequest, ParameterFamily, Special, SpecialPoint, diagram};
+pub use continuation::{Branch, BranchPoint, Crossing, Fold, Hopf, continue_branch};
 
 pub use fixed::{FixedPoint, Kind, box_starts, find_fixed_points};
 pub use flow::{Fate, HORIZON_GROWTH, fate, fate_with};

@@ -47,10 +47,8 @@ impl HeldEnds {
             }
         }
         // I + Vᵀ[δ₀z₀, δ₁z₁]: rows are the ends (first, last nucleus).
-        let m = [
-            [1.0 + self.columns[0][0], self.columns[1][0]],
-            [self.columns[0][n - 1], 1.0 + self.columns[1][n - 1]],
-        ];
+        let m =
+            [[1.0 + self.columns[0][0], self.columns[1][0]], [self.columns[0][n - 1], 1.0 + self.columns[1][n - 1]]];
         let det = m[0][0] * m[1][1] - m[0][1] * m[1][0];
         self.inverse = [[m[1][1] / det, -m[0][1] / det], [-m[1][0] / det, m[0][0] / det]];
     }

@@ -3,8 +3,8 @@
 mod cosine;
 mod diffusion;
 mod edges;
-mod held_ends;
 mod gradient;
+mod held_ends;
 mod row_solve;
 mod sheet_solve;
 

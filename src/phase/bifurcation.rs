@@ -1,0 +1,353 @@
+//! Bifurcation diagrams of the isolated nucleus in any model parameter (a
+//! gene's, a link's, a gradient's or a named constant): every branch of
+//! fixed points over a range of the parameter, with its stability, folds,
+//! branch points (and the branches that cross there, switched onto) and
+//! Hopf points with their period at onset. The nucleus sits at one place on
+//! the axis with its inputs frozen at one time (see [`super`]).
+
+use std::sync::{Arc, Mutex};
+
+use super::continuation::{Branch, lies_on, switch_branch, trace_through};
+use super::fixed::{box_starts, find_fixed_points};
+use super::landscape::point_inputs;
+use super::system::{AtParameter, Family};
+use crate::kinetics::Kinetics;
+use crate::model::{GeneParam, GradientParam, Initial, LinkParam, Model, Param};
+
+/// Built rate laws kept by parameter value (bits), with their inputs.
+type Built = Vec<(u64, Arc<dyn Kinetics>, Arc<Vec<f64>>)>;
+
+/// The isolated nucleus at one point and time as a family in one model
+/// parameter: `F(u, s)` is the rate law of the model with the parameter set to s.
+pub struct ParameterFamily {
+    model: Model,
+    param: Param,
+    point_um: (f64, f64),
+    t_min: f64,
+    genes: usize,
+    neighbour_genes: usize,
+    /// The last few rate laws built (continuation asks for s, s ± δ in turn).
+    built: Mutex<Built>,
+}
+
+impl ParameterFamily {
+    /// The family of `model` in `param` for the nucleus at `x_pct` % of the
+    /// axis (on the midline of a sheet), inputs at `t_min`.
+    pub fn new(model: &Model, param: Param, x_pct: f64, t_min: f64) -> ParameterFamily {
+        let mut model = model.clone();
+        // Starting levels play no part here (and may be large arrays).
+        for g in &mut model.genes {
+            g.initial = Initial::Uniform(0.0);
+        }
+        let grid = model.grid;
+        ParameterFamily {
+            param,
+            point_um: (x_pct / 100.0 * grid.length_um(), grid.height_um() / 2.0),
+            t_min,
+            genes: model.genes.len(),
+            neighbour_genes: if model.circuit.neighbours { model.genes.len() } else { 0 },
+            model,
+            built: Mutex::new(Vec::new()),
+        }
+    }
+
+    /// The model with the parameter at `s`.
+    pub fn model_at(&self, s: f64) -> Model {
+        let mut m = self.model.clone();
+        if let Some(v) = m.param_mut(self.param) {
+            *v = s;
+        }
+        m
+    }
+
+    fn at(&self, s: f64) -> (Arc<dyn Kinetics>, Arc<Vec<f64>>) {
+        let key = s.to_bits();
+        let mut built = self.built.lock().unwrap_or_else(|e| e.into_inner());
+        if let Some((_, k, m)) = built.iter().find(|(b, _, _)| *b == key) {
+            return (k.clone(), m.clone());
+        }
+        let model = self.model_at(s);
+        let kinetics: Arc<dyn Kinetics> = Arc::from(crate::kinetics::build(&model));
+        let inputs =
+            Arc::new(point_inputs(&model.gradients, &model.grid, self.point_um, self.t_min, self.neighbour_genes));
+        if built.len() >= 8 {
+            built.remove(0);
+        }
+        built.push((key, kinetics.clone(), inputs.clone()));
+        (kinetics, inputs)
+    }
+}
+
+impl Family for ParameterFamily {
+    fn dim(&self) -> usize {
+        self.genes
+    }
+    fn rates(&self, u: &[f64], s: f64, out: &mut [f64]) {
+        let (k, m) = self.at(s);
+        k.rates_one(u, &m, out);
+    }
+    fn jacobian(&self, u: &[f64], s: f64, jac: &mut [f64]) {
+        let (k, m) = self.at(s);
+        k.jacobian(u, &m, jac);
+    }
+}
+
+/// What to draw a diagram of.
+#[derive(Debug, Clone, Copy)]
+pub struct DiagramRequest {
+    /// The parameter continued.
+    pub param: Param,
+    /// Its range.
+    pub from: f64,
+    /// Its range.
+    pub to: f64,
+    /// Where the nucleus sits, % of the axis length.
+    pub x_pct: f64,
+    /// When its inputs are frozen, min.
+    pub t_min: f64,
+}
+
+/// A bifurcation diagram.
+#[derive(Debug, Clone)]
+pub struct Diagram {
+    /// The parameter's name as the model writes it.
+    pub parameter: String,
+    /// What was asked.
+    pub request: DiagramRequest,
+    /// Branches: first those through the fixed points found at sampled
+    /// parameter values, then those switched onto at their branch points.
+    pub branches: Vec<Branch>,
+    /// For each branch, the branch it was switched from at a branch point.
+    pub switched_from: Vec<Option<usize>>,
+}
+
+/// The kind of a special point.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Special {
+    /// Saddle-node: two fixed points meet and vanish.
+    Fold,
+    /// Two branches cross (pitchfork or transcritical).
+    BranchPoint,
+    /// A complex pair crosses the imaginary axis: oscillations start.
+    Hopf,
+}
+
+impl Special {
+    /// Name in tables.
+    pub fn name(self) -> &'static str {
+        match self {
+            Special::Fold => "fold",
+            Special::BranchPoint => "branch point",
+            Special::Hopf => "Hopf",
+        }
+    }
+}
+
+/// A special point of a diagram, met on one or more branches.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SpecialPoint {
+    /// Kind.
+    pub kind: Special,
+    /// Parameter value.
+    pub s: f64,
+    /// Fixed point.
+    pub x: Vec<f64>,
+    /// Period of the oscillation at onset (Hopf), min.
+    pub period_min: Option<f64>,
+    /// The first branch it was met on.
+    pub branch: usize,
+    /// For branch points, how well located (see [`super::Crossing::residual`]).
+    residual: f64,
+}
+
+impl Diagram {
+    /// Every fold, branch point and Hopf point, once each, sorted by
+    /// parameter value. The same point met on two branches is listed once; a
+    /// branch point, where the branch that turns there locates it less
+    /// sharply than the one that passes straight through, keeps the sharper
+    /// location.
+    pub fn special_points(&self) -> Vec<SpecialPoint> {
+        let mut all: Vec<SpecialPoint> = Vec::new();
+        let scale = self
+            .branches
+            .iter()
+            .flat_map(|b| b.points.iter().flat_map(|p| p.x.iter()))
+            .fold(1.0f64, |m, v| m.max(v.abs()));
+        let width = self.request.to - self.request.from;
+        let mut add = |p: SpecialPoint| {
+            let loose = if p.kind == Special::BranchPoint { 1e-3 } else { 1e-7 };
+            let same = |q: &SpecialPoint| {
+                q.kind == p.kind
+                    && (q.s - p.s).abs() <= loose * width.max(p.s.abs())
+                    && q.x.iter().zip(&p.x).all(|(a, b)| (a - b).abs() <= loose * 10.0 * scale)
+            };
+            match all.iter_mut().find(|q| same(q)) {
+                Some(q) if p.residual < q.residual => *q = p,
+                Some(_) => {}
+                None => all.push(p),
+            }
+        };
+        for (k, b) in self.branches.iter().enumerate() {
+            for f in &b.folds {
+                add(SpecialPoint {
+                    kind: Special::Fold,
+                    s: f.s,
+                    x: f.x.clone(),
+                    period_min: None,
+                    branch: k,
+                    residual: 0.0,
+                });
+            }
+            for c in &b.crossings {
+                add(SpecialPoint {
+                    kind: Special::BranchPoint,
+                    s: c.s,
+                    x: c.x.clone(),
+                    period_min: None,
+                    branch: k,
+                    residual: c.residual,
+                });
+            }
+            for h in &b.hopfs {
+                add(SpecialPoint {
+                    kind: Special::Hopf,
+                    s: h.s,
+                    x: h.x.clone(),
+                    period_min: Some(h.period_min()),
+                    branch: k,
+                    residual: 0.0,
+                });
+            }
+        }
+        all.sort_by(|a, b| a.s.total_cmp(&b.s));
+        all
+    }
+}
+
+/// Why a diagram cannot be drawn.
+#[derive(Debug, thiserror::Error)]
+pub enum DiagramError {
+    /// The rate law never reads the parameter.
+    #[error("{0}; continue in a parameter the rate law reads")]
+    Unread(String),
+    /// Diffusion does not act on one nucleus.
+    #[error(
+        "`{0}` is a diffusion coefficient, which does not act on an isolated nucleus; continue in a parameter of the rate law"
+    )]
+    Diffusion(String),
+    /// A bad range.
+    #[error("the range {from} to {to} of `{name}` {why}; give --from < --to{hint}")]
+    Range {
+        /// Parameter.
+        name: String,
+        /// Start.
+        from: f64,
+        /// End.
+        to: f64,
+        /// What is wrong.
+        why: &'static str,
+        /// More advice.
+        hint: &'static str,
+    },
+}
+
+/// Whether the parameter must stay above 0 (true) or at or above 0 (false);
+/// None for named constants, which may take any sign.
+fn lower_bound(p: Param) -> Option<bool> {
+    match p {
+        Param::Constant(_) => None,
+        Param::Gene(_, GeneParam::Bias) => None,
+        Param::Gene(..) => Some(false),
+        Param::Link(_, LinkParam::Weight) => None,
+        Param::Link(..) => Some(true),
+        Param::Gradient(_, GradientParam::Peak | GradientParam::Baseline) => Some(false),
+        Param::Gradient(..) => Some(true),
+    }
+}
+
+/// Parameter values at which fixed points are searched for from scratch.
+const SAMPLES: usize = 41;
+
+/// Draws the bifurcation diagram of `model`'s isolated nucleus in `req.param`.
+///
+/// # Errors
+/// [`DiagramError`] when the parameter does not act on a nucleus or the range is bad.
+pub fn diagram(model: &Model, req: &DiagramRequest) -> Result<Diagram, DiagramError> {
+    let name = model.param_name(req.param);
+    if let Param::Gene(_, GeneParam::Diffusion) = req.param {
+        return Err(DiagramError::Diffusion(name));
+    }
+    if let Some(why) = model.unread(req.param) {
+        return Err(DiagramError::Unread(why));
+    }
+    let range_error = |why, hint| DiagramError::Range { name: name.clone(), from: req.from, to: req.to, why, hint };
+    if !(req.from.is_finite() && req.to.is_finite() && req.from < req.to) {
+        return Err(range_error("is empty or not finite", ""));
+    }
+    match lower_bound(req.param) {
+        Some(true) if req.from <= 0.0 => {
+            return Err(range_error("reaches 0 or below", " (this parameter must stay above 0)"));
+        }
+        Some(false) if req.from < 0.0 => {
+            return Err(range_error("goes below 0", " (this parameter must stay at or above 0)"));
+        }
+        _ => {}
+    }
+    let fam = ParameterFamily::new(model, req.param, req.x_pct, req.t_min);
+    let samples: Vec<f64> =
+        (0..SAMPLES).map(|k| req.from + (req.to - req.from) * k as f64 / (SAMPLES - 1) as f64).collect();
+    // The search box: 1.5 times each gene's capacity p/d at any sampled value (at least 1 a.u.).
+    let hi: Vec<f64> = (0..model.genes.len())
+        .map(|g| {
+            let cap = samples
+                .iter()
+                .map(|&s| {
+                    let m = fam.model_at(s);
+                    let gene = &m.genes[g];
+                    if gene.decay > 0.0 { gene.production / gene.decay } else { 0.0 }
+                })
+                .fold(0.0, f64::max);
+            (1.5 * cap).max(1.0)
+        })
+        .collect();
+    let starts = box_starts(&hi, 40);
+    let tol = 1e-10 * model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
+    let mut previous: Vec<Vec<f64>> = Vec::new();
+    let seeds: Vec<(f64, Vec<Vec<f64>>)> = samples
+        .iter()
+        .map(|&s| {
+            let mut from_here = starts.clone();
+            from_here.extend(previous.iter().cloned());
+            let points: Vec<Vec<f64>> = find_fixed_points(&AtParameter { family: &fam, s }, &from_here, tol, true)
+                .into_iter()
+                .map(|p| p.x)
+                .collect();
+            previous = points.clone();
+            (s, points)
+        })
+        .collect();
+    let scale = hi.iter().copied().fold(1e-12, f64::max);
+    let ds_max = 0.01 * (req.to - req.from).max(scale);
+    let range = (req.from, req.to);
+    let mut branches = trace_through(&fam, &seeds, range, ds_max, scale);
+    let mut switched_from: Vec<Option<usize>> = vec![None; branches.len()];
+    for k in 0..branches.len() {
+        for c in branches[k].crossings.clone() {
+            for sign in [-1.0, 1.0] {
+                let Some(b) = switch_branch(&fam, &c, sign, range, ds_max, 20_000) else { continue };
+                // Already traced (the other branch of a transcritical point
+                // exists at sampled values): keep the first.
+                if b.points.len() < 3 {
+                    continue;
+                }
+                let middle = &b.points[b.points.len() / 2];
+                if lies_on(&branches, middle.s, &middle.x, 1e-3 * scale) {
+                    continue;
+                }
+                branches.push(b);
+                switched_from.push(Some(k));
+            }
+        }
+    }
+    Ok(Diagram { parameter: name, request: *req, branches, switched_from })
+}

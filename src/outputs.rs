@@ -226,6 +226,26 @@ pub fn write_portrait(
     Ok(data)
 }
 
+/// Writes a bifurcation diagram into `dir`: `bifurcation_branches.csv`,
+/// `bifurcation_points.csv` and `bifurcation.png` (gene `gene`'s level;
+/// SVG beside it when the style asks).
+///
+/// # Errors
+/// [`WriteError`] if a file cannot be written.
+pub fn write_bifurcation(
+    d: &crate::phase::Diagram,
+    genes: &[String],
+    gene: usize,
+    style: &render::Style,
+    dir: &Path,
+) -> Result<(), WriteError> {
+    export::write_atomic(&dir.join("bifurcation_branches.csv"), |w| export::write_branches_to(d, genes, w))?;
+    export::write_atomic(&dir.join("bifurcation_points.csv"), |w| export::write_special_points_to(d, genes, w))?;
+    let canvas = render::bifurcation_picture(d, genes, gene, style);
+    write_picture(&dir.join("bifurcation.png"), &canvas, style.svg)?;
+    Ok(())
+}
+
 /// Runs a screen of `mutants` and writes `shifts.csv` and `shifts.png` into
 /// `dir`; with `animate`, also `pair_<mutant>.gif` (wild type above, that
 /// mutant below, both simulated in full).

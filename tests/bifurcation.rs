@@ -103,3 +103,55 @@ fn the_autoregulation_fold_in_a_gene_and_a_link_parameter() {
     let err = diagram(&model, &request(&model, "umber.production", 2.0, 1.0)).unwrap_err().to_string();
     assert!(err.contains("--from < --to"), "{err}");
 }
+
+/// The verb end to end: the tables hold every branch point by point and the
+/// special point (read back and checked against the closed form), the
+/// picture is written, and --json says it is a model prediction of an
+/// isolated nucleus; a parameter that cannot act is refused.
+#[test]
+fn the_bifurcation_verb_writes_tables_a_picture_and_json() {
+    let dir = crate::common::temp_dir("bifurcation-verb");
+    let model = dir.join("switch.toml");
+    std::fs::write(
+        &model,
+        "title = \"switch\"\n[tissue]\nnuclei = [2]\nspacing_um = 1.0\n[clock]\nuntil_min = 1.0\ntolerance = 1e-6\n\
+         snapshot_every_min = 1.0\n[circuit]\nkinetics = \"hill\"\n[[circuit.link]]\nfrom = \"umber\"\nto = \"umber\"\n\
+         sign = \"+\"\nthreshold = 1.0\nhill = 2\n[[gene]]\nname = \"umber\"\nproduction = 3.0\ndecay = 1.0\ndiffusion = 1.0\n",
+    )
+    .unwrap();
+    let out = dir.join("out");
+    let args = ["bifurcation", model.to_str().unwrap(), "--parameter", "umber.production", "--from", "1", "--to", "4"];
+    let o = crate::common::anlage(&[&args[..], &["-o", out.to_str().unwrap(), "--json"]].concat());
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let doc: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(doc["model_prediction"], true);
+    assert_eq!(doc["special_points"][0]["point"], "fold");
+    let points = std::fs::read_to_string(out.join("bifurcation_points.csv")).unwrap();
+    let mut rows = points.lines();
+    assert_eq!(rows.next().unwrap(), "parameter,x_pct,frozen_at_min,point,branch,value,period_min,umber");
+    let fold: Vec<&str> = rows.next().unwrap().split(',').collect();
+    assert_eq!(fold[3], "fold");
+    assert!((fold[5].parse::<f64>().unwrap() - 2.0).abs() < 1e-8, "{fold:?}");
+    let branches = std::fs::read_to_string(out.join("bifurcation_branches.csv")).unwrap();
+    // Every point of every branch is a fixed point: p·u²/(1 + u²) = u.
+    let mut count = 0;
+    for line in branches.lines().skip(1) {
+        let cells: Vec<&str> = line.split(',').collect();
+        let (p, u): (f64, f64) = (cells[5].parse().unwrap(), cells[7].parse().unwrap());
+        assert!((p * u * u / (1.0 + u * u) - u).abs() < 1e-8, "{line}");
+        count += 1;
+    }
+    assert!(count > 50, "{count} points");
+    assert!(std::fs::metadata(out.join("bifurcation.png")).unwrap().len() > 1000);
+    let o = crate::common::anlage(&[
+        "bifurcation",
+        model.to_str().unwrap(),
+        "--parameter",
+        "umber.diffusion",
+        "--from",
+        "0",
+        "--to",
+        "1",
+    ]);
+    assert!(!o.status.success() && String::from_utf8_lossy(&o.stderr).contains("isolated nucleus"));
+}

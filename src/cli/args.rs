@@ -51,6 +51,10 @@ pub enum Command {
     Basins(BasinsArgs),
     /// Phase portrait of one nucleus in the plane of two genes.
     Portrait(PortraitArgs),
+    /// Bifurcation diagram of one nucleus in any model parameter: branches of fixed points
+    /// with their stability, folds, branch points and Hopf points (isolated nucleus: inputs
+    /// frozen), without simulating.
+    Bifurcation(super::bifurcation::BifurcationArgs),
     /// One figure of a run for a paper or a talk: pattern, kymograph, boundary positions
     /// over time and attractors along the axis, lettered A–D.
     Figure(FigureArgs),

@@ -279,3 +279,34 @@ pub fn sweep(s: &anlage::sweep::Sweep, dir: &Path) -> Value {
         .collect();
     json!({ "kind": "sweep", "model_prediction": true, "axes": axes, "points": points, "outputs": dir })
 }
+
+/// `bifurcation`: the special points (fold, branch point, Hopf with its
+/// period at onset) and how many branches; the files hold every point.
+pub fn bifurcation(d: &anlage::phase::Diagram, genes: &[String], dir: &Path) -> Value {
+    let points: Vec<Value> = d
+        .special_points()
+        .iter()
+        .map(|p| {
+            json!({
+                "point": p.kind.name(),
+                "value": p.s,
+                "levels": genes.iter().zip(&p.x).map(|(g, v)| (g.clone(), json!(v))).collect::<serde_json::Map<_, _>>(),
+                "period_min": p.period_min,
+                "branch": p.branch,
+            })
+        })
+        .collect();
+    json!({
+        "kind": "bifurcation",
+        "outputs": dir,
+        "model_prediction": true,
+        "isolated_nucleus": true,
+        "parameter": d.parameter,
+        "from": d.request.from,
+        "to": d.request.to,
+        "x_pct": d.request.x_pct,
+        "frozen_at_min": d.request.t_min,
+        "branches": d.branches.len(),
+        "special_points": points,
+    })
+}

@@ -4,6 +4,7 @@
 
 mod args;
 mod bar;
+mod bifurcation;
 mod cluster;
 mod common;
 mod compare;
@@ -25,6 +26,7 @@ pub fn dispatch(cli: &Cli) -> anyhow::Result<()> {
         Command::Render(a) => run::render(a),
         Command::Basins(a) => phase::basins(a),
         Command::Portrait(a) => phase::portrait(a),
+        Command::Bifurcation(a) => bifurcation::bifurcation(a),
         Command::Figure(a) => phase::figure(a),
         Command::Screen(a) => screen::screen(a),
         Command::Sensitivity(a) => screen::sensitivity(a),

@@ -6,6 +6,7 @@
 
 mod animate;
 mod axes;
+mod bifurcation;
 mod boundary_bands;
 mod boundary_time;
 mod canvas;
@@ -26,6 +27,7 @@ mod sweep;
 mod tracks;
 
 pub use animate::{GifMade, MIN_FRAMES, write_gif, write_grid_gif, write_pair_gif};
+pub use bifurcation::bifurcation_picture;
 pub use boundary_bands::boundary_bands;
 pub use boundary_time::boundary_positions;
 pub use canvas::{Align, Canvas, escape};

@@ -14,6 +14,7 @@
 
 use nalgebra::{Complex, DMatrix, DVector};
 
+use super::arclength::{self, Curve};
 use super::fixed::{Kind, classify, eigenvalues};
 use super::system::Family;
 
@@ -87,7 +88,15 @@ struct Tracer<'a> {
     n: usize,
 }
 
-impl Tracer<'_> {
+impl Curve for Tracer<'_> {
+    fn unknowns(&self) -> usize {
+        self.n + 1
+    }
+
+    fn residual(&self, y: &[f64], out: &mut [f64]) {
+        self.fam.rates(&y[..self.n], y[self.n], out);
+    }
+
     /// [F_x | F_s] at y = (x, s), F_s by central differences (step 1e-6·(1 + |s|)).
     fn jacobian(&self, y: &[f64]) -> DMatrix<f64> {
         let n = self.n;
@@ -107,49 +116,26 @@ impl Tracer<'_> {
         }
         m
     }
+}
 
-    /// Unit tangent at y with t·`prev` > 0: solves [F_x F_s; prevᵀ] t = [0; 1].
+impl Tracer<'_> {
     fn tangent(&self, y: &[f64], prev: &DVector<f64>) -> Option<DVector<f64>> {
-        let n = self.n;
-        let mut a = self.jacobian(y).insert_row(n, 0.0);
-        for j in 0..=n {
-            a[(n, j)] = prev[j];
-        }
-        let mut rhs = DVector::zeros(n + 1);
-        rhs[n] = 1.0;
-        let t = a.lu().solve(&rhs)?;
-        let norm = t.norm();
-        (norm.is_finite() && norm > 0.0).then(|| t / norm)
+        arclength::tangent(self, y, prev)
     }
 
-    /// Newton on [F(y) = 0; t·(y − y_p) = 0] from the predictor y_p.
     fn correct(&self, yp: &DVector<f64>, t: &DVector<f64>) -> Option<(DVector<f64>, usize)> {
-        let n = self.n;
-        let mut y = yp.clone();
-        let mut f = vec![0.0; n];
-        for it in 1..=12 {
-            self.fam.rates(&y.as_slice()[..n], y[n], &mut f);
-            let mut g = DVector::zeros(n + 1);
-            for i in 0..n {
-                g[i] = -f[i];
-            }
-            g[n] = -t.dot(&(&y - yp));
-            let mut a = self.jacobian(y.as_slice()).insert_row(n, 0.0);
-            for j in 0..=n {
-                a[(n, j)] = t[j];
-            }
-            let dy = a.lu().solve(&g)?;
-            y += &dy;
-            if !y.iter().all(|v| v.is_finite()) {
-                return None;
-            }
-            self.fam.rates(&y.as_slice()[..n], y[n], &mut f);
-            let fnorm = f.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-            if dy.amax() <= 1e-11 * (1.0 + y.amax()) && fnorm <= 1e-9 {
-                return Some((y, it));
-            }
-        }
-        None
+        arclength::correct(self, yp, t)
+    }
+
+    fn locate(
+        &self,
+        y: &DVector<f64>,
+        t: &DVector<f64>,
+        ds: f64,
+        g: (f64, f64),
+        test: impl Fn(&DVector<f64>, &DVector<f64>) -> f64,
+    ) -> Option<(DVector<f64>, DVector<f64>)> {
+        arclength::locate(self, y, t, ds, g, test)
     }
 
     /// The branch-point test function `det [F_u F_s; tᵀ]` at y with tangent t.
@@ -176,68 +162,6 @@ impl Tracer<'_> {
             }
         }
         (product.re, ev)
-    }
-
-    /// The corrected point at arclength σ along t from y, with its tangent.
-    fn at(&self, y: &DVector<f64>, t: &DVector<f64>, sigma: f64) -> Option<(DVector<f64>, DVector<f64>)> {
-        let (ym, _) = self.correct(&(y + t * sigma), t)?;
-        let tm = self.tangent(ym.as_slice(), t)?;
-        Some((ym, tm))
-    }
-
-    /// The point between σ = 0 (test `g0`) and σ = `ds` (test `g1`, of the
-    /// other sign) where `test` vanishes: the Illinois variant of regula
-    /// falsi (Dowell & Jarratt 1971, BIT 11:168) on corrected points, to
-    /// 1e-13 of the step. Next to a branch point the corrector cannot
-    /// converge (its matrix is singular there, and round-off is amplified by
-    /// the inverse of the distance); the root is then the secant root of the
-    /// bracket, and the point interpolated linearly between its ends, which
-    /// are close enough for both to be within O(bracket²).
-    fn locate(
-        &self,
-        y: &DVector<f64>,
-        t: &DVector<f64>,
-        ds: f64,
-        (g0, g1): (f64, f64),
-        test: impl Fn(&DVector<f64>, &DVector<f64>) -> f64,
-    ) -> Option<(DVector<f64>, DVector<f64>)> {
-        let (end_a, end_b) = (self.at(y, t, 0.0)?, self.at(y, t, ds)?);
-        let (mut a, mut b, mut ga, mut gb) = (0.0, ds, g0, g1);
-        let (mut pa, mut pb) = (end_a, end_b);
-        let mut side = 0;
-        for _ in 0..100 {
-            let c = (a * gb - b * ga) / (gb - ga);
-            let c = if c.is_finite() && (c - a) * (c - b) < 0.0 { c } else { 0.5 * (a + b) };
-            let Some((yc, tc)) = self.at(y, t, c) else {
-                // Interpolate within the bracket at the secant root.
-                let w = (c - a) / (b - a);
-                let yi = &pa.0 + (&pb.0 - &pa.0) * w;
-                let ti = &pa.1 + (&pb.1 - &pa.1) * w;
-                let norm = ti.norm();
-                return Some((yi, ti / norm));
-            };
-            let gc = test(&yc, &tc);
-            if gc == 0.0 {
-                return Some((yc, tc));
-            }
-            if gc.signum() == gb.signum() {
-                (b, gb, pb) = (c, gc, (yc, tc));
-                if side == -1 {
-                    ga *= 0.5;
-                }
-                side = -1;
-            } else {
-                (a, ga, pa) = (c, gc, (yc, tc));
-                if side == 1 {
-                    gb *= 0.5;
-                }
-                side = 1;
-            }
-            if (b - a).abs() <= 1e-13 * ds.abs() {
-                break;
-            }
-        }
-        Some(if ga.abs() < gb.abs() { pa } else { pb })
     }
 
     /// The unit tangent of the other branch at a branch point, and how far

@@ -6,6 +6,7 @@
 //! values, and optionally the diffusion influx of that moment) are frozen,
 //! so its own circuit is an autonomous system.
 
+pub mod arclength;
 pub mod basins;
 pub mod bifurcation;
 pub mod continuation;

@@ -9,6 +9,7 @@ mod convergence;
 mod demos;
 mod edges;
 mod fit;
+mod fold_curves;
 #[allow(dead_code)] // also the core of examples/fuzz_models.rs
 mod fuzz_core;
 mod gradient_table;

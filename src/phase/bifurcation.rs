@@ -14,14 +14,29 @@ use super::system::{AtParameter, Family};
 use crate::kinetics::Kinetics;
 use crate::model::{GeneParam, GradientParam, Initial, LinkParam, Model, Param};
 
-/// Built rate laws kept by parameter value (bits), with their inputs.
-type Built = Vec<(u64, Arc<dyn Kinetics>, Arc<Vec<f64>>)>;
+/// Built rate laws kept by parameter values (bits), with their inputs.
+type Built = Vec<((u64, u64), Arc<dyn Kinetics>, Arc<Vec<f64>>)>;
+
+/// A second parameter, for two-parameter continuation: a model parameter,
+/// or the nucleus's position along the axis (% of its length).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Second {
+    /// A model parameter.
+    Param(Param),
+    /// The position of the nucleus, % of the axis length (its inputs are
+    /// the gradients there).
+    Position,
+}
 
 /// The isolated nucleus at one point and time as a family in one model
-/// parameter: `F(u, s)` is the rate law of the model with the parameter set to s.
+/// parameter: `F(u, s)` is the rate law of the model with the parameter set
+/// to s (and, where a second parameter is given, that one at `q`).
 pub struct ParameterFamily {
     model: Model,
     param: Param,
+    second: Option<Second>,
+    /// The second parameter's value for [`Family`]'s view.
+    q: f64,
     point_um: (f64, f64),
     t_min: f64,
     genes: usize,
@@ -42,6 +57,8 @@ impl ParameterFamily {
         let grid = model.grid;
         ParameterFamily {
             param,
+            second: None,
+            q: 0.0,
             point_um: (x_pct / 100.0 * grid.length_um(), grid.height_um() / 2.0),
             t_min,
             genes: model.genes.len(),
@@ -51,30 +68,79 @@ impl ParameterFamily {
         }
     }
 
-    /// The model with the parameter at `s`.
-    pub fn model_at(&self, s: f64) -> Model {
+    /// The same family with a second parameter, held at `q` in the
+    /// one-parameter view ([`Family`]) and free in [`Self::rates2`].
+    pub fn with_second(mut self, second: Second, q: f64) -> ParameterFamily {
+        self.second = Some(second);
+        self.q = q;
+        self.built.get_mut().unwrap_or_else(|e| e.into_inner()).clear();
+        self
+    }
+
+    /// The same family with the second parameter held at `q`.
+    pub fn held_at(&self, q: f64) -> ParameterFamily {
+        let mut f = ParameterFamily::new(&self.model, self.param, 0.0, self.t_min);
+        f.point_um = self.point_um;
+        match self.second {
+            Some(second) => f.with_second(second, q),
+            None => f,
+        }
+    }
+
+    /// The model with the parameter at `s` (and the second at `q`).
+    pub fn model_at2(&self, s: f64, q: f64) -> Model {
         let mut m = self.model.clone();
         if let Some(v) = m.param_mut(self.param) {
             *v = s;
         }
+        if let Some(Second::Param(p2)) = self.second
+            && let Some(v) = m.param_mut(p2)
+        {
+            *v = q;
+        }
         m
     }
 
-    fn at(&self, s: f64) -> (Arc<dyn Kinetics>, Arc<Vec<f64>>) {
-        let key = s.to_bits();
+    /// The model with the parameter at `s` (the second, if any, at its held value).
+    pub fn model_at(&self, s: f64) -> Model {
+        self.model_at2(s, self.q)
+    }
+
+    fn at(&self, s: f64, q: f64) -> (Arc<dyn Kinetics>, Arc<Vec<f64>>) {
+        let key = (s.to_bits(), q.to_bits());
         let mut built = self.built.lock().unwrap_or_else(|e| e.into_inner());
         if let Some((_, k, m)) = built.iter().find(|(b, _, _)| *b == key) {
             return (k.clone(), m.clone());
         }
-        let model = self.model_at(s);
+        let model = self.model_at2(s, q);
         let kinetics: Arc<dyn Kinetics> = Arc::from(crate::kinetics::build(&model));
-        let inputs =
-            Arc::new(point_inputs(&model.gradients, &model.grid, self.point_um, self.t_min, self.neighbour_genes));
+        let point = match self.second {
+            Some(Second::Position) => (q / 100.0 * model.grid.length_um(), self.point_um.1),
+            _ => self.point_um,
+        };
+        let inputs = Arc::new(point_inputs(&model.gradients, &model.grid, point, self.t_min, self.neighbour_genes));
         if built.len() >= 8 {
             built.remove(0);
         }
         built.push((key, kinetics.clone(), inputs.clone()));
         (kinetics, inputs)
+    }
+
+    /// The parameter continued.
+    pub fn param(&self) -> Param {
+        self.param
+    }
+
+    /// F(u, s, q) with the second parameter free.
+    pub fn rates2(&self, u: &[f64], s: f64, q: f64, out: &mut [f64]) {
+        let (k, m) = self.at(s, q);
+        k.rates_one(u, &m, out);
+    }
+
+    /// ∂F/∂u at (u, s, q), row-major.
+    pub fn jacobian2(&self, u: &[f64], s: f64, q: f64, jac: &mut [f64]) {
+        let (k, m) = self.at(s, q);
+        k.jacobian(u, &m, jac);
     }
 }
 
@@ -83,12 +149,10 @@ impl Family for ParameterFamily {
         self.genes
     }
     fn rates(&self, u: &[f64], s: f64, out: &mut [f64]) {
-        let (k, m) = self.at(s);
-        k.rates_one(u, &m, out);
+        self.rates2(u, s, self.q, out);
     }
     fn jacobian(&self, u: &[f64], s: f64, jac: &mut [f64]) {
-        let (k, m) = self.at(s);
-        k.jacobian(u, &m, jac);
+        self.jacobian2(u, s, self.q, jac);
     }
 }
 
@@ -236,8 +300,10 @@ pub enum DiagramError {
     )]
     Diffusion(String),
     /// A bad range.
-    #[error("the range {from} to {to} of `{name}` {why}; give --from < --to{hint}")]
+    #[error("the range {from} to {to} of `{name}` {why}; give {options}{hint}")]
     Range {
+        /// The options that give the range, e.g. `--from < --to`.
+        options: &'static str,
         /// Parameter.
         name: String,
         /// Start.
@@ -268,36 +334,51 @@ fn lower_bound(p: Param) -> Option<bool> {
 /// Parameter values at which fixed points are searched for from scratch.
 const SAMPLES: usize = 41;
 
+/// Checks that `param` can be continued over `from`..`to` (given by the
+/// options `options`, e.g. `--from < --to`); its name as the model writes it.
+///
+/// # Errors
+/// [`DiagramError`] when the parameter does not act on a nucleus or the range is bad.
+pub fn check_parameter(
+    model: &Model,
+    param: Param,
+    (from, to): (f64, f64),
+    options: &'static str,
+) -> Result<String, DiagramError> {
+    let name = model.param_name(param);
+    if let Param::Gene(_, GeneParam::Diffusion) = param {
+        return Err(DiagramError::Diffusion(name));
+    }
+    if let Some(why) = model.unread(param) {
+        return Err(DiagramError::Unread(why));
+    }
+    let range_error = |why, hint| DiagramError::Range { options, name: name.clone(), from, to, why, hint };
+    if !(from.is_finite() && to.is_finite() && from < to) {
+        return Err(range_error("is empty or not finite", ""));
+    }
+    match lower_bound(param) {
+        Some(true) if from <= 0.0 => Err(range_error("reaches 0 or below", " (this parameter must stay above 0)")),
+        Some(false) if from < 0.0 => Err(range_error("goes below 0", " (this parameter must stay at or above 0)")),
+        _ => Ok(name),
+    }
+}
+
 /// Draws the bifurcation diagram of `model`'s isolated nucleus in `req.param`.
 ///
 /// # Errors
 /// [`DiagramError`] when the parameter does not act on a nucleus or the range is bad.
 pub fn diagram(model: &Model, req: &DiagramRequest) -> Result<Diagram, DiagramError> {
-    let name = model.param_name(req.param);
-    if let Param::Gene(_, GeneParam::Diffusion) = req.param {
-        return Err(DiagramError::Diffusion(name));
-    }
-    if let Some(why) = model.unread(req.param) {
-        return Err(DiagramError::Unread(why));
-    }
-    let range_error = |why, hint| DiagramError::Range { name: name.clone(), from: req.from, to: req.to, why, hint };
-    if !(req.from.is_finite() && req.to.is_finite() && req.from < req.to) {
-        return Err(range_error("is empty or not finite", ""));
-    }
-    match lower_bound(req.param) {
-        Some(true) if req.from <= 0.0 => {
-            return Err(range_error("reaches 0 or below", " (this parameter must stay above 0)"));
-        }
-        Some(false) if req.from < 0.0 => {
-            return Err(range_error("goes below 0", " (this parameter must stay at or above 0)"));
-        }
-        _ => {}
-    }
+    let name = check_parameter(model, req.param, (req.from, req.to), "--from < --to")?;
     let fam = ParameterFamily::new(model, req.param, req.x_pct, req.t_min);
+    Ok(diagram_of(&fam, model.genes.len(), name, req))
+}
+
+/// The diagram of a family (checked), `genes` genes.
+pub(crate) fn diagram_of(fam: &ParameterFamily, genes: usize, name: String, req: &DiagramRequest) -> Diagram {
     let samples: Vec<f64> =
         (0..SAMPLES).map(|k| req.from + (req.to - req.from) * k as f64 / (SAMPLES - 1) as f64).collect();
     // The search box: 1.5 times each gene's capacity p/d at any sampled value (at least 1 a.u.).
-    let hi: Vec<f64> = (0..model.genes.len())
+    let hi: Vec<f64> = (0..genes)
         .map(|g| {
             let cap = samples
                 .iter()
@@ -311,14 +392,14 @@ pub fn diagram(model: &Model, req: &DiagramRequest) -> Result<Diagram, DiagramEr
         })
         .collect();
     let starts = box_starts(&hi, 40);
-    let tol = 1e-10 * model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
+    let tol = 1e-10 * fam.model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
     let mut previous: Vec<Vec<f64>> = Vec::new();
     let seeds: Vec<(f64, Vec<Vec<f64>>)> = samples
         .iter()
         .map(|&s| {
             let mut from_here = starts.clone();
             from_here.extend(previous.iter().cloned());
-            let points: Vec<Vec<f64>> = find_fixed_points(&AtParameter { family: &fam, s }, &from_here, tol, true)
+            let points: Vec<Vec<f64>> = find_fixed_points(&AtParameter { family: fam, s }, &from_here, tol, true)
                 .into_iter()
                 .map(|p| p.x)
                 .collect();
@@ -329,12 +410,12 @@ pub fn diagram(model: &Model, req: &DiagramRequest) -> Result<Diagram, DiagramEr
     let scale = hi.iter().copied().fold(1e-12, f64::max);
     let ds_max = 0.01 * (req.to - req.from).max(scale);
     let range = (req.from, req.to);
-    let mut branches = trace_through(&fam, &seeds, range, ds_max, scale);
+    let mut branches = trace_through(fam, &seeds, range, ds_max, scale);
     let mut switched_from: Vec<Option<usize>> = vec![None; branches.len()];
     for k in 0..branches.len() {
         for c in branches[k].crossings.clone() {
             for sign in [-1.0, 1.0] {
-                let Some(b) = switch_branch(&fam, &c, sign, range, ds_max, 20_000) else { continue };
+                let Some(b) = switch_branch(fam, &c, sign, range, ds_max, 20_000) else { continue };
                 // Already traced (the other branch of a transcritical point
                 // exists at sampled values): keep the first.
                 if b.points.len() < 3 {
@@ -349,5 +430,5 @@ pub fn diagram(model: &Model, req: &DiagramRequest) -> Result<Diagram, DiagramEr
             }
         }
     }
-    Ok(Diagram { parameter: name, request: *req, branches, switched_from })
+    Diagram { parameter: name, request: *req, branches, switched_from }
 }

@@ -12,6 +12,7 @@ pub mod bifurcation;
 pub mod continuation;
 pub mod fixed;
 pub mod flow;
+pub mod fold_curves;
 pub mod landscape;
 pub mod plane;
 pub mod portrait;
@@ -19,11 +20,14 @@ pub mod portrait;
 pub mod system;
 
 pub use basins::{BasinAnalysis, BasinOptions, Commitment, NucleusBasin, analyse};
-pub use bifurcation::{Diagram, DiagramError, DiagramRequest, ParameterFamily, Special, SpecialPoint, diagram};
+pub use bifurcation::{
+    Diagram, DiagramError, DiagramRequest, ParameterFamily, Second, Special, SpecialPoint, check_parameter, diagram,
+};
 pub use continuation::{Branch, BranchPoint, Crossing, Fold, Hopf, continue_branch};
 
 pub use fixed::{FixedPoint, Kind, box_starts, find_fixed_points};
 pub use flow::{Fate, HORIZON_GROWTH, fate, fate_with};
+pub use fold_curves::{FoldCurve, FoldCurvePoint, FoldCurveRequest, fold_curves};
 pub use landscape::{Landscape, PositionFamily, landscape};
 pub use portrait::{PortraitData, portrait_data};
 

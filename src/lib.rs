@@ -72,7 +72,7 @@ pub use outputs::{
     SCREEN_REPLICATES, write_screen_files, write_screen_replicates, write_sensitivity_files, write_sweep,
     write_sweep_files,
 };
-pub use outputs::{SHIFTS_OVER_TIME, write_bifurcation, write_shifts_over_time};
+pub use outputs::{SHIFTS_OVER_TIME, write_bifurcation, write_fold_curves, write_shifts_over_time};
 pub use run_folder::{Summary, write_run};
 
 use std::time::Instant;

@@ -652,3 +652,24 @@ pub fn write_replicates(
     }
     Ok(ReplicateReport { replicates: all, shares, step, shifts, notes })
 }
+
+/// Writes `fold_curves.csv`, `fold_cusps.csv` and `fold_curves.png` into `dir`.
+///
+/// # Errors
+/// [`WriteError`] if a file cannot be written.
+pub fn write_fold_curves(
+    plane: &render::FoldPlane,
+    genes: &[String],
+    style: &render::Style,
+    dir: &Path,
+) -> Result<(), WriteError> {
+    let names = (plane.p.0, plane.q.0);
+    export::write_atomic(&dir.join("fold_curves.csv"), |w| {
+        export::write_fold_curves_to(plane.curves, names, genes, false, w)
+    })?;
+    export::write_atomic(&dir.join("fold_cusps.csv"), |w| {
+        export::write_fold_curves_to(plane.curves, names, genes, true, w)
+    })?;
+    write_picture(&dir.join("fold_curves.png"), &render::fold_curves_picture(plane, style), style.svg)?;
+    Ok(())
+}

@@ -87,3 +87,48 @@ fn fold_curves_along_the_axis_find_where_the_row_is_bistable() {
     assert!((cusps[0].p - cp).abs() < 1e-6, "cusp at p = {} against {cp}", cusps[0].p);
     assert!((cusps[0].q - want_pct).abs() < 1e-5, "cusp at {} % against {want_pct} %", cusps[0].q);
 }
+
+/// The verb end to end: `bifurcation --second` writes the fold curves and
+/// the cusp (read back against SciPy), the picture, and refuses a bad
+/// second range or the same parameter twice.
+#[test]
+fn the_verb_writes_fold_curves_and_cusps() {
+    let dir = crate::common::temp_dir("fold-curves-verb");
+    let model = dir.join("switch.toml");
+    std::fs::write(
+        &model,
+        "title = \"switch\"\n[tissue]\nnuclei = [2]\nspacing_um = 1.0\n[clock]\nuntil_min = 1.0\ntolerance = 1e-6\n\
+         snapshot_every_min = 1.0\n[circuit]\nkinetics = \"rates\"\nparameters = { b = 0.3, p = 2.0 }\n\
+         [[gene]]\nname = \"umber\"\nrate = \"b + p * umber^3 / (1 + umber^3) - umber\"\nproduction = 3.0\ndecay = 1.0\n",
+    )
+    .unwrap();
+    let out = dir.join("out");
+    let m = model.to_str().unwrap();
+    let base = ["bifurcation", m, "--parameter", "p", "--from", "1", "--to", "3.2", "--second", "b"];
+    let o = crate::common::anlage(
+        &[&base[..], &["--second-from", "0", "--second-to", "0.6", "-o", out.to_str().unwrap(), "--json"]].concat(),
+    );
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let doc: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(doc["model_prediction"], true);
+    let cusps = std::fs::read_to_string(out.join("fold_cusps.csv")).unwrap();
+    let mut rows = cusps.lines();
+    assert_eq!(rows.next().unwrap(), "curve,parameter,value,second,second_value,umber");
+    let cells: Vec<f64> = rows.next().unwrap().split(',').filter_map(|c| c.parse().ok()).collect();
+    let r = reference();
+    assert!((cells[1] - r["cusp"]["p"].as_f64().unwrap()).abs() < 1e-6, "{cells:?}");
+    assert!((cells[2] - r["cusp"]["b"].as_f64().unwrap()).abs() < 1e-6, "{cells:?}");
+    // Every point inside the box.
+    let curves = std::fs::read_to_string(out.join("fold_curves.csv")).unwrap();
+    for line in curves.lines().skip(1) {
+        let c: Vec<f64> = line.split(',').filter_map(|c| c.parse().ok()).collect();
+        assert!((1.0..=3.2).contains(&c[1]) && (0.0..=0.6).contains(&c[2]), "{line}");
+    }
+    assert!(std::fs::metadata(out.join("fold_curves.png")).unwrap().len() > 1000);
+    let o = crate::common::anlage(&[&base[..], &["--second-from", "0.6", "--second-to", "0"]].concat());
+    assert!(!o.status.success() && String::from_utf8_lossy(&o.stderr).contains("--second-from < --second-to"));
+    let mut same = base.to_vec();
+    same[9] = "p";
+    let o = crate::common::anlage(&[&same[..], &["--second-from", "1", "--second-to", "2"]].concat());
+    assert!(!o.status.success() && String::from_utf8_lossy(&o.stderr).contains("same parameter"));
+}

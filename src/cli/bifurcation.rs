@@ -36,6 +36,17 @@ pub struct BifurcationArgs {
     /// Gene whose level the picture shows (default: the first).
     #[arg(long)]
     pub gene: Option<String>,
+    /// A second parameter (a model parameter, or `position` for the place
+    /// along the axis): trace the fold curves in the plane of the two instead
+    /// of the one-parameter diagram.
+    #[arg(long, requires_all = ["second_from", "second_to"])]
+    pub second: Option<String>,
+    /// Start of the second parameter's range (% of the axis for `position`).
+    #[arg(long, allow_hyphen_values = true)]
+    pub second_from: Option<f64>,
+    /// End of the second parameter's range.
+    #[arg(long, allow_hyphen_values = true)]
+    pub second_to: Option<f64>,
     /// Output folder (default: `<model name>_bifurcation` next to the model file).
     #[arg(short, long)]
     pub out: Option<PathBuf>,
@@ -89,6 +100,10 @@ pub fn bifurcation(args: &BifurcationArgs) -> anyhow::Result<()> {
     require_png(&picture, "")?;
     let colors: Vec<[u8; 3]> = model.genes.iter().map(|g| g.color).collect();
     let style = Style::for_genes(&names, &colors, &model.title, &args.canvas.options())?;
+    if let Some(second) = &args.second {
+        let range = (args.second_from.unwrap_or(f64::NAN), args.second_to.unwrap_or(f64::NAN));
+        return fold_plane(args, &model, param, second, range, t_min, &dir, &style);
+    }
     let request = DiagramRequest { param, from: args.from, to: args.to, x_pct: args.at, t_min };
     let diagram = anlage::phase::diagram(&model, &request)?;
     std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
@@ -98,6 +113,103 @@ pub fn bifurcation(args: &BifurcationArgs) -> anyhow::Result<()> {
         args.json,
         || super::json::bifurcation(&diagram, &names, &dir),
         || report(&diagram, &names, &dir),
+    );
+    Ok(())
+}
+
+/// `anlage bifurcation --second`: fold curves in two parameters.
+#[allow(clippy::too_many_arguments)]
+fn fold_plane(
+    args: &BifurcationArgs,
+    model: &anlage::model::Model,
+    param: anlage::model::Param,
+    second: &str,
+    (q0, q1): (f64, f64),
+    t_min: f64,
+    dir: &std::path::Path,
+    style: &anlage::render::Style,
+) -> anyhow::Result<()> {
+    use anlage::phase::{FoldCurveRequest, ParameterFamily, Second, check_parameter};
+    let first = check_parameter(model, param, (args.from, args.to), "--from < --to")?;
+    let (which, second_name) = if second.eq_ignore_ascii_case("position") {
+        if !(0.0 <= q0 && q0 < q1 && q1 <= 100.0) {
+            return Err(StyleError::OutOfRange {
+                option: "--second-from/--second-to".into(),
+                value: format!("{q0} to {q1}"),
+                fix: "give 0 <= --second-from < --second-to <= 100 (% of the axis length)".into(),
+            }
+            .into());
+        }
+        (Second::Position, "position_pct".to_string())
+    } else {
+        let p2 = model.parse_param(second).map_err(|why| {
+            anyhow::anyhow!("--second: {why}; name a parameter as GENE.production, FROM->TO.threshold, GRADIENT.peak, a constant, or `position`")
+        })?;
+        if p2 == param {
+            anyhow::bail!("--second names the same parameter as --parameter; give another, or `position`");
+        }
+        (Second::Param(p2), check_parameter(model, p2, (q0, q1), "--second-from < --second-to")?)
+    };
+    let fam = ParameterFamily::new(model, param, args.at, t_min).with_second(which, q0);
+    let genes = model.genes.len();
+    let req = FoldCurveRequest { p: (args.from, args.to), q: (q0, q1), seed_lines: 11 };
+    let curves = anlage::phase::fold_curves(&fam, genes, &first, &req);
+    let grid = (96, 64);
+    let counts = anlage::phase::stable_counts(&fam, genes, &req, grid);
+    let place = match which {
+        Second::Position => String::new(),
+        Second::Param(_) => format!(" at {} %", args.at),
+    };
+    let heading = format!("Fold curves in {first} and {second_name} (isolated nucleus{place}, t = {t_min} min)");
+    let plane = anlage::render::FoldPlane {
+        curves: &curves,
+        counts: &counts,
+        grid,
+        p: (&first, req.p),
+        q: (&second_name, req.q),
+        heading: &heading,
+    };
+    let names: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
+    std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
+    anlage::write_fold_curves(&plane, &names, style, dir).with_context(|| format!("writing into {}", dir.display()))?;
+    let bistable = counts.iter().filter(|&&n| n >= 2).count();
+    super::json::print_either(
+        args.json,
+        || {
+            let cusps: Vec<serde_json::Value> = curves
+                .iter()
+                .flat_map(|c| c.cusps.iter())
+                .map(|c| serde_json::json!({ "value": c.p, "second_value": c.q, "levels": c.x }))
+                .collect();
+            serde_json::json!({
+                "kind": "fold_curves",
+                "outputs": dir,
+                "model_prediction": true,
+                "isolated_nucleus": true,
+                "parameter": first,
+                "second": second_name,
+                "curves": curves.len(),
+                "cusps": cusps,
+                "bistable_share": bistable as f64 / counts.len() as f64,
+            })
+        },
+        || {
+            let mut s = String::new();
+            let _ = writeln!(s, "{heading} (model prediction)");
+            let _ = writeln!(s, "  {} fold curve{}", curves.len(), if curves.len() == 1 { "" } else { "s" });
+            for c in curves.iter().flat_map(|c| c.cusps.iter()) {
+                let _ = writeln!(s, "  cusp          {first} = {:.9}, {second_name} = {:.9}", c.p, c.q);
+            }
+            let _ = writeln!(
+                s,
+                "  two or more stable states at {:.1} % of the plane (checked point by point on a {} x {} grid)",
+                100.0 * bistable as f64 / counts.len() as f64,
+                grid.0,
+                grid.1
+            );
+            let _ = writeln!(s, "wrote fold_curves.csv, fold_cusps.csv and fold_curves.png in {}", dir.display());
+            s
+        },
     );
     Ok(())
 }

@@ -90,3 +90,45 @@ pub fn write_special_points_to(d: &Diagram, genes: &[String], w: impl Write) -> 
     }
     table.finish()
 }
+
+/// A point of a fold curve or a cusp: the rest of a row of
+/// `fold_curves.csv` or `fold_cusps.csv`, before one level column per gene (a.u.).
+#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
+pub struct FoldRow<'a> {
+    /// Curve number, from 0.
+    pub curve: usize,
+    /// First parameter, as the model names it.
+    pub parameter: &'a str,
+    /// Its value.
+    #[serde(serialize_with = "shortest")]
+    pub value: f64,
+    /// Second parameter (`position_pct` for the position along the axis).
+    pub second: &'a str,
+    /// Its value.
+    #[serde(serialize_with = "shortest")]
+    pub second_value: f64,
+}
+
+/// `fold_curves.csv` (every point of every fold curve) or, with `cusps`,
+/// `fold_cusps.csv`.
+///
+/// # Errors
+/// The writer's.
+pub fn write_fold_curves_to(
+    curves: &[crate::phase::FoldCurve],
+    (first, second): (&str, &str),
+    genes: &[String],
+    cusps: bool,
+    w: impl Write,
+) -> std::io::Result<()> {
+    let mut header = header_of::<FoldRow>()?;
+    header.extend(genes.iter().cloned());
+    let mut table = TableWriter::new(w, &header)?;
+    for (k, c) in curves.iter().enumerate() {
+        for p in if cusps { &c.cusps } else { &c.points } {
+            let row = FoldRow { curve: k, parameter: first, value: p.p, second, second_value: p.q };
+            table.row((row, Cells(&p.x)))?;
+        }
+    }
+    table.finish()
+}

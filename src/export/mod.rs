@@ -17,7 +17,7 @@ use std::fs::File;
 use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
 
-pub use bifurcation_tables::{write_branches_to, write_special_points_to};
+pub use bifurcation_tables::{write_branches_to, write_fold_curves_to, write_special_points_to};
 pub use compare_tables::{write_comparison, write_comparison_to, write_measured, write_measured_profiles};
 pub use fit_tables::{
     CombinationRow, CorrelationRow, FitRow, ProfilePointRow, ResidualRow, StartRow, TraceRow, write_combinations,

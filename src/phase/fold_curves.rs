@@ -256,7 +256,7 @@ fn trace_one(sys: &mut FoldSystem, y0: &[f64], dir: f64, req: &FoldCurveRequest)
             for (k, (lo, hi)) in [(n, req.p), (n + 1, req.q)] {
                 for edge in [lo, hi] {
                     let f = (edge - y[k]) / (y1[k] - y[k]);
-                    if f > 0.0 && f < w {
+                    if f >= 0.0 && f < w {
                         (w, side) = (f, k);
                     }
                 }
@@ -266,6 +266,10 @@ fn trace_one(sys: &mut FoldSystem, y0: &[f64], dir: f64, req: &FoldCurveRequest)
             let zp = &z + (&z1 - &z) * w;
             let mut normal = DVector::zeros(n + 2);
             normal[side] = 1.0;
+            // (Nothing to add when the last point is on the edge already.)
+            if w <= 1e-12 {
+                break;
+            }
             if let Some((ze, _)) = arclength::correct(&*sys, &zp, &normal) {
                 out.points.push(point(&sys.unscale(ze.as_slice()), n));
             }
@@ -347,4 +351,30 @@ pub fn fold_curves(fam: &ParameterFamily, genes: usize, name: &str, req: &FoldCu
         }
     }
     curves
+}
+
+/// The number of stable fixed points of the nucleus at the centres of an
+/// `nx` × `ny` grid over the box (row by row from the lowest q): the
+/// bistable regions the fold curves should bound, found independently by
+/// Newton from a box of starts at each point.
+pub fn stable_counts(fam: &ParameterFamily, genes: usize, req: &FoldCurveRequest, (nx, ny): (usize, usize)) -> Vec<u8> {
+    use rayon::prelude::*;
+    (0..nx * ny)
+        .into_par_iter()
+        .map(|k| {
+            let (i, j) = (k % nx, k / nx);
+            let p = req.p.0 + (req.p.1 - req.p.0) * (i as f64 + 0.5) / nx as f64;
+            let q = req.q.0 + (req.q.1 - req.q.0) * (j as f64 + 0.5) / ny as f64;
+            let held = fam.held_at(q);
+            let model = held.model_at(p);
+            let hi: Vec<f64> = model.genes[..genes]
+                .iter()
+                .map(|g| (1.5 * if g.decay > 0.0 { g.production / g.decay } else { 0.0 }).max(1.0))
+                .collect();
+            let tol = 1e-10 * model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
+            let sys = super::system::AtParameter { family: &held, s: p };
+            let found = super::fixed::find_fixed_points(&sys, &super::fixed::box_starts(&hi, 12), tol, true);
+            found.iter().filter(|f| f.kind.is_stable()).count().min(255) as u8
+        })
+        .collect()
 }

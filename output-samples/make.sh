@@ -25,6 +25,10 @@ for model in patterns/*.toml; do
     "$bin" sweep "$model" --axis amber.production=0.2:5:31:log --axis cobalt.production=0.2:5:31:log --width 560 -o "$out/sweep" > /dev/null
     "$bin" portrait "$out" --nucleus 40 --genes amber,cobalt --time 8 --width 560 > /dev/null
     "$bin" figure "$out" --svg --width 1200 > /dev/null
+    # Where along the axis the isolated nucleus is bistable, as amber's production changes.
+    "$bin" bifurcation "$model" --parameter amber.production --from 0.2 --to 3 --width 560 -o "$out/bifurcation" > /dev/null
+    "$bin" bifurcation "$model" --parameter amber.production --from 0.2 --to 3 --second position \
+      --second-from 0 --second-to 100 --width 560 -o "$out/bifurcation" > /dev/null
     # The ribbon on white, as for a printed figure.
     "$bin" render "$out" --kind kymograph --light --width 560 -o output-samples/ribbon-light > /dev/null
   fi

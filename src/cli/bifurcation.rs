@@ -160,7 +160,8 @@ fn fold_plane(
         Second::Position => String::new(),
         Second::Param(_) => format!(" at {} %", args.at),
     };
-    let heading = format!("Fold curves in {first} and {second_name} (isolated nucleus{place}, t = {t_min} min)");
+    let shown = if which == Second::Position { "position" } else { second_name.as_str() };
+    let heading = format!("Fold curves in {first} and {shown} (isolated nucleus{place}, t = {t_min} min)");
     let plane = anlage::render::FoldPlane {
         curves: &curves,
         counts: &counts,

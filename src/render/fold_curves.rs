@@ -34,8 +34,8 @@ pub fn fold_curves_picture(f: &FoldPlane, style: &Style) -> Canvas {
     let width = style.width.max(320);
     let (left, right, top, plot_h) = (64.0, 24.0, 76.0, 320.0);
     let key = [
-        "shade: stable states, found point by point (grey none, plain one, tint two, deeper tint three or more)",
-        "lines: fold curves   ring: cusp   (isolated nucleus, model prediction)",
+        "shade: stable states found point by point: grey 0, plain 1, tint 2, deeper 3+",
+        "lines: fold curves   ring: cusp   (isolated nucleus)",
     ];
     let bottom = 64.0 + 16.0 * key.len() as f32;
     let mut c = style.canvas(width, (top + plot_h + bottom) as u32);

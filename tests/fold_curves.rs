@@ -3,7 +3,7 @@
 //! and maximal rate p, du/dt = b + p·u³/(1 + u³) − u, has two fold curves
 //! in (p, b) that meet at a cusp; the cusp is where F = F_u = F_uu = 0.
 
-use anlage::phase::{FoldCurveRequest, ParameterFamily, Second, fold_curves};
+use anlage::phase::{FoldCurveRequest, ParameterFamily, Second, fold_curves, seed_lines, stable_counts};
 
 use crate::common::parse;
 
@@ -28,7 +28,8 @@ fn the_fold_curves_of_the_autoregulation_switch_meet_at_the_cusp() {
     let (p, b) = (model.parse_param("p").unwrap(), model.parse_param("b").unwrap());
     let fam = ParameterFamily::new(&model, p, 50.0, 0.0).with_second(Second::Param(b), 0.3);
     let req = FoldCurveRequest { p: (1.0, 3.2), q: (0.0, 0.6), seed_lines: 7 };
-    let curves = fold_curves(&fam, 1, "p", &req);
+    let seeds = seed_lines(&fam, 1, "p", &req);
+    let curves = fold_curves(&fam, &seeds, &req);
     let cusps: Vec<_> = curves.iter().flat_map(|c| c.cusps.iter()).collect();
     assert_eq!(cusps.len(), 1, "{cusps:?}");
     let want = &r["cusp"];
@@ -78,7 +79,7 @@ fn fold_curves_along_the_axis_find_where_the_row_is_bistable() {
     let p = model.parse_param("p").unwrap();
     let fam = ParameterFamily::new(&model, p, 50.0, 0.0).with_second(Second::Position, 50.0);
     let req = FoldCurveRequest { p: (1.0, 3.2), q: (0.0, 100.0), seed_lines: 9 };
-    let curves = fold_curves(&fam, 1, "p", &req);
+    let curves = fold_curves(&fam, &seed_lines(&fam, 1, "p", &req), &req);
     let cusps: Vec<_> = curves.iter().flat_map(|c| c.cusps.iter()).collect();
     assert_eq!(cusps.len(), 1, "{cusps:?}");
     let (cp, cb) = (r["cusp"]["p"].as_f64().unwrap(), r["cusp"]["b"].as_f64().unwrap());
@@ -131,4 +132,38 @@ fn the_verb_writes_fold_curves_and_cusps() {
     same[9] = "p";
     let o = crate::common::anlage(&[&same[..], &["--second-from", "1", "--second-to", "2"]].concat());
     assert!(!o.status.success() && String::from_utf8_lossy(&o.stderr).contains("same parameter"));
+}
+
+/// The count of stable states behind the picture does not depend on a
+/// capacity the rate expression ignores (production 0.2 here, far below
+/// the high state near 2.5): every cell of the grid against a brute-force
+/// count of the downward zero crossings of F(u) on 0 ≤ u ≤ 10 (a
+/// fine scan, no Newton, common practice).
+#[test]
+fn stable_counts_find_states_above_a_capacity_the_rate_law_ignores() {
+    let mut model = switch("b + p * umber^3 / (1 + umber^3) - umber");
+    model.genes[0].production = 0.2;
+    let (p, b) = (model.parse_param("p").unwrap(), model.parse_param("b").unwrap());
+    let fam = ParameterFamily::new(&model, p, 50.0, 0.0).with_second(Second::Param(b), 0.3);
+    let req = FoldCurveRequest { p: (0.5, 4.0), q: (0.0, 1.0), seed_lines: 11 };
+    let grid = (24, 16);
+    let counts = stable_counts(&fam, &seed_lines(&fam, 1, "p", &req), &req, grid);
+    let mut bistable = 0;
+    for (k, &n) in counts.iter().enumerate() {
+        let (i, j) = (k % grid.0, k / grid.0);
+        let pv = 0.5 + 3.5 * (i as f64 + 0.5) / grid.0 as f64;
+        let bv = (j as f64 + 0.5) / grid.1 as f64;
+        let f = |u: f64| bv + pv * u.powi(3) / (1.0 + u.powi(3)) - u;
+        let mut want = 0;
+        let steps = 20_000;
+        for s in 0..steps {
+            let (u0, u1) = (10.0 * s as f64 / steps as f64, 10.0 * (s + 1) as f64 / steps as f64);
+            if f(u0) > 0.0 && f(u1) <= 0.0 {
+                want += 1;
+            }
+        }
+        assert_eq!(n as usize, want, "p = {pv}, b = {bv}");
+        bistable += usize::from(want >= 2);
+    }
+    assert!(bistable > 20, "only {bistable} bistable cells: the test would not see a miss");
 }

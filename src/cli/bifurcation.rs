@@ -42,10 +42,10 @@ pub struct BifurcationArgs {
     #[arg(long, requires_all = ["second_from", "second_to"])]
     pub second: Option<String>,
     /// Start of the second parameter's range (% of the axis for `position`).
-    #[arg(long, allow_hyphen_values = true)]
+    #[arg(long, allow_hyphen_values = true, requires = "second")]
     pub second_from: Option<f64>,
     /// End of the second parameter's range.
-    #[arg(long, allow_hyphen_values = true)]
+    #[arg(long, allow_hyphen_values = true, requires = "second")]
     pub second_to: Option<f64>,
     /// Output folder (default: `<model name>_bifurcation` next to the model file).
     #[arg(short, long)]
@@ -153,9 +153,10 @@ fn fold_plane(
     let fam = ParameterFamily::new(model, param, args.at, t_min).with_second(which, q0);
     let genes = model.genes.len();
     let req = FoldCurveRequest { p: (args.from, args.to), q: (q0, q1), seed_lines: 11 };
-    let curves = anlage::phase::fold_curves(&fam, genes, &first, &req);
+    let seeds = anlage::phase::seed_lines(&fam, genes, &first, &req);
+    let curves = anlage::phase::fold_curves(&fam, &seeds, &req);
     let grid = (96, 64);
-    let counts = anlage::phase::stable_counts(&fam, genes, &req, grid);
+    let counts = anlage::phase::stable_counts(&fam, &seeds, &req, grid);
     let place = match which {
         Second::Position => String::new(),
         Second::Param(_) => format!(" at {} %", args.at),
@@ -199,7 +200,7 @@ fn fold_plane(
             let _ = writeln!(s, "{heading} (model prediction)");
             let _ = writeln!(s, "  {} fold curve{}", curves.len(), if curves.len() == 1 { "" } else { "s" });
             for c in curves.iter().flat_map(|c| c.cusps.iter()) {
-                let _ = writeln!(s, "  cusp          {first} = {:.9}, {second_name} = {:.9}", c.p, c.q);
+                let _ = writeln!(s, "  cusp          {first} = {}, {second_name} = {}", c.p, c.q);
             }
             let _ = writeln!(
                 s,

@@ -28,7 +28,8 @@
 use nalgebra::{DMatrix, DVector};
 
 use super::arclength::{self, Curve};
-use super::bifurcation::{DiagramRequest, ParameterFamily, Special, diagram_of};
+use super::bifurcation::{Diagram, DiagramRequest, ParameterFamily, Special, diagram_of};
+use super::system::Family;
 
 /// A point of a fold curve.
 #[derive(Debug, Clone, PartialEq)]
@@ -289,14 +290,22 @@ fn trace_one(sys: &mut FoldSystem, y0: &[f64], dir: f64, req: &FoldCurveRequest)
     out
 }
 
-/// Every fold curve of `fam` (its second parameter set) in the box `req`.
-pub fn fold_curves(fam: &ParameterFamily, genes: usize, name: &str, req: &FoldCurveRequest) -> Vec<FoldCurve> {
-    let n = genes;
-    let lines = req.seed_lines.max(2);
-    let mut seeds: Vec<Vec<f64>> = Vec::new();
-    let mut level_scale = vec![1e-12f64; n];
-    for k in 0..lines {
-        let q = req.q.0 + (req.q.1 - req.q.0) * k as f64 / (lines - 1) as f64;
+/// One-parameter diagrams in p at evenly spaced values of q: the seeds of
+/// the fold curves and of the point-by-point count of stable states.
+pub struct SeedLines {
+    /// (q, the diagram in p there).
+    pub lines: Vec<(f64, Diagram)>,
+    /// The largest level of each gene on any branch, a.u. (at least 1e-12).
+    pub level_scale: Vec<f64>,
+}
+
+/// Diagrams in p at `req.seed_lines` evenly spaced values of q.
+pub fn seed_lines(fam: &ParameterFamily, genes: usize, name: &str, req: &FoldCurveRequest) -> SeedLines {
+    let count = req.seed_lines.max(2);
+    let mut level_scale = vec![1e-12f64; genes];
+    let mut lines = Vec::with_capacity(count);
+    for k in 0..count {
+        let q = req.q.0 + (req.q.1 - req.q.0) * k as f64 / (count - 1) as f64;
         let held = fam.held_at(q);
         let one = DiagramRequest { param: fam.param(), from: req.p.0, to: req.p.1, x_pct: 0.0, t_min: 0.0 };
         let d = diagram_of(&held, genes, name.to_string(), &one);
@@ -307,16 +316,28 @@ pub fn fold_curves(fam: &ParameterFamily, genes: usize, name: &str, req: &FoldCu
                 }
             }
         }
+        lines.push((q, d));
+    }
+    SeedLines { lines, level_scale }
+}
+
+/// Every fold curve of `fam` (its second parameter set) in the box `req`,
+/// from the folds of the seed lines.
+pub fn fold_curves(fam: &ParameterFamily, seeds: &SeedLines, req: &FoldCurveRequest) -> Vec<FoldCurve> {
+    let n = fam.dim();
+    let level_scale = seeds.level_scale.clone();
+    let mut starts: Vec<Vec<f64>> = Vec::new();
+    for (q, d) in &seeds.lines {
         for f in d.special_points().into_iter().filter(|p| p.kind == Special::Fold) {
             let mut y = f.x.clone();
-            y.extend([f.s, q]);
-            seeds.push(y);
+            y.extend([f.s, *q]);
+            starts.push(y);
         }
     }
     let mut scale = level_scale;
     scale.extend([req.p.1 - req.p.0, req.q.1 - req.q.0]);
     let mut curves: Vec<FoldCurve> = Vec::new();
-    for y0 in seeds {
+    for y0 in starts {
         if on_curves(&curves, &y0, &scale, n) {
             continue;
         }
@@ -355,25 +376,54 @@ pub fn fold_curves(fam: &ParameterFamily, genes: usize, name: &str, req: &FoldCu
 
 /// The number of stable fixed points of the nucleus at the centres of an
 /// `nx` × `ny` grid over the box (row by row from the lowest q): the
-/// bistable regions the fold curves should bound, found independently by
-/// Newton from a box of starts at each point.
-pub fn stable_counts(fam: &ParameterFamily, genes: usize, req: &FoldCurveRequest, (nx, ny): (usize, usize)) -> Vec<u8> {
+/// bistable regions the fold curves should bound, found without them. Each
+/// row gets its own one-parameter diagram in p; at each point Newton starts
+/// from where that diagram's branches cross the point's p (interpolated),
+/// and from a box of starts up to 1.5 times each gene's capacity or its
+/// largest level on any seed diagram, whichever is larger (so that a state
+/// with a narrow basin, or above a capacity a rate expression ignores, is
+/// not missed).
+pub fn stable_counts(
+    fam: &ParameterFamily,
+    seeds: &SeedLines,
+    req: &FoldCurveRequest,
+    (nx, ny): (usize, usize),
+) -> Vec<u8> {
     use rayon::prelude::*;
+    let genes = fam.dim();
+    let q_of = |j: usize| req.q.0 + (req.q.1 - req.q.0) * (j as f64 + 0.5) / ny as f64;
+    let rows: Vec<Diagram> = (0..ny)
+        .into_par_iter()
+        .map(|j| {
+            let one = DiagramRequest { param: fam.param(), from: req.p.0, to: req.p.1, x_pct: 0.0, t_min: 0.0 };
+            diagram_of(&fam.held_at(q_of(j)), genes, String::new(), &one)
+        })
+        .collect();
     (0..nx * ny)
         .into_par_iter()
         .map(|k| {
             let (i, j) = (k % nx, k / nx);
             let p = req.p.0 + (req.p.1 - req.p.0) * (i as f64 + 0.5) / nx as f64;
-            let q = req.q.0 + (req.q.1 - req.q.0) * (j as f64 + 0.5) / ny as f64;
-            let held = fam.held_at(q);
+            let held = fam.held_at(q_of(j));
             let model = held.model_at(p);
             let hi: Vec<f64> = model.genes[..genes]
                 .iter()
-                .map(|g| (1.5 * if g.decay > 0.0 { g.production / g.decay } else { 0.0 }).max(1.0))
+                .zip(&seeds.level_scale)
+                .map(|(g, seen)| (1.5 * (if g.decay > 0.0 { g.production / g.decay } else { 0.0 }).max(*seen)).max(1.0))
                 .collect();
+            let mut starts = super::fixed::box_starts(&hi, 12);
+            for b in &rows[j].branches {
+                for w in b.points.windows(2) {
+                    let (a, c) = (&w[0], &w[1]);
+                    if (a.s - p) * (c.s - p) <= 0.0 && a.s != c.s {
+                        let f = (p - a.s) / (c.s - a.s);
+                        starts.push(a.x.iter().zip(&c.x).map(|(u, v)| u + f * (v - u)).collect());
+                    }
+                }
+            }
             let tol = 1e-10 * model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
             let sys = super::system::AtParameter { family: &held, s: p };
-            let found = super::fixed::find_fixed_points(&sys, &super::fixed::box_starts(&hi, 12), tol, true);
+            let found = super::fixed::find_fixed_points(&sys, &starts, tol, true);
             found.iter().filter(|f| f.kind.is_stable()).count().min(255) as u8
         })
         .collect()

@@ -27,7 +27,7 @@ pub use continuation::{Branch, BranchPoint, Crossing, Fold, Hopf, continue_branc
 
 pub use fixed::{FixedPoint, Kind, box_starts, find_fixed_points};
 pub use flow::{Fate, HORIZON_GROWTH, fate, fate_with};
-pub use fold_curves::{FoldCurve, FoldCurvePoint, FoldCurveRequest, fold_curves, stable_counts};
+pub use fold_curves::{FoldCurve, FoldCurvePoint, FoldCurveRequest, SeedLines, fold_curves, seed_lines, stable_counts};
 pub use landscape::{Landscape, PositionFamily, landscape};
 pub use portrait::{PortraitData, portrait_data};
 

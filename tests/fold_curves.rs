@@ -28,7 +28,7 @@ fn the_fold_curves_of_the_autoregulation_switch_meet_at_the_cusp() {
     let (p, b) = (model.parse_param("p").unwrap(), model.parse_param("b").unwrap());
     let fam = ParameterFamily::new(&model, p, 50.0, 0.0).with_second(Second::Param(b), 0.3);
     let req = FoldCurveRequest { p: (1.0, 3.2), q: (0.0, 0.6), seed_lines: 7 };
-    let seeds = seed_lines(&fam, 1, "p", &req);
+    let seeds = seed_lines(&fam, "p", &req);
     let curves = fold_curves(&fam, &seeds, &req);
     let cusps: Vec<_> = curves.iter().flat_map(|c| c.cusps.iter()).collect();
     assert_eq!(cusps.len(), 1, "{cusps:?}");
@@ -79,7 +79,7 @@ fn fold_curves_along_the_axis_find_where_the_row_is_bistable() {
     let p = model.parse_param("p").unwrap();
     let fam = ParameterFamily::new(&model, p, 50.0, 0.0).with_second(Second::Position, 50.0);
     let req = FoldCurveRequest { p: (1.0, 3.2), q: (0.0, 100.0), seed_lines: 9 };
-    let curves = fold_curves(&fam, &seed_lines(&fam, 1, "p", &req), &req);
+    let curves = fold_curves(&fam, &seed_lines(&fam, "p", &req), &req);
     let cusps: Vec<_> = curves.iter().flat_map(|c| c.cusps.iter()).collect();
     assert_eq!(cusps.len(), 1, "{cusps:?}");
     let (cp, cb) = (r["cusp"]["p"].as_f64().unwrap(), r["cusp"]["b"].as_f64().unwrap());
@@ -147,7 +147,7 @@ fn stable_counts_find_states_above_a_capacity_the_rate_law_ignores() {
     let fam = ParameterFamily::new(&model, p, 50.0, 0.0).with_second(Second::Param(b), 0.3);
     let req = FoldCurveRequest { p: (0.5, 4.0), q: (0.0, 1.0), seed_lines: 11 };
     let grid = (24, 16);
-    let counts = stable_counts(&fam, &seed_lines(&fam, 1, "p", &req), &req, grid);
+    let counts = stable_counts(&fam, &seed_lines(&fam, "p", &req), &req, grid);
     let mut bistable = 0;
     for (k, &n) in counts.iter().enumerate() {
         let (i, j) = (k % grid.0, k / grid.0);

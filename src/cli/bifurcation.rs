@@ -102,7 +102,7 @@ pub fn bifurcation(args: &BifurcationArgs) -> anyhow::Result<()> {
     let style = Style::for_genes(&names, &colors, &model.title, &args.canvas.options())?;
     if let Some(second) = &args.second {
         let range = (args.second_from.unwrap_or(f64::NAN), args.second_to.unwrap_or(f64::NAN));
-        return fold_plane(args, &model, param, second, range, t_min, &dir, &style);
+        return fold_plane(args, &model, param, second, range, t_min, &dir, &style, &names);
     }
     let request = DiagramRequest { param, from: args.from, to: args.to, x_pct: args.at, t_min };
     let diagram = anlage::phase::diagram(&model, &request)?;
@@ -128,6 +128,7 @@ fn fold_plane(
     t_min: f64,
     dir: &std::path::Path,
     style: &anlage::render::Style,
+    names: &[String],
 ) -> anyhow::Result<()> {
     use anlage::phase::{FoldCurveRequest, ParameterFamily, Second, check_parameter};
     let first = check_parameter(model, param, (args.from, args.to), "--from < --to")?;
@@ -151,9 +152,8 @@ fn fold_plane(
         (Second::Param(p2), check_parameter(model, p2, (q0, q1), "--second-from < --second-to")?)
     };
     let fam = ParameterFamily::new(model, param, args.at, t_min).with_second(which, q0);
-    let genes = model.genes.len();
     let req = FoldCurveRequest { p: (args.from, args.to), q: (q0, q1), seed_lines: 11 };
-    let seeds = anlage::phase::seed_lines(&fam, genes, &first, &req);
+    let seeds = anlage::phase::seed_lines(&fam, &first, &req);
     let curves = anlage::phase::fold_curves(&fam, &seeds, &req);
     let grid = (96, 64);
     let counts = anlage::phase::stable_counts(&fam, &seeds, &req, grid);
@@ -171,9 +171,8 @@ fn fold_plane(
         q: (&second_name, req.q),
         heading: &heading,
     };
-    let names: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
     std::fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
-    anlage::write_fold_curves(&plane, &names, style, dir).with_context(|| format!("writing into {}", dir.display()))?;
+    anlage::write_fold_curves(&plane, names, style, dir).with_context(|| format!("writing into {}", dir.display()))?;
     let bistable = counts.iter().filter(|&&n| n >= 2).count();
     super::json::print_either(
         args.json,

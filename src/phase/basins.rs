@@ -154,7 +154,7 @@ pub fn analyse_with_progress(
         })
         .collect();
     let scale = hi.iter().copied().fold(0.0, f64::max);
-    let tol = 1e-10 * model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
+    let tol = super::fixed::newton_tolerance(model);
     let slowest = model.genes.iter().map(|g| g.decay).filter(|d| *d > 0.0).fold(f64::INFINITY, f64::min);
     let slowest = if slowest.is_finite() { slowest } else { 1.0 / model.clock.until_min };
 

@@ -8,7 +8,7 @@
 use std::sync::{Arc, Mutex};
 
 use super::continuation::{Branch, lies_on, switch_branch, trace_through};
-use super::fixed::{box_starts, find_fixed_points};
+use super::fixed::{box_starts, find_fixed_points, newton_tolerance};
 use super::landscape::point_inputs;
 use super::system::{AtParameter, Family};
 use crate::kinetics::Kinetics;
@@ -331,6 +331,17 @@ fn lower_bound(p: Param) -> Option<bool> {
     }
 }
 
+/// A gene's capacity p/d, a.u. (0 without decay).
+pub(crate) fn capacity(gene: &crate::model::Gene) -> f64 {
+    if gene.decay > 0.0 { gene.production / gene.decay } else { 0.0 }
+}
+
+/// How far fixed points are searched for, given the largest level a gene
+/// can reach: 1.5 times that, at least 1 a.u.
+pub(crate) fn search_limit(reach: f64) -> f64 {
+    (1.5 * reach).max(1.0)
+}
+
 /// Parameter values at which fixed points are searched for from scratch.
 const SAMPLES: usize = 41;
 
@@ -370,29 +381,20 @@ pub fn check_parameter(
 pub fn diagram(model: &Model, req: &DiagramRequest) -> Result<Diagram, DiagramError> {
     let name = check_parameter(model, req.param, (req.from, req.to), "--from < --to")?;
     let fam = ParameterFamily::new(model, req.param, req.x_pct, req.t_min);
-    Ok(diagram_of(&fam, model.genes.len(), name, req))
+    Ok(diagram_of(&fam, name, req))
 }
 
-/// The diagram of a family (checked), `genes` genes.
-pub(crate) fn diagram_of(fam: &ParameterFamily, genes: usize, name: String, req: &DiagramRequest) -> Diagram {
+/// The diagram of a family (checked).
+pub(crate) fn diagram_of(fam: &ParameterFamily, name: String, req: &DiagramRequest) -> Diagram {
     let samples: Vec<f64> =
         (0..SAMPLES).map(|k| req.from + (req.to - req.from) * k as f64 / (SAMPLES - 1) as f64).collect();
     // The search box: 1.5 times each gene's capacity p/d at any sampled value (at least 1 a.u.).
-    let hi: Vec<f64> = (0..genes)
-        .map(|g| {
-            let cap = samples
-                .iter()
-                .map(|&s| {
-                    let m = fam.model_at(s);
-                    let gene = &m.genes[g];
-                    if gene.decay > 0.0 { gene.production / gene.decay } else { 0.0 }
-                })
-                .fold(0.0, f64::max);
-            (1.5 * cap).max(1.0)
-        })
+    let models: Vec<Model> = samples.iter().map(|&s| fam.model_at(s)).collect();
+    let hi: Vec<f64> = (0..fam.genes)
+        .map(|g| search_limit(models.iter().map(|m| capacity(&m.genes[g])).fold(0.0, f64::max)))
         .collect();
     let starts = box_starts(&hi, 40);
-    let tol = 1e-10 * fam.model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
+    let tol = newton_tolerance(&fam.model);
     let mut previous: Vec<Vec<f64>> = Vec::new();
     let seeds: Vec<(f64, Vec<Vec<f64>>)> = samples
         .iter()

@@ -211,3 +211,9 @@ pub fn find_fixed_points(sys: &dyn System, starts: &[Vec<f64>], tol: f64, nonneg
     });
     roots.into_iter().map(|x| fixed_point_at(sys, x)).collect()
 }
+
+/// Newton's residual tolerance for a model's fixed points: 1e-10 of its
+/// largest production rate (at least 1e-10), a.u./min.
+pub fn newton_tolerance(model: &crate::model::Model) -> f64 {
+    1e-10 * model.genes.iter().map(|g| g.production).fold(1.0, f64::max)
+}

@@ -28,7 +28,7 @@
 use nalgebra::{DMatrix, DVector};
 
 use super::arclength::{self, Curve};
-use super::bifurcation::{Diagram, DiagramRequest, ParameterFamily, Special, diagram_of};
+use super::bifurcation::{Diagram, DiagramRequest, ParameterFamily, Special, capacity, diagram_of, search_limit};
 use super::system::Family;
 
 /// A point of a fold curve.
@@ -168,19 +168,12 @@ impl Curve for FoldSystem<'_> {
     }
 }
 
-/// Whether a point (unscaled) lies within 1e-3 (scaled) of a traced curve.
-fn on_curves(curves: &[FoldCurve], y: &[f64], scale: &[f64], n: usize) -> bool {
-    let dist = |a: &FoldCurvePoint| {
-        let mut d = 0.0f64;
-        for i in 0..n {
-            d = d.max(((a.x[i] - y[i]) / scale[i]).abs());
-        }
-        d.max(((a.p - y[n]) / scale[n]).abs()).max(((a.q - y[n + 1]) / scale[n + 1]).abs())
-    };
+/// Whether a point lies within 1e-3 (scaled) of a traced curve.
+fn on_curves(curves: &[FoldCurve], y: &FoldCurvePoint, scale: &[f64], n: usize) -> bool {
     curves.iter().any(|c| {
         c.points.windows(2).any(|w| {
             // Distance to the chord, in the max norm, bounded by the nearer end's.
-            dist(&w[0]).min(dist(&w[1])) <= 0.6 * chord(&w[0], &w[1], scale, n) + 1e-3
+            chord(&w[0], y, scale, n).min(chord(&w[1], y, scale, n)) <= 0.6 * chord(&w[0], &w[1], scale, n) + 1e-3
         })
     })
 }
@@ -300,15 +293,15 @@ pub struct SeedLines {
 }
 
 /// Diagrams in p at `req.seed_lines` evenly spaced values of q.
-pub fn seed_lines(fam: &ParameterFamily, genes: usize, name: &str, req: &FoldCurveRequest) -> SeedLines {
+pub fn seed_lines(fam: &ParameterFamily, name: &str, req: &FoldCurveRequest) -> SeedLines {
     let count = req.seed_lines.max(2);
-    let mut level_scale = vec![1e-12f64; genes];
+    let mut level_scale = vec![1e-12f64; fam.dim()];
     let mut lines = Vec::with_capacity(count);
     for k in 0..count {
         let q = req.q.0 + (req.q.1 - req.q.0) * k as f64 / (count - 1) as f64;
         let held = fam.held_at(q);
         let one = DiagramRequest { param: fam.param(), from: req.p.0, to: req.p.1, x_pct: 0.0, t_min: 0.0 };
-        let d = diagram_of(&held, genes, name.to_string(), &one);
+        let d = diagram_of(&held, name.to_string(), &one);
         for b in &d.branches {
             for p in &b.points {
                 for (s, v) in level_scale.iter_mut().zip(&p.x) {
@@ -338,7 +331,7 @@ pub fn fold_curves(fam: &ParameterFamily, seeds: &SeedLines, req: &FoldCurveRequ
     scale.extend([req.p.1 - req.p.0, req.q.1 - req.q.0]);
     let mut curves: Vec<FoldCurve> = Vec::new();
     for y0 in starts {
-        if on_curves(&curves, &y0, &scale, n) {
+        if on_curves(&curves, &point(&y0, n), &scale, n) {
             continue;
         }
         let mut sys = FoldSystem { fam, n, scale: scale.clone(), b: DVector::zeros(n), c: DVector::zeros(n) };
@@ -390,41 +383,39 @@ pub fn stable_counts(
     (nx, ny): (usize, usize),
 ) -> Vec<u8> {
     use rayon::prelude::*;
-    let genes = fam.dim();
-    let q_of = |j: usize| req.q.0 + (req.q.1 - req.q.0) * (j as f64 + 0.5) / ny as f64;
-    let rows: Vec<Diagram> = (0..ny)
+    let rows: Vec<Vec<u8>> = (0..ny)
         .into_par_iter()
         .map(|j| {
+            let held = fam.held_at(req.q.0 + (req.q.1 - req.q.0) * (j as f64 + 0.5) / ny as f64);
             let one = DiagramRequest { param: fam.param(), from: req.p.0, to: req.p.1, x_pct: 0.0, t_min: 0.0 };
-            diagram_of(&fam.held_at(q_of(j)), genes, String::new(), &one)
+            let diagram = diagram_of(&held, String::new(), &one);
+            (0..nx)
+                .map(|i| {
+                    stable_at(&held, &diagram, seeds, req.p.0 + (req.p.1 - req.p.0) * (i as f64 + 0.5) / nx as f64)
+                })
+                .collect()
         })
         .collect();
-    (0..nx * ny)
-        .into_par_iter()
-        .map(|k| {
-            let (i, j) = (k % nx, k / nx);
-            let p = req.p.0 + (req.p.1 - req.p.0) * (i as f64 + 0.5) / nx as f64;
-            let held = fam.held_at(q_of(j));
-            let model = held.model_at(p);
-            let hi: Vec<f64> = model.genes[..genes]
-                .iter()
-                .zip(&seeds.level_scale)
-                .map(|(g, seen)| (1.5 * (if g.decay > 0.0 { g.production / g.decay } else { 0.0 }).max(*seen)).max(1.0))
-                .collect();
-            let mut starts = super::fixed::box_starts(&hi, 12);
-            for b in &rows[j].branches {
-                for w in b.points.windows(2) {
-                    let (a, c) = (&w[0], &w[1]);
-                    if (a.s - p) * (c.s - p) <= 0.0 && a.s != c.s {
-                        let f = (p - a.s) / (c.s - a.s);
-                        starts.push(a.x.iter().zip(&c.x).map(|(u, v)| u + f * (v - u)).collect());
-                    }
-                }
+    rows.concat()
+}
+
+/// Stable fixed points of `held` at p: Newton from where the branches of
+/// its `diagram` cross p and from the box of starts.
+fn stable_at(held: &ParameterFamily, diagram: &Diagram, seeds: &SeedLines, p: f64) -> u8 {
+    let model = held.model_at(p);
+    let hi: Vec<f64> =
+        model.genes.iter().zip(&seeds.level_scale).map(|(g, seen)| search_limit(capacity(g).max(*seen))).collect();
+    let mut starts = super::fixed::box_starts(&hi, 12);
+    for b in &diagram.branches {
+        for w in b.points.windows(2) {
+            let (a, c) = (&w[0], &w[1]);
+            if (a.s - p) * (c.s - p) <= 0.0 && a.s != c.s {
+                let f = (p - a.s) / (c.s - a.s);
+                starts.push(a.x.iter().zip(&c.x).map(|(u, v)| u + f * (v - u)).collect());
             }
-            let tol = 1e-10 * model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
-            let sys = super::system::AtParameter { family: &held, s: p };
-            let found = super::fixed::find_fixed_points(&sys, &starts, tol, true);
-            found.iter().filter(|f| f.kind.is_stable()).count().min(255) as u8
-        })
-        .collect()
+        }
+    }
+    let sys = super::system::AtParameter { family: held, s: p };
+    let found = super::fixed::find_fixed_points(&sys, &starts, super::fixed::newton_tolerance(&model), true);
+    found.iter().filter(|f| f.kind.is_stable()).count().min(255) as u8
 }

@@ -89,7 +89,7 @@ pub fn landscape(model: &Model, t_min: f64, hi: &[f64]) -> Landscape {
         genes: model.genes.len(),
         neighbour_genes: if model.circuit.neighbours { model.genes.len() } else { 0 },
     };
-    let tol = 1e-10 * model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
+    let tol = super::fixed::newton_tolerance(model);
     let starts = box_starts(hi, 30);
     let nucleus_pct: Vec<f64> = (0..grid.nx).map(|ix| 100.0 * grid.x_um(ix) / grid.length_um()).collect();
     let per_nucleus: Vec<Vec<FixedPoint>> = nucleus_pct

@@ -69,7 +69,7 @@ pub fn portrait_data(
     // the picture shows what happens: every level the run reached and every
     // fixed point, with a margin, not the (often much larger) capacity.
     let search = [(0.0, top(a)), (0.0, top(b))];
-    let tol = 1e-10 * model.genes.iter().map(|g| g.production).fold(1.0, f64::max);
+    let tol = super::fixed::newton_tolerance(model);
     let mut starts = box_starts(&[search[0].1, search[1].1], 40);
     starts.push(vec![state[a], state[b]]);
     let points = find_fixed_points(&sys, &starts, tol, true);

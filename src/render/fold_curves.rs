@@ -54,14 +54,22 @@ pub fn fold_curves_picture(f: &FoldPlane, style: &Style) -> Canvas {
         let pts: Vec<(f32, f32)> = curve.points.iter().map(|p| (a.px(p.p), a.py(p.q))).collect();
         c.polyline(&pts, 2.5, ink, 255, None);
     }
-    for cusp in f.curves.iter().flat_map(|c| c.cusps.iter()) {
-        let (px, py) = (a.px(cusp.p), a.py(cusp.q));
-        c.ellipse(px, py, 6.0, 6.0, 1.5, ink, Some(bg.rgb()));
-        let label = format!("cusp ({:.4}, {:.4})", cusp.p, cusp.q);
-        if px + 10.0 + Canvas::text_width(12.0, &label) > a.left + a.width {
-            c.text(px - 10.0, py + 18.0, 12.0, ink, Align::Right, &label);
-        } else {
-            c.text(px + 10.0, py + 18.0, 12.0, ink, Align::Left, &label);
+    for curve in f.curves {
+        for cusp in &curve.cusps {
+            let (px, py) = (a.px(cusp.p), a.py(cusp.q));
+            c.ellipse(px, py, 6.0, 6.0, 1.5, ink, Some(bg.rgb()));
+            // The label goes on the side the two branches leave the cusp from.
+            let (dx, dy) = away_from(curve, cusp, &a);
+            let label = format!("cusp ({:.4}, {:.4})", cusp.p, cusp.q);
+            let w = Canvas::text_width(12.0, &label);
+            let right = if dx > 0.0 { px - 10.0 >= a.left + w } else { px + 10.0 + w > a.left + a.width };
+            let below = dy <= 0.0 && py + 18.0 <= a.top + a.height - 4.0;
+            let y = if below { py + 18.0 } else { py - 9.0 };
+            if right {
+                c.text(px - 10.0, y, 12.0, ink, Align::Right, &label);
+            } else {
+                c.text(px + 10.0, y, 12.0, ink, Align::Left, &label);
+            }
         }
     }
     let q_label = if f.q.0 == "position_pct" { "position (% of axis length)" } else { f.q.0 };
@@ -72,4 +80,27 @@ pub fn fold_curves_picture(f: &FoldPlane, style: &Style) -> Canvas {
         c.text(left, h - 14.0 - 16.0 * (key.len() - 1 - k) as f32, 12.0, bg.muted(), Align::Left, line);
     }
     c
+}
+
+/// The mean direction (px) from `cusp` to the curve's points a little way
+/// either side of it.
+fn away_from(curve: &FoldCurve, cusp: &crate::phase::FoldCurvePoint, a: &Axes) -> (f32, f32) {
+    let (px, py) = (a.px(cusp.p), a.py(cusp.q));
+    let near = curve
+        .points
+        .iter()
+        .enumerate()
+        .min_by(|x, y| {
+            let d = |p: &crate::phase::FoldCurvePoint| (a.px(p.p) - px).powi(2) + (a.py(p.q) - py).powi(2);
+            d(x.1).total_cmp(&d(y.1))
+        })
+        .map_or(0, |(k, _)| k);
+    let (mut dx, mut dy) = (0.0, 0.0);
+    for k in [near.saturating_sub(3), (near + 3).min(curve.points.len().saturating_sub(1))] {
+        if let Some(p) = curve.points.get(k) {
+            dx += a.px(p.p) - px;
+            dy += a.py(p.q) - py;
+        }
+    }
+    (dx, dy)
 }

@@ -45,6 +45,8 @@ pub enum PictureKind {
     Profiles,
     /// `pattern.gif`.
     Animation,
+    /// `contours.png` (sheets only): the final pattern with its boundary contours.
+    Contours,
 }
 
 /// Pictures written, and notes on any that were changed to meet a size
@@ -90,6 +92,11 @@ pub fn write_pictures(
     if wants(PictureKind::Pattern) {
         let max = render::gene_maxima(rec, &snaps)?;
         png("pattern.png", render::pattern(rec, last, style, &max)?.0)?;
+    }
+    if wants(PictureKind::Contours) && rec.grid.is_sheet() {
+        let max = render::gene_maxima(rec, &snaps)?;
+        let read = readout::sheet::sheet_at(rec, last)?;
+        png("contours.png", render::contours_picture(rec, last, style, &max, &read)?)?;
     }
     if wants(PictureKind::Profiles) {
         let final_boundaries: Vec<readout::Boundary> =

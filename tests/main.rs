@@ -27,6 +27,7 @@ mod replicates;
 mod report_page;
 mod safety;
 mod screen;
+mod sheet_readouts;
 mod slurm;
 mod sweep;
 mod tables;

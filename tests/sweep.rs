@@ -355,3 +355,25 @@ fn shards_of_another_initial_file_are_refused() {
     assert!(!String::from_utf8_lossy(&again.stdout).contains("already complete"), "the shard ran again");
     assert!(run("--merge").status.success());
 }
+
+/// A sweep of a sheet classes the whole sheet: the Schnakenberg system
+/// (Schnakenberg 1979, J. Theor. Biol. 81:389) on a 48 × 48 sheet stays
+/// uniform below the critical diffusion ratio d_c = 8.569 (computed by SciPy
+/// in tests/reference/turing.py) and makes spots above it. Rate-expression
+/// genes have no decay constant; a uniform state that has settled to within
+/// the integrator's tolerance must not be called "changing".
+#[test]
+fn a_sheet_sweep_classes_spots_across_the_turing_onset() {
+    let model = parse(
+        "seed = 2\n[tissue]\nnuclei = [48, 48]\nspacing_um = 1.0\nedges = \"sealed\"\n\
+         [clock]\nuntil_min = 3000.0\ntolerance = 1e-5\nsnapshot_every_min = 1000.0\n\
+         [[gene]]\nname = \"u\"\nrate = \"a - u + u^2 * v\"\ndiffusion = 1.0\ninitial = 1.0\ninitial_noise = 0.01\n\
+         [[gene]]\nname = \"v\"\nrate = \"b - u^2 * v\"\ndiffusion = 20.0\ninitial = 0.9\ninitial_noise = 0.01\n\
+         [circuit]\nkinetics = \"rates\"\nparameters = { a = 0.1, b = 0.9 }\n",
+    );
+    // Ratios 4 and 8 below the onset, 12 and 16 above it.
+    let axis = Axis::parse(&model, "v.diffusion=4:16:4").unwrap();
+    let s = run_sweep(&model, &[axis], true, &Silent);
+    let classes: Vec<PatternClass> = s.points.iter().map(|p| p.class).collect();
+    assert_eq!(classes, [PatternClass::NoBoundary, PatternClass::NoBoundary, PatternClass::Spots, PatternClass::Spots]);
+}

@@ -636,6 +636,8 @@ pub enum KindArg {
     Profiles,
     /// `pattern.gif`.
     Animation,
+    /// `contours.png` (sheets): the final pattern with its boundary contours.
+    Contours,
 }
 
 impl From<KindArg> for anlage::PictureKind {
@@ -647,6 +649,7 @@ impl From<KindArg> for anlage::PictureKind {
             KindArg::Pattern => anlage::PictureKind::Pattern,
             KindArg::Profiles => anlage::PictureKind::Profiles,
             KindArg::Animation => anlage::PictureKind::Animation,
+            KindArg::Contours => anlage::PictureKind::Contours,
         }
     }
 }

@@ -272,20 +272,63 @@ pub fn final_boundaries(summary: &Summary, wall_time_s: f64, dir: &Path) -> Stri
         "{}: {} steps ({} rejected) to t = {} min in {:.2} s",
         summary.title, summary.steps, summary.rejected_steps, summary.final_time_min, wall_time_s
     );
+    let sheet = !summary.final_sheet.is_empty();
+    if sheet {
+        let _ = writeln!(
+            s,
+            "patterns on the whole sheet at t = {} min (model prediction; sheet_patterns.csv, contours.csv, sheet_domains.csv):",
+            summary.final_time_min
+        );
+        for p in &summary.final_sheet {
+            let _ = writeln!(s, "  {:<12} {:<10} {}", p.gene, p.class, sheet_detail(p));
+        }
+    }
+    // A sheet's boundaries along the axis are read on its midline strip;
+    // listed in full only when there are few.
+    let shown = if sheet { 6 } else { usize::MAX };
     if summary.final_boundaries.is_empty() {
-        let _ = writeln!(s, "no boundaries at the final time");
+        let _ = writeln!(s, "no boundaries at the final time{}", if sheet { " along the midline" } else { "" });
     } else {
-        let _ = writeln!(s, "boundaries at t = {} min (model prediction):", summary.final_time_min);
-        for b in &summary.final_boundaries {
+        let heading = if sheet {
+            let band = (summary.grid.ny / 10).max(1);
+            let start = (summary.grid.ny - band) / 2;
+            format!(" along the midline (mean of rows {}–{})", start, start + band - 1)
+        } else {
+            String::new()
+        };
+        let _ = writeln!(s, "boundaries{heading} at t = {} min (model prediction):", summary.final_time_min);
+        for b in summary.final_boundaries.iter().take(shown) {
             let _ = writeln!(
                 s,
                 "  {:<12} {:<8} {:>8.1} µm  {:>6.2} %  width {:>5.1} µm",
                 b.gene, b.direction, b.position_um, b.position_pct, b.width_um
             );
         }
+        let more = summary.final_boundaries.len().saturating_sub(shown);
+        if more > 0 {
+            let _ = writeln!(s, "  … and {more} more in boundaries.csv");
+        }
     }
     let _ = writeln!(s, "outputs in {}", dir.display());
     s
+}
+
+/// One gene's sheet pattern in words: counts, wavelength, area.
+fn sheet_detail(p: &anlage::readout::sheet::SheetPattern) -> String {
+    let wavelength = p.wavelength_um.map(|l| format!(", dominant wavelength {l:.1} µm")).unwrap_or_default();
+    match p.class.as_str() {
+        "not expressed" => "below its expression floor".into(),
+        "uniform" => format!("{:.0} % of the sheet at or above its boundary level", p.high_area_pct),
+        "spots" => format!("{} spots of {} level{wavelength}", p.spots, p.spots_are),
+        "stripes" | "labyrinth" => format!("{} stripes of high level{wavelength}", p.stripes),
+        _ => format!(
+            "{}, {:.1} % of the sheet; {} {} µm long in all",
+            plural(p.high_domains, "high domain"),
+            p.high_area_pct,
+            plural(p.contours, "contour"),
+            (p.contour_length_um * 10.0).round() / 10.0
+        ),
+    }
 }
 
 /// What `anlage basins` prints.
@@ -794,4 +837,9 @@ pub fn sweep(s: &anlage::sweep::Sweep, dir: &Path) -> String {
     }
     let _ = writeln!(out, "outputs in {}", dir.display());
     out
+}
+
+/// "1 domain", "3 domains".
+fn plural(n: usize, word: &str) -> String {
+    if n == 1 { format!("1 {word}") } else { format!("{n} {word}s") }
 }

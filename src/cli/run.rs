@@ -155,6 +155,14 @@ pub fn render(args: &RenderArgs) -> anyhow::Result<()> {
     }
     let saved = anlage::run_folder::load(run_dir)?;
     let rec = &saved.recording;
+    if matches!(kind, KindArg::Contours) && !rec.grid.is_sheet() {
+        anyhow::bail!(
+            "{}: `--kind contours` draws a sheet's boundary contours, and this run is a row ({}); \
+             its boundaries are in kymograph.png and boundary_positions.png",
+            run_dir.display(),
+            saved.summary.tissue
+        );
+    }
     let style = Style::with_options(rec, &saved.summary.title, &look.options())?;
     let dir = out.clone().unwrap_or_else(|| run_dir.clone());
     std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;

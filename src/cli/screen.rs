@@ -302,7 +302,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
     let mode = cluster.mode(out.as_deref())?;
     if model.grid.is_sheet() && !*json {
         eprintln!(
-            "anlage: note: on a sheet, classes and boundaries are read along x over the central strip of rows; a pattern along y is not seen"
+            "anlage: note: on a sheet, classes are read over the whole sheet (domains, spots, parallel stripes, labyrinth); the boundaries in sweep_boundaries.csv are read along x over the central strip of rows"
         );
     }
     let total = axes.iter().map(|a| a.values.len()).try_fold(1usize, |n, k| n.checked_mul(k));

@@ -9,6 +9,7 @@ mod fit_tables;
 mod phase_tables;
 mod replicate_tables;
 mod screen_tables;
+mod sheet_tables;
 mod sweep_tables;
 mod table_writer;
 mod tables;
@@ -32,6 +33,7 @@ pub use replicate_tables::{
     write_step_check, write_widths,
 };
 pub use screen_tables::{write_sensitivity, write_shifts, write_shifts_to};
+pub use sheet_tables::{write_contours, write_sheet_domains, write_sheet_patterns};
 pub use sweep_tables::{write_sweep, write_sweep_boundaries_to, write_sweep_to};
 pub use table_writer::{Cells, TableWriter, header_of, shortest, shortest_opt, write_rows, write_rows_to};
 pub use tables::{

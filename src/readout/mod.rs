@@ -12,6 +12,7 @@
 mod matching;
 mod predicted;
 mod profile;
+pub mod sheet;
 
 pub use matching::{Shift, match_boundaries, pair_in_order, same_time};
 pub use predicted::{predicted_boundaries, predicted_final_boundaries, recording_at};

@@ -34,6 +34,11 @@ impl Background {
     }
 }
 
+/// Mixes `share` of colour `a` into colour `b`.
+pub fn blend(a: [u8; 3], b: [u8; 3], share: f64) -> [u8; 3] {
+    std::array::from_fn(|k| (share * a[k] as f64 + (1.0 - share) * b[k] as f64).round() as u8)
+}
+
 /// Mixes genes at relative levels `v_g` ∈ [0, 1] (clamped):
 /// dark `Σ c_g·v_g`, light `255 − Σ (255 − c_g)·v_g`, each channel clamped to [0, 255].
 pub fn mix(colors: &[[u8; 3]], levels: impl Iterator<Item = f64>, bg: Background) -> [u8; 3] {

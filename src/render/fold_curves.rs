@@ -4,6 +4,7 @@
 
 use super::axes::{self, Axes};
 use super::canvas::{Align, Canvas};
+use super::colour::blend;
 use super::{Style, title_and_label};
 use crate::phase::FoldCurve;
 
@@ -23,11 +24,6 @@ pub struct FoldPlane<'a> {
     pub heading: &'a str,
 }
 
-/// Mixes `share` of `a` into `b`.
-fn mix(a: [u8; 3], b: [u8; 3], share: f64) -> [u8; 3] {
-    std::array::from_fn(|k| (share * a[k] as f64 + (1.0 - share) * b[k] as f64).round() as u8)
-}
-
 /// Draws the plane.
 pub fn fold_curves_picture(f: &FoldPlane, style: &Style) -> Canvas {
     let bg = style.background;
@@ -42,7 +38,7 @@ pub fn fold_curves_picture(f: &FoldPlane, style: &Style) -> Canvas {
     let a = Axes { left, top, width: width as f32 - left - right, height: plot_h, x: f.p.1, y: f.q.1, y_down: false };
     let (nx, ny) = f.grid;
     let shades =
-        [mix(bg.muted(), bg.rgb(), 0.35), bg.rgb(), mix(bg.ink(), bg.rgb(), 0.12), mix(bg.ink(), bg.rgb(), 0.28)];
+        [blend(bg.muted(), bg.rgb(), 0.35), bg.rgb(), blend(bg.ink(), bg.rgb(), 0.12), blend(bg.ink(), bg.rgb(), 0.28)];
     c.raster(a.left, a.top, a.width, a.height, |u, v| {
         let i = ((u * nx as f64) as usize).min(nx - 1);
         let j = (((1.0 - v) * ny as f64) as usize).min(ny - 1);

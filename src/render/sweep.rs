@@ -20,6 +20,10 @@ pub fn class_color(c: PatternClass) -> [u8; 3] {
         PatternClass::SeveralStripes => [180, 80, 90],
         PatternClass::Changing => [140, 110, 190],
         PatternClass::Failed => [235, 235, 235],
+        PatternClass::Domains => [90, 160, 150],
+        PatternClass::Spots => [225, 120, 60],
+        PatternClass::ParallelStripes => [200, 190, 90],
+        PatternClass::Labyrinth => [150, 70, 140],
     }
 }
 

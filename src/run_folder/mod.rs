@@ -2,7 +2,9 @@
 //! manifest that marks the set complete, and reading the run back.
 //!
 //! ```text
-//! <run>/profiles.csv, profiles_long.csv, final_sheet.csv (sheets), boundaries.csv, domains.csv
+//! <run>/profiles.csv, profiles_long.csv, boundaries.csv, domains.csv
+//!       sheets: final_sheet.csv, sheet_patterns.csv, contours.csv,
+//!       contour_points.csv, sheet_domains.csv, contours.png
 //!       states.npy   snapshots × genes × nuclei (× rows), f64
 //!       summary.json [`Summary`]: what was run, how it went, final boundaries
 //!       model.toml   the model file as run
@@ -71,6 +73,15 @@ pub fn write_run(
     export::write_boundaries(&boundaries, &path("boundaries.csv"))?;
     export::write_domains(&domains, &path("domains.csv"))?;
     let summary = Summary::new(model, run);
+    if rec.grid.is_sheet() {
+        // The whole sheet's readouts: patterns at every snapshot, contours
+        // and domains at the last.
+        export::write_sheet_patterns(&readout::sheet::sheet_patterns(rec)?, &path(SHEET_TABLES[0]))?;
+        let last = readout::sheet::final_sheet(rec);
+        export::write_contours(&last.contours, &path(SHEET_TABLES[1]), &path(SHEET_TABLES[2]))?;
+        export::write_sheet_domains(&last.domains, &path(SHEET_TABLES[3]))?;
+        written.extend(SHEET_TABLES.map(String::from));
+    }
     let mut notes = Vec::new();
     if pictures {
         let drawn = write_pictures(rec, &boundaries, &style, dir, PictureKind::All)?;
@@ -130,11 +141,20 @@ fn remove_derived(dir: &Path) {
     }
 }
 
+/// The tables of a sheet's readouts ([`readout::sheet`]).
+pub const SHEET_TABLES: [&str; 4] = ["sheet_patterns.csv", "contours.csv", "contour_points.csv", "sheet_domains.csv"];
+
 /// Every file `anlage run` can write into its folder (besides the manifest).
 pub const RUN_OUTPUTS: &[&str] = &[
     "profiles.csv",
     "profiles_long.csv",
     "final_sheet.csv",
+    "sheet_patterns.csv",
+    "contours.csv",
+    "contour_points.csv",
+    "sheet_domains.csv",
+    "contours.png",
+    "contours.svg",
     "states.npy",
     "boundaries.csv",
     "domains.csv",

@@ -6,6 +6,7 @@ use serde::{Deserialize, Serialize};
 use crate::Run;
 use crate::model::{Clock, Edges, Model, Stepping};
 
+use crate::readout::sheet::{SheetPattern, final_sheet};
 use crate::readout::{Boundary, Domain, final_boundaries, final_domains};
 
 /// The summary of one run.
@@ -59,6 +60,10 @@ pub struct Summary {
     pub final_boundaries: Vec<Boundary>,
     /// Domains at the final time.
     pub final_domains: Vec<Domain>,
+    /// A sheet's patterns at the final time, one per gene (class, wavelength,
+    /// counts; see [`crate::readout::sheet`]). Absent for rows.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub final_sheet: Vec<SheetPattern>,
 }
 
 /// The grid of a run, in summary.json.
@@ -112,6 +117,7 @@ impl Summary {
             final_time_min: rec.times[last],
             final_boundaries: final_boundaries(rec),
             final_domains: final_domains(rec),
+            final_sheet: if rec.grid.is_sheet() { final_sheet(rec).patterns } else { Vec::new() },
         }
     }
 }

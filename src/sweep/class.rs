@@ -27,15 +27,27 @@ pub enum PatternClass {
     Changing,
     /// The run failed.
     Failed,
+    /// Sheets: a few domains, not a repeating pattern.
+    Domains,
+    /// Sheets: spots (of high or low level).
+    Spots,
+    /// Sheets: stripes sharing one orientation.
+    ParallelStripes,
+    /// Sheets: elongated domains turning every way.
+    Labyrinth,
 }
 
 impl PatternClass {
     /// Every class, in legend order.
-    pub const ALL: [PatternClass; 6] = [
+    pub const ALL: [PatternClass; 10] = [
         PatternClass::NoBoundary,
         PatternClass::Boundary,
         PatternClass::Stripe,
         PatternClass::SeveralStripes,
+        PatternClass::Domains,
+        PatternClass::Spots,
+        PatternClass::ParallelStripes,
+        PatternClass::Labyrinth,
         PatternClass::Changing,
         PatternClass::Failed,
     ];
@@ -49,6 +61,10 @@ impl PatternClass {
             PatternClass::SeveralStripes => "several stripes",
             PatternClass::Changing => "changing",
             PatternClass::Failed => "failed",
+            PatternClass::Domains => "domains",
+            PatternClass::Spots => "spots",
+            PatternClass::ParallelStripes => "parallel stripes",
+            PatternClass::Labyrinth => "labyrinth",
         }
     }
 }
@@ -59,10 +75,40 @@ pub fn settle_rates(model: &crate::model::Model) -> Vec<f64> {
     model.genes.iter().map(|g| g.decay.max(1.0 / model.clock.until_min.max(1e-12))).collect()
 }
 
+/// [`settle_rates`] at the state `u` (time `t`, min): a gene given by a
+/// rate expression has no decay constant, so its settling rate is its own
+/// linear relaxation rate there, the mean over nuclei of |∂f_g/∂u_g| (what
+/// the decay rate is for a gene with production and decay), when that is
+/// faster than 1/(run length).
+fn settle_rates_at(model: &crate::model::Model, u: &ndarray::Array2<f64>, t: f64) -> Vec<f64> {
+    let mut rates = settle_rates(model);
+    if model.genes.iter().all(|g| g.rate.is_none()) {
+        return rates;
+    }
+    let tissue = crate::tissue::Tissue::new(model);
+    let kinetics = crate::kinetics::build(model);
+    let inputs = tissue.inputs_with_state(t, u);
+    let n = model.genes.len();
+    let (mut jac, mut own) = (vec![0.0; n * n], vec![0.0; n]);
+    for (one, m) in u.columns().into_iter().zip(inputs.columns()) {
+        kinetics.jacobian(&one.to_vec(), &m.to_vec(), &mut jac);
+        for (g, o) in own.iter_mut().enumerate() {
+            *o += jac[g * n + g].abs() / u.ncols() as f64;
+        }
+    }
+    for (g, gene) in model.genes.iter().enumerate() {
+        if gene.rate.is_some() && own[g].is_finite() {
+            rates[g] = rates[g].max(own[g]);
+        }
+    }
+    rates
+}
+
 /// The first gene of `model` still changing at the end of its run: where
 /// |du/dt| = |f(u) + D∇²u|, evaluated at the last snapshot of `rec`
 /// ([`crate::integrate::time_derivative`]), exceeds [`SETTLED_REL`] of the
-/// gene's largest final level per settling time ([`settle_rates`]). None
+/// gene's largest final level per settling time ([`settle_rates`]; for a
+/// gene given by a rate expression, its relaxation rate at the end). None
 /// when every gene has settled.
 ///
 /// # Errors
@@ -74,7 +120,7 @@ pub fn changing_gene(
     let last = rec.len().saturating_sub(1);
     let end = rec.state(last)?;
     let rate = crate::integrate::time_derivative(model, &end, rec.times[last])?;
-    let rates = settle_rates(model);
+    let rates = settle_rates_at(model, &end, rec.times[last]);
     for g in 0..rec.genes.len() {
         let top = end.row(g).iter().fold(0.0f64, |m, v| m.max(v.abs()));
         let fastest = rate.row(g).iter().fold(0.0f64, |m, v| m.max(v.abs()));
@@ -100,9 +146,28 @@ pub fn changing_gene(
 ///    neither edge (on a periodic row every domain counts);
 /// 4. "stripe" if some gene has one;
 /// 5. otherwise "boundary".
+///
+/// A sheet is classed by its whole area instead ([`crate::readout::sheet`]),
+/// after rule 1: the first gene (in model order) whose pattern repeats gives
+/// "spots", "parallel stripes" or "labyrinth"; else "domains" if some gene
+/// has one or a few domains; else "no boundary".
 pub fn classify(rec: &Recording, changing: bool, boundaries: &[Boundary], domains: &[Domain]) -> PatternClass {
     if changing {
         return PatternClass::Changing;
+    }
+    if rec.grid.is_sheet() {
+        let patterns = crate::readout::sheet::final_sheet(rec).patterns;
+        let repeating = patterns.iter().find_map(|p| match p.class.as_str() {
+            "spots" => Some(PatternClass::Spots),
+            "stripes" => Some(PatternClass::ParallelStripes),
+            "labyrinth" => Some(PatternClass::Labyrinth),
+            _ => None,
+        });
+        return repeating.unwrap_or(if patterns.iter().any(|p| p.class == "domains") {
+            PatternClass::Domains
+        } else {
+            PatternClass::NoBoundary
+        });
     }
     if boundaries.is_empty() {
         return PatternClass::NoBoundary;

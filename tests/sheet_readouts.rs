@@ -137,7 +137,7 @@ fn turing_sheet_near_onset_has_the_fastest_growing_wavelength_murray_2003() {
          [circuit]\nkinetics = \"rates\"\nparameters = {{ a = 0.1, b = 0.9 }}\n"
     ));
     let rec = run(&model).recording;
-    let patterns = anlage::readout::sheet::sheet_patterns(&rec).unwrap();
+    let patterns = anlage::readout::sheet::sheet_patterns(&rec, &anlage::readout::sheet::final_sheet(&rec)).unwrap();
     let u: Vec<_> = patterns.iter().filter(|p| p.gene == "u" && p.class != "uniform").collect();
     assert!(u.len() >= 5, "no pattern grew");
     for p in &u {

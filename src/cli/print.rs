@@ -318,7 +318,10 @@ fn sheet_detail(p: &anlage::readout::sheet::SheetPattern) -> String {
     let wavelength = p.wavelength_um.map(|l| format!(", dominant wavelength {l:.1} µm")).unwrap_or_default();
     match p.class.as_str() {
         "not expressed" => "below its expression floor".into(),
-        "uniform" => format!("{:.0} % of the sheet at or above its boundary level", p.high_area_pct),
+        "uniform" => format!(
+            "no crossing of its boundary level: every nucleus on one side ({:.0} % of the sheet at or above it)",
+            p.high_area_pct
+        ),
         "spots" => format!("{} spots of {} level{wavelength}", p.spots, p.spots_are),
         "stripes" | "labyrinth" => format!("{} stripes of high level{wavelength}", p.stripes),
         _ => format!(

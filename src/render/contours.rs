@@ -30,6 +30,7 @@ pub fn contours_picture(
     let h = rec.grid.spacing_um as f32;
     let (w_px, h_px) = (cell * nx, cell * ny);
     // µm → px, y upwards as in the pattern.
+    let (wx, wy) = (f64::from(nx * h), f64::from(ny * h));
     let to_px = |p: &[f64; 2]| (left + p[0] as f32 / h * cell, top + h_px - p[1] as f32 / h * cell);
     let mut notes = Vec::new();
     for &g in &style.genes {
@@ -41,7 +42,6 @@ pub fn contours_picture(
             let mut piece: Vec<(f32, f32)> = Vec::new();
             let mut last: Option<(f32, f32)> = None;
             for p in &contour.points {
-                let (wx, wy) = (f64::from(nx * h), f64::from(ny * h));
                 let folded = [p[0].rem_euclid(wx), p[1].rem_euclid(wy)];
                 let q = to_px(&folded);
                 if let Some(l) = last

@@ -72,12 +72,13 @@ pub fn write_run(
     export::write_states_npy(rec, &path(STATES))?;
     export::write_boundaries(&boundaries, &path("boundaries.csv"))?;
     export::write_domains(&domains, &path("domains.csv"))?;
-    let summary = Summary::new(model, run);
+    let mut summary = Summary::new(model, run);
     if rec.grid.is_sheet() {
         // The whole sheet's readouts: patterns at every snapshot, contours
         // and domains at the last.
-        export::write_sheet_patterns(&readout::sheet::sheet_patterns(rec)?, &path(SHEET_TABLES[0]))?;
         let last = readout::sheet::final_sheet(rec);
+        export::write_sheet_patterns(&readout::sheet::sheet_patterns(rec, &last)?, &path(SHEET_TABLES[0]))?;
+        summary.final_sheet = last.patterns.clone();
         export::write_contours(&last.contours, &path(SHEET_TABLES[1]), &path(SHEET_TABLES[2]))?;
         export::write_sheet_domains(&last.domains, &path(SHEET_TABLES[3]))?;
         written.extend(SHEET_TABLES.map(String::from));

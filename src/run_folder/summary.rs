@@ -6,7 +6,7 @@ use serde::{Deserialize, Serialize};
 use crate::Run;
 use crate::model::{Clock, Edges, Model, Stepping};
 
-use crate::readout::sheet::{SheetPattern, final_sheet};
+use crate::readout::sheet::SheetPattern;
 use crate::readout::{Boundary, Domain, final_boundaries, final_domains};
 
 /// The summary of one run.
@@ -61,7 +61,8 @@ pub struct Summary {
     /// Domains at the final time.
     pub final_domains: Vec<Domain>,
     /// A sheet's patterns at the final time, one per gene (class, wavelength,
-    /// counts; see [`crate::readout::sheet`]). Absent for rows.
+    /// counts; see [`crate::readout::sheet`]; set by [`crate::write_run`],
+    /// which reads the sheet once for them and its tables). Absent for rows.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub final_sheet: Vec<SheetPattern>,
 }
@@ -117,7 +118,7 @@ impl Summary {
             final_time_min: rec.times[last],
             final_boundaries: final_boundaries(rec),
             final_domains: final_domains(rec),
-            final_sheet: if rec.grid.is_sheet() { final_sheet(rec).patterns } else { Vec::new() },
+            final_sheet: Vec::new(),
         }
     }
 }

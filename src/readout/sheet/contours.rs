@@ -277,8 +277,7 @@ mod tests {
     use super::*;
     use approx::assert_relative_eq;
 
-    fn field_of(nx: usize, ny: usize, h: f64, periodic: bool, f: impl Fn(f64, f64) -> f64) -> Vec<f64> {
-        let _ = periodic;
+    fn field_of(nx: usize, ny: usize, h: f64, f: impl Fn(f64, f64) -> f64) -> Vec<f64> {
         let mut v = Vec::with_capacity(nx * ny);
         for j in 0..ny {
             for i in 0..nx {
@@ -294,7 +293,7 @@ mod tests {
     #[test]
     fn a_straight_boundary_is_one_straight_contour() {
         let (nx, ny, h) = (40, 30, 2.5);
-        let v = field_of(nx, ny, h, false, |x, _| x);
+        let v = field_of(nx, ny, h, |x, _| x);
         let field = SheetField { values: &v, nx, ny, spacing_um: h, periodic: false };
         let c = contours(&field, 37.3);
         assert_eq!(c.len(), 1);
@@ -310,7 +309,7 @@ mod tests {
     #[test]
     fn a_disc_is_one_closed_contour_of_its_circumference() {
         let (n, h, r) = (80, 1.0, 25.0);
-        let v = field_of(n, n, h, false, |x, y| (x - 41.3).hypot(y - 38.9));
+        let v = field_of(n, n, h, |x, y| (x - 41.3).hypot(y - 38.9));
         let field = SheetField { values: &v, nx: n, ny: n, spacing_um: h, periodic: false };
         let c = contours(&field, r);
         assert_eq!(c.len(), 1);
@@ -327,7 +326,7 @@ mod tests {
     #[test]
     fn a_band_on_a_periodic_sheet_closes_through_the_seam() {
         let (nx, ny, h) = (32, 24, 1.0);
-        let v = field_of(nx, ny, h, true, |_, y| (2.0 * std::f64::consts::PI * y / 24.0).cos());
+        let v = field_of(nx, ny, h, |_, y| (2.0 * std::f64::consts::PI * y / 24.0).cos());
         let field = SheetField { values: &v, nx, ny, spacing_um: h, periodic: true };
         let c = contours(&field, 0.0);
         assert_eq!(c.len(), 2);

@@ -391,14 +391,16 @@ fn blank(time_min: f64, gene: &str) -> SheetPattern {
     }
 }
 
-/// Every gene's pattern at every snapshot of a sheet, in time order.
+/// Every gene's pattern at every snapshot of a sheet, in time order; the
+/// last snapshot's are taken from `last` (its [`final_sheet`], read once).
 ///
 /// # Errors
 /// [`ReadBackError`] if a streamed snapshot cannot be read back.
-pub fn sheet_patterns(rec: &Recording) -> Result<Vec<SheetPattern>, ReadBackError> {
+pub fn sheet_patterns(rec: &Recording, last: &SheetReadout) -> Result<Vec<SheetPattern>, ReadBackError> {
     let mut out = Vec::new();
-    for s in 0..rec.len() {
+    for s in 0..rec.len() - 1 {
         out.extend(sheet_at(rec, s)?.patterns);
     }
+    out.extend(last.patterns.iter().cloned());
     Ok(out)
 }

@@ -133,6 +133,30 @@ fn log_parabola_vertex(points: &[(f64, f64, f64)]) -> Option<f64> {
     (c[2] < 0.0).then(|| q0 - s * c[1] / (2.0 * c[2]))
 }
 
+/// Applies `along_x` to every row of the nx × ny array `a` (x fastest) and
+/// then `along_y` to every column: a separable two-dimensional transform.
+fn transform_2d<T: Copy + Default>(
+    a: &mut [T],
+    nx: usize,
+    ny: usize,
+    along_x: impl Fn(&mut [T]),
+    along_y: impl Fn(&mut [T]),
+) {
+    for row in a.chunks_exact_mut(nx) {
+        along_x(row);
+    }
+    let mut column = vec![T::default(); ny];
+    for i in 0..nx {
+        for (j, c) in column.iter_mut().enumerate() {
+            *c = a[j * nx + i];
+        }
+        along_y(&mut column);
+        for (j, c) in column.iter().enumerate() {
+            a[j * nx + i] = *c;
+        }
+    }
+}
+
 /// Power of each cosine mode (m, n) at index n·nx + m: the squared
 /// coefficient of the orthonormal two-dimensional DCT-II.
 fn cosine_power(field: &SheetField) -> Vec<f64> {
@@ -140,19 +164,7 @@ fn cosine_power(field: &SheetField) -> Vec<f64> {
     let mut planner = DctPlanner::new();
     let (along_x, along_y) = (planner.plan_dct2(nx), planner.plan_dct2(ny));
     let mut a = field.values.to_vec();
-    for row in a.chunks_exact_mut(nx) {
-        along_x.process_dct2(row);
-    }
-    let mut column = vec![0.0; ny];
-    for i in 0..nx {
-        for j in 0..ny {
-            column[j] = a[j * nx + i];
-        }
-        along_y.process_dct2(&mut column);
-        for j in 0..ny {
-            a[j * nx + i] = column[j];
-        }
-    }
+    transform_2d(&mut a, nx, ny, |r| along_x.process_dct2(r), |c| along_y.process_dct2(c));
     // Orthonormal scaling: 1/N for the mean mode, 2/N for the others, per axis.
     let scale = |k: usize, n: usize| if k == 0 { 1.0 / n as f64 } else { 2.0 / n as f64 };
     a.iter().enumerate().map(|(k, c)| c * c * scale(k % nx, nx) * scale(k / nx, ny)).collect()
@@ -164,19 +176,7 @@ fn fourier_power(field: &SheetField) -> Vec<f64> {
     let mut planner = FftPlanner::new();
     let (along_x, along_y) = (planner.plan_fft_forward(nx), planner.plan_fft_forward(ny));
     let mut a: Vec<Complex64> = field.values.iter().map(|v| Complex64::new(*v, 0.0)).collect();
-    for row in a.chunks_exact_mut(nx) {
-        along_x.process(row);
-    }
-    let mut column = vec![Complex64::new(0.0, 0.0); ny];
-    for i in 0..nx {
-        for j in 0..ny {
-            column[j] = a[j * nx + i];
-        }
-        along_y.process(&mut column);
-        for j in 0..ny {
-            a[j * nx + i] = column[j];
-        }
-    }
+    transform_2d(&mut a, nx, ny, |r| along_x.process(r), |c| along_y.process(c));
     let n = (nx * ny) as f64;
     a.iter().map(|c| c.norm_sqr() / n).collect()
 }

@@ -44,6 +44,7 @@ pub mod error;
 pub mod export;
 pub mod files;
 pub mod fit;
+pub mod growth;
 pub mod integrate;
 pub mod kinetics;
 pub mod measure;
@@ -163,6 +164,9 @@ fn lock<T>(m: &std::sync::Mutex<T>) -> std::sync::MutexGuard<'_, T> {
 /// # Errors
 /// [`StepError`] if the state becomes non-finite or error-controlled steps collapse.
 pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpointing>) -> Result<Run, StepError> {
+    if model.growth.is_some() {
+        return Err(StepError::Growing);
+    }
     let start = Instant::now();
     let tissue = tissue::Tissue::new(model);
     let kinetics = kinetics::build(model);

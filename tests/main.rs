@@ -13,6 +13,7 @@ mod fold_curves;
 #[allow(dead_code)] // also the core of examples/fuzz_models.rs
 mod fuzz_core;
 mod gradient_table;
+mod growth;
 mod hostile;
 mod imaging;
 mod initial_formula;

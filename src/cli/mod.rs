@@ -9,6 +9,7 @@ mod cluster;
 mod common;
 mod compare;
 mod fit;
+mod grow;
 mod json;
 mod measure;
 mod phase;

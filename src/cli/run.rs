@@ -72,6 +72,9 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
             (model, None, out.clone().unwrap_or_else(|| default_out(path)))
         }
     };
+    if model.growth.is_some() {
+        return super::grow::run_growth(&model, args, &dir);
+    }
     let style_options = look.options();
     // Check the picture options before a long run, against the snapshot times to come.
     Style::with_options(&planned_recording(&model), &model.title, &style_options)?;

@@ -6,6 +6,7 @@
 mod bifurcation_tables;
 mod compare_tables;
 mod fit_tables;
+mod growth_tables;
 mod phase_tables;
 mod replicate_tables;
 mod screen_tables;
@@ -24,6 +25,7 @@ pub use fit_tables::{
     CombinationRow, CorrelationRow, FitRow, ProfilePointRow, ResidualRow, StartRow, TraceRow, write_combinations,
     write_correlation, write_fit, write_profiles as write_fit_profiles, write_residuals, write_starts, write_trace,
 };
+pub use growth_tables::{GROWTH_TABLES, write_growth_tables};
 pub use phase_tables::{
     BasinRow, CommitmentRow, FixedPointRow, FrozenNucleus, LandscapeRow, write_attractors, write_basins,
     write_commitment, write_landscape,

@@ -68,6 +68,12 @@ pub enum StepError {
         /// A step that would do, min.
         advice: f64,
     },
+    /// A growing row given to a verb that runs rows of fixed size.
+    #[error(
+        "the model grows ([growth]), and this verb simulates rows of fixed size: run a growing row with \
+         `anlage run`, or remove [growth] to ask this question of the row at its starting size"
+    )]
+    Growing,
     /// Stopped on request (a signal), at this time.
     #[error("stopped at t = {t_min:.4} min on request (a signal)")]
     Stopped {
@@ -208,6 +214,9 @@ pub fn integrate_from(
     snapshot: impl FnMut(f64, &Array2<f64>) + Send,
     accepted: impl FnMut(&Stepper, Progress, StepStats) -> bool + Send,
 ) -> Result<StepStats, StepError> {
+    if model.growth.is_some() {
+        return Err(StepError::Growing);
+    }
     if parallel && rayon::current_thread_index().is_none() {
         // The time loop runs on a worker of the pool, so that the parallel
         // parts of every step start there, not by a hand-over from this
@@ -253,6 +262,47 @@ fn integrate_on_worker(
         StepControl::Fixed(steps) => time_loop.fixed(steps, kinetics, tissue, snapshot, accepted),
         StepControl::Adaptive(control) => time_loop.error_controlled(control, snapshot, accepted),
     }
+}
+
+/// Error-controlled steps from state `u0` at `t0` (min) through each of
+/// `targets` (increasing, after `t0`), landing on each exactly and calling
+/// `reached(t, state)` there: one stretch of a run whose grid or circuit
+/// changes between stretches (a growing, dividing row). `first_try` is the
+/// step to try first (min; 0 to choose it from the rates). Returns the step
+/// counts and the step to try next.
+///
+/// # Errors
+/// [`StepError`] when the state stops being finite or steps collapse.
+///
+/// # Panics
+/// If the model's steps are fixed (growing rows are refused them).
+#[allow(clippy::too_many_arguments)]
+pub fn integrate_span(
+    model: &Model,
+    kinetics: &dyn Kinetics,
+    tissue: &Tissue,
+    parallel: bool,
+    t0: f64,
+    u0: Array2<f64>,
+    targets: &[f64],
+    first_try: f64,
+    reached: impl FnMut(f64, &Array2<f64>),
+) -> Result<(StepStats, f64), StepError> {
+    let names = model.genes.iter().map(|g| g.name.clone()).collect();
+    let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
+    let stepper = Stepper::new(kinetics, tissue, model.clock.scheme, &d, names, u0, t0, parallel, forcing(model))?;
+    let StepControl::Adaptive(control) = StepControl::new(&model.clock) else {
+        panic!("a stretch of a run is integrated with error-controlled steps");
+    };
+    let next_step_min = if first_try > 0.0 { first_try } else { control.first_step(stepper.state(), stepper.rates()) };
+    let progress = Progress { next_snapshot: 0, steps_taken: 0, next_step_min };
+    let time_loop = TimeLoop { model, stepper, stats: StepStats::default(), progress, times: targets.to_vec() };
+    let mut next = 0.0;
+    let stats = time_loop.error_controlled(control, reached, |_, p, _| {
+        next = p.next_step_min;
+        true
+    })?;
+    Ok((stats, next))
 }
 
 /// A time loop in progress.

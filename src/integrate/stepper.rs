@@ -22,6 +22,8 @@ pub struct Stepper<'a> {
     /// Where attempts put the state at the end of the step.
     trial: Array2<f64>,
     scheme: AnyScheme,
+    /// The tissue, when it grows (its stretch scales diffusion).
+    growing: Option<&'a Tissue>,
 }
 
 /// Changes to the plain reaction–diffusion system with sealed edges: made
@@ -65,7 +67,8 @@ impl<'a> Stepper<'a> {
         ops.reactions.clamp(&mut now.u);
         ops.reactions.eval(now.t, &now.u, &mut now.f)?;
         let scheme = AnyScheme::new(scheme, &now, &ops);
-        Ok(Stepper { ops, now, trial: Array2::zeros(dim), scheme })
+        let growing = (tissue.stretch_at(t0 + 1.0) != 1.0).then_some(tissue);
+        Ok(Stepper { ops, now, trial: Array2::zeros(dim), scheme, growing })
     }
 
     /// The scheme it steps with.
@@ -143,6 +146,11 @@ impl<'a> Stepper<'a> {
     /// held genes reset (the accepted state and history unchanged, unless
     /// [`Self::accept_every_step`] was called: then the trial must be accepted).
     pub fn attempt(&mut self, k: f64) {
+        if let Some(tissue) = self.growing {
+            // Diffusion is implicit at the end of the step: on a grid
+            // stretched by e there, D∇² is D·e⁻² times the grid's own.
+            self.ops.diffusion.scale_to(tissue.stretch_at(self.now.t + k).powi(-2));
+        }
         self.scheme.attempt(k, &self.now, &mut self.ops, &mut self.trial);
         self.ops.reactions.clamp(&mut self.trial);
     }

@@ -83,6 +83,15 @@ impl Input {
 
 /// Builds the rate law of a model.
 pub fn build(model: &Model) -> Box<dyn Kinetics> {
+    let circuit = build_circuit(model);
+    match &model.growth {
+        Some(g) if g.rate_per_min > 0.0 => Box::new(Diluted { inner: circuit, rate_per_min: g.rate_per_min }),
+        _ => circuit,
+    }
+}
+
+/// The circuit's own rates, without dilution by growth.
+fn build_circuit(model: &Model) -> Box<dyn Kinetics> {
     let builtin: Option<Box<dyn Kinetics>> = match model.circuit.kinetics {
         KineticsKind::Hill => Some(Box::new(HillKinetics::new(model))),
         KineticsKind::Sigmoid => Some(Box::new(SigmoidKinetics::new(model))),
@@ -92,6 +101,33 @@ pub fn build(model: &Model) -> Box<dyn Kinetics> {
         Box::new(RatesKinetics::new(model, builtin))
     } else {
         builtin.expect("hill or sigmoid when no gene has a rate expression")
+    }
+}
+
+/// A circuit in a row growing at relative rate g: every level is diluted,
+/// `f_g(u, m) − g·u_g` (see [`crate::model::growth`]).
+struct Diluted {
+    inner: Box<dyn Kinetics>,
+    /// g, 1/min.
+    rate_per_min: f64,
+}
+
+impl Kinetics for Diluted {
+    fn rates(&self, u: ArrayView2<f64>, m: ArrayView2<f64>, mut out: ArrayViewMut2<f64>) {
+        self.inner.rates(u, m, out.view_mut());
+        out.zip_mut_with(&u, |o, &u| *o -= self.rate_per_min * u);
+    }
+
+    fn reads_time(&self) -> bool {
+        self.inner.reads_time()
+    }
+
+    fn jacobian(&self, u: &[f64], m: &[f64], jac: &mut [f64]) {
+        self.inner.jacobian(u, m, jac);
+        let g = u.len();
+        for i in 0..g {
+            jac[i * g + i] -= self.rate_per_min;
+        }
     }
 }
 

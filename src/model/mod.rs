@@ -8,6 +8,7 @@ mod edge;
 mod error;
 pub mod expr;
 pub mod gradient_table;
+pub mod growth;
 mod level;
 mod mutant;
 pub mod noise;
@@ -59,6 +60,8 @@ pub struct Model {
     pub ectopic: Vec<Ectopic>,
     /// How replicate embryos differ (`[noise]`).
     pub noise: noise::Noise,
+    /// Growth and division cycles (`[growth]`), if the row grows.
+    pub growth: Option<growth::Growth>,
 }
 
 impl Model {

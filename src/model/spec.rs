@@ -32,6 +32,8 @@ pub struct ModelSpec {
     pub mutant: Vec<Spanned<MutantSpec>>,
     /// How replicate embryos differ (see `super::noise`).
     pub noise: Option<Spanned<super::noise::NoiseSpec>>,
+    /// Growth and division cycles of a row (see `super::growth`).
+    pub growth: Option<Spanned<super::growth::GrowthSpec>>,
     /// Parameter fitting (read by `anlage fit`, see `crate::fit`).
     pub fit: Option<toml::Value>,
 }

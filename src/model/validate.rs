@@ -105,8 +105,10 @@ pub fn validate(spec: ModelSpec, src: &Source) -> Result<Model, ModelError> {
         clamps: vec![None; n_genes],
         ectopic: Vec::new(),
         noise: super::noise::Noise::default(),
+        growth: None,
     };
     model.noise = super::noise::check_noise(&model, spec.noise.as_ref(), src)?;
+    model.growth = super::growth::check_growth(&model, spec.growth.as_ref(), src)?;
     let mut seen_mutants: HashMap<String, usize> = HashMap::new();
     for m in &spec.mutant {
         let (line, column) = src.locate(&m.span(), "name");

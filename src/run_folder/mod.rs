@@ -16,6 +16,7 @@
 //! [`crate::render`] (pictures); this module decides which files make a run
 //! folder and in what order they become complete.
 
+mod growth;
 mod manifest;
 mod read;
 mod summary;
@@ -26,6 +27,7 @@ use crate::model::Model;
 use crate::outputs::{PictureKind, WriteError, write_pictures};
 use crate::{Run, export, readout, render};
 
+pub use growth::{EventSummary, GrowthSummary, write_growth_run};
 pub use manifest::{
     BUSY, MANIFEST, MANIFEST_FORMAT, Manifest, ManifestEntry, Reservation, add_to_manifest, incomplete, reserve,
     sha256_of, unmark, write_manifest,
@@ -129,7 +131,7 @@ pub const DERIVED_OUTPUTS: &[&str] = &[
 
 /// Removes [`DERIVED_OUTPUTS`] and the pictures named after a derived
 /// output (`comparison_t…`, `portrait_…`) from `dir`.
-fn remove_derived(dir: &Path) {
+pub(crate) fn remove_derived(dir: &Path) {
     for name in DERIVED_OUTPUTS {
         let _ = std::fs::remove_file(dir.join(name));
     }
@@ -154,6 +156,9 @@ pub const RUN_OUTPUTS: &[&str] = &[
     "contours.csv",
     "contour_points.csv",
     "sheet_domains.csv",
+    "growth_frames.csv",
+    "growth_events.csv",
+    "growth_profiles.csv",
     "contours.png",
     "contours.svg",
     "states.npy",

@@ -30,6 +30,16 @@ pub enum RunFolderError {
         /// What is missing or changed.
         why: String,
     },
+    /// The folder holds a growing row's run, which has no `states.npy`.
+    #[error(
+        "{}: this folder holds a growing row's run, whose snapshots have different grids; this verb reads runs of \
+         fixed rows and sheets. The growing row's tables (growth_*.csv, boundaries.csv) and pictures are in the folder",
+        dir.display()
+    )]
+    Growing {
+        /// The folder.
+        dir: PathBuf,
+    },
     /// A file is there but not as `anlage run` writes it.
     #[error("{}: {problem}; run the model again to rewrite the folder", path.display())]
     Malformed {
@@ -62,6 +72,9 @@ pub fn load(dir: &Path) -> Result<SavedRun, RunFolderError> {
             path: dir.to_path_buf(),
             source: std::io::Error::new(std::io::ErrorKind::NotFound, "no such folder"),
         });
+    }
+    if dir.join(crate::export::GROWTH_TABLES[1]).is_file() && !dir.join(STATES).exists() {
+        return Err(RunFolderError::Growing { dir: dir.to_path_buf() });
     }
     if let Some(why) = super::incomplete(dir, &[SUMMARY, STATES, MODEL_COPY]) {
         return Err(RunFolderError::Incomplete { dir: dir.to_path_buf(), why });

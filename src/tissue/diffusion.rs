@@ -214,7 +214,10 @@ impl Rhs<'_> {
 /// Implicit diffusion for all genes of a tissue.
 pub struct Diffusion {
     grid: Grid,
+    /// Coefficients in use, µm²/min: [`Self::base`] times the last scale.
     d: Vec<f64>,
+    /// Coefficients as given, µm²/min.
+    base: Vec<f64>,
     /// Per gene, the edges holding a level (left, right, bottom, top).
     held: Vec<[bool; 4]>,
     solver: Solver,
@@ -241,7 +244,15 @@ impl Diffusion {
         } else {
             Solver::Spectral(Box::new(SpectralSolver::new(grid)))
         };
-        Diffusion { grid: *grid, d: d.to_vec(), held, solver }
+        Diffusion { grid: *grid, d: d.to_vec(), base: d.to_vec(), held, solver }
+    }
+
+    /// Uses `scale`·D_g for every gene from now on (a growing row's grid
+    /// stretched by e: scale = e⁻²); factors are rebuilt as needed.
+    pub fn scale_to(&mut self, scale: f64) {
+        for (d, b) in self.d.iter_mut().zip(&self.base) {
+            *d = b * scale;
+        }
     }
 
     /// `out_g ← D_g ∇²u_g` for every gene g (rows), explicitly, a.u./min

@@ -35,6 +35,22 @@ pub struct Tissue {
     amplitude: Vec<Vec<(f64, f64)>>,
     /// Genes whose neighbour means are inputs (all genes, or none).
     neighbour_genes: usize,
+    /// On a growing row, how its positions stretch with time.
+    stretch: Option<Stretch>,
+}
+
+/// A growing row's stretch: positions and distances at time t are those of
+/// the grid times e^{g(t − t₀)}, and gradient values are read there.
+#[derive(Debug, Clone)]
+struct Stretch {
+    /// g, 1/min.
+    rate_per_min: f64,
+    /// t₀, min: when the grid had its stated spacing.
+    since_min: f64,
+    /// Distance of each nucleus from each gradient's source at t₀, µm [gradient, nucleus].
+    distance: Array2<f64>,
+    /// The gradients (their shapes, peaks and baselines).
+    gradients: Vec<crate::model::Gradient>,
 }
 
 impl Tissue {
@@ -50,12 +66,36 @@ impl Tissue {
                 }
             }
         }
+        let stretch = model.growth.as_ref().filter(|g| g.rate_per_min > 0.0).map(|g| Stretch {
+            rate_per_min: g.rate_per_min,
+            since_min: 0.0,
+            distance: Array2::from_shape_fn((model.gradients.len(), grid.len()), |(m, i)| {
+                distance_um(&grid, model.gradients[m].from, i % grid.nx, i / grid.nx)
+            }),
+            gradients: model.gradients.clone(),
+        });
         Tissue {
             grid,
             shape,
             amplitude: model.gradients.iter().map(|g| g.amplitude.clone()).collect(),
             neighbour_genes: if model.circuit.neighbours { model.genes.len() } else { 0 },
+            stretch,
         }
+    }
+
+    /// On a growing row, states that the grid has its stated spacing at
+    /// `t_min` (positions stretch by e^{g(t − t_min)} from then on).
+    pub fn stretched_from(mut self, t_min: f64) -> Tissue {
+        if let Some(s) = &mut self.stretch {
+            s.since_min = t_min;
+        }
+        self
+    }
+
+    /// How much longer the row is at `t_min` than its grid says: e^{g(t − t₀)}
+    /// on a growing row, else 1.
+    pub fn stretch_at(&self, t_min: f64) -> f64 {
+        self.stretch.as_ref().map_or(1.0, |s| (s.rate_per_min * (t_min - s.since_min)).exp())
     }
 
     /// Number of gradients.
@@ -75,7 +115,7 @@ impl Tissue {
 
     /// True when any gradient's amplitude changes with time.
     pub fn time_varying(&self) -> bool {
-        self.amplitude.iter().any(|a| a.len() > 1)
+        self.stretch.is_some() || self.amplitude.iter().any(|a| a.len() > 1)
     }
 
     /// Writes the gradients, x and t at time `t_min` into `out` ([input, nucleus]);
@@ -86,13 +126,22 @@ impl Tissue {
     pub fn fill_inputs(&self, t_min: f64, out: &mut Array2<f64>) {
         assert_eq!(out.dim(), (self.n_inputs(), self.grid.len()), "input buffer shape");
         let k = self.shape.nrows();
+        let e = self.stretch_at(t_min);
         for (m, (mut row, shape)) in out.outer_iter_mut().zip(self.shape.outer_iter()).enumerate() {
             let a = amplitude_at(&self.amplitude[m], t_min);
-            row.zip_mut_with(&shape, |o, s| *o = a * s);
+            match &self.stretch {
+                None => row.zip_mut_with(&shape, |o, s| *o = a * s),
+                Some(s) => {
+                    let g = &s.gradients[m];
+                    row.zip_mut_with(&s.distance.row(m), |o, d| {
+                        *o = a * (g.baseline + (g.peak - g.baseline) * unit_shape(&g.shape, d * e));
+                    });
+                }
+            }
         }
         let nx = self.grid.nx;
         for (i, v) in out.row_mut(k).iter_mut().enumerate() {
-            *v = self.grid.x_um(i % nx);
+            *v = e * self.grid.x_um(i % nx);
         }
         self.fill_time(t_min, out);
     }

@@ -1,0 +1,162 @@
+//! `[growth]`: a row that lengthens and whose nuclei divide.
+//!
+//! - **Uniform growth** at relative rate g (1/min): the row's length is
+//!   L(t) = L₀·e^{g·t}, every nucleus moves with the tissue (x_i(t) =
+//!   x_i(0)·e^{g·t} until the grid changes), and every level is diluted at
+//!   rate g (the nuclei's volume grows with the length). In the nuclei's own
+//!   (material) coordinates the equations become
+//!   `∂u/∂t = D·e^{−2g(t−t₀)}·∂²u/∂ξ² − g·u + f(u, m(x(ξ, t), t))` (Crampin,
+//!   Gaffney & Maini 1999, Bull. Math. Biol. 61:1093, eq. 2.5 for uniform
+//!   domain growth; from memory).
+//! - **Division cycles** at given times: every nucleus is replaced by two
+//!   daughters, each with its mother's levels and half its share of the
+//!   length, so the amount Σ u·h is unchanged; production of every gene
+//!   pauses for `mitosis_min` before each division (decay, dilution and
+//!   diffusion go on).
+//! - **Refinement**: without a division, the grid is split the same way
+//!   (each nucleus in two, keeping its amount, with a limited linear
+//!   reconstruction) whenever the spacing reaches twice its starting value,
+//!   so that a growing row keeps its resolution.
+
+use serde::Deserialize;
+use toml::Spanned;
+
+use super::{Model, ModelError, Source, Stepping};
+
+/// `[growth]` as written.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct GrowthSpec {
+    /// Relative elongation rate g, 1/min (default 0).
+    pub rate_per_min: Option<f64>,
+    /// Times at which every nucleus divides, min.
+    #[serde(default)]
+    pub divide_at_min: Vec<f64>,
+    /// Length of the mitosis window before each division, min, in which
+    /// production pauses (default 0).
+    pub mitosis_min: Option<f64>,
+}
+
+/// A checked `[growth]`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Growth {
+    /// Relative elongation rate g, 1/min.
+    pub rate_per_min: f64,
+    /// Division times, min, strictly increasing, inside the run.
+    pub divide_at_min: Vec<f64>,
+    /// Mitosis window before each division, min.
+    pub mitosis_min: f64,
+}
+
+impl Growth {
+    /// Length of a row that was `l0` µm long at t = 0, at time `t` (min), µm.
+    pub fn length_at(&self, l0: f64, t_min: f64) -> f64 {
+        l0 * (self.rate_per_min * t_min).exp()
+    }
+
+    /// True while production pauses (inside a mitosis window [t_d − w, t_d)).
+    pub fn in_mitosis(&self, t_min: f64) -> bool {
+        self.divide_at_min.iter().any(|&d| t_min >= d - self.mitosis_min && t_min < d)
+    }
+}
+
+/// Checks `[growth]` against the rest of the model.
+pub(super) fn check_growth(
+    model: &Model,
+    spec: Option<&Spanned<GrowthSpec>>,
+    src: &Source,
+) -> Result<Option<Growth>, ModelError> {
+    let Some(spanned) = spec else { return Ok(None) };
+    let (s, span) = (spanned.get_ref(), spanned.span());
+    let fail = |key: &str, problem: String, fix: &str| src.invalid(&span, key, format!("growth.{key}"), problem, fix);
+    let rate = s.rate_per_min.unwrap_or(0.0);
+    if !(rate.is_finite() && rate >= 0.0) {
+        return Err(fail(
+            "rate_per_min",
+            format!("is {rate}"),
+            "give the relative elongation rate, a number >= 0 in 1/min (e.g. 0.01)",
+        ));
+    }
+    let mitosis = s.mitosis_min.unwrap_or(0.0);
+    if !(mitosis.is_finite() && mitosis >= 0.0) {
+        return Err(fail("mitosis_min", format!("is {mitosis}"), "give the mitosis window, a number of minutes >= 0"));
+    }
+    let until = model.clock.until_min;
+    let mut previous = 0.0;
+    for (i, &t) in s.divide_at_min.iter().enumerate() {
+        if !(t.is_finite() && t > previous && t < until) {
+            return Err(fail(
+                "divide_at_min",
+                format!("entry {i} is {t}"),
+                &format!(
+                    "give division times in increasing order, each after the one before and inside the run (0 < t < {until})"
+                ),
+            ));
+        }
+        if t - mitosis < previous {
+            return Err(fail(
+                "mitosis_min",
+                format!(
+                    "is {mitosis}, longer than the {} min between division {i} and the time before it",
+                    t - previous
+                ),
+                "shorten mitosis_min or space the divisions further apart",
+            ));
+        }
+        previous = t;
+    }
+    if rate == 0.0 && s.divide_at_min.is_empty() {
+        return Err(fail(
+            "rate_per_min",
+            "is 0 and no divisions are given: nothing grows".into(),
+            "give rate_per_min > 0 or divide_at_min, or remove [growth]",
+        ));
+    }
+    let tissue = |problem: String, fix: &str| fail("rate_per_min", problem, fix);
+    if model.grid.is_sheet() {
+        return Err(tissue(
+            "is given for a sheet; growth and divisions are for rows".into(),
+            "use a row (nuclei = [n]) or remove [growth]",
+        ));
+    }
+    if model.grid.edges == super::Edges::Periodic {
+        return Err(tissue(
+            "is given for a periodic row; a growing row has two ends".into(),
+            "use edges = \"sealed\" or remove [growth]",
+        ));
+    }
+    if let Some(g) = model.genes.iter().find(|g| !g.edges.all_sealed()) {
+        return Err(tissue(
+            format!(
+                "is given, and gene `{}` has an edge rule (influx or held level), which growth does not rescale",
+                g.name
+            ),
+            "make the source a gene produced near the edge (a rate expression with step(...) of x), or remove [growth]",
+        ));
+    }
+    if model.clock.scheme != super::Scheme::Sbdf2 {
+        return Err(tissue(
+            "is given with clock.scheme other than sbdf2".into(),
+            "growing rows step with sbdf2: remove clock.scheme",
+        ));
+    }
+    if let Stepping::Fixed { .. } = model.clock.stepping {
+        return Err(tissue(
+            "is given with a fixed clock.step_min; a growing row changes its grid at divisions and refinements, and its steps are error-controlled".into(),
+            "give clock.tolerance (e.g. 1e-6) instead of step_min",
+        ));
+    }
+    if mitosis > 0.0
+        && let Some(g) = model.genes.iter().find(|g| g.rate.is_some())
+    {
+        return Err(fail(
+            "mitosis_min",
+            format!(
+                "is {mitosis}, and gene `{}` has a rate expression, which has no separate production to pause",
+                g.name
+            ),
+            "write the pause into the expression (e.g. a factor of step(t - a) for a window ending at a), and set mitosis_min = 0",
+        ));
+    }
+    Ok(Some(Growth { rate_per_min: rate, divide_at_min: s.divide_at_min.clone(), mitosis_min: mitosis }))
+}

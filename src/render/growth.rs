@@ -1,0 +1,87 @@
+//! Pictures of a growing row ([`crate::growth`]): the kymograph and the
+//! boundary positions against time, both along % of the length at each
+//! time, with each division marked by a dashed line and each mitosis window
+//! shaded.
+
+use super::axes::Axes;
+use super::canvas::{Align, Canvas};
+use super::{Style, boundary_positions, kymograph};
+use crate::growth::{EventKind, GrowthRun};
+use crate::integrate::{ReadBackError, Recording};
+use crate::readout::Boundary;
+
+/// Nuclei of the grid that the pictures resample every snapshot onto.
+pub const DISPLAY_NUCLEI: usize = 400;
+
+/// The boundaries as the display recording (100 "µm" long: % of the
+/// length at each time) places them.
+fn in_display_units(boundaries: &[Boundary], run: &GrowthRun) -> Vec<Boundary> {
+    boundaries
+        .iter()
+        .map(|b| {
+            let length = run.frames.iter().find(|f| f.time_min == b.time_min).map_or(100.0, |f| f.grid.length_um());
+            Boundary { position_um: b.position_pct, width_um: 100.0 * b.width_um / length, ..b.clone() }
+        })
+        .collect()
+}
+
+/// Marks divisions (dashed lines, labelled with the nuclei after) and
+/// mitosis windows (a bar beside the plot area) at their times, on the plot
+/// area `a` whose time axis is across (`time_across`) or down.
+fn mark_events(c: &mut Canvas, a: &Axes, run: &GrowthRun, style: &Style, time_across: bool) {
+    let muted = style.background.muted();
+    let ink = style.background.ink();
+    let mut window_start = None;
+    for e in &run.events {
+        match e.kind {
+            EventKind::MitosisStart => window_start = Some(e.time_min),
+            EventKind::Division => {
+                if let Some(t0) = window_start.take() {
+                    // A bar beside the plot area, along the window.
+                    let bar = if time_across {
+                        [(a.px(t0), a.top - 5.0), (a.px(e.time_min), a.top - 5.0)]
+                    } else {
+                        [(a.left - 5.0, a.py(t0)), (a.left - 5.0, a.py(e.time_min))]
+                    };
+                    c.polyline(&bar, 6.0, muted, 230, None);
+                }
+                let line = if time_across {
+                    [(a.px(e.time_min), a.top), (a.px(e.time_min), a.top + a.height)]
+                } else {
+                    [(a.left, a.py(e.time_min)), (a.left + a.width, a.py(e.time_min))]
+                };
+                c.polyline(&line, 1.2, ink, 200, Some([4.0, 3.0]));
+                let label = format!("{} nuclei", e.nuclei.1);
+                if time_across {
+                    c.text(a.px(e.time_min) + 3.0, a.top + 12.0, 11.0, ink, Align::Left, &label);
+                } else {
+                    c.text(a.left + a.width - 4.0, a.py(e.time_min) - 3.0, 11.0, ink, Align::Right, &label);
+                }
+            }
+            EventKind::Refinement => {}
+        }
+    }
+}
+
+/// The kymograph and the boundary-position picture of a growing row, from
+/// its display recording ([`GrowthRun::display_recording`]) and its
+/// boundaries (µm and % at each time).
+///
+/// # Errors
+/// [`ReadBackError`] never in practice (the recording is in memory).
+pub fn growth_pictures(
+    run: &GrowthRun,
+    display: &Recording,
+    boundaries: &[Boundary],
+    style: &Style,
+) -> Result<(Canvas, Canvas), ReadBackError> {
+    let shown = in_display_units(boundaries, run);
+    let (mut kymo, layout) = kymograph(display, &shown, style)?;
+    mark_events(&mut kymo, &layout.axes, run, style, false);
+    let (mut track, a) = boundary_positions(display, &shown, style)?;
+    mark_events(&mut track, &a, run, style, true);
+    let note = "% of the length at each time; dashed: divisions; bars: mitosis (production paused)";
+    let y = track.height() as f32 - 8.0;
+    track.text(a.left, y, 11.0, style.background.muted(), Align::Left, note);
+    Ok((kymo, track))
+}

@@ -1,0 +1,285 @@
+//! Growing and dividing rows ([growth]), against closed forms: dilution,
+//! conservation of amount across divisions and refinements, the decay of a
+//! cosine mode on a growing row, production paused during mitosis, and the
+//! positions of a gradient read on a stretching row.
+
+use anlage::growth::{EventKind, grow};
+use anlage::model::Model;
+
+fn model(text: &str) -> Model {
+    Model::from_toml(text, "growth.toml".as_ref()).unwrap()
+}
+
+/// A uniform level with no production is diluted as e^{−g t} (the dilution
+/// term −g·u of uniform growth: Crampin, Gaffney & Maini 1999, Bull. Math.
+/// Biol. 61:1093, eq. 2.5, from memory), through two divisions, and the
+/// row's length is L₀·e^{g t} at every snapshot.
+#[test]
+fn a_uniform_level_is_diluted_as_exp_minus_gt() {
+    let m = model(
+        r#"
+[tissue]
+nuclei = [30]
+spacing_um = 4.0
+[clock]
+until_min = 60.0
+tolerance = 1e-10
+snapshot_every_min = 5.0
+[growth]
+rate_per_min = 0.02
+divide_at_min = [20.0, 40.0]
+[[gene]]
+name = "ember"
+production = 0.0
+decay = 0.0
+initial = 2.0
+"#,
+    );
+    let run = grow(&m, false).unwrap();
+    assert_eq!(run.frames.len(), 13);
+    let divisions: Vec<f64> = run.events.iter().filter(|e| e.kind == EventKind::Division).map(|e| e.time_min).collect();
+    assert_eq!(divisions, [20.0, 40.0]);
+    for f in &run.frames {
+        let expected = 2.0 * (-0.02 * f.time_min).exp();
+        for &v in &f.state {
+            approx::assert_relative_eq!(v, expected, max_relative = 1e-6);
+        }
+        approx::assert_relative_eq!(f.grid.length_um(), 120.0 * (0.02 * f.time_min).exp(), max_relative = 1e-12);
+    }
+    assert_eq!(run.frames.last().unwrap().grid.nx, 120);
+}
+
+/// With diffusion only (no production, no decay) and sealed ends, the
+/// amount ∫u dx of every gene is constant on a growing row: dilution
+/// (−g·u) exactly balances the stretching of dx (ibid.). Checked through
+/// divisions (daughters inherit) and, on a second row, through refinements
+/// (limited linear split); both keep each mother's amount Σ u·h. A wrong
+/// dilution rate or a division that made or lost material would change the
+/// amount by a factor, not by the integration error allowed here.
+#[test]
+fn amount_is_conserved_through_growth_divisions_and_refinements() {
+    for (divisions, refinements) in [("divide_at_min = [15.0, 35.0]", 0), ("", 2)] {
+        let m = model(&format!(
+            r#"
+[tissue]
+nuclei = [40]
+spacing_um = 3.0
+[clock]
+until_min = 60.0
+tolerance = 1e-10
+snapshot_every_min = 2.5
+[growth]
+rate_per_min = 0.03
+{divisions}
+[[gene]]
+name = "drift"
+production = 0.0
+decay = 0.0
+diffusion = 4.0
+initial_formula = "1 + cos(pi * x / L) + 2 * step(0.3 * L - x)"
+[[gene]]
+name = "still"
+production = 0.0
+decay = 0.0
+initial_formula = "x / L"
+"#
+        ));
+        let run = grow(&m, false).unwrap();
+        let refined = run.events.iter().filter(|e| e.kind == EventKind::Refinement).count();
+        assert_eq!(refined, refinements, "{divisions}");
+        let start = run.amounts(0);
+        for s in 0..run.frames.len() {
+            for (a, a0) in run.amounts(s).iter().zip(&start) {
+                // Time-integration error only: about the number of steps
+                // times the tolerance (2·10⁻⁷ at the end, checked).
+                approx::assert_relative_eq!(*a, *a0, max_relative = 1e-6);
+            }
+        }
+        // The gene that does not diffuse keeps its material profile, only
+        // diluted: after divisions each nucleus has its first ancestor's
+        // level (a staircase); after refinements, the ramp itself (a
+        // limited linear split reproduces a straight line away from the ends).
+        let last = run.frames.last().unwrap();
+        let dilution = (-0.03 * last.time_min).exp();
+        let n = last.grid.nx;
+        let doublings = (n / 40).trailing_zeros();
+        for i in [n / 10, n / 2, 9 * n / 10] {
+            let x_frac =
+                if refinements == 0 { ((i >> doublings) as f64 + 0.5) / 40.0 } else { (i as f64 + 0.5) / n as f64 };
+            approx::assert_relative_eq!(last.state[[1, i]], x_frac * dilution, max_relative = 1e-6);
+        }
+    }
+}
+
+/// A cosine mode on a growing row: in material coordinates ∂u/∂t =
+/// D·e^{−2gt}·∂²u/∂ξ² − g·u (ibid.), so on n nuclei of starting spacing h₀
+/// the mode cos(π(i+½)/n) decays as
+/// ln A(t)/A₀ = −g·t − D·μ·(1 − e^{−2gt})/(2g), with μ = (4/h₀²)·sin²(π/2n)
+/// the discrete Laplacian's eigenvalue (derived here from the equation).
+/// Before the first refinement (spacing below 2·h₀).
+#[test]
+fn a_cosine_mode_decays_as_on_a_growing_domain() {
+    let (n, h0, d, g) = (32usize, 2.0f64, 3.0f64, 0.01f64);
+    let m = model(&format!(
+        r#"
+[tissue]
+nuclei = [{n}]
+spacing_um = {h0}
+[clock]
+until_min = 60.0
+tolerance = 1e-9
+snapshot_every_min = 10.0
+[growth]
+rate_per_min = {g}
+[[gene]]
+name = "wave"
+production = 0.0
+decay = 0.0
+diffusion = {d}
+initial_formula = "1 + cos(pi * x / L)"
+"#
+    ));
+    let run = grow(&m, false).unwrap();
+    assert!(run.events.is_empty(), "no refinement before the spacing doubles");
+    let mu = 4.0 / (h0 * h0) * (std::f64::consts::PI / (2.0 * n as f64)).sin().powi(2);
+    for f in &run.frames {
+        let t = f.time_min;
+        let amplitude: f64 =
+            (0..n).map(|i| f.state[[0, i]] * (std::f64::consts::PI * (i as f64 + 0.5) / n as f64).cos()).sum::<f64>()
+                * 2.0
+                / n as f64;
+        let expected = (-g * t - d * mu * (1.0 - (-2.0 * g * t).exp()) / (2.0 * g)).exp();
+        approx::assert_relative_eq!(amplitude, expected, max_relative = 2e-5);
+        let mean = f.state.row(0).mean().unwrap();
+        approx::assert_relative_eq!(mean, (-g * t).exp(), max_relative = 1e-6);
+    }
+}
+
+/// Production pauses in the mitosis window [t_d − w, t_d): a gene made at
+/// p and lost at d rises as (p/d)(1 − e^{−d t}) and then decays as
+/// e^{−d(t − t_d + w)} in the window (the linear ODE's solution), and
+/// resumes after the division.
+#[test]
+fn production_pauses_during_mitosis() {
+    let m = model(
+        r#"
+[tissue]
+nuclei = [8]
+spacing_um = 5.0
+[clock]
+until_min = 30.0
+tolerance = 1e-9
+snapshot_every_min = 1.0
+[growth]
+divide_at_min = [20.0]
+mitosis_min = 4.0
+[[gene]]
+name = "pulse"
+production = 3.0
+decay = 0.2
+"#,
+    );
+    let run = grow(&m, false).unwrap();
+    let (p, d) = (3.0, 0.2);
+    let at_16 = p / d * (1.0 - (-d * 16.0f64).exp());
+    let at_20 = at_16 * (-d * 4.0f64).exp();
+    for f in &run.frames {
+        let t = f.time_min;
+        let expected = if t <= 16.0 {
+            p / d * (1.0 - (-d * t).exp())
+        } else if t <= 20.0 {
+            at_16 * (-d * (t - 16.0)).exp()
+        } else {
+            p / d + (at_20 - p / d) * (-d * (t - 20.0)).exp()
+        };
+        approx::assert_relative_eq!(f.state[[0, 0]], expected, max_relative = 1e-6);
+        assert_eq!(f.mitosis, t >= 16.0 && t < 20.0, "t = {t}");
+        assert_eq!(f.grid.nx, if t < 20.0 + 1e-9 { 8 } else { 16 }, "t = {t}");
+    }
+}
+
+/// A gradient of fixed decay length stays put in µm while the row grows
+/// under it: a gene that decays fast and is made wherever the gradient is
+/// above its threshold keeps its boundary at x* = λ·ln(peak/K) µm from the
+/// source, so at % of the length it moves towards the source as e^{−g t}.
+/// The boundary lags by about v/d = g·x*/d (the nuclei move at g·x through
+/// a profile that relaxes at rate d; estimate derived here).
+#[test]
+fn a_fixed_gradient_is_read_at_the_stretched_positions() {
+    let m = model(
+        r#"
+[tissue]
+nuclei = [100]
+spacing_um = 2.0
+[clock]
+until_min = 60.0
+tolerance = 1e-8
+snapshot_every_min = 20.0
+[growth]
+rate_per_min = 0.01
+[[gradient]]
+name = "beacon"
+shape = "exponential"
+from = "left"
+peak = 10.0
+decay_length_um = 40.0
+[[gene]]
+name = "reader"
+production = 2.0
+decay = 2.0
+[circuit]
+kinetics = "hill"
+[[circuit.link]]
+from = "beacon"
+to = "reader"
+sign = "+"
+threshold = 2.0
+hill = 8.0
+"#,
+    );
+    let run = grow(&m, false).unwrap();
+    let (boundaries, _) = run.readouts(&m).unwrap();
+    let x_star = 40.0 * (10.0f64 / 2.0).ln();
+    for t in [20.0, 40.0, 60.0] {
+        let b: Vec<_> = boundaries.iter().filter(|b| b.time_min == t).collect();
+        assert_eq!(b.len(), 1, "one boundary at t = {t}");
+        let lag = 0.01 * x_star / (2.0 + 0.01);
+        approx::assert_abs_diff_eq!(b[0].position_um, x_star, epsilon = 2.0 * lag + 0.2);
+        let length = 200.0 * (0.01 * t).exp();
+        approx::assert_relative_eq!(b[0].position_pct, 100.0 * b[0].position_um / length, max_relative = 1e-12);
+    }
+}
+
+/// Growth is refused where it would be wrong or ill-defined, each with the
+/// field named: sheets, fixed steps, rate expressions with a mitosis
+/// window, divisions outside the run; and verbs that run rows of fixed size
+/// refuse a growing row instead of ignoring its growth.
+#[test]
+fn growth_is_refused_where_it_does_not_apply() {
+    let base = |tissue: &str, clock: &str, growth: &str, gene: &str| {
+        format!(
+            "[tissue]\n{tissue}\nspacing_um = 2.0\n[clock]\nuntil_min = 10.0\n{clock}\nsnapshot_every_min = 1.0\n\
+             [growth]\n{growth}\n[[gene]]\nname = \"solo\"\n{gene}\n"
+        )
+    };
+    let ok_gene = "production = 1.0\ndecay = 1.0";
+    let cases = [
+        (base("nuclei = [8, 8]", "tolerance = 1e-6", "rate_per_min = 0.01", ok_gene), "growth.rate_per_min", "rows"),
+        (base("nuclei = [8]", "step_min = 0.1", "rate_per_min = 0.01", ok_gene), "growth.rate_per_min", "tolerance"),
+        (
+            base("nuclei = [8]", "tolerance = 1e-6", "divide_at_min = [5.0]\nmitosis_min = 1.0", "rate = \"1 - solo\""),
+            "growth.mitosis_min",
+            "rate expression",
+        ),
+        (base("nuclei = [8]", "tolerance = 1e-6", "divide_at_min = [12.0]", ok_gene), "growth.divide_at_min", "inside"),
+        (base("nuclei = [8]", "tolerance = 1e-6", "", ok_gene), "growth.rate_per_min", "nothing grows"),
+    ];
+    for (text, field, words) in cases {
+        let e = Model::from_toml(&text, "g.toml".as_ref()).unwrap_err().to_string();
+        assert!(e.contains(field) && e.contains(words), "{e}");
+        assert!(e.starts_with("g.toml:"), "{e}");
+    }
+    let m = model(&base("nuclei = [8]", "tolerance = 1e-6", "rate_per_min = 0.01", ok_gene));
+    let e = anlage::simulate(&m, &anlage::RunOptions::default()).unwrap_err();
+    assert!(e.to_string().contains("the model grows"), "{e}");
+}

@@ -32,6 +32,11 @@ for model in patterns/*.toml; do
     # The ribbon on white, as for a printed figure.
     "$bin" render "$out" --kind kymograph --light --width 560 -o output-samples/ribbon-light > /dev/null
   fi
+  if [ "$name" = cycles ]; then
+    # The growing row's nucleus at 46 % of its length at the end, in the gradient's peak.
+    "$bin" bifurcation "$model" --parameter lumen.peak --from 0 --to 8 --at 46 --gene crest --width 560 -o "$out/bifurcation" > /dev/null
+    rm -f "$out/growth_profiles.csv"
+  fi
   if [ "$name" = ring_waves ]; then
     "$bin" render "$out" --kind kymograph --genes cyan --heatmap --width 560 -o "$out/cyan" > /dev/null
   fi

@@ -75,12 +75,22 @@ library_errors!(
     ],
     run: [
         crate::replicates::ReplicateError,
-        crate::StepError,
         crate::export::ExportError,
         crate::integrate::ReadBackError
     ],
-    by_variant: [crate::WriteError]
+    by_variant: [crate::WriteError, crate::StepError]
 );
+
+impl Blamed for crate::StepError {
+    /// A growing model given to a verb for rows of fixed size is the
+    /// input's fault; every other step error is the computation's.
+    fn blame(&self) -> Blame {
+        match self {
+            crate::StepError::Growing => Blame::Input,
+            _ => Blame::Run,
+        }
+    }
+}
 
 impl Blamed for crate::WriteError {
     fn blame(&self) -> Blame {
@@ -109,5 +119,7 @@ mod tests {
         let io = crate::export::ExportError::Io { path: "x".into(), source: std::io::Error::other("disk full") };
         assert_eq!(blame_of(&crate::WriteError::Export(io)), Some(Blame::Run));
         assert_eq!(blame_of(&std::io::Error::other("x")), None);
+        assert_eq!(blame_of(&crate::StepError::Growing), Some(Blame::Input));
+        assert_eq!(blame_of(&crate::StepError::Stopped { t_min: 1.0 }), Some(Blame::Run));
     }
 }

@@ -91,3 +91,24 @@ fn source_makes_its_own_gradient() {
     let want = a + lambda * (big_b / k).ln();
     assert!((fern[0].position_um - want).abs() < 0.5, "fern at {} µm, analytic {want:.2} µm", fern[0].position_um);
 }
+
+/// The cycles demo: three divisions take the row from 24 to 192 nuclei
+/// while it grows as L₀·e^{g t}, and trough's boundary refines from a broad
+/// ramp (wider than 100 µm at 20 min) to a sharp boundary (narrower than
+/// 20 µm, about two final spacings, at the end). Invented scenario.
+#[test]
+fn cycles_refine_a_broad_domain_into_a_sharp_boundary() {
+    let model = load("patterns/cycles.toml");
+    let run = anlage::growth::grow(&model, true).unwrap();
+    let last = run.frames.last().unwrap();
+    assert_eq!(last.grid.nx, 192);
+    approx::assert_relative_eq!(last.grid.length_um(), 192.0 * (0.004f64 * 160.0).exp(), max_relative = 1e-12);
+    let (boundaries, _) = run.readouts(&model).unwrap();
+    let width = |t: f64| {
+        let b: Vec<_> = boundaries.iter().filter(|b| b.gene == "trough" && b.time_min == t).collect();
+        assert_eq!(b.len(), 1, "one trough boundary at {t} min");
+        b[0].width_um
+    };
+    assert!(width(20.0) > 100.0, "{}", width(20.0));
+    assert!(width(160.0) < 20.0, "{}", width(160.0));
+}

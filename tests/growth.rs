@@ -273,6 +273,11 @@ fn growth_is_refused_where_it_does_not_apply() {
         ),
         (base("nuclei = [8]", "tolerance = 1e-6", "divide_at_min = [12.0]", ok_gene), "growth.divide_at_min", "inside"),
         (base("nuclei = [8]", "tolerance = 1e-6", "", ok_gene), "growth.rate_per_min", "nothing grows"),
+        (
+            base("nuclei = [2000000]", "tolerance = 1e-6", "divide_at_min = [1, 2, 3, 4, 5, 6, 7, 8, 9]", ok_gene),
+            "growth.divide_at_min",
+            "GiB",
+        ),
     ];
     for (text, field, words) in cases {
         let e = Model::from_toml(&text, "g.toml".as_ref()).unwrap_err().to_string();
@@ -282,4 +287,89 @@ fn growth_is_refused_where_it_does_not_apply() {
     let m = model(&base("nuclei = [8]", "tolerance = 1e-6", "rate_per_min = 0.01", ok_gene));
     let e = anlage::simulate(&m, &anlage::RunOptions::default()).unwrap_err();
     assert!(e.to_string().contains("the model grows"), "{e}");
+}
+
+/// The phase-space verbs ask their question of the growing row as it stands
+/// at the time asked: the nucleus at x % of the length sits at x %·L₀·e^{g t}
+/// µm, where the gradient is read, and its levels are diluted. For a gene
+/// made at the gradient's level and lost at rate d, the fixed point is
+/// u* = P·e^{−x/λ}/(d + g) along the whole branch in the peak P (the
+/// linear equation's steady state).
+#[test]
+fn a_bifurcation_diagram_reads_the_row_as_it_stands_then() {
+    let m = model(
+        r#"
+[tissue]
+nuclei = [50]
+spacing_um = 4.0
+[clock]
+until_min = 100.0
+tolerance = 1e-6
+snapshot_every_min = 10.0
+[growth]
+rate_per_min = 0.005
+[[gradient]]
+name = "beacon"
+shape = "exponential"
+from = "left"
+peak = 3.0
+decay_length_um = 50.0
+[[gene]]
+name = "gauge"
+rate = "beacon - 0.2 * gauge"
+[circuit]
+kinetics = "rates"
+"#,
+    );
+    let param = m.parse_param("beacon.peak").unwrap();
+    let request = anlage::phase::DiagramRequest { param, from: 1.0, to: 5.0, x_pct: 30.0, t_min: 80.0 };
+    let d = anlage::phase::diagram(&m, &request).unwrap();
+    let x = 0.3 * 200.0 * (0.005f64 * 80.0).exp();
+    let mut checked = 0;
+    for p in d.branches.iter().flat_map(|b| &b.points) {
+        approx::assert_relative_eq!(p.x[0], p.s * (-x / 50.0).exp() / (0.2 + 0.005), max_relative = 1e-8);
+        checked += 1;
+    }
+    assert!(checked > 10, "{checked} points");
+}
+
+/// `anlage run` on a growing row writes its own set of outputs (and no
+/// `states.npy`, since its snapshots differ in size); verbs that read such
+/// folders or simulate rows of fixed size refuse it with a message and a
+/// failing exit code instead of answering for a row that does not grow.
+#[test]
+fn the_command_line_runs_a_growing_row_and_refuses_it_elsewhere() {
+    use crate::common::{anlage, root, temp_dir};
+    let out = temp_dir("cycles_cli");
+    let model = root().join("patterns/cycles.toml");
+    let o = anlage(&["run", model.to_str().unwrap(), "-o", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.contains("from 24 to 192 nuclei") && text.contains("model prediction"), "{text}");
+    for name in ["boundaries.csv", "growth_frames.csv", "growth_events.csv", "growth_profiles.csv", "kymograph.png"] {
+        assert!(out.join(name).is_file(), "{name} missing");
+    }
+    assert!(!out.join("states.npy").exists());
+    let summary: serde_json::Value = serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap();
+    assert_eq!(summary["kind"], "growing row");
+    assert_eq!(summary["nuclei"][1], 192);
+    let o = anlage(&["render", out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("growing row"));
+    let sweep_out = temp_dir("cycles_sweep");
+    let o = anlage(&[
+        "sweep",
+        model.to_str().unwrap(),
+        "--axis",
+        "crest.production=0.2:1:3",
+        "-o",
+        sweep_out.join("s").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2), "the input's fault");
+    assert!(String::from_utf8_lossy(&o.stderr).contains("`sweep`: the model grows"));
+    assert!(!sweep_out.join("s").exists(), "nothing written");
+    // A run of a fixed row into the same folder removes the growing row's tables.
+    let ribbon = root().join("patterns/ribbon.toml");
+    assert!(anlage(&["run", ribbon.to_str().unwrap(), "-q", "-o", out.to_str().unwrap()]).status.success());
+    assert!(!out.join("growth_frames.csv").exists() && out.join("states.npy").is_file());
 }

@@ -135,3 +135,14 @@ pub fn require_png(path: &Path, also: &str) -> Result<(), anlage::render::StyleE
         fix: format!("name a .png file; {also}"),
     })
 }
+
+/// Loads a model for a verb that simulates rows of fixed size, refusing a
+/// growing row ([growth]) before any work, rather than failing at every
+/// point of a screen or sweep.
+pub fn load_fixed(path: &std::path::Path, verb: &str) -> anyhow::Result<Model> {
+    let model = Model::load(path)?;
+    if model.growth.is_some() {
+        return Err(anyhow::Error::new(anlage::StepError::Growing).context(format!("{}: `{verb}`", path.display())));
+    }
+    Ok(model)
+}

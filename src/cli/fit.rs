@@ -2,7 +2,6 @@
 
 use anyhow::Context;
 
-use anlage::model::Model;
 use anlage::progress::Progress;
 
 use super::args::*;
@@ -16,7 +15,7 @@ pub fn fit(args: &FitArgs) -> anyhow::Result<()> {
     if let Some(n) = threads {
         rayon::ThreadPoolBuilder::new().num_threads((*n).max(1)).build_global().context("setting threads")?;
     }
-    let model = Model::load(path)?;
+    let model = super::common::load_fixed(path, "fit")?;
     let names: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
     let colors: Vec<[u8; 3]> = model.genes.iter().map(|g| g.color).collect();
     let style = anlage::render::Style::for_genes(&names, &colors, &model.title, &canvas.options())?;

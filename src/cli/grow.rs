@@ -46,7 +46,7 @@ fn describe(s: &GrowthSummary, seconds: f64, dir: &Path) -> String {
     let t_end = s.snapshot_times_min.last().copied().unwrap_or(0.0);
     let _ = writeln!(
         out,
-        "{}: {} steps ({} rejected) to t = {t_end} min in {seconds:.2} s",
+        "{}: {} steps ({} rejected) to t = {t_end} min in {seconds:.3} s",
         s.title, s.steps, s.rejected_steps
     );
     let _ = writeln!(

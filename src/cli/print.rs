@@ -85,6 +85,30 @@ fn shorten(text: &str) -> String {
     }
 }
 
+/// `anlage check`'s line on a growing row (which has no trial run: its
+/// steps are error-controlled and its grid changes).
+fn growth_line(m: &Model, g: &anlage::model::growth::Growth) -> String {
+    let end = m.clock.until_min;
+    let divisions = if g.divide_at_min.is_empty() {
+        "no divisions".to_string()
+    } else {
+        let times: Vec<String> = g.divide_at_min.iter().map(|t| format!("{t}")).collect();
+        format!(
+            "divisions at {} min ({} to {} nuclei), production paused {} min before each",
+            times.join(", "),
+            m.grid.nx,
+            m.grid.nx << g.divide_at_min.len(),
+            g.mitosis_min
+        )
+    };
+    format!(
+        "growth    {} /min: {:.1} to {:.1} µm by {end} min; {divisions}; the grid is refined wherever its spacing reaches twice the starting spacing",
+        g.rate_per_min,
+        m.grid.length_um(),
+        g.length_at(m.grid.length_um(), end)
+    )
+}
+
 /// What `anlage check` prints.
 pub fn describe(m: &Model) -> String {
     let mut s = String::new();
@@ -154,6 +178,8 @@ pub fn describe(m: &Model) -> String {
             "stability not tried along a run: circuits of more than {} genes are checked for negative levels only",
             anlage::integrate::safety::MAX_GENES_CHECKED
         );
+    } else if let Some(growth) = &m.growth {
+        let _ = writeln!(s, "{}", growth_line(m, growth));
     } else if seconds < 60.0 {
         trial_lines(&mut s, m);
     } else {

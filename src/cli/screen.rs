@@ -2,7 +2,6 @@
 
 use anyhow::Context;
 
-use anlage::model::Model;
 use anlage::render::{Style, StyleError};
 
 use super::args::*;
@@ -33,7 +32,7 @@ pub fn screen(args: &ScreenArgs) -> anyhow::Result<()> {
             "draws no animation without --animate (its picture is the table of shifts)",
         )?;
     }
-    let model = Model::load(path)?;
+    let model = load_fixed(path, "screen")?;
     let mut list = model.mutants.clone();
     for text in mutants {
         list.push(model.parse_mutant(text)?);
@@ -234,7 +233,7 @@ pub fn sensitivity(args: &SensitivityArgs) -> anyhow::Result<()> {
         "sensitivity",
         "draws one still picture of sensitivities read at the end of the run",
     )?;
-    let model = Model::load(path)?;
+    let model = load_fixed(path, "sensitivity")?;
     if !*json {
         for why in model.constants_fixed_by_starts() {
             eprintln!("anlage: note: left out: {why}");
@@ -295,7 +294,7 @@ pub fn sweep(args: &SweepArgs) -> anyhow::Result<()> {
         "sweep",
         "draws one still picture of pattern classes read at the end of each run",
     )?;
-    let model = Model::load(path)?;
+    let model = load_fixed(path, "sweep")?;
     let axes: Vec<anlage::sweep::Axis> =
         axes_text.iter().map(|t| anlage::sweep::Axis::parse(&model, t)).collect::<Result<_, _>>()?;
     anlage::sweep::check_axes(&axes)?;
@@ -359,7 +358,7 @@ pub fn replicates(args: &ReplicatesArgs) -> anyhow::Result<()> {
             "draws no animation without --animate (its pictures are spreads of boundaries)",
         )?;
     }
-    let wild_type = Model::load(path)?;
+    let wild_type = load_fixed(path, "replicates")?;
     let model = wild_type.clone();
     let (name, model) = match mutant {
         None => (None, model),

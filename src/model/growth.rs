@@ -60,6 +60,19 @@ impl Growth {
     }
 }
 
+impl Model {
+    /// The starting grid as the row stands at `t_min`: its spacing
+    /// stretched by e^{g·t} on a growing row (the nucleus count as at the
+    /// start: for questions about positions, not a simulation grid), the
+    /// grid itself otherwise.
+    pub fn grid_at(&self, t_min: f64) -> super::Grid {
+        match &self.growth {
+            Some(g) => super::Grid { spacing_um: self.grid.spacing_um * (g.rate_per_min * t_min).exp(), ..self.grid },
+            None => self.grid,
+        }
+    }
+}
+
 /// Checks `[growth]` against the rest of the model.
 pub(super) fn check_growth(
     model: &Model,
@@ -158,5 +171,26 @@ pub(super) fn check_growth(
             "write the pause into the expression (e.g. a factor of step(t - a) for a window ending at a), and set mitosis_min = 0",
         ));
     }
-    Ok(Some(Growth { rate_per_min: rate, divide_at_min: s.divide_at_min.clone(), mitosis_min: mitosis }))
+    let growth = Growth { rate_per_min: rate, divide_at_min: s.divide_at_min.clone(), mitosis_min: mitosis };
+    // Every snapshot of the grown row is kept in memory (they differ in
+    // size, so they are not streamed): bound the nuclei at the end by the
+    // divisions and by refinement keeping the spacing at least h₀.
+    let doublings = 2f64.powi(growth.divide_at_min.len() as i32);
+    let length_end = growth.length_at(model.grid.length_um(), until);
+    let nuclei = doublings * (model.grid.nx as f64).max(2.0 * length_end / model.grid.spacing_um);
+    let bytes = model.snapshot_count() as f64 * model.genes.len() as f64 * nuclei * 8.0;
+    let budget = crate::integrate::memory::memory_budget_bytes().map_err(|text| ModelError::BadBudget { text })?;
+    if bytes > budget as f64 {
+        return Err(fail(
+            "divide_at_min",
+            format!(
+                "makes up to {nuclei:.0} nuclei, and the {} snapshots of the growing row (kept in memory) would need about {:.1} GiB, more than the {:.1} GiB allowed",
+                model.snapshot_count(),
+                bytes / f64::from(1u32 << 30),
+                budget as f64 / f64::from(1u32 << 30)
+            ),
+            "take fewer snapshots (a larger clock.snapshot_every_min), fewer divisions or a shorter run",
+        ));
+    }
+    Ok(Some(growth))
 }

@@ -54,7 +54,7 @@ impl ParameterFamily {
         for g in &mut model.genes {
             g.initial = Initial::Uniform(0.0);
         }
-        let grid = model.grid;
+        let grid = model.grid_at(t_min);
         ParameterFamily {
             param,
             second: None,
@@ -114,11 +114,13 @@ impl ParameterFamily {
         }
         let model = self.model_at2(s, q);
         let kinetics: Arc<dyn Kinetics> = Arc::from(crate::kinetics::build(&model));
+        // A growing row's positions at that time (the same % of its length).
+        let grid = model.grid_at(self.t_min);
         let point = match self.second {
-            Some(Second::Position) => (q / 100.0 * model.grid.length_um(), self.point_um.1),
+            Some(Second::Position) => (q / 100.0 * grid.length_um(), self.point_um.1),
             _ => self.point_um,
         };
-        let inputs = Arc::new(point_inputs(&model.gradients, &model.grid, point, self.t_min, self.neighbour_genes));
+        let inputs = Arc::new(point_inputs(&model.gradients, &grid, point, self.t_min, self.neighbour_genes));
         if built.len() >= 8 {
             built.remove(0);
         }

@@ -80,7 +80,7 @@ pub struct Landscape {
 /// `hi` bounds the box of Newton starts per gene (a.u.).
 pub fn landscape(model: &Model, t_min: f64, hi: &[f64]) -> Landscape {
     let kinetics = crate::kinetics::build(model);
-    let grid = model.grid;
+    let grid = model.grid_at(t_min);
     let fam = PositionFamily {
         kinetics: kinetics.as_ref(),
         gradients: &model.gradients,

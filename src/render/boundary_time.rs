@@ -19,6 +19,19 @@ pub fn boundary_positions(
     boundaries: &[Boundary],
     style: &Style,
 ) -> Result<(Canvas, Axes), ReadBackError> {
+    boundary_positions_noted(rec, boundaries, style, None)
+}
+
+/// [`boundary_positions`] with one more line of explanation at the foot.
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn boundary_positions_noted(
+    rec: &Recording,
+    boundaries: &[Boundary],
+    style: &Style,
+    extra: Option<&str>,
+) -> Result<(Canvas, Axes), ReadBackError> {
     let snaps = style.snapshots(rec);
     let (t0, t1) = match (snaps.first(), snaps.last()) {
         (Some(&a), Some(&b)) => (rec.times[a], rec.times[b]),
@@ -27,7 +40,7 @@ pub fn boundary_positions(
     let segments = super::tracks::tracks(rec, boundaries, style)?;
     let bg = style.background;
     let width = style.width.max(320);
-    let (left, top, right, bottom) = (64.0, 64.0, 24.0, 76.0);
+    let (left, top, right, bottom) = (64.0, 64.0, 24.0, if extra.is_some() { 94.0 } else { 76.0 });
     let plot_h = 300.0;
     let mut c = style.canvas(width, (top + plot_h + bottom) as u32);
     let a = Axes {
@@ -61,5 +74,8 @@ pub fn boundary_positions(
         )
     };
     c.text(width as f32 - right, top + plot_h + 62.0, 12.0, bg.muted(), Align::Right, &note);
+    if let Some(extra) = extra {
+        c.text(width as f32 - right, top + plot_h + 80.0, 12.0, bg.muted(), Align::Right, extra);
+    }
     Ok((c, a))
 }

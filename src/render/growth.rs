@@ -3,9 +3,11 @@
 //! time, with each division marked by a dashed line and each mitosis window
 //! shaded.
 
+use super::Style;
 use super::axes::Axes;
+use super::boundary_time::boundary_positions_noted;
 use super::canvas::{Align, Canvas};
-use super::{Style, boundary_positions, kymograph};
+use super::kymograph::kymograph_noted;
 use crate::growth::{EventKind, GrowthRun};
 use crate::integrate::{ReadBackError, Recording};
 use crate::readout::Boundary;
@@ -76,12 +78,10 @@ pub fn growth_pictures(
     style: &Style,
 ) -> Result<(Canvas, Canvas), ReadBackError> {
     let shown = in_display_units(boundaries, run);
-    let (mut kymo, layout) = kymograph(display, &shown, style)?;
+    let note = "% of the length at each time; dashed: divisions; grey bars: mitosis (production paused)";
+    let (mut kymo, layout) = kymograph_noted(display, &shown, style, Some(note))?;
     mark_events(&mut kymo, &layout.axes, run, style, false);
-    let (mut track, a) = boundary_positions(display, &shown, style)?;
+    let (mut track, a) = boundary_positions_noted(display, &shown, style, Some(note))?;
     mark_events(&mut track, &a, run, style, true);
-    let note = "% of the length at each time; dashed: divisions; bars: mitosis (production paused)";
-    let y = track.height() as f32 - 8.0;
-    track.text(a.left, y, 11.0, style.background.muted(), Align::Left, note);
     Ok((kymo, track))
 }

@@ -27,6 +27,19 @@ pub fn kymograph(
     boundaries: &[Boundary],
     style: &Style,
 ) -> Result<(Canvas, KymoLayout), ReadBackError> {
+    kymograph_noted(rec, boundaries, style, None)
+}
+
+/// [`kymograph`] with one line of explanation at the foot.
+///
+/// # Errors
+/// [`ReadBackError`] if a streamed snapshot cannot be read back.
+pub fn kymograph_noted(
+    rec: &Recording,
+    boundaries: &[Boundary],
+    style: &Style,
+    note: Option<&str>,
+) -> Result<(Canvas, KymoLayout), ReadBackError> {
     let snaps = style.snapshots(rec);
     let max = gene_maxima(rec, &snaps)?;
     let colors = style.shown_colors();
@@ -34,7 +47,8 @@ pub fn kymograph(
         snaps.iter().map(|&s| rec.axis_profiles(s, style.genes.iter().copied())).collect::<Result<_, _>>()?;
     let length = rec.grid.length_um();
     let times: Vec<f64> = snaps.iter().map(|&s| rec.times[s]).collect();
-    let (mut c, a) = space_time(&times, style, &along_label(rec), "time (min)", 0.0, |x_frac, k| {
+    let footer = if note.is_some() { 18.0 } else { 0.0 };
+    let (mut c, a) = space_time(&times, style, &along_label(rec), "time (min)", footer, |x_frac, k| {
         let x_um = x_frac * length;
         style.paint(
             &colors,
@@ -45,6 +59,10 @@ pub fn kymograph(
     draw_tracks(&mut c, &segments, style, |(t, x)| (a.px(x), a.py(t)));
     let right = c.width() as f32 - 24.0;
     legend(&mut c, rec, style, right, 50.0, true, Some(&max));
+    if let Some(note) = note {
+        let y = c.height() as f32 - 8.0;
+        c.text(right, y, 12.0, style.background.muted(), super::canvas::Align::Right, note);
+    }
 
     Ok((c, KymoLayout { axes: a }))
 }

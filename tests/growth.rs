@@ -273,6 +273,22 @@ fn growth_is_refused_where_it_does_not_apply() {
         ),
         (base("nuclei = [8]", "tolerance = 1e-6", "divide_at_min = [12.0]", ok_gene), "growth.divide_at_min", "inside"),
         (base("nuclei = [8]", "tolerance = 1e-6", "", ok_gene), "growth.rate_per_min", "nothing grows"),
+        (base("nuclei = [8]", "tolerance = 1e-6", "rate_per_min = 2.0", ok_gene), "growth.rate_per_min", "fold"),
+        (
+            base("nuclei = [8]", "tolerance = 1e-6", "rate_per_min = 0.01\nmitosis_min = 2.0", ok_gene),
+            "growth.mitosis_min",
+            "no division",
+        ),
+        (
+            base(
+                "nuclei = [8]",
+                "tolerance = 1e-6",
+                "rate_per_min = 0.01\nrefine = true",
+                "rate = \"neighbours(solo) - solo\"",
+            ),
+            "growth.refine",
+            "neighbours",
+        ),
         (
             base("nuclei = [2000000]", "tolerance = 1e-6", "divide_at_min = [1, 2, 3, 4, 5, 6, 7, 8, 9]", ok_gene),
             "growth.divide_at_min",
@@ -372,4 +388,75 @@ fn the_command_line_runs_a_growing_row_and_refuses_it_elsewhere() {
     let ribbon = root().join("patterns/ribbon.toml");
     assert!(anlage(&["run", ribbon.to_str().unwrap(), "-q", "-o", out.to_str().unwrap()]).status.success());
     assert!(!out.join("growth_frames.csv").exists() && out.join("states.npy").is_file());
+}
+
+/// A circuit that reads neighbours is a lattice of cells: its grid is not
+/// refined as the row grows (new cells would change the pattern's period),
+/// so the cells grow instead and the count changes only at divisions.
+#[test]
+fn contact_circuits_keep_their_cells_as_the_row_grows() {
+    let m = model(
+        r#"
+[tissue]
+nuclei = [16]
+spacing_um = 8.0
+[clock]
+until_min = 200.0
+tolerance = 1e-6
+snapshot_every_min = 50.0
+[growth]
+rate_per_min = 0.01
+[[gene]]
+name = "spark"
+rate = "1 / (1 + (neighbours(spark) / 0.2)^4) - 0.5 * spark"
+initial_formula = "1.5 * step(cos(pi * (x - 4) / 8))"
+[circuit]
+kinetics = "rates"
+"#,
+    );
+    let run = grow(&m, false).unwrap();
+    assert!(run.events.is_empty(), "{:?}", run.events);
+    let last = run.frames.last().unwrap();
+    assert_eq!(last.grid.nx, 16);
+    approx::assert_relative_eq!(last.grid.spacing_um, 8.0 * 2f64.exp(), max_relative = 1e-12);
+    let high = last.state.row(0).iter().filter(|&&v| v > 1.0).count();
+    assert_eq!(high, 8, "alternating cells stay alternating: {:?}", last.state.row(0));
+}
+
+/// Inside a mitosis window the phase-space verbs see the circuit as it is
+/// then: production paused, so a gene made at p and lost at d (plus
+/// dilution g) rests at 0 instead of p/(d + g) (the linear equation's
+/// steady state).
+#[test]
+fn a_diagram_inside_mitosis_sees_production_paused() {
+    let m = model(
+        r#"
+[tissue]
+nuclei = [10]
+spacing_um = 4.0
+[clock]
+until_min = 60.0
+tolerance = 1e-6
+snapshot_every_min = 10.0
+[growth]
+rate_per_min = 0.01
+divide_at_min = [30.0]
+mitosis_min = 5.0
+[[gene]]
+name = "pulse"
+production = 2.0
+decay = 0.5
+"#,
+    );
+    let param = m.parse_param("pulse.decay").unwrap();
+    for (t, paused) in [(20.0, false), (27.0, true), (31.0, false)] {
+        let request = anlage::phase::DiagramRequest { param, from: 0.4, to: 0.6, x_pct: 50.0, t_min: t };
+        let d = anlage::phase::diagram(&m, &request).unwrap();
+        let points: Vec<_> = d.branches.iter().flat_map(|b| &b.points).collect();
+        assert!(points.len() > 5);
+        for p in points {
+            let want = if paused { 0.0 } else { 2.0 / (p.s + 0.01) };
+            approx::assert_abs_diff_eq!(p.x[0], want, epsilon = 1e-8);
+        }
+    }
 }

@@ -83,6 +83,17 @@ pub fn bifurcation(args: &BifurcationArgs) -> anyhow::Result<()> {
         }
         .into());
     }
+    if model.growth.is_some() && t_min > model.clock.until_min {
+        return Err(StyleError::OutOfRange {
+            option: "--time".into(),
+            value: t_min.to_string(),
+            fix: format!(
+                "the row grows, and its growth is known only within its run: give a time up to {} min",
+                model.clock.until_min
+            ),
+        }
+        .into());
+    }
     let names: Vec<String> = model.genes.iter().map(|g| g.name.clone()).collect();
     let gene = match &args.gene {
         Some(name) => model.gene_index(name).ok_or_else(|| StyleError::UnknownGene {

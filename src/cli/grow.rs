@@ -20,12 +20,22 @@ pub fn run_growth(model: &Model, args: &RunArgs, dir: &Path) -> anyhow::Result<(
         (args.timing, "--timing"),
     ];
     if let Some((_, option)) = refused.iter().find(|(given, _)| *given) {
-        anyhow::bail!(
-            "{}: {option} is for rows and sheets of fixed size; this model grows ([growth]), and its runs are not \
-             checkpointed, streamed or timed: leave {option} out",
-            model.file.display()
-        );
+        return Err(anlage::render::StyleError::OutOfRange {
+            option: (*option).into(),
+            value: "given".into(),
+            fix: format!(
+                "it is for rows and sheets of fixed size, and {} grows ([growth]): a growing row's runs are not \
+                 checkpointed, streamed or timed; leave it out",
+                model.file.display()
+            ),
+        }
+        .into());
     }
+    args.look.refuse(
+        &[super::args::Unused::Animation],
+        "run (of a growing row)",
+        "draws no animation (its snapshots differ in size)",
+    )?;
     let style_options = args.look.options();
     let _reserved = anlage::run_folder::reserve(dir)?;
     let start = std::time::Instant::now();
@@ -49,15 +59,32 @@ fn describe(s: &GrowthSummary, seconds: f64, dir: &Path) -> String {
         "{}: {} steps ({} rejected) to t = {t_end} min in {seconds:.3} s",
         s.title, s.steps, s.rejected_steps
     );
-    let _ = writeln!(
-        out,
-        "the row grew from {:.1} to {:.1} µm and from {} to {} nuclei",
-        s.length_um[0], s.length_um[1], s.nuclei[0], s.nuclei[1]
-    );
-    for e in s.events.iter().filter(|e| e.event != "mitosis_start") {
+    let refinements = s.events.iter().filter(|e| e.event == "refinement").count();
+    if refinements == 0 {
         let _ = writeln!(
             out,
-            "  {:<10} at {:>7.2} min: {} nuclei, {:.1} µm long",
+            "the row grew from {:.1} to {:.1} µm and from {} to {} nuclei",
+            s.length_um[0], s.length_um[1], s.nuclei[0], s.nuclei[1]
+        );
+    } else {
+        let divisions = s.events.iter().filter(|e| e.event == "division").count();
+        let _ = writeln!(
+            out,
+            "the row grew from {:.1} to {:.1} µm; {} nuclei became {} by division, on a grid refined {refinements} \
+             time{} to {} points (refinement splits the grid, not the nuclei)",
+            s.length_um[0],
+            s.length_um[1],
+            s.nuclei[0],
+            s.nuclei[0] << divisions,
+            if refinements == 1 { "" } else { "s" },
+            s.nuclei[1]
+        );
+    }
+    for e in s.events.iter().filter(|e| e.event != "mitosis_start") {
+        let what = if refinements > 0 { "grid points" } else { "nuclei" };
+        let _ = writeln!(
+            out,
+            "  {:<10} at {:>7.2} min: {} {what}, {:.1} µm long",
             e.event, e.time_min, e.nuclei_after, e.length_um
         );
     }

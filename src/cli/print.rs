@@ -246,6 +246,12 @@ pub fn describe(m: &Model) -> String {
                 points[0].0,
                 points[points.len() - 1].0
             ),
+            Shape::TableInTime { frames } => format!(
+                "measured tables at {} times ({}–{} min; linear in between, held outside)",
+                frames.len(),
+                frames[0].0,
+                frames[frames.len() - 1].0
+            ),
         };
         let side = match gr.from {
             Side::Left => "left",

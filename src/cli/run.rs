@@ -45,6 +45,9 @@ pub fn run(args: &RunArgs) -> anyhow::Result<()> {
         for _ in 1..*repeat {
             let start = std::time::Instant::now();
             let model = Model::load(path)?;
+            if model.growth.is_some() {
+                break; // refused below, with the reason
+            }
             let run = anlage::simulate(&model, &anlage::RunOptions::default())
                 .with_context(|| format!("simulating {}", model.file.display()))?;
             std::hint::black_box(anlage::reference::checksum(run.recording.final_state()));

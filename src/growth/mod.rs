@@ -96,20 +96,6 @@ fn next_change(model: &Model, t: f64, t_refine: f64) -> (f64, Option<EventKind>)
     best
 }
 
-/// The model of one stretch: the row's grid then, and production paused
-/// during mitosis (a paused gene keeps its capacity for expression floors).
-fn stretch_model(model: &Model, grid: Grid, mitosis: bool) -> Model {
-    let mut m = model.clone();
-    m.grid = grid;
-    if mitosis {
-        for gene in m.genes.iter_mut().filter(|g| g.rate.is_none()) {
-            gene.knocked_out_production.get_or_insert(gene.production);
-            gene.production = 0.0;
-        }
-    }
-    m
-}
-
 /// Runs a growing row from its initial state to the end of its clock.
 ///
 /// # Errors
@@ -130,10 +116,10 @@ pub fn grow(model: &Model, parallel: bool) -> Result<GrowthRun, StepError> {
     let mut next_snapshot = 1;
     while t < model.clock.until_min {
         // The grid's spacing is grid.spacing_um at t; it reaches 2·h0 at:
-        let t_refine = if g > 0.0 { t + (2.0 * h0 / grid.spacing_um).ln() / g } else { f64::INFINITY };
+        let t_refine = if g > 0.0 && growth.refine { t + (2.0 * h0 / grid.spacing_um).ln() / g } else { f64::INFINITY };
         let (end, event) = next_change(model, t, t_refine);
-        let mitosis = growth.in_mitosis(t);
-        let m = stretch_model(model, grid, mitosis);
+        // The row's grid then, production paused during mitosis.
+        let m = Model { grid, ..model.circuit_at(t) };
         let kinetics = crate::kinetics::build(&m);
         let tissue = Tissue::new(&m).stretched_from(t);
         let mut targets: Vec<f64> =

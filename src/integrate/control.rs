@@ -121,6 +121,27 @@ impl ErrorControl {
         k.min(1e-3 * max_step).max(1e-12 * max_step)
     }
 
+    /// [`Self::first_step`] shortened so that the IMEX Euler start's local
+    /// error, about k²·|ḟ|/2, stays below a tenth of the tolerance, where
+    /// `rate_change` is ḟ (a.u./min²), estimated along a trial Euler step
+    /// (after Hairer, Nørsett & Wanner, Solving ODEs I, §II.4, whose
+    /// starting-step rule also bounds the second derivative). Needed where
+    /// the rates are zero but rising (an input switched on at that time),
+    /// which the rates alone do not see.
+    pub fn first_step_bounded(&self, u: &Array2<f64>, f: &Array2<f64>, rate_change: &Array2<f64>) -> f64 {
+        let k = self.first_step(u, f);
+        let curvature = u
+            .iter()
+            .zip(rate_change.iter())
+            .map(|(u, d)| d.abs() / (self.atol + self.rtol * u.abs()))
+            .fold(0.0f64, f64::max);
+        if curvature > 0.0 && curvature.is_finite() {
+            k.min((0.2 / curvature).sqrt()).max(1e-12 * self.max_step_min)
+        } else {
+            k
+        }
+    }
+
     /// The step to try from a state reached by a step of `last` (min; 0 at
     /// the start) when `proposed` was proposed: at most the largest step and
     /// the largest growth over `last`.

@@ -251,13 +251,14 @@ fn integrate_on_worker(
         None => {
             snapshot(0.0, stepper.state());
             let next_step_min = match control {
-                StepControl::Adaptive(c) => c.first_step(stepper.state(), stepper.rates()),
+                StepControl::Adaptive(c) => first_step(&c, &mut stepper),
                 StepControl::Fixed(_) => 0.0,
             };
             (StepStats::default(), Progress { next_snapshot: 1, steps_taken: 0, next_step_min })
         }
     };
-    let time_loop = TimeLoop { model, stepper, stats, progress, times: model.clock.snapshot_times() };
+    let breaks = tissue.breakpoints();
+    let time_loop = TimeLoop { model, stepper, stats, progress, times: model.clock.snapshot_times(), breaks };
     match control {
         StepControl::Fixed(steps) => time_loop.fixed(steps, kinetics, tissue, snapshot, accepted),
         StepControl::Adaptive(control) => time_loop.error_controlled(control, snapshot, accepted),
@@ -290,19 +291,30 @@ pub fn integrate_span(
 ) -> Result<(StepStats, f64), StepError> {
     let names = model.genes.iter().map(|g| g.name.clone()).collect();
     let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
-    let stepper = Stepper::new(kinetics, tissue, model.clock.scheme, &d, names, u0, t0, parallel, forcing(model))?;
+    let mut stepper = Stepper::new(kinetics, tissue, model.clock.scheme, &d, names, u0, t0, parallel, forcing(model))?;
     let StepControl::Adaptive(control) = StepControl::new(&model.clock) else {
         panic!("a stretch of a run is integrated with error-controlled steps");
     };
-    let next_step_min = if first_try > 0.0 { first_try } else { control.first_step(stepper.state(), stepper.rates()) };
+    let next_step_min = if first_try > 0.0 { first_try } else { first_step(&control, &mut stepper) };
     let progress = Progress { next_snapshot: 0, steps_taken: 0, next_step_min };
-    let time_loop = TimeLoop { model, stepper, stats: StepStats::default(), progress, times: targets.to_vec() };
+    let breaks = tissue.breakpoints();
+    let time_loop = TimeLoop { model, stepper, stats: StepStats::default(), progress, times: targets.to_vec(), breaks };
     let mut next = 0.0;
     let stats = time_loop.error_controlled(control, reached, |_, p, _| {
         next = p.next_step_min;
         true
     })?;
     Ok((stats, next))
+}
+
+/// The first step of error-controlled steps from the stepper's state (at
+/// the start, or after a restart): [`ErrorControl::first_step_bounded`].
+fn first_step(control: &ErrorControl, stepper: &mut Stepper) -> f64 {
+    let k = control.first_step(stepper.state(), stepper.rates());
+    match stepper.rate_change(k) {
+        Some(change) => control.first_step_bounded(stepper.state(), stepper.rates(), &change),
+        None => k,
+    }
 }
 
 /// A time loop in progress.
@@ -313,6 +325,8 @@ struct TimeLoop<'m, 's> {
     progress: Progress,
     /// Snapshot times, min.
     times: Vec<f64>,
+    /// Kinks of the inputs in time ([`Tissue::breakpoints`]), min.
+    breaks: Vec<f64>,
 }
 
 impl TimeLoop<'_, '_> {
@@ -406,8 +420,23 @@ impl TimeLoop<'_, '_> {
         mut accepted: impl FnMut(&Stepper, Progress, StepStats) -> bool,
     ) -> Result<StepStats, StepError> {
         let stepper = &mut self.stepper;
+        let near = |a: f64, b: f64| (a - b).abs() <= 1e-12 * a.abs().max(b.abs()).max(1.0);
         while self.progress.next_snapshot < self.times.len() {
-            let target = self.times[self.progress.next_snapshot];
+            let snap = self.times[self.progress.next_snapshot];
+            // At a kink of the inputs, steps start afresh: a multistep
+            // scheme would carry the rates from before it across, and its
+            // error estimate, built on the same history, would not see it
+            // (also when a run is resumed there). The first step is chosen
+            // from the rates, as at the start.
+            if self.breaks.iter().any(|&b| near(b, stepper.time())) && stepper.history() > 1 {
+                stepper.restart();
+                self.progress.next_step_min = first_step(&control, stepper);
+            }
+            let kink = self.breaks.iter().copied().find(|&b| b > stepper.time() && !near(b, stepper.time()));
+            let target = match kink {
+                Some(b) if b < snap && !near(b, snap) => b,
+                _ => snap,
+            };
             while target - stepper.time() > 1e-12 * target {
                 let remaining = target - stepper.time();
                 let mut k_try = control.first_try(self.progress.next_step_min, stepper.last_step());
@@ -438,8 +467,10 @@ impl TimeLoop<'_, '_> {
                     return Err(StepError::Stopped { t_min: stepper.time() });
                 }
             }
-            snapshot(target, stepper.state());
-            self.progress.next_snapshot += 1;
+            if target == snap {
+                snapshot(target, stepper.state());
+                self.progress.next_snapshot += 1;
+            }
         }
         Ok(self.stats)
     }

@@ -228,6 +228,11 @@ impl TimeScheme for Sbdf2 {
         self.held
     }
 
+    /// The next step is IMEX Euler again.
+    fn forget_history(&mut self) {
+        self.held = 1;
+    }
+
     fn save(&self) -> History {
         History {
             numbers: vec![self.held as f64, self.k2],

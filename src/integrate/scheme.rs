@@ -149,6 +149,12 @@ pub trait TimeScheme: Sized {
     /// Accepted states the scheme steps from, the current one included.
     fn held(&self) -> usize;
 
+    /// Drops the history, so that the next step starts afresh from the
+    /// accepted state alone (after a kink of the inputs in time, which
+    /// steps built on earlier rates would carry across). One-step schemes
+    /// hold none.
+    fn forget_history(&mut self) {}
+
     /// A copy of its history (for checkpoints).
     fn save(&self) -> History;
 
@@ -245,6 +251,11 @@ macro_rules! schemes {
             /// Which scheme.
             pub(super) fn scheme(&self) -> Scheme {
                 match self { $(AnyScheme::$variant(_) => Scheme::$variant),+ }
+            }
+
+            /// [`TimeScheme::forget_history`].
+            pub(super) fn forget_history(&mut self) {
+                match self { $(AnyScheme::$variant(s) => s.forget_history()),+ }
             }
 
             /// [`TimeScheme::accept_every_step`].

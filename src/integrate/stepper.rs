@@ -102,6 +102,25 @@ impl<'a> Stepper<'a> {
         self.scheme.held()
     }
 
+    /// How fast the reaction rates change along an Euler step of `k` (min)
+    /// from the accepted state, (f(t + k, u + k·f) − f(t, u))/k, a.u./min²;
+    /// `None` if the rates there are not finite. For choosing a first step
+    /// (it allocates).
+    pub fn rate_change(&mut self, k: f64) -> Option<Array2<f64>> {
+        let probe = &self.now.u + &(k * &self.now.f);
+        let mut f = Array2::zeros(probe.dim());
+        self.ops.reactions.eval(self.now.t + k, &probe, &mut f).ok()?;
+        f -= &self.now.f;
+        f /= k;
+        Some(f)
+    }
+
+    /// Starts afresh from the accepted state: the scheme forgets its
+    /// history ([`super::TimeScheme::forget_history`]).
+    pub fn restart(&mut self) {
+        self.scheme.forget_history();
+    }
+
     /// A copy of everything the next steps depend on (for checkpoints): the
     /// accepted state and the scheme's history (the rates are evaluated
     /// again on [`Self::restore`]).

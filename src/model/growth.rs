@@ -13,10 +13,11 @@
 //!   length, so the amount Σ u·h is unchanged; production of every gene
 //!   pauses for `mitosis_min` before each division (decay, dilution and
 //!   diffusion go on).
-//! - **Refinement**: without a division, the grid is split the same way
-//!   (each nucleus in two, keeping its amount, with a limited linear
-//!   reconstruction) whenever the spacing reaches twice its starting value,
-//!   so that a growing row keeps its resolution.
+//! - **Refinement**: the grid is split the same way (each nucleus in two,
+//!   keeping its amount, with a limited linear reconstruction) whenever the
+//!   spacing reaches twice its starting value, so that a growing row keeps
+//!   its resolution; not for circuits that read neighbours (`refine`),
+//!   where a nucleus is a cell and new ones would change the pattern.
 
 use serde::Deserialize;
 use toml::Spanned;
@@ -35,6 +36,9 @@ pub struct GrowthSpec {
     /// Length of the mitosis window before each division, min, in which
     /// production pauses (default 0).
     pub mitosis_min: Option<f64>,
+    /// Whether the grid is refined when its spacing doubles (default: yes,
+    /// unless the circuit reads neighbours, whose cells it would multiply).
+    pub refine: Option<bool>,
 }
 
 /// A checked `[growth]`.
@@ -46,6 +50,8 @@ pub struct Growth {
     pub divide_at_min: Vec<f64>,
     /// Mitosis window before each division, min.
     pub mitosis_min: f64,
+    /// The grid is refined when its spacing reaches twice its start.
+    pub refine: bool,
 }
 
 impl Growth {
@@ -61,6 +67,20 @@ impl Growth {
 }
 
 impl Model {
+    /// The model as its circuit stands at `t_min`: on a growing row inside a
+    /// mitosis window, every `hill` or `sigmoid` gene makes nothing (it keeps
+    /// its capacity for expression floors); otherwise the model itself.
+    pub fn circuit_at(&self, t_min: f64) -> Model {
+        let mut m = self.clone();
+        if self.growth.as_ref().is_some_and(|g| g.in_mitosis(t_min)) {
+            for gene in m.genes.iter_mut().filter(|g| g.rate.is_none()) {
+                gene.knocked_out_production.get_or_insert(gene.production);
+                gene.production = 0.0;
+            }
+        }
+        m
+    }
+
     /// The starting grid as the row stands at `t_min`: its spacing
     /// stretched by e^{g·t} on a growing row (the nucleus count as at the
     /// start: for questions about positions, not a simulation grid), the
@@ -95,12 +115,21 @@ pub(super) fn check_growth(
         return Err(fail("mitosis_min", format!("is {mitosis}"), "give the mitosis window, a number of minutes >= 0"));
     }
     let until = model.clock.until_min;
+    // Rows that grow more than a million-fold are a mistake of units.
+    if rate * until > 1e6f64.ln() {
+        return Err(fail(
+            "rate_per_min",
+            format!("is {rate}: the row would grow e^{:.3}-fold over the {until} min run", rate * until),
+            "give the relative elongation rate in 1/min (0.01 doubles the length in 69 min)",
+        ));
+    }
     let mut previous = 0.0;
     for (i, &t) in s.divide_at_min.iter().enumerate() {
         if !(t.is_finite() && t > previous && t < until) {
+            let shown = if t.abs() < 1e6 { format!("{t}") } else { format!("{t:e}") };
             return Err(fail(
                 "divide_at_min",
-                format!("entry {i} is {t}"),
+                format!("entry {i} is {shown}"),
                 &format!(
                     "give division times in increasing order, each after the one before and inside the run (0 < t < {until})"
                 ),
@@ -117,6 +146,23 @@ pub(super) fn check_growth(
             ));
         }
         previous = t;
+    }
+    if mitosis > 0.0 && s.divide_at_min.is_empty() {
+        return Err(fail(
+            "mitosis_min",
+            format!("is {mitosis}, and there is no division for the window to precede"),
+            "give divide_at_min, or remove mitosis_min",
+        ));
+    }
+    let neighbours = model.circuit.neighbours;
+    if neighbours && s.refine == Some(true) {
+        return Err(fail(
+            "refine",
+            "is true, and the circuit reads neighbours(...): refining the grid would make new cells and change \
+             the pattern's period"
+                .into(),
+            "leave refine out (false for such circuits): the cells grow instead, and divide only at divide_at_min",
+        ));
     }
     if rate == 0.0 && s.divide_at_min.is_empty() {
         return Err(fail(
@@ -171,25 +217,32 @@ pub(super) fn check_growth(
             "write the pause into the expression (e.g. a factor of step(t - a) for a window ending at a), and set mitosis_min = 0",
         ));
     }
-    let growth = Growth { rate_per_min: rate, divide_at_min: s.divide_at_min.clone(), mitosis_min: mitosis };
+    let growth = Growth {
+        rate_per_min: rate,
+        divide_at_min: s.divide_at_min.clone(),
+        mitosis_min: mitosis,
+        refine: s.refine.unwrap_or(!neighbours),
+    };
     // Every snapshot of the grown row is kept in memory (they differ in
     // size, so they are not streamed): bound the nuclei at the end by the
     // divisions and by refinement keeping the spacing at least h₀.
     let doublings = 2f64.powi(growth.divide_at_min.len() as i32);
     let length_end = growth.length_at(model.grid.length_um(), until);
-    let nuclei = doublings * (model.grid.nx as f64).max(2.0 * length_end / model.grid.spacing_um);
+    let refined = if growth.refine { 2.0 * length_end / model.grid.spacing_um } else { 0.0 };
+    let nuclei = doublings * (model.grid.nx as f64).max(refined);
     let bytes = model.snapshot_count() as f64 * model.genes.len() as f64 * nuclei * 8.0;
     let budget = crate::integrate::memory::memory_budget_bytes().map_err(|text| ModelError::BadBudget { text })?;
     if bytes > budget as f64 {
+        let key = if growth.divide_at_min.is_empty() { "rate_per_min" } else { "divide_at_min" };
         return Err(fail(
-            "divide_at_min",
+            key,
             format!(
-                "makes up to {nuclei:.0} nuclei, and the {} snapshots of the growing row (kept in memory) would need about {:.1} GiB, more than the {:.1} GiB allowed",
+                "makes up to {nuclei:.3e} nuclei, and the {} snapshots of the growing row (kept in memory) would need about {:.1} GiB, more than the {:.1} GiB allowed",
                 model.snapshot_count(),
                 bytes / f64::from(1u32 << 30),
                 budget as f64 / f64::from(1u32 << 30)
             ),
-            "take fewer snapshots (a larger clock.snapshot_every_min), fewer divisions or a shorter run",
+            "take fewer snapshots (a larger clock.snapshot_every_min), fewer divisions, slower growth or a shorter run",
         ));
     }
     Ok(Some(growth))

@@ -73,11 +73,19 @@ impl Model {
         let mut h = Sha256::new();
         h.update(self.text.as_bytes());
         for g in &self.gradients {
-            if let Shape::Table { points } = &g.shape {
+            let mut digest = |points: &[(f64, f64)]| {
                 points.iter().for_each(|(x, v)| {
                     h.update(x.to_le_bytes());
                     h.update(v.to_le_bytes());
                 });
+            };
+            match &g.shape {
+                Shape::Table { points } => digest(points),
+                Shape::TableInTime { frames } => frames.iter().for_each(|(t, points)| {
+                    digest(&[(*t, f64::NAN)]);
+                    digest(points);
+                }),
+                _ => {}
             }
         }
         for g in &self.genes {
@@ -273,6 +281,13 @@ pub enum Shape {
     Table {
         /// (distance from the source, µm; level), increasing distance.
         points: std::sync::Arc<[(f64, f64)]>,
+    },
+    /// Measured profiles at several times: linear in time between them and
+    /// held before the first and after the last
+    /// (`gradient_table::level_in_time`).
+    TableInTime {
+        /// (time, min; a profile as in [`Shape::Table`]), increasing time, at least two.
+        frames: std::sync::Arc<[(f64, std::sync::Arc<[(f64, f64)]>)]>,
     },
 }
 

@@ -428,15 +428,22 @@ fn check_gradient(i: usize, g: &Spanned<GradientSpec>, grid: &Grid, src: &Source
             // % are of the extent the distance runs along: the sheet's height
             // for a source at the top or bottom, the axis length otherwise.
             let extent_um = if matches!(from, Side::Top | Side::Bottom) { grid.height_um() } else { grid.length_um() };
-            let points = super::gradient_table::read(&path, spec.table_gene.as_deref(), extent_um).map_err(|why| {
+            let read = super::gradient_table::read(&path, spec.table_gene.as_deref(), extent_um).map_err(|why| {
                 c.fail(
                     "table",
                     why,
-                    "give a CSV with a level column and position_pct or position_um (from the source side), \
+                    "give a CSV with position_pct or position_um (from the source side) and a level column \
+                     (with time_min for profiles at several times, or one level_<T>min column per time), \
                      e.g. the profile table of `anlage measure`",
                 )
             })?;
-            (Shape::Table { points: points.into() }, "table")
+            let shape = match read {
+                super::gradient_table::Profiles::Static(points) => Shape::Table { points: points.into() },
+                super::gradient_table::Profiles::Timed(frames) => Shape::TableInTime {
+                    frames: frames.into_iter().map(|(t, p)| (t, p.into())).collect::<Vec<_>>().into(),
+                },
+            };
+            (shape, "table")
         }
         other => {
             return Err(c.fail("shape", format!("is `{other}`"), "use exponential, linear, step or table"));

@@ -49,7 +49,8 @@ impl ParameterFamily {
     /// The family of `model` in `param` for the nucleus at `x_pct` % of the
     /// axis (on the midline of a sheet), inputs at `t_min`.
     pub fn new(model: &Model, param: Param, x_pct: f64, t_min: f64) -> ParameterFamily {
-        let mut model = model.clone();
+        // A growing row's circuit as it stands then (production paused in mitosis).
+        let mut model = model.circuit_at(t_min);
         // Starting levels play no part here (and may be large arrays).
         for g in &mut model.genes {
             g.initial = Initial::Uniform(0.0);

@@ -69,9 +69,14 @@ pub fn tracks(rec: &Recording, boundaries: &[Boundary], style: &Style) -> Result
                     _ => by_time.push((b.time_min, vec![x])),
                 }
             }
+            let index = |t: f64| times.iter().position(|&s| (s - t).abs() <= 1e-9 * t.abs().max(1.0));
             for pair in by_time.windows(2) {
                 let ((t_prev, prev), (t, now)) = (&pair[0], &pair[1]);
-                if !(expressed(g, *t_prev) && expressed(g, *t)) {
+                // Only boundaries at consecutive snapshots are joined: a
+                // snapshot without the boundary (the gene below its floor,
+                // or the crossing gone) leaves a gap, not a line across it.
+                let consecutive = matches!((index(*t_prev), index(*t)), (Some(a), Some(b)) if b == a + 1);
+                if !(consecutive && expressed(g, *t_prev) && expressed(g, *t)) {
                     continue;
                 }
                 for &(x, broad) in now {

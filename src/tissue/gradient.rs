@@ -29,14 +29,16 @@ pub fn distance_at(grid: &Grid, side: Side, x: f64, y: f64) -> f64 {
 /// `a(t)·(baseline + (peak − baseline)·s(d))`, a.u.
 pub fn value_at(g: &Gradient, grid: &Grid, x: f64, y: f64, t_min: f64) -> f64 {
     let d = distance_at(grid, g.from, x, y);
-    amplitude_at(&g.amplitude, t_min) * (g.baseline + (g.peak - g.baseline) * unit_shape(&g.shape, d))
+    amplitude_at(&g.amplitude, t_min) * (g.baseline + (g.peak - g.baseline) * unit_shape(&g.shape, d, t_min))
 }
 
-/// Unit shape s(d), 1 at the source:
+/// Unit shape s(d) at time `t_min`, 1 at the source:
 /// exponential `exp(−d/λ)`, linear `max(0, 1 − d/ℓ)`, step `1` for `d < w`
-/// else `0`, a table its level at d (linear between its points).
-pub fn unit_shape(shape: &Shape, d_um: f64) -> f64 {
+/// else `0`, a table its level at d (linear between its points), tables at
+/// several times their level at d and t (linear in time between them).
+pub fn unit_shape(shape: &Shape, d_um: f64, t_min: f64) -> f64 {
     match *shape {
+        Shape::TableInTime { ref frames } => crate::model::gradient_table::level_in_time(frames, d_um, t_min),
         Shape::Exponential { decay_length_um } => (-d_um / decay_length_um).exp(),
         Shape::Linear { length_um } => (1.0 - d_um / length_um).max(0.0),
         Shape::Table { ref points } => crate::model::gradient_table::level_at(points, d_um),

@@ -37,6 +37,12 @@ pub struct Tissue {
     neighbour_genes: usize,
     /// On a growing row, how its positions stretch with time.
     stretch: Option<Stretch>,
+    /// The gradients (their shapes, peaks and baselines), for those whose
+    /// values are recomputed at each time.
+    gradients: Vec<crate::model::Gradient>,
+    /// Per gradient, true when its shape changes with time (measured
+    /// profiles at several times).
+    timed: Vec<bool>,
 }
 
 /// A growing row's stretch: positions and distances at time t are those of
@@ -49,8 +55,6 @@ struct Stretch {
     since_min: f64,
     /// Distance of each nucleus from each gradient's source at t₀, µm [gradient, nucleus].
     distance: Array2<f64>,
-    /// The gradients (their shapes, peaks and baselines).
-    gradients: Vec<crate::model::Gradient>,
 }
 
 impl Tissue {
@@ -62,7 +66,7 @@ impl Tissue {
             for iy in 0..grid.ny {
                 for ix in 0..grid.nx {
                     let d = distance_um(&grid, g.from, ix, iy);
-                    shape[[m, iy * grid.nx + ix]] = g.baseline + (g.peak - g.baseline) * unit_shape(&g.shape, d);
+                    shape[[m, iy * grid.nx + ix]] = g.baseline + (g.peak - g.baseline) * unit_shape(&g.shape, d, 0.0);
                 }
             }
         }
@@ -72,7 +76,6 @@ impl Tissue {
             distance: Array2::from_shape_fn((model.gradients.len(), grid.len()), |(m, i)| {
                 distance_um(&grid, model.gradients[m].from, i % grid.nx, i / grid.nx)
             }),
-            gradients: model.gradients.clone(),
         });
         Tissue {
             grid,
@@ -80,6 +83,8 @@ impl Tissue {
             amplitude: model.gradients.iter().map(|g| g.amplitude.clone()).collect(),
             neighbour_genes: if model.circuit.neighbours { model.genes.len() } else { 0 },
             stretch,
+            gradients: model.gradients.clone(),
+            timed: model.gradients.iter().map(|g| matches!(g.shape, crate::model::Shape::TableInTime { .. })).collect(),
         }
     }
 
@@ -115,7 +120,24 @@ impl Tissue {
 
     /// True when any gradient's amplitude changes with time.
     pub fn time_varying(&self) -> bool {
-        self.stretch.is_some() || self.amplitude.iter().any(|a| a.len() > 1)
+        self.stretch.is_some() || self.timed.contains(&true) || self.amplitude.iter().any(|a| a.len() > 1)
+    }
+
+    /// Times (min, increasing) at which an input's course in time has a
+    /// kink: the points of every gradient's amplitude time course and the
+    /// times of measured profiles. Error-controlled steps land on them and
+    /// start afresh there.
+    pub fn breakpoints(&self) -> Vec<f64> {
+        let mut out: Vec<f64> = self.amplitude.iter().flatten().map(|p| p.0).collect();
+        for g in &self.gradients {
+            if let crate::model::Shape::TableInTime { frames } = &g.shape {
+                out.extend(frames.iter().map(|f| f.0));
+            }
+        }
+        out.retain(|t| t.is_finite());
+        out.sort_by(f64::total_cmp);
+        out.dedup();
+        out
     }
 
     /// Writes the gradients, x and t at time `t_min` into `out` ([input, nucleus]);
@@ -127,19 +149,21 @@ impl Tissue {
         assert_eq!(out.dim(), (self.n_inputs(), self.grid.len()), "input buffer shape");
         let k = self.shape.nrows();
         let e = self.stretch_at(t_min);
+        let nx = self.grid.nx;
         for (m, (mut row, shape)) in out.outer_iter_mut().zip(self.shape.outer_iter()).enumerate() {
             let a = amplitude_at(&self.amplitude[m], t_min);
+            let g = &self.gradients[m];
+            let value = |d: f64| a * (g.baseline + (g.peak - g.baseline) * unit_shape(&g.shape, d, t_min));
             match &self.stretch {
-                None => row.zip_mut_with(&shape, |o, s| *o = a * s),
-                Some(s) => {
-                    let g = &s.gradients[m];
-                    row.zip_mut_with(&s.distance.row(m), |o, d| {
-                        *o = a * (g.baseline + (g.peak - g.baseline) * unit_shape(&g.shape, d * e));
-                    });
+                None if !self.timed[m] => row.zip_mut_with(&shape, |o, s| *o = a * s),
+                None => {
+                    for (i, o) in row.iter_mut().enumerate() {
+                        *o = value(distance_um(&self.grid, g.from, i % nx, i / nx));
+                    }
                 }
+                Some(s) => row.zip_mut_with(&s.distance.row(m), |o, d| *o = value(d * e)),
             }
         }
-        let nx = self.grid.nx;
         for (i, v) in out.row_mut(k).iter_mut().enumerate() {
             *v = e * self.grid.x_um(i % nx);
         }

@@ -355,3 +355,37 @@ fn peer_p2_checksums_agree() {
     }
     assert_eq!(checked, 2);
 }
+
+/// Rate-expression genes are signed: they may start below 0, the run lets
+/// them go there, and the phase-space verbs keep fixed points with negative
+/// levels. Before, a diagram of du/dt = a − u for a in [−3, −1] reported no
+/// branch at all with exit 0. The fixed point is u* = a, and a cosine mode
+/// riding on 0 (no constant offset) decays as e^{−(1 + Dπ²/L²)t} (the linear
+/// equation's solution; discrete eigenvalue (4/h²)·sin²(π/2n)).
+#[test]
+fn rate_expression_genes_take_either_sign() {
+    let m = crate::common::parse(
+        "[tissue]\nnuclei = [40]\nspacing_um = 2.0\n[clock]\nuntil_min = 3.0\ntolerance = 1e-10\n\
+         snapshot_every_min = 1.0\n[[gene]]\nname = \"tilt\"\nrate = \"a - tilt\"\ndiffusion = 5.0\n\
+         initial_formula = \"a + 0.5 * cos(pi * x / L)\"\n[circuit]\nkinetics = \"rates\"\n\
+         parameters = { a = -2.0 }\n",
+    );
+    let rec = crate::common::run(&m).recording;
+    let mu = 4.0 / 4.0 * (std::f64::consts::PI / 80.0).sin().powi(2);
+    for (s, &t) in rec.times.iter().enumerate() {
+        let state = rec.state(s).unwrap();
+        for i in [0usize, 13, 39] {
+            let c = (std::f64::consts::PI * (i as f64 + 0.5) / 40.0).cos();
+            let want = -2.0 + 0.5 * c * (-(1.0 + 5.0 * mu) * t).exp();
+            approx::assert_abs_diff_eq!(state[[0, i]], want, epsilon = 1e-7);
+        }
+    }
+    let param = m.parse_param("a").unwrap();
+    let request = anlage::phase::DiagramRequest { param, from: -3.0, to: -1.0, x_pct: 50.0, t_min: 0.0 };
+    let d = anlage::phase::diagram(&m, &request).unwrap();
+    let points: Vec<_> = d.branches.iter().flat_map(|b| &b.points).collect();
+    assert!(points.len() > 5, "the branch u* = a is found");
+    for p in points {
+        approx::assert_abs_diff_eq!(p.x[0], p.s, epsilon = 1e-9);
+    }
+}

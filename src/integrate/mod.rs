@@ -128,7 +128,7 @@ impl StepStats {
 
 /// The initial state [gene, nucleus]: each gene's initial level plus, where
 /// asked, uniform noise in ±`initial_noise` from a PCG stream seeded by the
-/// model seed and the gene's index; clamped at 0.
+/// model seed and the gene's index; clamped at 0 unless the gene has its own rate expression (signed).
 pub fn initial_state(model: &Model) -> Array2<f64> {
     let n = model.grid.len();
     let mut u = Array2::zeros((model.genes.len(), n));
@@ -141,7 +141,10 @@ pub fn initial_state(model: &Model) -> Array2<f64> {
             let seed = model.seed ^ (0x9E37_79B9_7F4A_7C15u64.wrapping_mul(g as u64 + 1));
             let mut rng = rand_pcg::Pcg64::seed_from_u64(seed);
             let a = gene.initial_noise;
-            row.iter_mut().for_each(|r| *r = (*r + rng.random_range(-a..=a)).max(0.0));
+            // Levels of the circuit's rate law stay >= 0; a gene with its own
+            // rate expression may take either sign.
+            let floor = if gene.rate.is_some() { f64::NEG_INFINITY } else { 0.0 };
+            row.iter_mut().for_each(|r| *r = (*r + rng.random_range(-a..=a)).max(floor));
         }
     }
     u

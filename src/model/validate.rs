@@ -509,14 +509,16 @@ fn initial_from_formula(
         for ix in 0..grid.nx {
             let (x, y) = (grid.x_um(ix), grid.y_um(iy));
             let v = e.value(&[x, y]);
-            if !(v.is_finite() && v >= 0.0) {
+            // A gene with its own rate expression may take either sign.
+            if !(v.is_finite() && (v >= 0.0 || gs.get_ref().rate.is_some())) {
                 let at = if grid.is_sheet() { format!("x = {x} µm, y = {y} µm") } else { format!("x = {x} µm") };
                 return Err(src.invalid(
                     &gs.span(),
                     "initial_formula",
                     field,
                     format!("is {v} at nucleus {} ({at}): levels must be finite and >= 0", iy * grid.nx + ix),
-                    "keep the formula >= 0 everywhere, e.g. wrap it in max(0, ...)",
+                    "keep the formula >= 0 everywhere, e.g. wrap it in max(0, ...) (a gene with a rate expression \
+                     may take either sign, but must stay finite)",
                 ));
             }
             levels.push(v);

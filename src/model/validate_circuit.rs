@@ -139,6 +139,8 @@ pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Sou
         (Some(_), Some((key, _))) => {
             return Err(c.fail(key, "is given together with `initial`".into(), "keep one of the two"));
         }
+        // A gene with its own rate expression may take either sign.
+        (Some(v), None) if spec.rate.is_some() => Initial::Uniform(c.finite("initial", *v)?),
         (Some(v), None) => Initial::Uniform(c.non_negative("initial", *v, "a.u.")?),
         (None, None) => Initial::Uniform(0.0),
         (None, Some((key, p))) => {
@@ -149,8 +151,13 @@ pub(super) fn check_gene(i: usize, g: &Spanned<GeneSpec>, grid: &Grid, src: &Sou
                     "give one value per nucleus (row by row for a sheet)",
                 ));
             }
-            if let Some((k, v)) = p.iter().enumerate().find(|(_, v)| !v.is_finite() || **v < 0.0) {
-                return Err(c.fail(key, format!("value {k} is {v}"), "give finite levels >= 0"));
+            let signed = spec.rate.is_some();
+            if let Some((k, v)) = p.iter().enumerate().find(|(_, v)| !v.is_finite() || (**v < 0.0 && !signed)) {
+                return Err(c.fail(
+                    key,
+                    format!("value {k} is {v}"),
+                    "give finite levels, >= 0 unless the gene has a rate expression (which may take either sign)",
+                ));
             }
             Initial::Profile(p)
         }

@@ -7,7 +7,7 @@ use std::sync::Arc;
 
 use rayon::prelude::*;
 
-use super::fixed::{FixedPoint, box_starts, find_fixed_points};
+use super::fixed::{FixedPoint, find_fixed_points};
 use super::flow::{Fate, fate};
 use super::system::{Frozen, System};
 use crate::integrate::{ReadBackError, Recording};
@@ -194,7 +194,8 @@ pub fn analyse_with_progress(
             groups.get_mut(&k).expect("inserted").push((s, i));
         }
     }
-    let base = box_starts(&hi, opts.extra_starts);
+    let base = super::fixed::model_starts(model, &hi, opts.extra_starts);
+    let nonnegative = super::fixed::nonnegative(model);
     let solved: Vec<Arc<Vec<FixedPoint>>> = order
         .par_iter()
         .map(|k| {
@@ -204,7 +205,7 @@ pub fn analyse_with_progress(
             let sys = Frozen { kinetics: kinetics.as_ref(), inputs: m.clone(), influx: q.clone() };
             let mut starts = base.clone();
             starts.extend(members.iter().map(|&(s, i)| frozen[s][i].2.clone()));
-            Arc::new(find_fixed_points(&sys, &starts, tol, true))
+            Arc::new(find_fixed_points(&sys, &starts, tol, nonnegative))
         })
         .collect();
     let points_of: HashMap<&Vec<u64>, Arc<Vec<FixedPoint>>> = order.iter().zip(solved).collect();

@@ -8,7 +8,7 @@
 use std::sync::{Arc, Mutex};
 
 use super::continuation::{Branch, lies_on, switch_branch, trace_through};
-use super::fixed::{box_starts, find_fixed_points, newton_tolerance};
+use super::fixed::{find_fixed_points, newton_tolerance};
 use super::landscape::point_inputs;
 use super::system::{AtParameter, Family};
 use crate::kinetics::Kinetics;
@@ -396,7 +396,7 @@ pub(crate) fn diagram_of(fam: &ParameterFamily, name: String, req: &DiagramReque
     let hi: Vec<f64> = (0..fam.genes)
         .map(|g| search_limit(models.iter().map(|m| capacity(&m.genes[g])).fold(0.0, f64::max)))
         .collect();
-    let starts = box_starts(&hi, 40);
+    let starts = super::fixed::model_starts(&fam.model, &hi, 40);
     let tol = newton_tolerance(&fam.model);
     let mut previous: Vec<Vec<f64>> = Vec::new();
     let seeds: Vec<(f64, Vec<Vec<f64>>)> = samples
@@ -404,10 +404,15 @@ pub(crate) fn diagram_of(fam: &ParameterFamily, name: String, req: &DiagramReque
         .map(|&s| {
             let mut from_here = starts.clone();
             from_here.extend(previous.iter().cloned());
-            let points: Vec<Vec<f64>> = find_fixed_points(&AtParameter { family: fam, s }, &from_here, tol, true)
-                .into_iter()
-                .map(|p| p.x)
-                .collect();
+            let points: Vec<Vec<f64>> = find_fixed_points(
+                &AtParameter { family: fam, s },
+                &from_here,
+                tol,
+                super::fixed::nonnegative(&fam.model),
+            )
+            .into_iter()
+            .map(|p| p.x)
+            .collect();
             previous = points.clone();
             (s, points)
         })

@@ -212,6 +212,28 @@ pub fn find_fixed_points(sys: &dyn System, starts: &[Vec<f64>], tol: f64, nonneg
     roots.into_iter().map(|x| fixed_point_at(sys, x)).collect()
 }
 
+/// True when no gene of `model` can go below 0: every gene follows the
+/// circuit's rate law (production and first-order decay). A gene with its
+/// own rate expression is signed (the integrator lets it go negative too),
+/// and fixed points with negative levels are then kept.
+pub fn nonnegative(model: &crate::model::Model) -> bool {
+    model.genes.iter().all(|g| g.rate.is_none())
+}
+
+/// [`box_starts`] for `model`'s genes: over [0, hi] for a gene of the
+/// circuit's rate law, over [−hi, hi] for a signed (rate-expression) gene.
+pub fn model_starts(model: &crate::model::Model, hi: &[f64], extra: usize) -> Vec<Vec<f64>> {
+    let mut starts = box_starts(hi, extra);
+    for s in &mut starts {
+        for ((v, h), gene) in s.iter_mut().zip(hi).zip(&model.genes) {
+            if gene.rate.is_some() {
+                *v = 2.0 * *v - h;
+            }
+        }
+    }
+    starts
+}
+
 /// Newton's residual tolerance for a model's fixed points: 1e-10 of its
 /// largest production rate (at least 1e-10), a.u./min.
 pub fn newton_tolerance(model: &crate::model::Model) -> f64 {

@@ -405,7 +405,7 @@ fn stable_at(held: &ParameterFamily, diagram: &Diagram, seeds: &SeedLines, p: f6
     let model = held.model_at(p);
     let hi: Vec<f64> =
         model.genes.iter().zip(&seeds.level_scale).map(|(g, seen)| search_limit(capacity(g).max(*seen))).collect();
-    let mut starts = super::fixed::box_starts(&hi, 12);
+    let mut starts = super::fixed::model_starts(&model, &hi, 12);
     for b in &diagram.branches {
         for w in b.points.windows(2) {
             let (a, c) = (&w[0], &w[1]);
@@ -416,6 +416,11 @@ fn stable_at(held: &ParameterFamily, diagram: &Diagram, seeds: &SeedLines, p: f6
         }
     }
     let sys = super::system::AtParameter { family: held, s: p };
-    let found = super::fixed::find_fixed_points(&sys, &starts, super::fixed::newton_tolerance(&model), true);
+    let found = super::fixed::find_fixed_points(
+        &sys,
+        &starts,
+        super::fixed::newton_tolerance(&model),
+        super::fixed::nonnegative(&model),
+    );
     found.iter().filter(|f| f.kind.is_stable()).count().min(255) as u8
 }

@@ -4,7 +4,7 @@
 //! attractors appear or vanish; and the per-nucleus fixed points beside them.
 
 use super::continuation::{Branch, trace_through};
-use super::fixed::{FixedPoint, box_starts, find_fixed_points};
+use super::fixed::{FixedPoint, find_fixed_points};
 use super::system::{Family, Frozen};
 use crate::kinetics::Kinetics;
 use crate::model::{Gradient, Grid, Model};
@@ -90,13 +90,14 @@ pub fn landscape(model: &Model, t_min: f64, hi: &[f64]) -> Landscape {
         neighbour_genes: if model.circuit.neighbours { model.genes.len() } else { 0 },
     };
     let tol = super::fixed::newton_tolerance(model);
-    let starts = box_starts(hi, 30);
+    let starts = super::fixed::model_starts(model, hi, 30);
+    let nonnegative = super::fixed::nonnegative(model);
     let nucleus_pct: Vec<f64> = (0..grid.nx).map(|ix| 100.0 * grid.x_um(ix) / grid.length_um()).collect();
     let per_nucleus: Vec<Vec<FixedPoint>> = nucleus_pct
         .iter()
         .map(|&s| {
             let sys = Frozen { kinetics: kinetics.as_ref(), inputs: fam.inputs(s), influx: vec![0.0; fam.genes] };
-            find_fixed_points(&sys, &starts, tol, true)
+            find_fixed_points(&sys, &starts, tol, nonnegative)
         })
         .collect();
     let range = (nucleus_pct[0], nucleus_pct[grid.nx - 1]);

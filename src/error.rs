@@ -71,7 +71,8 @@ library_errors!(
         crate::integrate::CheckpointError,
         crate::fit::FitSetupError,
         crate::sweep::AxisError,
-        crate::shard::ShardError
+        crate::shard::ShardError,
+        crate::phase::DiagramError
     ],
     run: [
         crate::replicates::ReplicateError,
@@ -120,6 +121,8 @@ mod tests {
         assert_eq!(blame_of(&crate::WriteError::Export(io)), Some(Blame::Run));
         assert_eq!(blame_of(&std::io::Error::other("x")), None);
         assert_eq!(blame_of(&crate::StepError::Growing), Some(Blame::Input));
+        let range = crate::phase::DiagramError::Unread("`a` is not read".into());
+        assert_eq!(blame_of(&range), Some(Blame::Input));
         assert_eq!(blame_of(&crate::StepError::Stopped { t_min: 1.0 }), Some(Blame::Run));
     }
 }

@@ -259,6 +259,8 @@ pub fn simulate_with(model: &Model, options: &RunOptions, plan: Option<&Checkpoi
     if let Some(e) = write_error {
         return Err(StepError::Recording(format!("writing a snapshot to the scratch file: {e}")));
     }
-    let recording = recording.into_inner().unwrap_or_else(std::sync::PoisonError::into_inner);
-    Ok(Run { recording, stats: stats?, wall_time_s: start.elapsed().as_secs_f64() })
+    let mut recording = recording.into_inner().unwrap_or_else(std::sync::PoisonError::into_inner);
+    let stats = stats?;
+    recording.floor_from_run()?;
+    Ok(Run { recording, stats, wall_time_s: start.elapsed().as_secs_f64() })
 }

@@ -389,3 +389,26 @@ fn rate_expression_genes_take_either_sign() {
         approx::assert_abs_diff_eq!(p.x[0], p.s, epsilon = 1e-9);
     }
 }
+
+/// A rate-expression gene has no capacity p/d, so its expression floor is
+/// 5 % of the largest level it reaches in the run (common practice, no
+/// source, as for the capacity-based floor): a ramp that decays as e^{−t/2}
+/// has its half-maximum boundary at the start (at x = L/2, the ramp's
+/// midpoint) and none once it has fallen below 5 % of its start (after
+/// 2·ln 20 ≈ 6 min), where before it was read at any level at all.
+#[test]
+fn a_vanished_rate_gene_reports_no_boundary() {
+    let m = parse(
+        "[tissue]\nnuclei = [40]\nspacing_um = 2.0\n[clock]\nuntil_min = 10.0\ntolerance = 1e-8\n\
+         snapshot_every_min = 2.0\n[[gene]]\nname = \"fade\"\nrate = \"-0.5 * fade\"\n\
+         initial_formula = \"x / L\"\n[circuit]\nkinetics = \"rates\"\n",
+    );
+    let rec = run(&m).recording;
+    let at = |s: usize| anlage::readout::boundaries_at(&rec, s).unwrap();
+    assert_eq!(at(0).len(), 1);
+    assert_relative_eq!(at(0)[0].position_um, 40.0, max_relative = 0.03);
+    assert_eq!(at(2).len(), 1, "at 4 min the gene is at 13.5 % of its start");
+    for s in 4..rec.len() {
+        assert!(at(s).is_empty(), "t = {}: {:?}", rec.times[s], at(s));
+    }
+}

@@ -188,6 +188,14 @@ impl GrowthRun {
     pub fn frame_recording(&self, model: &Model, s: usize) -> Recording {
         let f = &self.frames[s];
         let mut rec = Recording::for_model(&Model { grid: f.grid, ..model.clone() });
+        // A gene without a capacity: its floor from its largest level over
+        // the whole run ([`Recording::floor_from_run`]).
+        for (g, floor) in rec.floor.iter_mut().enumerate() {
+            if *floor == 0.0 {
+                let top = self.frames.iter().flat_map(|f| f.state.row(g).to_vec()).fold(0.0, f64::max);
+                *floor = crate::integrate::EXPRESSION_FLOOR * top;
+            }
+        }
         rec.push(f.time_min, &f.state).expect("a recording in memory");
         rec
     }

@@ -22,7 +22,7 @@ use rand::{RngExt, SeedableRng};
 pub use checkpoint::{Checkpoint, CheckpointError, CheckpointParts, Progress, StepperState};
 pub use control::{ErrorControl, FixedSteps, StepControl, Verdict};
 pub use memory::{MemoryPlan, STREAM_ABOVE_BYTES};
-pub use recording::{ReadBackError, Recording};
+pub use recording::{EXPRESSION_FLOOR, ReadBackError, Recording};
 pub use scheme::{History, Scheme, TimeScheme};
 pub use stepper::{Forcing, Stepper, time_derivative};
 

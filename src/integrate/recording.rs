@@ -123,6 +123,27 @@ impl Recording {
         .with_levels(model.genes.iter().map(|g| g.boundary).collect())
     }
 
+    /// For every gene without a capacity (a rate expression, or no decay),
+    /// whose floor is 0: the floor becomes [`EXPRESSION_FLOOR`] of the
+    /// largest level it reaches over the recording, so that a gene that has
+    /// all but vanished reports no boundaries (before, a gene at 0.07 % of
+    /// its peak still did).
+    ///
+    /// # Errors
+    /// [`ReadBackError`] if a streamed snapshot cannot be read back.
+    pub fn floor_from_run(&mut self) -> Result<(), ReadBackError> {
+        if self.floor.iter().all(|f| *f > 0.0) || self.is_empty() {
+            return Ok(());
+        }
+        let top = self.max_levels(0..self.len())?;
+        for (f, t) in self.floor.iter_mut().zip(top) {
+            if *f == 0.0 && t > 0.0 {
+                *f = EXPRESSION_FLOOR * t;
+            }
+        }
+        Ok(())
+    }
+
     /// The same recording with these boundary levels (one per gene).
     pub fn with_levels(mut self, levels: Vec<crate::readout::Level>) -> Recording {
         self.levels = levels;

@@ -35,11 +35,22 @@ pub fn recording_at(model: &Model, times: &[f64]) -> Result<Recording, StepError
     let tissue = crate::tissue::Tissue::new(model);
     let kinetics = crate::kinetics::build(model);
     let mut rec = Recording::for_model(model);
+    // Every snapshot's largest levels, kept or not, so that a gene without a
+    // capacity gets the floor a full run would give it (Recording::floor_from_run).
+    let mut top = vec![0.0f64; model.genes.len()];
     integrate::integrate(model, kinetics.as_ref(), &tissue, false, |t, state| {
+        for (m, row) in top.iter_mut().zip(state.outer_iter()) {
+            *m = row.iter().copied().fold(*m, f64::max);
+        }
         if times.iter().any(|&w| same_time(w, t)) {
             // An in-memory recording: pushing cannot fail.
             let _ = rec.push(t, state);
         }
     })?;
+    for (f, t) in rec.floor.iter_mut().zip(top) {
+        if *f == 0.0 && t > 0.0 {
+            *f = crate::integrate::EXPRESSION_FLOOR * t;
+        }
+    }
     Ok(rec)
 }

@@ -126,9 +126,7 @@ pub fn grow(model: &Model, parallel: bool) -> Result<GrowthRun, StepError> {
             snapshots[next_snapshot..].iter().copied().take_while(|&s| s < end - 1e-9 * end).collect();
         targets.push(end);
         let mut last = None;
-        // Each stretch starts afresh: its first step is IMEX Euler, which has
-        // no error estimate, so it is chosen from the rates, not carried over.
-        let (part, _) = integrate_span(&m, kinetics.as_ref(), &tissue, parallel, t, u, &targets, 0.0, |at, state| {
+        let part = integrate_span(&m, kinetics.as_ref(), &tissue, parallel, t, u, &targets, |at, state| {
             if at == end {
                 last = Some(state.clone());
             }
@@ -144,7 +142,7 @@ pub fn grow(model: &Model, parallel: bool) -> Result<GrowthRun, StepError> {
                 next_snapshot += 1;
             }
         })?;
-        add_stats(&mut stats, part);
+        stats.merge(part);
         u = last.expect("the stretch reaches its end");
         grid.spacing_um *= tissue.stretch_at(end);
         t = end;
@@ -166,36 +164,24 @@ pub fn grow(model: &Model, parallel: bool) -> Result<GrowthRun, StepError> {
     Ok(GrowthRun { frames, events, stats })
 }
 
-fn add_stats(total: &mut StepStats, part: StepStats) {
-    if part.steps == 0 {
-        total.rejected += part.rejected;
-        return;
-    }
-    if total.steps == 0 {
-        *total = part;
-        return;
-    }
-    total.steps += part.steps;
-    total.rejected += part.rejected;
-    total.min_step_min = total.min_step_min.min(part.min_step_min);
-    total.max_step_min = total.max_step_min.max(part.max_step_min);
-}
-
 impl GrowthRun {
+    /// Each gene's largest level over the whole run, a.u.
+    fn top_levels(&self) -> Vec<f64> {
+        let mut top = vec![0.0f64; self.frames.first().map_or(0, |f| f.state.nrows())];
+        for f in &self.frames {
+            crate::integrate::raise_to_maxima(&mut top, &f.state);
+        }
+        top
+    }
+
     /// A one-snapshot recording of frame `s` on its own grid, with the
-    /// model's genes, colours, expression floors and boundary levels, for the
-    /// readouts of fixed rows.
-    pub fn frame_recording(&self, model: &Model, s: usize) -> Recording {
+    /// model's genes, colours and boundary levels, and expression floors of
+    /// genes without a capacity from `top`, the run's largest levels
+    /// ([`Recording::floor_from_levels`]): for the readouts of fixed rows.
+    fn frame_recording(&self, model: &Model, s: usize, top: &[f64]) -> Recording {
         let f = &self.frames[s];
         let mut rec = Recording::for_model(&Model { grid: f.grid, ..model.clone() });
-        // A gene without a capacity: its floor from its largest level over
-        // the whole run ([`Recording::floor_from_run`]).
-        for (g, floor) in rec.floor.iter_mut().enumerate() {
-            if *floor == 0.0 {
-                let top = self.frames.iter().flat_map(|f| f.state.row(g).to_vec()).fold(0.0, f64::max);
-                *floor = crate::integrate::EXPRESSION_FLOOR * top;
-            }
-        }
+        rec.floor_from_levels(top);
         rec.push(f.time_min, &f.state).expect("a recording in memory");
         rec
     }
@@ -207,8 +193,9 @@ impl GrowthRun {
     /// Never in practice (the frames are in memory).
     pub fn readouts(&self, model: &Model) -> Result<(Vec<Boundary>, Vec<Domain>), ReadBackError> {
         let (mut b, mut d) = (Vec::new(), Vec::new());
+        let top = self.top_levels();
         for s in 0..self.frames.len() {
-            let (fb, fd) = crate::readout::find_boundaries_and_domains(&self.frame_recording(model, s))?;
+            let (fb, fd) = crate::readout::find_boundaries_and_domains(&self.frame_recording(model, s, &top))?;
             b.extend(fb);
             d.extend(fd);
         }

@@ -22,7 +22,7 @@ use rand::{RngExt, SeedableRng};
 pub use checkpoint::{Checkpoint, CheckpointError, CheckpointParts, Progress, StepperState};
 pub use control::{ErrorControl, FixedSteps, StepControl, Verdict};
 pub use memory::{MemoryPlan, STREAM_ABOVE_BYTES};
-pub use recording::{EXPRESSION_FLOOR, ReadBackError, Recording};
+pub use recording::{EXPRESSION_FLOOR, ReadBackError, Recording, raise_to_maxima};
 pub use scheme::{History, Scheme, TimeScheme};
 pub use stepper::{Forcing, Stepper, time_derivative};
 
@@ -115,6 +115,22 @@ pub struct StepStats {
 }
 
 impl StepStats {
+    /// Adds the counts of a later part of the same run.
+    pub fn merge(&mut self, part: StepStats) {
+        if part.steps == 0 {
+            self.rejected += part.rejected;
+            return;
+        }
+        if self.steps == 0 {
+            *self = StepStats { rejected: self.rejected + part.rejected, ..part };
+            return;
+        }
+        self.steps += part.steps;
+        self.rejected += part.rejected;
+        self.min_step_min = self.min_step_min.min(part.min_step_min);
+        self.max_step_min = self.max_step_min.max(part.max_step_min);
+    }
+
     fn count(&mut self, k: f64) {
         if self.steps == 0 {
             self.min_step_min = k;
@@ -271,9 +287,10 @@ fn integrate_on_worker(
 /// Error-controlled steps from state `u0` at `t0` (min) through each of
 /// `targets` (increasing, after `t0`), landing on each exactly and calling
 /// `reached(t, state)` there: one stretch of a run whose grid or circuit
-/// changes between stretches (a growing, dividing row). `first_try` is the
-/// step to try first (min; 0 to choose it from the rates). Returns the step
-/// counts and the step to try next.
+/// changes between stretches (a growing, dividing row). Each stretch starts
+/// afresh: its first step is IMEX Euler, which has no error estimate, so it
+/// is chosen from the rates ([`ErrorControl::first_step_bounded`]). Returns
+/// the step counts.
 ///
 /// # Errors
 /// [`StepError`] when the state stops being finite or steps collapse.
@@ -289,25 +306,18 @@ pub fn integrate_span(
     t0: f64,
     u0: Array2<f64>,
     targets: &[f64],
-    first_try: f64,
     reached: impl FnMut(f64, &Array2<f64>),
-) -> Result<(StepStats, f64), StepError> {
+) -> Result<StepStats, StepError> {
     let names = model.genes.iter().map(|g| g.name.clone()).collect();
     let d: Vec<f64> = model.genes.iter().map(|g| g.diffusion).collect();
     let mut stepper = Stepper::new(kinetics, tissue, model.clock.scheme, &d, names, u0, t0, parallel, forcing(model))?;
     let StepControl::Adaptive(control) = StepControl::new(&model.clock) else {
         panic!("a stretch of a run is integrated with error-controlled steps");
     };
-    let next_step_min = if first_try > 0.0 { first_try } else { first_step(&control, &mut stepper) };
-    let progress = Progress { next_snapshot: 0, steps_taken: 0, next_step_min };
+    let progress = Progress { next_snapshot: 0, steps_taken: 0, next_step_min: first_step(&control, &mut stepper) };
     let breaks = tissue.breakpoints();
     let time_loop = TimeLoop { model, stepper, stats: StepStats::default(), progress, times: targets.to_vec(), breaks };
-    let mut next = 0.0;
-    let stats = time_loop.error_controlled(control, reached, |_, p, _| {
-        next = p.next_step_min;
-        true
-    })?;
-    Ok((stats, next))
+    time_loop.error_controlled(control, reached, |_, _, _| true)
 }
 
 /// The first step of error-controlled steps from the stepper's state (at

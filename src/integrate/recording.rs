@@ -83,6 +83,14 @@ impl Spill {
     }
 }
 
+/// Raises each gene's running maximum `top` (starting at 0) to the largest
+/// level in `state` [gene, nucleus].
+pub fn raise_to_maxima(top: &mut [f64], state: &Array2<f64>) {
+    for (m, row) in top.iter_mut().zip(state.outer_iter()) {
+        *m = row.iter().copied().fold(*m, f64::max);
+    }
+}
+
 /// A streamed snapshot could not be read back from its scratch file.
 #[derive(Debug, thiserror::Error)]
 #[error(
@@ -136,12 +144,18 @@ impl Recording {
             return Ok(());
         }
         let top = self.max_levels(0..self.len())?;
-        for (f, t) in self.floor.iter_mut().zip(top) {
+        self.floor_from_levels(&top);
+        Ok(())
+    }
+
+    /// [`Self::floor_from_run`] with each gene's largest level over the run
+    /// given (a.u.): for callers that keep only some of the run's snapshots.
+    pub fn floor_from_levels(&mut self, top: &[f64]) {
+        for (f, &t) in self.floor.iter_mut().zip(top) {
             if *f == 0.0 && t > 0.0 {
                 *f = EXPRESSION_FLOOR * t;
             }
         }
-        Ok(())
     }
 
     /// The same recording with these boundary levels (one per gene).
@@ -239,10 +253,7 @@ impl Recording {
     pub fn max_levels(&self, snapshots: impl IntoIterator<Item = usize>) -> Result<Vec<f64>, ReadBackError> {
         let mut top = vec![0.0f64; self.genes.len()];
         for s in snapshots {
-            let state = self.state(s)?;
-            for (m, row) in top.iter_mut().zip(state.outer_iter()) {
-                *m = row.iter().copied().fold(*m, f64::max);
-            }
+            raise_to_maxima(&mut top, &*self.state(s)?);
         }
         Ok(top)
     }

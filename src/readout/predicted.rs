@@ -39,18 +39,12 @@ pub fn recording_at(model: &Model, times: &[f64]) -> Result<Recording, StepError
     // capacity gets the floor a full run would give it (Recording::floor_from_run).
     let mut top = vec![0.0f64; model.genes.len()];
     integrate::integrate(model, kinetics.as_ref(), &tissue, false, |t, state| {
-        for (m, row) in top.iter_mut().zip(state.outer_iter()) {
-            *m = row.iter().copied().fold(*m, f64::max);
-        }
+        integrate::raise_to_maxima(&mut top, state);
         if times.iter().any(|&w| same_time(w, t)) {
             // An in-memory recording: pushing cannot fail.
             let _ = rec.push(t, state);
         }
     })?;
-    for (f, t) in rec.floor.iter_mut().zip(top) {
-        if *f == 0.0 && t > 0.0 {
-            *f = crate::integrate::EXPRESSION_FLOOR * t;
-        }
-    }
+    rec.floor_from_levels(&top);
     Ok(rec)
 }

@@ -31,18 +31,18 @@ pub struct Tissue {
     /// `shape[[m, i]]` = baseline + (peak − baseline)·s(d_i): gradient m at nucleus i
     /// with amplitude 1, a.u.
     shape: Array2<f64>,
-    /// Amplitude time course of each gradient, `(t_min, factor)`.
-    amplitude: Vec<Vec<(f64, f64)>>,
     /// Genes whose neighbour means are inputs (all genes, or none).
     neighbour_genes: usize,
     /// On a growing row, how its positions stretch with time.
     stretch: Option<Stretch>,
-    /// The gradients (their shapes, peaks and baselines), for those whose
-    /// values are recomputed at each time.
+    /// The gradients: amplitude time courses, and the shapes, peaks and
+    /// baselines of those whose values are recomputed at each time.
     gradients: Vec<crate::model::Gradient>,
-    /// Per gradient, true when its shape changes with time (measured
-    /// profiles at several times).
-    timed: Vec<bool>,
+}
+
+/// True when a gradient's shape changes with time (measured profiles at several times).
+fn timed(g: &crate::model::Gradient) -> bool {
+    matches!(g.shape, crate::model::Shape::TableInTime { .. })
 }
 
 /// A growing row's stretch: positions and distances at time t are those of
@@ -80,11 +80,9 @@ impl Tissue {
         Tissue {
             grid,
             shape,
-            amplitude: model.gradients.iter().map(|g| g.amplitude.clone()).collect(),
             neighbour_genes: if model.circuit.neighbours { model.genes.len() } else { 0 },
             stretch,
             gradients: model.gradients.clone(),
-            timed: model.gradients.iter().map(|g| matches!(g.shape, crate::model::Shape::TableInTime { .. })).collect(),
         }
     }
 
@@ -120,7 +118,7 @@ impl Tissue {
 
     /// True when any gradient's amplitude changes with time.
     pub fn time_varying(&self) -> bool {
-        self.stretch.is_some() || self.timed.contains(&true) || self.amplitude.iter().any(|a| a.len() > 1)
+        self.stretch.is_some() || self.gradients.iter().any(|g| timed(g) || g.amplitude.len() > 1)
     }
 
     /// Times (min, increasing) at which an input's course in time has a
@@ -128,7 +126,7 @@ impl Tissue {
     /// times of measured profiles. Error-controlled steps land on them and
     /// start afresh there.
     pub fn breakpoints(&self) -> Vec<f64> {
-        let mut out: Vec<f64> = self.amplitude.iter().flatten().map(|p| p.0).collect();
+        let mut out: Vec<f64> = self.gradients.iter().flat_map(|g| &g.amplitude).map(|p| p.0).collect();
         for g in &self.gradients {
             if let crate::model::Shape::TableInTime { frames } = &g.shape {
                 out.extend(frames.iter().map(|f| f.0));
@@ -151,11 +149,11 @@ impl Tissue {
         let e = self.stretch_at(t_min);
         let nx = self.grid.nx;
         for (m, (mut row, shape)) in out.outer_iter_mut().zip(self.shape.outer_iter()).enumerate() {
-            let a = amplitude_at(&self.amplitude[m], t_min);
             let g = &self.gradients[m];
+            let a = amplitude_at(&g.amplitude, t_min);
             let value = |d: f64| a * (g.baseline + (g.peak - g.baseline) * unit_shape(&g.shape, d, t_min));
             match &self.stretch {
-                None if !self.timed[m] => row.zip_mut_with(&shape, |o, s| *o = a * s),
+                None if !timed(g) => row.zip_mut_with(&shape, |o, s| *o = a * s),
                 None => {
                     for (i, o) in row.iter_mut().enumerate() {
                         *o = value(distance_um(&self.grid, g.from, i % nx, i / nx));

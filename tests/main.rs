@@ -7,6 +7,7 @@ mod common;
 mod compare;
 mod convergence;
 mod demos;
+mod edge_params;
 mod edges;
 mod fit;
 mod fold_curves;

@@ -443,16 +443,17 @@ pub fn screen(
             if unsettled.len() > 5 { ", …" } else { "" }
         );
     }
+    let width = rows.iter().take(40).map(|r| r.mutant.chars().count()).fold(28, usize::max);
     let _ = writeln!(
         out,
-        "  {:<28} {:<10} {:<8} {:>8} {:>8} {:>8} {:>9}  status",
+        "  {:<width$} {:<10} {:<8} {:>8} {:>8} {:>8} {:>9}  status",
         "mutant", "gene", "dir", "wt %", "mut %", "shift %", "shift µm"
     );
     let pct = |v: Option<f64>| v.map_or_else(|| "-".to_string(), |x| format!("{x:.2}"));
     for r in rows.iter().take(40) {
         let _ = writeln!(
             out,
-            "  {:<28} {:<10} {:<8} {:>8} {:>8} {:>8} {:>9}  {}{}",
+            "  {:<width$} {:<10} {:<8} {:>8} {:>8} {:>8} {:>9}  {}{}",
             r.mutant,
             r.gene,
             r.direction,

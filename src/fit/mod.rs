@@ -291,6 +291,21 @@ pub fn fitted_model_text(problem: &FitProblem, values: &[f64], objective: f64) -
             Param::Gene(i, _) => (("gene", None), i),
             Param::Gradient(k, _) => (("gradient", None), k),
             Param::Link(k, _) => (("circuit", Some("link")), k),
+            Param::Edge(g, ..) => {
+                let gene = doc
+                    .get_mut("gene")
+                    .and_then(|t| t.get_mut(g))
+                    .and_then(|e| e.as_table_mut())
+                    .ok_or("missing gene")?;
+                let mut table = gene;
+                let path: Vec<&str> = p.param.key().split('.').collect();
+                let (last, inner) = path.split_last().ok_or("empty key")?;
+                for part in inner {
+                    table = table.get_mut(*part).and_then(|t| t.as_table_mut()).ok_or("missing edge rule")?;
+                }
+                table.insert((*last).into(), toml::Value::Float(*v));
+                continue;
+            }
             Param::Constant(k) => {
                 let name = &problem.model.circuit.parameters[k].0;
                 let constants = doc

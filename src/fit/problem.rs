@@ -201,6 +201,22 @@ impl FitProblem {
                     )
                     .into());
             }
+            let need = match param.lower_bound() {
+                Some(true) if ps.min <= 0.0 => Some("> 0"),
+                Some(false) if ps.min < 0.0 => Some(">= 0"),
+                _ => None,
+            };
+            if let Some(need) = need {
+                return Err(src
+                    .invalid(
+                        &span,
+                        "min",
+                        field("min"),
+                        format!("is {}, but `{}` must stay {need}, as in the model file", ps.min, ps.name),
+                        "raise min to the smallest value the parameter can take",
+                    )
+                    .into());
+            }
             if params.iter().any(|q: &FreeParam| q.param == param) {
                 return Err(src
                     .invalid(

@@ -49,6 +49,16 @@ impl GeneEdges {
         [("left", self.left), ("right", self.right), ("bottom", self.bottom), ("top", self.top)]
     }
 
+    /// The rules, to change them, in the order left, right, bottom, top.
+    pub fn rules_mut(&mut self) -> [&mut EdgeRule; 4] {
+        [&mut self.left, &mut self.right, &mut self.bottom, &mut self.top]
+    }
+
+    /// The rule at edge k (0 left, 1 right, 2 bottom, 3 top), to change it.
+    pub fn rule_mut(&mut self, k: usize) -> Option<&mut EdgeRule> {
+        self.rules_mut().into_iter().nth(k)
+    }
+
     /// True if every edge is sealed.
     pub fn all_sealed(&self) -> bool {
         self.named().iter().all(|(_, r)| *r == EdgeRule::Sealed)

@@ -25,7 +25,7 @@ pub use edge::{EdgeRule, GeneEdges};
 pub use error::ModelError;
 pub use level::{BLANK, Level};
 pub use mutant::{Ectopic, Edit, Mutant};
-pub use param::{GeneParam, GradientParam, LinkParam, Param, names_in};
+pub use param::{EdgeParam, GeneParam, GradientParam, LinkParam, Param, names_in};
 pub use source::Source;
 pub use validate::PALETTE;
 pub use validate_circuit::{MAX_HOPS_PER_MIN, parse_color};

@@ -5,7 +5,7 @@
 use std::ops::Range;
 
 use super::spec::MutantSpec;
-use super::{LinkParam, Model, ModelError, Param, Regulator, Side, Source};
+use super::{EdgeRule, LinkParam, Model, ModelError, Param, Regulator, Side, Source};
 
 /// Extra production of a gene over a region of the axis.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -97,6 +97,12 @@ impl Model {
                     let gene = &mut out.genes[*g];
                     gene.knocked_out_production.get_or_insert(gene.production);
                     gene.production = 0.0;
+                    // What enters at an edge is the gene's product too.
+                    for rule in gene.edges.rules_mut() {
+                        if let EdgeRule::Influx(v) | EdgeRule::Level(v) = rule {
+                            *v = 0.0;
+                        }
+                    }
                 }
                 Edit::Clamp(g, level) => out.clamps[*g] = Some(*level),
                 Edit::Ectopic(x) => out.ectopic.push(*x),

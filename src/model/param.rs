@@ -1,8 +1,10 @@
 //! The parameters mutants, sensitivity analyses and fits can name and scale:
 //! a gene's, a gradient's, a link's, or a named constant of the rate
-//! expressions; and whether scaling one can change the simulation at all.
+//! expressions, or a gene's edge rule (an influx entering at an edge, or a
+//! level held there); and whether scaling one can change the simulation at
+//! all.
 
-use super::{KineticsKind, LinkEffect, Model, Regulator, Shape};
+use super::{EdgeRule, KineticsKind, LinkEffect, Model, Regulator, Shape};
 
 /// The names (identifiers) in a rate expression's text, in order.
 pub fn names_in(rate: &str) -> impl Iterator<Item = &str> {
@@ -49,6 +51,22 @@ pub enum LinkParam {
     Weight,
 }
 
+/// Which value of an edge rule: the influx j entering (a.u.·µm/min) or the
+/// level C₀ held at the edge (a.u.).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum EdgeParam {
+    /// `{ influx = j }`.
+    Influx,
+    /// `{ level = C₀ }`.
+    Level,
+}
+
+/// The edges in the order of [`super::GeneEdges::named`].
+const SIDES: [&str; 4] = ["left", "right", "bottom", "top"];
+/// Keys of edge parameters, side by side, for [`Param::key`].
+const INFLUX_KEYS: [&str; 4] = ["edge.left.influx", "edge.right.influx", "edge.bottom.influx", "edge.top.influx"];
+const LEVEL_KEYS: [&str; 4] = ["edge.left.level", "edge.right.level", "edge.bottom.level", "edge.top.level"];
+
 /// A scalable model parameter.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum Param {
@@ -60,14 +78,20 @@ pub enum Param {
     Link(usize, LinkParam),
     /// Named constant k of the rate expressions (`[circuit] parameters`).
     Constant(usize),
+    /// Of gene i's rule at edge k (0 left, 1 right, 2 bottom, 3 top):
+    /// written `GENE.edge.left.influx` or `GENE.edge.right.level`.
+    Edge(usize, usize, EdgeParam),
 }
 
 impl Param {
     /// The parameter's key in the model file (`production`, `decay_length_um`,
-    /// `threshold`, …; `parameters` for a named constant).
+    /// `threshold`, `edge.left.influx`, …; `parameters` for a named
+    /// constant).
     pub fn key(self) -> &'static str {
         match self {
             Param::Constant(_) => "parameters",
+            Param::Edge(_, side, EdgeParam::Influx) => INFLUX_KEYS[side],
+            Param::Edge(_, side, EdgeParam::Level) => LEVEL_KEYS[side],
             Param::Gene(_, q) => match q {
                 GeneParam::Production => "production",
                 GeneParam::Decay => "decay",
@@ -88,6 +112,19 @@ impl Param {
             },
         }
     }
+
+    /// Whether the parameter must stay above 0 (`Some(true)`), at or above 0
+    /// (`Some(false)`), or may take either sign (`None`), as the model file
+    /// allows it.
+    pub fn lower_bound(self) -> Option<bool> {
+        match self {
+            Param::Constant(_) | Param::Gene(_, GeneParam::Bias) | Param::Link(_, LinkParam::Weight) => None,
+            Param::Gene(..) | Param::Edge(..) => Some(false),
+            Param::Link(..) => Some(true),
+            Param::Gradient(_, GradientParam::Peak | GradientParam::Baseline) => Some(false),
+            Param::Gradient(..) => Some(true),
+        }
+    }
 }
 
 impl Model {
@@ -95,7 +132,7 @@ impl Model {
     pub fn param_name(&self, p: Param) -> String {
         let owner = match p {
             Param::Constant(k) => return self.circuit.parameters[k].0.clone(),
-            Param::Gene(g, _) => self.genes[g].name.clone(),
+            Param::Gene(g, _) | Param::Edge(g, ..) => self.genes[g].name.clone(),
             Param::Gradient(k, _) => self.gradients[k].name.clone(),
             Param::Link(k, _) => self.link_name(k),
         };
@@ -148,6 +185,11 @@ impl Model {
                 (LinkParam::Weight, LinkEffect::Weight(w)) => Some(w),
                 _ => None,
             },
+            Param::Edge(g, side, q) => match (q, self.genes.get_mut(g)?.edges.rule_mut(side)?) {
+                (EdgeParam::Influx, EdgeRule::Influx(j)) => Some(j),
+                (EdgeParam::Level, EdgeRule::Level(c)) => Some(c),
+                _ => None,
+            },
         }
     }
 
@@ -181,6 +223,11 @@ impl Model {
                 (LinkParam::Weight, LinkEffect::Weight(w)) => Some(*w),
                 _ => None,
             },
+            Param::Edge(g, side, q) => match (q, self.genes.get(g)?.edges.named().get(side)?.1) {
+                (EdgeParam::Influx, EdgeRule::Influx(j)) => Some(j),
+                (EdgeParam::Level, EdgeRule::Level(c)) => Some(c),
+                _ => None,
+            },
         }
     }
 
@@ -192,6 +239,11 @@ impl Model {
     pub fn parse_param(&self, name: &str) -> Result<Param, String> {
         if let Some(k) = self.circuit.parameters.iter().position(|(n, _)| n == name.trim()) {
             return Ok(Param::Constant(k));
+        }
+        if let Some((owner, rule)) = name.trim().split_once(".edge.")
+            && let Some(g) = self.gene_index(owner.trim())
+        {
+            return self.parse_edge_param(name, g, rule);
         }
         let (owner, field) = name.rsplit_once('.').ok_or_else(|| {
             let constants: Vec<&str> = self.circuit.parameters.iter().map(|(n, _)| n.as_str()).collect();
@@ -256,6 +308,42 @@ impl Model {
         Ok(p)
     }
 
+    /// `left.influx`, `right.level`, … of gene `g`'s edge rules (`name` is
+    /// the whole name, for messages).
+    fn parse_edge_param(&self, name: &str, g: usize, rule: &str) -> Result<Param, String> {
+        let hint = "write GENE.edge.SIDE.influx or GENE.edge.SIDE.level, SIDE being left, right, bottom or top";
+        let (side, kind) = rule.split_once('.').ok_or_else(|| format!("`{name}`: {hint}"))?;
+        let side = SIDES.iter().position(|s| *s == side).ok_or_else(|| format!("`{name}`: {hint}"))?;
+        let kind = match kind {
+            "influx" => EdgeParam::Influx,
+            "level" => EdgeParam::Level,
+            _ => return Err(format!("`{name}`: {hint}")),
+        };
+        let p = Param::Edge(g, side, kind);
+        if self.param_value(p).is_none() {
+            let gene = &self.genes[g];
+            let (k, side) = (side, SIDES[side]);
+            return Err(match gene.edges.named()[k].1 {
+                EdgeRule::Sealed => format!(
+                    "`{name}` does not apply: gene `{}` has no rule at its {side} edge (it is sealed: no flux); \
+                     give one in the model file (`edge.{side} = {{ influx = J }}` or `{{ level = C }}`) to vary it",
+                    gene.name
+                ),
+                EdgeRule::Influx(j) => format!(
+                    "`{name}` does not apply: gene `{}` has an influx at its {side} edge ({j} a.u.·µm/min), not a held \
+                     level; name it `{}.edge.{side}.influx`",
+                    gene.name, gene.name
+                ),
+                EdgeRule::Level(c) => format!(
+                    "`{name}` does not apply: gene `{}` holds a level at its {side} edge ({c} a.u.), not an influx; \
+                     name it `{}.edge.{side}.level`",
+                    gene.name, gene.name
+                ),
+            });
+        }
+        Ok(p)
+    }
+
     /// Every parameter that is non-zero and can be scaled (for sensitivity).
     pub fn parameters(&self) -> Vec<Param> {
         let mut out = Vec::new();
@@ -281,6 +369,11 @@ impl Model {
             }
         }
         out.extend((0..self.circuit.parameters.len()).map(Param::Constant));
+        for g in 0..self.genes.len() {
+            for side in 0..SIDES.len() {
+                out.extend([EdgeParam::Influx, EdgeParam::Level].map(|q| Param::Edge(g, side, q)));
+            }
+        }
         out.retain(|p| self.param_value(*p).is_some() && self.no_effect(*p).is_none());
         out
     }
@@ -331,8 +424,8 @@ impl Model {
     }
 
     /// Why the rate law never reads `p` at any value, or None when it does
-    /// (the structural part of [`Self::no_effect`]; diffusion is read by the
-    /// tissue, not the rate law, and counts as read here).
+    /// (the structural part of [`Self::no_effect`]; diffusion and edge rules
+    /// are read by the tissue, not the rate law, and count as read here).
     pub fn unread(&self, p: Param) -> Option<String> {
         let name = self.param_name(p);
         let expression = |g: usize| self.genes[g].rate.as_deref();
@@ -375,6 +468,7 @@ impl Model {
                 let used = (0..self.genes.len()).filter_map(expression).any(|r| names_in(r).any(|n| n == constant));
                 (!used).then(|| format!("`{name}` has no effect: no rate expression uses the constant `{constant}`"))
             }
+            Param::Edge(..) => None,
         };
         structural
     }

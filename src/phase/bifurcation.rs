@@ -12,7 +12,7 @@ use super::fixed::{find_fixed_points, newton_tolerance};
 use super::landscape::point_inputs;
 use super::system::{AtParameter, Family};
 use crate::kinetics::Kinetics;
-use crate::model::{GeneParam, GradientParam, Initial, LinkParam, Model, Param};
+use crate::model::{GeneParam, Initial, Model, Param};
 
 /// Built rate laws kept by parameter values (bits), with their inputs.
 type Built = Vec<((u64, u64), Arc<dyn Kinetics>, Arc<Vec<f64>>)>;
@@ -302,6 +302,11 @@ pub enum DiagramError {
         "`{0}` is a diffusion coefficient, which does not act on an isolated nucleus; continue in a parameter of the rate law"
     )]
     Diffusion(String),
+    /// An edge rule does not act on one nucleus.
+    #[error(
+        "`{0}` is an edge rule, which acts through diffusion and not on an isolated nucleus; continue in a parameter of the rate law"
+    )]
+    Edge(String),
     /// A bad range.
     #[error("the range {from} to {to} of `{name}` {why}; give {options}{hint}")]
     Range {
@@ -318,20 +323,6 @@ pub enum DiagramError {
         /// More advice.
         hint: &'static str,
     },
-}
-
-/// Whether the parameter must stay above 0 (true) or at or above 0 (false);
-/// None for named constants, which may take any sign.
-fn lower_bound(p: Param) -> Option<bool> {
-    match p {
-        Param::Constant(_) => None,
-        Param::Gene(_, GeneParam::Bias) => None,
-        Param::Gene(..) => Some(false),
-        Param::Link(_, LinkParam::Weight) => None,
-        Param::Link(..) => Some(true),
-        Param::Gradient(_, GradientParam::Peak | GradientParam::Baseline) => Some(false),
-        Param::Gradient(..) => Some(true),
-    }
 }
 
 /// A gene's capacity p/d, a.u. (0 without decay).
@@ -363,6 +354,9 @@ pub fn check_parameter(
     if let Param::Gene(_, GeneParam::Diffusion) = param {
         return Err(DiagramError::Diffusion(name));
     }
+    if let Param::Edge(..) = param {
+        return Err(DiagramError::Edge(name));
+    }
     if let Some(why) = model.unread(param) {
         return Err(DiagramError::Unread(why));
     }
@@ -370,7 +364,7 @@ pub fn check_parameter(
     if !(from.is_finite() && to.is_finite() && from < to) {
         return Err(range_error("is empty or not finite", ""));
     }
-    match lower_bound(param) {
+    match param.lower_bound() {
         Some(true) if from <= 0.0 => Err(range_error("reaches 0 or below", " (this parameter must stay above 0)")),
         Some(false) if from < 0.0 => Err(range_error("goes below 0", " (this parameter must stay at or above 0)")),
         _ => Ok(name),

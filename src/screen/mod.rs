@@ -218,7 +218,8 @@ pub fn mutant_shifts(model: &Model, wild_type: &[Boundary], genes: &[String], m:
 /// Generated mutant families: every single knock-out (`ko:gene`), every link
 /// removal (`del:from->to`), and dosage: each gene's production halved and
 /// doubled (`gene.production x0.5`, `x2`: heterozygote and overexpression)
-/// and each gradient's peak from ×0.25 to ×4 (`gradient.peak x0.25` … `x4`).
+/// and each gradient's peak from ×0.25 to ×4 (`gradient.peak x0.25` … `x4`),
+/// as is each non-zero edge influx or held level (`gene.edge.left.influx x0.25`).
 pub fn families(model: &Model, knockouts: bool, link_removals: bool, dosage: bool) -> Vec<Mutant> {
     let mut out = Vec::new();
     if knockouts {
@@ -247,6 +248,12 @@ pub fn families(model: &Model, knockouts: bool, link_removals: bool, dosage: boo
                     name: format!("{}.peak x{f}", g.name),
                     edits: vec![Edit::Scale(Param::Gradient(k, GradientParam::Peak), f)],
                 });
+            }
+        }
+        // A source at an edge is a gradient the tissue makes: the same range.
+        for p in model.parameters().into_iter().filter(|p| matches!(p, Param::Edge(..))) {
+            for f in [0.25, 0.5, 2.0, 4.0] {
+                out.push(Mutant { name: format!("{} x{f}", model.param_name(p)), edits: vec![Edit::Scale(p, f)] });
             }
         }
     }

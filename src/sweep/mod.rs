@@ -47,10 +47,11 @@ pub struct AxisError {
 impl Axis {
     /// Reads `NAME=FROM:TO:POINTS` or `NAME=FROM:TO:POINTS:log` for `model`:
     /// POINTS values from FROM to TO inclusive, evenly spaced, or evenly in
-    /// the logarithm. A constant of the rate expressions may take any finite
-    /// value; every other parameter must stay > 0 (production, decay,
-    /// thresholds, Hill coefficients, peaks, lengths) or ≥ 0 (diffusion,
-    /// bias, baseline), as the model file requires.
+    /// the logarithm. Each parameter stays where the model file allows it
+    /// ([`Param::lower_bound`]): > 0 (thresholds, Hill coefficients,
+    /// lengths), ≥ 0 (production, decay, diffusion, peaks, baselines, edge
+    /// influxes and levels), or any finite value (constants of the rate
+    /// expressions, biases, sigmoid weights).
     ///
     /// # Errors
     /// [`AxisError`] saying what is wrong and how to write it.
@@ -91,19 +92,18 @@ impl Axis {
         if let Some(why) = probe.no_effect(param) {
             return Err(bad(why, "sweep a parameter that acts"));
         }
-        let constant = matches!(param, Param::Constant(_));
-        let zero_ok = matches!(
-            param,
-            Param::Gene(_, crate::model::GeneParam::Diffusion | crate::model::GeneParam::Bias)
-                | Param::Gradient(_, crate::model::GradientParam::Baseline)
-        );
         let lowest = from.min(to);
         if log && lowest <= 0.0 {
             return Err(bad("a log axis through 0 or below".into(), "give FROM and TO > 0 for log spacing"));
         }
-        if !constant && (lowest < 0.0 || (lowest == 0.0 && !zero_ok)) {
-            let need = if zero_ok { ">= 0" } else { "> 0" };
-            return Err(bad(format!("{name} must stay {need}"), "give a range inside what the model file allows"));
+        match param.lower_bound() {
+            Some(true) if lowest <= 0.0 => {
+                return Err(bad(format!("{name} must stay > 0"), "give a range inside what the model file allows"));
+            }
+            Some(false) if lowest < 0.0 => {
+                return Err(bad(format!("{name} must stay >= 0"), "give a range inside what the model file allows"));
+            }
+            _ => {}
         }
         let values = (0..points)
             .map(|k| {

@@ -260,8 +260,9 @@ pub fn fit(problem: &anlage::fit::FitProblem, r: &anlage::fit::FitResult, dir: &
     })
 }
 
-/// `sweep`: the axes, and per point its parameter values, class, failure
-/// and final boundaries.
+/// `sweep`: the axes, and per point its parameter values, class, failure,
+/// final boundaries, and on a sheet the dominant wavelength of a repeating
+/// pattern (null otherwise).
 pub fn sweep(s: &anlage::sweep::Sweep, dir: &Path) -> Value {
     let axes: Vec<Value> =
         s.axes.iter().map(|a| json!({ "parameter": a.name, "values": a.values, "log": a.log })).collect();
@@ -274,6 +275,8 @@ pub fn sweep(s: &anlage::sweep::Sweep, dir: &Path) -> Value {
                 "class": p.class.name(),
                 "failure": p.failure,
                 "boundaries": p.boundaries,
+                "pattern_gene": p.wavelength.as_ref().map(|w| &w.gene),
+                "wavelength_um": p.wavelength.as_ref().map(|w| w.wavelength_um),
             })
         })
         .collect();

@@ -866,7 +866,15 @@ pub fn sweep(s: &anlage::sweep::Sweep, dir: &Path) -> String {
                 format!("{} {lo:.4}..{hi:.4}", a.name)
             })
             .collect();
-        let _ = writeln!(out, "  {:<16} {:>6} points  ({})", class.name(), here.len(), ranges.join(", "));
+        let waves: Vec<f64> = here.iter().filter_map(|p| p.wavelength.as_ref().map(|w| w.wavelength_um)).collect();
+        let wave = if waves.is_empty() {
+            String::new()
+        } else {
+            let lo = waves.iter().copied().fold(f64::INFINITY, f64::min);
+            let hi = waves.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+            format!("; wavelength {lo:.1}..{hi:.1} µm")
+        };
+        let _ = writeln!(out, "  {:<16} {:>6} points  ({}{wave})", class.name(), here.len(), ranges.join(", "));
     }
     if let Some(p) = s.points.iter().find(|p| p.failure.is_some()) {
         let _ = writeln!(out, "  first failure: {}", p.failure.as_deref().unwrap_or(""));

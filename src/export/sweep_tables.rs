@@ -8,7 +8,7 @@ use std::path::Path;
 
 use serde::Serialize;
 
-use super::{Cells, ExportError, TableWriter, header_of, shortest, write_atomic};
+use super::{Cells, ExportError, TableWriter, header_of, shortest, shortest_opt, write_atomic};
 use crate::sweep::Sweep;
 
 #[derive(Serialize, Default)]
@@ -16,6 +16,13 @@ struct PointCells<'a> {
     class: &'a str,
     boundaries: usize,
     failure: &'a str,
+}
+
+#[derive(Serialize, Default)]
+struct WavelengthCells<'a> {
+    pattern_gene: &'a str,
+    #[serde(serialize_with = "shortest_opt")]
+    wavelength_um: Option<f64>,
 }
 
 #[derive(Serialize, Default)]
@@ -30,7 +37,9 @@ struct BoundaryCells<'a> {
 
 /// `sweep.csv` into `w`: `point`, one column per swept parameter, `class`,
 /// `boundaries` (how many), `failure` (why a run failed, else empty), and
-/// `domains_<gene>` per gene (domains at the end).
+/// `domains_<gene>` per gene (domains at the end); on a sheet also
+/// `pattern_gene` and `wavelength_um`, the gene that gave a repeating class
+/// and its dominant wavelength (empty otherwise).
 ///
 /// # Errors
 /// The writer's.
@@ -39,6 +48,9 @@ pub fn write_sweep_to(s: &Sweep, w: &mut dyn Write) -> std::io::Result<()> {
     header.extend(s.axes.iter().map(|a| a.name.clone()));
     header.extend(header_of::<PointCells>()?);
     header.extend(s.genes.iter().map(|g| format!("domains_{g}")));
+    if s.sheet {
+        header.extend(header_of::<WavelengthCells>()?);
+    }
     let mut out = TableWriter::new(w, &header)?;
     for (k, p) in s.points.iter().enumerate() {
         let counts: Vec<f64> =
@@ -48,7 +60,15 @@ pub fn write_sweep_to(s: &Sweep, w: &mut dyn Write) -> std::io::Result<()> {
             boundaries: p.boundaries.len(),
             failure: p.failure.as_deref().unwrap_or(""),
         };
-        out.row((k, Cells(&p.values), cells, Cells(&counts)))?;
+        if s.sheet {
+            let wavelength = WavelengthCells {
+                pattern_gene: p.wavelength.as_ref().map_or("", |w| w.gene.as_str()),
+                wavelength_um: p.wavelength.as_ref().map(|w| w.wavelength_um),
+            };
+            out.row((k, Cells(&p.values), cells, Cells(&counts), wavelength))?;
+        } else {
+            out.row((k, Cells(&p.values), cells, Cells(&counts)))?;
+        }
     }
     out.finish()
 }

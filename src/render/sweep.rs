@@ -1,7 +1,8 @@
 //! `sweep.png`: a phase diagram of a sweep. Two axes: the parameter plane,
 //! each grid cell coloured by its pattern class, with contours of one
-//! boundary's position (% length). One axis: the class along the parameter
-//! above, every boundary's position against the parameter below. Log axes
+//! boundary's position (% length), or on a sheet of the dominant wavelength
+//! (µm). One axis: the class along the parameter above, every boundary's
+//! position (on a sheet, the wavelength) against the parameter below. Log axes
 //! are drawn in log₁₀. More than two axes: the first two, at the middle
 //! value of the others.
 
@@ -69,11 +70,18 @@ pub fn sweep_picture(s: &Sweep, style: &Style) -> Canvas {
         (lo.min(hi) - half.abs(), lo.max(hi) + half.abs())
     };
     let cells = shown(s);
-    let target = contoured(s);
+    // On a sheet the lines and the lower panel show the dominant wavelength
+    // (midline boundaries mean little there); on a row, one boundary's position.
+    let target = if s.sheet { None } else { contoured(s) };
+    let wavelength = |k: usize| s.points[k].wavelength.as_ref().map_or(f64::NAN, |w| w.wavelength_um);
     let position = |k: usize| -> f64 {
+        if s.sheet {
+            return wavelength(k);
+        }
         let Some((g, d)) = &target else { return f64::NAN };
         s.points[k].boundaries.iter().find(|b| &b.gene == g && b.direction == *d).map_or(f64::NAN, |b| b.position_pct)
     };
+    let unit = if s.sheet { " µm" } else { "%" };
     if s.axes.len() >= 2 {
         let a1 = &s.axes[1];
         let mut ax = Axes::along_axis(left, top, right, width, plot_h, span(a1), false);
@@ -128,29 +136,45 @@ pub fn sweep_picture(s: &Sweep, style: &Style) -> Canvas {
                 }
                 // The label at the middle piece of the line.
                 if let Some(seg) = segments.get(segments.len() / 2) {
-                    let t = format!("{level}%");
+                    let t = format!("{level}{unit}");
                     c.text(seg[0].0 + 3.0, seg[0].1 - 3.0, 11.0, bg.ink(), Align::Left, &t);
                 }
             }
         }
         axes::draw(&mut c, &ax, &label(a0), &label(a1), bg);
     } else {
-        // One axis: a class strip, then positions against the parameter.
+        // One axis: a class strip, then positions (or wavelengths) against the parameter.
         let strip = 26.0;
+        let top_value = if s.sheet {
+            let most = cells.iter().map(|&(_, _, k)| wavelength(k)).filter(|v| v.is_finite()).fold(0.0, f64::max);
+            if most > 0.0 { 1.1 * most } else { 1.0 }
+        } else {
+            100.0
+        };
         let mut ax =
-            Axes::along_axis(left, top + strip + 28.0, right, width, plot_h - strip - 28.0, (0.0, 100.0), false);
+            Axes::along_axis(left, top + strip + 28.0, right, width, plot_h - strip - 28.0, (0.0, top_value), false);
         ax.x = span(a0);
         let cw = ax.width / a0.values.len() as f32;
+        let dot = |c: &mut Canvas, i: usize, gene: &str, y: f64| {
+            let g = s.genes.iter().position(|n| n == gene).unwrap_or(0);
+            let col = style.colors.get(g).copied().unwrap_or(bg.ink());
+            c.ellipse(ax.px(coord(a0.log, a0.values[i])), ax.py(y), 2.5, 2.5, 1.0, col, Some(col));
+        };
         for &(i, _, k) in &cells {
             let x = ax.px(coord(a0.log, a0.values[i])) - cw / 2.0;
             c.rect(x, top, cw + 0.5, strip, class_color(s.points[k].class));
-            for b in &s.points[k].boundaries {
-                let g = s.genes.iter().position(|n| n == &b.gene).unwrap_or(0);
-                let col = style.colors.get(g).copied().unwrap_or(bg.ink());
-                c.ellipse(ax.px(coord(a0.log, a0.values[i])), ax.py(b.position_pct), 2.5, 2.5, 1.0, col, Some(col));
+            if s.sheet {
+                if let Some(w) = &s.points[k].wavelength {
+                    dot(&mut c, i, &w.gene, w.wavelength_um);
+                }
+            } else {
+                for b in &s.points[k].boundaries {
+                    dot(&mut c, i, &b.gene, b.position_pct);
+                }
             }
         }
-        axes::draw(&mut c, &ax, &label(a0), "boundary position (% length)", bg);
+        let y_label = if s.sheet { "dominant wavelength (µm)" } else { "boundary position (% length)" };
+        axes::draw(&mut c, &ax, &label(a0), y_label, bg);
     }
     // The key: every class present, in order.
     let present: Vec<PatternClass> =
@@ -162,10 +186,12 @@ pub fn sweep_picture(s: &Sweep, style: &Style) -> Canvas {
         pen += 16.0 + Canvas::text_width(13.0, k.name()) + 18.0;
     }
     let mut note = String::new();
-    if s.axes.len() >= 2 {
-        if let Some((g, d)) = &target {
-            note = format!("lines: {g} {d} boundary at the % of length marked");
-        }
+    if s.sheet {
+        note = "repeating patterns: dominant wavelength (µm) of the gene that gave the class".into();
+    } else if s.axes.len() >= 2
+        && let Some((g, d)) = &target
+    {
+        note = format!("lines: {g} {d} boundary at the % of length marked");
     }
     if s.axes.len() > 2 {
         note.push_str("; other parameters at their middle values");

@@ -150,27 +150,38 @@ pub fn changing_gene(
 /// A sheet is classed by its whole area instead ([`crate::readout::sheet`]),
 /// after rule 1: the first gene (in model order) whose pattern repeats gives
 /// "spots", "parallel stripes" or "labyrinth"; else "domains" if some gene
-/// has one or a few domains; else "no boundary".
-pub fn classify(rec: &Recording, changing: bool, boundaries: &[Boundary], domains: &[Domain]) -> PatternClass {
+/// has one or a few domains; else "no boundary". A repeating class comes
+/// with its gene's dominant wavelength.
+pub fn classify(
+    rec: &Recording,
+    changing: bool,
+    boundaries: &[Boundary],
+    domains: &[Domain],
+) -> (PatternClass, Option<SheetWavelength>) {
     if changing {
-        return PatternClass::Changing;
+        return (PatternClass::Changing, None);
     }
     if rec.grid.is_sheet() {
         let patterns = crate::readout::sheet::final_sheet(rec).patterns;
-        let repeating = patterns.iter().find_map(|p| match p.class.as_str() {
-            "spots" => Some(PatternClass::Spots),
-            "stripes" => Some(PatternClass::ParallelStripes),
-            "labyrinth" => Some(PatternClass::Labyrinth),
-            _ => None,
+        let repeating = patterns.iter().find_map(|p| {
+            let class = match p.class.as_str() {
+                "spots" => PatternClass::Spots,
+                "stripes" => PatternClass::ParallelStripes,
+                "labyrinth" => PatternClass::Labyrinth,
+                _ => return None,
+            };
+            let wavelength =
+                p.wavelength_um.map(|wavelength_um| SheetWavelength { gene: p.gene.clone(), wavelength_um });
+            Some((class, wavelength))
         });
         return repeating.unwrap_or(if patterns.iter().any(|p| p.class == "domains") {
-            PatternClass::Domains
+            (PatternClass::Domains, None)
         } else {
-            PatternClass::NoBoundary
+            (PatternClass::NoBoundary, None)
         });
     }
     if boundaries.is_empty() {
-        return PatternClass::NoBoundary;
+        return (PatternClass::NoBoundary, None);
     }
     let length = rec.grid.length_um();
     let periodic = rec.grid.edges == crate::model::Edges::Periodic;
@@ -178,9 +189,20 @@ pub fn classify(rec: &Recording, changing: bool, boundaries: &[Boundary], domain
     let interior = |d: &Domain| periodic || (d.start_um > edge && d.end_um < length - edge);
     let most =
         rec.genes.iter().map(|g| domains.iter().filter(|d| &d.gene == g && interior(d)).count()).max().unwrap_or(0);
-    match most {
+    let class = match most {
         0 => PatternClass::Boundary,
         1 => PatternClass::Stripe,
         _ => PatternClass::SeveralStripes,
-    }
+    };
+    (class, None)
+}
+
+/// The dominant wavelength of a repeating sheet pattern, read on the gene
+/// that gave the point its class.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SheetWavelength {
+    /// The gene.
+    pub gene: String,
+    /// λ = 2π/|q| of the peak of the radially averaged power spectrum, µm.
+    pub wavelength_um: f64,
 }

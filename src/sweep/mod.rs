@@ -14,7 +14,7 @@ use crate::model::{Model, Param};
 use crate::progress::{Counter, Progress};
 use crate::readout::{self, Boundary, Domain};
 
-pub use class::{PatternClass, changing_gene, classify, settle_rates};
+pub use class::{PatternClass, SheetWavelength, changing_gene, classify, settle_rates};
 
 /// The most points a sweep may have (the product of the axes' counts).
 pub const MAX_POINTS: usize = 1_000_000;
@@ -162,6 +162,9 @@ pub struct Point {
     pub domains: Vec<Domain>,
     /// Why the run failed, if it did.
     pub failure: Option<String>,
+    /// On a sheet with a repeating pattern (spots, stripes, labyrinth):
+    /// its dominant wavelength.
+    pub wavelength: Option<SheetWavelength>,
 }
 
 /// A finished sweep.
@@ -173,6 +176,8 @@ pub struct Sweep {
     pub genes: Vec<String>,
     /// Axis length, µm.
     pub length_um: f64,
+    /// Whether the tissue is a sheet (points then carry wavelengths).
+    pub sheet: bool,
     /// Every point, in grid order.
     pub points: Vec<Point>,
 }
@@ -227,6 +232,7 @@ pub fn empty_sweep(model: &Model, axes: &[Axis]) -> Sweep {
         axes: axes.to_vec(),
         genes: model.genes.iter().map(|g| g.name.clone()).collect(),
         length_um: model.grid.length_um(),
+        sheet: model.grid.is_sheet(),
         points: Vec::new(),
     }
 }
@@ -258,8 +264,8 @@ pub(crate) fn point_at(model: &Model, axes: &[Axis], grid: &Sweep, k: usize) -> 
     let m = model_at(model, axes, &values);
     match run_point(&m) {
         Ok((rec, changing, boundaries, domains)) => {
-            let class = classify(&rec, changing, &boundaries, &domains);
-            Point { values, class, boundaries, domains, failure: None }
+            let (class, wavelength) = classify(&rec, changing, &boundaries, &domains);
+            Point { values, class, boundaries, domains, failure: None, wavelength }
         }
         Err(e) => Point {
             values,
@@ -267,6 +273,7 @@ pub(crate) fn point_at(model: &Model, axes: &[Axis], grid: &Sweep, k: usize) -> 
             boundaries: Vec::new(),
             domains: Vec::new(),
             failure: Some(e.to_string()),
+            wavelength: None,
         },
     }
 }

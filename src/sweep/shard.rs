@@ -7,7 +7,7 @@ use std::sync::atomic::AtomicBool;
 
 use serde::{Deserialize, Serialize};
 
-use super::{Axis, PatternClass, Point, Sweep};
+use super::{Axis, PatternClass, Point, SheetWavelength, Sweep};
 use crate::model::Model;
 use crate::progress::Progress;
 use crate::readout::{Boundary, Domain};
@@ -23,6 +23,9 @@ struct SavedPoint {
     /// (time, gene, direction, µm, %).
     boundaries: Vec<(f64, String, String, f64, f64)>,
     domains: Vec<Domain>,
+    /// (gene, µm) of a repeating sheet pattern.
+    #[serde(default)]
+    wavelength: Option<(String, f64)>,
 }
 
 fn class_named(name: &str) -> Option<PatternClass> {
@@ -42,6 +45,7 @@ fn save(index: usize, p: &Point) -> SavedPoint {
             .map(|b| (b.time_min, b.gene.clone(), b.direction.to_string(), b.position_um, b.position_pct))
             .collect(),
         domains: p.domains.clone(),
+        wavelength: p.wavelength.as_ref().map(|w| (w.gene.clone(), w.wavelength_um)),
     }
 }
 
@@ -104,6 +108,7 @@ pub fn merge(model: &Model, axes: &[Axis], job: &Job, dir: &Path) -> Result<Swee
                 })
                 .collect(),
             domains: p.domains,
+            wavelength: p.wavelength.map(|(gene, wavelength_um)| SheetWavelength { gene, wavelength_um }),
         })
         .collect();
     Ok(Sweep { points, ..super::empty_sweep(model, axes) })

@@ -37,6 +37,10 @@ for model in patterns/*.toml; do
     "$bin" bifurcation "$model" --parameter lumen.peak --from 0 --to 8 --at 46 --gene crest --width 560 -o "$out/bifurcation" > /dev/null
     rm -f "$out/growth_profiles.csv"
   fi
+  if [ "$name" = spots ]; then
+    # Where the sheet makes spots, and at what wavelength, as the inhibitor's spread and a change.
+    "$bin" sweep "$model" --axis smoke.diffusion=30:240:13:log --axis a=0.02:0.25:12 --width 560 -o "$out/sweep" > /dev/null
+  fi
   if [ "$name" = ring_waves ]; then
     "$bin" render "$out" --kind kymograph --genes cyan --heatmap --width 560 -o "$out/cyan" > /dev/null
   fi
